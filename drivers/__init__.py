@@ -1,0 +1,4 @@
+"""Instrument drivers.
+
+Everything above this package uses only the protocols in ``drivers.base``.
+"""

@@ -1,0 +1,391 @@
+"""Driver for a serial relay box speaking our line protocol (docs/relay-box-protocol.md).
+
+Every change is verified by reading the state back, every reply is checked (checksum, sequence
+number), and one corrupted or missing reply is retried: every verb of the protocol is idempotent,
+so repeating a command whose acknowledgement was lost cannot move a relay twice.
+"""
+
+from __future__ import annotations
+
+import logging
+import math
+import termios
+import threading
+from collections import deque
+from collections.abc import Iterable, Mapping
+
+import serial
+
+from drivers.base import InstrumentIdentity, RelayBox
+from drivers.relay_frames import (
+    MAX_REPLY_LINE,
+    TERMINATOR,
+    BoxInfo,
+    BoxState,
+    Command,
+    ErrorCode,
+    FrameError,
+    Reply,
+    Verb,
+    WatchdogMode,
+    decode_reply,
+    encode_command,
+    format_relays,
+    next_seq,
+    parse_counts,
+    parse_info,
+    parse_state,
+)
+from rig.errors import (
+    ConfigError,
+    InstrumentConnectionLost,
+    InstrumentError,
+    InstrumentProtocolError,
+    InstrumentReportedError,
+    InstrumentTimeout,
+    Problem,
+)
+
+log = logging.getLogger(__name__)
+
+DEFAULT_BAUDRATE = 115200
+DEFAULT_TIMEOUT_MS = 500
+_KNOWN_SETTINGS = ("baudrate", "timeout_ms")
+_ATTEMPTS = 2
+"""One try and one retry."""
+
+
+def _read_settings(name: str, settings: Mapping[str, object]) -> tuple[int, float]:
+    """Check the station settings of one box; return (baudrate, timeout in ms)."""
+    where = f"settings of instrument {name!r}"
+    problems: list[Problem] = []
+    for key in settings:
+        if key not in _KNOWN_SETTINGS:
+            problems.append(
+                Problem(where, key, f"unknown setting; known: {', '.join(_KNOWN_SETTINGS)}")
+            )
+    baudrate = settings.get("baudrate", DEFAULT_BAUDRATE)
+    if isinstance(baudrate, bool) or not isinstance(baudrate, int) or baudrate <= 0:
+        problems.append(
+            Problem(where, "baudrate", f"expected a positive whole number, found {baudrate!r}")
+        )
+    timeout = settings.get("timeout_ms", DEFAULT_TIMEOUT_MS)
+    if (
+        isinstance(timeout, bool)
+        or not isinstance(timeout, int | float)
+        or not math.isfinite(timeout)
+        or timeout <= 0
+    ):
+        problems.append(
+            Problem(where, "timeout_ms", f"expected a positive number of ms, found {timeout!r}")
+        )
+    if problems:
+        raise ConfigError(problems)
+    assert isinstance(baudrate, int) and isinstance(timeout, int | float)
+    return baudrate, float(timeout)
+
+
+class SerialRelayBox(RelayBox):
+    """A relay box on a serial port (or the simulator's pseudo-terminal)."""
+
+    def __init__(self, name: str, resource: str, settings: Mapping[str, object]) -> None:
+        self.name = name
+        self.resource = resource
+        self._baudrate, self._timeout_ms = _read_settings(name, settings)
+        self.retries = 0
+        """Commands that succeeded on their retry (a transient fault the engine should note)."""
+        self.tripped_at_open = False
+        """The box's watchdog had tripped before this driver opened it (and was then cleared)."""
+        self.heartbeat_error: InstrumentError | None = None
+        """The last error of the heartbeat thread, if any."""
+        self._lock = threading.RLock()
+        self._seq = 0
+        self._abandoned: deque[int] = deque(maxlen=8)
+        self._beat_stop: threading.Event | None = None
+        self._beat_thread: threading.Thread | None = None
+        try:
+            self._port = serial.Serial(
+                resource,
+                self._baudrate,
+                timeout=self._timeout_ms / 1000.0,
+                write_timeout=self._timeout_ms / 1000.0,
+                exclusive=True,
+            )
+        except (serial.SerialException, OSError, ValueError) as exc:
+            raise InstrumentConnectionLost(
+                f"cannot open serial port: {exc}", instrument=name, resource=resource
+            ) from exc
+        try:
+            info = self._info()
+            self.relay_count = info.relays
+            self.max_closed = info.budget
+            self._counts = dict.fromkeys(range(1, info.relays + 1), 0)
+            state = self._read_state()
+            self._known = state.closed
+            if state.watchdog is WatchdogMode.TRIPPED:
+                log.warning(
+                    "relay box %s at %s: watchdog had tripped before this session; clearing it",
+                    name,
+                    resource,
+                )
+                self.tripped_at_open = True
+                self._transact(Verb.WDOFF)
+        except BaseException:
+            self._port.close()
+            raise
+
+    # ---- RelayBox -----------------------------------------------------------------------------
+
+    def identity(self) -> InstrumentIdentity:
+        info = self._info()
+        fields = info.identity.split(",")
+        if len(fields) != 4:
+            raise self._error(
+                InstrumentProtocolError,
+                "identity must have 4 comma-separated fields (maker, model, serial, firmware), "
+                f"found {info.identity!r}",
+                "WHO",
+            )
+        return InstrumentIdentity(*(f.strip() for f in fields))
+
+    def open_all(self) -> None:
+        with self._lock:
+            before = self._known
+            self._transact(Verb.OPENALL)
+            self._count(before, frozenset())
+            self._verify(frozenset(), "OPENALL")
+
+    def apply(self, closed: Iterable[int]) -> None:
+        target = self._check_relays(closed)
+        arg = format_relays(target)
+        with self._lock:
+            before = self._known
+            self._transact(Verb.SET, arg)
+            self._count(before, target)
+            self._verify(target, f"SET {arg}")
+
+    def closed_relays(self) -> frozenset[int]:
+        with self._lock:
+            state = self._read_state()
+            self._known = state.closed
+            return state.closed
+
+    def start_watchdog(self, timeout_s: float) -> None:
+        if (
+            isinstance(timeout_s, bool)
+            or not isinstance(timeout_s, int | float)
+            or not math.isfinite(timeout_s)
+            or timeout_s <= 0
+        ):
+            raise self._error(
+                InstrumentError,
+                f"watchdog timeout must be a positive number of seconds, found {timeout_s!r}",
+                "WDARM",
+            )
+        self._stop_heartbeat()
+        self._transact(Verb.WDARM, str(round(timeout_s * 1000)))
+        stop = threading.Event()
+        thread = threading.Thread(
+            target=self._heartbeat,
+            args=(timeout_s / 3.0, stop),
+            name=f"relay-box heartbeat {self.name}",
+            daemon=True,
+        )
+        self._beat_stop, self._beat_thread = stop, thread
+        thread.start()
+
+    def stop_watchdog(self) -> None:
+        self._stop_heartbeat()
+        self._transact(Verb.WDOFF)
+
+    def operation_counts(self) -> dict[int, int]:
+        with self._lock:
+            return dict(self._counts)
+
+    def close(self) -> None:
+        """Stop the heartbeat and release the port; an armed watchdog stays armed and will trip."""
+        try:
+            self._stop_heartbeat()
+            self._port.close()
+        except Exception:  # close must never raise
+            log.exception("closing relay box %s at %s failed", self.name, self.resource)
+
+    # ---- extras -------------------------------------------------------------------------------
+
+    def box_counts(self) -> dict[int, int]:
+        """The box's own contact-operation counters (since its power-on), relay by relay."""
+        reply = self._transact(Verb.COUNTS)
+        try:
+            counts = parse_counts(reply.payload)
+        except FrameError as exc:
+            raise self._error(InstrumentProtocolError, str(exc), "COUNTS") from exc
+        if len(counts) != self.relay_count:
+            raise self._error(
+                InstrumentProtocolError,
+                f"box reported {len(counts)} counters, expected {self.relay_count}",
+                "COUNTS",
+            )
+        return {relay: counts[relay - 1] for relay in range(1, self.relay_count + 1)}
+
+    def watchdog_state(self) -> BoxState:
+        """The whole state reply (closed relays, watchdog mode and timeout)."""
+        return self._read_state()
+
+    # ---- internals ----------------------------------------------------------------------------
+
+    def _error(self, cls: type[InstrumentError], message: str, command: str) -> InstrumentError:
+        return cls(message, instrument=self.name, resource=self.resource, command=command)
+
+    def _check_relays(self, closed: Iterable[int]) -> frozenset[int]:
+        relays: set[int] = set()
+        for relay in closed:
+            if isinstance(relay, bool) or not isinstance(relay, int) or relay < 0:
+                raise self._error(
+                    InstrumentError,
+                    f"relay numbers must be whole numbers >= 1, found {relay!r}",
+                    "SET",
+                )
+            relays.add(relay)
+        return frozenset(relays)
+
+    def _info(self) -> BoxInfo:
+        reply = self._transact(Verb.WHO)
+        try:
+            return parse_info(reply.payload)
+        except FrameError as exc:
+            raise self._error(InstrumentProtocolError, str(exc), "WHO") from exc
+
+    def _read_state(self) -> BoxState:
+        reply = self._transact(Verb.STATE)
+        try:
+            return parse_state(reply.payload)
+        except FrameError as exc:
+            raise self._error(InstrumentProtocolError, str(exc), "STATE") from exc
+
+    def _count(self, before: frozenset[int], after: frozenset[int]) -> None:
+        for relay in before ^ after:
+            if relay in self._counts:
+                self._counts[relay] += 1
+
+    def _verify(self, expected: frozenset[int], command: str) -> None:
+        state = self._read_state()
+        self._known = state.closed
+        if state.closed != expected:
+            tripped = (
+                " (its watchdog has tripped)" if state.watchdog is WatchdogMode.TRIPPED else ""
+            )
+            raise self._error(
+                InstrumentReportedError,
+                f"read-back after the change shows closed {format_relays(state.closed)}"
+                f"{tripped}, expected {format_relays(expected)}",
+                command,
+            )
+
+    def _transact(self, verb: Verb, arg: str = "") -> Reply:
+        """Send one command and return its OK reply, retrying once on a bad or missing reply."""
+        text = f"{verb.value} {arg}".strip()
+        with self._lock:
+            failure: InstrumentError | None = None
+            for attempt in range(_ATTEMPTS):
+                seq = self._seq
+                self._seq = next_seq(seq)
+                frame = encode_command(Command(seq, verb.value, arg))
+                try:
+                    reply = self._exchange(seq, frame, text)
+                except (InstrumentTimeout, InstrumentProtocolError) as exc:
+                    self._abandoned.append(seq)
+                    failure = exc
+                    log.warning("relay box %s: %s (attempt %d)", self.name, exc, attempt + 1)
+                    continue
+                if not reply.ok and reply.code == ErrorCode.BAD_CHECKSUM and attempt == 0:
+                    failure = self._reported(reply, text)
+                    log.warning("relay box %s: command corrupted on the way: %s", self.name, reply)
+                    continue
+                if attempt > 0:
+                    self.retries += 1
+                if not reply.ok:
+                    raise self._reported(reply, text)
+                return reply
+            assert failure is not None
+            raise failure
+
+    def _reported(self, reply: Reply, command: str) -> InstrumentReportedError:
+        return InstrumentReportedError(
+            f"relay box refused: error {reply.code} {reply.text}",
+            code=reply.code,
+            instrument=self.name,
+            resource=self.resource,
+            command=command,
+        )
+
+    def _exchange(self, seq: int, frame: bytes, command: str) -> Reply:
+        port = self._port
+        try:
+            port.reset_input_buffer()
+            port.write(frame)
+            # a few stale replies to commands given up on may precede ours
+            for _ in range(1 + len(self._abandoned)):
+                line = port.read_until(TERMINATOR, MAX_REPLY_LINE)
+                if not line.endswith(TERMINATOR):
+                    if line:
+                        raise self._error(
+                            InstrumentProtocolError,
+                            f"reply not terminated by LF within {self._timeout_ms:g} ms: "
+                            f"{line[:60]!r}",
+                            command,
+                        )
+                    raise self._error(
+                        InstrumentTimeout, f"no reply within {self._timeout_ms:g} ms", command
+                    )
+                try:
+                    reply = decode_reply(line)
+                except FrameError as exc:
+                    raise self._error(
+                        InstrumentProtocolError, f"bad reply {line[:60]!r}: {exc}", command
+                    ) from exc
+                if reply.seq is None or reply.seq == seq:
+                    return reply
+                if reply.seq in self._abandoned:
+                    log.debug("relay box %s: discarding late reply %r", self.name, line)
+                    continue
+                raise self._error(
+                    InstrumentProtocolError,
+                    f"reply carries sequence number {reply.seq:04X}, expected {seq:04X}",
+                    command,
+                )
+            raise self._error(InstrumentProtocolError, "only stale replies arrived", command)
+        except serial.SerialTimeoutException as exc:
+            raise self._error(
+                InstrumentTimeout, f"write not done within {self._timeout_ms:g} ms", command
+            ) from exc
+        except (serial.SerialException, OSError, termios.error) as exc:
+            raise self._error(
+                InstrumentConnectionLost, f"serial port failed: {exc}", command
+            ) from exc
+
+    def _heartbeat(self, interval_s: float, stop: threading.Event) -> None:
+        """Feed the box's watchdog until told to stop; each beat takes the command lock."""
+        while not stop.wait(interval_s):
+            try:
+                reply = self._transact(Verb.BEAT)
+            except InstrumentConnectionLost as exc:
+                log.error("relay box %s: heartbeat stopped, port lost: %s", self.name, exc)
+                self.heartbeat_error = exc
+                return
+            except InstrumentError as exc:
+                log.warning("relay box %s: heartbeat failed: %s", self.name, exc)
+                self.heartbeat_error = exc
+                continue
+            if reply.payload == WatchdogMode.TRIPPED.value:
+                self.heartbeat_error = self._error(
+                    InstrumentReportedError, "watchdog has tripped: every relay was opened", "BEAT"
+                )
+                log.error("relay box %s: %s", self.name, self.heartbeat_error)
+
+    def _stop_heartbeat(self) -> None:
+        stop, thread = self._beat_stop, self._beat_thread
+        self._beat_stop = self._beat_thread = None
+        if stop is not None:
+            stop.set()
+        if thread is not None and thread is not threading.current_thread():
+            thread.join()

@@ -1,0 +1,128 @@
+"""A driver for single-output SCPI bench supplies, spellings in a table as for the DMM.
+
+Every set is followed by a read of the error queue, so a refused value or an over-current trip is
+reported at the step that caused it; ``output_is_on`` always asks the supply, because safe state is
+proven by read-back, never by what we last sent.
+"""
+
+from __future__ import annotations
+
+import logging
+import math
+from collections.abc import Mapping
+from types import MappingProxyType
+from typing import ClassVar
+
+from drivers.base import InstrumentIdentity, Supply
+from drivers.scpi_dmm import parse_identity
+from drivers.visa_session import (
+    VisaSession,
+    format_number,
+    merge_dialect,
+    parse_number,
+    raise_queued_errors,
+)
+from rig.errors import InstrumentProtocolError, RigError
+
+log = logging.getLogger(__name__)
+
+
+class ScpiSupply(Supply):
+    """``drivers.base.Supply`` over SCPI; constructor ``(name, resource, settings)``."""
+
+    #: Command roles -> templates.  Placeholders: {volts}, {amps}, {state} (``on``/``off`` entry).
+    DIALECT: ClassVar[Mapping[str, str]] = MappingProxyType(
+        {
+            "identity": "*IDN?",
+            "reset": "*RST;*CLS",
+            "error": "SYST:ERR?",
+            "voltage": "VOLT {volts}",
+            "current_limit": "CURR {amps}",
+            "output": "OUTP {state}",
+            "output_query": "OUTP?",
+            "measure_voltage": "MEAS:VOLT?",
+            "measure_current": "MEAS:CURR?",
+            "on": "ON",
+            "off": "OFF",
+        }
+    )
+
+    def __init__(self, name: str, resource: str, settings: Mapping[str, object]) -> None:
+        self.name = name
+        self.resource = resource
+        self._commands = merge_dialect(self.DIALECT, name, settings)
+        self._session = VisaSession(name, resource, settings)
+
+    # ----------------------------------------------------------------- Instrument
+
+    def identity(self) -> InstrumentIdentity:
+        command = self._commands["identity"]
+        return parse_identity(self._session.query(command), self._session.where(command))
+
+    def close(self) -> None:
+        self._session.close()
+
+    # ----------------------------------------------------------------- Supply
+
+    def reset(self) -> None:
+        """``*RST`` (output off on SCPI supplies) and ``*CLS``, then check the queue."""
+        self._set(self._commands["reset"])
+
+    def check_errors(self, after: str = "") -> None:
+        raise_queued_errors(self._session, self._commands["error"], after)
+
+    def set_voltage(self, volts: float) -> None:
+        value = self._non_negative("volts", volts)
+        self._set(self._commands["voltage"].format(volts=format_number(value)))
+
+    def set_current_limit(self, amps: float) -> None:
+        value = self._non_negative("amps", amps)
+        self._set(self._commands["current_limit"].format(amps=format_number(value)))
+
+    def set_output(self, on: bool) -> None:
+        if not isinstance(on, bool):
+            raise RigError(f"{self.name}: set_output needs True or False, got {on!r}")
+        state = self._commands["on" if on else "off"]
+        self._set(self._commands["output"].format(state=state))
+
+    def output_is_on(self) -> bool:
+        command = self._commands["output_query"]
+        reply = self._session.query(command).strip().upper()
+        if reply in ("1", "ON"):
+            return True
+        if reply in ("0", "OFF"):
+            return False
+        raise InstrumentProtocolError(
+            f"expected 1/0 or ON/OFF, got {reply!r}", **self._session.where(command)
+        )
+
+    def measure_voltage(self) -> float:
+        return self._measure("measure_voltage")
+
+    def measure_current(self) -> float:
+        return self._measure("measure_current")
+
+    # ----------------------------------------------------------------- internals
+
+    def _set(self, command: str) -> None:
+        self._session.write(command)
+        self.check_errors(after=command)
+
+    def _measure(self, role: str) -> float:
+        command = self._commands[role]
+        value = parse_number(self._session.query(command), where=self._session.where(command))
+        if math.isinf(value):
+            raise InstrumentProtocolError(
+                "supply sent an overload value as a reading", **self._session.where(command)
+            )
+        return value
+
+    def _non_negative(self, what: str, value: float) -> float:
+        if (
+            isinstance(value, bool)
+            or not isinstance(value, int | float)
+            or not math.isfinite(value)
+            or value < 0
+        ):
+            raise RigError(f"{self.name}: {what} must be a finite number >= 0, got {value!r}")
+        return float(value)

@@ -1,0 +1,58 @@
+"""Open a station's instruments through their drivers, refusing past-due calibration."""
+
+from __future__ import annotations
+
+import datetime as dt
+
+from drivers.base import Dmm, Instrument, RelayBox, Supply
+from drivers.registry import open_instrument
+from rig.config.station import Station
+from rig.engine import Bench
+from rig.errors import RigError
+
+
+class CalibrationPastDue(RigError):
+    """An instrument's calibration is past due and the station file does not allow it."""
+
+
+def check_calibration(station: Station, today: dt.date | None = None) -> list[str]:
+    """Refuse a past-due instrument unless the station allows it by name; returns notes."""
+    today = today or dt.date.today()
+    notes = []
+    for role, config in station.instruments.items():
+        due = config.calibration_due
+        if due is None or due >= today:
+            continue
+        if not config.allow_past_due:
+            raise CalibrationPastDue(
+                f"{role} ({config.resource}) was due for calibration on {due.isoformat()}; "
+                f"recalibrate it, or set allow_past_due = true under [{role}] in {station.path}"
+            )
+        notes.append(f"{role} calibration past due since {due.isoformat()} (allowed by station)")
+    return notes
+
+
+def open_bench(station: Station) -> Bench:
+    """Open DMM, supply and relay box; closes what was opened if a later one fails."""
+    opened: list[Instrument] = []
+    try:
+        found = {}
+        for role, expected in (("dmm", Dmm), ("supply", Supply), ("relay_box", RelayBox)):
+            config = station.instruments[role]
+            instrument = open_instrument(config.driver, role, config.resource, config.settings)
+            opened.append(instrument)
+            if not isinstance(instrument, expected):
+                raise RigError(
+                    f"driver {config.driver!r} for [{role}] is not a {expected.__name__} driver"
+                )
+            found[role] = instrument
+    except BaseException:
+        for instrument in opened:
+            instrument.close()
+        raise
+    return Bench(found["dmm"], found["supply"], found["relay_box"])  # type: ignore[arg-type]
+
+
+def close_bench(bench: Bench) -> None:
+    for instrument in bench.all():
+        instrument.close()

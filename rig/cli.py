@@ -1,0 +1,339 @@
+"""The ``rig`` command line.  Bad input is reported as text naming file and key, never as a
+traceback; exit codes: 0 pass, 1 fail, 2 bad input, 3 aborted or instrument fault."""
+
+from __future__ import annotations
+
+import argparse
+import logging
+import math
+import signal
+import sys
+import threading
+import time
+from pathlib import Path
+from types import FrameType
+
+from rig import __version__
+from rig.cli_output import Output, show, show_limits
+from rig.errors import ConfigError, RigError
+from rig.judge.decision import Verdict
+
+EXIT_PASS, EXIT_FAIL, EXIT_BAD_INPUT, EXIT_ABORTED = 0, 1, 2, 3
+
+CAUTION = (
+    "Caution: bench work on vehicle and machine electrics can burn, shock or start fires. "
+    "Disconnect batteries and supplies before changing connections, keep supply current limits "
+    "low, never probe mains, and follow local codes and licensed practice."
+)
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = _parser()
+    args = parser.parse_args(argv)
+    logging.basicConfig(level=logging.WARNING if not args.verbose else logging.DEBUG)
+    out = Output()
+    _sigterm_as_interrupt()
+    try:
+        return int(args.func(args, out))
+    except ConfigError as exc:
+        out.error("rig: the input has problems:")
+        for problem in exc.problems:
+            out.error(f"  {problem}")
+        return EXIT_BAD_INPUT
+    except RigError as exc:
+        out.error(f"rig: {exc}")
+        return EXIT_ABORTED
+    except KeyboardInterrupt:
+        out.error("rig: interrupted; the bench was brought to the safe state")
+        return EXIT_ABORTED
+
+
+def _sigterm_as_interrupt() -> None:
+    def handler(signum: int, frame: FrameType | None) -> None:
+        raise KeyboardInterrupt
+
+    if threading.current_thread() is threading.main_thread():
+        signal.signal(signal.SIGTERM, handler)
+
+
+def _parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(prog="rig", description="Automated bench test rig controller")
+    parser.add_argument("--version", action="version", version=f"rig {__version__}")
+    parser.add_argument("-v", "--verbose", action="store_true", help="debug logging")
+    sub = parser.add_subparsers(dest="command", required=True)
+
+    demo = sub.add_parser("demo", help="run the demo sequences on a virtual bench")
+    demo.add_argument("--json", action="store_true", help="one machine-readable summary")
+    demo.add_argument("--data-dir", type=Path, default=Path("rig-data/demo"))
+    demo.set_defaults(func=cmd_demo)
+
+    check = sub.add_parser("check", help="validate a sequence against a station and show its plan")
+    check.add_argument("sequence", type=Path)
+    check.add_argument("--station", type=Path, required=True)
+    check.set_defaults(func=cmd_check)
+
+    run = sub.add_parser("run", help="run a sequence on a station")
+    run.add_argument("sequence", type=Path)
+    run.add_argument("--station", type=Path, required=True)
+    run.add_argument("--serial", required=True)
+    run.add_argument("--operator", default="")
+    run.add_argument("--yes", action="store_true", help="confirm operator prompts automatically")
+    run.add_argument("--json", action="store_true")
+    run.set_defaults(func=cmd_run)
+
+    sim = sub.add_parser("sim", help="serve a virtual bench for a unit file")
+    sim.add_argument("--unit", type=Path, required=True)
+    sim.add_argument("--fault", action="append", default=[], metavar="SPEC")
+    sim.add_argument("--timing", choices=("instant", "real"), default="instant")
+    sim.add_argument("--station-out", type=Path, default=Path("rig-data/virtual-station.toml"))
+    sim.add_argument("--state-file", type=Path)
+    sim.add_argument("--dmm-port", type=int, default=0)
+    sim.add_argument("--supply-port", type=int, default=0)
+    sim.add_argument("--control-port", type=int, default=0)
+    sim.add_argument("--seed", type=int, default=0)
+    sim.set_defaults(func=cmd_sim)
+    return parser
+
+
+def _exit_code(verdict: Verdict, status: str) -> int:
+    if status != "complete" or verdict is Verdict.ERROR:
+        return EXIT_ABORTED
+    if verdict in (Verdict.FAIL, Verdict.CONDITIONAL_FAIL):
+        return EXIT_FAIL
+    return EXIT_PASS
+
+
+# --- rig demo ---------------------------------------------------------------------------------
+
+
+def cmd_demo(args: argparse.Namespace, out: Output) -> int:
+    from rig.demo import run_demo
+
+    if not args.json:
+        out.line(CAUTION)
+        out.line("Demo: a virtual bench with invented units and faults (no hardware needed).")
+        out.line()
+    store_path, runs = run_demo(args.data_dir.resolve())
+    if args.json:
+        out.json(
+            {
+                "store": str(store_path),
+                "runs": [
+                    {
+                        "run_id": r.summary.run_id,
+                        "serial": r.case.serial,
+                        "sequence": r.case.sequence,
+                        "unit": r.case.unit,
+                        "faults": list(r.case.faults),
+                        "verdict": r.summary.verdict.value,
+                        "status": r.summary.status,
+                        "failed_steps": r.summary.failed_steps,
+                    }
+                    for r in runs
+                ],
+            }
+        )
+        return 0
+    for r in runs:
+        faults = ", ".join(r.case.faults) or "none"
+        out.line(
+            f"{r.case.serial}  {r.case.sequence:<24} faults: {faults:<26} "
+            f"-> {r.summary.verdict.value.upper()}"
+        )
+        for result in r.summary.results:
+            if result.step_id in r.summary.failed_steps:
+                out.line(
+                    f"      {result.step_id}: {show(result.value, result.unit)} "
+                    f"(limits {show_limits(result.limits, result.unit)})"
+                )
+        if r.summary.reason:
+            out.line(f"      reason: {r.summary.reason}")
+    out.line()
+    out.line(f"{len(runs)} runs stored in {store_path}")
+    return 0
+
+
+# --- rig check --------------------------------------------------------------------------------
+
+
+def cmd_check(args: argparse.Namespace, out: Output) -> int:
+    from rig.config.fixture import describe_relay
+    from rig.runner import load_plan
+
+    plan = load_plan(args.sequence, args.station)
+    station = plan.station
+    out.line(f"sequence {plan.sequence.name} ({args.sequence}) on station {station.name}: valid")
+    rows = []
+    for step in plan.steps:
+        spec = step.spec
+        relays = " | ".join(",".join(str(r) for r in sorted(rs)) for rs in step.relay_sets)
+        u_text, tur_text = _estimate(plan, step)
+        rows.append(
+            [
+                spec.id,
+                spec.kind,
+                " ".join(f"{k}={v}" for k, v in spec.pins.items()),
+                relays or "-",
+                "ok",
+                "auto" if step.range_ is None else show(step.range_, _range_unit(spec)),
+                u_text,
+                tur_text,
+            ]
+        )
+    out.table(["step", "kind", "pins", "relays", "interlocks", "range", "U (k=2)", "TUR"], rows)
+    out.line()
+    out.line(
+        f"relay operations: {plan.relay_ops} as planned "
+        f"({plan.relay_ops_file_order()} in file order, {plan.relay_ops_unordered()} opening "
+        "everything between readings)"
+    )
+    out.line(f"duration at the physical limit: {plan.physical_limit_s() * 1000:.1f} ms")
+    for relay in sorted({r for s in plan.steps for rs in s.relay_sets for r in rs}):
+        del relay
+    _ = describe_relay
+    return 0
+
+
+def _range_unit(spec: object) -> str:
+    kind = getattr(spec, "kind", "")
+    return {"resistance": "ohm", "reference-temperature": "ohm", "supply-current": "A"}.get(
+        kind, "V"
+    )
+
+
+def _estimate(plan: object, step: object) -> tuple[str, str]:
+    """Expanded uncertainty and TUR at the upper (or lower) limit, on the planned range."""
+    from rig.judge.decision import test_uncertainty_ratio, tur_is_low
+    from rig.plan import Plan, PlannedStep
+    from rig.steps import KINDS
+
+    assert isinstance(plan, Plan) and isinstance(step, PlannedStep)
+    spec = step.spec
+    kind = KINDS[spec.kind]
+    if spec.limits is None or kind.function is None or step.range_ is None:
+        return "-", "-"
+    at = spec.limits.high if spec.limits.high is not None else spec.limits.low
+    if at is None:
+        return "-", "-"
+    function = kind.function.value
+    if spec.kind == "resistance":
+        function = "res4w" if spec.params.get("wires") == 4 else "res2w"
+    try:
+        u = plan.station.dmm_accuracy.spec_for(function, step.range_).standard_uncertainty(
+            at, step.range_
+        )
+    except ValueError:
+        return "-", "-"
+    expanded = 2 * u
+    tur = test_uncertainty_ratio(spec.limits, expanded)
+    tur_text = "-" if tur is None else f"{tur:.0f}:1" + (" LOW" if tur_is_low(tur) else "")
+    return show(expanded, kind.unit), tur_text
+
+
+# --- rig run ----------------------------------------------------------------------------------
+
+
+def cmd_run(args: argparse.Namespace, out: Output) -> int:
+    from rig.runner import load_plan, run_plan
+
+    plan = load_plan(args.sequence, args.station)
+    if args.json:
+        out.quiet = True
+    else:
+        out.line(CAUTION)
+
+    def ask(text: str) -> bool:
+        if args.yes:
+            out.line(f"  prompt: {text} (confirmed by --yes)")
+            return True
+        answer = input(f"  {text} [y/N] ")
+        return answer.strip().lower() in ("y", "yes")
+
+    summary = run_plan(plan, args.serial, operator=args.operator, listener=out.on_event, ask=ask)
+    if args.json:
+        out.quiet = False
+        out.json(
+            {
+                "run_id": summary.run_id,
+                "serial": summary.serial,
+                "sequence": summary.sequence,
+                "status": summary.status,
+                "verdict": summary.verdict.value,
+                "reason": summary.reason,
+                "failed_steps": summary.failed_steps,
+                "safe": summary.safe,
+                "store": str(plan.station.store_path),
+                "steps": [
+                    {
+                        "id": r.step_id,
+                        "value": None if math.isnan(r.value) else r.value,
+                        "unit": r.unit,
+                        "low": None if r.limits is None else r.limits.low,
+                        "high": None if r.limits is None else r.limits.high,
+                        "expanded_u": None if math.isnan(r.expanded_u) else r.expanded_u,
+                        "verdict": r.verdict.value,
+                    }
+                    for r in summary.results
+                ],
+            }
+        )
+    else:
+        out.line()
+        out.results(summary.results)
+        out.line()
+        out.line(f"verdict: {summary.verdict.value.upper()}  ({summary.status})")
+        if summary.reason:
+            out.line(f"reason: {summary.reason}")
+        out.line(f"record: run {summary.run_id} in {plan.station.store_path}")
+    return _exit_code(summary.verdict, summary.status)
+
+
+# --- rig sim ----------------------------------------------------------------------------------
+
+
+def cmd_sim(args: argparse.Namespace, out: Output) -> int:
+    from rig.config.fixture import load_fixture
+    from rig.config.unit_file import load_unit
+    from rig.faults import parse_faults
+    from rig.sim.bench import VirtualBench
+    from rig.sim.control import ControlServer
+    from rig.sim.timing import Timing
+
+    unit = load_unit(args.unit)
+    fixture = load_fixture(unit.fixture_path)
+    faults = parse_faults(args.fault, unit, source="--fault")
+    bench = VirtualBench(
+        unit,
+        fixture,
+        faults=faults,
+        timing=Timing(args.timing),
+        seed=args.seed,
+        state_file=args.state_file,
+        dmm_port=args.dmm_port,
+        supply_port=args.supply_port,
+    )
+    endpoints = bench.start()
+    control = ControlServer(bench, args.control_port)
+    try:
+        control.start()
+        station = bench.write_station(args.station_out)
+        out.line(f"virtual bench for unit {unit.name} ({args.timing} timing)")
+        out.line(f"  DMM        {endpoints.dmm_resource}")
+        out.line(f"  supply     {endpoints.supply_resource}")
+        out.line(f"  relay box  {endpoints.relay_port}")
+        out.line(f"  control    127.0.0.1:{control.port}")
+        out.line(f"  faults     {', '.join(f.spec for f in faults) or 'none'}")
+        out.line(f"station file written to {station}")
+        out.line("Ctrl-C or SIGTERM stops the bench.")
+        while True:
+            time.sleep(0.2)
+    except KeyboardInterrupt:
+        out.line("stopping the virtual bench")
+    finally:
+        control.stop()
+        bench.stop()
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,86 @@
+"""The one place the command line writes to the terminal: tables, progress and verdicts."""
+
+from __future__ import annotations
+
+import json
+import math
+import sys
+from collections.abc import Sequence
+from typing import Any, TextIO
+
+from rig.events import Event, RunFinished, RunStarted, StepFinished, StepResult
+from rig.judge.decision import Limits
+from rig.quantity import format_quantity
+
+
+class Output:
+    """Writes human output to ``out`` and errors to ``err``; ``quiet`` silences progress."""
+
+    def __init__(self, out: TextIO | None = None, err: TextIO | None = None) -> None:
+        self.out = out or sys.stdout
+        self.err = err or sys.stderr
+        self.quiet = False
+        self._total = 0
+
+    def line(self, text: str = "") -> None:
+        if not self.quiet:
+            print(text, file=self.out, flush=True)
+
+    def error(self, text: str) -> None:
+        print(text, file=self.err, flush=True)
+
+    def json(self, data: Any) -> None:
+        print(json.dumps(data, indent=2, default=str), file=self.out, flush=True)
+
+    def table(self, headers: Sequence[str], rows: Sequence[Sequence[str]]) -> None:
+        widths = [len(h) for h in headers]
+        for row in rows:
+            widths = [max(w, len(c)) for w, c in zip(widths, row, strict=True)]
+        self.line("  ".join(h.ljust(w) for h, w in zip(headers, widths, strict=True)))
+        self.line("  ".join("-" * w for w in widths))
+        for row in rows:
+            self.line("  ".join(c.ljust(w) for c, w in zip(row, widths, strict=True)))
+
+    # --- progress of a run --------------------------------------------------------------------
+
+    def on_event(self, event: Event) -> None:
+        if isinstance(event, RunStarted):
+            self._total = len(event.steps)
+            self.line(f"run {event.run_id}: {event.sequence} on unit {event.serial}")
+        elif isinstance(event, StepFinished):
+            r = event.result
+            done = r.position
+            bar = "#" * done + "." * max(0, self._total - done)
+            self.line(f"  [{bar}] {r.step_id}: {r.verdict.value}")
+        elif isinstance(event, RunFinished) and not event.safe:
+            self.error("WARNING: the bench could not be verified safe: " + "; ".join(event.notes))
+
+    def results(self, results: Sequence[StepResult]) -> None:
+        rows = [
+            [
+                r.step_id,
+                show(r.value, r.unit),
+                show_limits(r.limits, r.unit),
+                "" if math.isnan(r.expanded_u) else "±" + show(r.expanded_u, r.unit),
+                "" if r.tur is None else f"{r.tur:.1f}:1" + (" LOW" if r.tur_low else ""),
+                r.verdict.value.upper(),
+            ]
+            for r in results
+        ]
+        self.table(["step", "value", "limits", "U (k=2)", "TUR", "verdict"], rows)
+
+
+def show(value: float | None, unit: str) -> str:
+    if value is None:
+        return ""
+    if unit in ("", "s"):
+        return f"{value:g}{' s' if unit else ''}"
+    return format_quantity(value, unit)
+
+
+def show_limits(limits: Limits | None, unit: str) -> str:
+    if limits is None:
+        return "(none)"
+    low = "-inf" if limits.low is None else show(limits.low, unit)
+    high = "+inf" if limits.high is None else show(limits.high, unit)
+    return f"{low} .. {high}"

@@ -1,0 +1,247 @@
+"""Typed, problem-collecting access to a parsed TOML file.
+
+Loaders read every key through a ``Section``; a missing or wrong value is recorded as a ``Problem``
+(file, key path, line where it can be found, expected versus found) and loading goes on, so that one
+run of ``rig check`` lists every problem at once instead of the first.
+"""
+
+from __future__ import annotations
+
+import re
+import tomllib
+from collections.abc import Iterator
+from pathlib import Path
+from typing import Any
+
+from rig.errors import ConfigError, Problem
+from rig.quantity import QuantityError, parse_quantity
+
+_MISSING: Any = object()
+
+
+class TomlDoc:
+    """One TOML file: its text, its data and the problems found while reading it."""
+
+    def __init__(self, path: Path, text: str | None = None) -> None:
+        self.path = Path(path)
+        self.name = str(path)
+        self.problems: list[Problem] = []
+        if text is None:
+            try:
+                text = self.path.read_text(encoding="utf-8")
+            except FileNotFoundError:
+                raise ConfigError([Problem(self.name, "", "file not found")]) from None
+            except (OSError, UnicodeDecodeError) as exc:
+                raise ConfigError(
+                    [Problem(self.name, "", f"cannot read the file: {exc}")]
+                ) from None
+        self.text = text
+        self._lines = text.splitlines()
+        try:
+            self.data: dict[str, Any] = tomllib.loads(text)
+        except tomllib.TOMLDecodeError as exc:
+            line = _line_from_decode_error(str(exc))
+            raise ConfigError(
+                [Problem(self.name, "", f"not valid TOML: {exc}", line=line)]
+            ) from None
+
+    @property
+    def root(self) -> Section:
+        return Section(self, self.data, "")
+
+    def problem(self, key: str, message: str) -> None:
+        self.problems.append(Problem(self.name, key, message, line=self.line_of(key)))
+
+    def line_of(self, key_path: str) -> int | None:
+        """Best-effort line of a key path such as ``wires.signal.length_m`` (1-based)."""
+        if not key_path:
+            return None
+        parts = [p for p in re.split(r"\.|\[\d+\]", key_path) if p]
+        leaf = parts[-1]
+        table = ".".join(parts[:-1])
+        in_table = not table
+        header = re.compile(r"^\s*\[\[?\s*([^\]]+?)\s*\]\]?\s*$")
+        key_re = re.compile(rf'^\s*"?{re.escape(leaf)}"?\s*=')
+        table_re = re.compile(rf"^\s*\[\[?\s*{re.escape(key_path)}\s*\]\]?\s*$")
+        for number, line in enumerate(self._lines, start=1):
+            found = header.match(line)
+            if found:
+                if table_re.match(line):
+                    return number
+                in_table = not table or found.group(1).strip().endswith(table.split(".")[-1])
+                continue
+            if in_table and key_re.match(line):
+                return number
+        return None
+
+    def raise_if_problems(self) -> None:
+        if self.problems:
+            raise ConfigError(self.problems)
+
+
+def _line_from_decode_error(message: str) -> int | None:
+    found = re.search(r"line (\d+)", message)
+    return int(found.group(1)) if found else None
+
+
+def _describe(value: object) -> str:
+    text = repr(value)
+    return text if len(text) <= 60 else text[:57] + "..."
+
+
+class Section:
+    """A table of a TOML file, read key by key with problems recorded in its document."""
+
+    def __init__(self, doc: TomlDoc, data: dict[str, Any], prefix: str) -> None:
+        self.doc = doc
+        self.data = data
+        self.prefix = prefix
+        self._seen: set[str] = set()
+
+    def key(self, name: str) -> str:
+        return f"{self.prefix}.{name}" if self.prefix else name
+
+    def has(self, name: str) -> bool:
+        return name in self.data
+
+    def problem(self, name: str, message: str) -> None:
+        self.doc.problem(self.key(name) if name else self.prefix, message)
+
+    def _get(self, name: str, default: Any, expected: str) -> Any:
+        self._seen.add(name)
+        if name not in self.data:
+            if default is _MISSING:
+                self.problem(name, f"missing; expected {expected}")
+            return default
+        return self.data[name]
+
+    def string(self, name: str, default: Any = _MISSING, choices: tuple[str, ...] = ()) -> Any:
+        expected = "one of " + ", ".join(repr(c) for c in choices) if choices else "a string"
+        value = self._get(name, default, expected)
+        if value is default:
+            return value
+        if not isinstance(value, str) or (choices and value not in choices):
+            self.problem(name, f"expected {expected}, found {_describe(value)}")
+            return default if default is not _MISSING else None
+        return value
+
+    def number(self, name: str, default: Any = _MISSING, *, minimum: float | None = None) -> Any:
+        value = self._get(name, default, "a number")
+        if value is default:
+            return value
+        if isinstance(value, bool) or not isinstance(value, int | float):
+            self.problem(name, f"expected a number, found {_describe(value)}")
+            return default if default is not _MISSING else None
+        if minimum is not None and value < minimum:
+            self.problem(name, f"expected a number of at least {minimum}, found {value}")
+            return default if default is not _MISSING else None
+        return float(value)
+
+    def integer(self, name: str, default: Any = _MISSING, *, minimum: int | None = None) -> Any:
+        value = self._get(name, default, "a whole number")
+        if value is default:
+            return value
+        if isinstance(value, bool) or not isinstance(value, int):
+            self.problem(name, f"expected a whole number, found {_describe(value)}")
+            return default if default is not _MISSING else None
+        if minimum is not None and value < minimum:
+            self.problem(name, f"expected a whole number of at least {minimum}, found {value}")
+            return default if default is not _MISSING else None
+        return value
+
+    def boolean(self, name: str, default: Any = _MISSING) -> Any:
+        value = self._get(name, default, "true or false")
+        if value is default:
+            return value
+        if not isinstance(value, bool):
+            self.problem(name, f"expected true or false, found {_describe(value)}")
+            return default if default is not _MISSING else None
+        return value
+
+    def quantity(
+        self, name: str, unit: str, default: Any = _MISSING, *, positive: bool = False
+    ) -> Any:
+        """A value with its unit ("2.2 kohm"), returned in SI."""
+        value = self._get(name, default, f"a value in {unit} such as '1.5 {unit}'")
+        if value is default:
+            return value
+        try:
+            result = parse_quantity(value, unit)
+        except QuantityError as exc:
+            self.problem(name, str(exc))
+            return default if default is not _MISSING else None
+        if positive and result <= 0:
+            self.problem(name, f"expected a positive value in {unit}, found {value!r}")
+            return default if default is not _MISSING else None
+        return result
+
+    def string_list(self, name: str, default: Any = _MISSING) -> Any:
+        value = self._get(name, default, "a list of strings")
+        if value is default:
+            return value
+        if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
+            self.problem(name, f"expected a list of strings, found {_describe(value)}")
+            return default if default is not _MISSING else []
+        return list(value)
+
+    def int_list(self, name: str, default: Any = _MISSING) -> Any:
+        value = self._get(name, default, "a list of whole numbers")
+        if value is default:
+            return value
+        if not isinstance(value, list) or not all(
+            isinstance(v, int) and not isinstance(v, bool) for v in value
+        ):
+            self.problem(name, f"expected a list of whole numbers, found {_describe(value)}")
+            return default if default is not _MISSING else []
+        return list(value)
+
+    def table(self, name: str, *, required: bool = False) -> Section | None:
+        self._seen.add(name)
+        value = self.data.get(name)
+        if value is None:
+            if required:
+                self.problem(name, "missing; expected a table")
+            return None
+        if not isinstance(value, dict):
+            self.problem(name, f"expected a table, found {_describe(value)}")
+            return None
+        return Section(self.doc, value, self.key(name))
+
+    def named_tables(self, name: str) -> Iterator[tuple[str, Section]]:
+        """The sub-tables of table ``name`` (``[wires.signal]``, ``[wires.ground]`` ...)."""
+        parent = self.table(name)
+        if parent is None:
+            return
+        for child, value in parent.data.items():
+            parent._seen.add(child)
+            if not isinstance(value, dict):
+                parent.problem(child, f"expected a table, found {_describe(value)}")
+                continue
+            yield child, Section(self.doc, value, parent.key(child))
+
+    def table_list(self, name: str) -> Iterator[Section]:
+        """An array of tables (``[[steps]]``)."""
+        self._seen.add(name)
+        value = self.data.get(name)
+        if value is None:
+            return
+        if not isinstance(value, list):
+            self.problem(name, f"expected an array of tables [[{name}]], found {_describe(value)}")
+            return
+        for index, item in enumerate(value):
+            if not isinstance(item, dict):
+                self.problem(f"{name}[{index}]", f"expected a table, found {_describe(item)}")
+                continue
+            yield Section(self.doc, item, f"{self.key(name)}[{index}]")
+
+    def raw(self, name: str) -> Any:
+        self._seen.add(name)
+        return self.data.get(name)
+
+    def reject_unknown(self, *also_allowed: str) -> None:
+        """Every key not read is reported: a typo must not be silently ignored."""
+        allowed = self._seen | set(also_allowed)
+        for name in self.data:
+            if name not in allowed:
+                known = ", ".join(sorted(allowed)) or "none"
+                self.problem(name, f"unknown key; expected one of: {known}")

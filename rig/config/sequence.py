@@ -1,0 +1,116 @@
+"""Sequence files: the steps of a test, as data (TOML).  Nothing in a sequence is ever executed.
+
+A sequence has a header (name, decision rule, whether steps may be reordered) and an array of
+``[[steps]]``, each with an ``id``, a ``kind`` (see ``rig.steps.KINDS`` and docs/sequence-file.md)
+and that kind's keys.  A step may use an earlier step's result by naming its id
+(``temperature_from = "ambient"``), never through an expression.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import re
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from rig.config.reader import Section, TomlDoc
+from rig.judge.decision import DecisionRule
+from rig.steps import KINDS, StepSpec
+
+_ID = re.compile(r"^[a-z][a-z0-9_-]{0,47}$")
+RULES = {"simple": DecisionRule.SIMPLE, "guarded": DecisionRule.GUARDED}
+
+
+@dataclass
+class Sequence:
+    name: str
+    path: Path
+    content_hash: str
+    description: str = ""
+    rule: DecisionRule = DecisionRule.SIMPLE
+    reorder: bool = True
+    steps: list[StepSpec] = field(default_factory=list)
+
+    def step(self, step_id: str) -> StepSpec:
+        return next(s for s in self.steps if s.id == step_id)
+
+
+def load_sequence(path: Path | str) -> Sequence:
+    """Read and validate a sequence; raises ``ConfigError`` listing every problem."""
+    doc = TomlDoc(Path(path))
+    sequence = parse_sequence(doc)
+    doc.raise_if_problems()
+    return sequence
+
+
+def parse_sequence(doc: TomlDoc) -> Sequence:
+    root = doc.root
+    head = root.table("sequence", required=True)
+    sequence = Sequence(
+        name="",
+        path=doc.path,
+        content_hash=hashlib.sha256(doc.text.encode("utf-8")).hexdigest(),
+    )
+    if head:
+        sequence.name = head.string("name") or ""
+        sequence.description = head.string("description", "")
+        rule = head.string("decision_rule", "simple", choices=tuple(RULES))
+        sequence.rule = RULES.get(rule or "simple", DecisionRule.SIMPLE)
+        sequence.reorder = head.boolean("reorder", True)
+        head.reject_unknown()
+    seen: set[str] = set()
+    for sec in root.table_list("steps"):
+        spec = _parse_step(sec, sequence.rule, seen)
+        if spec is not None:
+            sequence.steps.append(spec)
+            seen.add(spec.id)
+    if not sequence.steps and not doc.problems:
+        root.problem("steps", "no steps; expected one or more [[steps]] tables")
+    root.reject_unknown()
+    return sequence
+
+
+def _parse_step(sec: Section, default_rule: DecisionRule, seen: set[str]) -> StepSpec | None:
+    step_id = sec.string("id")
+    kind_name = sec.string("kind", choices=tuple(KINDS))
+    if step_id is not None and not _ID.match(step_id):
+        sec.problem("id", f"expected lower-case letters, digits, '-' or '_', found {step_id!r}")
+    if step_id in seen:
+        sec.problem("id", f"step id {step_id!r} is used twice")
+    if not step_id or kind_name is None or kind_name not in KINDS:
+        return None
+    kind = KINDS[kind_name]
+    rule_name = sec.string("decision_rule", None, choices=tuple(RULES))
+    spec = StepSpec(
+        id=step_id,
+        kind=kind_name,
+        title=sec.string("title", step_id),
+        key=sec.prefix,
+        nplc=sec.number("nplc", 1.0, minimum=0.001),
+        rule=RULES[rule_name] if rule_name else default_rule,
+    )
+    kind.parse(sec, spec)
+    if sec.raw("range") not in (None, "auto"):
+        spec.range_ = sec.quantity("range", _meter_unit(kind.unit, spec))
+    for ref in spec.depends_on:
+        if ref not in seen:
+            sec.problem(
+                _ref_key(sec),
+                f"names step {ref!r}, which is not an earlier step of this sequence",
+            )
+    sec.reject_unknown()
+    return spec
+
+
+def _meter_unit(kind_unit: str, spec: StepSpec) -> str:
+    """The unit of the meter's range for a step (a temperature step reads ohms)."""
+    if "unit" in spec.params:
+        return str(spec.params["unit"])
+    return {"degC": "ohm", "%": "V"}.get(kind_unit, kind_unit)
+
+
+def _ref_key(sec: Section) -> str:
+    for key in ("temperature_from", "reference_from"):
+        if sec.has(key):
+            return key
+    return "id"

@@ -1,0 +1,197 @@
+"""The station file: which instruments this bench has, where they are, and how good they are.
+
+A station names its fixture map, its DMM, supply and relay box (driver name from the ``rig.drivers``
+entry points, VISA resource or serial port, settings, calibration due date), the DMM's accuracy as
+its data sheet states it (per function and range, % of reading + % of range, or ppm), and the mains
+frequency.  See ``docs/station-file.md``.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from rig.config.fixture import FixtureMap, parse_fixture
+from rig.config.reader import Section, TomlDoc
+from rig.errors import ConfigError
+from rig.judge.accuracy import AccuracySpec, AccuracyTable
+
+FUNCTIONS = {"dcv": "V", "res2w": "ohm", "res4w": "ohm", "dci": "A"}
+ROLES = ("dmm", "supply", "relay_box")
+
+
+@dataclass
+class InstrumentConfig:
+    role: str
+    driver: str
+    resource: str
+    settings: dict[str, Any] = field(default_factory=dict)
+    calibration_due: dt.date | None = None
+    allow_past_due: bool = False
+
+
+@dataclass
+class Station:
+    name: str
+    path: Path
+    fixture: FixtureMap
+    instruments: dict[str, InstrumentConfig]
+    dmm_accuracy: AccuracyTable
+    supply_accuracy: dict[str, tuple[float, AccuracySpec]]
+    line_hz: float = 50.0
+    data_dir: Path = Path("rig-data")
+    lead_zero_ohm: dict[str, float] = field(default_factory=dict)
+    """Fixture lead resistance per pin pair ("A:B"), subtracted from resistance readings."""
+    watchdog_s: float = 2.0
+
+    @property
+    def store_path(self) -> Path:
+        return self.data_dir / "results.sqlite"
+
+
+def load_station(path: Path | str) -> Station:
+    """Read and validate a station file and its fixture map; lists every problem of both."""
+    doc = TomlDoc(Path(path))
+    root = doc.root
+    head = root.table("station", required=True)
+    name = "station"
+    line_hz = 50.0
+    data_dir = doc.path.parent / "rig-data"
+    fixture: FixtureMap | None = None
+    fixture_problems: list[Any] = []
+    watchdog_s = 2.0
+    if head:
+        name = head.string("name") or "station"
+        line_hz = head.quantity("line_frequency", "Hz", 50.0, positive=True)
+        if line_hz not in (50.0, 60.0):
+            head.problem("line_frequency", f"expected 50 Hz or 60 Hz, found {line_hz:g} Hz")
+        data_text = head.string("data_dir", "rig-data")
+        data_dir = (doc.path.parent / data_text).resolve()
+        watchdog_s = head.quantity("watchdog", "s", 2.0, positive=True)
+        fixture_text = head.string("fixture")
+        if fixture_text:
+            fixture_path = (doc.path.parent / fixture_text).resolve()
+            try:
+                fixture_doc = TomlDoc(fixture_path)
+                fixture = parse_fixture(fixture_doc)
+                fixture_problems = fixture_doc.problems
+            except ConfigError as exc:
+                fixture_problems = exc.problems
+        head.reject_unknown()
+
+    instruments: dict[str, InstrumentConfig] = {}
+    accuracy = AccuracyTable({})
+    supply_accuracy: dict[str, tuple[float, AccuracySpec]] = {}
+    for role in ROLES:
+        sec = root.table(role, required=True)
+        if sec is None:
+            continue
+        instruments[role] = _instrument(role, sec)
+        if role == "dmm":
+            accuracy = _accuracy_table(sec)
+        if role == "supply":
+            supply_accuracy = _supply_accuracy(sec)
+        sec.reject_unknown()
+
+    zeros: dict[str, float] = {}
+    zero_sec = root.table("lead_zero")
+    if zero_sec:
+        for pair in list(zero_sec.data):
+            value = zero_sec.quantity(pair, "ohm")
+            if value is not None:
+                zeros[pair] = value
+        zero_sec.reject_unknown()
+    root.reject_unknown()
+
+    problems = doc.problems + fixture_problems
+    if fixture is None and not fixture_problems and head is not None:
+        pass  # 'fixture' missing was already recorded by head.string
+    if problems:
+        raise ConfigError(problems)
+    assert fixture is not None
+    return Station(
+        name=name,
+        path=doc.path,
+        fixture=fixture,
+        instruments=instruments,
+        dmm_accuracy=accuracy,
+        supply_accuracy=supply_accuracy,
+        line_hz=line_hz,
+        data_dir=data_dir,
+        lead_zero_ohm=zeros,
+        watchdog_s=watchdog_s,
+    )
+
+
+def _instrument(role: str, sec: Section) -> InstrumentConfig:
+    driver = sec.string("driver") or ""
+    resource = sec.string("resource") or ""
+    due = sec.raw("calibration_due")
+    if due is not None and not isinstance(due, dt.date):
+        sec.problem("calibration_due", f"expected a TOML date such as 2027-06-30, found {due!r}")
+        due = None
+    if isinstance(due, dt.datetime):
+        due = due.date()
+    settings_sec = sec.table("settings")
+    settings = dict(settings_sec.data) if settings_sec else {}
+    return InstrumentConfig(
+        role=role,
+        driver=driver,
+        resource=resource,
+        settings=settings,
+        calibration_due=due,
+        allow_past_due=sec.boolean("allow_past_due", False),
+    )
+
+
+def _spec(entry: Section) -> AccuracySpec:
+    if entry.has("ppm_reading") or entry.has("ppm_range"):
+        return AccuracySpec.from_ppm(
+            entry.number("ppm_reading", 0.0, minimum=0), entry.number("ppm_range", 0.0, minimum=0)
+        )
+    return AccuracySpec(
+        entry.number("pct_reading", 0.0, minimum=0), entry.number("pct_range", 0.0, minimum=0)
+    )
+
+
+def _accuracy_table(sec: Section) -> AccuracyTable:
+    table = sec.table("accuracy", required=True)
+    entries: dict[str, list[tuple[float, AccuracySpec]]] = {}
+    if table is None:
+        return AccuracyTable({})
+    for function, unit in FUNCTIONS.items():
+        rows: list[tuple[float, AccuracySpec]] = []
+        for entry in table.table_list(function):
+            upper = entry.quantity("range", unit, positive=True)
+            spec = _spec(entry)
+            entry.reject_unknown()
+            if upper is not None:
+                rows.append((upper, spec))
+        if not rows:
+            table.problem(function, f"missing; expected [[dmm.accuracy.{function}]] rows")
+        else:
+            entries[function] = rows
+    table.reject_unknown()
+    try:
+        return AccuracyTable(entries)
+    except ValueError as exc:
+        table.problem("", str(exc))
+        return AccuracyTable({})
+
+
+def _supply_accuracy(sec: Section) -> dict[str, tuple[float, AccuracySpec]]:
+    """Readback accuracy of the supply: 'voltage' and 'current', each (range, spec)."""
+    table = sec.table("accuracy")
+    found: dict[str, tuple[float, AccuracySpec]] = {}
+    if table is None:
+        return found
+    for what, unit in (("voltage", "V"), ("current", "A")):
+        entry = table.table(what)
+        if entry:
+            upper = entry.quantity("range", unit, positive=True) or 1.0
+            found[what] = (upper, _spec(entry))
+            entry.reject_unknown()
+    table.reject_unknown()
+    return found

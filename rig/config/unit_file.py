@@ -1,0 +1,369 @@
+"""The unit model: what sits on the fixture, read from a TOML file of our own design.
+
+A unit file describes the unit under test and its surroundings as circuit parts between named nodes:
+harness wires, sensors, the controller emulation (reference, feed, pull-ups), a reference Pt100 at
+ambient, capacitances that slow settling, and the ambient conditions.  Node names that are fixture
+pins can be reached by the meter; node ``0`` (or ``gnd``) is bench ground.  See
+``docs/unit-file.md`` for the full reference.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from rig.config.reader import Section, TomlDoc
+from rig.models.copper import area_from_gauge
+
+SENSOR_KINDS = ("ntc", "ratiometric", "potentiometer", "switch")
+
+
+@dataclass(frozen=True)
+class Wire:
+    name: str
+    a: str
+    b: str
+    area_mm2: float
+    length_m: float
+    gauge: str
+
+
+@dataclass(frozen=True)
+class Resistor:
+    name: str
+    a: str
+    b: str
+    r_ohm: float
+    tolerance_pct: float = 0.0
+
+
+@dataclass(frozen=True)
+class Capacitor:
+    name: str
+    a: str
+    b: str
+    c_farad: float
+
+
+@dataclass(frozen=True)
+class Source:
+    """A controller-side voltage: its node, relative to the controller ground."""
+
+    name: str
+    node: str
+    volts: float
+    tolerance_pct: float = 0.0
+
+
+@dataclass(frozen=True)
+class NtcSensor:
+    name: str
+    a: str
+    b: str
+    r25_ohm: float | None = None
+    beta_k: float | None = None
+    sh_coefficients: tuple[float, float, float] | None = None
+    temp_c: float | None = None
+    r25_tolerance_pct: float = 0.0
+    beta_tolerance_pct: float = 0.0
+
+
+@dataclass(frozen=True)
+class RatiometricSensor:
+    name: str
+    supply: str
+    output: str
+    ground: str
+    p_low_pa: float
+    p_high_pa: float
+    fraction_low: float = 0.1
+    fraction_high: float = 0.9
+    pressure_pa: float | None = None
+    quiescent_a: float = 0.005
+    r_out_ohm: float = 100.0
+
+
+@dataclass(frozen=True)
+class Potentiometer:
+    name: str
+    a: str
+    b: str
+    wiper: str
+    r_ohm: float
+    position: float
+
+
+@dataclass(frozen=True)
+class SwitchSensor:
+    name: str
+    a: str
+    b: str
+    closed: bool
+    r_on_ohm: float = 0.05
+
+
+Sensor = NtcSensor | RatiometricSensor | Potentiometer | SwitchSensor
+
+
+@dataclass(frozen=True)
+class ReferenceProbe:
+    """A bench Pt100 (or Pt1000) at ambient, wired for 4-wire measurement on pins of its own."""
+
+    force_hi: str
+    sense_hi: str
+    force_lo: str
+    sense_lo: str
+    r0_ohm: float = 100.0
+    lead_ohm: float = 0.1
+
+
+@dataclass
+class Controller:
+    ground: str
+    sources: list[Source] = field(default_factory=list)
+
+    def source(self, name: str) -> Source | None:
+        return next((s for s in self.sources if s.name == name), None)
+
+
+@dataclass
+class UnitModel:
+    name: str
+    path: Path
+    fixture_path: Path
+    description: str = ""
+    ambient_c: float = 23.0
+    pressure_pa: float = 101_325.0
+    controller: Controller | None = None
+    wires: dict[str, Wire] = field(default_factory=dict)
+    resistors: dict[str, Resistor] = field(default_factory=dict)
+    sensors: dict[str, Sensor] = field(default_factory=dict)
+    capacitors: dict[str, Capacitor] = field(default_factory=dict)
+    probe: ReferenceProbe | None = None
+
+    def nodes(self) -> set[str]:
+        """Every node the unit file names (fixture pins among them)."""
+        found: set[str] = set()
+        for wire in self.wires.values():
+            found |= {wire.a, wire.b}
+        for res in self.resistors.values():
+            found |= {res.a, res.b}
+        for cap in self.capacitors.values():
+            found |= {cap.a, cap.b}
+        for sensor in self.sensors.values():
+            found |= _sensor_nodes(sensor)
+        if self.controller:
+            found.add(self.controller.ground)
+            found |= {s.node for s in self.controller.sources}
+        if self.probe:
+            p = self.probe
+            found |= {p.force_hi, p.sense_hi, p.force_lo, p.sense_lo}
+        return found
+
+
+def _sensor_nodes(sensor: Sensor) -> set[str]:
+    if isinstance(sensor, RatiometricSensor):
+        return {sensor.supply, sensor.output, sensor.ground}
+    if isinstance(sensor, Potentiometer):
+        return {sensor.a, sensor.b, sensor.wiper}
+    return {sensor.a, sensor.b}
+
+
+def load_unit(path: Path | str) -> UnitModel:
+    """Read and validate a unit file; raises ``ConfigError`` listing every problem."""
+    doc = TomlDoc(Path(path))
+    unit = parse_unit(doc)
+    doc.raise_if_problems()
+    return unit
+
+
+def _between(section: Section, name: str = "between") -> tuple[str, str]:
+    nodes = section.string_list(name)
+    if nodes is None or len(nodes) != 2 or nodes[0] == nodes[1]:
+        if nodes is not None:
+            section.problem(name, f"expected two different node names, found {nodes!r}")
+        return ("?", "?")
+    return nodes[0], nodes[1]
+
+
+def _percent(section: Section, name: str) -> float:
+    value = section.quantity(name, "%", None)
+    return 0.0 if value is None else float(value)
+
+
+def parse_unit(doc: TomlDoc) -> UnitModel:
+    root = doc.root
+    head = root.table("unit", required=True)
+    name = description = ""
+    fixture_path = doc.path
+    if head:
+        name = head.string("name") or ""
+        description = head.string("description", "")
+        fixture_text = head.string("fixture")
+        if fixture_text:
+            fixture_path = (doc.path.parent / fixture_text).resolve()
+        head.reject_unknown()
+    unit = UnitModel(name=name, path=doc.path, fixture_path=fixture_path, description=description)
+
+    ambient = root.table("ambient")
+    if ambient:
+        unit.ambient_c = ambient.quantity("temperature", "degC", 23.0)
+        unit.pressure_pa = ambient.quantity("pressure", "Pa", 101_325.0, positive=True)
+        ambient.reject_unknown()
+
+    controller = root.table("controller")
+    if controller:
+        unit.controller = Controller(ground=controller.string("ground") or "?")
+        for src_name, src in controller.named_tables("sources"):
+            unit.controller.sources.append(
+                Source(
+                    name=src_name,
+                    node=src.string("node") or "?",
+                    volts=src.quantity("voltage", "V") or 0.0,
+                    tolerance_pct=_percent(src, "tolerance"),
+                )
+            )
+            src.reject_unknown()
+        controller.reject_unknown()
+
+    for wire_name, sec in root.named_tables("wires"):
+        a, b = _between(sec)
+        gauge = sec.string("gauge") or ""
+        area = 0.0
+        if gauge:
+            try:
+                area = area_from_gauge(gauge)
+            except ValueError as exc:
+                sec.problem("gauge", str(exc))
+        length = sec.quantity("length", "m", positive=True) or 0.0
+        unit.wires[wire_name] = Wire(wire_name, a, b, area, length, gauge)
+        sec.reject_unknown()
+
+    for res_name, sec in root.named_tables("resistors"):
+        a, b = _between(sec)
+        value = sec.quantity("value", "ohm", positive=True) or 1.0
+        unit.resistors[res_name] = Resistor(res_name, a, b, value, _percent(sec, "tolerance"))
+        sec.reject_unknown()
+
+    for cap_name, sec in root.named_tables("capacitors"):
+        a, b = _between(sec)
+        value = sec.quantity("value", "F", positive=True) or 0.0
+        unit.capacitors[cap_name] = Capacitor(cap_name, a, b, value)
+        sec.reject_unknown()
+
+    for sensor_name, sec in root.named_tables("sensors"):
+        sensor = _parse_sensor(sensor_name, sec)
+        if sensor is not None:
+            unit.sensors[sensor_name] = sensor
+        sec.reject_unknown()
+
+    probe = root.table("reference_probe")
+    if probe:
+        unit.probe = ReferenceProbe(
+            force_hi=probe.string("force_hi") or "?",
+            sense_hi=probe.string("sense_hi") or "?",
+            force_lo=probe.string("force_lo") or "?",
+            sense_lo=probe.string("sense_lo") or "?",
+            r0_ohm=probe.quantity("r0", "ohm", 100.0, positive=True),
+            lead_ohm=probe.quantity("lead_resistance", "ohm", 0.1, positive=True),
+        )
+        probe.reject_unknown()
+
+    _check_names_unique(unit, root)
+    root.reject_unknown()
+    return unit
+
+
+def _parse_sensor(name: str, sec: Section) -> Sensor | None:
+    kind = sec.string("kind", choices=SENSOR_KINDS)
+    temperature = _temperature(sec)
+    if kind == "ntc":
+        a, b = _between(sec)
+        coeffs = sec.raw("steinhart_hart")
+        if coeffs is not None:
+            if not (
+                isinstance(coeffs, list)
+                and len(coeffs) == 3
+                and all(isinstance(c, int | float) and not isinstance(c, bool) for c in coeffs)
+            ):
+                sec.problem("steinhart_hart", f"expected three numbers [A, B, C], found {coeffs!r}")
+                coeffs = None
+            return NtcSensor(
+                name,
+                a,
+                b,
+                sh_coefficients=None if coeffs is None else (coeffs[0], coeffs[1], coeffs[2]),
+                temp_c=temperature,
+            )
+        return NtcSensor(
+            name,
+            a,
+            b,
+            r25_ohm=sec.quantity("r25", "ohm", positive=True),
+            beta_k=sec.quantity("beta", "K", positive=True),
+            temp_c=temperature,
+            r25_tolerance_pct=_percent(sec, "r25_tolerance"),
+            beta_tolerance_pct=_percent(sec, "beta_tolerance"),
+        )
+    if kind == "ratiometric":
+        return RatiometricSensor(
+            name,
+            supply=sec.string("supply") or "?",
+            output=sec.string("output") or "?",
+            ground=sec.string("ground") or "?",
+            p_low_pa=sec.quantity("range_low", "Pa") or 0.0,
+            p_high_pa=sec.quantity("range_high", "Pa") or 1.0,
+            fraction_low=sec.number("fraction_low", 0.1),
+            fraction_high=sec.number("fraction_high", 0.9),
+            pressure_pa=sec.quantity("pressure", "Pa", None),
+            quiescent_a=sec.quantity("quiescent_current", "A", 0.005, positive=True),
+            r_out_ohm=sec.quantity("output_resistance", "ohm", 100.0, positive=True),
+        )
+    if kind == "potentiometer":
+        a, b = _between(sec)
+        position = sec.number("position", 0.5)
+        if position is not None and not 0.0 <= position <= 1.0:
+            sec.problem("position", f"expected a number from 0 to 1, found {position}")
+        return Potentiometer(
+            name,
+            a,
+            b,
+            wiper=sec.string("wiper") or "?",
+            r_ohm=sec.quantity("value", "ohm", positive=True) or 1.0,
+            position=min(max(position or 0.5, 0.0), 1.0),
+        )
+    if kind == "switch":
+        a, b = _between(sec)
+        return SwitchSensor(
+            name,
+            a,
+            b,
+            closed=sec.boolean("closed", True),
+            r_on_ohm=sec.quantity("on_resistance", "ohm", 0.05, positive=True),
+        )
+    return None
+
+
+def _temperature(sec: Section) -> float | None:
+    """``temperature = "ambient"`` (default) or a value in degC."""
+    if sec.raw("temperature") in (None, "ambient"):
+        return None
+    value = sec.quantity("temperature", "degC")
+    return None if value is None else float(value)
+
+
+def _check_names_unique(unit: UnitModel, root: Section) -> None:
+    seen: dict[str, str] = {}
+    for group, names in (
+        ("wires", unit.wires),
+        ("resistors", unit.resistors),
+        ("sensors", unit.sensors),
+        ("capacitors", unit.capacitors),
+    ):
+        for part in names:
+            if part in seen:
+                root.problem(
+                    group,
+                    f"part name {part!r} is also used in [{seen[part]}]; names must be unique",
+                )
+            seen[part] = group

@@ -1,0 +1,84 @@
+"""Events the engine emits while a run goes on; front ends subscribe, the engine prints nothing."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+from rig.judge.decision import DecisionRule, Limits, Verdict
+
+
+@dataclass(frozen=True)
+class StepResult:
+    """A judged step, as a front end shows it and the store keeps it."""
+
+    position: int
+    step_id: str
+    kind: str
+    title: str
+    pins: dict[str, str]
+    value: float
+    unit: str
+    limits: Limits | None
+    predicted: float | None
+    u_std: float
+    expanded_u: float
+    coverage_k: float
+    rule: DecisionRule
+    verdict: Verdict
+    tur: float | None
+    tur_low: bool
+    readings: int
+    settle_s: float
+    note: str = ""
+    extras: dict[str, float] = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
+class RunStarted:
+    run_id: int
+    serial: str
+    sequence: str
+    steps: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class StepStarted:
+    position: int
+    step_id: str
+    title: str
+    kind: str
+
+
+@dataclass(frozen=True)
+class ReadingTaken:
+    step_id: str
+    role: str
+    value: float
+    unit: str
+    settled: bool
+
+
+@dataclass(frozen=True)
+class StepFinished:
+    result: StepResult
+
+
+@dataclass(frozen=True)
+class PromptShown:
+    step_id: str
+    text: str
+
+
+@dataclass(frozen=True)
+class RunFinished:
+    run_id: int
+    status: str
+    """complete or aborted"""
+    verdict: Verdict
+    reason: str
+    failed_steps: tuple[str, ...]
+    safe: bool
+    notes: tuple[str, ...] = ()
+
+
+Event = RunStarted | StepStarted | ReadingTaken | StepFinished | PromptShown | RunFinished

@@ -1,0 +1,126 @@
+"""Platinum resistance thermometers: Callendar-Van Dusen per IEC 60751.
+
+R(t) = R0 [1 + A t + B t^2 + C (t - 100) t^3], the C term only below 0 degC.  Above 0 degC the
+inverse is the quadratic's closed form; below, the quartic is solved by Newton iteration started
+from that closed form, which converges in a few steps because the C term is tiny.
+The standard defines the curve from -200 degC to 850 degC; values outside are refused.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Literal
+
+import numpy as np
+
+from rig.models._common import (
+    F,
+    FloatArray,
+    ModelInputError,
+    as_array,
+    check_range,
+    like,
+    require_finite,
+    require_positive,
+)
+
+T_MIN_C = -200.0
+T_MAX_C = 850.0
+"""The span over which IEC 60751 defines the curve."""
+
+IEC_A = 3.9083e-3
+IEC_B = -5.775e-7
+IEC_C = -4.183e-12
+"""IEC 60751 coefficients, per degC, degC^2 and degC^4."""
+
+ToleranceClass = Literal["AA", "A", "B"]
+
+_TOLERANCE: dict[str, tuple[float, float]] = {
+    "AA": (0.10, 0.0017),
+    "A": (0.15, 0.002),
+    "B": (0.30, 0.005),
+}
+"""IEC 60751 class tolerance +-(fixed + per_degree |t|) degC."""
+
+
+@dataclass(frozen=True)
+class Rtd:
+    """A platinum RTD of nominal resistance ``r0_ohm`` at 0 degC."""
+
+    r0_ohm: float = 100.0
+    a: float = IEC_A
+    b: float = IEC_B
+    c: float = IEC_C
+
+    def __post_init__(self) -> None:
+        require_positive(self.r0_ohm, "r0_ohm")
+        require_positive(self.a, "a")
+        require_finite(self.b, "b")
+        require_finite(self.c, "c")
+
+    def _ratio(self, t: FloatArray) -> FloatArray:
+        low = np.where(t < 0.0, self.c * (t - 100.0) * t**3, 0.0)
+        return np.asarray(1.0 + self.a * t + self.b * t**2 + low, dtype=np.float64)
+
+    def _slope(self, t: FloatArray) -> FloatArray:
+        low = np.where(t < 0.0, self.c * (4.0 * t**3 - 300.0 * t**2), 0.0)
+        return np.asarray(self.r0_ohm * (self.a + 2.0 * self.b * t + low), dtype=np.float64)
+
+    def r_at(self, temp_c: F) -> F:
+        """Resistance in ohm at ``temp_c`` (-200 to 850 degC)."""
+        t = as_array(temp_c, "temp_c")
+        check_range(t, "temp_c", T_MIN_C, T_MAX_C, "degC")
+        return like(self.r0_ohm * self._ratio(t), temp_c)
+
+    def dr_dt(self, temp_c: F) -> F:
+        """Slope dR/dT in ohm per kelvin at ``temp_c``."""
+        t = as_array(temp_c, "temp_c")
+        check_range(t, "temp_c", T_MIN_C, T_MAX_C, "degC")
+        return like(self._slope(t), temp_c)
+
+    def t_at(self, r_ohm: F) -> F:
+        """Temperature in degC at ``r_ohm``, valid on both sides of 0 degC."""
+        r = as_array(r_ohm, "r_ohm")
+        r_lo = float(self.r0_ohm * self._ratio(np.array(T_MIN_C)))
+        r_hi = float(self.r0_ohm * self._ratio(np.array(T_MAX_C)))
+        check_range(r, "r_ohm", r_lo, r_hi, "ohm")
+        ratio = r / self.r0_ohm
+        # closed form of 1 + A t + B t^2 = ratio, the root that is near A t for small t
+        t = (-self.a + np.sqrt(self.a**2 - 4.0 * self.b * (1.0 - ratio))) / (2.0 * self.b)
+        below = ratio < 1.0
+        if np.any(below):
+            t = np.where(below, self._newton(r, np.asarray(t, dtype=np.float64)), t)
+        return like(np.asarray(t, dtype=np.float64), r_ohm)
+
+    def _newton(self, r: FloatArray, t: FloatArray) -> FloatArray:
+        """Refine ``t`` so that r_at(t) = r below 0 degC; converges in a few steps."""
+        for _ in range(50):
+            step = (self.r0_ohm * self._ratio(t) - r) / self._slope(t)
+            t = np.minimum(t - step, 0.0)
+            if np.all(np.abs(step) < 1e-12):
+                break
+        return t
+
+    def tolerance_c(self, temp_c: F, cls: ToleranceClass) -> F:
+        """Permitted deviation +-degC of a class AA, A or B element at ``temp_c`` (IEC 60751)."""
+        return tolerance_c(temp_c, cls)
+
+
+def tolerance_c(temp_c: F, cls: ToleranceClass) -> F:
+    """Permitted deviation +-degC of a class AA, A or B element at ``temp_c`` (IEC 60751)."""
+    if cls not in _TOLERANCE:
+        raise ModelInputError(
+            f"tolerance class {cls!r} is not known: expected one of {', '.join(_TOLERANCE)}"
+        )
+    fixed, per_degree = _TOLERANCE[cls]
+    t = as_array(temp_c, "temp_c")
+    if np.any(~np.isfinite(t)):
+        raise ModelInputError("temp_c must be finite")
+    return like(fixed + per_degree * np.abs(t), temp_c)
+
+
+PT100 = Rtd(r0_ohm=100.0)
+PT1000 = Rtd(r0_ohm=1000.0)
+"""The two common IEC 60751 elements."""
+
+__all__ = ["IEC_A", "IEC_B", "IEC_C", "PT100", "PT1000", "Rtd", "ToleranceClass", "tolerance_c"]

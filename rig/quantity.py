@@ -1,0 +1,102 @@
+"""Values with units, as they are written in rig's data files ("2.2 kohm", "0.02 V", "150 ms").
+
+Files carry units so that a reader never has to guess whether 2.2 means ohms or kilohms.  A bare
+number is accepted only where the key itself names the unit (``length_m = 1.5``).
+"""
+
+from __future__ import annotations
+
+import math
+import re
+
+_PREFIX = {
+    "p": 1e-12,
+    "n": 1e-9,
+    "u": 1e-6,
+    "µ": 1e-6,
+    "μ": 1e-6,
+    "m": 1e-3,
+    "": 1.0,
+    "k": 1e3,
+    "M": 1e6,
+    "G": 1e9,
+}
+
+# unit symbol as written -> canonical SI unit name used in code
+_UNITS = {
+    "V": "V",
+    "A": "A",
+    "ohm": "ohm",
+    "Ohm": "ohm",
+    "Ω": "ohm",
+    "s": "s",
+    "Hz": "Hz",
+    "F": "F",
+    "K": "K",
+    "degC": "degC",
+    "°C": "degC",
+    "C": "degC",
+    "%": "%",
+    "m": "m",
+    "mm2": "mm2",
+    "mm²": "mm2",
+    "Pa": "Pa",
+    "bar": "bar",
+}
+
+_PATTERN = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(\S*)\s*$")
+
+
+class QuantityError(ValueError):
+    """A value could not be read as a quantity of the expected unit."""
+
+
+def _split_unit(text: str) -> tuple[float, str]:
+    """Split a symbol into (prefix factor, canonical unit); the longest known unit wins."""
+    if text in _UNITS:
+        return 1.0, _UNITS[text]
+    for unit in sorted(_UNITS, key=len, reverse=True):
+        if text.endswith(unit):
+            prefix = text[: -len(unit)]
+            if prefix in _PREFIX and _UNITS[unit] not in ("%", "degC", "K", "mm2"):
+                return _PREFIX[prefix], _UNITS[unit]
+    raise QuantityError(f"unknown unit {text!r}")
+
+
+def parse_quantity(value: object, unit: str) -> float:
+    """Read ``value`` ("2.2 kohm", "500 mV", "1.5e3 ohm") as a float in the SI unit ``unit``.
+
+    ``unit`` is the canonical name ("ohm", "V", "A", "s", "Hz", "F", "degC", "%", "m", "Pa").
+    Pressure also accepts bar (1 bar = 100 kPa).  Raises ``QuantityError`` saying what was expected.
+    """
+    if isinstance(value, bool) or not isinstance(value, str):
+        raise QuantityError(f"expected a string with a unit such as '1.5 {unit}', found {value!r}")
+    match = _PATTERN.match(value)
+    if not match:
+        raise QuantityError(f"expected a number and a unit such as '1.5 {unit}', found {value!r}")
+    number = float(match.group(1))
+    symbol = match.group(2)
+    if not symbol:
+        raise QuantityError(f"{value!r} has no unit; expected a value in {unit}")
+    factor, found = _split_unit(symbol)
+    if found == "bar" and unit == "Pa":
+        factor, found = factor * 1e5, "Pa"
+    if found != unit:
+        raise QuantityError(f"expected a value in {unit}, found {value!r} (a value in {found})")
+    result = number * factor
+    if not math.isfinite(result):
+        raise QuantityError(f"{value!r} is not a finite number")
+    return result
+
+
+def format_quantity(value: float, unit: str, digits: int = 4) -> str:
+    """Show ``value`` with an engineering prefix: 2200.0, "ohm" -> "2.2 kohm"."""
+    if not math.isfinite(value):
+        return "overload" if math.isinf(value) else "no reading"
+    if unit in ("%", "degC", "K") or value == 0:
+        symbol = {"degC": "°C"}.get(unit, unit)
+        return f"{value:.{digits}g} {symbol}"
+    exponent = int(math.floor(math.log10(abs(value)) / 3) * 3)
+    exponent = max(-12, min(9, exponent))
+    prefix = {-12: "p", -9: "n", -6: "u", -3: "m", 0: "", 3: "k", 6: "M", 9: "G"}[exponent]
+    return f"{value / 10**exponent:.{digits}g} {prefix}{unit}"

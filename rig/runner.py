@@ -1,0 +1,48 @@
+"""Running a sequence on a station from files: load, plan, open the bench, run, close."""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from pathlib import Path
+
+from rig.bench_open import check_calibration, close_bench, open_bench
+from rig.config.sequence import load_sequence
+from rig.config.station import Station, load_station
+from rig.engine import Engine, RunSummary
+from rig.events import Event
+from rig.plan import Plan, build_plan
+from rig.store import ResultStore
+
+
+def load_plan(sequence_path: Path | str, station: Station | Path | str) -> Plan:
+    """Validate both files and plan the run; raises ``ConfigError`` listing every problem."""
+    if not isinstance(station, Station):
+        station = load_station(station)
+    sequence = load_sequence(sequence_path)
+    return build_plan(sequence, station)
+
+
+def run_plan(
+    plan: Plan,
+    serial: str,
+    *,
+    operator: str = "",
+    unit: str = "",
+    faults: tuple[str, ...] = (),
+    listener: Callable[[Event], None] | None = None,
+    ask: Callable[[str], bool] | None = None,
+    store: ResultStore | None = None,
+) -> RunSummary:
+    notes = check_calibration(plan.station)
+    own_store = store is None
+    store = store or ResultStore(plan.station.store_path)
+    try:
+        bench = open_bench(plan.station)
+        try:
+            engine = Engine(plan, bench, store, listener=listener, ask=ask)
+            return engine.run(serial, operator, unit=unit, faults=faults, notes=notes)
+        finally:
+            close_bench(bench)
+    finally:
+        if own_store:
+            store.close()

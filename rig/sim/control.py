@@ -1,0 +1,105 @@
+"""The virtual bench's control channel: inject or clear faults while it runs.
+
+A line protocol of our own on 127.0.0.1 (one JSON object per reply line)::
+
+    faults                      -> {"faults": [...]}
+    add SPEC [SPEC ...]         -> add unit faults (see rig.faults), replies with the active set
+    clear                       -> remove every unit fault and instrument fault
+    instrument NAME KIND [N]    -> an instrument fault: NAME is dmm, supply or relay_box;
+                                   KIND as the instrument lists it; N times (default 1, 0 = until
+                                   cleared)
+    state                       -> the bench state (as in the state file)
+"""
+
+from __future__ import annotations
+
+import contextlib
+import json
+import logging
+import socket
+import threading
+
+from rig.errors import ConfigError, RigError
+from rig.faults import parse_faults
+from rig.sim.bench import VirtualBench
+
+log = logging.getLogger(__name__)
+
+
+def handle_command(bench: VirtualBench, line: str) -> dict[str, object]:
+    """Carry out one control command; errors come back as {"error": "..."}, never raised."""
+    words = line.split()
+    if not words:
+        return {"error": "empty command; expected faults, add, clear, instrument or state"}
+    verb, args = words[0].lower(), words[1:]
+    try:
+        if verb == "faults":
+            return {"faults": [f.spec for f in bench.faults]}
+        if verb == "add":
+            added = parse_faults(args, bench.unit, source="control channel")
+            bench.set_faults(bench.faults + added)
+            return {"faults": [f.spec for f in bench.faults]}
+        if verb == "clear":
+            bench.set_faults([])
+            bench.dmm.clear_faults()
+            bench.supply.clear_faults()
+            bench.relay_box.clear_faults()
+            return {"faults": []}
+        if verb == "instrument" and len(args) in (2, 3):
+            count = int(args[2]) if len(args) == 3 else 1
+            times = None if count == 0 else count
+            if args[0] == "dmm":
+                bench.dmm.inject_fault(args[1], times)
+            elif args[0] == "supply":
+                bench.supply.inject_fault(args[1], times)
+            elif args[0] == "relay_box":
+                bench.relay_box.inject_fault(args[1], times)
+            else:
+                return {"error": f"unknown instrument {args[0]!r}; expected dmm, supply, relay_box"}
+            return {"injected": args[0], "kind": args[1]}
+        if verb == "state":
+            return bench.state()
+    except (ConfigError, RigError, ValueError) as exc:
+        return {"error": str(exc)}
+    return {
+        "error": f"unknown command {line.strip()!r}; expected faults, add, clear, instrument, state"
+    }
+
+
+class ControlServer:
+    """Serves ``handle_command`` on a loopback TCP port, one line per command."""
+
+    def __init__(self, bench: VirtualBench, port: int = 0) -> None:
+        self.bench = bench
+        self._sock = socket.create_server(("127.0.0.1", port))
+        self.port = int(self._sock.getsockname()[1])
+        self._stop = threading.Event()
+        self._thread = threading.Thread(target=self._serve, name="bench-control", daemon=True)
+
+    def start(self) -> int:
+        self._thread.start()
+        return self.port
+
+    def stop(self) -> None:
+        self._stop.set()
+        with contextlib.suppress(OSError):
+            self._sock.close()
+        self._thread.join(2.0)
+
+    def _serve(self) -> None:
+        self._sock.settimeout(0.2)
+        while not self._stop.is_set():
+            try:
+                conn, _ = self._sock.accept()
+            except TimeoutError:
+                continue
+            except OSError:
+                return
+            threading.Thread(target=self._client, args=(conn,), daemon=True).start()
+
+    def _client(self, conn: socket.socket) -> None:
+        with conn, conn.makefile("rw", encoding="utf-8", newline="\n") as stream:
+            for line in stream:
+                reply = handle_command(self.bench, line)
+                stream.write(json.dumps(reply) + "\n")
+                stream.flush()

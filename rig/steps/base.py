@@ -1,0 +1,105 @@
+"""What every step kind provides, and the data a step carries from file to record.
+
+A step kind is a small class registered by name in ``rig.steps.KINDS``: it reads its own keys from
+the sequence file, says which routes (relay sets) it will use so the planner can order and check
+them, and measures through a ``StepContext`` that the engine provides.  Adding a step kind means
+adding one such class; nothing else in the engine changes.
+"""
+
+from __future__ import annotations
+
+import math
+from abc import ABC, abstractmethod
+from dataclasses import dataclass, field
+from typing import TYPE_CHECKING, Any
+
+from drivers.base import MeterFunction
+from rig.config.reader import Section
+from rig.judge.decision import DecisionRule, Limits
+from rig.routing import Route
+
+if TYPE_CHECKING:
+    from rig.steps.context import StepContext
+
+
+@dataclass(frozen=True)
+class SupplyRequest:
+    """A step that powers the unit from the bench supply through two pins."""
+
+    pos: str
+    neg: str
+    volts: float
+    limit_a: float
+
+
+@dataclass
+class StepSpec:
+    """One step as read from the sequence file, with its kind-specific parameters."""
+
+    id: str
+    kind: str
+    title: str
+    key: str
+    """Where the step is in its file (``steps[3]``), for messages."""
+    pins: dict[str, str] = field(default_factory=dict)
+    limits: Limits | None = None
+    nplc: float = 1.0
+    range_: float | None = None
+    rule: DecisionRule = DecisionRule.SIMPLE
+    supply: SupplyRequest | None = None
+    params: dict[str, Any] = field(default_factory=dict)
+    depends_on: tuple[str, ...] = ()
+    barrier: bool = False
+    """Operator prompts and soaks: nothing is moved across them when reordering."""
+
+
+@dataclass(frozen=True)
+class Reading:
+    """One raw reading, kept exactly as the instrument gave it."""
+
+    role: str
+    function: str
+    value: float
+    range_: float | None
+    nplc: float
+    taken_at: float
+    u_std: float = math.nan
+
+
+@dataclass
+class Outcome:
+    """What a step measured and computed, before judging."""
+
+    value: float
+    unit: str
+    u_std: float
+    limits: Limits | None
+    readings: list[Reading] = field(default_factory=list)
+    predicted: float | None = None
+    extras: dict[str, float] = field(default_factory=dict)
+    settle_s: float = 0.0
+    note: str = ""
+
+
+class StepKind(ABC):
+    """A kind of step: its name in files, the unit of its value, parsing, routes and measuring."""
+
+    name: str
+    unit: str
+    function: MeterFunction | None = MeterFunction.DC_VOLTS
+
+    @abstractmethod
+    def parse(self, sec: Section, spec: StepSpec) -> None:
+        """Read the kind's own keys into ``spec`` (pins, limits, params); record problems."""
+
+    def routes(self, spec: StepSpec) -> list[Route]:
+        """The routes the step uses in order (for planning, interlocks and relay counting)."""
+        return []
+
+    @abstractmethod
+    def run(self, ctx: StepContext, spec: StepSpec) -> Outcome:
+        """Measure and compute; raise ``InstrumentError`` when the bench fails."""
+
+    def references(self, spec: StepSpec) -> tuple[str, ...]:
+        """Ids of earlier steps this one reads (checked at load time)."""
+        return spec.depends_on

@@ -1,0 +1,42 @@
+"""What a step may ask of the engine while it runs (the engine implements this)."""
+
+from __future__ import annotations
+
+from typing import Protocol
+
+from drivers.base import MeterFunction
+from rig.routing import Route
+from rig.steps.base import Reading, SupplyRequest
+
+
+class EarlierResult(Protocol):
+    @property
+    def value(self) -> float: ...
+
+    @property
+    def u_std(self) -> float: ...
+
+
+class StepContext(Protocol):
+    def connect(self, route: Route) -> None:
+        """Close exactly the relays of ``route`` (break-before-make, interlocks checked)."""
+
+    def measure(
+        self, function: MeterFunction, *, role: str, range_: float | None, nplc: float
+    ) -> Reading:
+        """A settled reading on the current route; every raw reading is kept by the engine."""
+
+    def power(self, request: SupplyRequest | None) -> None:
+        """Program and switch on the bench supply, or switch it off for ``None``."""
+
+    def supply_current(self, *, role: str) -> Reading:
+        """The supply's own current readback (with its uncertainty)."""
+
+    def earlier(self, step_id: str) -> EarlierResult:
+        """The result of an earlier step of this run, by id."""
+
+    def prompt(self, text: str) -> bool:
+        """Ask the operator; True when confirmed."""
+
+    def wait(self, seconds: float) -> None:
+        """A timed soak."""

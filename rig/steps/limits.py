@@ -1,0 +1,64 @@
+"""Reading a step's limits from its file: absolute low/high, nominal ± tolerance, or max |value|."""
+
+from __future__ import annotations
+
+from rig.config.reader import Section
+from rig.judge.decision import Limits
+from rig.quantity import QuantityError, parse_quantity
+
+
+def read_tolerance(sec: Section, unit: str, key: str = "tolerance") -> tuple[str, float] | None:
+    """``"5 %"`` -> ("pct", 5.0); ``"0.1 V"`` -> ("abs", 0.1)."""
+    raw = sec.raw(key)
+    if raw is None:
+        return None
+    try:
+        return "pct", parse_quantity(raw, "%")
+    except QuantityError:
+        pass
+    try:
+        value = parse_quantity(raw, unit)
+    except QuantityError:
+        sec.problem(key, f"expected a tolerance in % or in {unit} (e.g. '5 %'), found {raw!r}")
+        return None
+    if value <= 0:
+        sec.problem(key, f"expected a positive tolerance, found {raw!r}")
+        return None
+    return "abs", value
+
+
+def apply_tolerance(nominal: float, tolerance: tuple[str, float]) -> Limits:
+    kind, amount = tolerance
+    if kind == "pct":
+        return Limits.nominal_pct(nominal, amount)
+    return Limits.nominal_tol(nominal, amount)
+
+
+def read_limits(sec: Section, unit: str, *, required: bool = True) -> Limits | None:
+    """Fixed limits of a step: ``low``/``high``, ``nominal`` + ``tolerance``, or ``max``."""
+    low = sec.quantity("low", unit, None)
+    high = sec.quantity("high", unit, None)
+    nominal = sec.quantity("nominal", unit, None)
+    most = sec.quantity("max", unit, None, positive=True)
+    tolerance = read_tolerance(sec, unit) if nominal is not None else None
+    if nominal is not None:
+        if tolerance is None:
+            sec.problem("tolerance", f"nominal needs a tolerance such as '5 %' or '0.1 {unit}'")
+            return None
+        if low is not None or high is not None or most is not None:
+            sec.problem("nominal", "give either nominal + tolerance, low/high, or max, not several")
+        return apply_tolerance(nominal, tolerance)
+    if most is not None:
+        if low is not None or high is not None:
+            sec.problem("max", "give either max or low/high, not both")
+        return Limits(-most, most)
+    if low is None and high is None:
+        if required:
+            sec.problem(
+                "low",
+                f"no limits; expected low and/or high, nominal + tolerance, or max (in {unit})",
+            )
+        return None
+    if low is not None and high is not None and low >= high:
+        sec.problem("high", f"high ({high:g} {unit}) must be above low ({low:g} {unit})")
+    return Limits(low, high)

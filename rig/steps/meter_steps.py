@@ -1,0 +1,165 @@
+"""Step kinds that are a DMM or supply reading on a route: volts, drops, resistance, current."""
+
+from __future__ import annotations
+
+import math
+
+from drivers.base import MeterFunction
+from rig.config.reader import Section
+from rig.judge.propagate import u_difference
+from rig.routing import Route
+from rig.steps.base import Outcome, StepKind, StepSpec
+from rig.steps.context import StepContext
+from rig.steps.limits import read_limits
+from rig.steps.pins import read_pins, read_supply
+
+
+def _with_supply(spec: StepSpec, route: Route) -> Route:
+    if spec.supply is None:
+        return route
+    return route + Route.supply(spec.supply.pos, spec.supply.neg)
+
+
+class Volts(StepKind):
+    """DC voltage between two pins (a sensor signal against its ground, the reference...)."""
+
+    name = "volts"
+    unit = "V"
+
+    def parse(self, sec: Section, spec: StepSpec) -> None:
+        read_pins(sec, spec, "hi", "lo")
+        read_supply(sec, spec)
+        spec.limits = read_limits(sec, self.unit)
+
+    def routes(self, spec: StepSpec) -> list[Route]:
+        return [_with_supply(spec, Route.dmm(spec.pins["hi"], spec.pins["lo"]))]
+
+    def run(self, ctx: StepContext, spec: StepSpec) -> Outcome:
+        ctx.power(spec.supply)
+        ctx.connect(self.routes(spec)[0])
+        r = ctx.measure(self.function_of(), role="hi-lo", range_=spec.range_, nplc=spec.nplc)
+        return Outcome(r.value, self.unit, r.u_std, spec.limits, [r])
+
+    def function_of(self) -> MeterFunction:
+        return MeterFunction.DC_VOLTS
+
+
+class GroundDrop(Volts):
+    """Voltage drop from a ground pin of the unit to bench ground (default: the fixture's)."""
+
+    name = "ground-drop"
+
+    def parse(self, sec: Section, spec: StepSpec) -> None:
+        read_pins(sec, spec, "pin")
+        ground = sec.string("ground", "")
+        if ground:
+            spec.pins["ground"] = ground
+        read_supply(sec, spec)
+        spec.limits = read_limits(sec, self.unit)
+        spec.pins["hi"] = spec.pins.get("pin", "?")
+        spec.pins["lo"] = spec.pins.get("ground", "")  # filled from the fixture at planning
+
+
+class WireDrop(StepKind):
+    """Voltage drop along one wire: across its two ends directly, and from two readings to a
+    common reference at either end.  The direct reading is judged; both are kept."""
+
+    name = "wire-drop"
+    unit = "V"
+
+    def parse(self, sec: Section, spec: StepSpec) -> None:
+        read_pins(sec, spec, "from", "to", "reference")
+        read_supply(sec, spec)
+        spec.limits = read_limits(sec, self.unit)
+
+    def routes(self, spec: StepSpec) -> list[Route]:
+        p = spec.pins
+        return [
+            _with_supply(spec, Route.dmm(p["from"], p["to"])),
+            _with_supply(spec, Route.dmm(p["from"], p["reference"])),
+            _with_supply(spec, Route.dmm(p["to"], p["reference"])),
+        ]
+
+    def run(self, ctx: StepContext, spec: StepSpec) -> Outcome:
+        ctx.power(spec.supply)
+        direct_route, from_route, to_route = self.routes(spec)
+        ctx.connect(direct_route)
+        fn = MeterFunction.DC_VOLTS
+        direct = ctx.measure(fn, role="direct", range_=spec.range_, nplc=spec.nplc)
+        ctx.connect(from_route)
+        at_from = ctx.measure(fn, role="from-reference", range_=None, nplc=spec.nplc)
+        ctx.connect(to_route)
+        at_to = ctx.measure(fn, role="to-reference", range_=at_from.range_, nplc=spec.nplc)
+        computed = at_from.value - at_to.value
+        readings_ok = all(math.isfinite(r.u_std) for r in (at_from, at_to))
+        # same meter, same range: the gain error is common to both (GUM 5.2); correlation 1 is
+        # too optimistic when the range part dominates, so 0.5 is assumed.
+        u_computed = (
+            u_difference(at_from.u_std, at_to.u_std, correlation=0.5) if readings_ok else math.nan
+        )
+        return Outcome(
+            direct.value,
+            self.unit,
+            direct.u_std,
+            spec.limits,
+            [direct, at_from, at_to],
+            extras={"computed_drop_v": computed, "computed_drop_u_v": u_computed},
+        )
+
+
+class Resistance(StepKind):
+    """2-wire or 4-wire resistance between two pins, with the stored fixture lead zero removed."""
+
+    name = "resistance"
+    unit = "ohm"
+
+    def parse(self, sec: Section, spec: StepSpec) -> None:
+        read_pins(sec, spec, "hi", "lo")
+        wires = sec.integer("wires", 2)
+        if wires not in (2, 4):
+            sec.problem("wires", f"expected 2 or 4, found {wires!r}")
+        spec.params["wires"] = wires
+        spec.params["zero_ohm"] = sec.quantity("lead_zero", "ohm", None)
+        spec.limits = read_limits(sec, self.unit)
+
+    def function_for(self, spec: StepSpec) -> MeterFunction:
+        return MeterFunction.RES_4W if spec.params.get("wires") == 4 else MeterFunction.RES_2W
+
+    def routes(self, spec: StepSpec) -> list[Route]:
+        hi, lo = spec.pins["hi"], spec.pins["lo"]
+        if spec.params.get("wires") == 4:
+            return [Route.four_wire(hi, hi, lo, lo)]
+        return [Route.dmm(hi, lo)]
+
+    def run(self, ctx: StepContext, spec: StepSpec) -> Outcome:
+        ctx.power(None)
+        ctx.connect(self.routes(spec)[0])
+        r = ctx.measure(self.function_for(spec), role="hi-lo", range_=spec.range_, nplc=spec.nplc)
+        zero = float(spec.params.get("zero_ohm") or 0.0)
+        note = f"lead zero {zero:g} ohm subtracted" if zero else ""
+        return Outcome(r.value - zero, self.unit, r.u_std, spec.limits, [r], note=note)
+
+
+class SupplyCurrent(StepKind):
+    """Current drawn by a powered part, from the supply's own readback."""
+
+    name = "supply-current"
+    unit = "A"
+    function = None
+
+    def parse(self, sec: Section, spec: StepSpec) -> None:
+        read_supply(sec, spec, required=True)
+        spec.params["settle_s"] = sec.quantity("settle", "s", 0.05)
+        spec.limits = read_limits(sec, self.unit)
+
+    def routes(self, spec: StepSpec) -> list[Route]:
+        if spec.supply is None:
+            return []
+        return [Route.supply(spec.supply.pos, spec.supply.neg)]
+
+    def run(self, ctx: StepContext, spec: StepSpec) -> Outcome:
+        ctx.connect(self.routes(spec)[0])
+        ctx.power(spec.supply)
+        ctx.wait(float(spec.params.get("settle_s") or 0.0))
+        r = ctx.supply_current(role="supply")
+        return Outcome(r.value, self.unit, r.u_std, spec.limits, [r])

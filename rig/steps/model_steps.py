@@ -1,0 +1,223 @@
+"""Step kinds that compare a reading with what a sensor's physics predicts.
+
+The bench Pt100 gives the reference temperature; an NTC is then judged against its curve at that
+temperature (as a resistance, or as the voltage its controller's pull-up divider would show); a
+ratiometric sensor's output is judged as a fraction of its measured supply.
+"""
+
+from __future__ import annotations
+
+import math
+
+from drivers.base import MeterFunction
+from rig.config.reader import Section
+from rig.judge.decision import Limits
+from rig.judge.propagate import u_quotient
+from rig.models.divider import divider_voltage, dv_dr_sensor
+from rig.models.ntc import BetaNtc, NtcModel, SteinhartHart
+from rig.models.ratiometric import Ratiometric
+from rig.models.rtd import Rtd
+from rig.routing import Route
+from rig.steps.base import Outcome, StepKind, StepSpec
+from rig.steps.context import StepContext
+from rig.steps.limits import apply_tolerance, read_limits, read_tolerance
+from rig.steps.pins import read_pins, read_supply
+
+
+class ReferenceTemperature(StepKind):
+    """Ambient from the bench Pt100 (IEC 60751), measured 4-wire on its own pins."""
+
+    name = "reference-temperature"
+    unit = "degC"
+    function = MeterFunction.RES_4W
+
+    def parse(self, sec: Section, spec: StepSpec) -> None:
+        read_pins(sec, spec, "force_hi", "sense_hi", "force_lo", "sense_lo")
+        spec.params["r0_ohm"] = sec.quantity("r0", "ohm", 100.0, positive=True)
+        spec.limits = read_limits(sec, self.unit, required=False)
+
+    def routes(self, spec: StepSpec) -> list[Route]:
+        p = spec.pins
+        return [Route.four_wire(p["force_hi"], p["sense_hi"], p["force_lo"], p["sense_lo"])]
+
+    def run(self, ctx: StepContext, spec: StepSpec) -> Outcome:
+        ctx.power(None)
+        ctx.connect(self.routes(spec)[0])
+        r = ctx.measure(MeterFunction.RES_4W, role="pt-4w", range_=spec.range_, nplc=spec.nplc)
+        rtd = Rtd(r0_ohm=float(spec.params["r0_ohm"]))
+        if not math.isfinite(r.value) or r.value <= 0:
+            return Outcome(math.nan, self.unit, math.nan, spec.limits, [r], note="no Pt100 reading")
+        temp = float(rtd.t_at(r.value))
+        u_temp = r.u_std / float(rtd.dr_dt(temp))
+        return Outcome(temp, self.unit, u_temp, spec.limits, [r], extras={"r_ohm": r.value})
+
+
+def _read_ntc_model(sec: Section) -> NtcModel | None:
+    coeffs = sec.raw("steinhart_hart")
+    if coeffs is not None:
+        if isinstance(coeffs, list) and len(coeffs) == 3:
+            try:
+                return SteinhartHart(float(coeffs[0]), float(coeffs[1]), float(coeffs[2]))
+            except (TypeError, ValueError) as exc:
+                sec.problem("steinhart_hart", str(exc))
+                return None
+        sec.problem("steinhart_hart", f"expected three numbers [A, B, C], found {coeffs!r}")
+        return None
+    r25 = sec.quantity("r25", "ohm", positive=True)
+    beta = sec.quantity("beta", "K", positive=True)
+    if r25 is None or beta is None:
+        return None
+    return BetaNtc(r25, beta)
+
+
+def _temperature_source(sec: Section, spec: StepSpec) -> None:
+    source = sec.string("temperature_from", "")
+    if source:
+        spec.depends_on = (*spec.depends_on, source)
+        spec.params["temperature_from"] = source
+    else:
+        spec.params["temperature_c"] = sec.quantity("temperature", "degC")
+
+
+def _temperature(ctx: StepContext, spec: StepSpec) -> tuple[float, float]:
+    source = spec.params.get("temperature_from")
+    if source:
+        earlier = ctx.earlier(source)
+        return earlier.value, earlier.u_std
+    return float(spec.params["temperature_c"]), 0.0
+
+
+class NtcCheck(StepKind):
+    """An NTC thermistor against its curve at the reference temperature.
+
+    ``measure = "resistance"``: the sensor's resistance (2-wire) against R(T) ± tolerance.
+    ``measure = "voltage"``: the signal behind the controller's pull-up against the divider
+    voltage V = Vref R/(R + Rpull) that R(T) gives.
+    """
+
+    name = "ntc"
+    unit = "ohm"
+
+    def parse(self, sec: Section, spec: StepSpec) -> None:
+        read_pins(sec, spec, "hi", "lo")
+        mode = sec.string("measure", "resistance", choices=("resistance", "voltage"))
+        spec.params["mode"] = mode
+        spec.params["model"] = _read_ntc_model(sec)
+        _temperature_source(sec, spec)
+        unit = "V" if mode == "voltage" else "ohm"
+        spec.params["unit"] = unit
+        tolerance = read_tolerance(sec, unit)
+        if tolerance is None:
+            sec.problem("tolerance", f"expected a tolerance such as '5 %' or '0.1 {unit}'")
+        spec.params["tolerance"] = tolerance
+        if mode == "voltage":
+            spec.params["pullup_ohm"] = sec.quantity("pullup", "ohm", positive=True)
+            ref_from = sec.string("reference_from", "")
+            if ref_from:
+                spec.depends_on = (*spec.depends_on, ref_from)
+                spec.params["reference_from"] = ref_from
+            else:
+                spec.params["reference_v"] = sec.quantity("reference", "V", positive=True)
+            read_supply(sec, spec)
+
+    def routes(self, spec: StepSpec) -> list[Route]:
+        route = Route.dmm(spec.pins["hi"], spec.pins["lo"])
+        if spec.supply is not None:
+            route = route + Route.supply(spec.supply.pos, spec.supply.neg)
+        return [route]
+
+    def run(self, ctx: StepContext, spec: StepSpec) -> Outcome:
+        model: NtcModel = spec.params["model"]
+        temp, u_temp = _temperature(ctx, spec)
+        r_pred = float(model.r_at(temp))
+        u_r_pred = abs(float(model.dr_dt(temp))) * u_temp
+        if spec.params["mode"] == "resistance":
+            ctx.power(None)
+            ctx.connect(self.routes(spec)[0])
+            r = ctx.measure(MeterFunction.RES_2W, role="ntc", range_=spec.range_, nplc=spec.nplc)
+            limits = apply_tolerance(r_pred, spec.params["tolerance"])
+            u = math.hypot(r.u_std, u_r_pred)
+            return Outcome(
+                r.value, "ohm", u, limits, [r], predicted=r_pred, extras={"temperature_c": temp}
+            )
+        if spec.params.get("reference_from"):
+            ref = ctx.earlier(spec.params["reference_from"])
+            v_ref, u_ref = ref.value, ref.u_std
+        else:
+            v_ref, u_ref = float(spec.params["reference_v"]), 0.0
+        pull = float(spec.params["pullup_ohm"])
+        v_pred = float(divider_voltage(v_ref, pull, r_pred))
+        u_v_pred = math.hypot(
+            float(dv_dr_sensor(v_ref, pull, r_pred)) * u_r_pred, v_pred / v_ref * u_ref
+        )
+        ctx.power(spec.supply)
+        ctx.connect(self.routes(spec)[0])
+        v = ctx.measure(MeterFunction.DC_VOLTS, role="signal", range_=spec.range_, nplc=spec.nplc)
+        limits = apply_tolerance(v_pred, spec.params["tolerance"])
+        return Outcome(
+            v.value,
+            "V",
+            math.hypot(v.u_std, u_v_pred),
+            limits,
+            [v],
+            predicted=v_pred,
+            extras={"temperature_c": temp, "reference_v": v_ref, "predicted_r_ohm": r_pred},
+        )
+
+
+class RatiometricCheck(StepKind):
+    """A ratiometric sensor's output as a fraction of its supply, against its transfer at the
+    known pressure (ambient unless stated)."""
+
+    name = "ratiometric"
+    unit = "%"
+
+    def parse(self, sec: Section, spec: StepSpec) -> None:
+        read_pins(sec, spec, "output", "power", "ground")
+        low = sec.quantity("range_low", "Pa")
+        high = sec.quantity("range_high", "Pa")
+        spec.params["model"] = (
+            None
+            if low is None or high is None
+            else Ratiometric(
+                low, high, sec.number("fraction_low", 0.1), sec.number("fraction_high", 0.9)
+            )
+        )
+        spec.params["pressure_pa"] = sec.quantity("pressure", "Pa", 101_325.0)
+        tolerance = sec.quantity("tolerance", "%", positive=True)
+        spec.params["tolerance_pct"] = tolerance
+        read_supply(sec, spec)
+
+    def routes(self, spec: StepSpec) -> list[Route]:
+        p = spec.pins
+        extra = Route(()) if spec.supply is None else Route.supply(spec.supply.pos, spec.supply.neg)
+        return [
+            Route.dmm(p["output"], p["ground"]) + extra,
+            Route.dmm(p["power"], p["ground"]) + extra,
+        ]
+
+    def run(self, ctx: StepContext, spec: StepSpec) -> Outcome:
+        model: Ratiometric = spec.params["model"]
+        ctx.power(spec.supply)
+        out_route, supply_route = self.routes(spec)
+        ctx.connect(out_route)
+        fn = MeterFunction.DC_VOLTS
+        v_out = ctx.measure(fn, role="output", range_=spec.range_, nplc=spec.nplc)
+        ctx.connect(supply_route)
+        v_sup = ctx.measure(fn, role="supply", range_=None, nplc=spec.nplc)
+        predicted = float(model.fraction_at(float(spec.params["pressure_pa"]))) * 100.0
+        tol = float(spec.params["tolerance_pct"])
+        limits = Limits(predicted - tol, predicted + tol)
+        if not (math.isfinite(v_out.value) and math.isfinite(v_sup.value)) or v_sup.value == 0:
+            return Outcome(math.nan, "%", math.nan, limits, [v_out, v_sup], predicted=predicted)
+        fraction = v_out.value / v_sup.value * 100.0
+        u = u_quotient(v_out.value, v_sup.value, v_out.u_std, v_sup.u_std) * 100.0
+        return Outcome(
+            fraction,
+            "%",
+            u,
+            limits,
+            [v_out, v_sup],
+            predicted=predicted,
+            extras={"output_v": v_out.value, "supply_v": v_sup.value},
+        )

@@ -1,0 +1,377 @@
+"""The serial relay-box driver against the simulated box on a real pseudo-terminal."""
+
+from __future__ import annotations
+
+import os
+import subprocess
+import sys
+import textwrap
+import threading
+import time
+import tty
+from collections.abc import Callable, Iterator
+
+import pytest
+
+from drivers.relay_frames import (
+    BoxInfo,
+    BoxState,
+    ErrorCode,
+    Reply,
+    WatchdogMode,
+    decode_command,
+    encode_reply,
+    format_info,
+    format_state,
+)
+from drivers.relay_serial import SerialRelayBox
+from rig.errors import (
+    ConfigError,
+    InstrumentConnectionLost,
+    InstrumentError,
+    InstrumentProtocolError,
+    InstrumentReportedError,
+    InstrumentTimeout,
+)
+from rig.sim.sim_relay_box import SimRelayBox
+from rig.sim.timing import BenchClock
+
+pytestmark = pytest.mark.timeout(30)
+SETTINGS = {"timeout_ms": 200}
+
+
+def wait_for(condition: Callable[[], bool], limit_s: float = 5.0) -> bool:
+    """Poll until ``condition`` holds; the limit is generous, only a hang makes it fail."""
+    deadline = time.monotonic() + limit_s
+    while time.monotonic() < deadline:
+        if condition():
+            return True
+        time.sleep(0.01)
+    return condition()
+
+
+@pytest.fixture
+def sim() -> Iterator[SimRelayBox]:
+    box = SimRelayBox(relay_count=8, max_closed=3, clock=BenchClock(), identity="rig,tb8,S-7,2.1")
+    box.start()
+    yield box
+    box.stop()
+
+
+@pytest.fixture
+def box(sim: SimRelayBox) -> Iterator[SerialRelayBox]:
+    driver = SerialRelayBox("relays", sim.port_path, SETTINGS)
+    yield driver
+    driver.close()
+
+
+# ---- normal use -------------------------------------------------------------------------------
+
+
+def test_identity_and_size(box: SerialRelayBox) -> None:
+    ident = box.identity()
+    assert (ident.manufacturer, ident.model, ident.serial, ident.firmware) == (
+        "rig",
+        "tb8",
+        "S-7",
+        "2.1",
+    )
+    assert (box.relay_count, box.max_closed) == (8, 3)
+
+
+def test_apply_and_read_back(sim: SimRelayBox, box: SerialRelayBox) -> None:
+    box.apply([3, 1])
+    assert sim.closed() == {1, 3}
+    assert box.closed_relays() == {1, 3}
+    box.apply({1, 5})
+    assert sim.closed() == {1, 5}
+    box.open_all()
+    assert sim.closed() == frozenset()
+    assert box.closed_relays() == frozenset()
+
+
+def test_relays_that_stay_closed_are_not_touched(sim: SimRelayBox, box: SerialRelayBox) -> None:
+    box.apply([1, 2])
+    start = len(sim.events())
+    box.apply([2, 3])
+    change = sim.events()[start:]
+    assert [(e.action, e.relay) for e in change] == [("open", 1), ("close", 3)]
+
+
+def test_break_before_make(sim: SimRelayBox, box: SerialRelayBox) -> None:
+    box.apply([1, 2, 3])
+    start = len(sim.events())
+    box.apply([4, 5, 6])
+    actions = [e.action for e in sim.events()[start:]]
+    assert actions == ["open"] * 3 + ["close"] * 3
+
+
+def test_coil_budget_refused_and_nothing_changed(sim: SimRelayBox, box: SerialRelayBox) -> None:
+    box.apply([1])
+    counts = box.operation_counts()
+    with pytest.raises(InstrumentReportedError) as caught:
+        box.apply([1, 2, 3, 4])
+    error = caught.value
+    assert error.code == ErrorCode.COIL_BUDGET
+    assert (error.instrument, error.resource, error.command) == (
+        "relays",
+        sim.port_path,
+        "SET 1,2,3,4",
+    )
+    assert "coil budget is 3" in str(error)
+    assert sim.closed() == {1}
+    assert box.closed_relays() == {1}
+    assert box.operation_counts() == counts
+
+
+def test_unknown_relay_refused(sim: SimRelayBox, box: SerialRelayBox) -> None:
+    box.apply([2])
+    with pytest.raises(InstrumentReportedError) as caught:
+        box.apply([2, 9])
+    assert caught.value.code == ErrorCode.UNKNOWN_RELAY
+    assert "relays are 1..8" in str(caught.value)
+    assert sim.closed() == {2}
+
+
+@pytest.mark.parametrize("bad", ["1", 1.0, True, -1])
+def test_relay_numbers_must_be_whole_numbers(
+    sim: SimRelayBox, box: SerialRelayBox, bad: object
+) -> None:
+    with pytest.raises(InstrumentError, match="whole numbers"):
+        box.apply([bad])  # type: ignore[list-item]
+    assert sim.closed() == frozenset()
+
+
+def test_operation_counts(sim: SimRelayBox, box: SerialRelayBox) -> None:
+    box.apply([1, 2])
+    box.apply([2, 3])
+    box.apply([2, 3])  # no movement
+    box.open_all()
+    expected = {1: 2, 2: 2, 3: 2, 4: 0, 5: 0, 6: 0, 7: 0, 8: 0}
+    assert box.operation_counts() == expected
+    assert sim.operation_counts() == expected
+    assert box.box_counts() == expected
+
+
+def test_reconnect_after_close(sim: SimRelayBox) -> None:
+    first = SerialRelayBox("relays", sim.port_path, SETTINGS)
+    first.apply([4])
+    first.close()
+    second = SerialRelayBox("relays", sim.port_path, SETTINGS)
+    try:
+        assert second.closed_relays() == {4}
+    finally:
+        second.close()
+
+
+def test_port_is_exclusive(sim: SimRelayBox, box: SerialRelayBox) -> None:
+    with pytest.raises(InstrumentConnectionLost, match="cannot open"):
+        SerialRelayBox("other", sim.port_path, SETTINGS)
+
+
+def test_missing_port() -> None:
+    with pytest.raises(InstrumentConnectionLost) as caught:
+        SerialRelayBox("relays", "/dev/does-not-exist-rig", SETTINGS)
+    assert caught.value.resource == "/dev/does-not-exist-rig"
+
+
+def test_bad_settings_are_named() -> None:
+    with pytest.raises(ConfigError) as caught:
+        SerialRelayBox("relays", "/dev/null", {"timeout_ms": "fast", "baud": 9600})
+    keys = {p.key for p in caught.value.problems}
+    assert keys == {"timeout_ms", "baud"}
+    assert "positive number of ms" in str(caught.value)
+
+
+# ---- watchdog ---------------------------------------------------------------------------------
+
+
+def test_heartbeat_keeps_the_watchdog_from_tripping(sim: SimRelayBox, box: SerialRelayBox) -> None:
+    box.apply([1, 2])
+    box.start_watchdog(0.6)
+    assert box.watchdog_state().watchdog is WatchdogMode.ARMED
+    time.sleep(1.8)  # three watchdog periods with no command from us
+    assert not sim.watchdog_tripped
+    assert sim.closed() == {1, 2}
+    assert box.heartbeat_error is None
+    box.stop_watchdog()
+    assert box.watchdog_state().watchdog is WatchdogMode.OFF
+
+
+def test_commands_while_heartbeat_runs_do_not_interleave(
+    sim: SimRelayBox, box: SerialRelayBox
+) -> None:
+    box.start_watchdog(0.06)  # heartbeat every 20 ms
+    for n in range(60):
+        box.apply([1 + n % 8])
+    box.stop_watchdog()
+    assert box.heartbeat_error is None
+    assert box.retries == 0
+    assert not sim.watchdog_tripped
+
+
+def test_watchdog_out_of_range_is_refused_by_the_box(box: SerialRelayBox) -> None:
+    with pytest.raises(InstrumentReportedError) as caught:
+        box.start_watchdog(0.001)
+    assert caught.value.code == ErrorCode.OUT_OF_RANGE
+    with pytest.raises(InstrumentError, match="positive number of seconds"):
+        box.start_watchdog(-1.0)
+
+
+def test_watchdog_trips_when_the_host_process_dies(sim: SimRelayBox) -> None:
+    host = textwrap.dedent(
+        f"""
+        import sys, time
+        from drivers.relay_serial import SerialRelayBox
+        box = SerialRelayBox("relays", {sim.port_path!r}, {{"timeout_ms": 200}})
+        box.apply([1, 3])
+        box.start_watchdog(0.3)
+        print("ready", flush=True)
+        time.sleep(60)
+        """
+    )
+    proc = subprocess.Popen([sys.executable, "-c", host], stdout=subprocess.PIPE, text=True)
+    try:
+        assert proc.stdout is not None
+        assert proc.stdout.readline().strip() == "ready"
+        assert sim.closed() == {1, 3}
+        proc.kill()
+        proc.wait()
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+            proc.wait()
+    assert wait_for(lambda: sim.watchdog_tripped)
+    assert sim.closed() == frozenset()
+    # the next session sees the trip, notes it and starts clean
+    after = SerialRelayBox("relays", sim.port_path, SETTINGS)
+    try:
+        assert after.tripped_at_open
+        assert after.watchdog_state().watchdog is WatchdogMode.OFF
+        after.apply([2])
+        assert sim.closed() == {2}
+    finally:
+        after.close()
+
+
+# ---- faults -----------------------------------------------------------------------------------
+
+
+def test_bad_checksum_once_is_retried(sim: SimRelayBox, box: SerialRelayBox) -> None:
+    sim.inject_fault("bad_checksum")
+    box.apply([1, 2])
+    assert box.retries == 1
+    assert sim.closed() == {1, 2}
+    assert box.operation_counts()[1] == 1  # the retry did not count twice
+
+
+def test_persistent_bad_checksum_is_a_protocol_error(sim: SimRelayBox, box: SerialRelayBox) -> None:
+    sim.inject_fault("bad_checksum", None)
+    with pytest.raises(InstrumentProtocolError) as caught:
+        box.closed_relays()
+    assert caught.value.command == "STATE"
+    assert "checksum" in str(caught.value)
+    assert box.retries == 0
+    sim.clear_faults()
+    assert box.closed_relays() == frozenset()
+
+
+def test_missed_ack_once_is_retried(sim: SimRelayBox, box: SerialRelayBox) -> None:
+    sim.inject_fault("no_ack")
+    box.apply([5])
+    assert box.retries == 1
+    assert sim.closed() == {5}
+    assert sim.operation_counts()[5] == 1  # executed twice, moved once
+    assert box.operation_counts()[5] == 1
+
+
+def test_persistent_missed_ack_is_a_timeout(sim: SimRelayBox, box: SerialRelayBox) -> None:
+    sim.inject_fault("no_ack", None)
+    started = time.monotonic()
+    with pytest.raises(InstrumentTimeout) as caught:
+        box.apply([6])
+    assert time.monotonic() - started < 5.0  # two 200 ms waits; only a hang exceeds this
+    assert caught.value.command == "SET 6"
+    assert "200 ms" in str(caught.value)
+
+
+def test_lost_pty_is_a_lost_connection(sim: SimRelayBox, box: SerialRelayBox) -> None:
+    box.apply([1])
+    sim.inject_fault("close_pty")
+    with pytest.raises(InstrumentConnectionLost) as caught:
+        box.apply([2])
+    assert caught.value.resource == sim.port_path
+    assert caught.value.command == "SET 2"
+    box.close()
+    box.close()  # close never raises
+
+
+def test_lost_pty_stops_the_heartbeat(sim: SimRelayBox, box: SerialRelayBox) -> None:
+    box.start_watchdog(0.06)
+    sim.inject_fault("close_pty")
+    assert wait_for(lambda: isinstance(box.heartbeat_error, InstrumentConnectionLost))
+
+
+# ---- a scripted peer for replies the simulator never sends ---------------------------------
+
+
+class ScriptedPeer:
+    """A real pty whose far end answers WHO and STATE properly and everything else via ``reply``."""
+
+    def __init__(self, reply: Callable[[int], bytes]) -> None:
+        self.master, self.slave = os.openpty()
+        tty.setraw(self.slave)
+        self.path = os.ttyname(self.slave)
+        self._reply = reply
+        self._stop = threading.Event()
+        self._thread = threading.Thread(target=self._run, daemon=True)
+        self._thread.start()
+
+    def _run(self) -> None:
+        import select
+
+        buffer = b""
+        while not self._stop.is_set():
+            ready, _, _ = select.select([self.master], [], [], 0.02)
+            if not ready:
+                continue
+            buffer += os.read(self.master, 4096)
+            while b"\n" in buffer:
+                line, _, buffer = buffer.partition(b"\n")
+                command = decode_command(line + b"\n")
+                if command.verb == "WHO":
+                    payload = format_info(BoxInfo(4, 2, "a,b,c,d"))
+                    os.write(self.master, encode_reply(Reply(command.seq, True, payload)))
+                elif command.verb == "STATE":
+                    payload = format_state(BoxState(frozenset(), WatchdogMode.OFF, 0))
+                    os.write(self.master, encode_reply(Reply(command.seq, True, payload)))
+                else:
+                    os.write(self.master, self._reply(command.seq))
+
+    def close(self) -> None:
+        self._stop.set()
+        self._thread.join()
+        os.close(self.master)
+        os.close(self.slave)
+
+
+@pytest.mark.parametrize(
+    ("answer", "message"),
+    [
+        (lambda seq: encode_reply(Reply((seq + 7) % 65536, True, "off")), "sequence number"),
+        (lambda seq: b"garbage\n", "bad reply"),
+        (lambda seq: b"no terminator", "not terminated"),
+    ],
+)
+def test_wrong_replies_are_protocol_errors(answer: Callable[[int], bytes], message: str) -> None:
+    peer = ScriptedPeer(answer)
+    try:
+        box = SerialRelayBox("relays", peer.path, SETTINGS)
+        try:
+            with pytest.raises(InstrumentProtocolError, match=message):
+                box.stop_watchdog()
+            assert box.retries == 0
+        finally:
+            box.close()
+    finally:
+        peer.close()
