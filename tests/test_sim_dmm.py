@@ -31,9 +31,16 @@ class RecordingClock(BenchClock):
         self.waited.append(seconds)
 
 
-def make(hookup: str = "resistor", **kw: object) -> tuple[SimDmm, SmallBench]:
+def make(
+    hookup: str = "resistor",
+    *,
+    clock: BenchClock | None = None,
+    line_hz: float = 50.0,
+    seed: int = 0,
+) -> tuple[SimDmm, SmallBench]:
     bench = SmallBench(hookup)
-    return SimDmm(bench, kw.pop("clock", BenchClock()), identity=IDENTITY, **kw), bench  # type: ignore[arg-type]
+    dmm = SimDmm(bench, clock or BenchClock(), identity=IDENTITY, line_hz=line_hz, seed=seed)
+    return dmm, bench
 
 
 def ask(dmm: SimDmm, line: str) -> str:
@@ -125,7 +132,9 @@ def test_divider_voltage_including_meter_loading() -> None:
     # Divider rule with the meter's 10 Mohm input in parallel with the bottom resistor.
     dmm, bench = make("divider")
     bench.supply.voltage_v, bench.supply.output_on = 12.0, True
-    expected = 12.0 * parallel(R_BOTTOM, DMM_INPUT_OHM) / (R_TOP + parallel(R_BOTTOM, DMM_INPUT_OHM))
+    expected = (
+        12.0 * parallel(R_BOTTOM, DMM_INPUT_OHM) / (R_TOP + parallel(R_BOTTOM, DMM_INPUT_OHM))
+    )
     assert float(ask(dmm, "MEAS:VOLT? 10")) == pytest.approx(expected, abs=1e-3)
 
 

@@ -3,12 +3,12 @@
 from __future__ import annotations
 
 import pytest
+from small_bench import R_LOAD, SmallBench
 
 from drivers.base import InstrumentIdentity
 from rig.sim.probe import SupplySettings
 from rig.sim.sim_supply import SimSupply
 from rig.sim.timing import BenchClock
-from small_bench import R_LOAD, SmallBench
 
 IDENTITY = InstrumentIdentity("Test Works", "PS-30", "0007", "1.4")
 

@@ -80,7 +80,7 @@ class ScpiTcpServer:
         log.info("%s serving on %s", self.name, self.resource)
 
     def stop(self) -> None:
-        """Close every socket and join every thread; safe to call twice."""
+        """Reset every client, close every socket and join every thread; safe to call twice."""
         self._stopping.set()
         listener, self._listener = self._listener, None
         if listener is not None:
@@ -188,8 +188,13 @@ def _reset(conn: socket.socket) -> None:
 
 
 def _shutdown(conn: socket.socket) -> None:
-    """Wake a thread blocked reading ``conn``: it sees end of file and finishes."""
-    _quietly(lambda: conn.shutdown(socket.SHUT_RDWR))
+    """Wake the thread reading ``conn`` (it sees end of file) and make its close a TCP reset.
+
+    A clean close would look like silence to pyvisa-py (a timeout); a reset tells the driver at
+    once that the instrument went away.
+    """
+    _quietly(lambda: conn.setsockopt(socket.SOL_SOCKET, socket.SO_LINGER, struct.pack("ii", 1, 0)))
+    _quietly(lambda: conn.shutdown(socket.SHUT_RD))
 
 
 def _quietly(action: Callable[[], object]) -> None:

@@ -1,0 +1,36 @@
+"""A quick smoke run of every benchmark: it runs, prints a table and ends with one JSON object.
+
+The figures themselves are not asserted (speed is not a pass/fail test); only that the script
+works and reports the keys the README lists.
+"""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+BENCHMARKS = Path(__file__).resolve().parent / "benchmarks"
+EXPECTED_KEYS = {"solver.py": {"solve_300_ms", "batch_10k_s", "read_roundtrip_ms"}}
+
+
+@pytest.mark.parametrize("script", sorted(p.name for p in BENCHMARKS.glob("*.py")))
+def test_benchmark_smoke(script: str) -> None:
+    done = subprocess.run(
+        [sys.executable, str(BENCHMARKS / script), "--quick"],
+        capture_output=True,
+        text=True,
+        timeout=120,
+        check=False,
+    )
+    assert done.returncode == 0, done.stderr
+    lines = done.stdout.strip().splitlines()
+    assert len(lines) >= 2, "a table, then the JSON line"
+    figures = json.loads(lines[-1])
+    missing = EXPECTED_KEYS.get(script, set()) - set(figures)
+    assert not missing, f"{script} did not report {missing}"
+    for key in EXPECTED_KEYS.get(script, set()):
+        assert isinstance(figures[key], int | float) and figures[key] > 0
