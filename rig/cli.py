@@ -157,7 +157,6 @@ def cmd_demo(args: argparse.Namespace, out: Output) -> int:
 
 
 def cmd_check(args: argparse.Namespace, out: Output) -> int:
-    from rig.config.fixture import describe_relay
     from rig.runner import load_plan
 
     plan = load_plan(args.sequence, args.station)
@@ -188,9 +187,16 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
         "everything between readings)"
     )
     out.line(f"duration at the physical limit: {plan.physical_limit_s() * 1000:.1f} ms")
-    for relay in sorted({r for s in plan.steps for rs in s.relay_sets for r in rs}):
-        del relay
-    _ = describe_relay
+    if station.store_path.exists():
+        from rig.engine import wear_warnings
+        from rig.store import ResultStore
+
+        store = ResultStore(station.store_path)
+        try:
+            for warning in wear_warnings(store.relay_wear(station.name), station.fixture):
+                out.line(f"warning: {warning}")
+        finally:
+            store.close()
     return 0
 
 

@@ -17,6 +17,7 @@ from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 
 from drivers.base import Dmm, MeterFunction, RelayBox, Supply
+from rig.config.fixture import FixtureMap
 from rig.errors import InstrumentError, InterlockError, RigError
 from rig.events import (
     Event,
@@ -77,6 +78,20 @@ class RunSummary:
     def failed_steps(self) -> list[str]:
         bad = (Verdict.FAIL, Verdict.CONDITIONAL_FAIL, Verdict.ERROR)
         return [r.step_id for r in self.results if r.verdict in bad]
+
+
+WEAR_WARNING_FRACTION = 0.9
+"""Warn when a relay has used this share of its rated operations (common practice)."""
+
+
+def wear_warnings(wear: dict[int, int], fixture: FixtureMap) -> list[str]:
+    """Relays near their rated life, in words, so they are replaced before they fail."""
+    rated = fixture.rated_operations
+    return [
+        f"relay {relay} has made {ops} of its rated {rated} operations; plan to replace it"
+        for relay, ops in sorted(wear.items())
+        if ops >= WEAR_WARNING_FRACTION * rated
+    ]
 
 
 class StopRequested(RigError):
@@ -165,6 +180,8 @@ class Engine:
         self.listener(
             RunStarted(run_id, serial, sequence.name, tuple(p.spec.id for p in self.plan.steps))
         )
+        notes.extend(wear_warnings(self.store.relay_wear(station.name), station.fixture))
+        counts_before = self._relay_counts()
         status, reason = "complete", ""
         results: list[StepResult] = []
         interrupted: BaseException | None = None
@@ -191,6 +208,7 @@ class Engine:
             status, reason = "aborted", str(exc)
         finally:
             failures = self._end_safe()
+            self._record_wear(counts_before)
         safe = not failures
         if failures:
             notes.append("could not make safe: " + "; ".join(failures))
@@ -236,6 +254,17 @@ class Engine:
             if config.calibration_due and config.calibration_due < dt.date.today():
                 notes.append(f"{role} calibration was due {due}; allowed by the station file")
         return found
+
+    def _relay_counts(self) -> dict[int, int]:
+        try:
+            return dict(self.bench.relays.operation_counts())
+        except (RigError, OSError):
+            return {}
+
+    def _record_wear(self, before: dict[int, int]) -> None:
+        after = self._relay_counts()
+        delta = {r: n - before.get(r, 0) for r, n in after.items() if n > before.get(r, 0)}
+        self.store.add_relay_operations(self.plan.station.name, delta)
 
     def _start_safe(self) -> None:
         """Bring the box to a known state (all open, read back) before anything else."""
@@ -478,6 +507,10 @@ class Engine:
     def prompt(self, text: str) -> bool:
         self.listener(PromptShown(self._step_id, text))
         return self.ask(text)
+
+    def lead_zero(self, hi: str, lo: str) -> float:
+        zeros = self.plan.station.lead_zero_ohm
+        return zeros.get(f"{hi}:{lo}", zeros.get(f"{lo}:{hi}", 0.0))
 
     def wait(self, seconds: float) -> None:
         end = time.monotonic() + seconds

@@ -84,6 +84,15 @@ MIGRATIONS: list[str] = [
     CREATE INDEX readings_by_run ON readings (run_id, step_id);
     CREATE INDEX runs_by_serial ON runs (serial);
     """,
+    # 1 -> 2: relay wear kept across runs
+    """
+    CREATE TABLE relay_wear (
+        station TEXT NOT NULL,
+        relay INTEGER NOT NULL,
+        operations INTEGER NOT NULL DEFAULT 0,
+        PRIMARY KEY (station, relay)
+    );
+    """,
 ]
 
 SCHEMA_VERSION = len(MIGRATIONS)
@@ -253,6 +262,24 @@ class ResultStore:
                 "UPDATE runs SET ended_at=?, status=?, verdict=?, reason=?, notes=? WHERE id=?",
                 (_now(), status, verdict, reason, json.dumps(list(notes)), run_id),
             )
+
+    def add_relay_operations(self, station: str, counts: dict[int, int]) -> None:
+        """Add one run's relay operations to the station's lifetime counts."""
+        with self._tx() as db:
+            for relay, ops in counts.items():
+                if ops:
+                    db.execute(
+                        "INSERT INTO relay_wear (station, relay, operations) VALUES (?,?,?)"
+                        " ON CONFLICT (station, relay) DO UPDATE SET"
+                        " operations = operations + excluded.operations",
+                        (station, relay, ops),
+                    )
+
+    def relay_wear(self, station: str) -> dict[int, int]:
+        rows = self._db.execute(
+            "SELECT relay, operations FROM relay_wear WHERE station=?", (station,)
+        )
+        return {int(r[0]): int(r[1]) for r in rows}
 
     # --- reading ------------------------------------------------------------------------------
 

@@ -304,6 +304,12 @@ class Call:
     def has(self, index: int) -> bool:
         return index < len(self.params)
 
+    def param(self, index: int) -> Param:
+        """Parameter ``index``; -109 Missing parameter if the line has fewer."""
+        if index >= len(self.params):
+            raise ScpiError(-109)
+        return self.params[index]
+
     def value(
         self,
         index: int,
@@ -314,7 +320,7 @@ class Call:
         high: float | None = None,
     ) -> float | str:
         """A number (suffix applied, range checked: -222) or one of ``words`` as its long form."""
-        p = self.params[index]
+        p = self.param(index)
         if p.kind == "word":
             for word in words:
                 if _word_matches(p.text, word):
@@ -361,7 +367,7 @@ class Call:
 
     def boolean(self, index: int) -> bool:
         """ON/OFF or a number (non-zero after rounding means ON), SCPI-1999 Vol. 1 §7.3."""
-        p = self.params[index]
+        p = self.param(index)
         if p.kind == "number" and not p.suffix:
             return round(p.number) != 0
         if p.kind == "word" and p.text in ("ON", "OFF"):
@@ -372,7 +378,7 @@ class Call:
 
     def word(self, index: int, choices: Sequence[str]) -> str:
         """One of ``choices`` (mnemonics with short forms), returned as the long form."""
-        p = self.params[index]
+        p = self.param(index)
         if p.kind != "word":
             raise ScpiError(-104, f"expected one of {', '.join(choices)}")
         for choice in choices:
@@ -381,7 +387,7 @@ class Call:
         raise ScpiError(-224, f"expected one of {', '.join(choices)}")
 
     def string(self, index: int) -> str:
-        p = self.params[index]
+        p = self.param(index)
         if p.kind != "string":
             raise ScpiError(-104, "expected a quoted string")
         return p.text

@@ -150,7 +150,10 @@ class ScpiTcpServer:
         except OSError as error:
             log.debug("%s: client went away: %s", self.name, error)
         finally:
-            _quietly(conn.close)
+            if self._stopping.is_set():
+                _reset(conn)  # stopped: the client learns at once, not by a timeout
+            else:
+                _quietly(conn.close)
             with self._clients_lock:
                 self._clients.pop(conn, None)
 

@@ -40,3 +40,6 @@ class StepContext(Protocol):
 
     def wait(self, seconds: float) -> None:
         """A timed soak."""
+
+    def lead_zero(self, hi: str, lo: str) -> float:
+        """The station's stored fixture lead resistance for this pin pair (0 when none)."""

@@ -135,7 +135,10 @@ class Resistance(StepKind):
         ctx.power(None)
         ctx.connect(self.routes(spec)[0])
         r = ctx.measure(self.function_for(spec), role="hi-lo", range_=spec.range_, nplc=spec.nplc)
-        zero = float(spec.params.get("zero_ohm") or 0.0)
+        stated = spec.params.get("zero_ohm")
+        zero = (
+            float(stated) if stated is not None else ctx.lead_zero(spec.pins["hi"], spec.pins["lo"])
+        )
         note = f"lead zero {zero:g} ohm subtracted" if zero else ""
         return Outcome(r.value - zero, self.unit, r.u_std, spec.limits, [r], note=note)
 

@@ -1,0 +1,168 @@
+"""Step kinds the shipped demo does not use, on the virtual bench: a sensor powered from the bench
+supply (current draw, output fraction), a timed soak, 2-wire resistance with the station's stored
+lead zero against 4-wire, and the shipped limits against the common-practice check values."""
+
+from __future__ import annotations
+
+import time
+from pathlib import Path
+
+import pytest
+from bench_helpers import SEQUENCES
+
+from rig.config.fixture import load_fixture
+from rig.config.sequence import load_sequence
+from rig.config.station import load_station
+from rig.config.unit_file import load_unit
+from rig.judge.decision import Verdict
+from rig.plan import build_plan
+from rig.runner import run_plan
+from rig.sim.bench import VirtualBench
+
+FIXTURE = SEQUENCES / "demo-fixture.toml"
+
+BARE_SENSOR = f"""
+# invented test unit: a ratiometric sensor alone on the fixture, powered from the bench supply
+[unit]
+name = "bare-sensor"
+fixture = "{FIXTURE}"
+[sensors.map]
+kind = "ratiometric"
+supply = "P_5V"
+output = "P_SIG"
+ground = "P_GND"
+range_low = "0 kPa"
+range_high = "500 kPa"
+quiescent_current = "8 mA"
+output_resistance = "100 ohm"
+"""
+
+POWERED_SEQUENCE = """
+[sequence]
+name = "powered"
+[[steps]]
+id = "draw"
+kind = "supply-current"
+supply = { pos = "P_5V", neg = "P_GND", voltage = "5 V", limit = "50 mA" }
+nominal = "8 mA"
+tolerance = "5 %"
+[[steps]]
+id = "wait"
+kind = "soak"
+duration = "0.2 s"
+[[steps]]
+id = "fraction"
+kind = "ratiometric"
+output = "P_SIG"
+power = "P_5V"
+ground = "P_GND"
+range_low = "0 kPa"
+range_high = "500 kPa"
+pressure = "101.3 kPa"
+tolerance = "1 %"
+supply = { pos = "P_5V", neg = "P_GND", voltage = "5 V", limit = "50 mA" }
+"""
+
+
+def _bench(tmp_path: Path, unit_text: str, extra_station: str = "") -> tuple[VirtualBench, Path]:
+    unit_file = tmp_path / "unit.toml"
+    unit_file.write_text(unit_text, encoding="utf-8")
+    unit = load_unit(unit_file)
+    bench = VirtualBench(unit, load_fixture(unit.fixture_path))
+    bench.start()
+    station = bench.write_station(tmp_path / "station.toml", data_dir=str(tmp_path / "data"))
+    if extra_station:
+        station.write_text(station.read_text(encoding="utf-8") + extra_station, encoding="utf-8")
+    return bench, station
+
+
+def test_powered_sensor_draw_soak_and_fraction(tmp_path: Path) -> None:
+    bench, station_path = _bench(tmp_path, BARE_SENSOR)
+    try:
+        seq = tmp_path / "powered.toml"
+        seq.write_text(POWERED_SEQUENCE, encoding="utf-8")
+        plan = build_plan(load_sequence(seq), load_station(station_path))
+        started = time.monotonic()
+        summary = run_plan(plan, "P-1")
+        elapsed = time.monotonic() - started
+        assert not bench.supply_settings.output_on and bench.relay_box.closed() == frozenset()
+    finally:
+        bench.stop()
+    results = {r.step_id: r for r in summary.results}
+    assert summary.verdict is Verdict.PASS, [
+        (r.step_id, r.verdict, r.value) for r in summary.results
+    ]
+    # Ohm's law on the invented quiescent draw: 5 V over the 625 ohm that stands for 8 mA.
+    assert results["draw"].value == pytest.approx(0.008, rel=0.01)
+    assert elapsed >= 0.2  # the soak really waited
+    # 10 % + 80 % x 101.3 / 500 = 26.208 % (the unit's invented transfer); unloaded output.
+    assert results["fraction"].value == pytest.approx(26.208, abs=0.05)
+
+
+SENDER = f"""
+# invented test unit: a 2.0 kohm resistor standing for a sender, with long fixture leads
+[unit]
+name = "sender"
+fixture = "{FIXTURE}"
+[resistors.element]
+between = ["Ax", "Bx"]
+value = "2.0 kohm"
+[wires.lead_a]
+between = ["T1", "Ax"]
+gauge = "26 AWG"
+length = "3 m"
+[wires.lead_b]
+between = ["Bx", "T2"]
+gauge = "26 AWG"
+length = "3 m"
+"""
+
+RESISTANCE_SEQUENCE = """
+[sequence]
+name = "ohms"
+[[steps]]
+id = "two-wire"
+kind = "resistance"
+hi = "T1"
+lo = "T2"
+nominal = "2.0 kohm"
+tolerance = "1 %"
+[[steps]]
+id = "four-wire"
+kind = "resistance"
+hi = "T1"
+lo = "T2"
+wires = 4
+nominal = "2.0 kohm"
+tolerance = "1 %"
+"""
+
+
+def test_two_wire_with_stored_zero_agrees_with_four_wire(tmp_path: Path) -> None:
+    # 26 AWG copper: 133.9 ohm/km at 20 degC (handbook AWG table, from memory), so 6 m of lead
+    # is about 0.8 ohm plus two relay contacts; the stored zero stands for that lead.
+    zero = '\n[lead_zero]\n"T1:T2" = "0.9 ohm"\n'
+    bench, station_path = _bench(tmp_path, SENDER, zero)
+    try:
+        seq = tmp_path / "ohms.toml"
+        seq.write_text(RESISTANCE_SEQUENCE, encoding="utf-8")
+        summary = run_plan(build_plan(load_sequence(seq), load_station(station_path)), "R-1")
+    finally:
+        bench.stop()
+    two, four = summary.results
+    # 4-wire sees the element alone; 2-wire less the stored zero sees it too (within the leads'
+    # rounding, 0.05 ohm); both within the step's expanded uncertainty.
+    assert four.value == pytest.approx(2000.0, abs=four.expanded_u)
+    assert two.value == pytest.approx(2000.0, abs=two.expanded_u + 0.05)
+    assert "lead zero 0.9 ohm subtracted" in summary.results[0].note
+
+
+def test_shipped_limits_are_the_common_practice_check_values() -> None:
+    # Common practice, no published source (SOURCES.md, sensor circuits): a 5 V sensor signal is
+    # healthy between about 0.6 V and 4.8 V; a sensor ground's drop to chassis is under 0.02 V.
+    for name in ("temp-circuit-check", "pressure-circuit-check"):
+        steps = {s.id: s for s in load_sequence(SEQUENCES / f"{name}.toml").steps}
+        window = steps["signal-at-controller"].limits
+        assert window is not None and (window.low, window.high) == (0.6, 4.8)
+        ground = steps["sensor-ground-drop"].limits
+        assert ground is not None and ground.high == pytest.approx(0.02)
