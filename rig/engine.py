@@ -251,8 +251,6 @@ class Engine:
                     "calibration_due": due,
                 }
             )
-            if config.calibration_due and config.calibration_due < dt.date.today():
-                notes.append(f"{role} calibration was due {due}; allowed by the station file")
         return found
 
     def _relay_counts(self) -> dict[int, int]:

@@ -16,6 +16,7 @@ import math
 from dataclasses import dataclass, field
 
 from drivers.base import MeterFunction
+from rig.errors import CircuitError
 from rig.sim.probe import SupplyReading, SupplySettings
 
 R_X = 1000.0
@@ -68,7 +69,7 @@ class SmallBench:
         if self.hookup == "open":
             return math.inf
         if self.hookup != "resistor":
-            raise AssertionError(f"resistance of hookup {self.hookup!r} is not worked out")
+            raise CircuitError(f"resistance of hookup {self.hookup!r} is not worked out")
         # Drive test_current_a from HI to LO; V = I R; reading = V / I.
         r = R_X + 2 * R_LEAD if function is MeterFunction.RES_2W else R_X
         return (test_current_a * r) / test_current_a

@@ -18,7 +18,7 @@ from collections.abc import Callable
 import numpy as np
 
 from drivers.base import MeterFunction
-from rig.circuit import Circuit, solve
+from rig.circuit import Circuit, Solution, solve
 from rig.config.fixture import Bus, FixtureMap
 from rig.config.unit_file import UnitModel
 from rig.faults import Fault
@@ -75,6 +75,7 @@ class CircuitProbe:
             self.faults = list(faults)
             self.unit_circuit: UnitCircuit = build_unit_circuit(self.unit, self.faults)
             self.circuit = self._with_fixture(self.unit_circuit.circuit)
+            self._applied: frozenset[int] = frozenset()
             self._tau_cache.clear()
 
     def _with_fixture(self, unit_circuit: Circuit) -> Circuit:
@@ -109,8 +110,9 @@ class CircuitProbe:
     def _prepare(self, function: MeterFunction, test_current_a: float) -> Circuit:
         c = self.circuit
         closed = self.closed()
-        for relay in self.fixture.relay_owner():
+        for relay in closed ^ self._applied:  # only the contacts that moved
             c.set_switch(f"relay:{relay}", relay in closed)
+        self._applied = closed
         if function is MeterFunction.DC_VOLTS:
             c.set_value("meter:input", DCV_INPUT_OHM)
             c.set_value("meter:test", 0.0)
@@ -128,21 +130,22 @@ class CircuitProbe:
             c.set_value(element, self.unit_circuit.circuit.elements[element].value)
         return c
 
-    def _solve_cc(self, c: Circuit) -> tuple[float, float, bool]:
-        """Solve with the supply as programmed; fall back to constant current at its limit."""
+    def _solve_supplied(self, c: Circuit) -> tuple[Solution, bool]:
+        """Solve with the supply as programmed; past its current limit, solve again with the
+        supply in constant current.  Returns the solution and whether it is in CC."""
         sol = solve(c)
-        current = -sol.i("supply:source") if self.supply.output_on else 0.0
-        if not self.supply.output_on or abs(current) <= self.supply.current_limit_a:
-            return sol.vdiff(bus_node(Bus.SUPPLY_POS), bus_node(Bus.SUPPLY_NEG)), current, False
-        return math.nan, math.nan, True
+        if not self.supply.output_on:
+            return sol, False
+        if abs(sol.i("supply:source")) <= self.supply.current_limit_a:
+            return sol, False
+        return solve(self._constant_current(c)), True
 
     # --- BenchProbe ---------------------------------------------------------------------------
 
     def meter_value(self, function: MeterFunction, test_current_a: float) -> float:
         with self._lock:
             c = self._prepare(function, test_current_a)
-            cc = self._solve_cc(c)[2]
-            sol = solve(c if not cc else self._constant_current(c))
+            sol, _ = self._solve_supplied(c)
             hi, lo = bus_node(Bus.DMM_HI), bus_node(Bus.DMM_LO)
             if function is MeterFunction.DC_VOLTS:
                 value = sol.vdiff(hi, lo)
@@ -167,11 +170,11 @@ class CircuitProbe:
     def supply_reading(self, name: str, settings: SupplySettings) -> SupplyReading:
         with self._lock:
             c = self._prepare(MeterFunction.DC_VOLTS, 0.0)
-            volts, amps, cc = self._solve_cc(c)
-            if cc:
-                sol = solve(self._constant_current(c))
-                volts = sol.vdiff(bus_node(Bus.SUPPLY_POS), bus_node(Bus.SUPPLY_NEG))
-                amps = settings.current_limit_a
+            sol, cc = self._solve_supplied(c)
+            volts = sol.vdiff(bus_node(Bus.SUPPLY_POS), bus_node(Bus.SUPPLY_NEG))
+            if not settings.output_on:
+                return SupplyReading(volts, 0.0, False)
+            amps = settings.current_limit_a if cc else -sol.i("supply:source")
             return SupplyReading(volts, amps, cc)
 
     # --- settling -----------------------------------------------------------------------------
