@@ -191,3 +191,18 @@ def test_past_due_calibration_is_refused_unless_allowed(tmp_path: Path) -> None:
         summary = run_plan(plan, "C-2")
     assert summary.status == "complete"
     assert any("past due since 2020-01-31" in n for n in summary.notes)
+
+
+def test_lost_relay_box_is_named_when_the_bench_cannot_be_made_safe(tmp_path: Path) -> None:
+    with shipped_bench("temp-circuit", folder=tmp_path) as (bench, station):
+        station.instruments["relay_box"].settings["timeout_ms"] = 200
+        plan = shipped_plan("temp-circuit-check", station)
+
+        def listener(event: Event) -> None:
+            if isinstance(event, StepFinished) and event.result.position == 1:
+                bench.relay_box.inject_fault("close_pty")
+
+        summary = run_plan(plan, "L-1", listener=listener)
+    assert summary.status == "aborted"
+    assert not summary.safe
+    assert any("could not make safe" in n and "relay box" in n for n in summary.notes)
