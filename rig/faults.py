@@ -146,7 +146,10 @@ def parse_faults(specs: list[str], unit: UnitModel, source: str = "fault spec") 
             faults.append(parse_fault(spec, source))
         except ConfigError as exc:
             problems.extend(exc.problems)
+    try:
+        check_faults(faults, unit, source)
+    except ConfigError as exc:
+        problems.extend(exc.problems)
     if problems:
         raise ConfigError(problems)
-    check_faults(faults, unit, source)
     return faults

@@ -116,7 +116,13 @@ def build_plan(sequence: Sequence, station: Station) -> Plan:
     if problems:
         raise ConfigError(problems)
     plan = Plan(sequence, station)
-    plan.steps = _order(sequence, planned) if sequence.reorder else list(planned.values())
+    in_file = list(planned.values())
+    plan.steps = in_file
+    if sequence.reorder:
+        ordered = _order(sequence, planned)
+        cost = relay_operations(rs for s in ordered for rs in s.relay_sets)
+        if cost < relay_operations(rs for s in in_file for rs in s.relay_sets):
+            plan.steps = ordered  # greedy is a heuristic: keep it only when it saves operations
     return plan
 
 

@@ -68,7 +68,11 @@ class UnitCircuit:
 
 
 def build_unit_circuit(unit: UnitModel, faults: list[Fault] | None = None) -> UnitCircuit:
-    """The unit's circuit, grounded at node 0, with ``faults`` applied."""
+    """The unit's circuit with ``faults`` applied.
+
+    Node 0 is bench ground, but nothing here ties the unit to it: the caller does, through the
+    fixture's bench-ground pin (as the virtual bench does), so the two never add a second source.
+    """
     faults = list(faults or [])
     built = UnitCircuit(unit, faults)
     c = built.circuit

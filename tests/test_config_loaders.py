@@ -289,12 +289,6 @@ def test_duplicate_step_id(tmp_path: Path) -> None:
     assert "twice" in problem.message
 
 
-@pytest.mark.xfail(
-    strict=True,
-    raises=AssertionError,
-    reason="reader.py TomlDoc.line_of drops the [index] of an array of tables, so a problem in "
-    "steps[1] is given the line of the same key in steps[0]",
-)
 def test_duplicate_step_id_names_the_line_of_the_second_step(tmp_path: Path) -> None:
     text = SEQUENCE_HEAD + volts_step("signal") + volts_step("signal", hi="C_SIG", lo="C_GND")
     path = write(tmp_path, "seq.toml", text)
@@ -303,12 +297,6 @@ def test_duplicate_step_id_names_the_line_of_the_second_step(tmp_path: Path) -> 
     assert problem.line == second_id_line
 
 
-@pytest.mark.xfail(
-    strict=True,
-    raises=AssertionError,
-    reason="reader.py TomlDoc.line_of matches a table header by its last name only "
-    "(endswith), so [pins.AB] is taken for [pins.B]",
-)
 def test_line_of_a_pin_whose_name_ends_another_pins_name(tmp_path: Path) -> None:
     text = (
         '[fixture]\nname = "f"\nrelay_count = 8\nmax_closed = 4\n\n'

@@ -217,12 +217,6 @@ def test_every_malformed_spec_is_reported_at_once(unit: UnitModel) -> None:
     assert [p.key for p in caught.value.problems] == ["open", "snap:signal"]
 
 
-@pytest.mark.xfail(
-    strict=True,
-    raises=AssertionError,
-    reason="faults.py parse_faults raises on malformed specs before check_faults runs, so an "
-    "unknown target among them is not reported (its docstring: every problem at once)",
-)
 def test_malformed_and_unknown_target_reported_together(unit: UnitModel) -> None:
     with pytest.raises(ConfigError) as caught:
         parse_faults(["snap:signal", "open:sig"], unit)
@@ -246,14 +240,10 @@ def test_unit_circuit_is_floating_without_the_bench(unit: UnitModel) -> None:
     assert "floating" in str(caught.value)
 
 
-@pytest.mark.xfail(
-    strict=True,
-    raises=CircuitError,
-    reason="unit_circuit.py build_unit_circuit docstring says the circuit is 'grounded at "
-    "node 0', but nothing in it is tied to node 0 (only the bench's fixture does that)",
-)
-def test_unit_circuit_is_grounded_as_documented(unit: UnitModel) -> None:
-    solve(build_unit_circuit(unit).circuit)
+def test_unit_circuit_is_left_for_the_caller_to_ground(unit: UnitModel) -> None:
+    # documented: the fixture's bench-ground pin ties the unit to node 0, not the builder
+    with pytest.raises(CircuitError, match="float"):
+        solve(build_unit_circuit(unit).circuit)
 
 
 def test_open_wire_is_the_leakage_resistance(unit: UnitModel) -> None:

@@ -53,25 +53,40 @@ class TomlDoc:
         self.problems.append(Problem(self.name, key, message, line=self.line_of(key)))
 
     def line_of(self, key_path: str) -> int | None:
-        """Best-effort line of a key path such as ``wires.signal.length_m`` (1-based)."""
+        """Best-effort line of a key path such as ``wires.signal.length_m`` or ``steps[3].low``
+        (1-based); a key not written on a line of its own falls back to its table's line."""
         if not key_path:
             return None
-        parts = [p for p in re.split(r"\.|\[\d+\]", key_path) if p]
-        leaf = parts[-1]
-        table = ".".join(parts[:-1])
-        in_table = not table
-        header = re.compile(r"^\s*\[\[?\s*([^\]]+?)\s*\]\]?\s*$")
+        match = re.fullmatch(r"(?:(.*?)(?:\[(\d+)\])?\.)?([^.\[\]]+)(?:\[(\d+)\])?", key_path)
+        if match is None:
+            return None
+        table, index_text, leaf, leaf_index = match.groups()
+        table = table or ""
+        wanted = int(index_text or 0)
+        header = re.compile(r"^\s*(\[\[?)\s*([^\]]+?)\s*\]\]?\s*(#.*)?$")
         key_re = re.compile(rf'^\s*"?{re.escape(leaf)}"?\s*=')
-        table_re = re.compile(rf"^\s*\[\[?\s*{re.escape(key_path)}\s*\]\]?\s*$")
+        own_header = f"{table}.{leaf}" if table else leaf
+        seen = 0
+        in_table = not table
+        leaf_seen = 0
         for number, line in enumerate(self._lines, start=1):
             found = header.match(line)
             if found:
-                if table_re.match(line):
-                    return number
-                in_table = not table or found.group(1).strip().endswith(table.split(".")[-1])
+                name = found.group(2).strip()
+                if name == own_header:
+                    if leaf_index is None or leaf_seen == int(leaf_index):
+                        return number
+                    leaf_seen += 1
+                if name == table:
+                    in_table = seen == wanted
+                    seen += 1
+                else:
+                    in_table = False
                 continue
             if in_table and key_re.match(line):
                 return number
+        if table:
+            return self.line_of(table.rsplit("[", 1)[0] if table.endswith("]") else table)
         return None
 
     def raise_if_problems(self) -> None:
@@ -118,6 +133,8 @@ class Section:
     def string(self, name: str, default: Any = _MISSING, choices: tuple[str, ...] = ()) -> Any:
         expected = "one of " + ", ".join(repr(c) for c in choices) if choices else "a string"
         value = self._get(name, default, expected)
+        if value is _MISSING:
+            return None
         if value is default:
             return value
         if not isinstance(value, str) or (choices and value not in choices):
@@ -127,6 +144,8 @@ class Section:
 
     def number(self, name: str, default: Any = _MISSING, *, minimum: float | None = None) -> Any:
         value = self._get(name, default, "a number")
+        if value is _MISSING:
+            return None
         if value is default:
             return value
         if isinstance(value, bool) or not isinstance(value, int | float):
@@ -139,6 +158,8 @@ class Section:
 
     def integer(self, name: str, default: Any = _MISSING, *, minimum: int | None = None) -> Any:
         value = self._get(name, default, "a whole number")
+        if value is _MISSING:
+            return None
         if value is default:
             return value
         if isinstance(value, bool) or not isinstance(value, int):
@@ -151,6 +172,8 @@ class Section:
 
     def boolean(self, name: str, default: Any = _MISSING) -> Any:
         value = self._get(name, default, "true or false")
+        if value is _MISSING:
+            return None
         if value is default:
             return value
         if not isinstance(value, bool):
@@ -163,6 +186,8 @@ class Section:
     ) -> Any:
         """A value with its unit ("2.2 kohm"), returned in SI."""
         value = self._get(name, default, f"a value in {unit} such as '1.5 {unit}'")
+        if value is _MISSING:
+            return None
         if value is default:
             return value
         try:
@@ -177,6 +202,8 @@ class Section:
 
     def string_list(self, name: str, default: Any = _MISSING) -> Any:
         value = self._get(name, default, "a list of strings")
+        if value is _MISSING:
+            return None
         if value is default:
             return value
         if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
@@ -186,6 +213,8 @@ class Section:
 
     def int_list(self, name: str, default: Any = _MISSING) -> Any:
         value = self._get(name, default, "a list of whole numbers")
+        if value is _MISSING:
+            return None
         if value is default:
             return value
         if not isinstance(value, list) or not all(

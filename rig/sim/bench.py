@@ -182,7 +182,8 @@ class VirtualBench:
     def write_station(self, path: Path, *, data_dir: str | None = None) -> Path:
         path = Path(path)
         path.parent.mkdir(parents=True, exist_ok=True)
-        text = self.station_toml(data_dir=data_dir or str(path.parent / "rig-data"))
+        folder = Path(data_dir) if data_dir else path.parent / "rig-data"
+        text = self.station_toml(data_dir=str(folder.resolve()))
         path.write_text(text, encoding="utf-8")
         return path
 

@@ -61,4 +61,5 @@ def read_limits(sec: Section, unit: str, *, required: bool = True) -> Limits | N
         return None
     if low is not None and high is not None and low >= high:
         sec.problem("high", f"high ({high:g} {unit}) must be above low ({low:g} {unit})")
+        return None
     return Limits(low, high)
