@@ -166,3 +166,29 @@ def test_shipped_limits_are_the_common_practice_check_values() -> None:
         assert window is not None and (window.low, window.high) == (0.6, 4.8)
         ground = steps["sensor-ground-drop"].limits
         assert ground is not None and ground.high == pytest.approx(0.02)
+
+
+def test_prompt_opens_every_relay_and_switches_the_supply_off_first(tmp_path: Path) -> None:
+    bench, station_path = _bench(tmp_path, BARE_SENSOR)
+    seen: list[tuple[frozenset[int], bool]] = []
+    try:
+        seq = tmp_path / "p.toml"
+        seq.write_text(
+            POWERED_SEQUENCE.replace(
+                '[[steps]]\nid = "wait"',
+                '[[steps]]\nid = "ask"\nkind = '
+                '"prompt"\ntext = "Reconnect the sensor."\n[[steps]]\nid = "wait"',
+            ),
+            encoding="utf-8",
+        )
+        plan = build_plan(load_sequence(seq), load_station(station_path))
+
+        def ask(text: str) -> bool:
+            seen.append((bench.relay_box.closed(), bench.supply_settings.output_on))
+            return True
+
+        summary = run_plan(plan, "P-2", ask=ask)
+    finally:
+        bench.stop()
+    assert seen == [(frozenset(), False)]
+    assert summary.status == "complete"

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from rig.config.reader import Section
 from rig.judge.decision import Limits
+from rig.routing import Route
 from rig.steps.base import Outcome, StepKind, StepSpec
 from rig.steps.context import StepContext
 
@@ -20,6 +21,9 @@ class Prompt(StepKind):
         spec.barrier = True
 
     def run(self, ctx: StepContext, spec: StepSpec) -> Outcome:
+        # the operator may be about to touch the unit: supply off and every relay open first
+        ctx.power(None)
+        ctx.connect(Route(()))
         confirmed = ctx.prompt(str(spec.params["text"]))
         return Outcome(1.0 if confirmed else 0.0, "", 0.0, Limits(0.5, None))
 
