@@ -12,11 +12,15 @@ import threading
 import time
 from pathlib import Path
 from types import FrameType
+from typing import TYPE_CHECKING
 
 from rig import __version__
 from rig.cli_output import Output, show, show_limits
 from rig.errors import ConfigError, RigError
 from rig.judge.decision import Verdict
+
+if TYPE_CHECKING:
+    from rig.plan import Plan, PlannedStep
 
 EXIT_PASS, EXIT_FAIL, EXIT_BAD_INPUT, EXIT_ABORTED = 0, 1, 2, 3
 
@@ -166,7 +170,7 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
     for step in plan.steps:
         spec = step.spec
         relays = " | ".join(",".join(str(r) for r in sorted(rs)) for rs in step.relay_sets)
-        u_text, tur_text = _estimate(plan, step)
+        range_text, u_text, tur_text = _estimate(plan, step)
         rows.append(
             [
                 spec.id,
@@ -174,7 +178,7 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
                 " ".join(f"{k}={v}" for k, v in spec.pins.items()),
                 relays or "-",
                 "ok",
-                "auto" if step.range_ is None else show(step.range_, _range_unit(spec)),
+                range_text,
                 u_text,
                 tur_text,
             ]
@@ -200,40 +204,34 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
     return 0
 
 
-def _range_unit(spec: object) -> str:
-    kind = getattr(spec, "kind", "")
-    return {"resistance": "ohm", "reference-temperature": "ohm", "supply-current": "A"}.get(
-        kind, "V"
-    )
-
-
-def _estimate(plan: object, step: object) -> tuple[str, str]:
-    """Expanded uncertainty and TUR at the upper (or lower) limit, on the planned range."""
+def _estimate(plan: Plan, step: PlannedStep) -> tuple[str, str, str]:
+    """The planned range, and the expanded uncertainty and TUR at the upper (or lower) limit."""
+    from rig.config.station import FUNCTIONS
+    from rig.engine import COVERAGE_K
     from rig.judge.decision import test_uncertainty_ratio, tur_is_low
-    from rig.plan import Plan, PlannedStep
     from rig.steps import KINDS
 
-    assert isinstance(plan, Plan) and isinstance(step, PlannedStep)
     spec = step.spec
     kind = KINDS[spec.kind]
-    if spec.limits is None or kind.function is None or step.range_ is None:
-        return "-", "-"
-    at = spec.limits.high if spec.limits.high is not None else spec.limits.low
-    if at is None:
-        return "-", "-"
-    function = kind.function.value
-    if spec.kind == "resistance":
-        function = "res4w" if spec.params.get("wires") == 4 else "res2w"
+    function = kind.meter_function(spec)
+    if function is None or step.range_ is None:
+        return "auto", "-", "-"
+    range_text = show(step.range_, FUNCTIONS[function.value])
+    at = (
+        None
+        if spec.limits is None
+        else (spec.limits.high if spec.limits.high is not None else spec.limits.low)
+    )
+    if spec.limits is None or at is None:
+        return range_text, "-", "-"
     try:
-        u = plan.station.dmm_accuracy.spec_for(function, step.range_).standard_uncertainty(
-            at, step.range_
-        )
+        accuracy = plan.station.dmm_accuracy.spec_for(function.value, step.range_)
     except ValueError:
-        return "-", "-"
-    expanded = 2 * u
+        return range_text, "-", "-"
+    expanded = COVERAGE_K * accuracy.standard_uncertainty(at, step.range_)
     tur = test_uncertainty_ratio(spec.limits, expanded)
     tur_text = "-" if tur is None else f"{tur:.0f}:1" + (" LOW" if tur_is_low(tur) else "")
-    return show(expanded, kind.unit), tur_text
+    return range_text, show(expanded, kind.unit), tur_text
 
 
 # --- rig run ----------------------------------------------------------------------------------

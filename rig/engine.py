@@ -18,6 +18,7 @@ from dataclasses import dataclass, field, replace
 
 from drivers.base import Dmm, MeterFunction, RelayBox, Supply
 from rig.config.fixture import FixtureMap
+from rig.config.station import FUNCTIONS
 from rig.errors import InstrumentError, InterlockError, RigError
 from rig.events import (
     Event,
@@ -391,39 +392,29 @@ class Engine:
         dmm = self.bench.dmm
         dmm.configure(function, range_, nplc)
         started = time.monotonic()
-        previous: float | None = None
-        reading = self._record(function, role, dmm.read(), range_, nplc, settled=False)
-        count = 1
-        while (
-            self.settle.enabled
-            and math.isfinite(reading.value)
-            and count < self.settle.max_readings
-        ):
-            if previous is not None and abs(
-                reading.value - previous
-            ) <= self.settle.agree_fraction * max(reading.u_std, 1e-12):
+        reading = self._record(function, role, dmm.read(), range_, nplc)
+        limit = self.settle.max_readings if self.settle.enabled else 1
+        for _ in range(1, limit):
+            if not math.isfinite(reading.value):
                 break
-            previous = reading.value
-            reading = self._record(function, role, dmm.read(), range_, nplc, settled=False)
-            count += 1
+            previous, reading = reading, self._record(function, role, dmm.read(), range_, nplc)
+            tolerance = self.settle.agree_fraction * max(reading.u_std, 1e-12)
+            if abs(reading.value - previous.value) <= tolerance:
+                break
         self._step_settle += time.monotonic() - started
         self.store.mark_settled(self._last_reading_row)
-        settled = replace(reading, role=role)
-        self.listener(ReadingTaken(self._step_id, role, settled.value, _unit(function), True))
-        return settled
+        self.listener(
+            ReadingTaken(self._step_id, role, reading.value, FUNCTIONS[function.value], True)
+        )
+        return reading
 
     def _record(
-        self,
-        function: MeterFunction,
-        role: str,
-        value: float,
-        range_: float | None,
-        nplc: float,
-        *,
-        settled: bool,
+        self, function: MeterFunction, role: str, value: float, range_: float | None, nplc: float
     ) -> Reading:
-        u = self._u_reading(function, value, range_)
+        """Store one raw reading at once, with the range it was taken on and its uncertainty."""
         used_range = range_ if range_ is not None else self._autorange(function, value)
+        u = self._u_reading(function, value, used_range)
+        taken_at = time.time()
         self._last_reading_row = self.store.add_reading(
             self._run_id,
             self._step_id,
@@ -433,13 +424,14 @@ class Engine:
             range_=used_range,
             nplc=nplc,
             u_std=u,
-            taken_at=time.time(),
-            settled=settled,
+            taken_at=taken_at,
+            settled=False,
         )
         self._step_readings += 1
-        return Reading(role, function.value, value, used_range, nplc, time.time(), u)
+        return Reading(role, function.value, value, used_range, nplc, taken_at, u)
 
     def _autorange(self, function: MeterFunction, value: float) -> float | None:
+        """The range autorange would pick for ``value`` (None for no reading)."""
         if not math.isfinite(value):
             return None
         try:
@@ -449,16 +441,13 @@ class Engine:
 
     def _u_reading(self, function: MeterFunction, value: float, range_: float | None) -> float:
         """Standard uncertainty of one reading from the station's accuracy table (GUM 4.3.7)."""
-        if not math.isfinite(value):
-            return math.nan
-        table = self.plan.station.dmm_accuracy
-        used = range_ if range_ is not None else self._autorange(function, value)
-        if used is None:
+        if not math.isfinite(value) or range_ is None:
             return math.nan
         try:
-            return float(table.spec_for(function.value, used).standard_uncertainty(value, used))
+            spec = self.plan.station.dmm_accuracy.spec_for(function.value, range_)
         except ValueError:
             return math.nan
+        return float(spec.standard_uncertainty(value, range_))
 
     def power(self, request: SupplyRequest | None) -> None:
         if request == self._supply_state:
@@ -481,6 +470,7 @@ class Engine:
         if spec is not None and math.isfinite(value):
             range_, accuracy = spec
             u = float(accuracy.standard_uncertainty(value, range_))
+        taken_at = time.time()
         self.store.add_reading(
             self._run_id,
             self._step_id,
@@ -490,12 +480,12 @@ class Engine:
             range_=range_,
             nplc=None,
             u_std=u,
-            taken_at=time.time(),
+            taken_at=taken_at,
             settled=True,
         )
         self._step_readings += 1
         self.listener(ReadingTaken(self._step_id, role, value, "A", True))
-        return Reading(role, "supply-current", value, range_, 0.0, time.time(), u)
+        return Reading(role, "supply-current", value, range_, 0.0, taken_at, u)
 
     def earlier(self, step_id: str) -> StepResult:
         if step_id not in self._results:
@@ -516,10 +506,6 @@ class Engine:
             if self.stop.is_set():
                 raise StopRequested("stopped by the operator")
             time.sleep(min(0.05, max(0.0, end - time.monotonic())))
-
-
-def _unit(function: MeterFunction) -> str:
-    return {"dcv": "V", "res2w": "ohm", "res4w": "ohm", "dci": "A"}[function.value]
 
 
 def _now() -> str:

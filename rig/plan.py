@@ -131,20 +131,14 @@ def _fixed_range(spec: StepSpec, station: Station) -> float | None:
     if spec.range_ is not None:
         return spec.range_
     kind = KINDS[spec.kind]
-    if kind.function is None or spec.limits is None or spec.kind in ("ntc", "ratiometric"):
-        return None
-    if spec.kind == "reference-temperature":
+    function = kind.meter_function(spec)
+    if function is None or spec.limits is None or not kind.limits_in_meter_units:
         return None
     bounds = [abs(b) for b in (spec.limits.low, spec.limits.high) if b is not None]
-    if len(bounds) < 1:
+    if not bounds:
         return None
-    function = kind.function.value
-    if spec.kind == "resistance" and spec.params.get("wires") == 4:
-        function = "res4w"
-    elif spec.kind == "resistance":
-        function = "res2w"
     try:
-        return float(station.dmm_accuracy.range_for(function, max(bounds)))
+        return float(station.dmm_accuracy.range_for(function.value, max(bounds)))
     except ValueError:
         return None
 
@@ -184,7 +178,6 @@ def _order(sequence: Sequence, planned: dict[str, PlannedStep]) -> list[PlannedS
     return ordered
 
 
-def _cost(current: frozenset[int], step: PlannedStep) -> tuple[int, int]:
-    if not step.relay_sets:
-        return (0, 0)
-    return (len(current ^ step.relay_sets[0]), 0)
+def _cost(current: frozenset[int], step: PlannedStep) -> int:
+    """Relay operations to reach the step's first route from the relays closed now."""
+    return len(current ^ step.relay_sets[0]) if step.relay_sets else 0

@@ -113,6 +113,13 @@ def _num(value: float | None) -> float | None:
     return float(value)
 
 
+def _overload_flag(value: float) -> int:
+    """Why a reading has no number: 0 it has one, 1 overload (±inf), 2 not a number."""
+    if math.isnan(value):
+        return 2
+    return int(math.isinf(value))
+
+
 @dataclass(frozen=True)
 class RunHeader:
     serial: str
@@ -225,7 +232,7 @@ class ResultStore:
                     role,
                     function,
                     _num(value),
-                    int(math.isinf(value)) if value == value else 2,
+                    _overload_flag(value),
                     _num(range_),
                     nplc,
                     _num(u_std),

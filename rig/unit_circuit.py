@@ -61,10 +61,12 @@ class UnitCircuit:
     intermittent: dict[str, tuple[float, float]] = field(default_factory=dict)
     """element name -> (open fraction, closed resistance)"""
 
-    def reroll_intermittent(self, rng: np.random.Generator) -> None:
-        """Draw, for this reading, whether each intermittent wire is open."""
+    def reroll_intermittent(self, rng: np.random.Generator, circuit: Circuit | None = None) -> None:
+        """Draw, for this reading, whether each intermittent wire is open, in ``circuit`` (a
+        circuit built around this unit's, such as the bench's) or in the unit's own."""
+        target = self.circuit if circuit is None else circuit
         for element, (fraction, r_good) in self.intermittent.items():
-            self.circuit.set_value(element, R_OPEN_OHM if rng.random() < fraction else r_good)
+            target.set_value(element, R_OPEN_OHM if rng.random() < fraction else r_good)
 
 
 def build_unit_circuit(unit: UnitModel, faults: list[Fault] | None = None) -> UnitCircuit:

@@ -14,9 +14,9 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from grounding import ground_like_the_bench
 
-from rig.circuit import GROUND, Circuit, Kind, Solution, solve
-from rig.config.fixture import load_fixture
+from rig.circuit import GROUND, Circuit, Solution, solve
 from rig.config.unit_file import NtcSensor, UnitModel, load_unit
 from rig.errors import CircuitError, ConfigError
 from rig.faults import KINDS, Fault, parse_fault, parse_faults
@@ -42,28 +42,7 @@ def unit() -> UnitModel:
 def on_bench(unit: UnitModel, circuit: Circuit) -> Circuit:
     """A copy of ``circuit`` with a defined reference, as described in the module docstring."""
     c = circuit.copy()
-    fixture = load_fixture(unit.fixture_path)
-    for pin in fixture.pins.values():
-        if pin.bench_ground and pin.name in c.nodes:
-            c.vsource("test:bench-ground", pin.name, GROUND, 0.0)
-    parent: dict[str, str] = {}
-
-    def root(node: str) -> str:
-        parent.setdefault(node, node)
-        while parent[node] != node:
-            node = parent[node]
-        return node
-
-    for element in c.elements.values():
-        if element.kind is not Kind.ISOURCE:
-            parent[root(element.nodes[0])] = root(element.nodes[1])
-    islands: dict[str, str] = {}
-    for node in c.nodes:
-        if root(node) != root(GROUND):
-            islands.setdefault(root(node), node)
-    for number, node in enumerate(islands.values()):
-        c.vsource(f"test:island-ref:{number}", node, GROUND, 0.0)
-    return c
+    return ground_like_the_bench(unit, c)
 
 
 def solved(unit: UnitModel, faults: list[str] | None = None) -> tuple[UnitCircuit, Solution]:

@@ -17,10 +17,10 @@ from __future__ import annotations
 from pathlib import Path
 
 import pytest
+from grounding import ground_like_the_bench
 from ngspice_ref import ngspice_op, require_ngspice
 
-from rig.circuit import GROUND, Circuit, Kind, solve
-from rig.config.fixture import load_fixture
+from rig.circuit import Circuit, solve
 from rig.config.unit_file import UnitModel, load_unit
 from rig.faults import parse_faults
 from rig.unit_circuit import build_unit_circuit
@@ -76,28 +76,7 @@ def on_bench(unit: UnitModel, circuit: Circuit) -> Circuit:
     if unit.name in SENSOR_PINS:
         hi, lo = SENSOR_PINS[unit.name]
         c.isource("test:ohms", lo, hi, TEST_CURRENT_A)  # pushed into hi, drawn from lo
-    fixture = load_fixture(unit.fixture_path)
-    for pin in fixture.pins.values():
-        if pin.bench_ground and pin.name in c.nodes:
-            c.vsource("test:bench-ground", pin.name, GROUND, 0.0)
-    parent: dict[str, str] = {}
-
-    def root(node: str) -> str:
-        parent.setdefault(node, node)
-        while parent[node] != node:
-            node = parent[node]
-        return node
-
-    for element in c.elements.values():
-        if element.kind is not Kind.ISOURCE:
-            parent[root(element.nodes[0])] = root(element.nodes[1])
-    islands: dict[str, str] = {}
-    for node in c.nodes:
-        if root(node) != root(GROUND):
-            islands.setdefault(root(node), node)
-    for number, node in enumerate(islands.values()):
-        c.vsource(f"test:island-ref:{number}", node, GROUND, 0.0)
-    return c
+    return ground_like_the_bench(unit, c)
 
 
 @pytest.mark.ngspice

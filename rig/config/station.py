@@ -106,8 +106,6 @@ def load_station(path: Path | str) -> Station:
     root.reject_unknown()
 
     problems = doc.problems + fixture_problems
-    if fixture is None and not fixture_problems and head is not None:
-        pass  # 'fixture' missing was already recorded by head.string
     if problems:
         raise ConfigError(problems)
     assert fixture is not None

@@ -124,10 +124,7 @@ class CircuitProbe:
             c.set_value("meter:test", test_current_a)
         c.set_value("supply:source", self.supply.voltage_v)
         c.set_switch("supply:output", self.supply.output_on)
-        self.unit_circuit.reroll_intermittent(self._rng)
-        # the unit circuit is a copy inside self.circuit: mirror intermittent values into it
-        for element in self.unit_circuit.intermittent:
-            c.set_value(element, self.unit_circuit.circuit.elements[element].value)
+        self.unit_circuit.reroll_intermittent(self._rng, c)
         return c
 
     def _solve_supplied(self, c: Circuit) -> tuple[Solution, bool]:

@@ -87,6 +87,13 @@ class StepKind(ABC):
     name: str
     unit: str
     function: MeterFunction | None = MeterFunction.DC_VOLTS
+    limits_in_meter_units: bool = True
+    """False where the judged value is not the meter's own reading (a temperature, a fraction,
+    a prediction-relative limit): the planner then cannot pick a range from the limits."""
+
+    def meter_function(self, spec: StepSpec) -> MeterFunction | None:
+        """What the meter measures for this step's judged reading."""
+        return self.function
 
     @abstractmethod
     def parse(self, sec: Section, spec: StepSpec) -> None:

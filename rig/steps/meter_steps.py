@@ -37,11 +37,9 @@ class Volts(StepKind):
     def run(self, ctx: StepContext, spec: StepSpec) -> Outcome:
         ctx.power(spec.supply)
         ctx.connect(self.routes(spec)[0])
-        r = ctx.measure(self.function_of(), role="hi-lo", range_=spec.range_, nplc=spec.nplc)
+        fn = MeterFunction.DC_VOLTS
+        r = ctx.measure(fn, role="hi-lo", range_=spec.range_, nplc=spec.nplc)
         return Outcome(r.value, self.unit, r.u_std, spec.limits, [r])
-
-    def function_of(self) -> MeterFunction:
-        return MeterFunction.DC_VOLTS
 
 
 class GroundDrop(Volts):
@@ -122,7 +120,7 @@ class Resistance(StepKind):
         spec.params["zero_ohm"] = sec.quantity("lead_zero", "ohm", None)
         spec.limits = read_limits(sec, self.unit)
 
-    def function_for(self, spec: StepSpec) -> MeterFunction:
+    def meter_function(self, spec: StepSpec) -> MeterFunction:
         return MeterFunction.RES_4W if spec.params.get("wires") == 4 else MeterFunction.RES_2W
 
     def routes(self, spec: StepSpec) -> list[Route]:
@@ -134,7 +132,8 @@ class Resistance(StepKind):
     def run(self, ctx: StepContext, spec: StepSpec) -> Outcome:
         ctx.power(None)
         ctx.connect(self.routes(spec)[0])
-        r = ctx.measure(self.function_for(spec), role="hi-lo", range_=spec.range_, nplc=spec.nplc)
+        fn = self.meter_function(spec)
+        r = ctx.measure(fn, role="hi-lo", range_=spec.range_, nplc=spec.nplc)
         stated = spec.params.get("zero_ohm")
         zero = (
             float(stated) if stated is not None else ctx.lead_zero(spec.pins["hi"], spec.pins["lo"])

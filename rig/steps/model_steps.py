@@ -30,6 +30,7 @@ class ReferenceTemperature(StepKind):
     name = "reference-temperature"
     unit = "degC"
     function = MeterFunction.RES_4W
+    limits_in_meter_units = False
 
     def parse(self, sec: Section, spec: StepSpec) -> None:
         read_pins(sec, spec, "force_hi", "sense_hi", "force_lo", "sense_lo")
@@ -97,6 +98,7 @@ class NtcCheck(StepKind):
 
     name = "ntc"
     unit = "ohm"
+    limits_in_meter_units = False
 
     def parse(self, sec: Section, spec: StepSpec) -> None:
         read_pins(sec, spec, "hi", "lo")
@@ -171,6 +173,7 @@ class RatiometricCheck(StepKind):
 
     name = "ratiometric"
     unit = "%"
+    limits_in_meter_units = False
 
     def parse(self, sec: Section, spec: StepSpec) -> None:
         read_pins(sec, spec, "output", "power", "ground")
