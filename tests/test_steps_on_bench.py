@@ -139,9 +139,10 @@ tolerance = "1 %"
 
 
 def test_two_wire_with_stored_zero_agrees_with_four_wire(tmp_path: Path) -> None:
-    # 26 AWG copper: 133.9 ohm/km at 20 degC (handbook AWG table, from memory), so 6 m of lead
-    # is about 0.8 ohm plus two relay contacts; the stored zero stands for that lead.
-    zero = '\n[lead_zero]\n"T1:T2" = "0.9 ohm"\n'
+    # The stored zero stands for what the fixture adds to a 2-wire reading: two relay contacts
+    # of 0.05 ohm each (the virtual bench's contact resistance).  The unit's own leads are part
+    # of what both readings measure, since 4-wire sensing happens at the fixture pins.
+    zero = '\n[lead_zero]\n"T1:T2" = "0.1 ohm"\n'
     bench, station_path = _bench(tmp_path, SENDER, zero)
     try:
         seq = tmp_path / "ohms.toml"
@@ -150,11 +151,13 @@ def test_two_wire_with_stored_zero_agrees_with_four_wire(tmp_path: Path) -> None
     finally:
         bench.stop()
     two, four = summary.results
-    # 4-wire sees the element alone; 2-wire less the stored zero sees it too (within the leads'
-    # rounding, 0.05 ohm); both within the step's expanded uncertainty.
-    assert four.value == pytest.approx(2000.0, abs=four.expanded_u)
-    assert two.value == pytest.approx(2000.0, abs=two.expanded_u + 0.05)
-    assert "lead zero 0.9 ohm subtracted" in summary.results[0].note
+    # 26 AWG copper: 133.9 ohm/km at 20 degC (handbook AWG table, from memory), corrected to
+    # the unit's 23 degC with alpha 0.00393 /K (from memory): 6 m of lead is 0.813 ohm.
+    leads = 6 * 0.1339 * (1 + 0.00393 * 3)
+    assert four.value == pytest.approx(2000.0 + leads, abs=four.expanded_u + 0.01)
+    assert two.value == pytest.approx(four.value, abs=two.expanded_u + four.expanded_u)
+    assert "lead zero 0.1 ohm subtracted" in two.note
+    assert four.note == ""  # the stored 2-wire zero is never taken from a 4-wire reading
 
 
 def test_shipped_limits_are_the_common_practice_check_values() -> None:

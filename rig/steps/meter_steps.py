@@ -135,9 +135,12 @@ class Resistance(StepKind):
         fn = self.meter_function(spec)
         r = ctx.measure(fn, role="hi-lo", range_=spec.range_, nplc=spec.nplc)
         stated = spec.params.get("zero_ohm")
-        zero = (
-            float(stated) if stated is not None else ctx.lead_zero(spec.pins["hi"], spec.pins["lo"])
-        )
+        if stated is not None:
+            zero = float(stated)
+        elif fn is MeterFunction.RES_4W:
+            zero = 0.0  # 4-wire sensing already leaves the leads out
+        else:
+            zero = ctx.lead_zero(spec.pins["hi"], spec.pins["lo"])
         note = f"lead zero {zero:g} ohm subtracted" if zero else ""
         return Outcome(r.value - zero, self.unit, r.u_std, spec.limits, [r], note=note)
 
