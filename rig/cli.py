@@ -96,6 +96,10 @@ def _parser() -> argparse.ArgumentParser:
     sim.add_argument("--control-port", type=int, default=0)
     sim.add_argument("--seed", type=int, default=0)
     sim.set_defaults(func=cmd_sim)
+
+    from rig.commands import register_all
+
+    register_all(sub)
     return parser
 
 
