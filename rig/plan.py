@@ -14,6 +14,7 @@ from rig.config.sequence import Sequence
 from rig.config.station import Station
 from rig.errors import ConfigError, InterlockError, Problem
 from rig.routing import interlock_violations, relay_operations, relays_for
+from rig.step_order import order_steps
 from rig.steps import KINDS, StepSpec
 
 
@@ -27,11 +28,41 @@ class PlannedStep:
 
 @dataclass
 class InstrumentTiming:
-    """Stated instrument figures the physical limit is computed from."""
+    """Stated instrument figures the physical limit is computed from.
+
+    Typical figures, from memory (no published source): a signal relay operates in about 5 ms and
+    releases in about 3 ms; a bench DMM spends about 1 ms per reading beyond its aperture and
+    about 5 ms on a range change under autorange; a bench supply's readback takes about 20 ms.
+    The virtual bench is built with the same figures (tests check that they agree).
+    """
 
     relay_operate_s: float = 0.005
     relay_release_s: float = 0.003
-    reading_overhead_s: float = 0.0005
+    reading_overhead_s: float = 0.001
+    autorange_s: float = 0.005
+    supply_readback_s: float = 0.020
+
+
+@dataclass(frozen=True)
+class PhysicalLimit:
+    """The run's duration at the physical limit, by cause, with what it was computed from."""
+
+    relays_s: float
+    readings_s: float
+    autorange_s: float
+    waits_s: float
+    transitions: int
+    """Relay changes: each is one release time (if any relay opens) plus one operate time (if
+    any closes), break before make; relays in one change move together."""
+    readings: int
+    autoranged: int
+    settle_proof_s: float
+    """One more integration after each change of route: what proving a reading settled costs
+    when the circuit's time constant is not known.  Not part of ``total_s``."""
+
+    @property
+    def total_s(self) -> float:
+        return self.relays_s + self.readings_s + self.autorange_s + self.waits_s
 
 
 @dataclass
@@ -58,17 +89,72 @@ class Plan:
         return next(p for p in self.steps if p.spec.id == step_id)
 
     def physical_limit_s(self) -> float:
-        """Relay operations times their times, plus readings times their integration time, plus
-        the stated soaks: the floor under any controller's run time."""
+        """The floor under any controller's run time (see ``physical_limit``)."""
+        return self.physical_limit().total_s
+
+    def physical_limit(self) -> PhysicalLimit:
+        """Relay changes after ordering times their release and operate times, plus readings
+        times their integration time (NPLC / line frequency, plus the meter's own time per
+        reading), plus the autorange penalty where the range is not fixed, plus the waits the
+        sequence states (soaks, settle before a supply readback).  Operator time is left out."""
         t = self.timing
-        per_op = (t.relay_operate_s + t.relay_release_s) / 2
-        total = self.relay_ops * per_op
+        relays_s, transitions = _relay_time(
+            [rs for s in self.steps for rs in s.relay_sets], t.relay_release_s, t.relay_operate_s
+        )
+        readings_s = autorange_s = waits_s = proof_s = 0.0
+        readings = autoranged = 0
+        previous: tuple[object, ...] | None = None
         for step in self.steps:
-            readings = len(step.relay_sets)
-            total += readings * (step.spec.nplc / self.station.line_hz + t.reading_overhead_s)
-            if step.spec.kind == "soak":
-                total += float(step.spec.params.get("duration_s") or 0.0)
-        return total
+            spec = step.spec
+            if spec.kind == "soak":
+                waits_s += float(spec.params.get("duration_s") or 0.0)
+            if spec.kind == "supply-current":
+                waits_s += float(spec.params.get("settle_s") or 0.0) + t.supply_readback_s
+                previous = None
+                continue
+            integration = spec.nplc / self.station.line_hz + t.reading_overhead_s
+            function = KINDS[spec.kind].meter_function(spec)
+            for relays in step.relay_sets:
+                readings += 1
+                readings_s += integration
+                setup = (relays, function, step.range_, spec.nplc)
+                if setup != previous:  # the engine proves settling after any change
+                    proof_s += integration
+                previous = setup
+            if step.relay_sets and step.range_ is None:
+                autoranged += 1  # once per step: autorange pays on a range change
+                autorange_s += t.autorange_s
+        return PhysicalLimit(
+            relays_s, readings_s, autorange_s, waits_s, transitions, readings, autoranged, proof_s
+        )
+
+
+def _relay_time(
+    path: list[frozenset[int]],
+    release_s: float,
+    operate_s: float,
+    start: frozenset[int] = frozenset(),
+) -> tuple[float, int]:
+    """Time and number of relay changes along ``path``, from ``start`` to all open."""
+    total, changes = 0.0, 0
+    current = start
+    for relays in [*path, frozenset()]:
+        if relays != current:
+            changes += 1
+            total += (release_s if current - relays else 0.0) + (
+                operate_s if relays - current else 0.0
+            )
+        current = relays
+    return total, changes
+
+
+def _switching_cost(
+    steps: list[PlannedStep], timing: InstrumentTiming, start: frozenset[int] = frozenset()
+) -> tuple[int, float]:
+    """Relay operations (wear) first, then switching time (changes that could be merged)."""
+    path = [rs for s in steps for rs in s.relay_sets]
+    seconds, _ = _relay_time(path, timing.relay_release_s, timing.relay_operate_s, start)
+    return relay_operations(path, start), seconds
 
 
 def build_plan(sequence: Sequence, station: Station) -> Plan:
@@ -108,7 +194,9 @@ def build_plan(sequence: Sequence, station: Station) -> Plan:
             except InterlockError as exc:
                 problems.append(Problem(str(sequence.path), spec.key, str(exc)))
                 continue
-            violations = interlock_violations(fixture, relays, zero_check=route.zero_check)
+            violations = interlock_violations(
+                fixture, relays, zero_check=route.zero_check, ganged=route.ganged
+            )
             for violation in violations:
                 problems.append(Problem(str(sequence.path), spec.key, f"interlock: {violation}"))
             relay_sets.append(relays)
@@ -119,10 +207,12 @@ def build_plan(sequence: Sequence, station: Station) -> Plan:
     in_file = list(planned.values())
     plan.steps = in_file
     if sequence.reorder:
-        ordered = _order(sequence, planned)
-        cost = relay_operations(rs for s in ordered for rs in s.relay_sets)
-        if cost < relay_operations(rs for s in in_file for rs in s.relay_sets):
-            plan.steps = ordered  # greedy is a heuristic: keep it only when it saves operations
+        ordered = order_steps(
+            (planned[spec.id] for spec in sequence.steps),
+            lambda steps, start: _switching_cost(steps, plan.timing, start),
+        )
+        if _switching_cost(ordered, plan.timing) < _switching_cost(in_file, plan.timing):
+            plan.steps = ordered  # greedy is a heuristic: keep it only when it saves something
     return plan
 
 
@@ -141,43 +231,3 @@ def _fixed_range(spec: StepSpec, station: Station) -> float | None:
         return float(station.dmm_accuracy.range_for(function.value, max(bounds)))
     except ValueError:
         return None
-
-
-def _order(sequence: Sequence, planned: dict[str, PlannedStep]) -> list[PlannedStep]:
-    """Greedy nearest-neighbour on relay sets inside each stretch between barriers, respecting
-    dependencies: small, predictable, and close to optimal for bench sequences."""
-    ordered: list[PlannedStep] = []
-    current: frozenset[int] = frozenset()
-    done: set[str] = set()
-    segment: list[PlannedStep] = []
-
-    def flush() -> None:
-        nonlocal current
-        pending = list(segment)
-        while pending:
-            ready = [p for p in pending if all(d in done for d in p.spec.depends_on)]
-            if not ready:  # cannot happen after validation; keep file order
-                ready = pending[:1]
-            best = min(ready, key=lambda p: _cost(current, p))
-            pending.remove(best)
-            ordered.append(best)
-            done.add(best.spec.id)
-            if best.relay_sets:
-                current = best.relay_sets[-1]
-        segment.clear()
-
-    for spec in sequence.steps:
-        step = planned[spec.id]
-        if spec.barrier:
-            flush()
-            ordered.append(step)
-            done.add(spec.id)
-        else:
-            segment.append(step)
-    flush()
-    return ordered
-
-
-def _cost(current: frozenset[int], step: PlannedStep) -> int:
-    """Relay operations to reach the step's first route from the relays closed now."""
-    return len(current ^ step.relay_sets[0]) if step.relay_sets else 0

@@ -8,6 +8,7 @@ the physical limit of the instruments.
 from __future__ import annotations
 
 import enum
+import threading
 import time
 
 
@@ -21,11 +22,23 @@ class BenchClock:
 
     def __init__(self, timing: Timing = Timing.INSTANT) -> None:
         self.timing = timing
+        self._lock = threading.Lock()
+        self._spent_s = 0.0
 
     def wait(self, seconds: float) -> None:
         """Spend ``seconds`` of instrument time (nothing in instant timing)."""
         if self.timing is Timing.REAL and seconds > 0:
+            start = time.perf_counter()
             time.sleep(seconds)
+            with self._lock:
+                self._spent_s += time.perf_counter() - start
+
+    @property
+    def spent_s(self) -> float:
+        """Instrument time spent so far (slept, as measured), so a benchmark can tell the
+        controller's own time apart: wall time minus this."""
+        with self._lock:
+            return self._spent_s
 
     def now(self) -> float:
         """Monotonic seconds; settling after a relay change is computed against this."""

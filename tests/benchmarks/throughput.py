@@ -1,0 +1,261 @@
+"""Run time against the physical limit of the instruments, side by side with a hand-written script.
+
+On the virtual bench in real timing (relays take their operate and release time, readings their
+integration time, autorange its penalty), for three workloads: the shipped sensor screen, the
+shipped harness test and a generated 200-reading sequence.  For each, measured in one run,
+interleaved (rig first on even repetitions, the script first on odd ones), medians:
+
+- ``wall_over_limit``: wall time of the rig run over ``Plan.physical_limit_s()`` (goal <= 1.05);
+- ``script_over_rig``: the hand-written script's wall time over rig's (goal >= 3);
+- relay operations per run, rig's (counted by the box) against file order with everything opened
+  between readings (what the script does);
+- controller overhead per step: wall time minus the instrument time the bench spent, per step.
+
+The wall time is that of ``Engine.run`` on opened instruments (safe state at start and end, the
+results store, every read-back), as ``rig run`` spends it after start-up; the script's is its loop
+on opened connections.  Opening connections and starting Python are left out of both.  Figures are
+wall-clock on a shared machine: read them as ratios from one run, not as absolute speeds.
+
+Usage: python tests/benchmarks/throughput.py [--quick] [--repeat N]
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import statistics
+import sys
+import tempfile
+import time
+from dataclasses import dataclass, field
+from pathlib import Path
+
+sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
+
+from bench_helpers import SEQUENCES, shipped_bench
+from data.many_readings import write_sequence
+from handwritten_script import SETTLE_S, HandReading, HandScript
+
+from drivers.base import MeterFunction
+from drivers.visa_session import VisaSession
+from rig.bench_open import close_bench, open_bench
+from rig.engine import Engine, SettlePolicy
+from rig.plan import InstrumentTiming, Plan
+from rig.runner import load_plan
+from rig.sim.bench import VirtualBench
+from rig.sim.timing import Timing
+from rig.steps import KINDS
+from rig.store import ResultStore
+
+
+@dataclass(frozen=True)
+class Workload:
+    name: str
+    sequence: Path | None
+    """None: the generated sequence, written into the run's folder."""
+    unit: str
+
+
+WORKLOADS = (
+    Workload("sensor-screen", SEQUENCES / "ntc-sender-screen.toml", "ntc-sender"),
+    Workload("harness", SEQUENCES / "temp-circuit-check.toml", "temp-circuit"),
+    Workload("generated-200", None, "temp-circuit"),
+)
+
+
+@dataclass
+class Samples:
+    """What one workload measured, repetition by repetition."""
+
+    rig_wall_s: list[float] = field(default_factory=list)
+    rig_instrument_s: list[float] = field(default_factory=list)
+    rig_relay_ops: list[int] = field(default_factory=list)
+    rig_readings: list[int] = field(default_factory=list)
+    script_wall_s: list[float] = field(default_factory=list)
+    script_relay_ops: list[int] = field(default_factory=list)
+    no_proof_wall_s: list[float] = field(default_factory=list)
+    """rig with the settle proof off: what the controller adds over the strict limit."""
+
+
+def meter_function(plan: Plan, step_id: str) -> MeterFunction | None:
+    """What the meter measures in a step (an NTC screen reads ohms or volts as its mode says)."""
+    spec = next(p.spec for p in plan.steps if p.spec.id == step_id)
+    if spec.kind == "ntc":
+        resistance = spec.params.get("mode") == "resistance"
+        return MeterFunction.RES_2W if resistance else MeterFunction.DC_VOLTS
+    return KINDS[spec.kind].meter_function(spec)
+
+
+def hand_table(plan: Plan) -> list[HandReading]:
+    """The engineer's table for the script: every reading in file order, relays as planned."""
+    table = []
+    for spec in plan.sequence.steps:
+        planned = next(p for p in plan.steps if p.spec.id == spec.id)
+        function = meter_function(plan, spec.id)
+        if function is None or spec.supply is not None:
+            if planned.relay_sets:
+                raise ValueError(f"the hand script takes no supply steps ({spec.id})")
+            continue
+        for index, relays in enumerate(planned.relay_sets):
+            label = f"{spec.id}[{index}]"
+            table.append(HandReading(label, tuple(sorted(relays)), function.value, spec.nplc))
+    return table
+
+
+def box_operations(bench: VirtualBench) -> int:
+    return sum(bench.relay_box.operation_counts().values())
+
+
+def time_rig(
+    bench: VirtualBench, plan: Plan, store: ResultStore, serial: str, s: Samples, *, proof: bool
+) -> None:
+    instruments = open_bench(plan.station)
+    try:
+        engine = Engine(plan, instruments, store, settle=SettlePolicy(enabled=proof))
+        ops, spent = box_operations(bench), bench.clock.spent_s
+        start = time.perf_counter()
+        summary = engine.run(serial)
+        wall = time.perf_counter() - start
+        if summary.status != "complete":
+            raise RuntimeError(f"rig run did not complete: {summary.reason}")
+        if not proof:
+            s.no_proof_wall_s.append(wall)
+            return
+        s.rig_wall_s.append(wall)
+        s.rig_instrument_s.append(bench.clock.spent_s - spent)
+        s.rig_relay_ops.append(box_operations(bench) - ops)
+        s.rig_readings.append(sum(r.readings for r in summary.results))
+    finally:
+        close_bench(instruments)
+
+
+def time_script(bench: VirtualBench, table: list[HandReading], csv: Path, s: Samples) -> None:
+    assert bench.endpoints is not None
+    script = HandScript(bench.endpoints.dmm_resource, bench.endpoints.relay_port)
+    try:
+        ops = box_operations(bench)
+        start = time.perf_counter()
+        script.run(table, csv)
+        s.script_wall_s.append(time.perf_counter() - start)
+        s.script_relay_ops.append(box_operations(bench) - ops)
+    finally:
+        script.close()
+
+
+def round_trip_ms(resource: str, count: int = 50) -> float:
+    """Median SCPI round trip (``*IDN?``) through rig's own session, in ms."""
+    session = VisaSession("dmm", resource, {})
+    try:
+        times = []
+        for _ in range(count):
+            start = time.perf_counter()
+            session.query("*IDN?")
+            times.append(time.perf_counter() - start)
+        return statistics.median(times) * 1000
+    finally:
+        session.close()
+
+
+def measure(workload: Workload, folder: Path, repeat: int, generated: int) -> dict[str, object]:
+    folder.mkdir(parents=True, exist_ok=True)
+    timing = InstrumentTiming()
+    with shipped_bench(
+        workload.unit,
+        folder=folder,
+        timing=Timing.REAL,
+        relay_operate_s=timing.relay_operate_s,
+        relay_release_s=timing.relay_release_s,
+    ) as (bench, station):
+        path = workload.sequence or write_sequence(folder / "generated.toml", generated)
+        plan = load_plan(path, station)
+        table = hand_table(plan)
+        store = ResultStore(folder / "results.db")
+        samples = Samples()
+        try:
+            runs = [
+                lambda: time_rig(bench, plan, store, "SN-PROOF", samples, proof=True),
+                lambda: time_script(bench, table, folder / "hand.csv", samples),
+                lambda: time_rig(bench, plan, store, "SN-NOPROOF", samples, proof=False),
+            ]
+            for rep in range(repeat):
+                for n in range(len(runs)):  # rotate who goes first
+                    runs[(rep + n) % len(runs)]()
+            assert bench.endpoints is not None
+            rtt_ms = round_trip_ms(bench.endpoints.dmm_resource)
+        finally:
+            store.close()
+    limit = plan.physical_limit()
+    rig_wall = statistics.median(samples.rig_wall_s)
+    overheads = [w - i for w, i in zip(samples.rig_wall_s, samples.rig_instrument_s, strict=True)]
+    steps = len(plan.steps)
+    return {
+        "name": workload.name,
+        "sequence": plan.sequence.name,
+        "steps": steps,
+        "readings_planned": limit.readings,
+        "readings_taken": statistics.median(samples.rig_readings),
+        "limit_ms": round(limit.total_s * 1000, 1),
+        "limit_with_proof_ms": round((limit.total_s + limit.settle_proof_s) * 1000, 1),
+        "rig_wall_ms": round(rig_wall * 1000, 1),
+        "script_wall_ms": round(statistics.median(samples.script_wall_s) * 1000, 1),
+        "wall_over_limit": round(rig_wall / limit.total_s, 3),
+        "wall_over_limit_with_proof": round(rig_wall / (limit.total_s + limit.settle_proof_s), 3),
+        "no_proof_wall_ms": round(statistics.median(samples.no_proof_wall_s) * 1000, 1),
+        "no_proof_over_limit": round(statistics.median(samples.no_proof_wall_s) / limit.total_s, 3),
+        "instrument_ms": round(statistics.median(samples.rig_instrument_s) * 1000, 1),
+        "script_over_rig": round(statistics.median(samples.script_wall_s) / rig_wall, 2),
+        "relay_ops": int(statistics.median(samples.rig_relay_ops)),
+        "relay_ops_planned": plan.relay_ops,
+        "relay_ops_unordered": plan.relay_ops_unordered(),
+        "relay_ops_script": int(statistics.median(samples.script_relay_ops)),
+        "overhead_ms_per_step": round(statistics.median(overheads) / steps * 1000, 2),
+        "scpi_round_trip_ms": round(rtt_ms, 3),
+        "repetitions": repeat,
+    }
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--quick", action="store_true", help="one repetition, 20 generated steps")
+    parser.add_argument("--repeat", type=int, default=7, help="repetitions (median of these)")
+    args = parser.parse_args()
+    repeat = 1 if args.quick else max(5, args.repeat)
+    generated = 20 if args.quick else 200
+    timing = InstrumentTiming()
+    results = []
+    with tempfile.TemporaryDirectory() as tmp:
+        for workload in WORKLOADS:
+            results.append(measure(workload, Path(tmp) / workload.name, repeat, generated))
+    ms = {k: v * 1000 for k, v in vars(timing).items()}
+    print(
+        f"instrument figures: relay operate {ms['relay_operate_s']:g} ms, release "
+        f"{ms['relay_release_s']:g} ms; mains 50 Hz; meter {ms['reading_overhead_s']:g} ms a "
+        f"reading + NPLC/50 Hz, autorange {ms['autorange_s']:g} ms; script settle "
+        f"{SETTLE_S * 1000:g} ms; SCPI round trip {results[0]['scpi_round_trip_ms']} ms (measured)"
+    )
+    head = (
+        f"{'workload':<15}{'steps':>6}{'reads':>6}{'limit ms':>10}{'+proof':>9}{'rig ms':>9}"
+        f"{'script ms':>10}{'rig/limit':>10}{'rig/+proof':>11}{'no proof':>9}{'script/rig':>11}"
+        f"{'relay ops':>10}{'unordered':>10}{'ovh ms/step':>12}"
+    )
+    print(head)
+    for r in results:
+        print(
+            f"{r['name']:<15}{r['steps']:>6}{r['readings_taken']:>6}{r['limit_ms']:>10}"
+            f"{r['limit_with_proof_ms']:>9}{r['rig_wall_ms']:>9}{r['script_wall_ms']:>10}"
+            f"{r['wall_over_limit']:>10}{r['wall_over_limit_with_proof']:>11}"
+            f"{r['no_proof_over_limit']:>9}"
+            f"{r['script_over_rig']:>11}{r['relay_ops']:>10}{r['relay_ops_unordered']:>10}"
+            f"{r['overhead_ms_per_step']:>12}"
+        )
+    summary = {
+        "repetitions": repeat,
+        "wall_over_limit_max": max(float(str(r["wall_over_limit"])) for r in results),
+        "script_over_rig_min": min(float(str(r["script_over_rig"])) for r in results),
+        "workloads": results,
+    }
+    print(json.dumps(summary))
+
+
+if __name__ == "__main__":
+    main()

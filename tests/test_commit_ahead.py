@@ -1,0 +1,90 @@
+"""Store commits overlapped with the instruments: never an event for a row not yet committed.
+
+The store here is the real SQLite store on a file, slowed down (each write waits 30 ms before it
+commits, as on a busy disk), so that an event sent ahead of its commit would certainly be seen:
+every event is checked through a second connection to the same file, which sees committed rows
+only (SQLite WAL: readers see the last commit, source: sqlite.org, WAL page).
+"""
+
+from __future__ import annotations
+
+import time
+from pathlib import Path
+from typing import Any
+
+import pytest
+from bench_helpers import shipped_bench, shipped_plan
+
+from rig.bench_open import close_bench, open_bench
+from rig.engine import Engine
+from rig.events import Event, ReadingTaken, RunFinished, StepFinished, StepStarted
+from rig.store import ResultStore, StoreError
+
+SLOW_WRITE_S = 0.03
+
+
+class SlowDiskStore(ResultStore):
+    """The results store with every queued write 30 ms late, and optionally failing."""
+
+    fail_on_step: str = ""
+
+    def add_reading(self, *args: Any, **kwargs: Any) -> int:
+        time.sleep(SLOW_WRITE_S)
+        return super().add_reading(*args, **kwargs)
+
+    def add_step(self, run_id: int, position: int, row: dict[str, Any]) -> None:
+        time.sleep(SLOW_WRITE_S)
+        if row["step_id"] == self.fail_on_step:
+            raise StoreError(f"disk full while writing step {row['step_id']}")
+        super().add_step(run_id, position, row)
+
+
+def run_watched(tmp_path: Path, fail_on_step: str = "") -> tuple[list[Event], list[str]]:
+    """Run the harness check; return the events and every event that came before its row."""
+    events: list[Event] = []
+    early: list[str] = []
+    with shipped_bench("temp-circuit", folder=tmp_path) as (_, station):
+        plan = shipped_plan("temp-circuit-check", station)
+        store = SlowDiskStore(tmp_path / "r.sqlite")
+        store.fail_on_step = fail_on_step
+        reader = ResultStore(tmp_path / "r.sqlite")
+
+        def listener(event: Event) -> None:
+            events.append(event)
+            run = reader.runs(1)[0]["id"] if reader.runs(1) else 0
+            if isinstance(event, StepFinished):
+                stored = {s["step_id"] for s in reader.steps(run)}
+                if event.result.step_id not in stored:
+                    early.append(f"step {event.result.step_id}")
+            if isinstance(event, ReadingTaken) and not reader.readings(run, event.step_id):
+                early.append(f"reading of {event.step_id}")
+
+        instruments = open_bench(station)
+        try:
+            Engine(plan, instruments, store, listener=listener).run("SN-CA")
+        finally:
+            close_bench(instruments)
+            store.close()
+            reader.close()
+    return events, early
+
+
+def test_no_event_reports_a_row_before_it_is_committed(tmp_path: Path) -> None:
+    events, early = run_watched(tmp_path)
+    assert early == []
+    finished = [e.result.step_id for e in events if isinstance(e, StepFinished)]
+    assert len(finished) == 6  # every step reported, in plan order
+    started = [e.step_id for e in events if isinstance(e, StepStarted)]
+    assert finished == started
+    assert isinstance(events[-1], RunFinished) and events[-1].status == "complete"
+
+
+@pytest.mark.parametrize("step", ["signal-at-sensor"])
+def test_a_failed_commit_aborts_the_run_and_is_never_reported(tmp_path: Path, step: str) -> None:
+    events, early = run_watched(tmp_path, fail_on_step=step)
+    assert early == []
+    finished = [e.result.step_id for e in events if isinstance(e, StepFinished)]
+    assert step not in finished
+    last = events[-1]
+    assert isinstance(last, RunFinished) and last.status == "aborted"
+    assert "disk full" in last.reason
