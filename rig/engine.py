@@ -15,10 +15,13 @@ import threading
 import time
 from collections.abc import Callable
 from dataclasses import dataclass, field, replace
+from typing import cast
 
 from drivers.base import Dmm, MeterFunction, RelayBox, Supply
+from rig.commit_ahead import CommitAhead
 from rig.config.fixture import FixtureMap
-from rig.config.station import FUNCTIONS
+from rig.config.station import FUNCTIONS, Station
+from rig.entry_text import check_entry_text
 from rig.errors import InstrumentError, InterlockError, RigError
 from rig.events import (
     Event,
@@ -30,8 +33,11 @@ from rig.events import (
     StepResult,
     StepStarted,
 )
+from rig.instrument_faults import SupplyWentOff, is_transient, plain_reason
 from rig.judge.decision import Verdict, judge, test_uncertainty_ratio, tur_is_low, worst
 from rig.plan import Plan, PlannedStep
+from rig.reading_guard import guard_verdict, reading_problems
+from rig.resume import INCOMPLETE_REASON, abandoned_notes, continuation
 from rig.routing import Route, plan_relays
 from rig.steps import KINDS, Outcome, Reading, StepSpec, SupplyRequest
 from rig.store import ResultStore, RunHeader
@@ -103,20 +109,34 @@ def make_safe(bench: Bench) -> list[str]:
     """Open every relay and switch the supply off, each verified by read-back; returns what could
     not be made safe, in words (empty when the bench is safe)."""
     failures: list[str] = []
+    supply, relays = bench.supply, bench.relays
+    # The read-back decides: a command that reports an error (a stale trip in the supply's queue,
+    # a lost acknowledgement) may still have been carried out.
+    refused = _attempt(lambda: supply.set_output(False))
     try:
-        bench.supply.set_output(False)
-        if bench.supply.output_is_on():
-            failures.append(f"supply {bench.supply.name}: output still reads on")
+        if supply.output_is_on():
+            failures.append(f"supply {supply.name}: output still reads on {refused}".strip())
     except (RigError, OSError) as exc:
-        failures.append(f"supply {bench.supply.name}: {exc}")
+        failures.append(f"supply {supply.name}: {refused or exc}")
+    refused = _attempt(relays.open_all)
     try:
-        bench.relays.open_all()
-        still = bench.relays.closed_relays()
+        still = relays.closed_relays()
         if still:
-            failures.append(f"relay box {bench.relays.name}: relays {sorted(still)} still closed")
+            failures.append(
+                f"relay box {relays.name}: relays {sorted(still)} still closed {refused}".strip()
+            )
     except (RigError, OSError) as exc:
-        failures.append(f"relay box {bench.relays.name}: {exc}")
+        failures.append(f"relay box {relays.name}: {refused or exc}")
     return failures
+
+
+def _attempt(action: Callable[[], None]) -> str:
+    """Run ``action``; its error in words, in parentheses (empty when it worked)."""
+    try:
+        action()
+    except (RigError, OSError) as exc:
+        return f"({exc})"
+    return ""
 
 
 class Engine:
@@ -135,19 +155,26 @@ class Engine:
     ) -> None:
         self.plan = plan
         self.bench = bench
-        self.store = store
-        self.listener = listener or (lambda event: None)
+        self._writes = CommitAhead(store, listener or (lambda event: None))
+        # the store's writes commit while the next relays move; every other call waits its turn
+        self.store = cast(ResultStore, self._writes)
+        self.listener: Callable[[Event], None] = self._writes.emit
         self.ask = ask or (lambda text: True)
         self.stop = stop or threading.Event()
         self.settle = settle or SettlePolicy()
         self._closed: frozenset[int] = frozenset()
         self._supply_state: SupplyRequest | None = None
+        self._moves = 0
+        """Relay and supply changes so far; a settled reading is valid until the next one."""
+        self._settled_state: tuple[object, ...] | None = None
         self._results: dict[str, StepResult] = {}
         self._run_id = 0
         self._step_id = ""
         self._step_settle = 0.0
         self._step_readings = 0
-        self._last_reading_row = 0
+        self._relays_changed_at = 0.0
+        self._step_finals: list[Reading] = []
+        self._step_problems: list[str] = []
 
     # --- the run ------------------------------------------------------------------------------
 
@@ -159,24 +186,42 @@ class Engine:
         unit: str = "",
         faults: tuple[str, ...] = (),
         notes: list[str] | None = None,
+        resume: int | None = None,
+        study_part: str = "",
+        study_trial: int | None = None,
     ) -> RunSummary:
+        """Run the plan, or with ``resume`` continue that incomplete run from its next step."""
+        check_entry_text("entered text", {"serial": serial, "operator": operator})
         station = self.plan.station
         sequence = self.plan.sequence
         notes = list(notes or [])
+        notes.extend(abandoned_notes(self.store.mark_incomplete(station.name, INCOMPLETE_REASON)))
         identities = self._identities(notes)
-        run_id = self.store.start_run(
-            RunHeader(
-                serial=serial,
-                sequence_name=sequence.name,
-                sequence_hash=sequence.content_hash,
-                sequence_path=str(sequence.path),
-                station=station.name,
-                operator=operator,
-                unit=unit,
-                faults=faults,
-                instruments=tuple(identities),
+        done: dict[str, StepResult] = {}
+        if resume is None:
+            run_id = self.store.start_run(
+                RunHeader(
+                    serial=serial,
+                    sequence_name=sequence.name,
+                    sequence_hash=sequence.content_hash,
+                    sequence_path=str(sequence.path),
+                    station=station.name,
+                    operator=operator,
+                    unit=unit,
+                    faults=faults,
+                    instruments=tuple(identities),
+                    study_part=study_part,
+                    study_trial=study_trial,
+                )
             )
-        )
+        else:
+            cont = continuation(self.store, resume, self.plan)
+            run_id, serial, done = cont.run_id, cont.serial, cont.done
+            self.store.reopen_run(run_id)
+            notes.append(
+                f"continued after an interruption; {len(done)} of {len(self.plan.steps)} steps "
+                "were already done"
+            )
         self._run_id = run_id
         self.listener(
             RunStarted(run_id, serial, sequence.name, tuple(p.spec.id for p in self.plan.steps))
@@ -192,16 +237,22 @@ class Engine:
             for position, planned in enumerate(self.plan.steps, start=1):
                 if self.stop.is_set():
                     raise StopRequested("stopped by the operator")
-                result = self._run_step(position, planned)
+                if planned.spec.id in done:  # continuing: done before the interruption
+                    result = done[planned.spec.id]
+                    results.append(result)
+                    self._results[result.step_id] = result
+                    continue
+                result = self._run_step(position, planned, notes)
                 results.append(result)
                 self._results[result.step_id] = result
                 if result.verdict is Verdict.ERROR:
                     status, reason = "aborted", f"step {result.step_id}: {result.note}"
                     break
+            self._writes.flush()
         except StopRequested as exc:
             status, reason = "aborted", str(exc)
         except InstrumentError as exc:
-            status, reason = "aborted", f"instrument fault: {exc}"
+            status, reason = "aborted", f"instrument fault: {plain_reason(exc)}"
         except KeyboardInterrupt as exc:
             status, reason = "aborted", "interrupted (Ctrl-C or SIGTERM)"
             interrupted = exc
@@ -227,6 +278,7 @@ class Engine:
                 run_id, status, verdict, reason, tuple(summary.failed_steps), safe, tuple(notes)
             )
         )
+        self._writes.close()  # every write committed, every event delivered, the worker gone
         if interrupted is not None:
             raise interrupted
         return summary
@@ -287,7 +339,7 @@ class Engine:
 
     # --- one step -----------------------------------------------------------------------------
 
-    def _run_step(self, position: int, planned: PlannedStep) -> StepResult:
+    def _run_step(self, position: int, planned: PlannedStep, notes: list[str]) -> StepResult:
         spec = replace(planned.spec, range_=planned.range_)
         self.listener(StepStarted(position, spec.id, spec.title, spec.kind))
         self._step_id = spec.id
@@ -295,38 +347,83 @@ class Engine:
         self._step_readings = 0
         started = _now()
         kind = KINDS[spec.kind]
-        try:
-            outcome = kind.run(self, spec)
-        except (InstrumentError, InterlockError) as exc:
-            outcome = Outcome(math.nan, kind.unit, math.nan, spec.limits, note=str(exc))
+        retried = ""
+        relay_retries = getattr(self.bench.relays, "retries", 0)
+        while True:
+            self._step_finals, self._step_problems = [], []
+            try:
+                outcome = kind.run(self, spec)
+                self._check_supply_still_on(spec)
+                break
+            except InterlockError as exc:
+                error = str(exc)
+            except InstrumentError as exc:
+                error = plain_reason(exc)
+                if not retried and self._may_retry(exc):
+                    retried = error
+                    log.warning("step %s: retrying once after: %s", spec.id, error)
+                    continue
+            note = error if not retried else f"{error}; a retry did not cure it"
+            outcome = Outcome(math.nan, kind.unit, math.nan, spec.limits, note=note)
             result = self._judged(position, spec, outcome, error=True)
             self._store_step(result, started)
             self.listener(StepFinished(result))
             return result
         outcome.settle_s = self._step_settle
+        box_retries = getattr(self.bench.relays, "retries", 0) - relay_retries
+        for text in (
+            f"transient fault cured by one retry of the step: {retried}" if retried else "",
+            f"the relay box needed a second try for {box_retries} command(s) (corrupted or "
+            "missing reply)"
+            if box_retries
+            else "",
+        ):
+            if text:
+                outcome.note = f"{outcome.note}; {text}" if outcome.note else text
+                notes.append(f"step {spec.id}: {text}")
         result = self._judged(position, spec, outcome, error=False)
         self._store_step(result, started)
         self.listener(StepFinished(result))
         return result
 
+    def _may_retry(self, exc: InstrumentError) -> bool:
+        """Whether to try the step once more: only for a transient fault, and only from a bench
+        proven safe again with a freshly reset meter (its settings may be lost or unknown)."""
+        if not is_transient(exc, supply_name=self.bench.supply.name):
+            return False
+        if make_safe(self.bench):
+            return False
+        self._closed = frozenset()
+        self._supply_state = None
+        try:
+            self.bench.dmm.reset()
+        except (RigError, OSError) as again:
+            log.warning("meter reset before the retry failed: %s", again)
+            return False
+        return True
+
+    def _check_supply_still_on(self, spec: StepSpec) -> None:
+        """A powered step whose supply went off (a trip) measured an unpowered unit."""
+        if self.stop.is_set():  # the operator's stop switched it off (the console does at once)
+            raise StopRequested("stopped by the operator")
+        supply = self.bench.supply
+        if self._supply_state is not None and not supply.output_is_on():
+            raise SupplyWentOff(
+                f"output reads off at the end of step {spec.id}",
+                instrument=supply.name,
+                resource=str(getattr(supply, "resource", "")),
+                command="output query",
+            )
+
     def _judged(
         self, position: int, spec: StepSpec, outcome: Outcome, *, error: bool
     ) -> StepResult:
-        expanded = COVERAGE_K * outcome.u_std if math.isfinite(outcome.u_std) else math.nan
-        tur = None
-        if error:
-            verdict = Verdict.ERROR
-        elif outcome.limits is None:
-            verdict = Verdict.PASS if math.isfinite(outcome.value) else Verdict.FAIL
-        else:
-            verdict = judge(
-                outcome.value,
-                outcome.limits,
-                expanded if math.isfinite(expanded) else 0.0,
-                spec.rule,
-            )
-            if math.isfinite(expanded) and expanded > 0:
-                tur = test_uncertainty_ratio(outcome.limits, expanded)
+        verdict, expanded, tur = judge_outcome(spec, outcome, error=error)
+        if not error:
+            finals = [] if KINDS[spec.kind].overload_is_a_result else self._step_finals
+            verdict = guard_verdict(verdict, finals, self._step_problems)
+            if self._step_problems:
+                outcome.note = "; ".join([outcome.note, *self._step_problems]).strip("; ")
         return StepResult(
             position=position,
             step_id=spec.id,
@@ -383,8 +480,13 @@ class Engine:
     def connect(self, route: Route) -> None:
         relays = plan_relays(self.plan.station.fixture, route)
         if relays != self._closed:
-            self.bench.relays.apply(relays)
+            self._moves += 1  # before the change: a failed apply must not leave a settled state
+            self.bench.relays.apply(relays)  # the last step's rows commit meanwhile
             self._closed = relays
+            self._relays_changed_at = time.time()
+            self._writes.flush()
+            if self.stop.is_set():  # a listener may have asked on an event held until now
+                raise StopRequested("stopped by the operator")
 
     def measure(
         self, function: MeterFunction, *, role: str, range_: float | None, nplc: float
@@ -392,30 +494,83 @@ class Engine:
         dmm = self.bench.dmm
         dmm.configure(function, range_, nplc)
         started = time.monotonic()
-        reading = self._record(function, role, dmm.read(), range_, nplc)
-        limit = self.settle.max_readings if self.settle.enabled else 1
-        for _ in range(1, limit):
-            if not math.isfinite(reading.value):
-                break
-            previous, reading = reading, self._record(function, role, dmm.read(), range_, nplc)
-            tolerance = self.settle.agree_fraction * max(reading.u_std, 1e-12)
-            if abs(reading.value - previous.value) <= tolerance:
-                break
+        reading = self._settled_reading(function, role, range_, nplc)
         self._step_settle += time.monotonic() - started
-        self.store.mark_settled(self._last_reading_row)
+        self._step_finals.append(reading)
+        self._step_problems.extend(
+            reading_problems(
+                reading,
+                function=function.value,
+                range_=range_,
+                relays_changed_at=self._relays_changed_at,
+            )
+        )
         self.listener(
             ReadingTaken(self._step_id, role, reading.value, FUNCTIONS[function.value], True)
         )
         return reading
 
+    def _settled_reading(
+        self, function: MeterFunction, role: str, range_: float | None, nplc: float
+    ) -> Reading:
+        """Read until two successive readings agree, the first two from one query (sample count
+        2, one round trip).  When nothing moved since the last settled reading with the same
+        meter setup (relays, supply, function, range, NPLC), the input cannot be settling: one
+        reading, no proof."""
+        dmm = self.bench.dmm
+        state = (self._moves, function, range_, nplc)
+        proof = self.settle.enabled and self.settle.max_readings > 1
+        proof = proof and state != self._settled_state
+        values = dmm.read_many(2) if proof else [dmm.read()]
+        agreed = not proof or self._agree_values(function, values, range_)
+        done = agreed or not math.isfinite(values[-1]) or len(values) >= self.settle.max_readings
+        readings = [
+            self._record(function, role, v, range_, nplc, settled=done and i == len(values) - 1)
+            for i, v in enumerate(values)
+        ]
+        while not done:
+            readings.append(self._record(function, role, dmm.read(), range_, nplc))
+            agreed = self._agree(readings)
+            last = readings[-1].value
+            done = agreed or len(readings) >= self.settle.max_readings or not math.isfinite(last)
+            if done:
+                self._writes.mark_last_settled()
+        if proof and agreed:
+            self._settled_state = state
+        return readings[-1]
+
+    def _agree_values(
+        self, function: MeterFunction, values: list[float], range_: float | None
+    ) -> bool:
+        """Whether the first pair agrees, judged before either is stored (so the settled flag
+        goes in with the row, not as a second write)."""
+        used = range_ if range_ is not None else self._autorange(function, values[-1])
+        return self._within(values[-2], values[-1], self._u_reading(function, values[-1], used))
+
+    def _agree(self, readings: list[Reading]) -> bool:
+        """The last two readings agree within a fraction of the meter's uncertainty."""
+        if len(readings) < 2:
+            return False
+        return self._within(readings[-2].value, readings[-1].value, readings[-1].u_std)
+
+    def _within(self, previous: float, last: float, u_std: float) -> bool:
+        return abs(last - previous) <= self.settle.agree_fraction * max(u_std, 1e-12)
+
     def _record(
-        self, function: MeterFunction, role: str, value: float, range_: float | None, nplc: float
+        self,
+        function: MeterFunction,
+        role: str,
+        value: float,
+        range_: float | None,
+        nplc: float,
+        *,
+        settled: bool = False,
     ) -> Reading:
         """Store one raw reading at once, with the range it was taken on and its uncertainty."""
         used_range = range_ if range_ is not None else self._autorange(function, value)
         u = self._u_reading(function, value, used_range)
         taken_at = time.time()
-        self._last_reading_row = self.store.add_reading(
+        self.store.add_reading(
             self._run_id,
             self._step_id,
             role=role,
@@ -425,33 +580,21 @@ class Engine:
             nplc=nplc,
             u_std=u,
             taken_at=taken_at,
-            settled=False,
+            settled=settled,
         )
         self._step_readings += 1
         return Reading(role, function.value, value, used_range, nplc, taken_at, u)
 
     def _autorange(self, function: MeterFunction, value: float) -> float | None:
-        """The range autorange would pick for ``value`` (None for no reading)."""
-        if not math.isfinite(value):
-            return None
-        try:
-            return float(self.plan.station.dmm_accuracy.range_for(function.value, abs(value)))
-        except ValueError:
-            return None
+        return autorange_estimate(self.plan.station, function, value)
 
     def _u_reading(self, function: MeterFunction, value: float, range_: float | None) -> float:
-        """Standard uncertainty of one reading from the station's accuracy table (GUM 4.3.7)."""
-        if not math.isfinite(value) or range_ is None:
-            return math.nan
-        try:
-            spec = self.plan.station.dmm_accuracy.spec_for(function.value, range_)
-        except ValueError:
-            return math.nan
-        return float(spec.standard_uncertainty(value, range_))
+        return reading_u(self.plan.station, function, value, range_)
 
     def power(self, request: SupplyRequest | None) -> None:
         if request == self._supply_state:
             return
+        self._moves += 1
         supply = self.bench.supply
         if request is None:
             supply.set_output(False)
@@ -493,19 +636,76 @@ class Engine:
         return self._results[step_id]
 
     def prompt(self, text: str) -> bool:
+        self._writes.flush()  # the operator sees every result before being asked
         self.listener(PromptShown(self._step_id, text))
         return self.ask(text)
 
+    @property
+    def fixture(self) -> FixtureMap:
+        return self.plan.station.fixture
+
     def lead_zero(self, hi: str, lo: str) -> float:
-        zeros = self.plan.station.lead_zero_ohm
-        return zeros.get(f"{hi}:{lo}", zeros.get(f"{lo}:{hi}", 0.0))
+        return lead_zero_ohm(self.plan.station, hi, lo)
 
     def wait(self, seconds: float) -> None:
+        self._writes.flush()
         end = time.monotonic() + seconds
         while time.monotonic() < end:
             if self.stop.is_set():
                 raise StopRequested("stopped by the operator")
             time.sleep(min(0.05, max(0.0, end - time.monotonic())))
+
+
+def judge_outcome(
+    spec: StepSpec, outcome: Outcome, *, error: bool
+) -> tuple[Verdict, float, float | None]:
+    """Verdict, expanded uncertainty (k = COVERAGE_K) and TUR of one step's outcome; shared with
+    the analysis tools so that a prediction is judged exactly as a run is."""
+    expanded = COVERAGE_K * outcome.u_std if math.isfinite(outcome.u_std) else math.nan
+    tur = None
+    if error:
+        verdict = Verdict.ERROR
+    elif outcome.limits is None:
+        verdict = Verdict.PASS if math.isfinite(outcome.value) else Verdict.FAIL
+    else:
+        verdict = judge(
+            outcome.value,
+            outcome.limits,
+            expanded if math.isfinite(expanded) else 0.0,
+            spec.rule,
+        )
+        if math.isfinite(expanded) and expanded > 0:
+            tur = test_uncertainty_ratio(outcome.limits, expanded)
+    return verdict, expanded, tur
+
+
+def autorange_estimate(station: Station, function: MeterFunction, value: float) -> float | None:
+    """The range autorange would pick for ``value`` (None for no reading)."""
+    if not math.isfinite(value):
+        return None
+    try:
+        return float(station.dmm_accuracy.range_for(function.value, abs(value)))
+    except ValueError:
+        return None
+
+
+def lead_zero_ohm(station: Station, hi: str, lo: str) -> float:
+    """The station's stored fixture lead resistance for a pin pair, either way round (0: none)."""
+    zeros = station.lead_zero_ohm
+    return zeros.get(f"{hi}:{lo}", zeros.get(f"{lo}:{hi}", 0.0))
+
+
+def reading_u(
+    station: Station, function: MeterFunction, value: float, range_: float | None
+) -> float:
+    """Standard uncertainty of one reading from the station's accuracy table (GUM 4.3.7)."""
+    if not math.isfinite(value) or range_ is None:
+        return math.nan
+    try:
+        spec = station.dmm_accuracy.spec_for(function.value, range_)
+    except ValueError:
+        return math.nan
+    return float(spec.standard_uncertainty(value, range_))
 
 
 def _now() -> str:

@@ -40,7 +40,7 @@ class TomlDoc:
         try:
             self.data: dict[str, Any] = tomllib.loads(text)
         except tomllib.TOMLDecodeError as exc:
-            line = _line_from_decode_error(str(exc))
+            line = _line_from_decode_error(str(exc), text)
             raise ConfigError(
                 [Problem(self.name, "", f"not valid TOML: {exc}", line=line)]
             ) from None
@@ -94,9 +94,14 @@ class TomlDoc:
             raise ConfigError(self.problems)
 
 
-def _line_from_decode_error(message: str) -> int | None:
+def _line_from_decode_error(message: str, text: str) -> int | None:
+    """The line tomllib names; "at end of document" is the last line (an unclosed string)."""
     found = re.search(r"line (\d+)", message)
-    return int(found.group(1)) if found else None
+    if found:
+        return int(found.group(1))
+    if "end of document" in message:
+        return max(1, len(text.splitlines()))
+    return None
 
 
 def _describe(value: object) -> str:

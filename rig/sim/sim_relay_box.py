@@ -104,6 +104,7 @@ class SimRelayBox:
         self._thread: threading.Thread | None = None
         self._stop = threading.Event()
         self._gone = threading.Event()
+        self._triggers: list[tuple[frozenset[int], Callable[[], None]]] = []
 
     # ---- life cycle ---------------------------------------------------------------------------
 
@@ -177,8 +178,24 @@ class SimRelayBox:
             raise ValueError(f"fault count must be >= 1 or None, got {count}")
         with self._lock:
             self._faults[kind] = count
-        if kind == "close_pty" and self._thread is not None and self._thread.is_alive():
+        serving = self._thread is not None and self._thread.is_alive()
+        if kind == "close_pty" and serving and threading.current_thread() is not self._thread:
             self._gone.wait(timeout=5.0)
+
+    def when_closed(self, relays: frozenset[int], action: Callable[[], None]) -> None:
+        """Call ``action`` once, in the serving thread, when exactly ``relays`` are closed and
+        before the command that closed them is answered: a fault drill arms its fault at a
+        chosen step this way, independent of how fast the host runs."""
+        with self._lock:
+            self._triggers.append((frozenset(relays), action))
+
+    def _fire_triggers(self) -> None:
+        with self._lock:
+            closed = frozenset(self._closed)
+            due = [t for t in self._triggers if t[0] == closed]
+            self._triggers = [t for t in self._triggers if t[0] != closed]
+        for _, action in due:
+            action()
 
     def clear_faults(self) -> None:
         with self._lock:
@@ -206,6 +223,7 @@ class SimRelayBox:
                 log.info("simulated relay box on %s vanishes (close_pty fault)", self.port_path)
                 self._close_fds()
                 self._gone.set()
+                self._watch_without_link()
                 return
             self._check_watchdog()
             try:
@@ -246,6 +264,12 @@ class SimRelayBox:
                     continue
                 if line:
                     self._handle_line(line + TERMINATOR)
+
+    def _watch_without_link(self) -> None:
+        """The link is gone but the box is still powered: its watchdog still opens every relay
+        when the host falls silent, as a real box's firmware does with its cable pulled."""
+        while not self._stop.wait(self._poll_timeout() or _POLL_S):
+            self._check_watchdog()
 
     def _poll_timeout(self) -> float:
         with self._lock:
@@ -379,6 +403,7 @@ class SimRelayBox:
                     self._counts[relay] += 1
                     self._events.append(RelayEvent(self.clock.now(), relay, "close", cause))
             self._notify()
+            self._fire_triggers()
         return bool(to_open or to_close)
 
     def _feed_watchdog(self) -> None:

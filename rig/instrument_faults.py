@@ -1,0 +1,75 @@
+"""What to do about an instrument fault in the middle of a run, and how to say it in plain words.
+
+A fault of the link (no reply, a dropped connection, a garbled reply) or an error the meter
+reported after a configuration is often cured by trying the step once more from the safe state;
+the engine does that once and notes it.  Some faults must not be repeated: an error the supply
+reports (an over-current trip among them) means the unit may draw too much current, and powering it
+again before someone looks is unsafe (common practice, no published source).
+"""
+
+from __future__ import annotations
+
+from rig.errors import (
+    InstrumentConnectionLost,
+    InstrumentError,
+    InstrumentProtocolError,
+    InstrumentReportedError,
+    InstrumentTimeout,
+)
+
+ROLE_WORDS = {"dmm": "the DMM", "supply": "the supply", "relay_box": "the relay box"}
+
+
+class SupplyWentOff(InstrumentReportedError):
+    """The supply's output read off at the end of a powered step: it tripped or was switched off."""
+
+
+def is_transient(exc: InstrumentError, *, supply_name: str) -> bool:
+    """Whether one retry from the safe state may cure ``exc`` (and is safe to try)."""
+    if isinstance(exc, SupplyWentOff):
+        return False
+    if isinstance(exc, InstrumentReportedError) and exc.instrument == supply_name:
+        return False
+    return isinstance(
+        exc,
+        InstrumentTimeout
+        | InstrumentConnectionLost
+        | InstrumentProtocolError
+        | InstrumentReportedError,
+    )
+
+
+def _who(exc: InstrumentError) -> str:
+    if exc.instrument in ROLE_WORDS:
+        return ROLE_WORDS[exc.instrument]
+    return f"instrument {exc.instrument}" if exc.instrument else "an instrument"
+
+
+def plain_reason(exc: InstrumentError) -> str:
+    """One sentence a technician can act on, with the technical detail after it."""
+    who = _who(exc)
+    command = f" to {exc.command!r}" if exc.command else ""
+    if isinstance(exc, SupplyWentOff):
+        text = (
+            "the supply's output went off during a powered step (over-current trip?): the unit "
+            "may draw too much current; find the cause before powering it again"
+        )
+    elif isinstance(exc, InstrumentReportedError) and exc.instrument == "supply":
+        text = (
+            f"the supply reported an error{command}; if its over-current protection tripped, the "
+            "unit may draw too much current: find the cause before powering it again"
+        )
+    elif isinstance(exc, InstrumentTimeout):
+        text = f"{who} did not answer in time{command}; check that it is on and its cable is in"
+    elif isinstance(exc, InstrumentConnectionLost):
+        text = f"the connection to {who} was lost{command}; check its cable or network link"
+    elif isinstance(exc, InstrumentProtocolError):
+        text = (
+            f"{who} sent a reply that could not be understood{command}; check the cable for "
+            "interference and the instrument's settings"
+        )
+    elif isinstance(exc, InstrumentReportedError):
+        text = f"{who} reported an error{command}; see its error message below"
+    else:
+        text = f"{who} did not do what was asked{command}"
+    return f"{text} (details: {exc})"
