@@ -12,6 +12,7 @@ from rig.engine import Engine, RunSummary
 from rig.events import Event
 from rig.plan import Plan, build_plan
 from rig.store import ResultStore
+from rig.store_sync import SyncReport, send_waiting_runs
 
 
 def load_plan(sequence_path: Path | str, station: Station | Path | str) -> Plan:
@@ -32,17 +33,39 @@ def run_plan(
     listener: Callable[[Event], None] | None = None,
     ask: Callable[[str], bool] | None = None,
     store: ResultStore | None = None,
+    resume: int | None = None,
+    study_part: str = "",
+    study_trial: int | None = None,
+    on_sync: Callable[[SyncReport], None] | None = None,
 ) -> RunSummary:
+    """Run ``plan`` for ``serial``; with ``resume``, continue that incomplete run instead.
+
+    With its own store and a results server configured, runs waiting in the station's file are
+    sent before the run and this one after it (``on_sync`` hears how that went)."""
     notes = check_calibration(plan.station)
     own_store = store is None
+    if own_store:
+        send_waiting_runs(plan.station, on_sync)
     store = store or ResultStore(plan.station.store_path)
     try:
         bench = open_bench(plan.station)
         try:
             engine = Engine(plan, bench, store, listener=listener, ask=ask)
-            return engine.run(serial, operator, unit=unit, faults=faults, notes=notes)
+            summary = engine.run(
+                serial,
+                operator,
+                unit=unit,
+                faults=faults,
+                notes=notes,
+                resume=resume,
+                study_part=study_part,
+                study_trial=study_trial,
+            )
         finally:
             close_bench(bench)
     finally:
         if own_store:
             store.close()
+    if own_store:
+        send_waiting_runs(plan.station, on_sync)
+    return summary

@@ -3,22 +3,35 @@
 Each reading and each step result is its own short transaction with ``synchronous=FULL``, so a
 crash or power loss cannot take back anything the rig has reported as measured.  The schema is
 versioned; ``MIGRATIONS[n]`` brings a database from version n to n + 1.
+
+The same class runs on PostgreSQL (``rig.store_postgres``): the SQL here is written once, in the
+subset both engines share (``?`` placeholders, ``RETURNING id``), and a ``Backend`` supplies what
+differs (opening, transactions, where the schema version lives, the DDL dialect).
 """
 
 from __future__ import annotations
 
+import contextlib
 import datetime as dt
 import json
 import math
 import sqlite3
 import uuid
-from collections.abc import Iterator, Sequence
+from collections.abc import Iterable, Iterator, Sequence
 from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
+from typing import Any, Protocol
 
 from rig.errors import RigError
+from rig.stats.filters import RunFilter
+
+# a reading's key when it was written without one: its run's key and its row, stable forever
+FILL_READING_UIDS = """
+    UPDATE readings SET reading_uid =
+        (SELECT run_uid FROM runs WHERE runs.id = readings.run_id) || ':' || CAST(id AS TEXT)
+    WHERE reading_uid IS NULL
+"""
 
 MIGRATIONS: list[str] = [
     # 0 -> 1: the first schema
@@ -93,6 +106,35 @@ MIGRATIONS: list[str] = [
         PRIMARY KEY (station, relay)
     );
     """,
+    # 2 -> 3: a key per reading, so a run sent to a shared server twice lands once; which runs
+    # this store has already sent where; and a key for the store itself (rig.store_sync)
+    """
+    ALTER TABLE readings ADD COLUMN reading_uid TEXT;
+    """
+    + FILL_READING_UIDS
+    + """;
+    CREATE UNIQUE INDEX readings_by_uid ON readings (reading_uid);
+    CREATE TABLE sent_runs (
+        target TEXT NOT NULL,
+        run_uid TEXT NOT NULL,
+        fingerprint TEXT NOT NULL,
+        sent_at TEXT NOT NULL,
+        PRIMARY KEY (target, run_uid)
+    );
+    CREATE TABLE store_identity (
+        id INTEGER PRIMARY KEY CHECK (id = 1),
+        store_uid TEXT NOT NULL
+    );
+    """,
+    # 3 -> 4: gauge-study runs record the part measured and the trial number (rig.stats.grr);
+    # an index that holds every column the step statistics read, in the order they group by, so
+    # they stream through it without sorting (ResultStore.step_moments)
+    """
+    ALTER TABLE runs ADD COLUMN study_part TEXT NOT NULL DEFAULT '';
+    ALTER TABLE runs ADD COLUMN study_trial INTEGER;
+    CREATE INDEX steps_for_stats ON steps
+        (step_id, unit, low, high, run_id, value, expanded_u, verdict, position);
+    """,
 ]
 
 SCHEMA_VERSION = len(MIGRATIONS)
@@ -100,6 +142,80 @@ SCHEMA_VERSION = len(MIGRATIONS)
 
 class StoreError(RigError):
     """The results database cannot be opened or written."""
+
+
+class Cursor(Protocol):
+    """What the store needs of a cursor: ``sqlite3.Cursor`` and psycopg's both qualify."""
+
+    def fetchone(self) -> Any: ...
+    def fetchall(self) -> list[Any]: ...
+    def __iter__(self) -> Iterator[Any]: ...
+
+
+class Connection(Protocol):
+    """``execute`` with ``?`` placeholders, rows readable by index and by name (``dict(row)``)."""
+
+    def execute(self, sql: str, parameters: Any = ..., /) -> Cursor: ...
+    def executemany(self, sql: str, parameters: Iterable[Any], /) -> Any: ...
+    def close(self) -> None: ...
+
+
+class Backend(Protocol):
+    """The engine-specific parts of a store: opening, transactions, schema version, dialect."""
+
+    @property
+    def where(self) -> str:
+        """For messages: a file path, or a server without its password."""
+
+    @property
+    def db(self) -> Connection: ...
+    @property
+    def errors(self) -> tuple[type[Exception], ...]: ...
+    @property
+    def begin(self) -> str:
+        """The statement that opens a write transaction."""
+
+    def lock_schema(self) -> None:
+        """Inside a transaction: keep other processes from migrating at the same time."""
+
+    def schema_version(self) -> int: ...
+    def set_schema_version(self, version: int) -> None: ...
+    def statements(self, migration: str) -> list[str]:
+        """One migration's statements, in this engine's dialect."""
+
+
+class SqliteBackend:
+    """A local SQLite file in WAL mode with FULL sync (see FIELD-NOTES: SQLite)."""
+
+    begin = "BEGIN IMMEDIATE"  # takes the write lock at once: migrations cannot interleave
+    errors: tuple[type[Exception], ...] = (sqlite3.Error,)
+
+    def __init__(self, path: Path) -> None:
+        self.path = path
+        self.where = str(path)
+        try:
+            path.parent.mkdir(parents=True, exist_ok=True)
+            db = sqlite3.connect(path, isolation_level=None, check_same_thread=False)
+            db.row_factory = sqlite3.Row
+            db.execute("PRAGMA journal_mode=WAL")
+            db.execute("PRAGMA synchronous=FULL")
+            db.execute("PRAGMA busy_timeout=5000")
+            db.execute("PRAGMA foreign_keys=ON")
+        except (sqlite3.Error, OSError) as exc:
+            raise StoreError(f"cannot open the results store {path}: {exc}") from None
+        self.db: sqlite3.Connection = db
+
+    def lock_schema(self) -> None:
+        pass
+
+    def schema_version(self) -> int:
+        return int(self.db.execute("PRAGMA user_version").fetchone()[0])
+
+    def set_schema_version(self, version: int) -> None:
+        self.db.execute(f"PRAGMA user_version={int(version)}")
+
+    def statements(self, migration: str) -> list[str]:
+        return [s for s in migration.split(";") if s.strip()]
 
 
 def _now() -> str:
@@ -131,58 +247,80 @@ class RunHeader:
     unit: str = ""
     faults: tuple[str, ...] = ()
     instruments: tuple[dict[str, str], ...] = ()
+    study_part: str = ""
+    study_trial: int | None = None
 
 
 class ResultStore:
-    """One SQLite file; one connection per store object, used from one thread at a time."""
+    """One database (a SQLite file by default, or a ``Backend`` such as PostgreSQL); one
+    connection per store object, used from one thread at a time."""
 
-    def __init__(self, path: Path | str) -> None:
-        self.path = Path(path)
+    def __init__(self, path: Path | str | Backend) -> None:
+        backend = SqliteBackend(Path(path)) if isinstance(path, str | Path) else path
+        self._backend = backend
+        self.path: Path | None = backend.path if isinstance(backend, SqliteBackend) else None
+        self.where = backend.where
+        self._db: Connection = backend.db
         try:
-            self.path.parent.mkdir(parents=True, exist_ok=True)
-            self._db = sqlite3.connect(self.path, isolation_level=None, check_same_thread=False)
-            self._db.row_factory = sqlite3.Row
-            self._db.execute("PRAGMA journal_mode=WAL")
-            self._db.execute("PRAGMA synchronous=FULL")
-            self._db.execute("PRAGMA busy_timeout=5000")
-            self._db.execute("PRAGMA foreign_keys=ON")
             self.migrate()
-        except sqlite3.Error as exc:
-            raise StoreError(f"cannot open the results store {self.path}: {exc}") from None
+        except StoreError:
+            self.close()
+            raise
+
+    @property
+    def engine(self) -> str:
+        """``sqlite`` or ``postgresql``."""
+        return "sqlite" if isinstance(self._backend, SqliteBackend) else "postgresql"
 
     def close(self) -> None:
-        self._db.close()
+        with contextlib.suppress(*self._backend.errors):  # a link the server already dropped
+            self._db.close()
 
     @contextmanager
-    def _tx(self) -> Iterator[sqlite3.Connection]:
+    def _tx(self) -> Iterator[Connection]:
         try:
-            self._db.execute("BEGIN IMMEDIATE")
+            self._db.execute(self._backend.begin)
             try:
                 yield self._db
             except BaseException:
                 self._db.execute("ROLLBACK")
                 raise
             self._db.execute("COMMIT")
-        except sqlite3.Error as exc:
-            raise StoreError(f"cannot write to the results store {self.path}: {exc}") from None
+        except self._backend.errors as exc:
+            why = " ".join(str(exc).split())
+            raise StoreError(f"cannot write to the results store {self.where}: {why}") from None
 
     def schema_version(self) -> int:
-        return int(self._db.execute("PRAGMA user_version").fetchone()[0])
+        return self._backend.schema_version()
+
+    def store_uid(self) -> str:
+        """This database's own key, made on first use: a server is the same server whichever
+        address it was reached by."""
+        with self._tx() as db:
+            db.execute(
+                "INSERT INTO store_identity (id, store_uid) VALUES (1, ?)"
+                " ON CONFLICT (id) DO NOTHING",
+                (uuid.uuid4().hex,),
+            )
+            return str(db.execute("SELECT store_uid FROM store_identity").fetchone()[0])
 
     def migrate(self) -> None:
-        """Apply every migration the file has not seen, each in its own transaction."""
-        version = self.schema_version()
-        if version > SCHEMA_VERSION:
-            raise StoreError(
-                f"{self.path} has schema version {version}; this rig knows up to {SCHEMA_VERSION}"
-            )
-        for step in range(version, SCHEMA_VERSION):
-            self._db.execute("BEGIN IMMEDIATE")
-            for statement in MIGRATIONS[step].split(";"):
-                if statement.strip():
-                    self._db.execute(statement)
-            self._db.execute(f"PRAGMA user_version={step + 1}")
-            self._db.execute("COMMIT")
+        """Apply every migration the database has not seen, each in its own transaction; the
+        version is read inside the transaction, so stations opening one server at once agree."""
+        while True:
+            with self._tx() as db:
+                self._backend.lock_schema()
+                version = self._backend.schema_version()
+                if version > SCHEMA_VERSION:
+                    raise StoreError(
+                        f"{self.where} has schema version {version}; "
+                        f"this rig knows up to {SCHEMA_VERSION}"
+                    )
+                if version == SCHEMA_VERSION:
+                    return
+                for statement in self._backend.statements(MIGRATIONS[version]):
+                    db.execute(statement)
+                self._backend.set_schema_version(version + 1)
 
     # --- writing, one short transaction each -------------------------------------------------
 
@@ -190,8 +328,9 @@ class ResultStore:
         with self._tx() as db:
             cur = db.execute(
                 "INSERT INTO runs (run_uid, serial, sequence_name, sequence_hash, sequence_path,"
-                " station, operator, unit, faults, instruments, started_at, status)"
-                " VALUES (?,?,?,?,?,?,?,?,?,?,?, 'running')",
+                " station, operator, unit, faults, instruments, started_at, status,"
+                " study_part, study_trial)"
+                " VALUES (?,?,?,?,?,?,?,?,?,?,?, 'running', ?, ?) RETURNING id",
                 (
                     uuid.uuid4().hex,
                     header.serial,
@@ -204,9 +343,11 @@ class ResultStore:
                     json.dumps(list(header.faults)),
                     json.dumps(list(header.instruments)),
                     _now(),
+                    header.study_part,
+                    header.study_trial,
                 ),
             )
-            return int(cur.lastrowid or 0)
+            return int(cur.fetchone()[0])
 
     def add_reading(
         self,
@@ -225,7 +366,8 @@ class ResultStore:
         with self._tx() as db:
             cur = db.execute(
                 "INSERT INTO readings (run_id, step_id, role, function, value, overload, range,"
-                " nplc, u_std, taken_at, settled) VALUES (?,?,?,?,?,?,?,?,?,?,?)",
+                " nplc, u_std, taken_at, settled, reading_uid) VALUES (?,?,?,?,?,?,?,?,?,?,?,?)"
+                " RETURNING id",
                 (
                     run_id,
                     step_id,
@@ -238,9 +380,10 @@ class ResultStore:
                     _num(u_std),
                     taken_at,
                     int(settled),
+                    uuid.uuid4().hex,
                 ),
             )
-            return int(cur.lastrowid or 0)
+            return int(cur.fetchone()[0])
 
     def mark_settled(self, reading_row: int) -> None:
         """Flag the reading a step's value was taken from (the last of its settling series)."""
@@ -278,7 +421,7 @@ class ResultStore:
                     db.execute(
                         "INSERT INTO relay_wear (station, relay, operations) VALUES (?,?,?)"
                         " ON CONFLICT (station, relay) DO UPDATE SET"
-                        " operations = operations + excluded.operations",
+                        " operations = relay_wear.operations + excluded.operations",
                         (station, relay, ops),
                     )
 
@@ -288,13 +431,48 @@ class ResultStore:
         )
         return {int(r[0]): int(r[1]) for r in rows}
 
+    # --- runs a stopped controller left behind (see rig.resume) ------------------------------
+
+    def mark_incomplete(self, station: str, reason: str) -> list[int]:
+        """Mark runs of ``station`` still recorded as running as incomplete; returns their ids.
+
+        Called once the station's instruments are open: a relay box is opened exclusively, so no
+        other live controller can be running on this station, and a running run is a dead one's.
+        """
+        with self._tx() as db:
+            rows = db.execute(
+                "SELECT id FROM runs WHERE station=? AND status='running' ORDER BY id", (station,)
+            ).fetchall()
+            ids = [int(r[0]) for r in rows]
+            for run_id in ids:
+                db.execute(
+                    "UPDATE runs SET status='incomplete', reason=?, ended_at=? WHERE id=?",
+                    (reason, _now(), run_id),
+                )
+        return ids
+
+    def reopen_run(self, run_id: int) -> None:
+        """Set an incomplete run running again, to be continued from its next step."""
+        with self._tx() as db:
+            db.execute(
+                "UPDATE runs SET status='running', ended_at=NULL"
+                " WHERE id=? AND status='incomplete'",
+                (run_id,),
+            )
+
     # --- reading ------------------------------------------------------------------------------
 
     def run(self, run_id: int) -> dict[str, Any]:
         row = self._db.execute("SELECT * FROM runs WHERE id=?", (run_id,)).fetchone()
         if row is None:
-            raise StoreError(f"no run {run_id} in {self.path}")
+            raise StoreError(f"no run {run_id} in {self.where}")
         return dict(row)
+
+    def run_id_for(self, run_uid: str) -> int | None:
+        """This database's id of a run known by its key: ids differ between a station's file
+        and the server, ``run_uid`` is the same in both."""
+        row = self._db.execute("SELECT id FROM runs WHERE run_uid=?", (run_uid,)).fetchone()
+        return None if row is None else int(row[0])
 
     def runs(self, limit: int = 50) -> list[dict[str, Any]]:
         rows = self._db.execute("SELECT * FROM runs ORDER BY id DESC LIMIT ?", (limit,))
@@ -313,6 +491,101 @@ class ResultStore:
                 (run_id, step_id),
             )
         return [dict(r) for r in rows]
+
+    # --- bulk reads for statistics (rig.stats.from_store); plain rows, portable SQL ----------
+
+    def run_rows(self, where: RunFilter) -> list[Any]:
+        """(id, serial, sequence_name, started_at, status, verdict) of every run the filter
+        matches, oldest first."""
+        sql, params = _run_where(where)
+        return self._rows(
+            "SELECT r.id, r.serial, r.sequence_name, r.started_at, r.status, r.verdict"
+            f" FROM runs r WHERE {sql} ORDER BY r.started_at, r.id",
+            params,
+        )
+
+    def step_moments(self, where: RunFilter) -> list[Any]:
+        """Per (sequence, step, unit, low, high): values, sums of d and d^2 with d = value minus
+        the step's limit (its low, else its high, else 0), mean expanded uncertainty, first
+        position, and how many times the step failed or could not measure.
+
+        The database adds up, so a million values never pass through Python; the shift keeps the
+        variance computed from the sums accurate (rig.stats.capability.moments_from_sums).  The
+        first pass groups by the step's own columns (streamed through ``steps_for_stats``); only
+        a step id that several sequences share is grouped again by sequence."""
+        sql, params = _run_where(where)
+        d = "(s.value - COALESCE(s.low, s.high, 0))"
+        sums = (
+            f"COUNT(s.value), SUM({d}), SUM({d} * {d}), AVG(s.expanded_u), MIN(s.position),"
+            " SUM(CASE WHEN s.verdict IN ('fail', 'conditional fail', 'error') THEN 1 ELSE 0 END)"
+        )
+        join = f"FROM steps s JOIN runs r ON r.id = s.run_id WHERE {sql}"
+        coarse = self._rows(
+            f"SELECT MIN(r.sequence_name), MAX(r.sequence_name), s.step_id, s.unit, s.low, s.high,"
+            f" {sums} {join} GROUP BY s.step_id, s.unit, s.low, s.high",
+            params,
+        )
+        shared = {row[2]: (row[0], row[1]) for row in coarse if row[0] != row[1]}
+        rows = [(row[0], *row[2:]) for row in coarse if row[2] not in shared]
+        if not shared:
+            return rows
+        distinct = f"SELECT DISTINCT r.sequence_name FROM runs r WHERE {sql}"
+        sequences = [r[0] for r in self._rows(distinct, params)]
+        for step_id, (first, last) in sorted(shared.items()):
+            for sequence in sorted(q for q in sequences if first <= q <= last):
+                # one sequence at a time streams through the index again, with no sort
+                rows += [
+                    (sequence, *row)
+                    for row in self._rows(
+                        f"SELECT s.step_id, s.unit, s.low, s.high, {sums} {join}"
+                        " AND s.step_id = ? AND r.sequence_name = ?"
+                        " GROUP BY s.step_id, s.unit, s.low, s.high",
+                        [*params, step_id, sequence],
+                    )
+                ]
+        return rows
+
+    def step_series(self, where: RunFilter, sequence: str, step_id: str) -> list[Any]:
+        """(run_id, started_at, value, low, high, expanded_u, study_part, operator, study_trial)
+        of one step over the matching runs, in time order."""
+        sql, params = _run_where(where)
+        return self._rows(
+            "SELECT s.run_id, r.started_at, s.value, s.low, s.high, s.expanded_u, r.study_part,"
+            " r.operator, r.study_trial FROM steps s JOIN runs r ON r.id = s.run_id"
+            f" WHERE {sql} AND r.sequence_name = ? AND s.step_id = ?"
+            " ORDER BY r.started_at, s.run_id",
+            [*params, sequence, step_id],
+        )
+
+    def _rows(self, sql: str, params: Sequence[Any]) -> list[Any]:
+        """Rows readable by position; a read error names the store."""
+        try:
+            cursor = self._db.execute(sql, tuple(params))
+            if isinstance(cursor, sqlite3.Cursor):
+                cursor.row_factory = None  # plain tuples: a sqlite3.Row costs as much again
+            return cursor.fetchall()
+        except self._backend.errors as exc:
+            raise StoreError(f"cannot read the results store {self.where}: {exc}") from None
+
+
+def _run_where(where: RunFilter) -> tuple[str, list[Any]]:
+    """A WHERE clause on runs (alias ``r``) with ``?`` placeholders, and its parameters."""
+    parts = ["r.study_part <> ''" if where.study else "r.study_part = ''"]
+    params: list[Any] = []
+    for column, value in (("sequence_name", where.sequence), ("station", where.station)):
+        if value is not None:
+            parts.append(f"r.{column} = ?")
+            params.append(value)
+    if where.started_from() is not None:
+        parts.append("r.started_at >= ?")
+        params.append(where.started_from())
+    if where.started_before() is not None:
+        parts.append("r.started_at < ?")
+        params.append(where.started_before())
+    if where.serial_prefix:
+        parts.append("substr(r.serial, 1, CAST(? AS INTEGER)) = ?")
+        params.extend([len(where.serial_prefix), where.serial_prefix])
+    return " AND ".join(parts), params
 
 
 def _bad_float(value: object) -> bool:

@@ -15,6 +15,7 @@ from typing import Any
 
 from rig.config.fixture import FixtureMap, parse_fixture
 from rig.config.reader import Section, TomlDoc
+from rig.config.store_section import StoreSettings, parse_store
 from rig.errors import ConfigError
 from rig.judge.accuracy import AccuracySpec, AccuracyTable
 
@@ -45,6 +46,8 @@ class Station:
     lead_zero_ohm: dict[str, float] = field(default_factory=dict)
     """Fixture lead resistance per pin pair ("A:B"), subtracted from resistance readings."""
     watchdog_s: float = 2.0
+    store: StoreSettings = field(default_factory=StoreSettings)
+    """Where results go besides the station's own file (``[store]``, docs/postgresql.md)."""
 
     @property
     def store_path(self) -> Path:
@@ -103,6 +106,7 @@ def load_station(path: Path | str) -> Station:
             if value is not None:
                 zeros[pair] = value
         zero_sec.reject_unknown()
+    store = parse_store(root.table("store"))
     root.reject_unknown()
 
     problems = doc.problems + fixture_problems
@@ -120,6 +124,7 @@ def load_station(path: Path | str) -> Station:
         data_dir=data_dir,
         lead_zero_ohm=zeros,
         watchdog_s=watchdog_s,
+        store=store,
     )
 
 

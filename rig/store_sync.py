@@ -1,0 +1,210 @@
+"""Sending a station's runs from its own store to the shared server, exactly once.
+
+Every row carries a key that is the same on both sides: a run its ``run_uid``, a step its run and
+``step_id``, a reading its ``reading_uid``.  The server upserts on those keys, so sending a run
+again (after a link that dropped before the station heard the commit) changes nothing.  Each run
+goes in one server transaction: a drop in the middle leaves nothing of it there.  Only after the
+commit does the station note the run as sent, with a fingerprint of what it sent; a run that
+changes later (a resumed run, a settled flag) differs from its fingerprint and is sent again.
+Runs still ``running`` wait until they end.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import logging
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass
+from typing import Any
+
+from rig.config.station import Station
+from rig.store import FILL_READING_UIDS, ResultStore, StoreError
+from rig.store_open import open_local_store, open_server_store
+
+log = logging.getLogger(__name__)
+
+# per finished run: what must match on the server for the run to count as sent
+_FINGERPRINTS = """
+SELECT r.id, r.run_uid,
+    r.status || '|' || COALESCE(r.ended_at, '') || '|' || COALESCE(r.verdict, '') || '|'
+    || CAST((SELECT COUNT(*) FROM steps s WHERE s.run_id = r.id) AS TEXT) || '|'
+    || CAST((SELECT COUNT(*) FROM readings d WHERE d.run_id = r.id) AS TEXT) || '|'
+    || CAST((SELECT COALESCE(SUM(d.settled), 0) FROM readings d WHERE d.run_id = r.id) AS TEXT)
+FROM runs r
+WHERE r.status <> 'running'
+ORDER BY r.id
+"""
+
+
+@dataclass(frozen=True)
+class SyncReport:
+    sent: int
+    """Runs sent in this pass."""
+    waiting: int
+    """Finished runs still not on the server."""
+    problem: str = ""
+    """Why sending stopped, in plain words; empty when nothing stopped it."""
+    configured: bool = True
+    """False when the station has no server: its own file is the whole record."""
+
+    def describe(self) -> str:
+        if not self.configured:
+            return "no results server is configured; the station's own store is the record"
+        text = f"{self.sent} run(s) sent to the results server"
+        if self.problem:
+            return f"{text}; {self.waiting} waiting: {self.problem}"
+        return text + ("" if not self.waiting else f"; {self.waiting} waiting")
+
+
+def pending_runs(local: ResultStore, target: str | None) -> list[tuple[int, str]]:
+    """(local run id, fingerprint) of every finished run not yet sent to the server ``target``
+    (a ``store_uid``) as it is now; with no target, not yet sent anywhere."""
+    if target is None:
+        marks = local._db.execute("SELECT run_uid, fingerprint FROM sent_runs")
+    else:
+        marks = local._db.execute(
+            "SELECT run_uid, fingerprint FROM sent_runs WHERE target=?", (target,)
+        )
+    sent = {(str(r[0]), str(r[1])) for r in marks}
+    rows = local._db.execute(_FINGERPRINTS).fetchall()
+    return [(int(r[0]), str(r[2])) for r in rows if (str(r[1]), str(r[2])) not in sent]
+
+
+def _quoted(names: Sequence[str]) -> str:
+    return ", ".join(f'"{n}"' for n in names)
+
+
+def upsert_sql(table: str, columns: Sequence[str], key: Sequence[str], returning: bool) -> str:
+    """INSERT ... ON CONFLICT (key) DO UPDATE: the same statement on SQLite and PostgreSQL."""
+    marks = ", ".join("?" for _ in columns)
+    updates = ", ".join(f'"{c}" = excluded."{c}"' for c in columns if c not in key)
+    sql = (
+        f"INSERT INTO {table} ({_quoted(columns)}) VALUES ({marks})"
+        f" ON CONFLICT ({_quoted(key)}) DO UPDATE SET {updates}"
+    )
+    return sql + (" RETURNING id" if returning else "")
+
+
+def _rows(store: ResultStore, sql: str, params: tuple[Any, ...]) -> list[dict[str, Any]]:
+    return [dict(r) for r in store._db.execute(sql, params)]
+
+
+def _send_children(
+    remote: ResultStore,
+    table: str,
+    rows: list[dict[str, Any]],
+    server_run: int,
+    key: tuple[str, ...],
+) -> None:
+    if not rows:
+        return
+    columns = [c for c in rows[0] if c != "id"]
+    values = [tuple(server_run if c == "run_id" else row[c] for c in columns) for row in rows]
+    remote._db.executemany(upsert_sql(table, columns, key, returning=False), values)
+
+
+def send_run(local: ResultStore, remote: ResultStore, run_id: int) -> None:
+    """One run with its steps and readings, in one server transaction, keyed for idempotence."""
+    run = _rows(local, "SELECT * FROM runs WHERE id=?", (run_id,))[0]
+    steps = _rows(local, "SELECT * FROM steps WHERE run_id=? ORDER BY id", (run_id,))
+    readings = _rows(local, "SELECT * FROM readings WHERE run_id=? ORDER BY id", (run_id,))
+    columns = [c for c in run if c != "id"]
+    with remote._tx() as db:
+        server_run = int(
+            db.execute(
+                upsert_sql("runs", columns, ("run_uid",), returning=True),
+                tuple(run[c] for c in columns),
+            ).fetchone()[0]
+        )
+        _send_children(remote, "steps", steps, server_run, ("run_id", "step_id"))
+        _send_children(remote, "readings", readings, server_run, ("reading_uid",))
+
+
+def send_relay_wear(local: ResultStore, remote: ResultStore) -> None:
+    """The station's lifetime relay counts, as absolute values: sending twice is harmless."""
+    rows = _rows(local, "SELECT station, relay, operations FROM relay_wear", ())
+    if not rows:
+        return
+    with remote._tx():
+        remote._db.executemany(
+            upsert_sql(
+                "relay_wear", ["station", "relay", "operations"], ("station", "relay"), False
+            ),
+            [(r["station"], r["relay"], r["operations"]) for r in rows],
+        )
+
+
+def _mark_sent(local: ResultStore, target: str, run_uid: str, fingerprint: str) -> None:
+    now = dt.datetime.now(dt.UTC).isoformat(timespec="milliseconds")
+    with local._tx() as db:
+        db.execute(
+            upsert_sql("sent_runs", ["target", "run_uid", "fingerprint", "sent_at"],
+                       ("target", "run_uid"), returning=False),
+            (target, run_uid, fingerprint, now),
+        )  # fmt: skip
+
+
+def sync(local: ResultStore, remote: ResultStore) -> SyncReport:
+    """Send every finished run the server does not have as it is now; stop at the first failure
+    (the server is most likely gone) and say why."""
+    try:
+        target = remote.store_uid()
+    except StoreError as exc:
+        return SyncReport(0, len(pending_runs(local, None)), str(exc))
+    with local._tx() as db:
+        db.execute(FILL_READING_UIDS)  # rows written by code that gave no key get the stable one
+    pending = pending_runs(local, target)
+    sent = 0
+    try:
+        for run_id, fingerprint in pending:
+            run_uid = str(local.run(run_id)["run_uid"])
+            send_run(local, remote, run_id)
+            _mark_sent(local, target, run_uid, fingerprint)
+            sent += 1
+        send_relay_wear(local, remote)
+    except StoreError as exc:
+        return SyncReport(sent, len(pending) - sent, str(exc))
+    return SyncReport(sent, 0)
+
+
+def waiting_runs(station: Station) -> int:
+    """How many finished runs of the station's own store were never sent anywhere as they are
+    (what can be said while the server is out of reach)."""
+    local = open_local_store(station)
+    try:
+        return len(pending_runs(local, None))
+    finally:
+        local.close()
+
+
+def sync_station(station: Station) -> SyncReport:
+    """Send what the station's own store holds to its server; an unreachable server is a report,
+    not an error: the runs stay safe in the station's file until the next try."""
+    try:
+        remote = open_server_store(station)
+    except StoreError as exc:
+        return SyncReport(0, waiting_runs(station), str(exc))
+    if remote is None:
+        return SyncReport(0, 0, configured=False)
+    try:
+        local = open_local_store(station)
+        try:
+            return sync(local, remote)
+        finally:
+            local.close()
+    finally:
+        remote.close()
+
+
+def send_waiting_runs(station: Station, on_sync: Callable[[SyncReport], None] | None) -> None:
+    """The automatic send around a run: never stops the run; says what happened."""
+    try:
+        report = sync_station(station)
+    except StoreError as exc:  # the station's own file: worth saying, not worth a lost run
+        report = SyncReport(0, 0, str(exc))
+    if not report.configured:
+        return
+    if on_sync is not None:
+        on_sync(report)
+    elif report.problem:
+        log.warning("%s", report.describe())
