@@ -22,6 +22,9 @@ class Route:
 
     joins: tuple[tuple[str, Bus], ...]
     zero_check: bool = False
+    ganged: bool = False
+    """Several pins on DMM HI and on DMM LO at once, tied on purpose (harness isolation by
+    groups); the other interlocks still hold and the sense and supply buses keep one pin."""
 
     @staticmethod
     def dmm(hi: str, lo: str, *, zero_check: bool = False) -> Route:
@@ -39,11 +42,21 @@ class Route:
         )
 
     @staticmethod
+    def ganged_dmm(hi: Iterable[str], lo: Iterable[str]) -> Route:
+        """Every pin of ``hi`` on DMM HI and every pin of ``lo`` on DMM LO."""
+        joins = [(p, Bus.DMM_HI) for p in hi] + [(p, Bus.DMM_LO) for p in lo]
+        return Route(tuple(joins), ganged=True)
+
+    @staticmethod
     def supply(pos: str, neg: str) -> Route:
         return Route(((pos, Bus.SUPPLY_POS), (neg, Bus.SUPPLY_NEG)))
 
     def __add__(self, other: Route) -> Route:
-        return Route(self.joins + other.joins, self.zero_check or other.zero_check)
+        return Route(
+            self.joins + other.joins,
+            self.zero_check or other.zero_check,
+            self.ganged or other.ganged,
+        )
 
 
 def relays_for(fixture: FixtureMap, route: Route) -> frozenset[int]:
@@ -62,7 +75,7 @@ def relays_for(fixture: FixtureMap, route: Route) -> frozenset[int]:
 
 
 def interlock_violations(
-    fixture: FixtureMap, relays: Iterable[int], *, zero_check: bool = False
+    fixture: FixtureMap, relays: Iterable[int], *, zero_check: bool = False, ganged: bool = False
 ) -> list[str]:
     """Every interlock a set of closed relays breaks, in words; empty when it is safe."""
     relays = frozenset(relays)
@@ -83,7 +96,7 @@ def interlock_violations(
             on_bus[bus].append(relay)
             buses_of_pin[pin][bus] = relay
     for bus, members in on_bus.items():
-        if len(members) > 1:
+        if len(members) > 1 and not (ganged and bus in (Bus.DMM_HI, Bus.DMM_LO)):
             names = ", ".join(describe_relay(fixture, r) for r in members)
             problems.append(f"two pins on bus {bus.value} would be shorted together: {names}")
     for pin, buses in buses_of_pin.items():
@@ -102,10 +115,10 @@ def interlock_violations(
 
 
 def check_interlocks(
-    fixture: FixtureMap, relays: Iterable[int], *, zero_check: bool = False
+    fixture: FixtureMap, relays: Iterable[int], *, zero_check: bool = False, ganged: bool = False
 ) -> None:
     """Raise ``InterlockError`` naming pins and relays when ``relays`` may not be closed."""
-    problems = interlock_violations(fixture, relays, zero_check=zero_check)
+    problems = interlock_violations(fixture, relays, zero_check=zero_check, ganged=ganged)
     if problems:
         raise InterlockError("refused before any relay moved: " + "; ".join(problems))
 
@@ -113,7 +126,7 @@ def check_interlocks(
 def plan_relays(fixture: FixtureMap, route: Route) -> frozenset[int]:
     """The checked relay set for a route."""
     relays = relays_for(fixture, route)
-    check_interlocks(fixture, relays, zero_check=route.zero_check)
+    check_interlocks(fixture, relays, zero_check=route.zero_check, ganged=route.ganged)
     return relays
 
 

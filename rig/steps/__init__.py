@@ -1,6 +1,7 @@
 """Step kinds by the name they have in sequence files."""
 
 from rig.steps.base import Outcome, Reading, StepKind, StepSpec, SupplyRequest
+from rig.steps.harness_step import HarnessProof
 from rig.steps.meter_steps import GroundDrop, Resistance, SupplyCurrent, Volts, WireDrop
 from rig.steps.model_steps import NtcCheck, RatiometricCheck, ReferenceTemperature
 from rig.steps.operator_steps import Prompt, Soak
@@ -18,6 +19,7 @@ KINDS: dict[str, StepKind] = {
         RatiometricCheck(),
         Prompt(),
         Soak(),
+        HarnessProof(),
     )
 }
 

@@ -90,6 +90,10 @@ class StepKind(ABC):
     limits_in_meter_units: bool = True
     """False where the judged value is not the meter's own reading (a temperature, a fraction,
     a prediction-relative limit): the planner then cannot pick a range from the limits."""
+    overload_is_a_result: bool = False
+    """True where an overload reading is itself a result the step judges (an isolation reading
+    above the range proves at least the range): the engine's reading guard then leaves the
+    verdict to the step."""
 
     def meter_function(self, spec: StepSpec) -> MeterFunction | None:
         """What the meter measures for this step's judged reading."""

@@ -5,6 +5,7 @@ from __future__ import annotations
 from typing import Protocol
 
 from drivers.base import MeterFunction
+from rig.config.fixture import FixtureMap
 from rig.routing import Route
 from rig.steps.base import Reading, SupplyRequest
 
@@ -43,3 +44,7 @@ class StepContext(Protocol):
 
     def lead_zero(self, hi: str, lo: str) -> float:
         """The station's stored fixture lead resistance for this pin pair (0 when none)."""
+
+    @property
+    def fixture(self) -> FixtureMap:
+        """The station's fixture map (a harness step joins its wire list to it)."""

@@ -1,0 +1,170 @@
+"""``rig harness check|capture|sim``: prove a harness against its wire list, capture a wire list
+from a known-good harness, or serve a harness as built on the virtual bench.
+
+``check`` and ``capture`` run one ``harness-proof`` step through the engine, so every reading is
+stored and the bench ends in the safe state exactly as with ``rig run``.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+from pathlib import Path
+
+from rig.cli_output import Output, serve_bench
+
+HARNESS_CAUTION = (
+    "Caution: test harnesses off the vehicle or machine, never on live circuits: disconnect "
+    "batteries and supplies first. The DMM's ohms test current is small (about 1 mA or less); "
+    "keep it that way, and follow local codes and licensed practice."
+)
+
+
+def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
+    parser = sub.add_parser("harness", help="prove, capture or simulate a wiring harness")
+    verbs = parser.add_subparsers(dest="harness_command", required=True)
+
+    check = verbs.add_parser("check", help="prove a harness on the fixture against a wire list")
+    check.add_argument("wire_list", type=Path)
+    _common(check)
+    check.add_argument("--isolation-method", choices=("groups", "pairs", "off"), default="groups")
+    check.add_argument("--isolation", default="1 Mohm", help="per pair minimum (default 1 Mohm)")
+    check.add_argument("--contact-allowance", default="5 mohm", help="per contact (5 mohm)")
+    check.set_defaults(func=cmd_check)
+
+    capture = verbs.add_parser("capture", help="write a wire list from a known-good harness")
+    capture.add_argument("--out", type=Path, required=True)
+    capture.add_argument("--connectors", default="", help="comma-separated; default all pins")
+    _common(capture)
+    capture.set_defaults(func=cmd_capture)
+
+    sim = verbs.add_parser("sim", help="serve a harness as built on a virtual bench")
+    sim.add_argument("wire_list", type=Path)
+    sim.add_argument("--fixture", type=Path, required=True)
+    sim.add_argument("--fault", action="append", default=[], metavar="SPEC")
+    sim.add_argument("--ambient", type=float, default=23.0, help="degC (default 23)")
+    sim.add_argument("--probe", default="", help="FORCE_HI,SENSE_HI,FORCE_LO,SENSE_LO pins")
+    sim.add_argument("--station-out", type=Path, default=Path("rig-data/harness-station.toml"))
+    sim.add_argument("--seed", type=int, default=0)
+    sim.set_defaults(func=cmd_sim)
+
+
+def _common(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("--station", type=Path, required=True)
+    parser.add_argument("--serial", default="harness")
+    parser.add_argument("--operator", default="")
+    parser.add_argument("--ambient", required=True, help="ambient temperature, e.g. '23 degC'")
+    parser.add_argument("--json", action="store_true")
+
+
+def _sequence_text(keys: dict[str, object]) -> str:
+    lines = ["[sequence]", 'name = "rig harness"', "", "[[steps]]", 'id = "harness"']
+    lines.append('kind = "harness-proof"')
+    lines += [f"{key} = {json.dumps(value)}" for key, value in keys.items()]
+    return "\n".join(lines) + "\n"
+
+
+def _run(args: argparse.Namespace, out: Output, keys: dict[str, object], what: str) -> int:
+    from rig.cli import CAUTION, _exit_code
+    from rig.config.reader import TomlDoc
+    from rig.config.sequence import parse_sequence
+    from rig.config.station import load_station
+    from rig.plan import build_plan
+    from rig.runner import run_plan
+
+    station = load_station(args.station)
+    keys = {**keys, "temperature": args.ambient}
+    doc = TomlDoc(Path(f"rig harness {what} (command line)"), _sequence_text(keys))
+    sequence = parse_sequence(doc)
+    doc.raise_if_problems()
+    plan = build_plan(sequence, station)
+    if args.json:
+        out.quiet = True
+    else:
+        out.line(CAUTION)
+        out.line(HARNESS_CAUTION)
+    summary = run_plan(plan, args.serial, operator=args.operator, listener=out.on_event)
+    result = next((r for r in summary.results if r.step_id == "harness"), None)
+    findings = [] if result is None or not result.note else result.note.split("; ")
+    if args.json:
+        out.quiet = False
+        out.json(
+            {
+                "run_id": summary.run_id,
+                "status": summary.status,
+                "verdict": summary.verdict.value,
+                "reason": summary.reason,
+                "notes": findings,
+                "extras": {} if result is None else result.extras,
+                "store": str(station.store_path),
+            }
+        )
+    else:
+        out.line()
+        for text in findings:
+            out.line(f"  {text}")
+        out.line(f"verdict: {summary.verdict.value.upper()}  ({summary.status})")
+        if summary.reason:
+            out.line(f"reason: {summary.reason}")
+        out.line(f"record: run {summary.run_id} in {station.store_path}")
+    return _exit_code(summary.verdict, summary.status)
+
+
+def cmd_check(args: argparse.Namespace, out: Output) -> int:
+    from rig.config.station import load_station
+    from rig.harness.wire_list import load_wire_list
+
+    load_wire_list(args.wire_list, load_station(args.station).fixture)  # row-level errors first
+    keys = {
+        "wire_list": str(args.wire_list.resolve()),
+        "isolation_method": args.isolation_method,
+        "isolation": args.isolation,
+        "contact_allowance": args.contact_allowance,
+    }
+    return _run(args, out, keys, "check")
+
+
+def cmd_capture(args: argparse.Namespace, out: Output) -> int:
+    keys: dict[str, object] = {"capture_to": str(args.out.resolve())}
+    connectors = [c.strip() for c in args.connectors.split(",") if c.strip()]
+    if connectors:
+        keys["capture_connectors"] = connectors
+    return _run(args, out, keys, "capture")
+
+
+def cmd_sim(args: argparse.Namespace, out: Output) -> int:
+    from rig.config.fixture import load_fixture
+    from rig.errors import ConfigError, Problem
+    from rig.harness.as_built import parse_build_fault
+    from rig.harness.wire_list import load_wire_list
+    from rig.sim.harness_bench import harness_bench
+
+    fixture = load_fixture(args.fixture)
+    wires = load_wire_list(args.wire_list, fixture)
+    faults = [parse_build_fault(spec) for spec in args.fault]
+    probe = None
+    if args.probe:
+        pins = [p.strip() for p in args.probe.split(",")]
+        if len(pins) != 4 or any(p not in fixture.pins for p in pins):
+            raise ConfigError(
+                [Problem("--probe", args.probe, "expected four fixture pins FH,SH,FL,SL")]
+            )
+        probe = (pins[0], pins[1], pins[2], pins[3])
+    bench = harness_bench(
+        wires, fixture, faults, ambient_c=args.ambient, seed=args.seed, probe=probe
+    )
+    endpoints = bench.start()
+    try:
+        station = bench.write_station(args.station_out)
+        out.line(HARNESS_CAUTION)
+        rows = [
+            ("DMM", endpoints.dmm_resource),
+            ("supply", endpoints.supply_resource),
+            ("relay box", endpoints.relay_port),
+            ("faults", ", ".join(args.fault) or "none"),
+        ]
+        title = f"virtual bench: harness {wires.path.name} on fixture {fixture.name}"
+        serve_bench(out, title, rows, station)
+    finally:
+        bench.stop()
+    return 0

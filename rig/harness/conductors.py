@@ -1,0 +1,77 @@
+"""Continuity limits from conductor physics: copper resistance at the measured ambient plus a
+stated allowance per connector contact and per splice (pure).
+
+A row from a drawing gives gauge and length: R = rho20 L / A [1 + alpha20 (T - 20)] with annealed
+copper (IEC 60028, see ``rig.models.copper``).  A row captured from a known-good harness gives its
+measured resistance and the temperature it was measured at; it is moved to today's ambient with the
+same copper coefficient, and a stated tolerance is added for the spread between harnesses.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+from rig.harness.wire_list import WireRow
+from rig.models.copper import ALPHA20_PER_K, wire_resistance_ohm
+
+
+@dataclass(frozen=True)
+class Allowances:
+    """What the limit adds to the copper: per contact, per splice, and for a captured row."""
+
+    contact_ohm: float = 0.005
+    splice_ohm: float = 0.002
+    captured_pct: float = 10.0
+    two_wire_ohm: float = 0.0
+    """Added when a path is read 2-wire (the fixture lacks sense relays): leads and relays."""
+
+
+@dataclass(frozen=True)
+class PathLimit:
+    conductor_ohm: float
+    allowance_ohm: float
+
+    @property
+    def max_ohm(self) -> float:
+        return self.conductor_ohm + self.allowance_ohm
+
+
+def copper_factor(temp_c: float, from_c: float = 20.0, alpha20: float = ALPHA20_PER_K) -> float:
+    """R(temp_c) / R(from_c) for copper: [1 + a (T - 20)] / [1 + a (T0 - 20)]."""
+    return (1.0 + alpha20 * (temp_c - 20.0)) / (1.0 + alpha20 * (from_c - 20.0))
+
+
+def row_resistance_ohm(row: WireRow, temp_c: float) -> float:
+    """The conductor (drawing row) or the measured path (captured row) at ``temp_c``."""
+    if row.measured_ohm is not None:
+        return row.measured_ohm * copper_factor(temp_c, row.measured_at_c or 20.0)
+    if row.area_mm2 is None or row.length_m is None:
+        raise ValueError(f"row {row.line} has neither gauge and length nor a measured resistance")
+    return float(wire_resistance_ohm(row.length_m, row.area_mm2, temp_c))
+
+
+def path_limit(
+    rows: Sequence[WireRow], temp_c: float, allowances: Allowances, *, four_wire: bool = True
+) -> PathLimit:
+    """The most a path of rows may read end to end at ``temp_c``.
+
+    A drawing row brings its two contacts (one per fixture end); a splice end brings the splice
+    allowance once per splice passed; a captured row already contains its contacts and gets its
+    tolerance instead.
+    """
+    conductor = 0.0
+    allowance = 0.0 if four_wire else allowances.two_wire_ohm
+    splices: set[str] = set()
+    for row in rows:
+        r = row_resistance_ohm(row, temp_c)
+        conductor += r
+        if row.measured_ohm is not None:
+            allowance += r * allowances.captured_pct / 100.0 + allowances.contact_ohm
+        for end in row.ends:
+            if end.is_splice:
+                splices.add(end.name)
+            elif row.measured_ohm is None:
+                allowance += allowances.contact_ohm
+    allowance += allowances.splice_ohm * len(splices)
+    return PathLimit(conductor, allowance)

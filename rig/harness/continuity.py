@@ -1,0 +1,149 @@
+"""Continuity of each net: which pin pairs to read, 4-wire where the fixture allows, and the
+verdict of each reading against its conductor limit.
+
+A net is read from its first fixture pin to each of its other pins (a star), so a 2-pin net costs
+one reading.  4-wire needs DMM HI and sense HI on one end and DMM LO and sense LO on the other; the
+pair is turned round when only the other orientation has them, and read 2-wire (with the station's
+lead zero removed and the stated 2-wire allowance added to the limit) when neither has.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import TYPE_CHECKING, Protocol
+
+from drivers.base import MeterFunction
+from rig.config.fixture import Bus, FixtureMap
+from rig.harness.conductors import Allowances, PathLimit, path_limit
+from rig.harness.wire_list import Net, WireList
+from rig.judge.decision import DecisionRule, Limits, Verdict, judge
+from rig.routing import Route
+
+if TYPE_CHECKING:
+    from rig.steps.base import Reading
+
+COVERAGE_K = 2.0
+"""Coverage factor for the expanded uncertainty of a reading (JCGM 100:2008, 6.2)."""
+
+
+class MeasurePort(Protocol):
+    """What a harness scan needs of a bench: the engine's step context provides it."""
+
+    def connect(self, route: Route) -> None: ...
+
+    def measure(
+        self, function: MeterFunction, *, role: str, range_: float | None, nplc: float
+    ) -> Reading: ...
+
+    def lead_zero(self, hi: str, lo: str) -> float: ...
+
+
+@dataclass(frozen=True)
+class ContinuityCheck:
+    net: str
+    hi: str
+    lo: str
+    four_wire: bool
+    limit: PathLimit
+
+    @property
+    def route(self) -> Route:
+        if self.four_wire:
+            return Route.four_wire(self.hi, self.hi, self.lo, self.lo)
+        return Route.dmm(self.hi, self.lo)
+
+    @property
+    def function(self) -> MeterFunction:
+        return MeterFunction.RES_4W if self.four_wire else MeterFunction.RES_2W
+
+
+@dataclass(frozen=True)
+class ContinuityResult:
+    check: ContinuityCheck
+    reading: Reading
+    value_ohm: float
+    verdict: Verdict
+
+    @property
+    def reached(self) -> bool:
+        """A finite reading on the continuity range: the two pins are joined by a conductor."""
+        return math.isfinite(self.value_ohm)
+
+
+def _has(fixture: FixtureMap, pin: str, *buses: Bus) -> bool:
+    found = fixture.pins.get(pin)
+    return found is not None and all(b in found.relays for b in buses)
+
+
+def orientation(fixture: FixtureMap, a: str, b: str) -> tuple[str, str, bool]:
+    """(hi, lo, four_wire) for reading ``a`` to ``b``: 4-wire either way round if possible."""
+    if _has(fixture, a, Bus.DMM_HI, Bus.SENSE_HI) and _has(fixture, b, Bus.DMM_LO, Bus.SENSE_LO):
+        return a, b, True
+    if _has(fixture, b, Bus.DMM_HI, Bus.SENSE_HI) and _has(fixture, a, Bus.DMM_LO, Bus.SENSE_LO):
+        return b, a, True
+    return a, b, False
+
+
+def plan_net(
+    net: Net,
+    fixture: FixtureMap,
+    temp_c: float,
+    allowances: Allowances,
+    max_ohm: float | None = None,
+) -> list[ContinuityCheck]:
+    """The star of readings for one net; ``max_ohm`` overrides the computed limit."""
+    checks = []
+    first = net.pins[0]
+    for other in net.pins[1:]:
+        rows = net.path(first, other)
+        hi, lo, four = orientation(fixture, first, other)
+        limit = path_limit(rows, temp_c, allowances, four_wire=four)
+        if max_ohm is not None:
+            limit = PathLimit(max_ohm, 0.0)
+        checks.append(ContinuityCheck(net.name, hi, lo, four, limit))
+    return checks
+
+
+def plan_continuity(
+    wires: WireList,
+    fixture: FixtureMap,
+    temp_c: float,
+    allowances: Allowances,
+    net_limits: dict[str, float] | None = None,
+) -> list[ContinuityCheck]:
+    limits = net_limits or {}
+    return [
+        check
+        for net in wires.nets
+        for check in plan_net(net, fixture, temp_c, allowances, limits.get(net.name))
+    ]
+
+
+def run_continuity(
+    port: MeasurePort,
+    checks: list[ContinuityCheck],
+    *,
+    range_ohm: float,
+    nplc: float,
+    rule: DecisionRule = DecisionRule.SIMPLE,
+) -> list[ContinuityResult]:
+    results = []
+    for check in checks:
+        port.connect(check.route)
+        reading = port.measure(
+            check.function,
+            role=f"continuity {check.hi}>{check.lo}",
+            range_=range_ohm,
+            nplc=nplc,
+        )
+        value = reading.value
+        if not check.four_wire and math.isfinite(value):
+            value -= port.lead_zero(check.hi, check.lo)
+        expanded = COVERAGE_K * reading.u_std if math.isfinite(reading.u_std) else 0.0
+        if math.isfinite(check.limit.max_ohm):
+            verdict = judge(value, Limits(None, check.limit.max_ohm), expanded, rule)
+        else:  # capturing: no limit yet, only whether there is a reading
+            verdict = Verdict.PASS if math.isfinite(value) else Verdict.FAIL
+        results.append(ContinuityResult(check, reading, value, verdict))
+    return results

@@ -1,0 +1,240 @@
+"""Naming what is wrong with a harness in the words of its wire list (pure).
+
+The scan ends with the harness as measured: which fixture pins are joined (continuity, then the
+joins isolation found between islands).  Comparing that with the wire list's nets gives sentences:
+a wire end on the wrong pin ("J2-5 reaches J3-7, expected J3-8"), two ends swapped, a pin cut off
+at a splice, an open net, a net joined to another (a short) or to a spare pin, a net over its
+resistance limit.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable, Sequence
+from dataclasses import dataclass
+
+from rig.harness.continuity import ContinuityResult
+from rig.harness.isolation import Join
+from rig.harness.wire_list import Net, WireList
+from rig.judge.decision import Verdict
+from rig.quantity import format_quantity
+
+KINDS = ("high-resistance", "open", "splice", "miswire", "swap", "short", "stray")
+
+
+@dataclass(frozen=True)
+class Finding:
+    kind: str
+    text: str
+    pins: tuple[str, ...]
+    nets: tuple[str, ...] = ()
+
+
+def _ohm(value: float) -> str:
+    return format_quantity(value, "ohm", 3)
+
+
+def _connector(pin: str) -> str:
+    return pin.rsplit("-", 1)[0]
+
+
+def _pick(candidates: Iterable[str], near: str) -> str:
+    """The candidate on the same connector as ``near`` if there is one, else the first."""
+    ordered = sorted(candidates)
+    same = [p for p in ordered if _connector(p) == _connector(near)]
+    return (same or ordered)[0]
+
+
+class _Harness:
+    """The measured harness: islands of pins merged by the isolation joins."""
+
+    def __init__(self, islands: Sequence[tuple[str, ...]], joins: Sequence[Join]) -> None:
+        self.islands = islands
+        parent = list(range(len(islands)))
+
+        def find(i: int) -> int:
+            while parent[i] != i:
+                i = parent[i]
+            return i
+
+        for join in joins:
+            parent[find(join.a)] = find(join.b)
+        self.group_of_pin = {pin: find(i) for i, isl in enumerate(islands) for pin in isl}
+        self.group_pins: dict[int, set[str]] = {}
+        for pin, group in self.group_of_pin.items():
+            self.group_pins.setdefault(group, set()).add(pin)
+        self.island_of_pin = {pin: i for i, isl in enumerate(islands) for pin in isl}
+
+
+def name_findings(
+    wires: WireList,
+    islands: Sequence[tuple[str, ...]],
+    joins: Sequence[Join],
+    continuity: Sequence[ContinuityResult],
+) -> list[Finding]:
+    """Every fault the measurements show, in wire-list words."""
+    measured = _Harness(islands, joins)
+    net_of_pin = wires.net_of_pin()
+    findings = _over_limit(continuity, wires)
+    findings += _weak_joins(measured, joins, net_of_pin)
+    misplaced: list[tuple[str, str, str, str]] = []
+    for net in wires.nets:
+        findings += _split(net, measured, misplaced)
+    findings += _swaps_and_miswires(misplaced)
+    findings += _shorts(wires, measured, joins)
+    return findings
+
+
+def _over_limit(continuity: Sequence[ContinuityResult], wires: WireList) -> list[Finding]:
+    bad = (Verdict.FAIL, Verdict.CONDITIONAL_FAIL)
+    return [
+        Finding(
+            "high-resistance",
+            f"net {r.check.net}: {r.check.hi} to {r.check.lo} reads {_ohm(r.value_ohm)}, "
+            f"limit {_ohm(r.check.limit.max_ohm)}",
+            (r.check.hi, r.check.lo),
+            (r.check.net,),
+        )
+        for r in continuity
+        if r.reached and r.verdict in bad
+    ]
+
+
+def _weak_joins(
+    measured: _Harness, joins: Sequence[Join], net_of_pin: dict[str, Net]
+) -> list[Finding]:
+    """Two islands of one net joined only above the continuity range."""
+    found = []
+    for join in joins:
+        a, b = measured.islands[join.a][0], measured.islands[join.b][0]
+        net_a, net_b = net_of_pin.get(a), net_of_pin.get(b)
+        if net_a is not None and net_a is net_b:
+            a, b = sorted((a, b), key=net_a.pins.index)
+            found.append(
+                Finding(
+                    "high-resistance",
+                    f"net {net_a.name}: {a} reaches {b} only through {_ohm(join.r_ohm)}, "
+                    "above the continuity range",
+                    (a, b),
+                    (net_a.name,),
+                )
+            )
+    return found
+
+
+def _split(
+    net: Net, measured: _Harness, misplaced: list[tuple[str, str, str, str]]
+) -> list[Finding]:
+    """A net whose pins are not all joined: a misplaced end, a cut-off splice branch, an open."""
+    parts: dict[int, list[str]] = {}
+    for pin in net.pins:
+        parts.setdefault(measured.group_of_pin[pin], []).append(pin)
+    if len(parts) < 2:
+        return []
+    main = max(parts, key=lambda g: (len(parts[g]), net.pins[0] in parts[g]))
+    found = []
+    for group, pins in parts.items():
+        if group == main:
+            continue
+        b = pins[0]
+        a = min(parts[main], key=lambda p: len(net.path(p, b)))
+        foreign_main = measured.group_pins[main] - set(net.pins)
+        foreign_part = measured.group_pins[group] - set(net.pins)
+        if foreign_main:
+            misplaced.append((a, _pick(foreign_main, b), b, net.name))
+        elif foreign_part:
+            misplaced.append((b, _pick(foreign_part, a), a, net.name))
+        else:
+            splices = net.splices_between(a, b)
+            cut_off = ", ".join(pins)
+            rest = ", ".join(parts[main])
+            if splices:
+                found.append(
+                    Finding(
+                        "splice",
+                        f"{cut_off} does not reach {rest} of net {net.name}: missing splice or "
+                        f"broken branch at splice {splices[-1]}",
+                        (*pins, *parts[main]),
+                        (net.name,),
+                    )
+                )
+            else:
+                found.append(
+                    Finding(
+                        "open",
+                        f"net {net.name} open: {a} does not reach {b}",
+                        (a, b),
+                        (net.name,),
+                    )
+                )
+    return found
+
+
+def _swaps_and_miswires(misplaced: list[tuple[str, str, str, str]]) -> list[Finding]:
+    """Pair up 'a reaches d, expected b' with 'c reaches b, expected d': a swap."""
+    found = []
+    used: set[int] = set()
+    for i, (a, q, b, net) in enumerate(misplaced):
+        if i in used:
+            continue
+        partner = next(
+            (
+                j
+                for j, (_, q2, b2, _) in enumerate(misplaced)
+                if j != i and j not in used and q2 == b and b2 == q
+            ),
+            None,
+        )
+        if partner is not None:
+            c, _, d, other = misplaced[partner]
+            used |= {i, partner}
+            found.append(
+                Finding(
+                    "swap",
+                    f"{b} and {d} are swapped ({a} reaches {d}, expected {b}, and "
+                    f"{c} reaches {b}, expected {d})",
+                    (a, b, c, d),
+                    (net, other),
+                )
+            )
+        else:
+            used.add(i)
+            found.append(
+                Finding("miswire", f"{a} reaches {q}, expected {b} (net {net})", (a, q, b), (net,))
+            )
+    return found
+
+
+def _shorts(wires: WireList, measured: _Harness, joins: Sequence[Join]) -> list[Finding]:
+    """Whole nets joined to each other (a short) or to spare pins (a stray connection)."""
+    found = []
+    for group, pins in measured.group_pins.items():
+        whole = [net for net in wires.nets if set(net.pins) <= pins]
+        partial = [net for net in wires.nets if set(net.pins) & pins and not set(net.pins) <= pins]
+        spare = sorted(p for p in pins if p not in wires.net_of_pin())
+        r = _join_r(measured, joins, group)
+        if len(whole) >= 2:
+            names = " and ".join(n.name for n in whole)
+            found.append(
+                Finding(
+                    "short",
+                    f"nets {names} are joined ({r}): a short between them",
+                    tuple(n.pins[0] for n in whole),
+                    tuple(n.name for n in whole),
+                )
+            )
+        if whole and spare and not partial:
+            found.append(
+                Finding(
+                    "stray",
+                    f"net {whole[0].name} also reaches {', '.join(spare)}, where no wire is "
+                    f"expected ({r})",
+                    (whole[0].pins[0], *spare),
+                    (whole[0].name,),
+                )
+            )
+    return found
+
+
+def _join_r(measured: _Harness, joins: Sequence[Join], group: int) -> str:
+    inside = [j for j in joins if measured.group_of_pin[measured.islands[j.a][0]] == group]
+    return ", ".join(_ohm(j.r_ohm) for j in inside) or "no reading"

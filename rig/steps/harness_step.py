@@ -1,0 +1,196 @@
+"""The ``harness-proof`` step: a whole harness from its wire list, in one step.
+
+Continuity of every net against its copper limit at the measured ambient, isolation by group
+testing (or pair by pair), and the findings named in wire-list words.  The step's value is the
+number of findings (limit 0); every reading is stored by the engine as it is taken, and the
+per-net resistances, limits and the isolation proved per pair are kept in the step's extras.
+"""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+
+from drivers.base import MeterFunction
+from rig.config.reader import Section
+from rig.errors import ConfigError
+from rig.harness.capture import capture_harness, capture_pins
+from rig.harness.conductors import Allowances
+from rig.harness.isolation import cut_count, cut_sides
+from rig.harness.scan import METHODS, HarnessReport, HarnessSettings, scan_harness
+from rig.harness.wire_list import WireList, join_problems, load_wire_list, write_wire_list
+from rig.judge.decision import Limits
+from rig.quantity import format_quantity
+from rig.routing import Route
+from rig.steps.base import Outcome, StepKind, StepSpec
+from rig.steps.context import StepContext
+from rig.steps.model_steps import _temperature, _temperature_source
+
+
+def read_harness_keys(sec: Section, spec: StepSpec, base: Path) -> None:
+    """The keys a harness check shares between the step and the ``rig harness`` command."""
+    capture = sec.string("capture_to", "")
+    if capture:
+        spec.params["capture_to"] = (base / capture).resolve()
+        spec.params["capture_connectors"] = sec.string_list("capture_connectors", None)
+    text = sec.string("wire_list", "" if capture else None)
+    if text:
+        try:
+            spec.params["wires"] = load_wire_list((base / text).resolve())
+        except ConfigError as exc:
+            sec.doc.problems.extend(exc.problems)
+    spec.params["allowances"] = Allowances(
+        contact_ohm=sec.quantity("contact_allowance", "ohm", 0.005),
+        splice_ohm=sec.quantity("splice_allowance", "ohm", 0.002),
+        captured_pct=sec.quantity("captured_tolerance", "%", 10.0),
+        two_wire_ohm=sec.quantity("two_wire_allowance", "ohm", 0.2),
+    )
+    spec.params["isolation_ohm"] = sec.quantity("isolation", "ohm", 1e6, positive=True)
+    spec.params["method"] = sec.string("isolation_method", "groups", choices=METHODS)
+    spec.params["continuity_range"] = sec.quantity("continuity_range", "ohm", 100.0, positive=True)
+    spec.params["isolation_range"] = sec.quantity("isolation_range", "ohm", 1e7, positive=True)
+    limits: dict[str, float] = {}
+    table = sec.table("net_limits")
+    if table is not None:
+        for net in list(table.data):
+            value = table.quantity(net, "ohm", None, positive=True)
+            if value is not None:
+                limits[net] = value
+        wires = spec.params.get("wires")
+        if isinstance(wires, WireList):
+            known = {n.name for n in wires.nets}
+            for net in limits:
+                if net not in known:
+                    table.problem(net, f"no net {net!r} in the wire list; nets: {_few(known)}")
+    spec.params["net_limits"] = limits
+
+
+def _few(names: set[str]) -> str:
+    ordered = sorted(names)
+    return ", ".join(ordered[:8]) + (" ..." if len(ordered) > 8 else "")
+
+
+def settings_from(spec: StepSpec, temp_c: float) -> HarnessSettings:
+    return HarnessSettings(
+        temp_c=temp_c,
+        allowances=spec.params["allowances"],
+        isolation_ohm=float(spec.params["isolation_ohm"]),
+        method=str(spec.params["method"]),
+        continuity_range_ohm=float(spec.params["continuity_range"]),
+        isolation_range_ohm=float(spec.params["isolation_range"]),
+        nplc=spec.nplc,
+        net_limits=dict(spec.params["net_limits"]),
+        rule=spec.rule,
+    )
+
+
+def report_outcome(report: HarnessReport, settings: HarnessSettings, unit: str) -> Outcome:
+    """The step's value (findings, limit 0), the findings in words, and the figures as extras."""
+    nets = {r.check.net for r in report.continuity}
+    extras: dict[str, float] = {
+        "nets": float(len(nets)),
+        "islands": float(len(report.islands)),
+        "temperature_c": settings.temp_c,
+        "continuity_readings": float(report.continuity_readings),
+        "isolation_readings": float(report.isolation_readings),
+        "pairwise_readings": float(len(report.islands) * (len(report.islands) - 1) // 2),
+    }
+    for r in report.continuity:
+        key = f"net {r.check.net} {r.check.hi}>{r.check.lo}"
+        extras[f"{key} ohm"] = r.value_ohm
+        extras[f"{key} max_ohm"] = r.check.limit.max_ohm
+    if report.isolation is not None:
+        extras["isolation_proven_ohm"] = report.isolation.proven_ohm
+    words = [f.text for f in report.findings]
+    if report.isolation is not None and math.isfinite(report.isolation.proven_ohm):
+        which = "nets not named above" if words else "nets"
+        words.append(
+            f"isolation proved per pair of {which}: at least "
+            f"{format_quantity(report.isolation.proven_ohm, 'ohm', 3)} "
+            f"({report.isolation_readings} readings, pair by pair "
+            f"{int(extras['pairwise_readings'])})"
+        )
+    return Outcome(
+        float(len(report.findings)),
+        unit,
+        0.0,
+        Limits(None, 0.0),
+        extras=extras,
+        note="; ".join(words),
+    )
+
+
+class HarnessProof(StepKind):
+    """Prove a harness against its wire list (continuity, isolation, miswires)."""
+
+    name = "harness-proof"
+    unit = "faults"
+    function = MeterFunction.RES_4W
+    limits_in_meter_units = False
+    overload_is_a_result = True
+
+    def parse(self, sec: Section, spec: StepSpec) -> None:
+        read_harness_keys(sec, spec, sec.doc.path.parent)
+        _temperature_source(sec, spec)
+        spec.limits = None if spec.params.get("capture_to") else Limits(None, 0.0)
+
+    def routes(self, spec: StepSpec) -> list[Route]:
+        """Continuity (as 2-wire pairs) and the first isolation cuts, for planning: pins and
+        interlocks are checked before the run; the adaptive readings are decided as it goes."""
+        wires = spec.params.get("wires")
+        if not isinstance(wires, WireList):
+            return []
+        routes = [Route.dmm(net.pins[0], other) for net in wires.nets for other in net.pins[1:]]
+        firsts = [net.pins[0] for net in wires.nets]
+        for j in range(cut_count(len(firsts))):
+            hi, lo = cut_sides(len(firsts), j)
+            routes.append(
+                Route.ganged_dmm([firsts[i] for i in sorted(hi)], [firsts[i] for i in sorted(lo)])
+            )
+        return routes
+
+    def run(self, ctx: StepContext, spec: StepSpec) -> Outcome:
+        if spec.params.get("capture_to"):
+            return self._capture(ctx, spec)
+        wires: WireList = spec.params["wires"]
+        problems = join_problems(wires, ctx.fixture)
+        if problems:
+            raise ConfigError(problems)
+        ctx.power(None)
+        temp_c, _ = _temperature(ctx, spec)
+        settings = settings_from(spec, temp_c)
+        report = scan_harness(ctx, wires, ctx.fixture, settings)
+        return report_outcome(report, settings, self.unit)
+
+    def _capture(self, ctx: StepContext, spec: StepSpec) -> Outcome:
+        """Scan the fixture's pins, measure every join found and write them as a wire list."""
+        ctx.power(None)
+        temp_c, _ = _temperature(ctx, spec)
+        settings = settings_from(spec, temp_c)
+        pins = capture_pins(ctx.fixture, spec.params.get("capture_connectors"))
+        found = capture_harness(ctx, ctx.fixture, pins, settings)
+        path: Path = spec.params["capture_to"]
+        write_wire_list(
+            path,
+            found.rows,
+            [
+                f"Captured by rig from a harness on fixture {ctx.fixture.name!r} at "
+                f"{temp_c:.1f} degC: {len(found.discovery.groups)} nets on {len(pins)} pins.",
+                "Rows are measured paths from each net's first pin; measured_ohm includes "
+                "the contacts.",
+            ],
+        )
+        nets = float(len(found.discovery.groups))
+        return Outcome(
+            nets,
+            "nets",
+            0.0,
+            None,
+            extras={
+                "pins": float(len(pins)),
+                "rows": float(len(found.rows)),
+                "discovery_readings": float(len(found.discovery.readings)),
+                "temperature_c": temp_c,
+            },
+            note=f"wrote {len(found.rows)} rows of {int(nets)} nets to {path}",
+        )

@@ -1,0 +1,80 @@
+"""Continuity limits against published copper figures."""
+
+from __future__ import annotations
+
+import math
+
+import pytest
+
+from rig.harness.conductors import Allowances, copper_factor, path_limit, row_resistance_ohm
+from rig.harness.wire_list import End, WireRow
+from rig.models.copper import area_from_gauge
+
+# Solid annealed copper at 20 degC, ohm per km.  16, 18 and 20 AWG: the handbook AWG table as
+# given in SOURCES.md ("Copper conductors"), recomputed there from the ASTM B258 diameter and the
+# IEC 60028 resistivity.  14 and 22 AWG: NIST Handbook 100 (Copper Wire Tables), 2.525 and 16.14
+# ohm per 1000 ft at 20 degC, converted to ohm per km (values from memory).
+AWG_OHM_PER_KM = {14: 8.284, 16: 13.17, 18: 20.95, 20: 33.30, 22: 52.95}
+
+# IEC 60028: annealed copper 1/58 ohm mm2/m at 20 degC; alpha20 = 0.00393 /K (SOURCES.md, the
+# coefficient from memory; IEC 60228 Annex B fits about 0.004 /K, so these checks assume 0.00393).
+RHO20 = 1 / 58
+ALPHA20 = 0.00393
+
+
+def _row(gauge: str, length_m: float) -> WireRow:
+    return WireRow(
+        line=2,
+        wire="W1",
+        start=End("J1", "1"),
+        end=End("J2", "1"),
+        gauge=gauge,
+        area_mm2=area_from_gauge(gauge),
+        length_m=length_m,
+    )
+
+
+@pytest.mark.parametrize(("awg", "ohm_per_km"), sorted(AWG_OHM_PER_KM.items()))
+def test_awg_conductor_matches_the_published_table(awg: int, ohm_per_km: float) -> None:
+    r = row_resistance_ohm(_row(f"{awg} AWG", 1000.0), 20.0)
+    assert r == pytest.approx(ohm_per_km, rel=2e-3)
+
+
+def test_one_square_millimetre_metre_is_the_iec_60028_resistivity() -> None:
+    assert row_resistance_ohm(_row("1 mm2", 1.0), 20.0) == pytest.approx(0.017241, rel=1e-4)
+
+
+@pytest.mark.parametrize("temp_c", [-20.0, 0.0, 23.0, 35.0, 60.0])
+def test_resistance_follows_the_copper_coefficient(temp_c: float) -> None:
+    # R_T = R20 [1 + alpha20 (T - 20)] (IEC 60028 resistivity; alpha20 as stated above)
+    expected = RHO20 * 2.5 / 0.5 * (1 + ALPHA20 * (temp_c - 20.0))
+    assert row_resistance_ohm(_row("0.5 mm2", 2.5), temp_c) == pytest.approx(expected, rel=1e-9)
+
+
+def test_limit_is_copper_at_ambient_plus_one_allowance_per_contact_and_splice() -> None:
+    allowances = Allowances(contact_ohm=0.005, splice_ohm=0.002)
+    a = WireRow(2, "Wa", End("J1", "10"), End("SP1", ""), "2.5 mm2", 2.5, 1.2)
+    b = WireRow(3, "Wb", End("SP1", ""), End("J2", "8"), "1.5 mm2", 1.5, 1.3)
+    limit = path_limit([a, b], 28.0, allowances)
+    copper = RHO20 * (1.2 / 2.5 + 1.3 / 1.5) * (1 + ALPHA20 * 8.0)
+    assert limit.conductor_ohm == pytest.approx(copper, rel=1e-9)
+    # two fixture contacts (J1-10, J2-8) and one splice
+    assert limit.allowance_ohm == pytest.approx(2 * 0.005 + 0.002)
+    assert limit.max_ohm == pytest.approx(copper + 0.012)
+
+
+def test_two_wire_path_adds_the_stated_two_wire_allowance() -> None:
+    allowances = Allowances(two_wire_ohm=0.2)
+    four = path_limit([_row("18 AWG", 2.0)], 20.0, allowances, four_wire=True)
+    two = path_limit([_row("18 AWG", 2.0)], 20.0, allowances, four_wire=False)
+    assert two.max_ohm - four.max_ohm == pytest.approx(0.2)
+
+
+def test_captured_row_moves_to_todays_ambient_with_the_copper_coefficient() -> None:
+    row = WireRow(2, "C1", End("J1", "1"), End("J2", "1"), measured_ohm=0.050, measured_at_c=20.0)
+    at_30 = row_resistance_ohm(row, 30.0)
+    assert at_30 == pytest.approx(0.050 * (1 + ALPHA20 * 10.0), rel=1e-9)
+    limit = path_limit([row], 30.0, Allowances(contact_ohm=0.005, captured_pct=10.0))
+    assert limit.max_ohm == pytest.approx(at_30 * 1.10 + 0.005)
+    assert copper_factor(20.0, 20.0) == 1.0
+    assert math.isclose(copper_factor(20.0, 30.0) * copper_factor(30.0, 20.0), 1.0)

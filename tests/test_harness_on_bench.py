@@ -1,0 +1,183 @@
+"""Harness checks end to end on the virtual bench: pyvisa-py over TCP to the DMM, pyserial on a
+pty to the relay box, a real SQLite store; through ``rig run`` and ``rig harness``."""
+
+from __future__ import annotations
+
+import json
+import sqlite3
+from collections.abc import Iterator
+from contextlib import contextmanager
+from pathlib import Path
+
+import pytest
+from harness_helpers import one_blas_thread, plant_faults
+
+from rig.cli import EXIT_BAD_INPUT, EXIT_FAIL, EXIT_PASS, main
+from rig.config.fixture import load_fixture
+from rig.config.station import load_station
+from rig.harness.as_built import BuildFault
+from rig.harness.conductors import Allowances, path_limit
+from rig.harness.scan import spare_pins
+from rig.harness.wire_list import WireList, load_wire_list
+from rig.judge.decision import Verdict
+from rig.runner import load_plan, run_plan
+from rig.sim.bench import VirtualBench
+from rig.sim.harness_bench import harness_bench, write_invented
+
+one_blas_thread()
+
+SHIPPED = Path(__file__).resolve().parent.parent / "sequences" / "harness"
+PROBE = ("PT_FH", "PT_SH", "PT_FL", "PT_SL")
+
+
+@contextmanager
+def served(bench: VirtualBench, folder: Path) -> Iterator[Path]:
+    bench.start()
+    try:
+        yield bench.write_station(folder / "station.toml", data_dir=str(folder / "data"))
+    finally:
+        bench.stop()
+
+
+def _shipped(faults: list[BuildFault], ambient_c: float = 27.0) -> tuple[WireList, VirtualBench]:
+    fixture = load_fixture(SHIPPED / "fixture.toml")
+    wires = load_wire_list(SHIPPED / "wire-list.csv", fixture)
+    bench = harness_bench(wires, fixture, faults, ambient_c=ambient_c, seed=4, probe=PROBE)
+    return wires, bench
+
+
+def _readings(store: Path, run_id: int) -> list[tuple[str, float | None, int]]:
+    with sqlite3.connect(store) as db:
+        rows = db.execute(
+            "SELECT role, value, settled FROM readings WHERE run_id=? AND step_id='harness'",
+            (run_id,),
+        )
+        return [(str(r[0]), r[1], int(r[2])) for r in rows]
+
+
+def test_shipped_sequence_passes_a_good_harness_with_limits_at_the_measured_ambient(
+    tmp_path: Path,
+) -> None:
+    wires, bench = _shipped([], ambient_c=27.0)
+    with served(bench, tmp_path) as station_path:
+        plan = load_plan(SHIPPED / "harness-proof.toml", load_station(station_path))
+        summary = run_plan(plan, "H-GOOD")
+        assert bench.relay_box.closed() == frozenset()
+    assert summary.verdict is Verdict.PASS, [
+        (r.step_id, r.verdict, r.value, r.note) for r in summary.results
+    ]
+    ambient, harness = summary.results
+    assert ambient.value == pytest.approx(27.0, abs=0.3)
+    extras = harness.extras
+    assert extras["temperature_c"] == ambient.value
+    # the limit the step used is copper at the measured ambient plus two 5 mohm contacts
+    net = next(n for n in wires.nets if n.name == "LAMP_L")
+    expected = path_limit(net.rows, ambient.value, Allowances(contact_ohm=0.005)).max_ohm
+    assert extras["net LAMP_L J1-1>J2-1 max_ohm"] == pytest.approx(expected)
+    assert extras["net GROUND J1-10>J2-8 max_ohm"] == pytest.approx(0.060)
+    assert extras["isolation_readings"] == 4  # ceil(log2 13): 10 nets and 3 spare pins
+    assert extras["isolation_proven_ohm"] >= 1e6
+    assert "isolation proved per pair" in harness.note
+    rows = _readings(plan.station.store_path, summary.run_id)
+    settled = [r for r in rows if r[2]]
+    assert len(settled) == extras["continuity_readings"] + extras["isolation_readings"]
+    assert len(rows) >= len(settled)
+
+
+def test_shipped_sequence_names_a_swap_and_a_missing_splice(tmp_path: Path) -> None:
+    faults = [BuildFault("swap", "W4", other="W5"), BuildFault("missing-splice", "W10c")]
+    _, bench = _shipped(faults)
+    with served(bench, tmp_path) as station_path:
+        summary = run_plan(load_plan(SHIPPED / "harness-proof.toml", station_path), "H-BAD")
+    harness = summary.results[-1]
+    assert harness.verdict is Verdict.FAIL
+    assert harness.value == 2
+    assert "J2-4 and J2-5 are swapped (J1-4 reaches J2-5, expected J2-4" in harness.note
+    assert "J3-4 does not reach J1-10, J2-8 of net GROUND" in harness.note
+
+
+def test_group_isolation_through_the_real_stack_agrees_with_pair_by_pair(tmp_path: Path) -> None:
+    wires, fixture = write_invented(tmp_path / "list", 16, seed=9, spare=0)
+    faults = [BuildFault("short", "W3", other="W11"), BuildFault("short", "W6", other="W7")]
+    bench = harness_bench(wires, fixture, faults, seed=9)
+    results = {}
+    with served(bench, tmp_path) as station:
+        for method in ("groups", "pairs"):
+            code = main(
+                [
+                    "harness",
+                    "check",
+                    str(wires.path),
+                    "--station",
+                    str(station),
+                    "--ambient",
+                    "23 degC",
+                    "--isolation-method",
+                    method,
+                    "--json",
+                ]
+            )
+            assert code == EXIT_FAIL
+            results[method] = code
+    store = tmp_path / "data" / "results.sqlite"
+    with sqlite3.connect(store) as db:
+        notes = [r[0] for r in db.execute("SELECT note FROM steps ORDER BY run_id")]
+        counts = dict(
+            db.execute(
+                "SELECT run_id, COUNT(*) FROM readings WHERE settled=1 AND role LIKE 'isolation%'"
+                " GROUP BY run_id"
+            ).fetchall()
+        )
+    shorts = [
+        sorted(t.split(" are joined")[0] for t in n.split("; ") if "short" in t) for n in notes
+    ]
+    assert shorts[0] == shorts[1] == ["nets N3 and N11", "nets N6 and N7"]
+    # each short is read again on the continuity range: a 10 mohm touch between the wire
+    # midpoints plus half of each wire and its contacts (invented figures), well under 1 ohm
+    assert all("mohm)" in t for n in notes for t in n.split("; ") if "short" in t)
+    assert counts[1] <= 16 + 4 + 4 * 2 * 4  # N + log2 N + 4 k log2 N
+    assert counts[2] == 16 * 15 // 2
+
+
+def test_capture_a_good_harness_then_check_others_against_it(tmp_path: Path, capsys) -> None:  # type: ignore[no-untyped-def]
+    wires, fixture = write_invented(tmp_path / "list", 8, seed=2, splices=1, spare=1)
+    captured = tmp_path / "captured.csv"
+    with served(harness_bench(wires, fixture, seed=2, ambient_c=20.0), tmp_path / "a") as st:
+        args = ["harness", "capture", "--station", str(st), "--out", str(captured)]
+        code = main([*args, "--ambient", "20 degC", "--json"])
+        assert code == EXIT_PASS
+    report = json.loads(capsys.readouterr().out)
+    assert report["extras"]["discovery_readings"] < 19 * 18 // 2  # pins: 8 + 8 + 1 + 1 spare
+    found = load_wire_list(captured, fixture)
+    assert sorted(n.pins for n in found.nets) == sorted(n.pins for n in wires.nets)
+    row = next(r for r in found.rows if r.start.name == "A-2")
+    assert row.measured_ohm is not None and row.measured_at_c == 20.0
+    # a later harness, warmer, is checked against the capture: good passes, a bad crimp fails
+    for faults, expected in (([], EXIT_PASS), ([BuildFault("high", "W2", ohm=0.3)], EXIT_FAIL)):
+        bench = harness_bench(wires, fixture, faults, seed=5, ambient_c=30.0)
+        with served(bench, tmp_path / f"b{len(faults)}") as st:
+            args = ["harness", "check", str(captured), "--station", str(st)]
+            code = main([*args, "--ambient", "30 degC", "--json"])
+        out = json.loads(capsys.readouterr().out)
+        assert code == expected, out["notes"]
+    assert any("net N2: A-2 to B-2 reads" in n for n in out["notes"])
+
+
+def test_bad_wire_list_is_reported_by_row_column_and_value(tmp_path: Path, capsys) -> None:  # type: ignore[no-untyped-def]
+    wires, fixture = write_invented(tmp_path / "list", 8, seed=1, spare=0)
+    text = wires.path.read_text(encoding="utf-8").replace("B,3,", "B,99,")
+    bad = tmp_path / "bad.csv"
+    bad.write_text(text, encoding="utf-8")
+    with served(harness_bench(wires, fixture), tmp_path / "a") as st:
+        code = main(["harness", "check", str(bad), "--station", str(st), "--ambient", "20 degC"])
+    err = capsys.readouterr().err
+    assert code == EXIT_BAD_INPUT
+    assert "column to_pin" in err and "B-99 is not a pin" in err
+    assert "Traceback" not in err
+
+
+def test_spare_pins_are_the_unused_cavities_of_the_harness_connectors() -> None:
+    fixture = load_fixture(SHIPPED / "fixture.toml")
+    wires = load_wire_list(SHIPPED / "wire-list.csv", fixture)
+    assert spare_pins(wires, fixture) == ["J1-11", "J1-12", "J2-7"]
+    assert plant_faults(10, 0, [], 0)  # the helper plants at least one fault
