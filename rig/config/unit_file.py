@@ -14,8 +14,10 @@ from pathlib import Path
 
 from rig.config.reader import Section, TomlDoc
 from rig.models.copper import area_from_gauge
+from rig.quantity import QuantityError, parse_quantity
 
 SENSOR_KINDS = ("ntc", "ratiometric", "potentiometer", "switch")
+PROBE_CLASSES = ("AA", "A", "B")
 
 
 @dataclass(frozen=True)
@@ -26,6 +28,9 @@ class Wire:
     area_mm2: float
     length_m: float
     gauge: str
+    length_tolerance_pct: float = 0.0
+    area_tolerance_pct: float = 0.0
+    """Cross-section tolerance: how far the conductor may stray from its nominal gauge."""
 
 
 @dataclass(frozen=True)
@@ -81,6 +86,8 @@ class RatiometricSensor:
     pressure_pa: float | None = None
     quiescent_a: float = 0.005
     r_out_ohm: float = 100.0
+    fraction_tolerance_pct: float = 0.0
+    """How far its output fraction may stray from the transfer, in percentage points."""
 
 
 @dataclass(frozen=True)
@@ -115,6 +122,8 @@ class ReferenceProbe:
     sense_lo: str
     r0_ohm: float = 100.0
     lead_ohm: float = 0.1
+    tolerance_class: str | None = None
+    """IEC 60751 class ("AA", "A", "B"); None: taken as exact."""
 
 
 @dataclass
@@ -133,6 +142,8 @@ class UnitModel:
     fixture_path: Path
     description: str = ""
     ambient_c: float = 23.0
+    ambient_range_c: tuple[float, float] | None = None
+    """Where the ambient may lie on the floor (Monte Carlo limits); None: exactly ``ambient_c``."""
     pressure_pa: float = 101_325.0
     controller: Controller | None = None
     wires: dict[str, Wire] = field(default_factory=dict)
@@ -187,8 +198,32 @@ def _between(section: Section, name: str = "between") -> tuple[str, str]:
 
 
 def _percent(section: Section, name: str) -> float:
+    """A tolerance in %: 0 or above and under 100 %."""
     value = section.quantity(name, "%", None)
+    if value is not None and not 0.0 <= value < 100.0:
+        section.problem(name, f"expected a tolerance from 0 % to under 100 %, found {value:g} %")
+        return 0.0
     return 0.0 if value is None else float(value)
+
+
+def _temperature_range(section: Section, name: str) -> tuple[float, float] | None:
+    """Two temperatures, low first: ``["18 degC", "28 degC"]``."""
+    raw = section.raw(name)
+    if raw is None:
+        return None
+    try:
+        if not isinstance(raw, list) or len(raw) != 2:
+            raise QuantityError(
+                f"expected two temperatures such as ['18 degC', '28 degC'], found {raw!r}"
+            )
+        low, high = (parse_quantity(v, "degC") for v in raw)
+    except QuantityError as exc:
+        section.problem(name, str(exc))
+        return None
+    if not low < high:
+        section.problem(name, f"expected the lower temperature first, found {raw!r}")
+        return None
+    return low, high
 
 
 def parse_unit(doc: TomlDoc) -> UnitModel:
@@ -209,6 +244,14 @@ def parse_unit(doc: TomlDoc) -> UnitModel:
     if ambient:
         unit.ambient_c = ambient.quantity("temperature", "degC", 23.0)
         unit.pressure_pa = ambient.quantity("pressure", "Pa", 101_325.0, positive=True)
+        unit.ambient_range_c = _temperature_range(ambient, "temperature_range")
+        if unit.ambient_range_c and not (
+            unit.ambient_range_c[0] <= unit.ambient_c <= unit.ambient_range_c[1]
+        ):
+            ambient.problem(
+                "temperature_range",
+                f"the temperature ({unit.ambient_c:g} degC) must lie inside temperature_range",
+            )
         ambient.reject_unknown()
 
     controller = root.table("controller")
@@ -236,7 +279,16 @@ def parse_unit(doc: TomlDoc) -> UnitModel:
             except ValueError as exc:
                 sec.problem("gauge", str(exc))
         length = sec.quantity("length", "m", positive=True) or 0.0
-        unit.wires[wire_name] = Wire(wire_name, a, b, area, length, gauge)
+        unit.wires[wire_name] = Wire(
+            wire_name,
+            a,
+            b,
+            area,
+            length,
+            gauge,
+            length_tolerance_pct=_percent(sec, "length_tolerance"),
+            area_tolerance_pct=_percent(sec, "area_tolerance"),
+        )
         sec.reject_unknown()
 
     for res_name, sec in root.named_tables("resistors"):
@@ -266,6 +318,7 @@ def parse_unit(doc: TomlDoc) -> UnitModel:
             sense_lo=probe.string("sense_lo") or "?",
             r0_ohm=probe.quantity("r0", "ohm", 100.0, positive=True),
             lead_ohm=probe.quantity("lead_resistance", "ohm", 0.1, positive=True),
+            tolerance_class=probe.string("tolerance_class", None, choices=PROBE_CLASSES),
         )
         probe.reject_unknown()
 
@@ -318,6 +371,7 @@ def _parse_sensor(name: str, sec: Section) -> Sensor | None:
             pressure_pa=sec.quantity("pressure", "Pa", None),
             quiescent_a=sec.quantity("quiescent_current", "A", 0.005, positive=True),
             r_out_ohm=sec.quantity("output_resistance", "ohm", 100.0, positive=True),
+            fraction_tolerance_pct=_percent(sec, "fraction_tolerance"),
         )
     if kind == "potentiometer":
         a, b = _between(sec)

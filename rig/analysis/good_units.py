@@ -1,0 +1,158 @@
+"""Good units drawn at random: every part somewhere inside the tolerance its unit file states.
+
+How each tolerance is drawn, and why, travels with the draws (``Draw``) so that every report can
+say it.  Pure computation.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass
+
+import numpy as np
+import numpy.typing as npt
+
+from rig.config.unit_file import NtcSensor, RatiometricSensor, UnitModel
+from rig.models.copper import wire_resistance_ohm
+from rig.models.ratiometric import Ratiometric
+from rig.models.rtd import Rtd
+from rig.unit_circuit import ntc_model
+
+FloatArray = npt.NDArray[np.float64]
+
+IEC_60751_CLASSES = {"AA": (0.10, 0.0017), "A": (0.15, 0.002), "B": (0.30, 0.005)}
+"""Tolerance class of a platinum RTD: +-(a + b |t|) degC (IEC 60751)."""
+
+UNIFORM = "uniform"
+UNIFORM_PART = (
+    "uniform within the stated ± tolerance: a tolerance is a bound and says nothing more about "
+    "where inside it a part lies (rectangular distribution, GUM 4.3.7; common practice)"
+)
+UNIFORM_AMBIENT = "uniform over the stated range: a unit may be tested anywhere in it"
+UNIFORM_METER = (
+    "uniform within ± the data sheet's (% of reading + % of range), per reading: the same "
+    "rectangular model rig's judge uses for the meter (GUM 4.3.7)"
+)
+
+
+@dataclass(frozen=True)
+class Draw:
+    """How one tolerance is drawn, and why that way, for the report."""
+
+    what: str
+    spread: str
+    distribution: str
+    why: str
+
+
+@dataclass
+class Samples:
+    """One block of drawn units: element values (ohm or volt) and the ambient, per sample."""
+
+    n: int
+    values: dict[str, FloatArray]
+    ambient_c: FloatArray
+
+
+class GoodUnitSampler:
+    """Draws units that are good by definition: every part somewhere inside its tolerance."""
+
+    def __init__(self, unit: UnitModel) -> None:
+        self.unit = unit
+        self.draws: list[Draw] = []
+        if unit.ambient_range_c is not None:
+            low, high = unit.ambient_range_c
+            self.draws.append(
+                Draw("ambient", f"{low:g} to {high:g} degC", UNIFORM, UNIFORM_AMBIENT)
+            )
+        self._list_part_draws()
+
+    def _list_part_draws(self) -> None:
+        u = self.unit
+        parts: list[tuple[str, float]] = []
+        for w in u.wires.values():
+            parts += [(f"wires.{w.name}.length", w.length_tolerance_pct)]
+            parts += [(f"wires.{w.name}.area", w.area_tolerance_pct)]
+        parts += [(f"resistors.{r.name}", r.tolerance_pct) for r in u.resistors.values()]
+        for s in u.controller.sources if u.controller else []:
+            parts += [(f"controller.sources.{s.name}", s.tolerance_pct)]
+        for sensor in u.sensors.values():
+            if isinstance(sensor, NtcSensor):
+                parts += [(f"sensors.{sensor.name}.r25", sensor.r25_tolerance_pct)]
+                parts += [(f"sensors.{sensor.name}.beta", sensor.beta_tolerance_pct)]
+        for what, pct in parts:
+            if pct:
+                self.draws.append(Draw(what, f"±{pct:g} %", UNIFORM, UNIFORM_PART))
+        for sensor in u.sensors.values():
+            if isinstance(sensor, RatiometricSensor) and sensor.fraction_tolerance_pct:
+                spread = f"±{sensor.fraction_tolerance_pct:g} percentage points of supply"
+                self.draws.append(
+                    Draw(f"sensors.{sensor.name}.fraction", spread, UNIFORM, UNIFORM_PART)
+                )
+        if u.probe is not None and u.probe.tolerance_class:
+            a, b = IEC_60751_CLASSES[u.probe.tolerance_class]
+            spread = f"class {u.probe.tolerance_class}: ±({a:g} + {b:g}|t|) degC (IEC 60751)"
+            self.draws.append(Draw("reference_probe", spread, UNIFORM, UNIFORM_PART))
+
+    def sample(self, rng: np.random.Generator, n: int) -> Samples:
+        u = self.unit
+        if u.ambient_range_c is None:
+            ambient = np.full(n, u.ambient_c)
+        else:
+            ambient = rng.uniform(*u.ambient_range_c, size=n)
+        values: dict[str, FloatArray] = {}
+
+        def spread(pct: float) -> FloatArray:
+            return 1.0 + rng.uniform(-pct, pct, size=n) / 100.0 if pct else np.ones(n)
+
+        for w in u.wires.values():
+            length = w.length_m * spread(w.length_tolerance_pct)
+            area = w.area_mm2 * spread(w.area_tolerance_pct)
+            values[f"wire:{w.name}"] = np.asarray(
+                wire_resistance_ohm(length, area, ambient), dtype=np.float64
+            )
+        for r in u.resistors.values():
+            if r.tolerance_pct:
+                values[f"res:{r.name}"] = r.r_ohm * spread(r.tolerance_pct)
+        for s in u.controller.sources if u.controller else []:
+            if s.tolerance_pct:
+                values[f"src:{s.name}"] = s.volts * spread(s.tolerance_pct)
+        for sensor in u.sensors.values():
+            if isinstance(sensor, NtcSensor):
+                values[f"ntc:{sensor.name}"] = _ntc_r(sensor, ambient, spread)
+            elif isinstance(sensor, RatiometricSensor) and sensor.fraction_tolerance_pct:
+                t = sensor.fraction_tolerance_pct
+                nominal = _fraction(sensor, u.pressure_pa)
+                values[f"rat:{sensor.name}:gain"] = nominal + rng.uniform(-t, t, size=n) / 100.0
+        if u.probe is not None:
+            temp = ambient
+            if u.probe.tolerance_class:
+                a, b = IEC_60751_CLASSES[u.probe.tolerance_class]
+                temp = ambient + (a + b * np.abs(ambient)) * rng.uniform(-1.0, 1.0, size=n)
+            values["probe:element"] = np.asarray(
+                Rtd(r0_ohm=u.probe.r0_ohm).r_at(temp), dtype=np.float64
+            )
+        return Samples(n, values, ambient)
+
+
+def _fraction(sensor: RatiometricSensor, ambient_pa: float) -> float:
+    """The output fraction its transfer gives at the pressure it sees, as the circuit has it."""
+    model = Ratiometric(
+        sensor.p_low_pa, sensor.p_high_pa, sensor.fraction_low, sensor.fraction_high
+    )
+    pressure = ambient_pa if sensor.pressure_pa is None else sensor.pressure_pa
+    return float(model.fraction_at(pressure))
+
+
+def _ntc_r(
+    sensor: NtcSensor, ambient: FloatArray, spread: Callable[[float], FloatArray]
+) -> FloatArray:
+    """R(T) of a drawn thermistor: R25' (R_nominal(T) / R25)^(B'/B) is the beta model with the
+    drawn R25' and B' (exact for the beta model; Steinhart-Hart curves carry no tolerance)."""
+    temp = ambient if sensor.temp_c is None else np.full(len(ambient), sensor.temp_c)
+    nominal = np.asarray(ntc_model(sensor).r_at(temp), dtype=np.float64)
+    if sensor.sh_coefficients is not None or sensor.r25_ohm is None or sensor.beta_k is None:
+        return nominal
+    r25 = sensor.r25_ohm * spread(sensor.r25_tolerance_pct)
+    exponent = spread(sensor.beta_tolerance_pct)
+    return np.asarray(r25 * (nominal / sensor.r25_ohm) ** exponent, dtype=np.float64)

@@ -1,0 +1,382 @@
+"""Limits proposed from the Monte Carlo of good units, and which faults they still catch.
+
+A step's limits reject a good unit when its figure (the value, or its deviation from the step's
+prediction) falls outside them, under either decision rule: a guarded verdict inside the limits is
+at worst a conditional pass.  So the false-reject rate of limits is the share of good units outside
+them, and limits for a target rate are quantiles of the good units' figure: for window limits the
+target is split evenly between the two tails; a ± tolerance is the quantile of the deviation's
+magnitude at 1 - target.
+
+Tails with few samples are not read off the sample.  A quantile is taken from the sample (linear
+interpolation between order statistics) only when at least ``MIN_TAIL`` samples lie beyond it;
+further out it is extrapolated along a straight line on a normal probability plot through the
+empirical quantiles at ``MIN_TAIL / N`` and ten times that.  A normal tail is met exactly; a tail
+that is bounded (sums of uniform tolerances) is lighter than that line, so the limit comes out a
+little wide and the real rate below the target.
+
+Pure computation: the caller loads the files and hands in the plan and the unit.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+from statistics import NormalDist
+
+import numpy as np
+import numpy.typing as npt
+
+from rig.analysis.fault_set import DETECTING, single_faults
+from rig.analysis.montecarlo import (
+    FloatArray,
+    MonteCarloResult,
+    SequenceMonteCarlo,
+    StepDistribution,
+    figure_of,
+    prediction_centre,
+)
+from rig.analysis.predict import SequencePredictor, StepPrediction
+from rig.config.unit_file import UnitModel
+from rig.faults import Fault
+from rig.judge.decision import Verdict
+from rig.models._common import ModelInputError
+from rig.plan import Plan
+from rig.quantity import parse_quantity
+from rig.steps import StepSpec
+
+MIN_TAIL = 200
+"""Samples that must lie beyond an empirical quantile before it is used as it is."""
+FAR = 10.0
+"""The second point of the tail line lies at this many times the first one's probability."""
+DIGITS = 4
+"""Significant digits of a proposed limit, rounded outward (never tighter than computed)."""
+
+EMPIRICAL = "empirical"
+EXTRAPOLATED = "normal-plot tail extrapolation"
+NORMAL_FIT = "normal fit (mean, standard deviation): too few samples for the tail"
+
+_Z = NormalDist()
+
+
+@dataclass(frozen=True)
+class Quantile:
+    value: float
+    method: str
+
+
+def tail_quantile(x: FloatArray, p: float) -> Quantile:
+    """The quantile of ``x`` at probability ``p`` (0 < p < 1), estimated as the module says."""
+    if not 0.0 < p < 1.0:
+        raise ValueError(f"p = {p!r}: expected a probability strictly between 0 and 1")
+    data = np.asarray(x, dtype=np.float64)
+    data = data[np.isfinite(data)]
+    n = len(data)
+    if n < 2:
+        raise ValueError(f"a quantile needs at least 2 finite samples, found {n}")
+    if min(p, 1.0 - p) * n >= MIN_TAIL:
+        return Quantile(float(np.quantile(data, p)), EMPIRICAL)
+    p1 = MIN_TAIL / n
+    p2 = FAR * p1
+    if p2 >= 0.5:
+        mean, sd = float(np.mean(data)), float(np.std(data, ddof=1))
+        return Quantile(mean + sd * _Z.inv_cdf(p), NORMAL_FIT)
+    if p > 0.5:
+        p1, p2 = 1.0 - p1, 1.0 - p2
+    q1, q2 = (float(v) for v in np.quantile(data, [p1, p2]))
+    z1, z2 = _Z.inv_cdf(p1), _Z.inv_cdf(p2)
+    slope = max((q1 - q2) / (z1 - z2), 0.0)
+    return Quantile(q1 + slope * (_Z.inv_cdf(p) - z1), EXTRAPOLATED)
+
+
+# --- limits on a step's figure ----------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class FigureLimits:
+    """Limits on a step's figure, inclusive; None is no limit on that side."""
+
+    low: float | None
+    high: float | None
+
+    def outside(self, figure: FloatArray) -> npt.NDArray[np.bool_]:
+        """True where a figure is rejected (NaN, no reading, is always rejected)."""
+        low = -np.inf if self.low is None else self.low
+        high = np.inf if self.high is None else self.high
+        return np.asarray(~((figure >= low) & (figure <= high)), dtype=np.bool_)
+
+
+def present_limits(spec: StepSpec) -> FigureLimits | None:
+    """The sequence's own limits, on the step's figure."""
+    if spec.kind == "ntc":
+        tolerance = spec.params.get("tolerance")
+        return None if tolerance is None else FigureLimits(-tolerance[1], tolerance[1])
+    if spec.kind == "ratiometric":
+        tol = spec.params.get("tolerance_pct")
+        return None if tol is None else FigureLimits(-float(tol), float(tol))
+    if spec.limits is None:
+        return None
+    return FigureLimits(spec.limits.low, spec.limits.high)
+
+
+def round_out(value: float, unit: str, *, up: bool) -> tuple[float, str]:
+    """``value`` rounded away from the figures' centre to ``DIGITS`` significant digits, as the
+    text a sequence file takes, and the number that text reads back as."""
+    if value == 0.0 or not math.isfinite(value):
+        text = f"0 {unit}"
+        return parse_quantity(text, unit), text
+    exponent = 0
+    prefix = ""
+    if unit not in ("%", "degC", "K"):
+        exponent = max(-12, min(9, int(math.floor(math.log10(abs(value)) / 3) * 3)))
+        prefix = {-12: "p", -9: "n", -6: "u", -3: "m", 0: "", 3: "k", 6: "M", 9: "G"}[exponent]
+    mantissa = value / 10.0**exponent
+    scale = 10.0 ** (DIGITS - 1 - math.floor(math.log10(abs(mantissa))))
+    rounded = (math.ceil if up else math.floor)(mantissa * scale - (1e-9 if up else -1e-9)) / scale
+    text = f"{rounded:.{DIGITS + 2}g} {prefix}{unit}"
+    return parse_quantity(text, unit), text
+
+
+@dataclass
+class Proposal:
+    """Proposed limits for one step, with what they are based on."""
+
+    step_id: str
+    kind: str
+    form: str
+    figure_unit: str
+    limits: FigureLimits
+    toml: dict[str, str]
+    """The keys to paste into the step's ``[[steps]]`` table."""
+    method: str
+    mean: float
+    sd: float
+    reach: FigureLimits
+    """The tightest limits any choice could have on each side alone while holding the target:
+    a fault beyond them can be caught by some limit, one inside them by none."""
+    present: FigureLimits | None
+    present_rejects: int
+    proposed_rejects: int
+    samples: int
+    no_reading: int
+
+    @property
+    def present_ppm(self) -> float:
+        return self.present_rejects / self.samples * 1e6
+
+    @property
+    def proposed_ppm(self) -> float:
+        return self.proposed_rejects / self.samples * 1e6
+
+
+def propose(dist: StepDistribution, false_reject_ppm: float) -> Proposal:
+    """Limits on ``dist``'s figure that reject about ``false_reject_ppm`` of good units."""
+    if not 0.0 < false_reject_ppm < 1e6:
+        raise ValueError(f"false-reject target {false_reject_ppm!r} ppm: expected 0 to 1e6 ppm")
+    alpha = false_reject_ppm / 1e6
+    figure = dist.figure
+    finite = figure[np.isfinite(figure)]
+    spec = dist.spec
+    unit = dist.figure_unit
+    if dist.form == "window":
+        low_q = tail_quantile(finite, alpha / 2)
+        high_q = tail_quantile(finite, 1 - alpha / 2)
+        low, low_text = round_out(low_q.value, unit, up=False)
+        high, high_text = round_out(high_q.value, unit, up=True)
+        limits = FigureLimits(low, high)
+        toml = {"low": low_text, "high": high_text}
+        method = _method(low_q, high_q)
+        reach = FigureLimits(
+            tail_quantile(finite, alpha).value, tail_quantile(finite, 1 - alpha).value
+        )
+    else:
+        need = tail_quantile(np.abs(finite), 1 - alpha)
+        tol, tol_text = round_out(need.value, unit, up=True)
+        limits = FigureLimits(-tol, tol)
+        toml = {"tolerance": tol_text}
+        method = need.method
+        reach = FigureLimits(-need.value, need.value)
+    present = present_limits(spec)
+    return Proposal(
+        step_id=spec.id,
+        kind=spec.kind,
+        form=dist.form,
+        figure_unit=unit,
+        limits=limits,
+        toml=toml,
+        method=method,
+        mean=float(np.mean(finite)),
+        sd=float(np.std(finite, ddof=1)),
+        reach=reach,
+        present=present,
+        present_rejects=0 if present is None else int(present.outside(figure).sum()),
+        proposed_rejects=int(limits.outside(figure).sum()),
+        samples=len(figure),
+        no_reading=len(figure) - len(finite),
+    )
+
+
+def _method(low: Quantile, high: Quantile) -> str:
+    return low.method if low.method == high.method else f"{low.method} / {high.method}"
+
+
+# --- faults -----------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class FaultCheck:
+    """One fault against one step: its figure, and whether each set of limits rejects it."""
+
+    fault: Fault
+    figure: float
+    present: bool
+    proposed: bool
+    catchable: bool
+    """Some limit that holds the false-reject target would reject it."""
+
+
+def fault_figures(
+    plan: Plan, predictions: Sequence[StepPrediction]
+) -> dict[str, tuple[float, Verdict]]:
+    """Each step's figure and predicted verdict, from one prediction of the whole plan."""
+    values: dict[str, FloatArray] = {}
+    found: dict[str, tuple[float, Verdict]] = {}
+    by_id = {p.step_id: p for p in predictions}
+    for planned in plan.steps:
+        spec = planned.spec
+        prediction = by_id[spec.id]
+        value = np.array([prediction.value], dtype=np.float64)
+        values[spec.id] = value
+        centre = None
+        if spec.kind in ("ntc", "ratiometric"):
+            try:
+                with np.errstate(all="ignore"):
+                    centre = prediction_centre(spec, values)
+            except ModelInputError:  # an earlier step read nothing usable: no prediction
+                centre = np.array([math.nan])
+        with np.errstate(all="ignore"):
+            figure = float(figure_of(spec, value, centre)[0])
+        found[spec.id] = (figure, prediction.verdict)
+    return found
+
+
+def check_fault(proposal: Proposal, figure: float, verdict: Verdict, fault: Fault) -> FaultCheck:
+    if verdict is Verdict.SKIPPED:  # an earlier step could not measure: this one never ran
+        return FaultCheck(fault, figure, False, False, False)
+    stopped = verdict is Verdict.ERROR  # the step could not measure: caught whatever the limits
+    value = np.array([figure])
+    return FaultCheck(
+        fault,
+        figure,
+        verdict in DETECTING,
+        stopped or bool(proposal.limits.outside(value)[0]),
+        stopped or bool(proposal.reach.outside(value)[0]),
+    )
+
+
+# --- the whole study --------------------------------------------------------------------------
+
+
+@dataclass
+class LimitsStudy:
+    result: MonteCarloResult
+    false_reject_ppm: float
+    proposals: list[Proposal]
+    faults: list[Fault]
+    checks: dict[str, list[FaultCheck]] = field(default_factory=dict)
+    """step id -> one check per fault, in fault-set order"""
+    warnings: list[str] = field(default_factory=list)
+
+    def caught_by_any(self, which: str) -> set[Fault]:
+        """Faults that some step rejects with the ``present`` or ``proposed`` limits."""
+        return {c.fault for checks in self.checks.values() for c in checks if getattr(c, which)}
+
+
+def study_limits(
+    plan: Plan,
+    unit: UnitModel,
+    *,
+    samples: int,
+    seed: int,
+    false_reject_ppm: float = 100.0,
+    faults: Sequence[Fault] | None = None,
+    only: Sequence[str] | None = None,
+) -> LimitsStudy:
+    """Draw good units, propose limits per step (or per step of ``only``), and check them
+    against the fault set (default: ``rig.analysis.fault_set.single_faults``)."""
+    if samples < 2:
+        raise ValueError(f"samples = {samples}: expected at least 2")
+    predictor = SequencePredictor(plan, unit)
+    nominal = predictor.run()
+    result = SequenceMonteCarlo(plan, unit, nominal).run(samples, seed)
+    proposals = [
+        propose(dist, false_reject_ppm)
+        for dist in result.steps
+        if only is None or dist.spec.id in only
+    ]
+    fault_list = list(single_faults(unit, plan) if faults is None else faults)
+    study = LimitsStudy(result, false_reject_ppm, proposals, fault_list)
+    figures = [fault_figures(plan, predictor.predict([f])) for f in fault_list]
+    for proposal in proposals:
+        study.checks[proposal.step_id] = [
+            check_fault(proposal, *found[proposal.step_id], fault)
+            for fault, found in zip(fault_list, figures, strict=True)
+        ]
+    study.warnings = _warnings(study)
+    return study
+
+
+def _warnings(study: LimitsStudy) -> list[str]:
+    target = f"{study.false_reject_ppm:g} ppm"
+    found = [
+        f"reading {reading}: the station's accuracy table does not cover it, so no meter error "
+        "is drawn for it"
+        for reading in study.result.no_meter_error
+    ]
+    for proposal in study.proposals:
+        if proposal.no_reading:
+            found.append(
+                f"step {proposal.step_id}: {proposal.no_reading} good units gave no reading; "
+                "they count as rejects"
+            )
+        checks = study.checks[proposal.step_id]
+        for check in checks:
+            if check.present and not check.catchable:
+                found.append(
+                    f"step {proposal.step_id}: its present limits catch {check.fault.spec}, but "
+                    f"no limit that holds {target} can (the present limits reject "
+                    f"{_ppm(proposal.present_rejects, proposal.samples)} of good units)"
+                )
+        if checks and not any(c.catchable for c in checks):
+            found.append(
+                f"step {proposal.step_id}: no limit that holds {target} catches any fault of the "
+                "fault set"
+            )
+    lost = study.caught_by_any("present") - study.caught_by_any("proposed")
+    for fault in study.faults:
+        if fault in lost:
+            found.append(f"fault {fault.spec}: caught now, but by no step with the proposed limits")
+    return found
+
+
+def _ppm(count: int, samples: int) -> str:
+    if count == 0:
+        return f"under {3e6 / samples:.3g} ppm (none of {samples}; 95 %, rule of three)"
+    return f"{count / samples * 1e6:.3g} ppm ({count} of {samples})"
+
+
+def toml_text(study: LimitsStudy, sequence_name: str, unit_name: str) -> str:
+    """The proposed limits as TOML: one table per step id with the keys to paste."""
+    r = study.result
+    lines = [
+        f"# Limits proposed by `rig limits` for sequence {sequence_name} on unit {unit_name}:",
+        f"# {r.samples} good units drawn (seed {r.seed}), false-reject target "
+        f"{study.false_reject_ppm:g} ppm per step.",
+        "# Paste each table's keys into the [[steps]] table with that id, in place of its limit",
+        "# keys (low/high, nominal + tolerance, max; tolerance for ntc and ratiometric steps).",
+    ]
+    for proposal in study.proposals:
+        lines.append("")
+        lines.append(f"[{proposal.step_id}]")
+        lines.extend(f'{key} = "{text}"' for key, text in proposal.toml.items())
+    return "\n".join(lines) + "\n"

@@ -1,0 +1,97 @@
+"""``rig diagnose RUN_ID --station STATION``: the most likely fault behind a stored run."""
+
+from __future__ import annotations
+
+import argparse
+from pathlib import Path
+
+from rig.cli_output import Output
+
+
+def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
+    p = sub.add_parser("diagnose", help="rank the faults that explain a stored run")
+    p.add_argument("run_id", type=int)
+    p.add_argument("--station", type=Path, required=True)
+    p.add_argument(
+        "--unit",
+        type=Path,
+        help="unit file (default: units/<unit name of the run>.toml beside the sequence)",
+    )
+    p.add_argument("--sequence", type=Path, help="sequence file (default: the run's own)")
+    p.add_argument("--store", type=Path, help="results file (default: the station's)")
+    p.add_argument("--top", type=int, default=5, help="hypotheses to show (5)")
+    p.add_argument("--json", action="store_true")
+    p.set_defaults(func=cmd_diagnose)
+
+
+def suggestion(run_id: int, station: Path) -> str:
+    """The command a failed run points the operator to."""
+    return f"rig diagnose {run_id} --station {station}"
+
+
+def cmd_diagnose(args: argparse.Namespace, out: Output) -> int:
+    from rig.analysis.diagnose import diagnose_run
+    from rig.config.station import load_station
+    from rig.config.unit_file import load_unit
+    from rig.errors import ConfigError, Problem
+    from rig.runner import load_plan
+    from rig.store import ResultStore
+
+    station = load_station(args.station)
+    store = ResultStore(args.store or station.store_path)
+    try:
+        run = store.run(args.run_id)
+        sequence = args.sequence or Path(run["sequence_path"])
+        unit_path = args.unit
+        if unit_path is None:
+            if not run["unit"]:
+                raise ConfigError(
+                    [Problem("--unit", "", f"run {args.run_id} names no unit; give --unit FILE")]
+                )
+            unit_path = sequence.parent / "units" / f"{run['unit']}.toml"
+        unit = load_unit(unit_path)
+        plan = load_plan(sequence, station)
+        if plan.sequence.content_hash != run["sequence_hash"]:
+            out.error(f"warning: {sequence} has changed since run {args.run_id} was taken")
+        diagnosis = diagnose_run(store, args.run_id, unit, plan)
+    finally:
+        store.close()
+    hypotheses = diagnosis.hypotheses[: args.top]
+    if args.json:
+        out.json(
+            {
+                "run_id": args.run_id,
+                "unit": unit.name,
+                "hypotheses": [
+                    {
+                        "spec": h.spec,
+                        "probability": h.probability,
+                        "where": h.where,
+                        "fitted": h.fitted,
+                        "same_as": list(h.same_as),
+                    }
+                    for h in hypotheses
+                ],
+                "next_check": diagnosis.next_check,
+            }
+        )
+        return 0
+    out.line(f"run {args.run_id} (serial {run['serial']}, {run['verdict']}) on unit {unit.name}")
+    if not hypotheses:
+        out.line("no settled readings of this sequence in the run: nothing to diagnose")
+        return 0
+    out.table(
+        ["#", "probability", "fault", "where"],
+        [
+            [str(k), f"{h.probability:.1%}", h.spec, h.where]
+            for k, h in enumerate(hypotheses, start=1)
+        ],
+    )
+    for h in hypotheses:
+        if h.same_as:
+            out.line(f"{h.spec} cannot be told apart by this sequence from: {', '.join(h.same_as)}")
+    if diagnosis.next_check:
+        out.line(f"to separate the top two, measure {diagnosis.next_check}")
+    elif len(hypotheses) > 1 or hypotheses[0].same_as:
+        out.line("no extra DC volts reading on the fixture's pins separates the top two")
+    return 0
