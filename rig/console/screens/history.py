@@ -1,0 +1,151 @@
+"""Recent runs at the station, and the stored record of one run, read from the results store."""
+
+from __future__ import annotations
+
+import json
+from collections.abc import Callable
+from functools import partial
+from typing import Any, ClassVar
+
+from rich.text import Text
+from textual.app import ComposeResult
+from textual.binding import Binding, BindingType
+from textual.containers import VerticalScroll
+from textual.screen import Screen
+from textual.widgets import DataTable, Footer, Static
+
+from rig.console.setup import ConsoleSetup
+from rig.console.widgets import RunList
+from rig.console.words import VERDICT_STYLES, kind_cells, verdict_word
+from rig.judge.decision import Limits, Verdict
+from rig.store import ResultStore
+
+
+class HistoryScreen(Screen[None]):
+    """The station's recent runs; Enter opens one."""
+
+    DEFAULT_CSS = """
+    HistoryScreen #history-title { text-style: bold; height: 1; }
+    HistoryScreen RunList { height: 1fr; }
+    """
+
+    BINDINGS: ClassVar[list[BindingType]] = [Binding("escape", "back", "Back")]
+
+    def __init__(
+        self,
+        setup: ConsoleSetup,
+        recent: Callable[[], list[dict[str, Any]]],
+        on_open_run: Callable[[int], None],
+    ) -> None:
+        super().__init__()
+        self.setup = setup
+        self._recent = recent
+        self._on_open_run = on_open_run
+
+    def compose(self) -> ComposeResult:
+        yield Static(
+            f"Recent runs at station {self.setup.station.name} (Enter opens the record)",
+            id="history-title",
+        )
+        yield RunList(self._on_open_run, id="history")
+        yield Footer()
+
+    def on_mount(self) -> None:
+        runs = self.query_one(RunList)
+        runs.show_runs(self._recent(), partial(self.setup.show_time, short=True))
+        runs.focus()
+
+    def action_back(self) -> None:
+        self.dismiss(None)
+
+
+RECORD_COLUMNS = ("#", "step", "verdict", "reading", "unit", "limits", "± U (k=2)", "rule", "note")
+
+
+def _limits(row: dict[str, Any]) -> Limits | None:
+    if row["low"] is None and row["high"] is None:
+        return None
+    return Limits(row["low"], row["high"])
+
+
+class RecordScreen(Screen[None]):
+    """Everything the store holds about one run: header, instruments, steps, notes."""
+
+    DEFAULT_CSS = """
+    RecordScreen #record-head { height: auto; padding: 0 1; }
+    RecordScreen #record-steps { height: auto; max-height: 30; }
+    RecordScreen #record-notes { height: auto; padding: 0 1; }
+    """
+
+    BINDINGS: ClassVar[list[BindingType]] = [Binding("escape", "back", "Back")]
+
+    def __init__(self, setup: ConsoleSetup, store: ResultStore, run_id: int) -> None:
+        super().__init__()
+        self.setup = setup
+        self.store = store
+        self.run_id = run_id
+
+    def compose(self) -> ComposeResult:
+        with VerticalScroll():
+            yield Static(id="record-head")
+            yield DataTable(id="record-steps", cursor_type="row", zebra_stripes=True)
+            yield Static(id="record-notes")
+        yield Footer()
+
+    def on_mount(self) -> None:
+        run = self.store.run(self.run_id)
+        verdict = run["verdict"]
+        word = verdict_word(Verdict(verdict)) if verdict else "RUNNING"
+        style = VERDICT_STYLES[Verdict(verdict)] if verdict else ""
+        head = Text()
+        head.append(f"Run {run['id']}  ", "bold")
+        head.append(word, style)
+        head.append(f"  ({run['status']})\n")
+        head.append(
+            f"serial {run['serial']} · sequence {run['sequence_name']} · station {run['station']}\n"
+        )
+        head.append(
+            f"started {self.setup.show_time(run['started_at'])} · "
+            f"ended {self.setup.show_time(run['ended_at'])}"
+        )
+        if run["operator"]:
+            head.append(f" · operator {run['operator']}")
+        if run["unit"]:
+            head.append(f" · unit model {run['unit']}")
+        faults = json.loads(run["faults"] or "[]")
+        if faults:
+            head.append(f"\ninjected faults (virtual bench): {', '.join(faults)}")
+        if run["reason"]:
+            head.append(f"\nreason: {run['reason']}")
+        self.query_one("#record-head", Static).update(head)
+
+        table = self.query_one("#record-steps", DataTable)
+        table.add_columns(*RECORD_COLUMNS)
+        for row in self.store.steps(self.run_id):
+            value = row["value"] if row["value"] is not None else float("nan")
+            cells = kind_cells(row["kind"], value, row["unit"], _limits(row), row["expanded_u"])
+            step_verdict = Verdict(row["verdict"])
+            table.add_row(
+                str(row["position"]),
+                row["step_id"],
+                Text(verdict_word(step_verdict), VERDICT_STYLES[step_verdict]),
+                cells.reading,
+                cells.unit,
+                cells.limits,
+                cells.uncertainty,
+                row["decision_rule"],
+                row["note"],
+            )
+        notes = Text()
+        for inst in json.loads(run["instruments"] or "[]"):
+            due = inst.get("calibration_due") or "not given"
+            notes.append(f"{inst['role']}: {inst['identity']} (calibration due {due})\n", "dim")
+        for note in json.loads(run["notes"] or "[]"):
+            notes.append(f"note: {note}\n")
+        readings = len(self.store.readings(self.run_id))
+        notes.append(f"{readings} raw readings kept in the results store", "dim")
+        self.query_one("#record-notes", Static).update(notes)
+        table.focus()
+
+    def action_back(self) -> None:
+        self.dismiss(None)

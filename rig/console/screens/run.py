@@ -1,0 +1,416 @@
+"""The run view: each step as it is judged, the live reading, the verdict, diagnosis and plots.
+
+The engine runs in a worker thread and reports into an inbox; a timer empties it at most
+``BATCH_ITEMS`` at a time and adds the finished steps to the table in one call, so a run of
+hundreds of steps costs the screen a few table updates a second, whatever the engine's pace.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from functools import partial
+from pathlib import Path
+from typing import Any, ClassVar
+
+from rich.text import Text
+from textual.app import ComposeResult
+from textual.binding import Binding, BindingType
+from textual.containers import Horizontal
+from textual.screen import Screen
+from textual.widgets import DataTable, Footer, Input, Static
+from textual.worker import Worker
+
+from rig.console.diagnosis import DiagnosisView, diagnose
+from rig.console.plots import ntc_chart, step_history, trend_chart
+from rig.console.screens.prompt import PromptScreen
+from rig.console.screens.start import serial_problem
+from rig.console.setup import ConsoleSetup
+from rig.console.widgets import ChartView, StatusPanel
+from rig.console.words import (
+    VERDICT_STYLES,
+    live_text,
+    pins_text,
+    run_verdict,
+    step_cells,
+    verdict_word,
+)
+from rig.console.worker import (
+    Inbox,
+    LiveReading,
+    PromptGate,
+    RunEnded,
+    RunRequest,
+    SafeStateMade,
+    StopSwitch,
+    SyncNote,
+    run_in_worker,
+)
+from rig.engine import RunSummary
+from rig.events import StepFinished, StepResult, StepStarted
+from rig.judge.decision import Verdict
+from rig.store import ResultStore
+
+BATCH_ITEMS = 120
+"""Most inbox items handled per timer tick; the rest wait for the next tick."""
+TICK_S = 0.1
+STEP_COLUMNS = ("#", "step", "verdict", "reading", "unit", "limits", "± U (k=2)", "pins")
+
+
+class RunScreen(Screen[str | None]):
+    """One run of one unit, from start to verdict; then the next serial can be scanned at once.
+
+    Dismissed with the next serial (same sequence) or None (back to the start view).  Keys that
+    work after the run are not letters, because the next scan is typed into the screen.
+    """
+
+    DEFAULT_CSS = """
+    RunScreen #run-title { text-style: bold; height: 1; }
+    RunScreen #steps { height: 1fr; min-height: 5; }
+    RunScreen #lower { height: 2fr; max-height: 16; min-height: 8; }
+    RunScreen #diagnosis { width: 1fr; height: 100%; border: round $secondary; padding: 0 1; }
+    RunScreen #plot { width: 1fr; height: 100%; border: round $secondary; }
+    RunScreen #next-serial { border: tall $success; }
+    """
+
+    BINDINGS: ClassVar[list[BindingType]] = [
+        Binding("s", "stop", "Stop & make safe"),
+        Binding("escape", "back", "Back to start"),
+        Binding("f2", "history", "History"),
+        Binding("f3", "toggle_plot", "Plot: curve/trend"),
+        Binding("up", "cursor(-1)", "Step up", show=False),
+        Binding("down", "cursor(1)", "Step down", show=False),
+    ]
+
+    def __init__(
+        self,
+        setup: ConsoleSetup,
+        request: RunRequest,
+        units_dir: Path,
+        store: ResultStore,
+        on_history: Callable[[], None],
+    ) -> None:
+        super().__init__()
+        self.setup = setup
+        self.request = request
+        self.units_dir = units_dir
+        self.store = store
+        self._on_history = on_history
+        self.inbox = Inbox()
+        self.stop_switch = StopSwitch(self.inbox)
+        self.gate = PromptGate(self._show_prompt_from_worker, self.stop_switch)
+        self.results: list[StepResult] = []
+        self.summary: RunSummary | None = None
+        self.diagnosis: DiagnosisView | None = None
+        self.problem = ""
+        self.batches: list[int] = []
+        """Rows added per table update (the test checks they stay bounded)."""
+        self.worker: Worker[None] | None = None
+        self._total = len(request.plan.steps)
+        self._current = ""
+        self._live = ""
+        self._prompt: PromptScreen | None = None
+        self._plot_mode = "curve"
+        self._stopping = False
+        self._safe_note = ""
+        self._started = setup.clock()
+        self.quit_when_done = False
+
+    # --- layout -------------------------------------------------------------------------------
+
+    def compose(self) -> ComposeResult:
+        plan = self.request.plan
+        yield Static(
+            f"{plan.sequence.name} · serial {self.request.serial} · station "
+            f"{self.setup.station.name} · started {self._started:%H:%M}",
+            id="run-title",
+        )
+        yield StatusPanel(id="status")
+        yield DataTable(id="steps", cursor_type="row", zebra_stripes=True)
+        with Horizontal(id="lower"):
+            yield Static("", id="diagnosis")
+            yield ChartView(id="plot")
+        yield Input(
+            placeholder="scan the next serial (Enter runs the same sequence)",
+            id="next-serial",
+        )
+        yield Footer()
+
+    def on_mount(self) -> None:
+        table = self.query_one("#steps", DataTable)
+        table.add_columns(*STEP_COLUMNS)
+        self.query_one("#diagnosis", Static).display = False
+        self.query_one("#next-serial", Input).display = False
+        self.query_one("#next-serial", Input).cursor_blink = False  # steady, like the start view
+        plot = self.query_one("#plot", ChartView)
+        plot.border_title = "plot"
+        plot.show(None, "the plot appears when the run has ended")
+        self.query_one("#lower").display = False  # the table has the room while the run goes on
+        self.query_one(StatusPanel).progress(f"starting: 0 of {self._total} steps")
+        self.set_interval(TICK_S, self.drain)
+        self.worker = self.run_worker(
+            partial(
+                run_in_worker,
+                self.request,
+                self.inbox,
+                self.gate,
+                self.stop_switch,
+                self._after_run,
+            ),
+            name="engine",
+            group="run",
+            thread=True,
+            exit_on_error=False,
+        )
+
+    def on_unmount(self) -> None:
+        # the app is closing under a run (a quit, a lost terminal): the engine must still end safe
+        if self.running:
+            self.stop_switch.throw()
+
+    @property
+    def running(self) -> bool:
+        return self.summary is None and not self.problem
+
+    # --- from the worker thread ---------------------------------------------------------------
+
+    def _show_prompt_from_worker(
+        self, step_id: str, text: str, answer: Callable[[bool], None]
+    ) -> None:
+        self.app.call_from_thread(self._open_prompt, step_id, text, answer)
+
+    def _after_run(self, summary: RunSummary, store: ResultStore) -> None:
+        """In the worker: diagnose a completed failed run (simulation is slow work)."""
+        if summary.status == "complete" and summary.verdict in (
+            Verdict.FAIL,
+            Verdict.CONDITIONAL_FAIL,
+        ):
+            self.inbox.put(
+                diagnose(store, summary.run_id, self.request.plan, self.setup.unit, self.units_dir)
+            )
+
+    # --- on the UI thread ---------------------------------------------------------------------
+
+    def _open_prompt(self, step_id: str, text: str, answer: Callable[[bool], None]) -> None:
+        def answered(yes: bool | None) -> None:
+            self._prompt = None
+            answer(bool(yes))
+
+        self._prompt = PromptScreen(step_id, text, self.action_stop)
+        self.app.push_screen(self._prompt, answered)
+
+    def drain(self) -> None:
+        """Take a bounded batch from the inbox and show it with as few widget updates as can be."""
+        items = self.inbox.take(BATCH_ITEMS)
+        if not items:
+            return
+        rows: list[tuple[Any, ...]] = []
+        keys: list[str] = []
+        ended: RunEnded | None = None
+        for item in items:
+            if isinstance(item, StepStarted):
+                title = f" ({item.title})" if item.title and item.title != item.step_id else ""
+                self._current = f"step {item.position} of {self._total}: {item.step_id}{title}"
+                self._live = ""
+            elif isinstance(item, LiveReading):
+                self._live = f"reading {item.count}: {live_text(item.value, item.unit)}"
+            elif isinstance(item, StepFinished):
+                self.results.append(item.result)
+                rows.append(self._row(item.result))
+                keys.append(str(item.result.position))
+            elif isinstance(item, SafeStateMade):
+                self._safe_note = (
+                    "relays opened and supply off (read back)"
+                    if not item.failures
+                    else "COULD NOT MAKE SAFE: " + "; ".join(item.failures)
+                )
+            elif isinstance(item, DiagnosisView):
+                self._show_diagnosis(item)
+            elif isinstance(item, SyncNote):
+                self.notify(item.text, title="results server")
+            elif isinstance(item, RunEnded):
+                ended = item
+        if rows:
+            table = self.query_one("#steps", DataTable)
+            for row, key in zip(rows, keys, strict=True):
+                table.add_row(*row, key=key)
+            self.batches.append(len(rows))
+            if self.running:
+                table.move_cursor(row=table.row_count - 1, animate=False)
+        if ended is not None:
+            self._finish(ended)
+        elif self.running:
+            self._show_progress()
+
+    def _row(self, result: StepResult) -> tuple[Any, ...]:
+        cells = step_cells(result)
+        word = verdict_word(result.verdict)
+        if result.tur_low:
+            word += " (TUR low)"
+        return (
+            str(result.position),
+            result.step_id,
+            Text(word, VERDICT_STYLES[result.verdict]),
+            cells.reading,
+            cells.unit,
+            cells.limits,
+            cells.uncertainty,
+            pins_text(result.pins),
+        )
+
+    def _show_progress(self) -> None:
+        done = len(self.results)
+        lines = [f"RUNNING  {done} of {self._total} steps judged", self._current or "starting"]
+        if self._live:
+            lines.append(f"  live: {self._live} (settling)")
+        if self._stopping:
+            lines.append("STOPPING: " + (self._safe_note or "making the bench safe"))
+        self.query_one(StatusPanel).progress(*lines)
+
+    def _finish(self, ended: RunEnded) -> None:
+        if not self.running:  # a late problem after the verdict (already logged by the worker)
+            return
+        status = self.query_one(StatusPanel)
+        if ended.summary is None:
+            self.problem = ended.problem or "the run could not start"
+            status.progress("NO RUN: " + self.problem, "", "Press Escape for the start view.")
+            self._ready_for_next()
+            return
+        summary = ended.summary
+        self.summary = summary
+        if self.quit_when_done:
+            self.app.exit()
+            return
+        status.show_verdict(
+            run_verdict(summary.status, summary.verdict, summary.reason, summary.safe)
+        )
+        table = self.query_one("#steps", DataTable)
+        failed = [r for r in self.results if r.step_id in summary.failed_steps]
+        if failed:
+            table.move_cursor(row=self.results.index(failed[0]), animate=False)
+            # a failed NTC is best seen against its curve; any other failure over the last runs
+            self._plot_mode = "curve" if failed[0].kind == "ntc" else "trend"
+        if summary.status != "complete":
+            self._show_diagnosis(
+                DiagnosisView(summary.run_id, unavailable="run aborted: no diagnosis")
+            )
+        elif summary.verdict not in (Verdict.FAIL, Verdict.CONDITIONAL_FAIL):
+            self.query_one("#diagnosis", Static).display = False
+        elif self.diagnosis is None:
+            self.query_one("#diagnosis", Static).update("diagnosing ...")
+            self.query_one("#diagnosis", Static).display = True
+        self._update_plot()
+        self._ready_for_next()
+
+    def _ready_for_next(self) -> None:
+        self.refresh_bindings()
+        self.query_one("#lower").display = True
+        field = self.query_one("#next-serial", Input)
+        field.display = True
+        field.focus()
+
+    def _show_diagnosis(self, view: DiagnosisView) -> None:
+        """The next check first (what the operator does now), then the ranked hypotheses."""
+        self.diagnosis = view
+        box = self.query_one("#diagnosis", Static)
+        box.border_title = "likely faults"
+        box.display = True
+        text = Text()
+        if view.unavailable:
+            text.append(view.unavailable, "dim")
+        if view.next_check:
+            text.append("Next check: ", "bold")
+            text.append(view.next_check + "\n")
+        elif not view.unavailable:
+            text.append("No further check suggested.\n", "dim")
+        for rank, h in enumerate(view.hypotheses, start=1):
+            text.append(
+                f"{rank}. {h.probability * 100:3.0f} %  {h.fault}\n", "bold" if rank == 1 else ""
+            )
+            if h.where:
+                text.append(f"         {h.where}\n", "dim")
+        box.update(text)
+
+    # --- plots --------------------------------------------------------------------------------
+
+    def _ntc_pair(self) -> tuple[Any, StepResult] | None:
+        for result in self.results:
+            if result.kind == "ntc":
+                spec = next(p.spec for p in self.request.plan.steps if p.spec.id == result.step_id)
+                return spec, result
+        return None
+
+    def _highlighted(self) -> StepResult | None:
+        table = self.query_one("#steps", DataTable)
+        if not self.results or table.cursor_row < 0 or table.cursor_row >= len(self.results):
+            return None
+        return self.results[table.cursor_row]
+
+    def _update_plot(self) -> None:
+        if self.running:
+            return
+        view = self.query_one("#plot", ChartView)
+        pair = self._ntc_pair()
+        if self._plot_mode == "curve" and pair is not None:
+            chart = ntc_chart(*pair)
+            view.border_title = f"{pair[1].step_id} against its curve"
+            view.show(chart, "no curve: the step has no temperature")
+            return
+        chosen = self._highlighted()
+        if chosen is None or chosen.kind == "prompt":
+            view.border_title = "trend"
+            view.show(None, "choose a measured step (up/down) to see it over the last runs")
+            return
+        rows = step_history(
+            self.store, self.setup.station.name, self.request.plan.sequence.name, chosen.step_id
+        )
+        view.border_title = f"{chosen.step_id} over the last runs"
+        view.show(trend_chart(rows, chosen.step_id), "no stored readings of this step yet")
+
+    def on_data_table_row_highlighted(self, event: DataTable.RowHighlighted) -> None:
+        if self._plot_mode == "trend" or self._ntc_pair() is None:
+            self._update_plot()
+
+    # --- keys ---------------------------------------------------------------------------------
+
+    def action_stop(self) -> None:
+        if not self.running or self._stopping:
+            return
+        self._stopping = True
+        self.stop_switch.throw()
+        if self._prompt is not None:
+            self._prompt.dismiss(False)
+        self._show_progress()
+
+    def action_back(self) -> None:
+        if self.running:
+            self.notify("the run is still going; press s to stop it first", severity="warning")
+            return
+        self.dismiss(None)
+
+    def action_cursor(self, delta: int) -> None:
+        table = self.query_one("#steps", DataTable)
+        if table.row_count:
+            table.move_cursor(row=max(0, min(table.row_count - 1, table.cursor_row + delta)))
+
+    def on_input_submitted(self, event: Input.Submitted) -> None:
+        serial = event.value.strip()
+        problem = serial_problem(serial)
+        if problem:
+            self.notify(problem, severity="warning")
+            return
+        self.dismiss(serial)
+
+    def action_toggle_plot(self) -> None:
+        self._plot_mode = "trend" if self._plot_mode == "curve" else "curve"
+        self._update_plot()
+
+    def action_history(self) -> None:
+        self._on_history()
+
+    def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
+        """Show only the keys that do something now (stop while running, the rest after)."""
+        if action == "stop":
+            return self.running
+        if action in ("back", "toggle_plot"):
+            return not self.running
+        return True

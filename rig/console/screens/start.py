@@ -1,0 +1,141 @@
+"""The start view: scan or type a serial, confirm the sequence, start; recent runs beside it.
+
+A barcode scanner types the serial and presses Enter, so Enter in the serial field starts the run
+with the highlighted sequence.  The arrow keys move the sequence choice without leaving the field.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from functools import partial
+from typing import ClassVar
+
+from textual.app import ComposeResult
+from textual.binding import Binding, BindingType
+from textual.containers import Horizontal, Vertical
+from textual.screen import Screen
+from textual.widgets import Footer, Input, OptionList, Static
+from textual.widgets.option_list import Option
+
+from rig.console.setup import ConsoleSetup
+from rig.console.widgets import RunList
+from rig.plan import Plan
+
+RECENT_RUNS = 15
+
+
+def serial_problem(text: str) -> str:
+    """Why ``text`` cannot be a serial number, or empty when it can."""
+    if not text:
+        return "scan or type the unit's serial number first"
+    if len(text) > 64:
+        return f"a serial number has at most 64 characters; this one has {len(text)}"
+    if any(not ch.isprintable() for ch in text):
+        return "the serial number contains a control character; scan it again"
+    return ""
+
+
+class StartScreen(Screen[None]):
+    """Where each unit's test begins."""
+
+    DEFAULT_CSS = """
+    StartScreen #start-title { text-style: bold; height: 1; }
+    StartScreen #start-bench { color: $text-muted; height: auto; }
+    StartScreen #start-left { width: 52; padding: 1 1; }
+    StartScreen #start-right { width: 1fr; padding: 1 1; }
+    StartScreen .label { text-style: bold; margin-top: 1; }
+    StartScreen #serial-problem { color: $error; text-style: bold; height: auto; }
+    StartScreen #sequences { height: auto; max-height: 12; }
+    StartScreen RunList { height: 1fr; }
+    """
+
+    BINDINGS: ClassVar[list[BindingType]] = [
+        Binding("up", "sequence(-1)", "Sequence up", show=False),
+        Binding("down", "sequence(1)", "Sequence down", show=False),
+        Binding("f5", "refresh_runs", "Refresh runs"),
+    ]
+
+    def __init__(
+        self,
+        setup: ConsoleSetup,
+        on_start: Callable[[Plan, str], None],
+        on_open_run: Callable[[int], None],
+        recent: Callable[[], list[dict[str, object]]],
+    ) -> None:
+        super().__init__()
+        self.setup = setup
+        self._on_start = on_start
+        self._on_open_run = on_open_run
+        self._recent = recent
+
+    def compose(self) -> ComposeResult:
+        station = self.setup.station
+        yield Static(f"rig console · station {station.name}", id="start-title")
+        if self.setup.bench_label:
+            yield Static(self.setup.bench_label, id="start-bench")
+        with Horizontal():
+            with Vertical(id="start-left"):
+                yield Static("Serial number (scan, or type and press Enter)", classes="label")
+                yield Input(placeholder="serial number", id="serial")
+                yield Static("", id="serial-problem")
+                yield Static("Sequence (up/down to choose)", classes="label")
+                yield OptionList(
+                    *[
+                        Option(
+                            f"{p.sequence.name}  ({len(p.steps)} steps)\n"
+                            f"  {p.sequence.description}",
+                            id=p.sequence.name,
+                        )
+                        for p in self.setup.plans
+                    ],
+                    id="sequences",
+                )
+            with Vertical(id="start-right"):
+                yield Static("Recent runs at this station (Tab here, Enter opens)", classes="label")
+                yield RunList(self._on_open_run, id="recent")
+        yield Footer()
+
+    def on_mount(self) -> None:
+        options = self.query_one("#sequences", OptionList)
+        options.highlighted = 0
+        serial = self.query_one("#serial", Input)
+        serial.cursor_blink = False  # steady: nothing on the bench screen blinks
+        serial.focus()
+        self.action_refresh_runs()
+
+    def on_screen_resume(self) -> None:
+        serial = self.query_one("#serial", Input)
+        serial.value = ""
+        serial.focus()
+        self.action_refresh_runs()
+
+    def action_refresh_runs(self) -> None:
+        self.query_one(RunList).show_runs(self._recent(), partial(self.setup.show_time, short=True))
+
+    def action_sequence(self, delta: int) -> None:
+        options = self.query_one("#sequences", OptionList)
+        count = options.option_count
+        if count:
+            options.highlighted = ((options.highlighted or 0) + delta) % count
+
+    def chosen_plan(self) -> Plan | None:
+        options = self.query_one("#sequences", OptionList)
+        if options.highlighted is None:
+            return None
+        option_id = options.get_option_at_index(options.highlighted).id
+        return self.setup.plan_named(option_id or "")
+
+    def on_input_submitted(self, event: Input.Submitted) -> None:
+        serial = event.value.strip()
+        problem = serial_problem(serial)
+        plan = self.chosen_plan()
+        if not problem and plan is None:
+            problem = "choose a sequence first"
+        self.query_one("#serial-problem", Static).update(problem)
+        if problem or plan is None:
+            return
+        self._on_start(plan, serial)
+
+    def on_option_list_option_selected(self, event: OptionList.OptionSelected) -> None:
+        # Enter on a sequence: go back to the serial field, which starts the run
+        self.query_one("#serial", Input).focus()

@@ -1,0 +1,119 @@
+"""Widgets of the console: the run's status and verdict, a chart, and the list of recent runs."""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from typing import Any
+
+from rich.text import Text
+from textual.widget import Widget
+from textual.widgets import DataTable
+
+from rig.console.big_letters import big_letters, width_of
+from rig.console.chart import Chart, render
+from rig.console.words import RunVerdict, verdict_word
+from rig.judge.decision import Verdict
+
+
+class StatusPanel(Widget):
+    """Progress while the run goes on; the whole run's verdict in block letters when it ends."""
+
+    DEFAULT_CSS = """
+    StatusPanel { height: 8; border: heavy $secondary; padding: 0 1; }
+    StatusPanel.-pass { border: heavy $success; }
+    StatusPanel.-fail { border: heavy $error; }
+    StatusPanel.-other { border: heavy $warning; }
+    """
+
+    def __init__(self, **kwargs: Any) -> None:
+        super().__init__(**kwargs)
+        self._lines: list[str] = ["waiting for the bench"]
+        self.verdict: RunVerdict | None = None
+
+    def progress(self, *lines: str) -> None:
+        self._lines = list(lines)
+        self.refresh()
+
+    def show_verdict(self, verdict: RunVerdict) -> None:
+        self.verdict = verdict
+        word = verdict.word
+        self.remove_class("-pass", "-fail", "-other")
+        if word == "PASS":
+            self.add_class("-pass")
+        elif word == "FAIL":
+            self.add_class("-fail")
+        else:
+            self.add_class("-other")
+        self.refresh()
+
+    def render(self) -> Text:
+        if self.verdict is None:
+            return Text("\n".join(self._lines))
+        width = self.size.width
+        text = Text()
+        word = self.verdict.word
+        if width_of(word) <= width:
+            for line in big_letters(word):
+                text.append(line + "\n", self.verdict.style)
+        else:
+            text.append(f"RUN VERDICT: {word}\n", self.verdict.style)
+        text.append(f"{word}: {self.verdict.line}", "bold")
+        return text
+
+
+class ChartView(Widget):
+    """A chart redrawn to the widget's size, or a line saying why there is none."""
+
+    DEFAULT_CSS = "ChartView { height: 1fr; }"
+
+    def __init__(self, **kwargs: Any) -> None:
+        super().__init__(**kwargs)
+        self.chart: Chart | None = None
+        self.message = "the plot appears when the run has readings"
+
+    def show(self, chart: Chart | None, message: str = "") -> None:
+        self.chart = chart
+        self.message = message
+        self.refresh()
+
+    def render(self) -> Text:
+        if self.chart is None:
+            return Text(self.message, "dim")
+        return render(self.chart, self.size.width, self.size.height)
+
+
+RUN_COLUMNS = ("run", "serial", "sequence", "verdict", "status", "started")
+
+
+class RunList(DataTable[Any]):
+    """Recent runs at one station, newest first; Enter opens the run's record."""
+
+    def __init__(self, opener: Callable[[int], None], **kwargs: Any) -> None:
+        super().__init__(cursor_type="row", zebra_stripes=True, **kwargs)
+        self._opener = opener
+
+    def on_mount(self) -> None:
+        self.add_columns(*RUN_COLUMNS)
+
+    def show_runs(self, runs: list[dict[str, Any]], time_text: Callable[[str], str]) -> None:
+        self.clear()
+        for run in runs:
+            verdict = run["verdict"] or "running"
+            word = verdict_word(Verdict(verdict)) if verdict in _VALUES else verdict.upper()
+            self.add_row(
+                str(run["id"]),
+                run["serial"],
+                run["sequence_name"],
+                word,
+                run["status"],
+                time_text(run["started_at"]),
+                key=str(run["id"]),
+            )
+
+    def on_data_table_row_selected(self, event: DataTable.RowSelected) -> None:
+        event.stop()
+        if event.row_key.value is not None:
+            self._opener(int(event.row_key.value))
+
+
+_VALUES = {v.value for v in Verdict}

@@ -1,0 +1,157 @@
+"""How verdicts, readings and limits read on screen: always as words, one unit per row.
+
+Colour only repeats what the words already say, so the console reads on a monochrome terminal.
+A step's reading, limits and uncertainty share one engineering prefix, so the eye compares numbers
+rather than prefixes.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Iterable
+from dataclasses import dataclass
+
+from rig.events import StepResult
+from rig.judge.decision import Limits, Verdict
+
+VERDICT_WORDS = {
+    Verdict.PASS: "PASS",
+    Verdict.CONDITIONAL_PASS: "COND. PASS",
+    Verdict.CONDITIONAL_FAIL: "COND. FAIL",
+    Verdict.FAIL: "FAIL",
+    Verdict.ERROR: "ERROR",
+    Verdict.SKIPPED: "SKIPPED",
+}
+
+VERDICT_STYLES = {
+    Verdict.PASS: "bold green",
+    Verdict.CONDITIONAL_PASS: "bold yellow",
+    Verdict.CONDITIONAL_FAIL: "bold yellow",
+    Verdict.FAIL: "bold red",
+    Verdict.ERROR: "bold magenta",
+    Verdict.SKIPPED: "dim",
+}
+
+_PREFIXES = {-9: "n", -6: "u", -3: "m", 0: "", 3: "k", 6: "M", 9: "G"}
+_SYMBOLS = {"degC": "°C", "ohm": "ohm"}
+
+
+def verdict_word(verdict: Verdict) -> str:
+    return VERDICT_WORDS[verdict]
+
+
+@dataclass(frozen=True)
+class RunVerdict:
+    """The whole run's outcome as the operator must read it from across the bench."""
+
+    word: str
+    line: str
+    style: str
+
+
+def run_verdict(status: str, verdict: Verdict, reason: str, safe: bool) -> RunVerdict:
+    """``complete`` runs show their worst step verdict; anything else is ABORTED with its reason."""
+    safety = "bench made safe" if safe else "BENCH NOT SAFE: check relays and supply by hand"
+    if status != "complete":
+        return RunVerdict(
+            "ABORTED", f"run aborted: {reason or 'no reason given'}; {safety}", "bold magenta"
+        )
+    words = {
+        Verdict.PASS: "every step within its limits",
+        Verdict.CONDITIONAL_PASS: "within limits, but inside the uncertainty of a limit",
+        Verdict.CONDITIONAL_FAIL: "outside a limit, but within the uncertainty of it",
+        Verdict.FAIL: "at least one step outside its limits",
+        Verdict.ERROR: "at least one step could not measure",
+        Verdict.SKIPPED: "no step was measured",
+    }
+    return RunVerdict(
+        VERDICT_WORDS[verdict], f"{words[verdict]}; {safety}", VERDICT_STYLES[verdict]
+    )
+
+
+def _scale(magnitude: float, unit: str) -> tuple[float, str]:
+    """Factor and symbol that show ``magnitude`` with an engineering prefix."""
+    symbol = _SYMBOLS.get(unit, unit)
+    if unit in ("", "%", "degC", "K", "s") or not math.isfinite(magnitude) or magnitude == 0:
+        return 1.0, symbol
+    exponent = int(math.floor(math.log10(abs(magnitude)) / 3) * 3)
+    exponent = max(-9, min(9, exponent))
+    return 10.0**exponent, _PREFIXES[exponent] + symbol
+
+
+def _number(value: float | None, factor: float) -> str:
+    if value is None:
+        return ""
+    if math.isnan(value):
+        return "no reading"
+    if math.isinf(value):
+        return "overload"
+    return f"{value / factor:.5g}"
+
+
+@dataclass(frozen=True)
+class StepCells:
+    """One step as the run table shows it."""
+
+    reading: str
+    unit: str
+    limits: str
+    uncertainty: str
+
+
+def step_cells(result: StepResult) -> StepCells:
+    return kind_cells(result.kind, result.value, result.unit, result.limits, result.expanded_u)
+
+
+def kind_cells(
+    kind: str, value: float, unit: str, limits: Limits | None, expanded_u: float | None
+) -> StepCells:
+    """A prompt's answer reads yes or no; everything else is a quantity."""
+    if kind == "prompt":
+        return StepCells("yes" if value >= 0.5 else "no", "", "answer yes", "")
+    return quantity_cells(value, unit, limits, expanded_u)
+
+
+def quantity_cells(
+    value: float, unit: str, limits: Limits | None, expanded_u: float | None
+) -> StepCells:
+    """Reading, unit, limits and ± U (k = 2), scaled alike."""
+    sizes = [abs(v) for v in (value, *_limit_values(limits)) if v is not None and math.isfinite(v)]
+    factor, symbol = _scale(max(sizes) if sizes else math.nan, unit)
+    if limits is None:
+        limit_text = "-"
+    else:
+        low = "-inf" if limits.low is None else _number(limits.low, factor)
+        high = "+inf" if limits.high is None else _number(limits.high, factor)
+        limit_text = f"{low} .. {high}"
+    u_text = ""
+    if expanded_u is not None and math.isfinite(expanded_u) and expanded_u > 0:
+        u_text = f"±{expanded_u / factor:.2g}"
+    return StepCells(_number(value, factor), symbol, limit_text, u_text)
+
+
+def _limit_values(limits: Limits | None) -> tuple[float | None, float | None]:
+    if limits is None:
+        return None, None
+    return limits.low, limits.high
+
+
+def pins_text(pins: dict[str, str]) -> str:
+    """Pins as ``high-side - low-side``: ``T1-T2``, ``PT_FH/PT_SH-PT_FL/PT_SL``, a supply after."""
+    high = _unique(p for r, p in pins.items() if r.endswith("hi") or r in ("from", "pin"))
+    low = _unique(p for r, p in pins.items() if r.endswith("lo") or r == "to")
+    supply = _unique(p for r, p in pins.items() if r.startswith("supply_"))
+    rest = [f"{r}={p}" for r, p in pins.items() if p not in high + low + supply]
+    text = "/".join(high) + ("-" + "/".join(low) if low else "")
+    if supply:
+        text += " supply " + "/".join(supply)
+    return " ".join(part for part in (text, *rest) if part)
+
+
+def _unique(pins: Iterable[str]) -> list[str]:
+    return list(dict.fromkeys(pins))
+
+
+def live_text(value: float, unit: str) -> str:
+    cells = quantity_cells(value, unit, None, None)
+    return f"{cells.reading} {cells.unit}".strip()

@@ -1,0 +1,177 @@
+"""The operator console driven by textual's pilot, running real runs on the virtual bench.
+
+Every run here goes through the real drivers (pyvisa-py over TCP, pyserial on a pty) into a real
+SQLite file; the console is checked against what the bench and the store say, not against itself.
+"""
+
+from __future__ import annotations
+
+import asyncio
+import importlib.util
+import math
+from pathlib import Path
+
+from console_helpers import console_on_bench, finish, start_run, stored_run, wait_for
+from textual.widgets import DataTable, Static
+
+from rig.console.screens.history import HistoryScreen, RecordScreen
+from rig.console.screens.prompt import PromptScreen
+from rig.console.widgets import RunList, StatusPanel
+
+SIZE = (120, 40)
+
+
+def _cell_text(table: DataTable[object], row: int, column: int) -> str:
+    return str(table.get_row_at(row)[column])
+
+
+def test_a_scanned_serial_runs_the_sequence_the_prompt_is_answered_and_the_verdict_shown(
+    tmp_path: Path,
+) -> None:
+    async def scenario() -> None:
+        with console_on_bench("ntc-sender", tmp_path, "ntc-sender-screen") as (app, bench):
+            async with app.run_test(size=SIZE) as pilot:
+                screen = await start_run(pilot, "NTC-1001")
+                await wait_for(pilot, lambda: isinstance(app.screen, PromptScreen), "the prompt")
+                prompt = app.screen
+                assert isinstance(prompt, PromptScreen)
+                assert "Place the sender in the well" in prompt.text
+                # the prompt step opened everything before asking (read back from the bench)
+                assert bench.state()["closed_relays"] == []
+                await pilot.press("y")
+                await finish(pilot, screen)
+
+                assert screen.summary is not None
+                panel = screen.query_one(StatusPanel)
+                assert panel.verdict is not None and panel.verdict.word == "PASS"
+                # what the console shows is what the store recorded
+                run, steps = stored_run(app, screen.summary.run_id)
+                assert (run["serial"], run["status"], run["verdict"]) == (
+                    "NTC-1001",
+                    "complete",
+                    "pass",
+                )
+                assert run["operator"] == "tester" and run["unit"] == "ntc-sender"
+                table = screen.query_one("#steps", DataTable)
+                assert table.row_count == len(steps) == 4
+                for i, row in enumerate(steps):
+                    assert _cell_text(table, i, 1) == row["step_id"]
+                    assert _cell_text(table, i, 2) == row["verdict"].upper()
+                # the 4-wire sender reading, shown in kohm, agrees with the stored ohms
+                four_wire = next(r for r in steps if r["step_id"] == "sender-4wire")
+                index = steps.index(four_wire)
+                assert _cell_text(table, index, 4) == "kohm"
+                assert math.isclose(
+                    float(_cell_text(table, index, 3)) * 1e3, four_wire["value"], rel_tol=1e-4
+                )
+                # the next unit's serial is scanned straight into the run view: same sequence
+                await pilot.press(*"NTC-1004", "enter")
+                await wait_for(
+                    pilot, lambda: app.run_screen not in (None, screen), "the next unit's run"
+                )
+                second = app.run_screen
+                assert second is not None and second.request.serial == "NTC-1004"
+                await wait_for(pilot, lambda: isinstance(app.screen, PromptScreen), "a prompt")
+                await pilot.press("y")
+                await finish(pilot, second)
+                assert second.summary is not None and second.summary.run_id == 2
+                # Escape goes back to the start view, to choose another sequence
+                await pilot.press("escape")
+                await wait_for(pilot, lambda: app.run_screen is None, "the start view")
+
+    asyncio.run(scenario())
+
+
+def test_answering_no_fails_the_run_and_says_why_no_diagnosis_is_shown(tmp_path: Path) -> None:
+    async def scenario() -> None:
+        with console_on_bench("ntc-sender", tmp_path, "ntc-sender-screen") as (app, _bench):
+            app.setup.unit = None  # a real bench: the console does not know the unit model
+            async with app.run_test(size=SIZE) as pilot:
+                screen = await start_run(pilot, "NTC-1002")
+                await wait_for(pilot, lambda: isinstance(app.screen, PromptScreen), "the prompt")
+                await pilot.press("n")
+                await finish(pilot, screen)
+                panel = screen.query_one(StatusPanel)
+                assert panel.verdict is not None and panel.verdict.word == "FAIL"
+                assert screen.summary is not None and screen.summary.failed_steps == ["place"]
+                box = screen.query_one("#diagnosis", Static)
+                assert box.display
+                assert "no diagnosis available" in str(box.render())
+
+    asyncio.run(scenario())
+
+
+def test_a_failed_run_on_a_known_unit_shows_ranked_hypotheses_or_why_not(tmp_path: Path) -> None:
+    async def scenario() -> None:
+        with console_on_bench(
+            "temp-circuit", tmp_path, "temp-circuit-check", faults=("open:signal",)
+        ) as (app, _bench):
+            async with app.run_test(size=SIZE) as pilot:
+                screen = await start_run(pilot, "HAR-2001")
+                await finish(pilot, screen)
+                assert screen.summary is not None
+                assert screen.summary.verdict.value in ("fail", "conditional fail")
+                view = screen.diagnosis
+                assert view is not None and view.run_id == screen.summary.run_id
+                if importlib.util.find_spec("rig.analysis.diagnose") is None:  # optional module
+                    assert view.unavailable == "no diagnosis available (module not installed)"
+                else:
+                    assert not view.unavailable, view.unavailable
+                    # the fault injected on the virtual bench is the one named first
+                    assert view.hypotheses[0].fault == "open:signal"
+                    probabilities = [h.probability for h in view.hypotheses]
+                    assert probabilities == sorted(probabilities, reverse=True)
+                    assert all(0.0 <= p <= 1.0 for p in probabilities)
+                    text = str(screen.query_one("#diagnosis", Static).render())
+                    assert view.hypotheses[0].fault in text.split("2. ")[0]
+                    assert view.next_check is None or "Next check: " + view.next_check in text
+
+    asyncio.run(scenario())
+
+
+def test_an_empty_scan_starts_nothing_and_says_what_to_do(tmp_path: Path) -> None:
+    async def scenario() -> None:
+        with console_on_bench("ntc-sender", tmp_path, "ntc-sender-screen") as (app, _bench):
+            async with app.run_test(size=SIZE) as pilot:
+                await wait_for(pilot, lambda: len(app.screen_stack) > 1, "the cautions")
+                await pilot.press("enter")  # cautions
+                await pilot.press(" ", "enter")
+                await pilot.pause()
+                assert app.run_screen is None
+                problem = app.screen.query_one("#serial-problem", Static)
+                assert "scan or type" in str(problem.render())
+
+    asyncio.run(scenario())
+
+
+def test_history_lists_the_station_runs_and_opens_a_record(tmp_path: Path) -> None:
+    async def scenario() -> None:
+        with console_on_bench("ntc-sender", tmp_path, "ntc-sender-screen") as (app, _bench):
+            async with app.run_test(size=SIZE) as pilot:
+                screen = await start_run(pilot, "NTC-1003")
+                await wait_for(pilot, lambda: isinstance(app.screen, PromptScreen), "the prompt")
+                await pilot.press("y")
+                await finish(pilot, screen)
+                assert screen.summary is not None
+                await pilot.press("f2")
+                await wait_for(pilot, lambda: isinstance(app.screen, HistoryScreen), "history")
+                runs = app.screen.query_one(RunList)
+                assert runs.row_count == 1
+                assert _cell_text(runs, 0, 1) == "NTC-1003"
+                assert _cell_text(runs, 0, 3) == "PASS"
+                await pilot.press("enter")
+                await wait_for(pilot, lambda: isinstance(app.screen, RecordScreen), "the record")
+                record = app.screen
+                assert isinstance(record, RecordScreen)
+                assert record.run_id == screen.summary.run_id
+                steps = record.query_one("#record-steps", DataTable)
+                assert steps.row_count == 4
+                await pilot.press("escape", "escape")
+                await wait_for(pilot, lambda: app.screen is screen, "back to the run view")
+                # the start view's own pane shows the same run
+                await pilot.press("escape")
+                await wait_for(pilot, lambda: app.run_screen is None, "the start view")
+                recent = app.screen.query_one(RunList)
+                assert _cell_text(recent, 0, 1) == "NTC-1003"
+
+    asyncio.run(scenario())
