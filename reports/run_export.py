@@ -1,10 +1,16 @@
-"""A stored run as plain data (JSON) and as a CSV of its steps, straight from the results store."""
+"""A stored run as plain data (JSON) and as CSV, straight from the results store.
+
+CSV cells that hold text are made safe for spreadsheets: a cell starting with ``=``, ``+``,
+``-``, ``@``, a tab or a carriage return gets a leading apostrophe, so it is shown and not run as
+a formula (common practice, OWASP "CSV Injection").  Numbers are written as numbers.
+"""
 
 from __future__ import annotations
 
 import csv
 import io
 import json
+from collections.abc import Iterable, Mapping
 from typing import Any
 
 from rig.store import ResultStore
@@ -28,24 +34,124 @@ STEP_COLUMNS = (
     "settle_s",
     "note",
 )
+RUN_COLUMNS = (
+    "run_id",
+    "serial",
+    "sequence",
+    "sequence_hash",
+    "station",
+    "operator",
+    "unit_model",
+    "study_part",
+    "study_trial",
+    "run_started_at",
+    "run_ended_at",
+    "run_status",
+    "run_verdict",
+    "instruments",
+    "diagnosis",
+)
+_FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
 
 
-def run_record(store: ResultStore, run_id: int) -> dict[str, Any]:
-    """Everything kept for one run: header, steps and every raw reading."""
+def csv_safe(value: object) -> object:
+    """A text cell with an apostrophe in front when a spreadsheet would read it as a formula."""
+    if isinstance(value, str) and value.startswith(_FORMULA_STARTS):
+        return "'" + value
+    return value
+
+
+def run_record(
+    store: ResultStore, run_id: int, diagnosis: Mapping[str, Any] | None = None
+) -> dict[str, Any]:
+    """Everything kept for one run: header, steps, every raw reading, and its diagnosis."""
     run = store.run(run_id)
     for key in ("faults", "instruments", "notes"):
         run[key] = json.loads(run[key])
     steps = store.steps(run_id)
     for step in steps:
         step["extras"] = json.loads(step["extras"])
-    return {"run": run, "steps": steps, "readings": store.readings(run_id)}
+    record: dict[str, Any] = {"run": run, "steps": steps, "readings": store.readings(run_id)}
+    if diagnosis is not None:
+        record["diagnosis"] = dict(diagnosis)
+    return record
+
+
+def _safe_rows(rows: Iterable[Mapping[str, Any]], columns: tuple[str, ...]) -> str:
+    buffer = io.StringIO()
+    writer = csv.DictWriter(buffer, fieldnames=columns, extrasaction="ignore")
+    writer.writeheader()
+    for row in rows:
+        writer.writerow({k: csv_safe(v) for k, v in row.items()})
+    return buffer.getvalue()
 
 
 def steps_csv(store: ResultStore, run_id: int) -> str:
     """One row per step, with its value, limits, uncertainty and verdict."""
-    buffer = io.StringIO()
-    writer = csv.DictWriter(buffer, fieldnames=STEP_COLUMNS, extrasaction="ignore")
-    writer.writeheader()
-    for step in store.steps(run_id):
-        writer.writerow(step)
-    return buffer.getvalue()
+    return _safe_rows(store.steps(run_id), STEP_COLUMNS)
+
+
+def instruments_text(instruments: Iterable[Mapping[str, Any]]) -> str:
+    """Each instrument's role, identity and calibration due date, on one line."""
+    return "; ".join(
+        f"{i.get('role', '')}: {i.get('identity', '')} (calibration due "
+        f"{i.get('calibration_due') or 'not given'})"
+        for i in instruments
+    )
+
+
+def diagnosis_text(diagnosis: Mapping[str, Any] | None) -> str:
+    """The diagnosis in one line: hypotheses with probabilities, or why there is none."""
+    if not diagnosis:
+        return ""
+    if not diagnosis.get("hypotheses"):
+        return str(diagnosis.get("message", ""))
+    text = "; ".join(
+        f"{h['spec']} {100 * float(h['probability']):.0f} %" for h in diagnosis["hypotheses"]
+    )
+    if diagnosis.get("next_check"):
+        text += f"; next check: {diagnosis['next_check']}"
+    return text
+
+
+def record_csv(record: Mapping[str, Any]) -> str:
+    """The whole record as one CSV table: a row per step, carrying the run's header fields, its
+    instruments and diagnosis, and the step's raw readings (space separated, in order)."""
+    run = record["run"]
+    header = {
+        "run_id": run["id"],
+        "serial": run["serial"],
+        "sequence": run["sequence_name"],
+        "sequence_hash": run["sequence_hash"],
+        "station": run["station"],
+        "operator": run["operator"],
+        "unit_model": run.get("unit", ""),
+        "study_part": run.get("study_part", ""),
+        "study_trial": run.get("study_trial"),
+        "run_started_at": run["started_at"],
+        "run_ended_at": run["ended_at"],
+        "run_status": run["status"],
+        "run_verdict": run["verdict"],
+        "instruments": instruments_text(run["instruments"]),
+        "diagnosis": diagnosis_text(record.get("diagnosis")),
+    }
+    readings: dict[str, list[str]] = {}
+    for r in record["readings"]:
+        readings.setdefault(r["step_id"], []).append(_reading_text(r))
+    rows = [
+        {**header, **step, "readings": " ".join(readings.get(step["step_id"], []))}
+        for step in record["steps"]
+    ]
+    return _safe_rows(rows, (*RUN_COLUMNS, *STEP_COLUMNS, "readings"))
+
+
+def _reading_text(reading: Mapping[str, Any]) -> str:
+    """A raw reading as text; the store keeps no number for an overload or a NaN."""
+    if reading["value"] is not None:
+        return repr(reading["value"])
+    return "overload" if reading.get("overload") == 1 else "not-a-number"
+
+
+def record_json(record: Mapping[str, Any]) -> str:
+    """The record as indented JSON (NaN never appears: the store keeps none)."""
+    return json.dumps(record, indent=2, default=str) + "\n"

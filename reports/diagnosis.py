@@ -1,0 +1,101 @@
+"""The diagnosis shown for a failed run, from ``rig.analysis.diagnose`` when it can be made.
+
+A diagnosis needs the unit model and the plan (sequence on its station).  When the analysis
+module is not installed, the run passed, or the unit or station cannot be found, the report says
+why there is no diagnosis instead of guessing one.
+"""
+
+from __future__ import annotations
+
+import importlib
+import logging
+from collections.abc import Mapping
+from pathlib import Path
+from typing import Any
+
+from rig.config.station import Station
+from rig.errors import RigError
+from rig.store import ResultStore
+
+log = logging.getLogger(__name__)
+
+FAILED_VERDICTS = ("fail", "conditional fail", "error")
+
+
+def unavailable(message: str) -> dict[str, Any]:
+    return {"available": False, "message": message, "hypotheses": [], "next_check": None}
+
+
+def find_unit_file(run: Mapping[str, Any], unit_path: Path | None) -> Path | None:
+    """The unit file given, else ``<sequences>/units/<unit name>.toml`` if it exists."""
+    if unit_path is not None:
+        return unit_path
+    if not run.get("unit"):
+        return None
+    from rig.demo import sequences_dir
+
+    candidate = sequences_dir() / "units" / f"{run['unit']}.toml"
+    return candidate if candidate.exists() else None
+
+
+_LOADED: dict[tuple[str, str, int], tuple[Any, Any]] = {}
+"""Unit models and plans already loaded, so many runs of one sequence are diagnosed quickly
+(the analysis keeps its own work per plan object)."""
+
+
+def _unit_and_plan(unit_file: Path, sequence_path: str, station: Station) -> tuple[Any, Any]:
+    key = (str(unit_file), sequence_path, id(station))
+    if key not in _LOADED:
+        from rig.config.unit_file import load_unit
+        from rig.runner import load_plan
+
+        if len(_LOADED) > 16:
+            _LOADED.clear()
+        _LOADED[key] = (load_unit(unit_file), load_plan(sequence_path, station))
+    return _LOADED[key]
+
+
+def diagnose_stored_run(
+    store: ResultStore,
+    run: Mapping[str, Any],
+    *,
+    station: Station | None,
+    unit_path: Path | None = None,
+) -> dict[str, Any]:
+    """The diagnosis of one stored run as plain data, or the reason there is none."""
+    if run.get("verdict") not in FAILED_VERDICTS:
+        return unavailable("the run did not fail: no diagnosis needed")
+    try:
+        module = importlib.import_module("rig.analysis.diagnose")
+    except ImportError:
+        return unavailable("no diagnosis is available: the fault analysis is not installed")
+    if station is None:
+        return unavailable("no diagnosis is available: give --station to plan the sequence")
+    unit_file = find_unit_file(run, unit_path)
+    if unit_file is None:
+        return unavailable(
+            f"no diagnosis is available: unit model {run.get('unit') or '(none)'!r} not found; "
+            "give --unit"
+        )
+    try:
+        unit, plan = _unit_and_plan(unit_file, str(run["sequence_path"]), station)
+        found = module.diagnose_run(store, int(run["id"]), unit, plan)
+    except RigError as exc:
+        return unavailable(f"no diagnosis is available: {exc}")
+    except Exception as exc:  # the report must still be written; the log keeps the detail
+        log.debug("diagnosis of run %s failed", run.get("id"), exc_info=True)
+        return unavailable(f"no diagnosis is available: the analysis failed ({exc})")
+    return {
+        "available": True,
+        "message": "",
+        "hypotheses": [
+            {
+                "spec": str(h.spec),
+                "probability": float(h.probability),
+                "where": str(getattr(h, "where", "")),
+                "same_as": [str(x) for x in getattr(h, "same_as", ())],
+            }
+            for h in found.hypotheses
+        ],
+        "next_check": found.next_check,
+    }

@@ -1,0 +1,190 @@
+"""The per-run record as a self-contained HTML page: header, instruments, every step with its
+reading, limits, uncertainty and verdict, a plot of the margins, the diagnosis, raw readings."""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+from typing import Any
+
+from reports.html_page import esc, figure, page, table
+from reports.svg_plots import margin_chart
+from rig import __version__
+
+
+def num(value: object, digits: int = 7) -> str:
+    """A number for a table cell; empty for a missing one."""
+    if value is None:
+        return ""
+    if isinstance(value, float):
+        return "" if not math.isfinite(value) else f"{value:.{digits}g}"
+    return str(value)
+
+
+def _ratio(tur: float | None) -> str:
+    """A test uncertainty ratio as ``8085:1``."""
+    if tur is None or not math.isfinite(tur):
+        return ""
+    return f"{tur:.0f}:1" if tur >= 10 else f"{tur:.1f}:1"
+
+
+def _header(run: Mapping[str, Any]) -> str:
+    study = (
+        f"part {run.get('study_part')}, trial {run.get('study_trial')}"
+        if run.get("study_part")
+        else "no (production run)"
+    )
+    rows = [
+        ("unit serial", run["serial"]),
+        ("sequence", run["sequence_name"]),
+        ("sequence hash (SHA-256)", run["sequence_hash"]),
+        ("sequence file", run["sequence_path"]),
+        ("station", run["station"]),
+        ("operator", run["operator"] or "(not given)"),
+        ("unit model", run.get("unit") or "(not given)"),
+        ("gauge study", study),
+        ("started (UTC)", run["started_at"]),
+        ("ended (UTC)", run["ended_at"] or "(not ended)"),
+        ("status", run["status"]),
+        ("verdict", run["verdict"] or ""),
+        ("reason", run["reason"] or ""),
+    ]
+    rows += [("note", note) for note in run["notes"]]
+    return "<h2>Run</h2>" + table(["field", "value"], rows, table_id="run-header")
+
+
+def _instruments(run: Mapping[str, Any]) -> str:
+    rows = [
+        [
+            i.get("role", ""),
+            i.get("identity", ""),
+            i.get("resource", ""),
+            i.get("calibration_due") or "not given",
+        ]
+        for i in run["instruments"]
+    ]
+    return "<h2>Instruments</h2>" + table(
+        ["role", "identity", "resource", "calibration due"], rows, table_id="instruments"
+    )
+
+
+def _steps(steps: list[Mapping[str, Any]]) -> str:
+    rows = [
+        [
+            s["position"],
+            s["step_id"],
+            s["title"],
+            num(s["value"]),
+            s["unit"],
+            num(s["low"]),
+            num(s["high"]),
+            num(s["predicted"]),
+            num(s["expanded_u"], 3),
+            num(s["coverage_k"], 3),
+            s["decision_rule"],
+            _ratio(s["tur"]),
+            s["verdict"],
+            s["note"],
+        ]
+        for s in steps
+    ]
+    headers = [
+        "#",
+        "step",
+        "title",
+        "value",
+        "unit",
+        "low limit",
+        "high limit",
+        "predicted",
+        "U (expanded)",
+        "k",
+        "decision rule",
+        "TUR",
+        "verdict",
+        "note",
+    ]
+    return "<h2>Steps</h2>" + table(
+        headers, rows, numeric=(0, 3, 5, 6, 7, 8, 9, 11), verdict_column=12, table_id="steps"
+    )
+
+
+def _margins(steps: list[Mapping[str, Any]]) -> str:
+    labels, positions, half = [], [], []
+    for s in steps:
+        low, high, value = s["low"], s["high"], s["value"]
+        if low is None or high is None or value is None or high <= low:
+            continue
+        width = high - low
+        labels.append(str(s["step_id"]))
+        positions.append((value - low) / width)
+        half.append((s["expanded_u"] or 0.0) / width)
+    if not labels:
+        return '<p class="note">No step has both limits and a value: no margin plot.</p>'
+    return "<h2>Margins</h2>" + figure(
+        margin_chart(labels, positions, half),
+        "Each step's value within its limits (green band), with its expanded uncertainty.",
+    )
+
+
+def _diagnosis(diagnosis: Mapping[str, Any] | None) -> str:
+    if diagnosis is None:
+        return ""
+    if not diagnosis.get("hypotheses"):
+        return f'<h2>Diagnosis</h2><p id="diagnosis">{esc(diagnosis.get("message"))}</p>'
+    rows = [
+        [
+            h["spec"],
+            f"{100 * float(h['probability']):.1f} %",
+            h.get("where", ""),
+            ", ".join(h.get("same_as", [])),
+        ]
+        for h in diagnosis["hypotheses"]
+    ]
+    headers = ["fault hypothesis", "probability", "where", "cannot be told apart from"]
+    text = "<h2>Diagnosis</h2>" + table(headers, rows, numeric=(1,), table_id="diagnosis")
+    if diagnosis.get("next_check"):
+        text += f"<p>Next check: {esc(diagnosis['next_check'])}</p>"
+    return text
+
+
+def _readings(readings: list[Mapping[str, Any]]) -> str:
+    rows = [
+        [
+            r["step_id"],
+            r["role"],
+            r["function"],
+            num(r["value"], 10)
+            if r["value"] is not None
+            else ("overload" if r["overload"] == 1 else "not a number"),
+            num(r["range"]),
+            num(r["nplc"]),
+            num(r["u_std"], 3),
+            "yes" if r["settled"] else "",
+        ]
+        for r in readings
+    ]
+    headers = ["step", "role", "function", "reading", "range", "NPLC", "u (std)", "value taken"]
+    return "<h2>Raw readings</h2>" + table(headers, rows, numeric=(3, 4, 5, 6), table_id="readings")
+
+
+def render_run(record: Mapping[str, Any]) -> str:
+    """The record (``reports.run_export.run_record``) as a complete HTML page."""
+    run = record["run"]
+    title = (
+        f"Test record {run['serial']}: {run['sequence_name']} ({run['verdict'] or run['status']})"
+    )
+    verdict = str(run["verdict"] or run["status"])
+    sections = [
+        f"<h1>{esc(title)}</h1>",
+        f'<p>Verdict: <strong id="verdict">{esc(verdict.upper())}</strong></p>',
+        _header(run),
+        _instruments(run),
+        _steps(record["steps"]),
+        _margins(record["steps"]),
+        _diagnosis(record.get("diagnosis")),
+        _readings(record["readings"]),
+        f'<p class="note">Written by rig {esc(__version__)} from run {esc(run["id"])} '
+        f"(record id {esc(run['run_uid'])}).</p>",
+    ]
+    return page(title, sections)

@@ -1,0 +1,119 @@
+"""Shop statistics as a self-contained HTML page: yield and screen tables, failure Pareto, and
+per numeric step its capability with a histogram (limits, guard bands) and a trend chart."""
+
+from __future__ import annotations
+
+import datetime as dt
+import math
+from collections.abc import Callable, Sequence
+from typing import Any
+
+import pandas as pd
+
+from reports.html_page import esc, figure, page, table
+from reports.run_html import num
+from reports.svg_plots import histogram_chart, pareto_chart, trend_chart
+from rig.stats.from_store import ShopStats, StepStats
+
+SeriesLoader = Callable[[StepStats], Sequence[tuple[dt.datetime, float]]]
+"""The (start time, value) series of one step group, in time order."""
+
+
+def frame_table(frame: pd.DataFrame, percent: Sequence[str] = (), table_id: str = "") -> str:
+    """A DataFrame as an HTML table; the ``percent`` columns (fractions) shown in percent."""
+    rows = []
+    for record in frame.to_dict(orient="records"):
+        row = []
+        for column, value in record.items():
+            if column in percent:
+                row.append("" if pd.isna(value) else f"{100 * float(value):.1f} %")
+            elif isinstance(value, float):
+                row.append(num(value, 5))
+            else:
+                row.append(str(value))
+        rows.append(row)
+    numeric = [i for i, c in enumerate(frame.columns) if frame[c].dtype.kind in "fiu"]
+    return table([str(c) for c in frame.columns], rows, numeric=numeric, table_id=table_id)
+
+
+def _step_section(step: StepStats, series: Sequence[tuple[dt.datetime, float]]) -> str:
+    limits = f"{num(step.low)} .. {num(step.high)} {step.unit}"
+    rows: list[list[Any]] = [
+        ["values", step.n],
+        ["mean", num(step.mean)],
+        ["standard deviation", num(step.std)],
+        ["Cp", num(step.cp, 4)],
+        ["Cpk", num(step.cpk, 4)],
+        ["mean expanded uncertainty (guard band)", num(step.mean_expanded_u, 4)],
+    ]
+    parts = [
+        f"<h3>{esc(step.sequence)} / {esc(step.step_id)} (limits {esc(limits)})</h3>",
+        table(["figure", "value"], rows, numeric=(1,)),
+    ]
+    values = [v for _, v in series]
+    if values:
+        parts.append(
+            figure(
+                histogram_chart(values, step.unit, step.low, step.high, step.mean_expanded_u),
+                f"Histogram of {len(values)} values with limits (solid) and guard bands (dashed).",
+            )
+        )
+        parts.append(
+            figure(
+                trend_chart([t for t, _ in series], values, step.unit, step.low, step.high),
+                "Values over time with the limits.",
+            )
+        )
+    return "\n".join(parts)
+
+
+def render_stats(stats: ShopStats, series: SeriesLoader) -> str:
+    """The statistics as a complete HTML page."""
+    where = ", ".join(
+        f"{k} {v}" for k, v in stats.to_dict()["filter"].items() if v not in (None, "False")
+    )
+    sections = [
+        "<h1>Shop statistics</h1>",
+        f"<p>{esc(stats.runs)} production runs{esc(' (' + where + ')' if where else '')}.</p>",
+        "<h2>Yield per sequence</h2>",
+        frame_table(stats.by_sequence, ("first_pass_yield", "final_yield"), "yield"),
+        "<h2>Yield per day</h2>",
+        frame_table(stats.by_day, ("first_pass_yield", "final_yield"), "yield-by-day"),
+        "<h2>Returned-unit screens: confirmed failure or no fault found</h2>",
+        frame_table(stats.screens, ("confirmed_share",), "screens"),
+        "<h2>Failure Pareto by step</h2>",
+        frame_table(stats.pareto_steps, ("share", "cumulative"), "pareto-steps"),
+    ]
+    if len(stats.pareto_steps):
+        sections.append(
+            figure(
+                pareto_chart(
+                    stats.pareto_steps["step"].tolist()[:15],
+                    stats.pareto_steps["count"].astype(int).tolist()[:15],
+                ),
+                "Failed steps, most frequent first, with the cumulative share.",
+            )
+        )
+    sections.append("<h2>Failure Pareto by diagnosed fault kind</h2>")
+    if stats.pareto_faults is None:
+        sections.append(f'<p class="note">{esc(stats.fault_note)}</p>')
+    else:
+        sections.append(frame_table(stats.pareto_faults, ("share", "cumulative"), "pareto-faults"))
+    sections.append("<h2>Numeric steps: capability</h2>")
+    for step in stats.steps:
+        sections.append(_step_section(step, series(step)))
+    return page("Shop statistics", sections)
+
+
+def series_from_rows(
+    rows: Sequence[Sequence[Any]], step: StepStats
+) -> list[tuple[dt.datetime, float]]:
+    """(time, value) pairs of ``ResultStore.step_series`` rows that share the step's limits."""
+    found = []
+    for row in rows:
+        _, started, value, low, high = row[:5]
+        if value is None or low != step.low or high != step.high or not math.isfinite(value):
+            continue
+        stamp = dt.datetime.fromisoformat(str(started)).astimezone(dt.UTC).replace(tzinfo=None)
+        found.append((stamp, float(value)))
+    return found

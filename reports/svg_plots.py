@@ -1,0 +1,144 @@
+"""Plots as inline SVG text, drawn with matplotlib's Figure API (no pyplot, no display needed).
+
+Text in the plots is drawn as paths, so no string from a file ever becomes SVG markup.
+"""
+
+from __future__ import annotations
+
+import io
+import math
+import re
+from collections.abc import Sequence
+from datetime import datetime
+
+import matplotlib
+
+matplotlib.use("Agg")
+import numpy as np
+from matplotlib.figure import Figure
+
+LIMIT_COLOUR = "#c62828"
+GUARD_COLOUR = "#ef6c00"
+DATA_COLOUR = "#1565c0"
+_METADATA = re.compile(r"<metadata>.*?</metadata>", re.DOTALL)
+TREND_POINTS = 400
+"""Above this many values a trend chart shows the mean and range of consecutive groups."""
+
+
+def to_svg(fig: Figure) -> str:
+    """The figure as an ``<svg>`` element, without the XML prolog, ready to inline."""
+    buffer = io.StringIO()
+    fig.savefig(buffer, format="svg", bbox_inches="tight", metadata={"Date": None})
+    text = buffer.getvalue()
+    return _METADATA.sub("", text[text.index("<svg") :])
+
+
+def _figure(width_in: float = 7.0, height_in: float = 3.0) -> Figure:
+    return Figure(figsize=(width_in, height_in), dpi=96, layout="constrained")
+
+
+def margin_chart(labels: Sequence[str], positions: Sequence[float], half_u: Sequence[float]) -> str:
+    """Each step's value as a fraction of its limit band (0 = low limit, 1 = high limit), with
+    its expanded uncertainty as an error bar; outside 0..1 is outside the limits."""
+    n = max(1, len(labels))
+    fig = _figure(7.0, 0.6 + 0.3 * n)
+    ax = fig.add_subplot()
+    ys = list(range(len(labels)))[::-1]
+    ax.axvspan(0.0, 1.0, color="#d7f0d7", zorder=0)
+    ax.axvline(0.0, color=LIMIT_COLOUR)
+    ax.axvline(1.0, color=LIMIT_COLOUR)
+    shown = [max(-0.5, min(1.5, p)) for p in positions]
+    ax.errorbar(shown, ys, xerr=list(half_u), fmt="o", color=DATA_COLOUR, capsize=3)
+    ax.set_yticks(ys, list(labels))
+    ax.set_xlim(-0.55, 1.55)
+    ax.set_xlabel("position in the limit band (0 low limit, 1 high limit; clipped at -0.5, 1.5)")
+    return to_svg(fig)
+
+
+def histogram_chart(
+    values: Sequence[float],
+    unit: str,
+    low: float | None,
+    high: float | None,
+    guard: float | None,
+) -> str:
+    """A histogram of a step's values with its limits (solid) and guard bands (dashed: the
+    acceptance limits moved inside by the expanded uncertainty)."""
+    fig = _figure()
+    ax = fig.add_subplot()
+    finite = [v for v in values if math.isfinite(v)]
+    ax.hist(finite, bins=min(50, max(5, int(math.sqrt(len(finite) or 1)))), color=DATA_COLOUR)
+    for limit, sign in ((low, 1.0), (high, -1.0)):
+        if limit is None:
+            continue
+        ax.axvline(limit, color=LIMIT_COLOUR, label="limit")
+        if guard:
+            ax.axvline(limit + sign * guard, color=GUARD_COLOUR, ls="--", label="guard band")
+    handles, names = ax.get_legend_handles_labels()
+    unique = dict(zip(names, handles, strict=True))
+    if unique:
+        ax.legend(unique.values(), unique.keys(), loc="upper right")
+    ax.set_xlabel(unit or "value")
+    ax.set_ylabel("count")
+    return to_svg(fig)
+
+
+def trend_chart(
+    times: Sequence[datetime],
+    values: Sequence[float],
+    unit: str,
+    low: float | None,
+    high: float | None,
+) -> str:
+    """A step's values over time with its limits; long series as group means and ranges."""
+    fig = _figure()
+    ax = fig.add_subplot()
+    n = len(values)
+    if n > TREND_POINTS:
+        size = math.ceil(n / TREND_POINTS)
+        xs: list[np.datetime64] = []
+        mean: list[float] = []
+        lo: list[float] = []
+        hi: list[float] = []
+        for start in range(0, n, size):
+            chunk = [v for v in values[start : start + size] if math.isfinite(v)]
+            if not chunk:
+                continue
+            xs.append(np.datetime64(times[start], "ms"))
+            mean.append(sum(chunk) / len(chunk))
+            lo.append(min(chunk))
+            hi.append(max(chunk))
+        ax.fill_between(
+            np.array(xs), lo, hi, color=DATA_COLOUR, alpha=0.25, label=f"range of {size}"
+        )
+        ax.plot(np.array(xs), mean, color=DATA_COLOUR, label=f"mean of {size}")
+    else:
+        stamps = np.array([np.datetime64(t, "ms") for t in times])
+        ax.plot(stamps, list(values), "o-", ms=3, color=DATA_COLOUR, label="value")
+    for limit in (low, high):
+        if limit is not None:
+            ax.axhline(limit, color=LIMIT_COLOUR)
+    ax.set_ylabel(unit or "value")
+    ax.legend(loc="upper right")
+    fig.autofmt_xdate()
+    return to_svg(fig)
+
+
+def pareto_chart(labels: Sequence[str], counts: Sequence[int]) -> str:
+    """Bars of failure counts, largest first, with the cumulative share as a line."""
+    fig = _figure(7.0, 3.2)
+    ax = fig.add_subplot()
+    xs = list(range(len(labels)))
+    ax.bar(xs, list(counts), color=DATA_COLOUR)
+    ax.set_xticks(xs, list(labels), rotation=30, ha="right")
+    ax.set_ylabel("failures")
+    total = sum(counts) or 1
+    running, cumulative = 0, []
+    for c in counts:
+        running += c
+        cumulative.append(100.0 * running / total)
+    share = ax.twinx()
+    share.plot(xs, cumulative, "o-", color=LIMIT_COLOUR)
+    share.set_ylim(0, 105)
+    share.set_ylabel("cumulative %")
+    return to_svg(fig)

@@ -1,0 +1,60 @@
+"""The ``--station STATION | --store PATH`` choice shared by ``rig report`` and ``rig stats``,
+and where rendered files go: the station's data folder (beside its store), never the source
+tree."""
+
+from __future__ import annotations
+
+import argparse
+from dataclasses import dataclass
+from pathlib import Path
+
+import rig
+from rig.config.station import Station
+from rig.errors import RigError
+from rig.store import ResultStore
+
+_SOURCE_ROOT = Path(rig.__file__).resolve().parent.parent
+SOURCE_FOLDERS = ("rig", "reports", "drivers", "sequences", "tests", "docs", ".ci")
+
+
+class ArgumentProblem(RigError):
+    """A command-line argument that names no usable store or output place."""
+
+
+def add_store_args(parser: argparse.ArgumentParser) -> None:
+    where = parser.add_mutually_exclusive_group(required=True)
+    where.add_argument("--station", type=Path, help="station file: its store (or its server)")
+    where.add_argument("--store", type=Path, help="a results store file (SQLite)")
+
+
+@dataclass
+class OpenedStore:
+    store: ResultStore
+    station: Station | None
+    data_dir: Path
+
+
+def open_from_args(args: argparse.Namespace) -> OpenedStore:
+    """The store named on the command line; a missing store file is an error, not a new file."""
+    if args.station is not None:
+        from rig.config.station import load_station
+        from rig.store_open import open_store
+
+        station = load_station(args.station)
+        return OpenedStore(open_store(station), station, station.store_path.parent)
+    path: Path = args.store
+    if not path.is_file():
+        raise ArgumentProblem(f"--store {path}: no such results store file")
+    return OpenedStore(ResultStore(path), None, path.resolve().parent)
+
+
+def checked_output(path: Path) -> Path:
+    """``path`` resolved, refused when it is inside the project's source folders."""
+    resolved = path.expanduser().resolve()
+    for folder in SOURCE_FOLDERS:
+        if resolved.is_relative_to(_SOURCE_ROOT / folder):
+            raise ArgumentProblem(
+                f"{path}: rendered files are not written into the source tree "
+                f"({_SOURCE_ROOT / folder}); choose another --out"
+            )
+    return resolved

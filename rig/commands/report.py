@@ -1,0 +1,75 @@
+"""``rig report RUN_ID``: one run's record as HTML (plots inline), CSV or JSON."""
+
+from __future__ import annotations
+
+import argparse
+import re
+from pathlib import Path
+
+from rig.cli_output import Output
+from rig.commands._store_args import ArgumentProblem, add_store_args, checked_output, open_from_args
+
+EXIT_WRITTEN, EXIT_BAD_INPUT = 0, 2
+
+
+def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
+    report = sub.add_parser("report", help="one run's record as HTML, CSV or JSON")
+    report.add_argument("run_id", type=int, metavar="RUN_ID")
+    report.add_argument("--format", choices=("html", "csv", "json"), default="html")
+    report.add_argument(
+        "--out", type=Path, help="file to write ('-' for the terminal); default: the data folder"
+    )
+    add_store_args(report)
+    report.add_argument("--unit", type=Path, help="unit file, for the diagnosis of a failed run")
+    report.set_defaults(func=cmd_report)
+
+
+def default_name(run_id: int, serial: str, fmt: str) -> str:
+    """``run-12-HAR-0102.html``: the serial reduced to characters safe in any file name."""
+    safe = re.sub(r"[^A-Za-z0-9._-]+", "_", serial).strip("._") or "unit"
+    return f"run-{run_id}-{safe[:60]}.{fmt}"
+
+
+def cmd_report(args: argparse.Namespace, out: Output) -> int:
+    from reports.diagnosis import diagnose_stored_run
+    from reports.run_export import record_csv, record_json, run_record
+    from reports.run_html import render_run
+    from rig.store import StoreError
+
+    try:
+        opened = open_from_args(args)
+    except ArgumentProblem as exc:
+        out.error(f"rig: {exc}")
+        return EXIT_BAD_INPUT
+    try:
+        try:
+            run = opened.store.run(args.run_id)
+        except StoreError as exc:
+            out.error(f"rig: RUN_ID {args.run_id}: {exc}")
+            return EXIT_BAD_INPUT
+        diagnosis = diagnose_stored_run(
+            opened.store, run, station=opened.station, unit_path=args.unit
+        )
+        record = run_record(opened.store, args.run_id, diagnosis)
+    finally:
+        opened.store.close()
+    render = {"html": render_run, "csv": record_csv, "json": record_json}[args.format]
+    text = render(record)
+    if args.out is not None and str(args.out) == "-":
+        out.line(text.rstrip("\n"))
+        return EXIT_WRITTEN
+    try:
+        target = checked_output(
+            args.out
+            or opened.data_dir / "reports" / default_name(args.run_id, run["serial"], args.format)
+        )
+        target.parent.mkdir(parents=True, exist_ok=True)
+        target.write_text(text, encoding="utf-8")
+    except ArgumentProblem as exc:
+        out.error(f"rig: {exc}")
+        return EXIT_BAD_INPUT
+    except OSError as exc:
+        out.error(f"rig: cannot write the report: {exc}")
+        return EXIT_BAD_INPUT
+    out.line(f"report of run {args.run_id} ({run['serial']}) written to {target}")
+    return EXIT_WRITTEN

@@ -1,0 +1,99 @@
+"""First-pass and final yield per sequence and per day, and the outcome of returned-unit screens.
+
+A unit is counted once per sequence, by its serial.  First-pass yield: the share of units whose
+first run passed; final yield: the share whose last run passed (common practice, no published
+source).  A run passes when it completed with a verdict of pass or conditional pass (ILAC-G8
+wording); an aborted run counts as not passed.  Pure: takes a DataFrame of runs.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+import numpy as np
+import pandas as pd
+
+RUN_COLUMNS = ("id", "serial", "sequence_name", "started_at", "status", "verdict")
+PASSING = ("pass", "conditional pass")
+FAILING = ("fail", "conditional fail")
+
+
+def runs_frame(rows: Sequence[Sequence[object]]) -> pd.DataFrame:
+    """Runs as a DataFrame, in the order the store returned them (oldest first)."""
+    frame = pd.DataFrame.from_records([tuple(r) for r in rows], columns=list(RUN_COLUMNS))
+    complete = frame["status"].to_numpy() == "complete"
+    frame["passed"] = complete & frame["verdict"].isin(PASSING).to_numpy()
+    frame["failed"] = complete & frame["verdict"].isin(FAILING).to_numpy()
+    frame["day"] = frame["started_at"].astype(str).str.slice(0, 10)
+    return frame
+
+
+def units_frame(runs: pd.DataFrame) -> pd.DataFrame:
+    """One row per unit (sequence and serial): its first run's day and outcome, its last run's.
+
+    The runs must be in time order; a unit's first and last runs are found by position.
+    """
+    codes = runs.groupby(["sequence_name", "serial"], sort=False).ngroup().to_numpy()
+    _, first = np.unique(codes, return_index=True)
+    _, from_end = np.unique(codes[::-1], return_index=True)
+    last = len(codes) - 1 - from_end
+    return pd.DataFrame(
+        {
+            "sequence": runs["sequence_name"].to_numpy()[first],
+            "day": runs["day"].to_numpy()[first],
+            "first_passed": runs["passed"].to_numpy()[first],
+            "last_passed": runs["passed"].to_numpy()[last],
+            "last_failed": runs["failed"].to_numpy()[last],
+        }
+    )
+
+
+def yield_by_sequence(runs: pd.DataFrame, units: pd.DataFrame) -> pd.DataFrame:
+    """One row per sequence: units, runs, first-pass yield and final yield (fractions);
+    ``units`` is ``units_frame(runs)``."""
+    per_unit = units.groupby("sequence")
+    table = pd.DataFrame(
+        {
+            "units": per_unit.size(),
+            "runs": runs.groupby("sequence_name").size(),
+            "first_pass_yield": per_unit["first_passed"].mean(),
+            "final_yield": per_unit["last_passed"].mean(),
+        }
+    )
+    return table.rename_axis("sequence").reset_index()
+
+
+def yield_by_day(units: pd.DataFrame) -> pd.DataFrame:
+    """One row per sequence and day of a unit's first run: units, first-pass and final yield."""
+    grouped = units.groupby(["sequence", "day"])
+    table = pd.DataFrame(
+        {
+            "units": grouped.size(),
+            "first_pass_yield": grouped["first_passed"].mean(),
+            "final_yield": grouped["last_passed"].mean(),
+        }
+    )
+    return table.reset_index()
+
+
+def screen_outcomes(units: pd.DataFrame) -> pd.DataFrame:
+    """Per sequence, the last verdict on each unit: confirmed failure, no fault found, undecided.
+
+    For a screen of returned units a fail confirms the fault and a pass finds none; a last run
+    that did not complete leaves the unit undecided.
+    """
+    grouped = units.groupby("sequence")
+    confirmed = grouped["last_failed"].sum().astype(int)
+    no_fault = grouped["last_passed"].sum().astype(int)
+    units = grouped.size()
+    decided = confirmed + no_fault
+    table = pd.DataFrame(
+        {
+            "units": units,
+            "confirmed_failure": confirmed,
+            "no_fault_found": no_fault,
+            "undecided": units - decided,
+            "confirmed_share": (confirmed / decided.where(decided > 0)).astype(float),
+        }
+    )
+    return table.reset_index()

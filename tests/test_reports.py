@@ -1,0 +1,181 @@
+"""`rig report` on runs recorded by the virtual bench: every value from a user escaped in the
+HTML, CSV cells safe against formula injection, the same data in CSV and JSON as in the store,
+the diagnosis of a failed run, files written beside the store and never into the source tree."""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+from pathlib import Path
+from typing import Any
+
+import pytest
+from bench_helpers import SEQUENCES, shipped_bench, shipped_plan
+
+from reports.html_page import esc
+from reports.run_export import csv_safe, run_record
+from rig.cli import main
+from rig.runner import run_plan
+from rig.store import ResultStore
+
+# hostile text as a user could type it at the scan prompt
+SERIAL = '<img src=x onerror="alert(1)">&HAR'
+OPERATOR = '=HYPERLINK("http://example.invalid","x")'
+
+
+@pytest.fixture(scope="module")
+def recorded(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, Path, int]:
+    """(station file, store, run id) of a failed harness run with hostile serial and operator."""
+    folder = tmp_path_factory.mktemp("bench")
+    with shipped_bench("temp-circuit", ("open:signal",), folder=folder) as (_, station):
+        summary = run_plan(
+            shipped_plan("temp-circuit-check", station),
+            SERIAL,
+            operator=OPERATOR,
+            unit="temp-circuit",
+            ask=lambda t: True,
+        )
+    assert summary.verdict.value == "fail"
+    return folder / "station.toml", station.store_path, summary.run_id
+
+
+def stored(store_path: Path, run_id: int) -> tuple[dict[str, Any], list[Any], list[Any]]:
+    """The run, its steps and its readings as the store holds them."""
+    store = ResultStore(store_path)
+    try:
+        return store.run(run_id), store.steps(run_id), store.readings(run_id)
+    finally:
+        store.close()
+
+
+def printed(capsys: pytest.CaptureFixture[str], run_id: int, *args: str) -> str:
+    """What ``rig report RUN_ID ARGS --out -`` prints."""
+    assert main(["report", str(run_id), *args, "--out", "-"]) == 0
+    return capsys.readouterr().out
+
+
+def test_html_report_escapes_user_values_and_shows_everything(
+    recorded: tuple[Path, Path, int], capsys: pytest.CaptureFixture[str]
+) -> None:
+    station_file, store_path, run_id = recorded
+    assert main(["report", str(run_id), "--station", str(station_file)]) == 0
+    target = store_path.parent / "reports" / f"run-{run_id}-img_src_x_onerror_alert_1_HAR.html"
+    assert str(target) in capsys.readouterr().out
+    html = target.read_text(encoding="utf-8")
+    # source: html.escape of the Python standard library as the reference escaping
+    assert SERIAL not in html and esc(SERIAL) in html
+    assert "<img" not in html and 'onerror="' not in html
+    assert esc(OPERATOR) in html
+    run, steps, _ = stored(store_path, run_id)
+    assert run["sequence_hash"] in html
+    for instrument in json.loads(run["instruments"]):
+        assert esc(instrument["identity"]) in html
+        assert esc(instrument["calibration_due"]) in html
+    for step in steps:
+        assert f"<td>{esc(step['step_id'])}</td>" in html
+    assert 'id="steps"' in html and 'id="readings"' in html and "<svg" in html
+    # the failed run's diagnosis: a table from the fault analysis, or why there is none
+    assert "<h2>Diagnosis</h2>" in html
+
+
+def test_diagnosis_names_the_injected_fault_when_the_analysis_is_there(
+    recorded: tuple[Path, Path, int], capsys: pytest.CaptureFixture[str]
+) -> None:
+    station_file, _, run_id = recorded
+    text = printed(capsys, run_id, "--station", str(station_file), "--format", "json")
+    diagnosis = json.loads(text)["diagnosis"]
+    try:
+        import rig.analysis.diagnose  # noqa: F401
+    except ImportError:
+        assert diagnosis["available"] is False and "no diagnosis" in diagnosis["message"]
+        return
+    assert diagnosis["available"] is True
+    assert diagnosis["hypotheses"][0]["spec"] == "open:signal"  # the fault the bench injected
+
+
+def test_report_from_a_store_without_station_says_why_there_is_no_diagnosis(
+    recorded: tuple[Path, Path, int], tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    _, store_path, run_id = recorded
+    out = tmp_path / "r.html"
+    assert main(["report", str(run_id), "--store", str(store_path), "--out", str(out)]) == 0
+    assert "no diagnosis is available: give --station" in out.read_text(encoding="utf-8")
+
+
+def test_csv_carries_the_record_with_formula_safe_cells(
+    recorded: tuple[Path, Path, int], capsys: pytest.CaptureFixture[str]
+) -> None:
+    _, store_path, run_id = recorded
+    text = printed(capsys, run_id, "--store", str(store_path), "--format", "csv")
+    rows = list(csv.DictReader(io.StringIO(text)))
+    _, steps, readings = stored(store_path, run_id)
+    assert len(rows) == len(steps)
+    # source: OWASP "CSV Injection": a cell starting with = + - @ tab or CR gets a leading '
+    assert rows[0]["operator"] == "'" + OPERATOR
+    assert rows[0]["serial"] == SERIAL  # starts with "<": left as it is
+    for row, step in zip(rows, steps, strict=True):
+        assert row["step_id"] == step["step_id"] and row["verdict"] == step["verdict"]
+        if step["value"] is not None:
+            assert float(row["value"]) == step["value"]  # numbers stay numbers, unrounded
+        raw = [
+            repr(r["value"])
+            if r["value"] is not None
+            else ("overload" if r["overload"] == 1 else "not-a-number")
+            for r in readings
+            if r["step_id"] == step["step_id"]
+        ]
+        assert row["readings"].split() == raw
+
+
+@pytest.mark.parametrize(
+    ("text", "safe"),
+    [
+        ("=1+2", "'=1+2"),
+        ("+1", "'+1"),
+        ("-1", "'-1"),
+        ("@SUM(A1)", "'@SUM(A1)"),
+        ("\tx", "'\tx"),
+        ("\rx", "'\rx"),
+        ("plain", "plain"),
+        (-1.5, -1.5),
+    ],
+)
+def test_csv_safe_cells(text: object, safe: object) -> None:
+    # source: OWASP "CSV Injection" (the characters that start a formula)
+    assert csv_safe(text) == safe
+
+
+def test_json_is_the_stored_record(
+    recorded: tuple[Path, Path, int], capsys: pytest.CaptureFixture[str]
+) -> None:
+    _, store_path, run_id = recorded
+    data = json.loads(printed(capsys, run_id, "--store", str(store_path), "--format", "json"))
+    store = ResultStore(store_path)
+    try:
+        expected = run_record(store, run_id)
+    finally:
+        store.close()
+    assert data["run"] == json.loads(json.dumps(expected["run"], default=str))
+    assert data["steps"] == json.loads(json.dumps(expected["steps"]))
+    assert data["readings"] == json.loads(json.dumps(expected["readings"]))
+    assert data["run"]["serial"] == SERIAL and data["run"]["operator"] == OPERATOR
+
+
+def test_bad_run_id_and_places_are_reported_without_traceback(
+    recorded: tuple[Path, Path, int], capsys: pytest.CaptureFixture[str]
+) -> None:
+    _, store_path, _ = recorded
+    assert main(["report", "999", "--store", str(store_path)]) == 2
+    assert "RUN_ID 999: no run 999" in capsys.readouterr().err
+    assert main(["report", "1", "--store", str(store_path.parent / "missing.sqlite")]) == 2
+    assert "no such results store file" in capsys.readouterr().err
+    assert (
+        main(["report", "1", "--store", str(store_path), "--out", str(SEQUENCES / "r.html")]) == 2
+    )
+    assert "not written into the source tree" in capsys.readouterr().err
+    assert not (SEQUENCES / "r.html").exists()
+    with pytest.raises(SystemExit) as stop:
+        main(["report", "first", "--store", str(store_path)])
+    assert stop.value.code == 2
+    assert "RUN_ID: invalid int value: 'first'" in capsys.readouterr().err

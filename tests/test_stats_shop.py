@@ -1,0 +1,202 @@
+"""Shop statistics over real stores: the demo's 10 sensor runs and retests on the virtual bench;
+each figure recomputed independently from the stored rows (plain Python and numpy)."""
+
+from __future__ import annotations
+
+import json
+import re
+from collections import Counter
+from pathlib import Path
+
+import numpy as np
+import pytest
+from bench_helpers import SEQUENCES, shipped_bench, shipped_plan
+
+from rig.cli import main
+from rig.demo import CASES, run_demo
+from rig.runner import run_plan
+from rig.stats.filters import FilterError, RunFilter, make_filter
+from rig.stats.from_store import shop_stats
+from rig.store import ResultStore
+
+PASSING = ("pass", "conditional pass")
+
+
+@pytest.fixture(scope="module")
+def demo_store(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    store_path, runs = run_demo(tmp_path_factory.mktemp("demo"), cases=CASES)
+    assert len(runs) == 10
+    return store_path
+
+
+def test_yield_and_screens_match_the_stored_runs(demo_store: Path) -> None:
+    # source: first-pass / final yield as shares of units (common practice, no published source),
+    # recomputed here in plain Python from the run rows
+    store = ResultStore(demo_store)
+    try:
+        runs = sorted(store.runs(limit=1000), key=lambda r: (r["started_at"], r["id"]))
+        stats = shop_stats(store, RunFilter())
+    finally:
+        store.close()
+    assert stats.runs == len(runs) == 10
+    table = stats.by_sequence.set_index("sequence")
+    for sequence in {r["sequence_name"] for r in runs}:
+        mine = [r for r in runs if r["sequence_name"] == sequence]
+        first: dict[str, bool] = {}
+        last: dict[str, bool] = {}
+        for r in mine:
+            ok = r["status"] == "complete" and r["verdict"] in PASSING
+            first.setdefault(r["serial"], ok)
+            last[r["serial"]] = ok
+        assert table.loc[sequence, "units"] == len(first)
+        assert table.loc[sequence, "first_pass_yield"] == pytest.approx(
+            sum(first.values()) / len(first)
+        )
+        assert table.loc[sequence, "final_yield"] == pytest.approx(sum(last.values()) / len(last))
+        screens = stats.screens.set_index("sequence")
+        assert screens.loc[sequence, "no_fault_found"] == sum(last.values())
+
+
+def test_pareto_and_capability_match_the_stored_steps(demo_store: Path) -> None:
+    # source: counts of failed steps and numpy mean / std(ddof=1) of the stored step values
+    store = ResultStore(demo_store)
+    try:
+        runs = store.runs(limit=1000)
+        steps = [(r["sequence_name"], s) for r in runs for s in store.steps(r["id"])]
+        stats = shop_stats(store, RunFilter())
+    finally:
+        store.close()
+    failed = Counter(
+        f"{seq} / {s['step_id']}"
+        for seq, s in steps
+        if s["verdict"] in ("fail", "conditional fail", "error")
+    )
+    assert dict(zip(stats.pareto_steps["step"], stats.pareto_steps["count"], strict=True)) == failed
+    assert stats.pareto_steps["cumulative"].iloc[-1] == pytest.approx(1.0)
+    assert list(stats.pareto_steps["count"]) == sorted(failed.values(), reverse=True)
+    checked = 0
+    for group in stats.steps:
+        values = [
+            s["value"]
+            for seq, s in steps
+            if seq == group.sequence
+            and s["step_id"] == group.step_id
+            and s["low"] == group.low
+            and s["high"] == group.high
+            and s["value"] is not None
+        ]
+        assert group.n == len(values)
+        assert group.mean == pytest.approx(float(np.mean(values)), rel=1e-9, abs=1e-12)
+        if len(values) > 1 and np.std(values) > 1e-9 * abs(np.mean(values)):
+            s_dev = float(np.std(values, ddof=1))
+            assert group.std == pytest.approx(s_dev, rel=1e-6)
+            if group.low is not None and group.high is not None:
+                assert group.cp == pytest.approx((group.high - group.low) / (6 * s_dev), rel=1e-6)
+            checked += 1
+    assert checked >= 3
+
+
+def test_retested_unit_counts_in_final_but_not_first_pass_yield(tmp_path: Path) -> None:
+    # a real retest on the virtual bench: the broken sender fails, the replacement passes
+    for faults in (("open:lead_b",), ()):
+        with shipped_bench("ntc-sender", faults, folder=tmp_path) as (_, station):
+            run_plan(shipped_plan("ntc-sender-screen", station), "RET-1", ask=lambda t: True)
+    store = ResultStore(station.store_path)
+    try:
+        stats = shop_stats(store, RunFilter())
+    finally:
+        store.close()
+    row = stats.by_sequence.iloc[0]
+    assert (row["units"], row["runs"]) == (1, 2)
+    assert row["first_pass_yield"] == 0.0 and row["final_yield"] == 1.0
+    screen = stats.screens.iloc[0]
+    assert (screen["confirmed_failure"], screen["no_fault_found"]) == (0, 1)
+
+
+def test_filters_select_runs(demo_store: Path) -> None:
+    store = ResultStore(demo_store)
+    try:
+        assert shop_stats(store, make_filter(serial_prefix="NTC-")).runs == 3
+        assert shop_stats(store, make_filter(sequence="temp-circuit-check")).runs == 4
+        day = store.run(1)["started_at"][:10]
+        assert shop_stats(store, make_filter(since=day, until=day)).runs == 10
+        assert shop_stats(store, make_filter(until="2000-01-01")).runs == 0
+        assert shop_stats(store, make_filter(station="elsewhere")).runs == 0
+    finally:
+        store.close()
+
+
+def test_bad_filter_arguments_are_named(
+    demo_store: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    with pytest.raises(FilterError, match="--since: expected a date as YYYY-MM-DD"):
+        make_filter(since="1/3/2026")
+    with pytest.raises(FilterError, match="--until 2026-01-01 is before --since 2026-02-01"):
+        make_filter(since="2026-02-01", until="2026-01-01")
+    assert main(["stats", "--store", str(demo_store), "--since", "yesterday"]) == 2
+    assert "--since: expected a date as YYYY-MM-DD" in capsys.readouterr().err
+    assert main(["stats", "--store", str(demo_store.parent / "none.sqlite")]) == 2
+    assert "no such results store file" in capsys.readouterr().err
+    assert main(["stats"]) == 2
+    assert "give --station STATION or --store PATH" in capsys.readouterr().err
+
+
+def test_stats_json_and_tables(demo_store: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    assert main(["stats", "--store", str(demo_store), "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    assert data["runs"] == 10
+    assert {r["sequence"] for r in data["yield_by_sequence"]} == {
+        "ntc-sender-screen",
+        "temp-circuit-check",
+        "pressure-circuit-check",
+    }
+    assert data["pareto_by_fault_kind"] is None and "no diagnosis" in data["fault_kind_note"]
+    assert all("cpk" in s for s in data["steps"])
+    assert main(["stats", "--store", str(demo_store), "--serial-prefix", "HAR-"]) == 0
+    text = capsys.readouterr().out
+    assert "4 production runs" in text and "Failure Pareto by step" in text
+
+
+def test_stats_page_has_tables_and_charts(
+    demo_store: Path, tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    page = tmp_path / "stats.html"
+    args = ["stats", "--store", str(demo_store), "--sequence", "ntc-sender-screen"]
+    assert main([*args, "--html", str(page)]) == 0
+    html = page.read_text(encoding="utf-8")
+    assert 'id="yield"' in html and 'id="pareto-steps"' in html
+    # one histogram and one trend chart per numeric step group, and the Pareto chart
+    assert html.count("<svg") >= 2 * 3 + 1
+    # self-contained: the only addresses are the XML namespace names of SVG (never fetched)
+    assert set(re.findall(r"https?://[^\"' ]+", html)) <= {
+        "http://www.w3.org/2000/svg",
+        "http://www.w3.org/1999/xlink",
+    }
+    assert main([*args, "--html"]) == 0  # default place: beside the store
+    assert (demo_store.parent / "reports" / "stats.html").is_file()
+    assert main([*args, "--html", str(SEQUENCES / "stats.html")]) == 2
+    assert "not written into the source tree" in capsys.readouterr().err
+
+
+def test_fault_kind_pareto_names_the_faults_the_bench_injected(
+    demo_store: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    station_file = demo_store.parent / "virtual-station.toml"  # written by the demo
+    assert main(["stats", "--station", str(station_file), "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    try:
+        import rig.analysis.diagnose  # noqa: F401
+    except ImportError:
+        assert data["pareto_by_fault_kind"] is None
+        return
+    store = ResultStore(demo_store)
+    try:
+        injected = Counter(
+            json.loads(r["faults"])[0].split(":")[0]
+            for r in store.runs(limit=100)
+            if r["verdict"] in ("fail", "conditional fail")
+        )
+    finally:
+        store.close()
+    found = {r["fault_kind"]: r["count"] for r in data["pareto_by_fault_kind"]}
+    assert found == dict(injected)
