@@ -9,18 +9,18 @@ import math
 import signal
 import sys
 import threading
-import time
 from pathlib import Path
 from types import FrameType
 from typing import TYPE_CHECKING
 
 from rig import __version__
-from rig.cli_output import Output, show, show_limits
+from rig.cli_output import Output, serve_bench, show, show_limits
 from rig.errors import ConfigError, RigError
 from rig.judge.decision import Verdict
 
 if TYPE_CHECKING:
     from rig.plan import Plan, PlannedStep
+    from rig.store_sync import SyncReport
 
 EXIT_PASS, EXIT_FAIL, EXIT_BAD_INPUT, EXIT_ABORTED = 0, 1, 2, 3
 
@@ -83,6 +83,9 @@ def _parser() -> argparse.ArgumentParser:
     run.add_argument("--operator", default="")
     run.add_argument("--yes", action="store_true", help="confirm operator prompts automatically")
     run.add_argument("--json", action="store_true")
+    run.add_argument("--readings", action="store_true", help="print each reading once it is stored")
+    run.add_argument("--study-part", default="", help="gauge study: the part measured")
+    run.add_argument("--study-trial", type=int, help="gauge study: this trial's number (1, 2, ...)")
     run.set_defaults(func=cmd_run)
 
     sim = sub.add_parser("sim", help="serve a virtual bench for a unit file")
@@ -136,6 +139,7 @@ def cmd_demo(args: argparse.Namespace, out: Output) -> int:
                         "verdict": r.summary.verdict.value,
                         "status": r.summary.status,
                         "failed_steps": r.summary.failed_steps,
+                        "likely_fault": r.likely_fault,
                     }
                     for r in runs
                 ],
@@ -149,13 +153,17 @@ def cmd_demo(args: argparse.Namespace, out: Output) -> int:
             f"-> {r.summary.verdict.value.upper()}"
         )
         for result in r.summary.results:
-            if result.step_id in r.summary.failed_steps:
+            if result.step_id in r.summary.failed_steps and result.unit == "faults":
+                out.line(f"      {result.step_id}: {result.note}")
+            elif result.step_id in r.summary.failed_steps:
                 out.line(
                     f"      {result.step_id}: {show(result.value, result.unit)} "
                     f"(limits {show_limits(result.limits, result.unit)})"
                 )
         if r.summary.reason:
             out.line(f"      reason: {r.summary.reason}")
+        if r.likely_fault:
+            out.line(f"      likely fault (rig diagnose): {r.likely_fault}")
     out.line()
     out.line(f"{len(runs)} runs stored in {store_path}")
     return 0
@@ -194,7 +202,14 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
         f"({plan.relay_ops_file_order()} in file order, {plan.relay_ops_unordered()} opening "
         "everything between readings)"
     )
-    out.line(f"duration at the physical limit: {plan.physical_limit_s() * 1000:.1f} ms")
+    limit = plan.physical_limit()
+    out.line(
+        f"duration at the physical limit: {limit.total_s * 1000:.1f} ms "
+        f"(relays {limit.relays_s * 1000:.1f} ms in {limit.transitions} changes, "
+        f"{limit.readings} readings {limit.readings_s * 1000:.1f} ms, "
+        f"autorange {limit.autorange_s * 1000:.1f} ms, waits {limit.waits_s * 1000:.1f} ms); "
+        f"proving each reading settled adds up to {limit.settle_proof_s * 1000:.1f} ms"
+    )
     if station.store_path.exists():
         from rig.engine import wear_warnings
         from rig.store import ResultStore
@@ -243,7 +258,12 @@ def _estimate(plan: Plan, step: PlannedStep) -> tuple[str, str, str]:
 
 def cmd_run(args: argparse.Namespace, out: Output) -> int:
     from rig.runner import load_plan, run_plan
+    from rig.stats.study import study_problem
 
+    problem = study_problem(args.study_part, args.study_trial, args.operator)
+    if problem:
+        out.error(f"rig: {problem}")
+        return EXIT_BAD_INPUT
     plan = load_plan(args.sequence, args.station)
     if args.json:
         out.quiet = True
@@ -257,7 +277,20 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
         answer = input(f"  {text} [y/N] ")
         return answer.strip().lower() in ("y", "yes")
 
-    summary = run_plan(plan, args.serial, operator=args.operator, listener=out.on_event, ask=ask)
+    out.show_readings = bool(getattr(args, "readings", False))
+    synced: list[SyncReport] = []
+    summary = run_plan(
+        plan,
+        args.serial,
+        operator=args.operator,
+        listener=out.on_event,
+        ask=ask,
+        resume=getattr(args, "resume", None),
+        study_part=args.study_part,
+        study_trial=args.study_trial,
+        on_sync=synced.append,
+    )
+    server = synced[-1].describe() if synced else None  # after the run, when a server is set
     if args.json:
         out.quiet = False
         out.json(
@@ -271,6 +304,7 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
                 "failed_steps": summary.failed_steps,
                 "safe": summary.safe,
                 "store": str(plan.station.store_path),
+                "server": server,
                 "steps": [
                     {
                         "id": r.step_id,
@@ -288,11 +322,20 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
     else:
         out.line()
         out.results(summary.results)
+        for result in summary.results:
+            if result.step_id in summary.failed_steps and result.note:
+                out.line(f"  {result.step_id}: " + "\n    ".join(result.note.split("; ")))
         out.line()
         out.line(f"verdict: {summary.verdict.value.upper()}  ({summary.status})")
         if summary.reason:
             out.line(f"reason: {summary.reason}")
         out.line(f"record: run {summary.run_id} in {plan.station.store_path}")
+        if summary.failed_steps:
+            from rig.commands.diagnose import suggestion
+
+            out.line(f"likely fault: {suggestion(summary.run_id, args.station)} --unit UNIT_FILE")
+        if server:
+            out.line(server)
     return _exit_code(summary.verdict, summary.status)
 
 
@@ -325,18 +368,15 @@ def cmd_sim(args: argparse.Namespace, out: Output) -> int:
     try:
         control.start()
         station = bench.write_station(args.station_out)
-        out.line(f"virtual bench for unit {unit.name} ({args.timing} timing)")
-        out.line(f"  DMM        {endpoints.dmm_resource}")
-        out.line(f"  supply     {endpoints.supply_resource}")
-        out.line(f"  relay box  {endpoints.relay_port}")
-        out.line(f"  control    127.0.0.1:{control.port}")
-        out.line(f"  faults     {', '.join(f.spec for f in faults) or 'none'}")
-        out.line(f"station file written to {station}")
-        out.line("Ctrl-C or SIGTERM stops the bench.")
-        while True:
-            time.sleep(0.2)
-    except KeyboardInterrupt:
-        out.line("stopping the virtual bench")
+        rows = [
+            ("DMM", endpoints.dmm_resource),
+            ("supply", endpoints.supply_resource),
+            ("relay box", endpoints.relay_port),
+            ("control", f"127.0.0.1:{control.port}"),
+            ("faults", ", ".join(f.spec for f in faults) or "none"),
+        ]
+        title = f"virtual bench for unit {unit.name} ({args.timing} timing)"
+        serve_bench(out, title, rows, station)
     finally:
         control.stop()
         bench.stop()

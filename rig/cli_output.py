@@ -5,10 +5,11 @@ from __future__ import annotations
 import json
 import math
 import sys
+import time
 from collections.abc import Sequence
 from typing import Any, TextIO
 
-from rig.events import Event, RunFinished, RunStarted, StepFinished, StepResult
+from rig.events import Event, ReadingTaken, RunFinished, RunStarted, StepFinished, StepResult
 from rig.judge.decision import Limits
 from rig.quantity import format_quantity
 
@@ -20,6 +21,8 @@ class Output:
         self.out = out or sys.stdout
         self.err = err or sys.stderr
         self.quiet = False
+        self.show_readings = False
+        """Print each reading once the store has committed it (``rig run --readings``)."""
         self._total = 0
 
     def line(self, text: str = "") -> None:
@@ -52,6 +55,8 @@ class Output:
             done = r.position
             bar = "#" * done + "." * max(0, self._total - done)
             self.line(f"  [{bar}] {r.step_id}: {r.verdict.value}")
+        elif isinstance(event, ReadingTaken) and self.show_readings:
+            self.line(f"    stored {event.step_id} {event.role} {event.value!r} {event.unit}")
         elif isinstance(event, RunFinished) and not event.safe:
             self.error("WARNING: the bench could not be verified safe: " + "; ".join(event.notes))
 
@@ -68,6 +73,21 @@ class Output:
             for r in results
         ]
         self.table(["step", "value", "limits", "U (k=2)", "TUR", "verdict"], rows)
+
+
+def serve_bench(out: Output, title: str, rows: Sequence[tuple[str, str]], station: object) -> None:
+    """Say where a virtual bench is served, then wait for Ctrl-C or SIGTERM (the caller stops
+    the bench)."""
+    out.line(title)
+    for label, value in rows:
+        out.line(f"  {label:<10} {value}")
+    out.line(f"station file written to {station}")
+    out.line("Ctrl-C or SIGTERM stops the bench.")
+    try:
+        while True:
+            time.sleep(0.2)
+    except KeyboardInterrupt:
+        out.line("stopping the virtual bench")
 
 
 def show(value: float | None, unit: str) -> str:

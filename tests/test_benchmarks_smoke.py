@@ -14,7 +14,17 @@ from pathlib import Path
 import pytest
 
 BENCHMARKS = Path(__file__).resolve().parent / "benchmarks"
-EXPECTED_KEYS = {"solver.py": {"solve_300_ms", "batch_10k_s", "read_roundtrip_ms"}}
+EXPECTED_KEYS = {
+    "solver.py": {"solve_300_ms", "batch_10k_s", "read_roundtrip_ms"},
+    "coverage.py": {"faults", "seconds"},
+    "diagnosis.py": {"cases", "top1_pct", "top3_pct", "median_ms"},
+    "montecarlo.py": {"samples_per_s"},
+    "stats.py": {"readings", "stats_s", "stats_filtered_s"},
+    "throughput.py": {"repetitions", "wall_over_limit_max", "script_over_rig_min"},
+    "handwritten_script.py": {"readings", "relay_ops", "wall_ms"},
+    "scale.py": {"check_us_per_step_max", "engine_cpu_ms_per_step_max"},
+    "console_keys.py": {"key_ms_median", "key_ms_max", "keys_during_reading", "run_s"},
+}
 
 
 @pytest.mark.parametrize("script", sorted(p.name for p in BENCHMARKS.glob("*.py")))

@@ -150,7 +150,8 @@ def test_two_wire_with_stored_zero_agrees_with_four_wire(tmp_path: Path) -> None
         summary = run_plan(build_plan(load_sequence(seq), load_station(station_path)), "R-1")
     finally:
         bench.stop()
-    two, four = summary.results
+    by_id = {result.step_id: result for result in summary.results}  # run order may differ
+    two, four = by_id["two-wire"], by_id["four-wire"]
     # 26 AWG copper: 133.9 ohm/km at 20 degC (handbook AWG table, from memory), corrected to
     # the unit's 23 degC with alpha 0.00393 /K (from memory): 6 m of lead is 0.813 ohm.
     leads = 6 * 0.1339 * (1 + 0.00393 * 3)
