@@ -21,7 +21,7 @@ from drivers.base import Dmm, MeterFunction, RelayBox, Supply
 from rig.commit_ahead import CommitAhead
 from rig.config.fixture import FixtureMap
 from rig.config.station import FUNCTIONS, Station
-from rig.entry_text import check_entry_text
+from rig.entry_text import kept_entry_text
 from rig.errors import InstrumentError, InterlockError, RigError
 from rig.events import (
     Event,
@@ -191,10 +191,11 @@ class Engine:
         study_trial: int | None = None,
     ) -> RunSummary:
         """Run the plan, or with ``resume`` continue that incomplete run from its next step."""
-        check_entry_text("entered text", {"serial": serial, "operator": operator})
+        kept, byte_notes = kept_entry_text({"serial": serial, "operator": operator})
+        serial, operator = kept["serial"], kept["operator"]
         station = self.plan.station
         sequence = self.plan.sequence
-        notes = list(notes or [])
+        notes = [*(notes or []), *byte_notes]
         notes.extend(abandoned_notes(self.store.mark_incomplete(station.name, INCOMPLETE_REASON)))
         identities = self._identities(notes)
         done: dict[str, StepResult] = {}

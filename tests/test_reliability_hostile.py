@@ -1,10 +1,12 @@
-"""Hostile text: kept exactly, bound as SQL parameters, never evaluated; undecodable bytes refused
-with a message naming the field.  All against a real SQLite file and the virtual bench."""
+"""Hostile text: kept exactly, bound as SQL parameters, never evaluated; undecodable bytes kept
+readable in the field and exactly in the run's notes.  All against a real SQLite file and the
+virtual bench."""
 
 from __future__ import annotations
 
 import contextlib
 import io
+import json
 import re
 import sqlite3
 import tempfile
@@ -17,12 +19,13 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from rig.cli import main
+from rig.entry_text import entered_bytes
 from rig.runner import load_plan, run_plan
 from rig.store import ResultStore, RunHeader
 
 ROOT = Path(__file__).resolve().parent.parent
 
-# Any Unicode text but lone surrogates (those are undecodable bytes, refused at entry).
+# Any Unicode text but lone surrogates (undecodable bytes, kept as \\xNN; tested on their own).
 hostile = st.one_of(
     st.sampled_from(HOSTILE_TEXT),
     st.text(st.characters(exclude_categories=["Cs"]), max_size=200),
@@ -170,8 +173,9 @@ def test_a_real_run_keeps_hostile_serial_operator_and_titles(tmp_path: Path, ser
     assert "__import__" in step["title"] and not sentinel.exists()
 
 
-def test_undecodable_bytes_in_a_serial_are_refused_naming_the_field(tmp_path: Path) -> None:
-    serial = b"SN-\xff\xfe".decode("utf-8", "surrogateescape")  # as argv hands such bytes over
+def test_undecodable_bytes_in_a_serial_are_kept_exactly_in_the_record(tmp_path: Path) -> None:
+    entered = b"SN-\xff\xfe<b>"
+    serial = entered.decode("utf-8", "surrogateescape")  # as argv hands such bytes over
     with shipped_bench("temp-circuit", folder=tmp_path) as (_, station):
         code, _, err = _run_cli(
             [
@@ -181,12 +185,25 @@ def test_undecodable_bytes_in_a_serial_are_refused_naming_the_field(tmp_path: Pa
                 str(station.path),
                 "--serial",
                 serial,
+                "--operator",
+                serial,
                 "--json",
             ]
         )
-    assert code == 2, err
-    assert "[serial]" in err and "0xff" in err and "Traceback" not in err
-    assert not station.store_path.exists() or not ResultStore(station.store_path).runs()
+        assert code == 0, err
+        assert "Traceback" not in err
+        store = ResultStore(station.store_path)
+        try:
+            (row,) = store.runs()
+            run = store.run(row["id"])
+        finally:
+            store.close()
+    # readable and safe where it is shown: each undecodable byte as \xNN, the rest as entered
+    assert run["serial"] == run["operator"] == "SN-\\xff\\xfe<b>"
+    # and nothing lost: the exact bytes are in the run's notes
+    notes = run["notes"] if isinstance(run["notes"], list) else json.loads(run["notes"])
+    assert entered_bytes(notes, "serial") == entered_bytes(notes, "operator") == entered
+    assert entered_bytes(["operator was fine"], "serial") is None
 
 
 PAYLOADS = [
