@@ -181,7 +181,7 @@ def test_stats_page_has_tables_and_charts(
 def test_fault_kind_pareto_names_the_faults_the_bench_injected(
     demo_store: Path, capsys: pytest.CaptureFixture[str]
 ) -> None:
-    station_file = demo_store.parent / "virtual-station.toml"  # written by the demo
+    station_file = demo_store.parent / "station-pressure-circuit.toml"  # written by the demo
     assert main(["stats", "--station", str(station_file), "--json"]) == 0
     data = json.loads(capsys.readouterr().out)
     try:
