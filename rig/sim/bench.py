@@ -182,7 +182,9 @@ class VirtualBench:
     def write_station(self, path: Path, *, data_dir: str | None = None) -> Path:
         path = Path(path)
         path.parent.mkdir(parents=True, exist_ok=True)
-        folder = Path(data_dir) if data_dir else path.parent / "rig-data"
+        # the results land beside the station file unless told otherwise (an absolute path in
+        # the file, so it does not matter where later commands are started)
+        folder = Path(data_dir) if data_dir else path.parent
         text = self.station_toml(data_dir=str(folder.resolve()))
         path.write_text(text, encoding="utf-8")
         return path
