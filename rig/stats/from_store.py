@@ -6,8 +6,10 @@ values never pass through Python one by one; runs come as plain rows into one Da
 
 from __future__ import annotations
 
+import threading
 from collections import Counter
 from collections.abc import Callable
+from concurrent.futures import Future
 from dataclasses import asdict, dataclass, replace
 from typing import Any
 
@@ -86,8 +88,37 @@ class ShopStats:
 
 def step_stats(store: ResultStore, where: RunFilter) -> list[StepStats]:
     """Mean, standard deviation, Cp and Cpk of every numeric step, per set of limits."""
+    return step_stats_from(store.step_moments(where))
+
+
+def step_moments_alongside(store: ResultStore, where: RunFilter) -> Future[list[Any]]:
+    """The step sums read on a second connection in a worker thread, so the database adds them
+    up while this thread reads the runs (SQLite lets go of the GIL while it works); on a server,
+    in turn on the one connection."""
+    result: Future[list[Any]] = Future()
+    path = store.path
+    if path is None:
+        result.set_result(store.step_moments(where))
+        return result
+
+    def read() -> None:
+        try:
+            second = ResultStore(path)
+            try:
+                result.set_result(second.step_moments(where))
+            finally:
+                second.close()
+        except BaseException as exc:  # handed to the caller's thread by result()
+            result.set_exception(exc)
+
+    threading.Thread(target=read, name="step-sums", daemon=True).start()
+    return result
+
+
+def step_stats_from(moments: list[Any]) -> list[StepStats]:
+    """``StepStats`` from the rows of ``ResultStore.step_moments``."""
     found = []
-    for row in store.step_moments(where):
+    for row in moments:
         sequence, step_id, unit, low, high, n, sum_d, sum_d2, mean_u, position, failures = row
         shift = low if low is not None else (high if high is not None else 0.0)
         mean, std = moments_from_sums(int(n), float(sum_d or 0), float(sum_d2 or 0), shift)
@@ -116,9 +147,10 @@ def shop_stats(
     store: ResultStore, where: RunFilter, find_fault: FaultFinder | None = None
 ) -> ShopStats:
     """Yield, screen outcomes, failure Pareto and step capability for the runs ``where`` picks."""
+    moments = step_moments_alongside(store, where)
     runs = runs_frame(store.run_rows(where))
     units = units_frame(runs)
-    groups = step_stats(store, where)
+    groups = step_stats_from(moments.result())
     by_step = Counter[str]()
     for group in groups:
         by_step[f"{group.sequence} / {group.step_id}"] += group.failures
