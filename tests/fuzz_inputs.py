@@ -349,17 +349,9 @@ def check_fault_specs(specs: list[str]) -> str | None:
 
 def station_template() -> str:
     """A valid station file (the virtual bench's template) pointing at the demo fixture."""
-    from rig.sim.bench import STATION_TEMPLATE
+    from offline_station import offline_station_text
 
-    return STATION_TEMPLATE.format(
-        name="fuzz",
-        fixture=json.dumps(str(FIXTURE)),
-        line="50 Hz",
-        data_dir=json.dumps(str(_SCRATCH / "data")),
-        dmm="TCPIP::127.0.0.1::1::SOCKET",
-        supply="TCPIP::127.0.0.1::2::SOCKET",
-        relays="/dev/null",
-    )
+    return offline_station_text("fuzz", FIXTURE, _SCRATCH / "data")
 
 
 SAFE_COMMANDS = ["run", "check", "continue", "report", "diagnose", "stats", "limits", "coverage"]

@@ -8,12 +8,12 @@ really happened, so a test cannot pass on an unchanged file) or small files writ
 
 from __future__ import annotations
 
-import json
 from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
 import pytest
+from offline_station import offline_station_text
 
 from rig.config.fixture import Bus, load_fixture
 from rig.config.sequence import load_sequence
@@ -21,7 +21,6 @@ from rig.config.station import Station, load_station
 from rig.config.unit_file import NtcSensor, RatiometricSensor, load_unit
 from rig.errors import ConfigError, Problem
 from rig.plan import build_plan
-from rig.sim.bench import STATION_TEMPLATE
 
 ROOT = Path(__file__).resolve().parent.parent
 SEQUENCES = ROOT / "sequences"
@@ -73,15 +72,7 @@ def write(tmp_path: Path, name: str, text: str) -> Path:
 
 def station_file(tmp_path: Path, fixture: Path = FIXTURE) -> Path:
     """A station modelled on the virtual bench's template, with resources nobody opens."""
-    text = STATION_TEMPLATE.format(
-        name="loader-test",
-        fixture=json.dumps(str(fixture)),
-        line="50 Hz",
-        data_dir=json.dumps(str(tmp_path / "rig-data")),
-        dmm="TCPIP::127.0.0.1::1::SOCKET",
-        supply="TCPIP::127.0.0.1::2::SOCKET",
-        relays="/dev/null",
-    )
+    text = offline_station_text("loader-test", fixture, tmp_path / "rig-data")
     return write(tmp_path, "station.toml", text)
 
 

@@ -9,12 +9,12 @@ plus 1 ms of the meter's own time per reading; autorange 5 ms where the range is
 from __future__ import annotations
 
 import inspect
-import json
 import time
 from pathlib import Path
 
 import pytest
 from bench_helpers import SEQUENCES, shipped_bench, shipped_plan
+from offline_station import offline_station_text
 
 from rig.bench_open import close_bench, open_bench
 from rig.config.reader import TomlDoc
@@ -23,7 +23,7 @@ from rig.config.station import Station, load_station
 from rig.engine import Engine, SettlePolicy
 from rig.plan import InstrumentTiming, Plan, build_plan
 from rig.sim import sim_dmm, sim_supply
-from rig.sim.bench import STATION_TEMPLATE, VirtualBench
+from rig.sim.bench import VirtualBench
 from rig.sim.timing import Timing
 from rig.store import ResultStore
 
@@ -32,15 +32,7 @@ from rig.store import ResultStore
 def station(tmp_path_factory: pytest.TempPathFactory) -> Station:
     """The demo fixture on a station whose instruments are never opened (planning only)."""
     tmp = tmp_path_factory.mktemp("station")
-    text = STATION_TEMPLATE.format(
-        name="limit-test",
-        fixture=json.dumps(str(SEQUENCES / "demo-fixture.toml")),
-        line="50 Hz",
-        data_dir=json.dumps(str(tmp / "rig-data")),
-        dmm="TCPIP::127.0.0.1::1::SOCKET",
-        supply="TCPIP::127.0.0.1::2::SOCKET",
-        relays="/dev/null",
-    )
+    text = offline_station_text("limit-test", SEQUENCES / "demo-fixture.toml", tmp / "rig-data")
     path = tmp / "station.toml"
     path.write_text(text, encoding="utf-8")
     return load_station(path)

@@ -8,10 +8,10 @@ fixture's closure limit.
 
 from __future__ import annotations
 
-import json
 from pathlib import Path
 
 import pytest
+from offline_station import offline_station_text
 
 from rig.config.fixture import Bus, FixtureMap, load_fixture
 from rig.config.reader import TomlDoc
@@ -27,7 +27,6 @@ from rig.routing import (
     relay_operations,
     relays_for,
 )
-from rig.sim.bench import STATION_TEMPLATE
 from rig.steps import KINDS
 
 ROOT = Path(__file__).resolve().parent.parent
@@ -65,15 +64,7 @@ def demo() -> FixtureMap:
 @pytest.fixture(scope="module")
 def station(tmp_path_factory: pytest.TempPathFactory) -> Station:
     tmp = tmp_path_factory.mktemp("station")
-    text = STATION_TEMPLATE.format(
-        name="routing-test",
-        fixture=json.dumps(str(DEMO_FIXTURE)),
-        line="50 Hz",
-        data_dir=json.dumps(str(tmp / "rig-data")),
-        dmm="TCPIP::127.0.0.1::1::SOCKET",
-        supply="TCPIP::127.0.0.1::2::SOCKET",
-        relays="/dev/null",
-    )
+    text = offline_station_text("routing-test", DEMO_FIXTURE, tmp / "rig-data")
     path = tmp / "station.toml"
     path.write_text(text, encoding="utf-8")
     return load_station(path)
