@@ -1,8 +1,9 @@
 """Driver for a serial relay box speaking our line protocol (docs/relay-box-protocol.md).
 
-Every change is verified by reading the state back, every reply is checked (checksum, sequence
-number), and one corrupted or missing reply is retried: every verb of the protocol is idempotent,
-so repeating a command whose acknowledgement was lost cannot move a relay twice.
+Every change is verified against the state the box reports back, every reply is checked
+(checksum, sequence number), and one corrupted or missing reply is retried: every verb of the
+protocol is idempotent, so repeating a command whose acknowledgement was lost cannot move a relay
+twice.
 """
 
 from __future__ import annotations
@@ -36,6 +37,7 @@ from drivers.relay_frames import (
     parse_info,
     parse_state,
 )
+from drivers.serial_lines import LineReader
 from rig.errors import (
     ConfigError,
     InstrumentConnectionLost,
@@ -111,6 +113,7 @@ class SerialRelayBox(RelayBox):
                 write_timeout=self._timeout_ms / 1000.0,
                 exclusive=True,
             )
+            self._lines = LineReader(self._port, TERMINATOR)
         except (serial.SerialException, OSError, ValueError) as exc:
             raise InstrumentConnectionLost(
                 f"cannot open serial port: {exc}", instrument=name, resource=resource
@@ -151,18 +154,18 @@ class SerialRelayBox(RelayBox):
     def open_all(self) -> None:
         with self._lock:
             before = self._known
-            self._transact(Verb.OPENALL)
+            reply = self._transact(Verb.OPENALL)
             self._count(before, frozenset())
-            self._verify(frozenset(), "OPENALL")
+            self._verify(reply, frozenset(), "OPENALL")
 
     def apply(self, closed: Iterable[int]) -> None:
         target = self._check_relays(closed)
         arg = format_relays(target)
         with self._lock:
             before = self._known
-            self._transact(Verb.SET, arg)
+            reply = self._transact(Verb.SET, arg)
             self._count(before, target)
-            self._verify(target, f"SET {arg}")
+            self._verify(reply, target, f"SET {arg}")
 
     def closed_relays(self) -> frozenset[int]:
         with self._lock:
@@ -256,19 +259,24 @@ class SerialRelayBox(RelayBox):
             raise self._error(InstrumentProtocolError, str(exc), "WHO") from exc
 
     def _read_state(self) -> BoxState:
-        reply = self._transact(Verb.STATE)
+        return self._state_of(self._transact(Verb.STATE), "STATE")
+
+    def _state_of(self, reply: Reply, command: str) -> BoxState:
         try:
             return parse_state(reply.payload)
         except FrameError as exc:
-            raise self._error(InstrumentProtocolError, str(exc), "STATE") from exc
+            raise self._error(InstrumentProtocolError, str(exc), command) from exc
 
     def _count(self, before: frozenset[int], after: frozenset[int]) -> None:
         for relay in before ^ after:
             if relay in self._counts:
                 self._counts[relay] += 1
 
-    def _verify(self, expected: frozenset[int], command: str) -> None:
-        state = self._read_state()
+    def _verify(self, reply: Reply, expected: frozenset[int], command: str) -> None:
+        """Compare the state the box reports after the change with the one asked for.  The
+        reply to SET and OPENALL is that state, read by the box once its contacts have moved
+        (checksummed and numbered like any reply), so no STATE query is needed."""
+        state = self._state_of(reply, command)
         self._known = state.closed
         if state.closed != expected:
             tripped = (
@@ -321,11 +329,11 @@ class SerialRelayBox(RelayBox):
     def _exchange(self, seq: int, frame: bytes, command: str) -> Reply:
         port = self._port
         try:
-            port.reset_input_buffer()
+            self._lines.discard_input()
             port.write(frame)
             # a few stale replies to commands given up on may precede ours
             for _ in range(1 + len(self._abandoned)):
-                line = port.read_until(TERMINATOR, MAX_REPLY_LINE)
+                line = self._lines.read_line(MAX_REPLY_LINE)
                 if not line.endswith(TERMINATOR):
                     if line:
                         raise self._error(

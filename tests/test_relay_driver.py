@@ -323,6 +323,8 @@ class ScriptedPeer:
         tty.setraw(self.slave)
         self.path = os.ttyname(self.slave)
         self._reply = reply
+        self.verbs: list[str] = []
+        """Every verb received, in order."""
         self._stop = threading.Event()
         self._thread = threading.Thread(target=self._run, daemon=True)
         self._thread.start()
@@ -339,6 +341,7 @@ class ScriptedPeer:
             while b"\n" in buffer:
                 line, _, buffer = buffer.partition(b"\n")
                 command = decode_command(line + b"\n")
+                self.verbs.append(command.verb)
                 if command.verb == "WHO":
                     payload = format_info(BoxInfo(4, 2, "a,b,c,d"))
                     os.write(self.master, encode_reply(Reply(command.seq, True, payload)))
@@ -371,6 +374,31 @@ def test_wrong_replies_are_protocol_errors(answer: Callable[[int], bytes], messa
             with pytest.raises(InstrumentProtocolError, match=message):
                 box.stop_watchdog()
             assert box.retries == 0
+        finally:
+            box.close()
+    finally:
+        peer.close()
+
+
+def test_a_change_is_verified_from_its_own_reply_without_a_state_query() -> None:
+    # The SET reply is the state the box read once its contacts moved
+    # (docs/relay-box-protocol.md): one exchange per change, and a reply that shows another
+    # state than the one asked for is an error naming both.
+    def answer(seq: int) -> bytes:
+        return encode_reply(
+            Reply(seq, True, format_state(BoxState(frozenset({2}), WatchdogMode.OFF, 0)))
+        )
+
+    peer = ScriptedPeer(answer)
+    try:
+        box = SerialRelayBox("relays", peer.path, SETTINGS)
+        try:
+            before = len(peer.verbs)
+            box.apply([2])
+            assert peer.verbs[before:] == ["SET"]
+            with pytest.raises(InstrumentReportedError, match=r"shows closed 2, expected 1"):
+                box.apply([1])
+            assert peer.verbs[-1] == "SET"
         finally:
             box.close()
     finally:
