@@ -19,6 +19,7 @@ from typing import ClassVar
 from drivers.base import Dmm, InstrumentIdentity, MeterFunction
 from drivers.visa_session import (
     VisaSession,
+    compound,
     format_number,
     merge_dialect,
     parse_number,
@@ -131,9 +132,12 @@ class ScpiDmm(Dmm):
         if old is None or old.function is not function or old.nplc != nplc:
             commands.append(self._commands["nplc"].format(function=func, nplc=format_number(nplc)))
         self._configuration = None
-        self._sample_count = None  # CONFigure resets the sample count on SCPI meters
-        for command in commands:
-            self._session.write(command)
+        if old is None or old.function is not function:
+            self._sample_count = None  # CONFigure resets the sample count on SCPI meters
+        # One program message, then the error query on its own: a meter may skip the rest of a
+        # message after a refused unit (IEEE 488.2 leaves the recovery point to the device), so a
+        # query at the end of it might never be answered.
+        self._session.write(compound(commands))
         self.check_errors(after="; ".join(commands))
         self._configuration = wanted
         log.debug("%s configured %s", self.name, wanted)

@@ -239,6 +239,14 @@ def parse_error_reply(reply: str, *, where: Mapping[str, str]) -> tuple[int, str
     return int(m.group(1)), m.group(2).replace('""', '"')
 
 
+def compound(commands: list[str]) -> str:
+    """Commands as one program message (IEEE 488.2 §7.3: units joined by ``;``; a leading ``:``
+    puts each SCPI header back at the root, common commands such as ``*CLS`` need none)."""
+    return ";".join(
+        c if c.startswith((":", "*")) or not i else f":{c}" for i, c in enumerate(commands)
+    )
+
+
 def raise_queued_errors(session: VisaSession, error_query: str, after: str) -> None:
     """Empty the instrument's error queue; raise ``InstrumentReportedError`` if it held anything."""
     found: list[tuple[int, str]] = []

@@ -160,7 +160,7 @@ def test_configure_is_recorded_and_a_repeat_is_skipped(resistor: Rig, dmm: ScpiD
     assert resistor.dmm_sim.lines_handled == before  # nothing sent
     dmm.configure(MeterFunction.RES_4W, 1000.0, 10.0)  # only the NPLC changes: no range command
     assert resistor.dmm_sim.nplc == 10.0
-    assert resistor.dmm_sim.lines_handled == before + 2  # NPLC + one SYST:ERR?
+    assert resistor.dmm_sim.lines_handled == before + 2  # NPLC, then SYST:ERR?
     dmm.configure(MeterFunction.RES_4W, None, 10.0)
     assert resistor.dmm_sim.autorange
     dmm.reset()
