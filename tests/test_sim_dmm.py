@@ -27,7 +27,7 @@ class RecordingClock(BenchClock):
         super().__init__(Timing.REAL)
         self.waited: list[float] = []
 
-    def wait(self, seconds: float) -> None:
+    def wait(self, seconds: float, *, since: float | None = None) -> None:
         self.waited.append(seconds)
 
 

@@ -191,7 +191,28 @@ class CircuitProbe:
         key = (self.closed(), function.value)
         if key in self._tau_cache:
             return self._tau_cache[key]
-        base = self.circuit
+        tau = self._slowest_tau(self.circuit)
+        self._tau_cache[key] = tau
+        return tau
+
+    def time_constant(self, relays: frozenset[int], function: MeterFunction) -> float:
+        """The slowest R*C the meter sees on ``relays`` in ``function`` (seconds; 0 without
+        capacitors), leaving the bench as it is: what an engineer states a settle time from."""
+        with self._lock:
+            c = self.circuit.copy()
+            for pin in self.fixture.pins.values():
+                for relay in pin.relays.values():
+                    c.set_switch(f"relay:{relay}", relay in relays)
+            ohms = function not in (MeterFunction.DC_VOLTS, MeterFunction.DC_CURRENT)
+            inputs = {
+                MeterFunction.DC_VOLTS: DCV_INPUT_OHM,
+                MeterFunction.DC_CURRENT: DCI_SHUNT_OHM,
+            }
+            c.set_value("meter:input", inputs.get(function, OHMS_INPUT_OHM))
+            c.set_value("meter:test", 0.0 if not ohms else 1e-3)  # a source: no conductance
+            return self._slowest_tau(c)
+
+    def _slowest_tau(self, base: Circuit) -> float:
         tau = 0.0
         probe_a = 1e-6
         for cap in self.unit.capacitors.values():
@@ -201,5 +222,4 @@ class CircuitProbe:
             v1 = solve(c).vdiff(cap.a, cap.b)
             r_th = abs(v1 - v0) / probe_a
             tau = max(tau, r_th * cap.c_farad)
-        self._tau_cache[key] = tau
         return tau

@@ -392,7 +392,14 @@ class SimDmm(ScpiInstrument):
             raise ScpiError(-240, str(error)) from error
 
     def _autorange(self, spec: FunctionSpec, previous: float) -> float:
-        """Pick the smallest range whose full scale holds the value (re-probed per test current)."""
+        """Pick the smallest range whose full scale holds the value, paying for a change."""
+        chosen = self._autorange_choice(spec)
+        if chosen != previous:
+            self.clock.wait(AUTORANGE_COST_S)
+        return chosen
+
+    def _autorange_choice(self, spec: FunctionSpec) -> float:
+        """The smallest range whose full scale holds the value (re-probed per test current)."""
         chosen = spec.ranges[-1]
         cache: dict[float, float] = {}
         for r in spec.ranges:
@@ -403,18 +410,22 @@ class SimDmm(ScpiInstrument):
             if math.isfinite(value) and abs(value) <= r:
                 chosen = r
                 break
-        if chosen != previous:
-            self.clock.wait(AUTORANGE_COST_S)
         return chosen
 
     def _one_reading(self) -> float:
+        started = self.clock.mark()
         spec = SPECS[self._function]
         setup = self._setups[self._function]
+        cost = setup.nplc / self.line_hz + READING_OVERHEAD_S
         if setup.auto:
-            setup.range_ = self._autorange(spec, setup.range_)
+            chosen = self._autorange_choice(spec)
+            cost += AUTORANGE_COST_S if chosen != setup.range_ else 0.0
+            setup.range_ = chosen
         rng, nplc = setup.range_, setup.nplc
         true = self._probe(spec, rng)
-        self.clock.wait(nplc / self.line_hz + READING_OVERHEAD_S)
+        # A meter computes while it integrates: the solver's own time is part of the reading's
+        # time, not added to it, so the controller is not charged for the simulation.
+        self.clock.wait(cost, since=started)
         limit = rng * OVERRANGE_FACTOR
         if math.isnan(true) or abs(true) > limit:
             return math.copysign(OVERLOAD, true if not math.isnan(true) else 1.0)
