@@ -212,9 +212,15 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
         f"duration at the physical limit: {limit.total_s * 1000:.1f} ms "
         f"(relays {limit.relays_s * 1000:.1f} ms in {limit.transitions} changes, "
         f"{limit.readings} readings {limit.readings_s * 1000:.1f} ms, "
-        f"autorange {limit.autorange_s * 1000:.1f} ms, waits {limit.waits_s * 1000:.1f} ms); "
-        f"proving each reading settled adds up to {limit.settle_proof_s * 1000:.1f} ms"
+        f"autorange {limit.autorange_s * 1000:.1f} ms, waits {limit.waits_s * 1000:.1f} ms, "
+        f"stated settle {limit.settle_s * 1000:.1f} ms, settle proof "
+        f"{limit.settle_proof_s * 1000:.1f} ms)"
     )
+    if limit.settle_proof_s:
+        out.line(
+            "  steps that state no settle time are proved settled by a second reading after "
+            "each change of route; state `settle` where the circuit's time constant is known"
+        )
     if station.store_path.exists():
         from rig.engine import wear_warnings
         from rig.store import ResultStore

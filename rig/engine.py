@@ -119,6 +119,8 @@ def make_safe(bench: Bench) -> list[str]:
     except (RigError, OSError) as exc:
         failures.append(f"supply {supply.name}: {refused or exc}")
     refused = _attempt(relays.open_all)
+    if not refused:
+        return failures  # open_all compared the state the box reported after opening
     try:
         still = relays.closed_relays()
         if still:
@@ -134,6 +136,8 @@ def _attempt(action: Callable[[], None]) -> str:
     """Run ``action``; its error in words, in parentheses (empty when it worked)."""
     try:
         action()
+    except InstrumentError as exc:
+        return f"({plain_reason(exc)})"
     except (RigError, OSError) as exc:
         return f"({exc})"
     return ""
@@ -173,6 +177,9 @@ class Engine:
         self._step_settle = 0.0
         self._step_readings = 0
         self._relays_changed_at = 0.0
+        self._moved_at = 0.0
+        """``time.monotonic()`` of the last relay or supply change: a stated settle runs from it."""
+        self._step_settle_s: float | None = None
         self._step_finals: list[Reading] = []
         self._step_problems: list[str] = []
 
@@ -249,7 +256,6 @@ class Engine:
                 if result.verdict is Verdict.ERROR:
                     status, reason = "aborted", f"step {result.step_id}: {result.note}"
                     break
-            self._writes.flush()
         except StopRequested as exc:
             status, reason = "aborted", str(exc)
         except InstrumentError as exc:
@@ -260,11 +266,19 @@ class Engine:
         except RigError as exc:
             status, reason = "aborted", str(exc)
         finally:
-            failures = self._end_safe()
+            failures = self._end_safe()  # first: the last rows commit while the bench goes safe
+            try:
+                self._writes.flush()
+            except RigError as exc:
+                if status == "complete":
+                    status, reason = "aborted", str(exc)
             self._record_wear(counts_before)
         safe = not failures
         if failures:
             notes.append("could not make safe: " + "; ".join(failures))
+            if status == "complete":  # every step done, but the bench needs a person first
+                status = "aborted"
+                reason = "the bench could not be made safe at the end: " + "; ".join(failures)
         verdict = worst(r.verdict for r in results)
         if status == "aborted":
             verdict = Verdict.ERROR
@@ -345,6 +359,7 @@ class Engine:
         self.listener(StepStarted(position, spec.id, spec.title, spec.kind))
         self._step_id = spec.id
         self._step_settle = 0.0
+        self._step_settle_s = spec.settle_s
         self._step_readings = 0
         started = _now()
         kind = KINDS[spec.kind]
@@ -485,6 +500,7 @@ class Engine:
             self.bench.relays.apply(relays)  # the last step's rows commit meanwhile
             self._closed = relays
             self._relays_changed_at = time.time()
+            self._moved_at = time.monotonic()
             self._writes.flush()
             if self.stop.is_set():  # a listener may have asked on an event held until now
                 raise StopRequested("stopped by the operator")
@@ -517,9 +533,17 @@ class Engine:
         """Read until two successive readings agree, the first two from one query (sample count
         2, one round trip).  When nothing moved since the last settled reading with the same
         meter setup (relays, supply, function, range, NPLC), the input cannot be settling: one
-        reading, no proof."""
+        reading, no proof.  When the step states its settle time, wait out what is left of it
+        since the last change and read once: the circuit's time constant replaces the proof."""
         dmm = self.bench.dmm
         state = (self._moves, function, range_, nplc)
+        if self._step_settle_s is not None and state != self._settled_state:
+            left = self._moved_at + self._step_settle_s - time.monotonic()
+            if left > 0:
+                time.sleep(left)
+            value = dmm.read()
+            self._settled_state = state if math.isfinite(value) else None
+            return self._record(function, role, value, range_, nplc, settled=True)
         proof = self.settle.enabled and self.settle.max_readings > 1
         proof = proof and state != self._settled_state
         values = dmm.read_many(2) if proof else [dmm.read()]
@@ -605,6 +629,7 @@ class Engine:
             supply.set_current_limit(request.limit_a)
             supply.set_output(True)
         self._supply_state = request
+        self._moved_at = time.monotonic()
 
     def supply_current(self, *, role: str) -> Reading:
         value = self.bench.supply.measure_current()

@@ -57,11 +57,21 @@ class PhysicalLimit:
     readings: int
     autoranged: int
     settle_proof_s: float
-    """One more integration after each change of route: what proving a reading settled costs
-    when the circuit's time constant is not known.  Not part of ``total_s``."""
+    """One more integration after each change of route of a step that states no settle time:
+    proving a reading settled, the only way to know it when the time constant is not known."""
+    settle_s: float = 0.0
+    """The stated settle time after each change of route of a step that states one."""
 
     @property
     def total_s(self) -> float:
+        """The floor: the instruments' own times plus the settling that cannot be skipped (the
+        stated settle time where the circuit's time constant is known, a proof where not)."""
+        return self.strict_s + self.settle_s + self.settle_proof_s
+
+    @property
+    def strict_s(self) -> float:
+        """Relays, readings, autorange and the sequence's waits, with no settling at all: the
+        floor of a controller that knew every circuit had settled the moment its relays had."""
         return self.relays_s + self.readings_s + self.autorange_s + self.waits_s
 
 
@@ -96,21 +106,23 @@ class Plan:
         """Relay changes after ordering times their release and operate times, plus readings
         times their integration time (NPLC / line frequency, plus the meter's own time per
         reading), plus the autorange penalty where the range is not fixed, plus the waits the
-        sequence states (soaks, settle before a supply readback).  Operator time is left out."""
+        sequence states (soaks, settle before a supply readback), plus the settling after each
+        change of route (stated, or one proving integration).  Operator time is left out."""
         t = self.timing
         relays_s, transitions = _relay_time(
             [rs for s in self.steps for rs in s.relay_sets], t.relay_release_s, t.relay_operate_s
         )
-        readings_s = autorange_s = waits_s = proof_s = 0.0
+        readings_s = autorange_s = waits_s = proof_s = settle_s = 0.0
         readings = autoranged = 0
         previous: tuple[object, ...] | None = None
+        where: tuple[object, ...] | None = None  # relays and supply: what a stated settle follows
         for step in self.steps:
             spec = step.spec
             if spec.kind == "soak":
                 waits_s += float(spec.params.get("duration_s") or 0.0)
             if spec.kind == "supply-current":
                 waits_s += float(spec.params.get("settle_s") or 0.0) + t.supply_readback_s
-                previous = None
+                previous = where = None
                 continue
             integration = spec.nplc / self.station.line_hz + t.reading_overhead_s
             function = KINDS[spec.kind].meter_function(spec)
@@ -118,14 +130,25 @@ class Plan:
                 readings += 1
                 readings_s += integration
                 setup = (relays, function, step.range_, spec.nplc)
-                if setup != previous:  # the engine proves settling after any change
-                    proof_s += integration
-                previous = setup
+                here = (relays, spec.supply)
+                if spec.settle_s is None and setup != previous:
+                    proof_s += integration  # the engine proves settling after any change
+                elif spec.settle_s is not None and here != where:
+                    settle_s += spec.settle_s  # a stated settle runs from the last move
+                previous, where = setup, here
             if step.relay_sets and step.range_ is None:
                 autoranged += 1  # once per step: autorange pays on a range change
                 autorange_s += t.autorange_s
         return PhysicalLimit(
-            relays_s, readings_s, autorange_s, waits_s, transitions, readings, autoranged, proof_s
+            relays_s,
+            readings_s,
+            autorange_s,
+            waits_s,
+            transitions,
+            readings,
+            autoranged,
+            proof_s,
+            settle_s,
         )
 
 

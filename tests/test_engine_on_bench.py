@@ -206,3 +206,23 @@ def test_lost_relay_box_is_named_when_the_bench_cannot_be_made_safe(tmp_path: Pa
     assert summary.status == "aborted"
     assert not summary.safe
     assert any("could not make safe" in n and "relay box" in n for n in summary.notes)
+
+
+def test_a_bench_that_cannot_be_made_safe_after_the_last_step_aborts_the_run(
+    tmp_path: Path,
+) -> None:
+    # Every step done, then the relay box is lost: the record must not read as a clean run,
+    # since the bench needs a person before the next unit (common practice, no published source).
+    with shipped_bench("temp-circuit", folder=tmp_path) as (bench, station):
+        station.instruments["relay_box"].settings["timeout_ms"] = 200
+        plan = shipped_plan("temp-circuit-check", station)
+        # the link goes the moment the last route has closed (answered first): the next thing
+        # sent to the box is the end of the run's "open everything"
+        last_route = plan.steps[-1].relay_sets[-1]
+        bench.relay_box.when_closed(last_route, lambda: bench.relay_box.inject_fault("close_pty"))
+        summary = run_plan(plan, "L-2")
+    assert len(summary.results) == len(plan.steps)
+    assert summary.status == "aborted" and summary.verdict is Verdict.ERROR
+    assert summary.reason.startswith("the bench could not be made safe at the end: relay box")
+    assert "connection to the relay box was lost" in summary.reason  # in plain words
+    assert not summary.safe

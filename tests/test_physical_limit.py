@@ -64,8 +64,9 @@ def test_physical_limit_of_two_relay_operations_and_three_readings_by_hand(
     assert limit.transitions == 2 and limit.readings == 3 and limit.autoranged == 0
     assert limit.relays_s == pytest.approx(0.005 + 0.003)
     assert limit.readings_s == pytest.approx(3 * (2 / 50 + 0.001))
-    assert limit.total_s == pytest.approx(0.131)
+    assert limit.strict_s == pytest.approx(0.131)
     assert limit.settle_proof_s == pytest.approx(2 / 50 + 0.001)  # one route change
+    assert limit.total_s == pytest.approx(0.131 + 0.041)  # no settle stated: the proof counts
 
 
 def test_physical_limit_of_a_route_change_by_hand(tmp_path: Path, station: Station) -> None:
@@ -75,8 +76,21 @@ def test_physical_limit_of_a_route_change_by_hand(tmp_path: Path, station: Stati
     limit = plan_of(tmp_path, station, steps).physical_limit()
     assert limit.transitions == 3
     assert limit.relays_s == pytest.approx(0.016)
-    assert limit.total_s == pytest.approx(0.016 + 0.042)
+    assert limit.strict_s == pytest.approx(0.016 + 0.042)
     assert limit.settle_proof_s == pytest.approx(0.042)
+    assert limit.total_s == pytest.approx(0.016 + 0.042 + 0.042)
+
+
+def test_a_stated_settle_time_replaces_the_proof(tmp_path: Path, station: Station) -> None:
+    # The same two routes, each step stating 2 ms: two changes of route, 2 x 2 ms of settling
+    # and no proving integration; the strict part is unchanged (16 ms + 42 ms).
+    steps = (volts("a", "S_SIG", "C_GND", 1) + volts("b", "C_SIG", "C_GND", 1)).replace(
+        "nplc = 1\n", 'nplc = 1\nsettle = "2 ms"\n'
+    )
+    limit = plan_of(tmp_path, station, steps).physical_limit()
+    assert limit.settle_proof_s == 0.0
+    assert limit.settle_s == pytest.approx(0.004)
+    assert limit.total_s == pytest.approx(0.016 + 0.042 + 0.004)
 
 
 def test_physical_limit_adds_autorange_where_the_range_is_not_fixed(
@@ -90,7 +104,7 @@ def test_physical_limit_adds_autorange_where_the_range_is_not_fixed(
     )
     limit = plan_of(tmp_path, station, steps).physical_limit()
     assert limit.autoranged == 1
-    assert limit.total_s == pytest.approx(0.008 + 0.201 + 0.005)
+    assert limit.strict_s == pytest.approx(0.008 + 0.201 + 0.005)
 
 
 def test_stated_figures_are_those_of_the_virtual_bench() -> None:
@@ -124,6 +138,6 @@ def test_no_run_on_the_bench_beats_the_physical_limit(tmp_path: Path) -> None:
             store.close()
     assert summary.status == "complete"
     assert sum(r.readings for r in summary.results) == limit.readings
-    floor = limit.total_s - limit.autorange_s
+    floor = limit.strict_s - limit.autorange_s
     assert spent >= floor * 0.99  # sleeps are never shorter than asked; 1 % for clock rounding
     assert wall >= spent

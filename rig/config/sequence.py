@@ -29,6 +29,8 @@ class Sequence:
     description: str = ""
     rule: DecisionRule = DecisionRule.SIMPLE
     reorder: bool = True
+    settle_s: float | None = None
+    """The settle time of every meter step that states none (None: prove settling)."""
     steps: list[StepSpec] = field(default_factory=list)
 
     def step(self, step_id: str) -> StepSpec:
@@ -57,10 +59,11 @@ def parse_sequence(doc: TomlDoc) -> Sequence:
         rule = head.string("decision_rule", "simple", choices=tuple(RULES))
         sequence.rule = RULES.get(rule or "simple", DecisionRule.SIMPLE)
         sequence.reorder = head.boolean("reorder", True)
+        sequence.settle_s = _settle(head, None)
         head.reject_unknown()
     seen: set[str] = set()
     for sec in root.table_list("steps"):
-        spec = _parse_step(sec, sequence.rule, seen)
+        spec = _parse_step(sec, sequence.rule, seen, sequence.settle_s)
         if spec is not None:
             sequence.steps.append(spec)
             seen.add(spec.id)
@@ -70,7 +73,20 @@ def parse_sequence(doc: TomlDoc) -> Sequence:
     return sequence
 
 
-def _parse_step(sec: Section, default_rule: DecisionRule, seen: set[str]) -> StepSpec | None:
+def _settle(sec: Section, default: float | None) -> float | None:
+    """A stated settle time ("2 ms", zero allowed), or ``default`` when the key is absent."""
+    if not sec.has("settle"):
+        return default
+    value = sec.quantity("settle", "s", default)
+    if value is not None and value < 0:
+        sec.problem("settle", f"expected a settle time of 0 s or more, found {sec.raw('settle')!r}")
+        return default
+    return value
+
+
+def _parse_step(
+    sec: Section, default_rule: DecisionRule, seen: set[str], default_settle: float | None
+) -> StepSpec | None:
     step_id = sec.string("id")
     kind_name = sec.string("kind", choices=tuple(KINDS))
     if step_id is not None and not _ID.match(step_id):
@@ -90,6 +106,8 @@ def _parse_step(sec: Section, default_rule: DecisionRule, seen: set[str]) -> Ste
         rule=RULES[rule_name] if rule_name else default_rule,
     )
     kind.parse(sec, spec)
+    if kind.meter_function(spec) is not None:  # a supply step's own settle is read by its kind
+        spec.settle_s = _settle(sec, default_settle)
     if sec.raw("range") not in (None, "auto"):
         spec.range_ = sec.quantity("range", _meter_unit(kind.unit, spec))
     for ref in spec.depends_on:

@@ -51,6 +51,10 @@ class StepSpec:
     depends_on: tuple[str, ...] = ()
     barrier: bool = False
     """Operator prompts and soaks: nothing is moved across them when reordering."""
+    settle_s: float | None = None
+    """How long the circuit takes to settle after a change of route, when the engineer knows it
+    (from the circuit's time constants): rig waits that long and reads once.  None: not known,
+    so rig proves each reading settled by reading until two agree."""
 
 
 @dataclass(frozen=True)

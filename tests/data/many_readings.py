@@ -30,6 +30,7 @@ def sequence_text(readings: int = 200, seed: int = 1, nplc: float = 1.0) -> str:
         f'name = "many-readings-{readings}"',
         'description = "Generated volts steps for the throughput benchmark"',
         "reorder = true",
+        'settle = "2 ms"',  # the harness's filter settles in 2 ms (sequences/temp-circuit-check)
         "",
     ]
     for index in range(readings):
