@@ -13,6 +13,7 @@ import logging
 import math
 import threading
 import time
+from collections import deque
 from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 from typing import cast
@@ -36,6 +37,7 @@ from rig.events import (
 from rig.instrument_faults import SupplyWentOff, is_transient, plain_reason
 from rig.judge.decision import Verdict, judge, test_uncertainty_ratio, tur_is_low, worst
 from rig.plan import Plan, PlannedStep
+from rig.read_ahead import steps_ahead
 from rig.reading_guard import guard_verdict, reading_problems
 from rig.resume import INCOMPLETE_REASON, abandoned_notes, continuation
 from rig.routing import Route, plan_relays
@@ -58,6 +60,19 @@ class Bench:
 
     def all(self) -> list[Dmm | Supply | RelayBox]:
         return [self.dmm, self.supply, self.relays]
+
+
+@dataclass(frozen=True)
+class _AheadReading:
+    """A reading taken for a later step, and the meter setup it was taken in."""
+
+    step_id: str
+    state: tuple[object, ...]
+    function: MeterFunction
+    range_: float | None
+    nplc: float
+    value: float
+    taken_at: float
 
 
 @dataclass
@@ -180,6 +195,13 @@ class Engine:
         self._moved_at = 0.0
         """``time.monotonic()`` of the last relay or supply change: a stated settle runs from it."""
         self._step_settle_s: float | None = None
+        self._position = 0
+        self._notes_now: list[str] = []
+        """The running run's notes (for what a step finds that concerns the whole run)."""
+        self._done_ids: frozenset[str] = frozenset()
+        self._ahead: deque[_AheadReading] = deque()
+        """Readings already taken for the next steps (``rig.read_ahead``), with the state they
+        were taken in: served while nothing moves, stored unsettled if never used."""
         self._step_finals: list[Reading] = []
         self._step_problems: list[str] = []
 
@@ -225,6 +247,7 @@ class Engine:
         else:
             cont = continuation(self.store, resume, self.plan)
             run_id, serial, done = cont.run_id, cont.serial, cont.done
+            self._done_ids = frozenset(done)
             self.store.reopen_run(run_id)
             notes.append(
                 f"continued after an interruption; {len(done)} of {len(self.plan.steps)} steps "
@@ -267,6 +290,7 @@ class Engine:
             status, reason = "aborted", str(exc)
         finally:
             failures = self._end_safe()  # first: the last rows commit while the bench goes safe
+            self._drop_ahead(notes)
             try:
                 self._writes.flush()
             except RigError as exc:
@@ -360,6 +384,8 @@ class Engine:
         self._step_id = spec.id
         self._step_settle = 0.0
         self._step_settle_s = spec.settle_s
+        self._position = position
+        self._notes_now = notes
         self._step_readings = 0
         started = _now()
         kind = KINDS[spec.kind]
@@ -509,9 +535,12 @@ class Engine:
         self, function: MeterFunction, *, role: str, range_: float | None, nplc: float
     ) -> Reading:
         dmm = self.bench.dmm
-        dmm.configure(function, range_, nplc)
         started = time.monotonic()
-        reading = self._settled_reading(function, role, range_, nplc)
+        reading = self._reading_taken_ahead(function, role, range_, nplc)
+        if reading is None:
+            dmm.configure(function, range_, nplc)
+            started = time.monotonic()
+            reading = self._settled_reading(function, role, range_, nplc)
         self._step_settle += time.monotonic() - started
         self._step_finals.append(reading)
         self._step_problems.extend(
@@ -541,11 +570,14 @@ class Engine:
             left = self._moved_at + self._step_settle_s - time.monotonic()
             if left > 0:
                 time.sleep(left)
-            value = dmm.read()
+            value = self._read_with_ahead(state, function, range_, nplc)
             self._settled_state = state if math.isfinite(value) else None
             return self._record(function, role, value, range_, nplc, settled=True)
         proof = self.settle.enabled and self.settle.max_readings > 1
         proof = proof and state != self._settled_state
+        if not proof and state == self._settled_state:  # settled already: read once
+            value = self._read_with_ahead(state, function, range_, nplc)
+            return self._record(function, role, value, range_, nplc, settled=True)
         values = dmm.read_many(2) if proof else [dmm.read()]
         agreed = not proof or self._agree_values(function, values, range_)
         done = agreed or not math.isfinite(values[-1]) or len(values) >= self.settle.max_readings
@@ -563,6 +595,72 @@ class Engine:
         if proof and agreed:
             self._settled_state = state
         return readings[-1]
+
+    def _read_with_ahead(
+        self, state: tuple[object, ...], function: MeterFunction, range_: float | None, nplc: float
+    ) -> float:
+        """One settled reading for this step, and in the same query one for each next step
+        that will take the same reading with nothing moving in between (``rig.read_ahead``)."""
+        ids = steps_ahead(
+            self.plan.steps,
+            self._position - 1,
+            relays=self._closed,
+            supply=self._supply_state,
+            function=function,
+            range_=range_,
+            nplc=nplc,
+            line_hz=self.plan.station.line_hz,
+            skip=self._done_ids,
+        )
+        if not ids:
+            return self.bench.dmm.read()
+        values = self.bench.dmm.read_many(1 + len(ids))
+        taken_at = time.time()
+        for step_id, value in zip(ids, values[1:], strict=True):
+            self._ahead.append(
+                _AheadReading(step_id, state, function, range_, nplc, value, taken_at)
+            )
+        return values[0]
+
+    def _reading_taken_ahead(
+        self, function: MeterFunction, role: str, range_: float | None, nplc: float
+    ) -> Reading | None:
+        """This step's reading if it was taken ahead in the state the bench is still in."""
+        if not self._ahead:
+            return None
+        ahead = self._ahead[0]
+        if ahead.step_id != self._step_id or ahead.state != (self._moves, function, range_, nplc):
+            self._drop_ahead(self._notes_now)
+            return None
+        self._ahead.popleft()
+        return self._record(
+            function, role, ahead.value, range_, nplc, settled=True, taken_at=ahead.taken_at
+        )
+
+    def _drop_ahead(self, notes: list[str]) -> None:
+        """Readings taken ahead that no step used (a step failed or was stopped before its
+        turn): stored, unsettled, under the step they were taken for, and named in the notes."""
+        if not self._ahead:
+            return
+        unused, self._ahead = list(self._ahead), deque()
+        for ahead in unused:
+            function, value = ahead.function, ahead.value
+            role = KINDS[self.plan.sequence.step(ahead.step_id).kind].one_reading or "ahead"
+            used = ahead.range_ if ahead.range_ is not None else self._autorange(function, value)
+            self.store.add_reading(
+                self._run_id,
+                ahead.step_id,
+                role=role,
+                function=function.value,
+                value=value,
+                range_=used,
+                nplc=ahead.nplc,
+                u_std=self._u_reading(function, value, used),
+                taken_at=ahead.taken_at,
+                settled=False,
+            )
+        steps = ", ".join(a.step_id for a in unused)
+        notes.append(f"{len(unused)} reading(s) taken ahead were not used (for {steps}); kept")
 
     def _agree_values(
         self, function: MeterFunction, values: list[float], range_: float | None
@@ -590,11 +688,12 @@ class Engine:
         nplc: float,
         *,
         settled: bool = False,
+        taken_at: float | None = None,
     ) -> Reading:
         """Store one raw reading at once, with the range it was taken on and its uncertainty."""
         used_range = range_ if range_ is not None else self._autorange(function, value)
         u = self._u_reading(function, value, used_range)
-        taken_at = time.time()
+        taken_at = time.time() if taken_at is None else taken_at
         self.store.add_reading(
             self._run_id,
             self._step_id,

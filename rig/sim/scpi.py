@@ -489,6 +489,7 @@ class ScpiInstrument:
         self.status = StatusRegisters()
         self._faults: dict[str, int | None] = {}
         self._lines_handled = 0
+        self._lines_answered = 0
         self._replies: list[str] = []
         self._common: dict[tuple[str, bool], Handler] = {
             ("*IDN", True): self._idn,
@@ -523,6 +524,11 @@ class ScpiInstrument:
         """How many lines this instrument has been sent (lets tests see what a driver skipped)."""
         return self._lines_handled
 
+    @property
+    def lines_answered(self) -> int:
+        """How many of those lines had a reply: the round trips a driver waited for."""
+        return self._lines_answered
+
     def handle(self, line: str) -> str | None:
         """Execute one line; the reply (units joined by ``;``) or None if nothing was asked."""
         with self.lock:
@@ -532,6 +538,7 @@ class ScpiInstrument:
             replies, self._replies = self._replies, []
             if not replies:
                 return None
+            self._lines_answered += 1
             reply = ";".join(replies)
             if self._take_fault("garble"):
                 reply = self._garble(reply)

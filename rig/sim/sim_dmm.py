@@ -139,6 +139,8 @@ class SimDmm(ScpiInstrument):
         self._sample_count = 1
         self._trigger_count = 1
         self._readings: list[float] | None = None
+        self._arrived: float | None = None
+        """When the message being handled arrived (``clock.mark()``); None between messages."""
         self.reset_device()
         self._register()
 
@@ -382,7 +384,25 @@ class SimDmm(ScpiInstrument):
         total = self._sample_count * self._trigger_count
         if total > COUNT_MAX:
             raise ScpiError(-221, f"sample x trigger count exceeds {COUNT_MAX}")
-        self._readings = [self._one_reading() for _ in range(total)]
+        # A meter computes while it integrates: parsing the command and solving the circuit are
+        # part of a reading's time (its aperture plus its own 1 ms), not added to it, so the
+        # controller is not charged for the simulation.  The first reading runs from the
+        # message's arrival, each next one from the end of the one before.
+        since = self._arrived if self._arrived is not None else self.clock.mark()
+        readings = []
+        for _ in range(total):
+            value, cost = self._one_reading()
+            self.clock.wait(cost, since=since)
+            since = self.clock.mark()
+            readings.append(value)
+        self._readings = readings
+
+    def handle(self, line: str) -> str | None:
+        self._arrived = self.clock.mark()
+        try:
+            return super().handle(line)
+        finally:
+            self._arrived = None
 
     def _probe(self, spec: FunctionSpec, range_: float) -> float:
         try:
@@ -412,8 +432,8 @@ class SimDmm(ScpiInstrument):
                 break
         return chosen
 
-    def _one_reading(self) -> float:
-        started = self.clock.mark()
+    def _one_reading(self) -> tuple[float, float]:
+        """One reading and the instrument time it takes (integration, own time, autorange)."""
         spec = SPECS[self._function]
         setup = self._setups[self._function]
         cost = setup.nplc / self.line_hz + READING_OVERHEAD_S
@@ -423,12 +443,9 @@ class SimDmm(ScpiInstrument):
             setup.range_ = chosen
         rng, nplc = setup.range_, setup.nplc
         true = self._probe(spec, rng)
-        # A meter computes while it integrates: the solver's own time is part of the reading's
-        # time, not added to it, so the controller is not charged for the simulation.
-        self.clock.wait(cost, since=started)
         limit = rng * OVERRANGE_FACTOR
         if math.isnan(true) or abs(true) > limit:
-            return math.copysign(OVERLOAD, true if not math.isnan(true) else 1.0)
+            return math.copysign(OVERLOAD, true if not math.isnan(true) else 1.0), cost
         phase = float(self._rng.uniform(0.0, 2 * math.pi))
         value = (
             true
@@ -438,5 +455,5 @@ class SimDmm(ScpiInstrument):
         step = resolution(rng, nplc)
         value = round(value / step) * step
         if abs(value) > limit:
-            return math.copysign(OVERLOAD, value)
-        return value
+            return math.copysign(OVERLOAD, value), cost
+        return value, cost

@@ -95,6 +95,11 @@ class SimRelayBox:
         self._closed: set[int] = set()
         self._counts = dict.fromkeys(range(1, relay_count + 1), 0)
         self._events: list[RelayEvent] = []
+        self.lines_handled = 0
+        """Command lines received (for benchmarks counting the host's round trips)."""
+        self._arrived: float | None = None
+        """When the command being handled arrived (``clock.mark()``): its decoding overlaps the
+        first contact movement, as a box's firmware does it in microseconds."""
         self._wd_ms = 0
         self._wd_deadline: float | None = None
         self._tripped = False
@@ -279,6 +284,14 @@ class SimRelayBox:
         return max(0.0, min(_POLL_S, deadline - self.clock.now()))
 
     def _handle_line(self, line: bytes) -> None:
+        self._arrived = self.clock.mark()
+        self.lines_handled += 1
+        try:
+            self._handle_arrived(line)
+        finally:
+            self._arrived = None
+
+    def _handle_arrived(self, line: bytes) -> None:
         try:
             command = decode_command(line)
         except FrameError as exc:
@@ -387,8 +400,10 @@ class SimRelayBox:
         with self._lock:
             to_open = sorted(self._closed - target)
             to_close = sorted(target - self._closed)
+        since, self._arrived = self._arrived, None  # only the first movement overlaps it
         if to_open:
-            self.clock.wait(self.release_s)
+            self.clock.wait(self.release_s, since=since)
+            since = self.clock.mark()  # the bookkeeping below overlaps the operate time
             with self._lock:
                 for relay in to_open:
                     self._closed.discard(relay)
@@ -396,7 +411,7 @@ class SimRelayBox:
                     self._events.append(RelayEvent(self.clock.now(), relay, "open", cause))
             self._notify()
         if to_close:
-            self.clock.wait(self.operate_s)
+            self.clock.wait(self.operate_s, since=since)
             with self._lock:
                 for relay in to_close:
                     self._closed.add(relay)

@@ -94,6 +94,11 @@ class StepKind(ABC):
     limits_in_meter_units: bool = True
     """False where the judged value is not the meter's own reading (a temperature, a fraction,
     a prediction-relative limit): the planner then cannot pick a range from the limits."""
+    one_reading: str | None = None
+    """The role of the step's only reading, for kinds whose run is: the supply as the step
+    states, one route, one meter reading of ``meter_function(spec)`` at the step's range and
+    NPLC, nothing else on the bench.  Such steps in a row on one route share one query
+    (``rig.read_ahead``).  None for every other kind."""
     overload_is_a_result: bool = False
     """True where an overload reading is itself a result the step judges (an isolation reading
     above the range proves at least the range): the engine's reading guard then leaves the

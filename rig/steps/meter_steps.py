@@ -25,6 +25,7 @@ class Volts(StepKind):
 
     name = "volts"
     unit = "V"
+    one_reading = "hi-lo"
 
     def parse(self, sec: Section, spec: StepSpec) -> None:
         read_pins(sec, spec, "hi", "lo")
@@ -110,6 +111,7 @@ class Resistance(StepKind):
 
     name = "resistance"
     unit = "ohm"
+    one_reading = "hi-lo"
 
     def parse(self, sec: Section, spec: StepSpec) -> None:
         read_pins(sec, spec, "hi", "lo")

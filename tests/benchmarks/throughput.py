@@ -75,6 +75,8 @@ class Samples:
     rig_instrument_s: list[float] = field(default_factory=list)
     rig_relay_ops: list[int] = field(default_factory=list)
     rig_readings: list[int] = field(default_factory=list)
+    rig_round_trips: list[int] = field(default_factory=list)
+    """Queries rig waited for an answer to, across the three instruments, in one run."""
     script_wall_s: list[float] = field(default_factory=list)
     script_relay_ops: list[int] = field(default_factory=list)
 
@@ -108,11 +110,16 @@ def box_operations(bench: VirtualBench) -> int:
     return sum(bench.relay_box.operation_counts().values())
 
 
+def round_trips(bench: VirtualBench) -> int:
+    """Queries answered by the three instruments (every relay-box command is answered)."""
+    return bench.dmm.lines_answered + bench.supply.lines_answered + bench.relay_box.lines_handled
+
+
 def time_rig(bench: VirtualBench, plan: Plan, store: ResultStore, serial: str, s: Samples) -> None:
     instruments = open_bench(plan.station)
     try:
         engine = Engine(plan, instruments, store)
-        ops, spent = box_operations(bench), bench.clock.spent_s
+        ops, spent, trips = box_operations(bench), bench.clock.spent_s, round_trips(bench)
         start = time.perf_counter()
         summary = engine.run(serial)
         wall = time.perf_counter() - start
@@ -121,6 +128,7 @@ def time_rig(bench: VirtualBench, plan: Plan, store: ResultStore, serial: str, s
         s.rig_wall_s.append(wall)
         s.rig_instrument_s.append(bench.clock.spent_s - spent)
         s.rig_relay_ops.append(box_operations(bench) - ops)
+        s.rig_round_trips.append(round_trips(bench) - trips)
         s.rig_readings.append(sum(r.readings for r in summary.results))
     finally:
         close_bench(instruments)
@@ -155,12 +163,15 @@ def script_floor_s(table: list[HandReading], plan: Plan) -> float:
     return total + (t.relay_release_s if closed else 0.0)
 
 
-def round_trip_ms(resource: str, count: int = 50) -> float:
-    """Median SCPI round trip (``*IDN?``) through rig's own session, in ms."""
+def round_trip_ms(resource: str, count: int = 50, idle_s: float = 0.0) -> float:
+    """Median SCPI round trip (``*IDN?``) through rig's own session, in ms, each after
+    ``idle_s`` of doing nothing (as a query after a reading's integration is)."""
     session = VisaSession("dmm", resource, {})
     try:
         times = []
         for _ in range(count):
+            if idle_s:
+                time.sleep(idle_s)
             start = time.perf_counter()
             session.query("*IDN?")
             times.append(time.perf_counter() - start)
@@ -194,6 +205,7 @@ def measure(workload: Workload, folder: Path, repeat: int, generated: int) -> di
                     runs[(rep + n) % len(runs)]()
             assert bench.endpoints is not None
             rtt_ms = round_trip_ms(bench.endpoints.dmm_resource)
+            rtt_idle_ms = round_trip_ms(bench.endpoints.dmm_resource, count=20, idle_s=0.02)
         finally:
             store.close()
     limit = plan.physical_limit()
@@ -220,7 +232,10 @@ def measure(workload: Workload, folder: Path, repeat: int, generated: int) -> di
         "relay_ops_unordered": plan.relay_ops_unordered(),
         "relay_ops_script": int(statistics.median(samples.script_relay_ops)),
         "overhead_ms_per_step": round(statistics.median(overheads) / steps * 1000, 2),
+        "round_trips": int(statistics.median(samples.rig_round_trips)),
+        "link_ms": round(statistics.median(samples.rig_round_trips) * rtt_idle_ms, 1),
         "scpi_round_trip_ms": round(rtt_ms, 3),
+        "scpi_round_trip_after_idle_ms": round(rtt_idle_ms, 3),
         "repetitions": repeat,
     }
 
@@ -242,12 +257,15 @@ def main() -> None:
         f"instrument figures: relay operate {ms['relay_operate_s']:g} ms, release "
         f"{ms['relay_release_s']:g} ms; mains 50 Hz; meter {ms['reading_overhead_s']:g} ms a "
         f"reading + NPLC/50 Hz, autorange {ms['autorange_s']:g} ms; script settle "
-        f"{SETTLE_S * 1000:g} ms; SCPI round trip {results[0]['scpi_round_trip_ms']} ms (measured)"
+        f"{SETTLE_S * 1000:g} ms; SCPI round trip {results[0]['scpi_round_trip_ms']} ms back to "
+        f"back, "
+        f"{results[0]['scpi_round_trip_after_idle_ms']} ms after 20 ms idle (measured)"
     )
     head = (
         f"{'workload':<15}{'steps':>6}{'reads':>6}{'strict ms':>10}{'settle ms':>10}"
         f"{'limit ms':>9}{'rig ms':>9}{'script ms':>10}{'rig/limit':>10}{'script/rig':>11}"
-        f"{'(cap)':>7}{'relay ops':>10}{'unordered':>10}{'ovh ms/step':>12}"
+        f"{'(cap)':>7}{'relay ops':>10}{'unordered':>10}{'ovh ms/step':>12}{'trips':>6}"
+        f"{'links ms':>9}"
     )
     print(head)
     for r in results:
@@ -256,11 +274,12 @@ def main() -> None:
             f"{r['settle_ms']:>10}{r['limit_ms']:>9}{r['rig_wall_ms']:>9}{r['script_wall_ms']:>10}"
             f"{r['wall_over_limit']:>10}{r['script_over_rig']:>11}"
             f"{r['script_floor_over_limit']:>7}{r['relay_ops']:>10}{r['relay_ops_unordered']:>10}"
-            f"{r['overhead_ms_per_step']:>12}"
+            f"{r['overhead_ms_per_step']:>12}{r['round_trips']:>6}{r['link_ms']:>9}"
         )
     print(
         "(cap): the script's own instrument time over the limit, the most script/rig can be "
-        "for a controller on the limit"
+        "for a controller on the limit; trips: queries rig waited on in one run; links ms: trips x "
+        "the round trip after idle (what waiting on the links alone costs on this machine)"
     )
     summary = {
         "repetitions": repeat,
