@@ -211,18 +211,27 @@ def test_lost_relay_box_is_named_when_the_bench_cannot_be_made_safe(tmp_path: Pa
 def test_a_bench_that_cannot_be_made_safe_after_the_last_step_aborts_the_run(
     tmp_path: Path,
 ) -> None:
-    # Every step done, then the relay box is lost: the record must not read as a clean run,
-    # since the bench needs a person before the next unit (common practice, no published source).
+    # Every step done, then the relay box stops answering: the record must not read as a clean
+    # run, since the bench needs a person before the next unit (common practice, no published
+    # source).  The box falls silent at the last reading, after its last route was answered, so
+    # the first command it leaves unanswered is the end of the run's "open everything".
     with shipped_bench("temp-circuit", folder=tmp_path) as (bench, station):
         station.instruments["relay_box"].settings["timeout_ms"] = 200
         plan = shipped_plan("temp-circuit-check", station)
-        # the link goes the moment the last route has closed (answered first): the next thing
-        # sent to the box is the end of the run's "open everything"
-        last_route = plan.steps[-1].relay_sets[-1]
-        bench.relay_box.when_closed(last_route, lambda: bench.relay_box.inject_fault("close_pty"))
+        last_route_closed = threading.Event()
+        bench.relay_box.when_closed(plan.steps[-1].relay_sets[-1], last_route_closed.set)
+        handle = bench.dmm.handle
+
+        def handle_then_silence_the_box(line: str) -> str | None:
+            if "READ?" in line and last_route_closed.is_set():
+                bench.relay_box.inject_fault("no_ack", None)
+            return handle(line)
+
+        bench.dmm.handle = handle_then_silence_the_box  # type: ignore[method-assign]
         summary = run_plan(plan, "L-2")
+        assert bench.relay_box.closed() == frozenset()  # the box did open; it just never said so
     assert len(summary.results) == len(plan.steps)
     assert summary.status == "aborted" and summary.verdict is Verdict.ERROR
     assert summary.reason.startswith("the bench could not be made safe at the end: relay box")
-    assert "connection to the relay box was lost" in summary.reason  # in plain words
+    assert "relay box did not answer in time" in summary.reason  # in plain words
     assert not summary.safe

@@ -75,8 +75,6 @@ def parse_sequence(doc: TomlDoc) -> Sequence:
 
 def _settle(sec: Section, default: float | None) -> float | None:
     """A stated settle time ("2 ms", zero allowed), or ``default`` when the key is absent."""
-    if not sec.has("settle"):
-        return default
     value = sec.quantity("settle", "s", default)
     if value is not None and value < 0:
         sec.problem("settle", f"expected a settle time of 0 s or more, found {sec.raw('settle')!r}")
