@@ -644,20 +644,15 @@ class Engine:
             return
         unused, self._ahead = list(self._ahead), deque()
         for ahead in unused:
-            function, value = ahead.function, ahead.value
             role = KINDS[self.plan.sequence.step(ahead.step_id).kind].one_reading or "ahead"
-            used = ahead.range_ if ahead.range_ is not None else self._autorange(function, value)
-            self.store.add_reading(
-                self._run_id,
-                ahead.step_id,
-                role=role,
-                function=function.value,
-                value=value,
-                range_=used,
-                nplc=ahead.nplc,
-                u_std=self._u_reading(function, value, used),
+            self._record(
+                ahead.function,
+                role,
+                ahead.value,
+                ahead.range_,
+                ahead.nplc,
                 taken_at=ahead.taken_at,
-                settled=False,
+                step_id=ahead.step_id,
             )
         steps = ", ".join(a.step_id for a in unused)
         notes.append(f"{len(unused)} reading(s) taken ahead were not used (for {steps}); kept")
@@ -689,14 +684,16 @@ class Engine:
         *,
         settled: bool = False,
         taken_at: float | None = None,
+        step_id: str | None = None,
     ) -> Reading:
-        """Store one raw reading at once, with the range it was taken on and its uncertainty."""
+        """Store one raw reading at once, with the range it was taken on and its uncertainty
+        (``step_id``: for another step than the running one, not counted as this step's)."""
         used_range = range_ if range_ is not None else self._autorange(function, value)
         u = self._u_reading(function, value, used_range)
         taken_at = time.time() if taken_at is None else taken_at
         self.store.add_reading(
             self._run_id,
-            self._step_id,
+            self._step_id if step_id is None else step_id,
             role=role,
             function=function.value,
             value=value,
@@ -706,7 +703,8 @@ class Engine:
             taken_at=taken_at,
             settled=settled,
         )
-        self._step_readings += 1
+        if step_id is None:
+            self._step_readings += 1
         return Reading(role, function.value, value, used_range, nplc, taken_at, u)
 
     def _autorange(self, function: MeterFunction, value: float) -> float | None:

@@ -13,13 +13,13 @@ import time
 from pathlib import Path
 
 import pytest
-from bench_helpers import SEQUENCES, shipped_bench, shipped_plan
-from offline_station import offline_station_text
+from bench_helpers import shipped_bench, shipped_plan
+from offline_station import offline_demo_station
 
 from rig.bench_open import close_bench, open_bench
 from rig.config.reader import TomlDoc
 from rig.config.sequence import parse_sequence
-from rig.config.station import Station, load_station
+from rig.config.station import Station
 from rig.engine import Engine, SettlePolicy
 from rig.plan import InstrumentTiming, Plan, build_plan
 from rig.sim import sim_dmm, sim_supply
@@ -31,11 +31,7 @@ from rig.store import ResultStore
 @pytest.fixture(scope="module")
 def station(tmp_path_factory: pytest.TempPathFactory) -> Station:
     """The demo fixture on a station whose instruments are never opened (planning only)."""
-    tmp = tmp_path_factory.mktemp("station")
-    text = offline_station_text("limit-test", SEQUENCES / "demo-fixture.toml", tmp / "rig-data")
-    path = tmp / "station.toml"
-    path.write_text(text, encoding="utf-8")
-    return load_station(path)
+    return offline_demo_station("limit-test", tmp_path_factory.mktemp("station"))
 
 
 def plan_of(tmp_path: Path, station: Station, steps: str) -> Plan:

@@ -12,14 +12,14 @@ import threading
 from pathlib import Path
 
 import pytest
-from bench_helpers import SEQUENCES, shipped_bench
-from offline_station import offline_station_text
+from bench_helpers import shipped_bench
+from offline_station import offline_demo_station
 
 from drivers.base import MeterFunction
 from rig.bench_open import close_bench, open_bench
 from rig.config.reader import TomlDoc
 from rig.config.sequence import parse_sequence
-from rig.config.station import Station, load_station
+from rig.config.station import Station
 from rig.engine import Engine
 from rig.plan import Plan, build_plan
 from rig.read_ahead import MAX_READINGS_AHEAD, steps_ahead
@@ -48,11 +48,7 @@ def make_plan(station: Station, steps: str) -> Plan:
 
 @pytest.fixture(scope="module")
 def station(tmp_path_factory: pytest.TempPathFactory) -> Station:
-    tmp = tmp_path_factory.mktemp("station")
-    text = offline_station_text("ahead-test", SEQUENCES / "demo-fixture.toml", tmp / "rig-data")
-    path = tmp / "station.toml"
-    path.write_text(text, encoding="utf-8")
-    return load_station(path)
+    return offline_demo_station("ahead-test", tmp_path_factory.mktemp("station"))
 
 
 def ahead_of(plan: Plan, index: int, done: tuple[str, ...] = ()) -> list[str]:

@@ -11,12 +11,12 @@ from __future__ import annotations
 from pathlib import Path
 
 import pytest
-from offline_station import offline_station_text
+from offline_station import offline_demo_station
 
 from rig.config.fixture import Bus, FixtureMap, load_fixture
 from rig.config.reader import TomlDoc
 from rig.config.sequence import Sequence, load_sequence, parse_sequence
-from rig.config.station import Station, load_station
+from rig.config.station import Station
 from rig.errors import ConfigError, InterlockError
 from rig.plan import Plan, build_plan
 from rig.routing import (
@@ -63,11 +63,7 @@ def demo() -> FixtureMap:
 
 @pytest.fixture(scope="module")
 def station(tmp_path_factory: pytest.TempPathFactory) -> Station:
-    tmp = tmp_path_factory.mktemp("station")
-    text = offline_station_text("routing-test", DEMO_FIXTURE, tmp / "rig-data")
-    path = tmp / "station.toml"
-    path.write_text(text, encoding="utf-8")
-    return load_station(path)
+    return offline_demo_station("routing-test", tmp_path_factory.mktemp("station"))
 
 
 # ---- relays_for ------------------------------------------------------------------------------
