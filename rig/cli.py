@@ -74,6 +74,11 @@ def _parser() -> argparse.ArgumentParser:
     check = sub.add_parser("check", help="validate a sequence against a station and show its plan")
     check.add_argument("sequence", type=Path)
     check.add_argument("--station", type=Path, required=True)
+    check.add_argument(
+        "--unit",
+        type=Path,
+        help="a unit file: also show each route's settling time on its model against `settle`",
+    )
     check.set_defaults(func=cmd_check)
 
     run = sub.add_parser("run", help="run a sequence on a station")
@@ -221,6 +226,8 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
             "  steps that state no settle time are proved settled by a second reading after "
             "each change of route; state `settle` where the circuit's time constant is known"
         )
+    if args.unit is not None:
+        _show_settling(plan, args.unit, out)
     if station.store_path.exists():
         from rig.engine import wear_warnings
         from rig.store import ResultStore
@@ -232,6 +239,52 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
         finally:
             store.close()
     return 0
+
+
+def _show_settling(plan: Plan, unit_path: Path, out: Output) -> None:
+    """Each route's time constant on the unit model, what settling to 1 ppm takes, and the
+    settle the sequence states, so an engineer can state it from the circuit."""
+    from rig.analysis.settling import PPM_TIME_CONSTANTS, route_settling
+    from rig.config.unit_file import load_unit
+
+    found = route_settling(plan, load_unit(unit_path))
+    out.line()
+    out.line(
+        f"settling on the unit model {unit_path.name} (to 1 ppm: {PPM_TIME_CONSTANTS:.1f} time "
+        "constants):"
+    )
+    rows = []
+    for r in found:
+        stated = "proved" if r.stated_s is None else _duration(r.stated_s)
+        verdict = "short" if r.short else "ok"
+        rows.append(
+            [
+                r.step_id,
+                ",".join(str(n) for n in sorted(r.relays)),
+                r.function.value,
+                _duration(r.tau_s),
+                _duration(r.needed_s),
+                stated,
+                verdict,
+            ]
+        )
+    out.table(["step", "relays", "function", "tau", "1 ppm", "settle", ""], rows)
+    for r in found:
+        if r.short:
+            out.line(
+                f"warning: step {r.step_id} states settle {_duration(r.stated_s or 0.0)} but its "
+                f"route needs {_duration(r.needed_s)} on this unit: readings would be taken early"
+            )
+
+
+def _duration(seconds: float) -> str:
+    """A short time in the unit that reads best: 0 s, 4.7 us, 1.6 ms, 2.5 s."""
+    if seconds == 0:
+        return "0 s"
+    for scale, unit in ((1.0, "s"), (1e-3, "ms"), (1e-6, "us")):
+        if abs(seconds) >= scale:
+            return f"{seconds / scale:.3g} {unit}"
+    return f"{seconds / 1e-9:.3g} ns"
 
 
 def _estimate(plan: Plan, step: PlannedStep) -> tuple[str, str, str]:

@@ -191,7 +191,7 @@ class CircuitProbe:
         key = (self.closed(), function.value)
         if key in self._tau_cache:
             return self._tau_cache[key]
-        tau = self._slowest_tau(self.circuit)
+        tau = self._slowest_tau(self.circuit, function)
         self._tau_cache[key] = tau
         return tau
 
@@ -210,16 +210,24 @@ class CircuitProbe:
             }
             c.set_value("meter:input", inputs.get(function, OHMS_INPUT_OHM))
             c.set_value("meter:test", 0.0 if not ohms else 1e-3)  # a source: no conductance
-            return self._slowest_tau(c)
+            return self._slowest_tau(c, function)
 
-    def _slowest_tau(self, base: Circuit) -> float:
+    def _slowest_tau(self, base: Circuit, function: MeterFunction) -> float:
+        """The slowest R*C among the capacitors the meter sees: a capacitor whose voltage does
+        not reach the meter's terminals (on a route of its own) cannot slow this reading."""
+        sense = function is MeterFunction.RES_4W
+        hi = bus_node(Bus.SENSE_HI if sense else Bus.DMM_HI)
+        lo = bus_node(Bus.SENSE_LO if sense else Bus.DMM_LO)
         tau = 0.0
         probe_a = 1e-6
         for cap in self.unit.capacitors.values():
             c = base.copy()
-            v0 = solve(c).vdiff(cap.a, cap.b)
+            before = solve(c)
             c.isource("probe:thevenin", cap.b, cap.a, probe_a)
-            v1 = solve(c).vdiff(cap.a, cap.b)
-            r_th = abs(v1 - v0) / probe_a
-            tau = max(tau, r_th * cap.c_farad)
+            after = solve(c)
+            swing = abs(after.vdiff(cap.a, cap.b) - before.vdiff(cap.a, cap.b))
+            seen = abs(after.vdiff(hi, lo) - before.vdiff(hi, lo))
+            if seen <= 1e-6 * swing:  # coupled to the meter by less than 1 ppm
+                continue
+            tau = max(tau, swing / probe_a * cap.c_farad)
         return tau

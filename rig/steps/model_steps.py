@@ -100,6 +100,11 @@ class NtcCheck(StepKind):
     unit = "ohm"
     limits_in_meter_units = False
 
+    def meter_function(self, spec: StepSpec) -> MeterFunction:
+        """Ohms (2-wire) or DC volts, as ``measure`` says."""
+        voltage = spec.params.get("mode") == "voltage"
+        return MeterFunction.DC_VOLTS if voltage else MeterFunction.RES_2W
+
     def parse(self, sec: Section, spec: StepSpec) -> None:
         read_pins(sec, spec, "hi", "lo")
         mode = sec.string("measure", "resistance", choices=("resistance", "voltage"))

@@ -82,11 +82,8 @@ class Samples:
 
 
 def meter_function(plan: Plan, step_id: str) -> MeterFunction | None:
-    """What the meter measures in a step (an NTC screen reads ohms or volts as its mode says)."""
+    """What the meter measures in a step."""
     spec = next(p.spec for p in plan.steps if p.spec.id == step_id)
-    if spec.kind == "ntc":
-        resistance = spec.params.get("mode") == "resistance"
-        return MeterFunction.RES_2W if resistance else MeterFunction.DC_VOLTS
     return KINDS[spec.kind].meter_function(spec)
 
 
