@@ -44,3 +44,15 @@ def test_benchmark_smoke(script: str) -> None:
     assert not missing, f"{script} did not report {missing}"
     for key in EXPECTED_KEYS.get(script, set()):
         assert isinstance(figures[key], int | float) and figures[key] > 0
+    if script == "throughput.py":  # the keys each workload must carry (issue #10's last line)
+        wanted = {
+            "name",
+            "wall_over_limit",
+            "script_over_rig",
+            "relay_ops",
+            "relay_ops_unordered",
+            "overhead_ms_per_step",
+        }
+        names = [w["name"] for w in figures["workloads"]]
+        assert names == ["sensor-screen", "harness", "generated-200"]
+        assert all(wanted <= set(w) for w in figures["workloads"])
