@@ -27,6 +27,13 @@ def _STOP() -> None:
     """Put on the queue to end the worker."""
 
 
+class RowTicket:
+    """The row a queued reading will get: filled in by the worker when the insert commits, so a
+    later queued write (which runs after it, in order) can name that row."""
+
+    row: int = 0
+
+
 class CommitAhead:
     """Wraps a results store; queued writes commit in order on one worker thread."""
 
@@ -86,6 +93,22 @@ class CommitAhead:
             if worker is not None:
                 self._queue.put(_STOP)
                 worker.join()
+
+    def add_reading_for_later(self, *args: Any, **kwargs: Any) -> RowTicket:
+        """Queue a reading like ``add_reading`` and return a ticket for its row, for
+        ``mark_settled_later``: a reading stored the moment it is taken, flagged when used."""
+        ticket = RowTicket()
+
+        def write() -> object:
+            ticket.row = int(self._store.add_reading(*args, **kwargs))
+            return ticket.row
+
+        self._put(write, "add_reading")
+        return ticket
+
+    def mark_settled_later(self, ticket: RowTicket) -> None:
+        """Flag the reading of ``ticket`` as the one its step's value was taken from."""
+        self._put(lambda: self._store.mark_settled(ticket.row), "mark_settled")
 
     def mark_last_settled(self) -> None:
         """Flag the most recent reading queued as the one its step's value was taken from."""

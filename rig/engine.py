@@ -19,7 +19,7 @@ from dataclasses import dataclass, field, replace
 from typing import cast
 
 from drivers.base import Dmm, MeterFunction, RelayBox, Supply
-from rig.commit_ahead import CommitAhead
+from rig.commit_ahead import CommitAhead, RowTicket
 from rig.config.fixture import FixtureMap
 from rig.config.station import FUNCTIONS, Station
 from rig.entry_text import kept_entry_text
@@ -64,15 +64,13 @@ class Bench:
 
 @dataclass(frozen=True)
 class _AheadReading:
-    """A reading taken for a later step, and the meter setup it was taken in."""
+    """A reading taken for a later step (stored at once, unsettled), and the meter setup it was
+    taken in."""
 
     step_id: str
     state: tuple[object, ...]
-    function: MeterFunction
-    range_: float | None
-    nplc: float
-    value: float
-    taken_at: float
+    reading: Reading
+    row: RowTicket
 
 
 @dataclass
@@ -570,14 +568,13 @@ class Engine:
             left = self._moved_at + self._step_settle_s - time.monotonic()
             if left > 0:
                 time.sleep(left)
-            value = self._read_with_ahead(state, function, range_, nplc)
-            self._settled_state = state if math.isfinite(value) else None
-            return self._record(function, role, value, range_, nplc, settled=True)
+            reading = self._read_with_ahead(state, function, role, range_, nplc)
+            self._settled_state = state if math.isfinite(reading.value) else None
+            return reading
         proof = self.settle.enabled and self.settle.max_readings > 1
         proof = proof and state != self._settled_state
         if not proof and state == self._settled_state:  # settled already: read once
-            value = self._read_with_ahead(state, function, range_, nplc)
-            return self._record(function, role, value, range_, nplc, settled=True)
+            return self._read_with_ahead(state, function, role, range_, nplc)
         values = dmm.read_many(2) if proof else [dmm.read()]
         agreed = not proof or self._agree_values(function, values, range_)
         done = agreed or not math.isfinite(values[-1]) or len(values) >= self.settle.max_readings
@@ -597,10 +594,16 @@ class Engine:
         return readings[-1]
 
     def _read_with_ahead(
-        self, state: tuple[object, ...], function: MeterFunction, range_: float | None, nplc: float
-    ) -> float:
+        self,
+        state: tuple[object, ...],
+        function: MeterFunction,
+        role: str,
+        range_: float | None,
+        nplc: float,
+    ) -> Reading:
         """One settled reading for this step, and in the same query one for each next step
-        that will take the same reading with nothing moving in between (``rig.read_ahead``)."""
+        that will take the same reading with nothing moving in between (``rig.read_ahead``);
+        all stored at once, this step's first."""
         ids = steps_ahead(
             self.plan.steps,
             self._position - 1,
@@ -613,14 +616,30 @@ class Engine:
             skip=self._done_ids,
         )
         if not ids:
-            return self.bench.dmm.read()
+            return self._record(function, role, self.bench.dmm.read(), range_, nplc, settled=True)
         values = self.bench.dmm.read_many(1 + len(ids))
-        taken_at = time.time()
+        own = self._record(function, role, values[0], range_, nplc, settled=True)
+        taken_at = own.taken_at
         for step_id, value in zip(ids, values[1:], strict=True):
-            self._ahead.append(
-                _AheadReading(step_id, state, function, range_, nplc, value, taken_at)
+            # kept the moment it is taken (a crash loses nothing), flagged settled when used
+            their_role = KINDS[self.plan.sequence.step(step_id).kind].one_reading or "ahead"
+            used = range_ if range_ is not None else self._autorange(function, value)
+            u = self._u_reading(function, value, used)
+            row = self._writes.add_reading_for_later(
+                self._run_id,
+                step_id,
+                role=their_role,
+                function=function.value,
+                value=value,
+                range_=used,
+                nplc=nplc,
+                u_std=u,
+                taken_at=taken_at,
+                settled=False,
             )
-        return values[0]
+            reading = Reading(their_role, function.value, value, used, nplc, taken_at, u)
+            self._ahead.append(_AheadReading(step_id, state, reading, row))
+        return own
 
     def _reading_taken_ahead(
         self, function: MeterFunction, role: str, range_: float | None, nplc: float
@@ -633,27 +652,16 @@ class Engine:
             self._drop_ahead(self._notes_now)
             return None
         self._ahead.popleft()
-        return self._record(
-            function, role, ahead.value, range_, nplc, settled=True, taken_at=ahead.taken_at
-        )
+        self._writes.mark_settled_later(ahead.row)
+        self._step_readings += 1
+        return ahead.reading
 
     def _drop_ahead(self, notes: list[str]) -> None:
         """Readings taken ahead that no step used (a step failed or was stopped before its
-        turn): stored, unsettled, under the step they were taken for, and named in the notes."""
+        turn): already stored, unsettled, under the step they were taken for; named in notes."""
         if not self._ahead:
             return
         unused, self._ahead = list(self._ahead), deque()
-        for ahead in unused:
-            role = KINDS[self.plan.sequence.step(ahead.step_id).kind].one_reading or "ahead"
-            self._record(
-                ahead.function,
-                role,
-                ahead.value,
-                ahead.range_,
-                ahead.nplc,
-                taken_at=ahead.taken_at,
-                step_id=ahead.step_id,
-            )
         steps = ", ".join(a.step_id for a in unused)
         notes.append(f"{len(unused)} reading(s) taken ahead were not used (for {steps}); kept")
 
@@ -683,17 +691,14 @@ class Engine:
         nplc: float,
         *,
         settled: bool = False,
-        taken_at: float | None = None,
-        step_id: str | None = None,
     ) -> Reading:
-        """Store one raw reading at once, with the range it was taken on and its uncertainty
-        (``step_id``: for another step than the running one, not counted as this step's)."""
+        """Store one raw reading at once, with the range it was taken on and its uncertainty."""
         used_range = range_ if range_ is not None else self._autorange(function, value)
         u = self._u_reading(function, value, used_range)
-        taken_at = time.time() if taken_at is None else taken_at
+        taken_at = time.time()
         self.store.add_reading(
             self._run_id,
-            self._step_id if step_id is None else step_id,
+            self._step_id,
             role=role,
             function=function.value,
             value=value,
@@ -703,8 +708,7 @@ class Engine:
             taken_at=taken_at,
             settled=settled,
         )
-        if step_id is None:
-            self._step_readings += 1
+        self._step_readings += 1
         return Reading(role, function.value, value, used_range, nplc, taken_at, u)
 
     def _autorange(self, function: MeterFunction, value: float) -> float | None:
