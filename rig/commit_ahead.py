@@ -95,8 +95,8 @@ class CommitAhead:
                 worker.join()
 
     def add_reading_for_later(self, *args: Any, **kwargs: Any) -> RowTicket:
-        """Queue a reading like ``add_reading`` and return a ticket for its row, for
-        ``mark_settled_later``: a reading stored the moment it is taken, flagged when used."""
+        """Queue a reading like ``add_reading`` and return a ticket for its row, for a later
+        write about that row (``mark_unsettled_later``)."""
         ticket = RowTicket()
 
         def write() -> object:
@@ -106,9 +106,9 @@ class CommitAhead:
         self._put(write, "add_reading")
         return ticket
 
-    def mark_settled_later(self, ticket: RowTicket) -> None:
-        """Flag the reading of ``ticket`` as the one its step's value was taken from."""
-        self._put(lambda: self._store.mark_settled(ticket.row), "mark_settled")
+    def mark_unsettled_later(self, tickets: list[RowTicket]) -> None:
+        """Take the settled flag back from the readings of ``tickets``."""
+        self._put(lambda: self._store.mark_unsettled([t.row for t in tickets]), "mark_unsettled")
 
     def mark_last_settled(self) -> None:
         """Flag the most recent reading queued as the one its step's value was taken from."""

@@ -621,7 +621,8 @@ class Engine:
         own = self._record(function, role, values[0], range_, nplc, settled=True)
         taken_at = own.taken_at
         for step_id, value in zip(ids, values[1:], strict=True):
-            # kept the moment it is taken (a crash loses nothing), flagged settled when used
+            # kept the moment it is taken (a crash loses nothing), as the settled reading of
+            # the step it is for; the flag is taken back if that step never uses it
             their_role = KINDS[self.plan.sequence.step(step_id).kind].one_reading or "ahead"
             used = range_ if range_ is not None else self._autorange(function, value)
             u = self._u_reading(function, value, used)
@@ -635,7 +636,7 @@ class Engine:
                 nplc=nplc,
                 u_std=u,
                 taken_at=taken_at,
-                settled=False,
+                settled=True,
             )
             reading = Reading(their_role, function.value, value, used, nplc, taken_at, u)
             self._ahead.append(_AheadReading(step_id, state, reading, row))
@@ -652,16 +653,17 @@ class Engine:
             self._drop_ahead(self._notes_now)
             return None
         self._ahead.popleft()
-        self._writes.mark_settled_later(ahead.row)
         self._step_readings += 1
         return ahead.reading
 
     def _drop_ahead(self, notes: list[str]) -> None:
         """Readings taken ahead that no step used (a step failed or was stopped before its
-        turn): already stored, unsettled, under the step they were taken for; named in notes."""
+        turn): already stored under the step they were taken for, now flagged unsettled, and
+        named in the notes."""
         if not self._ahead:
             return
         unused, self._ahead = list(self._ahead), deque()
+        self._writes.mark_unsettled_later([a.row for a in unused])
         steps = ", ".join(a.step_id for a in unused)
         notes.append(f"{len(unused)} reading(s) taken ahead were not used (for {steps}); kept")
 

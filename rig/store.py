@@ -390,6 +390,11 @@ class ResultStore:
         with self._tx() as db:
             db.execute("UPDATE readings SET settled=1 WHERE id=?", (reading_row,))
 
+    def mark_unsettled(self, reading_rows: list[int]) -> None:
+        """Take the flag back from readings no step's value came from (taken ahead, not used)."""
+        with self._tx() as db:
+            db.executemany("UPDATE readings SET settled=0 WHERE id=?", [(r,) for r in reading_rows])
+
     def add_step(self, run_id: int, position: int, row: dict[str, Any]) -> None:
         fields = {
             "run_id": run_id,
