@@ -86,6 +86,11 @@ def _parser() -> argparse.ArgumentParser:
     run.add_argument("--station", type=Path, required=True)
     run.add_argument("--serial", required=True)
     run.add_argument("--operator", default="")
+    run.add_argument(
+        "--unit",
+        type=Path,
+        help="the unit file of what is tested, recorded with the run (rig diagnose reads it)",
+    )
     run.add_argument("--yes", action="store_true", help="confirm operator prompts automatically")
     run.add_argument("--json", action="store_true")
     run.add_argument("--readings", action="store_true", help="print each reading once it is stored")
@@ -329,6 +334,12 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
         out.error(f"rig: {problem}")
         return EXIT_BAD_INPUT
     plan = load_plan(args.sequence, args.station)
+    unit = ""
+    if getattr(args, "unit", None) is not None:
+        from rig.config.unit_file import load_unit
+
+        load_unit(args.unit)  # a unit file that does not load is named now, not at diagnosis
+        unit = str(args.unit.resolve())
     if args.json:
         out.quiet = True
     else:
@@ -347,6 +358,7 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
         plan,
         args.serial,
         operator=args.operator,
+        unit=unit,
         listener=out.on_event,
         ask=ask,
         resume=getattr(args, "resume", None),

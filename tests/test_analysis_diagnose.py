@@ -117,12 +117,27 @@ def test_diagnose_command_after_a_failed_run(
     assert "open:ground" in capsys.readouterr().out
 
 
+def test_a_unit_recorded_by_rig_run_is_found_by_diagnose(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    sequence = SEQUENCES / "temp-circuit-check.toml"
+    with shipped_bench("temp-circuit", ("open:ground",), folder=tmp_path) as (_, station):
+        args = ["run", str(sequence), "--station", str(station.path), "--serial", "SN-U"]
+        assert main([*args, "--unit", str(UNIT)]) == 1
+        capsys.readouterr()
+        assert main(["diagnose", "1", "--station", str(station.path), "--json"]) == 0
+        assert json.loads(capsys.readouterr().out)["hypotheses"][0]["spec"] == "open:ground"
+        # a unit file that does not load is named before anything moves
+        assert main([*args, "--unit", str(tmp_path / "missing.toml")]) == 2
+        assert "missing.toml" in capsys.readouterr().err
+
+
 def test_diagnose_names_what_is_missing(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
     sequence = SEQUENCES / "temp-circuit-check.toml"
     with shipped_bench("temp-circuit", folder=tmp_path) as (_, station):
         main(["run", str(sequence), "--station", str(station.path), "--serial", "SN-M"])
     capsys.readouterr()
-    # `rig run` records no unit name, so the unit file must be given
+    # `rig run` without --unit records no unit, so the unit file must be given
     assert main(["diagnose", "1", "--station", str(station.path)]) == 2
     assert "--unit" in capsys.readouterr().err
     assert main(["diagnose", "99", "--station", str(station.path), "--unit", str(UNIT)]) == 3

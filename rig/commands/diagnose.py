@@ -48,7 +48,11 @@ def cmd_diagnose(args: argparse.Namespace, out: Output) -> int:
                 raise ConfigError(
                     [Problem("--unit", "", f"run {args.run_id} names no unit; give --unit FILE")]
                 )
-            unit_path = sequence.parent / "units" / f"{run['unit']}.toml"
+            recorded = str(run["unit"])
+            if recorded.endswith(".toml"):  # `rig run --unit` records the file itself
+                unit_path = Path(recorded)
+            else:  # the demo records the unit's name, beside its sequence
+                unit_path = sequence.parent / "units" / f"{recorded}.toml"
         unit = load_unit(unit_path)
         plan = load_plan(sequence, station)
         if plan.sequence.content_hash != run["sequence_hash"]:
