@@ -138,14 +138,16 @@ def slow_sequence(folder: Path, steps: int = 4) -> Path:
 
 
 def long_sequence(folder: Path, steps: int) -> Path:
-    """``steps`` resistance checks of the sender, each its own step."""
+    """``steps`` resistance checks of the sender, each its own step, 2-wire and 4-wire in turn
+    (so every step is its own meter query: none can share one with the next, see
+    ``rig.read_ahead``, and the run lasts long enough for keys to arrive while it runs)."""
     head = (
         '[sequence]\nname = "many-steps"\n'
         'description = "Many short resistance steps (test sequence)"\nreorder = false\n'
     )
     body = "".join(
         f'\n[[steps]]\nid = "r{n:03d}"\nkind = "resistance"\nhi = "T1"\nlo = "T2"\n'
-        f'low = "1 kohm"\nhigh = "4 kohm"\n'
+        f'wires = {2 if n % 2 else 4}\nlow = "1 kohm"\nhigh = "4 kohm"\n'
         for n in range(1, steps + 1)
     )
     path = folder / "many-steps.toml"
