@@ -241,10 +241,13 @@ def parse_error_reply(reply: str, *, where: Mapping[str, str]) -> tuple[int, str
 
 def compound(commands: list[str]) -> str:
     """Commands as one program message (IEEE 488.2 §7.3: units joined by ``;``; a leading ``:``
-    puts each SCPI header back at the root, common commands such as ``*CLS`` need none)."""
-    return ";".join(
-        c if c.startswith((":", "*")) or not i else f":{c}" for i, c in enumerate(commands)
-    )
+    puts each SCPI path header back at the root; common commands such as ``*CLS`` and a dialect's
+    headers without a path are joined as they are)."""
+    units = [
+        f":{c}" if i and ":" in c.split(" ", 1)[0] and not c.startswith((":", "*")) else c
+        for i, c in enumerate(commands)
+    ]
+    return ";".join(units)
 
 
 def raise_queued_errors(session: VisaSession, error_query: str, after: str) -> None:

@@ -191,7 +191,9 @@ class Engine:
         self._step_readings = 0
         self._relays_changed_at = 0.0
         self._moved_at = 0.0
-        """``time.monotonic()`` of the last relay or supply change: a stated settle runs from it."""
+        """``time.monotonic()`` of the last relay, supply or meter-setup change: a stated settle
+        runs from it."""
+        self._meter_setup: tuple[object, ...] | None = None
         self._step_settle_s: float | None = None
         self._position = 0
         self._notes_now: list[str] = []
@@ -433,6 +435,8 @@ class Engine:
             return False
         if make_safe(self.bench):
             return False
+        self._moves += 1  # relays opened and the meter reset: nothing read before is settled
+        self._meter_setup = None
         self._closed = frozenset()
         self._supply_state = None
         try:
@@ -536,7 +540,11 @@ class Engine:
         started = time.monotonic()
         reading = self._reading_taken_ahead(function, role, range_, nplc)
         if reading is None:
+            setup = (function, range_, nplc)
             dmm.configure(function, range_, nplc)
+            if setup != self._meter_setup:  # another function or range drives the circuit
+                self._meter_setup = setup  # anew (an ohms test current charges its capacitors)
+                self._moved_at = time.monotonic()
             started = time.monotonic()
             reading = self._settled_reading(function, role, range_, nplc)
         self._step_settle += time.monotonic() - started
@@ -565,9 +573,7 @@ class Engine:
         dmm = self.bench.dmm
         state = (self._moves, function, range_, nplc)
         if self._step_settle_s is not None and state != self._settled_state:
-            left = self._moved_at + self._step_settle_s - time.monotonic()
-            if left > 0:
-                time.sleep(left)
+            self._sleep_until(self._moved_at + self._step_settle_s)
             reading = self._read_with_ahead(state, function, role, range_, nplc)
             self._settled_state = state if math.isfinite(reading.value) else None
             return reading
@@ -593,6 +599,13 @@ class Engine:
             self._settled_state = state
         return readings[-1]
 
+    def _sleep_until(self, deadline: float) -> None:
+        """Wait for ``time.monotonic()`` to reach ``deadline``, answering a stop within 50 ms."""
+        while (left := deadline - time.monotonic()) > 0:
+            if self.stop.is_set():
+                raise StopRequested("stopped by the operator")
+            time.sleep(min(left, 0.05))
+
     def _read_with_ahead(
         self,
         state: tuple[object, ...],
@@ -613,6 +626,7 @@ class Engine:
             range_=range_,
             nplc=nplc,
             line_hz=self.plan.station.line_hz,
+            settle_s=self._step_settle_s,
             skip=self._done_ids,
         )
         if not ids:

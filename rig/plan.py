@@ -115,27 +115,26 @@ class Plan:
         readings_s = autorange_s = waits_s = proof_s = settle_s = 0.0
         readings = autoranged = 0
         previous: tuple[object, ...] | None = None
-        where: tuple[object, ...] | None = None  # relays and supply: what a stated settle follows
         for step in self.steps:
             spec = step.spec
             if spec.kind == "soak":
                 waits_s += float(spec.params.get("duration_s") or 0.0)
             if spec.kind == "supply-current":
                 waits_s += float(spec.params.get("settle_s") or 0.0) + t.supply_readback_s
-                previous = where = None
+                previous = None
                 continue
             integration = spec.nplc / self.station.line_hz + t.reading_overhead_s
             function = KINDS[spec.kind].meter_function(spec)
             for relays in step.relay_sets:
                 readings += 1
                 readings_s += integration
-                setup = (relays, function, step.range_, spec.nplc)
-                here = (relays, spec.supply)
-                if spec.settle_s is None and setup != previous:
-                    proof_s += integration  # the engine proves settling after any change
-                elif spec.settle_s is not None and here != where:
-                    settle_s += spec.settle_s  # a stated settle runs from the last move
-                previous, where = setup, here
+                setup = (relays, spec.supply, function, step.range_, spec.nplc)
+                if setup != previous:  # the engine settles after any change of route or setup
+                    if spec.settle_s is None:
+                        proof_s += integration
+                    else:
+                        settle_s += spec.settle_s
+                previous = setup
             if step.relay_sets and step.range_ is None:
                 autoranged += 1  # once per step: autorange pays on a range change
                 autorange_s += t.autorange_s

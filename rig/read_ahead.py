@@ -32,11 +32,13 @@ def steps_ahead(
     range_: float | None,
     nplc: float,
     line_hz: float,
+    settle_s: float | None = None,
     skip: Collection[str] = (),
 ) -> list[str]:
     """Ids of the steps right after ``steps[after]`` that will each take one reading of
-    ``function`` on ``relays`` at this range and NPLC with ``supply`` as it is, in order; the
-    run stops at the first step that does anything else (or is in ``skip``: done already)."""
+    ``function`` on ``relays`` at this range and NPLC with ``supply`` as it is, stating the same
+    ``settle_s``, in order; the run stops at the first step that does anything else (or is in
+    ``skip``: done already)."""
     found: list[str] = []
     seconds = 0.0
     per_reading = nplc / line_hz
@@ -52,6 +54,7 @@ def steps_ahead(
             or kind.meter_function(spec) is not function
             or planned.range_ != range_
             or spec.nplc != nplc
+            or spec.settle_s != settle_s
             or len(found) + 1 >= MAX_READINGS_AHEAD
             or seconds + per_reading > MAX_SECONDS_AHEAD
         ):

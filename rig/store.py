@@ -454,6 +454,13 @@ class ResultStore:
                     "UPDATE runs SET status='incomplete', reason=?, ended_at=? WHERE id=?",
                     (reason, _now(), run_id),
                 )
+                # a step cut short has no value, so none of its readings is the one its value
+                # came from (readings taken ahead go in flagged for the step they are for)
+                db.execute(
+                    "UPDATE readings SET settled=0 WHERE run_id=? AND settled=1"
+                    " AND step_id NOT IN (SELECT step_id FROM steps WHERE run_id=?)",
+                    (run_id, run_id),
+                )
         return ids
 
     def reopen_run(self, run_id: int) -> None:

@@ -62,6 +62,7 @@ def ahead_of(plan: Plan, index: int, done: tuple[str, ...] = ()) -> list[str]:
         range_=first.range_,
         nplc=first.spec.nplc,
         line_hz=50.0,
+        settle_s=first.spec.settle_s,
         skip=done,
     )
 
@@ -92,6 +93,7 @@ def test_the_same_reading_in_a_row_is_taken_ahead_until_something_differs(
         '[[steps]]\nid = "x"\nkind = "resistance"\nhi = "S_SIG"\nlo = "C_GND"\n'
         'low = "0 ohm"\nhigh = "1 Mohm"\n',  # ohms
         '[[steps]]\nid = "x"\nkind = "prompt"\ntext = "look"\n',  # an operator in between
+        volts("x", "S_SIG", "C_GND") + 'settle = "50 ms"\n',  # a settle of its own
     ],
 )
 def test_any_other_setup_or_step_ends_the_run(station: Station, different: str) -> None:

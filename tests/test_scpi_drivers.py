@@ -20,6 +20,7 @@ from small_bench import R_LEAD, R_LOAD, R_X, SmallBench
 from drivers.base import InstrumentIdentity, MeterFunction
 from drivers.scpi_dmm import DmmConfiguration, ScpiDmm
 from drivers.scpi_supply import ScpiSupply
+from drivers.visa_session import compound
 from rig.errors import (
     ConfigError,
     InstrumentConnectionLost,
@@ -385,3 +386,15 @@ def test_read_round_trip_is_fast() -> None:
     finally:
         rig.dmm_server.stop()
         rig.psu_server.stop()
+
+
+def test_commands_join_into_one_program_message_at_the_root() -> None:
+    # IEEE 488.2 §7.3: message units are joined by ';'.  In SCPI a unit after the first continues
+    # the previous header's path unless it starts with ':' (SCPI-1999 Vol. 1, compound command
+    # headers; from memory), so each later path header gets one; common commands and path-less
+    # dialect headers go as they are.
+    assert compound(["CONF:VOLT:DC", "VOLT:DC:RANG 10", "VOLT:DC:NPLC 1"]) == (
+        "CONF:VOLT:DC;:VOLT:DC:RANG 10;:VOLT:DC:NPLC 1"
+    )
+    joined = compound(["CONF:RES", "*CLS", ":RES:NPLC 10", "F0R3"])
+    assert joined == "CONF:RES;*CLS;:RES:NPLC 10;F0R3"

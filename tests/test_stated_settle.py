@@ -21,6 +21,7 @@ from rig.config.reader import TomlDoc
 from rig.config.sequence import parse_sequence
 from rig.config.station import load_station
 from rig.config.unit_file import load_unit
+from rig.events import StepResult
 from rig.plan import build_plan
 from rig.runner import run_plan
 from rig.sim.bench import VirtualBench
@@ -93,6 +94,12 @@ def test_a_negative_or_misplaced_settle_names_its_key() -> None:
 
 def run_slow(tmp_path: Path, settle: str | None) -> tuple[float, int]:
     """The slow step's value and how many readings it took, in real timing."""
+    result = run_slow_text(tmp_path, slow_sequence(settle))
+    return result.value, result.readings
+
+
+def run_slow_text(tmp_path: Path, text: str) -> StepResult:
+    """The result of the step ``slow`` of sequence ``text`` on the slow unit, in real timing."""
     tmp_path.mkdir(parents=True, exist_ok=True)
     unit_file = tmp_path / "slow-unit.toml"
     unit_file.write_text(SLOW_UNIT, encoding="utf-8")
@@ -102,12 +109,12 @@ def run_slow(tmp_path: Path, settle: str | None) -> tuple[float, int]:
     try:
         station_path = bench.write_station(tmp_path / "station.toml", data_dir=str(tmp_path))
         sequence_path = tmp_path / "slow.toml"
-        sequence_path.write_text(slow_sequence(settle), encoding="utf-8")
+        sequence_path.write_text(text, encoding="utf-8")
         station = load_station(station_path)
         doc = TomlDoc(sequence_path)
         plan = build_plan(parse_sequence(doc), station)
         doc.raise_if_problems()
-        summary = run_plan(plan, f"SLOW-{settle}")
+        summary = run_plan(plan, "SLOW-1")
     finally:
         bench.stop()
     result = next(r for r in summary.results if r.step_id == "slow")
@@ -117,7 +124,7 @@ def run_slow(tmp_path: Path, settle: str | None) -> tuple[float, int]:
             (summary.run_id,),
         ).fetchall()
     assert settled[-1] == (1,)  # the reading judged is the one marked settled
-    return result.value, result.readings
+    return result
 
 
 @pytest.mark.slow
@@ -198,3 +205,20 @@ def test_shipped_settle_times_cover_the_units_time_constants(
     model = load_unit(SEQUENCES / "units" / f"{unit}.toml")
     if model.capacitors:  # a real check, not a vacuous one: the filter shows on some route
         assert max(r.tau_s for r in found) > 0
+
+
+@pytest.mark.slow
+def test_a_new_meter_function_on_the_same_route_waits_the_settle_again(tmp_path: Path) -> None:
+    # Volts, then ohms on the same two pins: no relay moves, but the ohms test current now
+    # charges the 1 uF, so the stated 150 ms runs again from the change of function.
+    text = (
+        '[sequence]\nname = "slow"\nreorder = false\nsettle = "150 ms"\n'
+        '[[steps]]\nid = "volts-first"\nkind = "volts"\nhi = "T1"\nlo = "T2"\n'
+        'low = "-1 V"\nhigh = "1 V"\n'
+        '[[steps]]\nid = "slow"\nkind = "resistance"\nhi = "T1"\nlo = "T2"\n'
+        'range = "100 kohm"\nlow = "9.5 kohm"\nhigh = "10.5 kohm"\n'
+    )
+    result = run_slow_text(tmp_path, text)
+    assert result.readings == 1
+    assert result.settle_s >= 0.14  # the wait, measured by the engine (a floor: never shorter)
+    assert result.value == pytest.approx(R_OHM, rel=1e-3)

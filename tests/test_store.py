@@ -97,3 +97,31 @@ def test_export_carries_the_whole_record(tmp_path: Path) -> None:
     table = list(csv.DictReader(io.StringIO(steps_csv(store, run_id))))
     assert table[0]["step_id"] == "s1" and table[0]["verdict"] == "pass"
     store.close()
+
+
+def test_a_dead_run_keeps_settled_flags_only_where_a_step_has_its_value(tmp_path: Path) -> None:
+    # A controller that died mid-run leaves readings of steps that never got a value (one cut
+    # short, or readings taken ahead for later steps): none of them is "the reading the step's
+    # value came from", so marking the run incomplete takes those flags back.
+    store = ResultStore(tmp_path / "r.sqlite")
+    run_id = store.start_run(HEADER)
+    for step_id in ("done", "cut-short"):
+        store.add_reading(
+            run_id,
+            step_id,
+            role="hi-lo",
+            function="dcv",
+            value=1.0,
+            range_=10.0,
+            nplc=1.0,
+            u_std=1e-4,
+            taken_at=0.0,
+            settled=True,
+        )
+    step = {"step_id": "done", "kind": "volts", "title": "done", "unit": "V", "verdict": "pass"}
+    step |= {"coverage_k": 2.0, "decision_rule": "simple", "started_at": "t", "ended_at": "t"}
+    store.add_step(run_id, 1, step)
+    assert store.mark_incomplete("bench", "the controller stopped") == [run_id]
+    rows = store._db.execute("SELECT step_id, settled FROM readings ORDER BY id").fetchall()
+    assert [tuple(r) for r in rows] == [("done", 1), ("cut-short", 0)]
+    store.close()

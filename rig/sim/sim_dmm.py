@@ -389,6 +389,7 @@ class SimDmm(ScpiInstrument):
         # controller is not charged for the simulation.  The first reading runs from the
         # message's arrival, each next one from the end of the one before.
         since = self._arrived if self._arrived is not None else self.clock.mark()
+        self._arrived = None  # a second trigger in the same message runs from its own start
         readings = []
         for _ in range(total):
             value, cost = self._one_reading()
