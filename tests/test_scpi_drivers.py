@@ -349,6 +349,10 @@ def test_server_survives_clients_that_vanish(resistor: Rig, dmm: ScpiDmm) -> Non
 def test_unterminated_query_and_input_overrun_are_queued(resistor: Rig, dmm: ScpiDmm) -> None:
     with socket.create_connection(("127.0.0.1", resistor.dmm_server.port)) as raw:
         raw.sendall(b"MEAS:VOLT?")  # the link closes before the terminator
+    # each link has its own server thread: let the first one's end be seen before the second
+    deadline = time.monotonic() + 5.0
+    while not len(resistor.dmm_sim.errors) and time.monotonic() < deadline:
+        time.sleep(0.005)
     with socket.create_connection(("127.0.0.1", resistor.dmm_server.port)) as raw:
         raw.sendall(b"X" * (MAX_LINE_BYTES + 10) + b"\n*IDN?\n")
         assert raw.makefile("rb").readline() == b"Test Works,DM-6,0001,2.1\n"

@@ -403,12 +403,13 @@ class SimRelayBox:
         since, self._arrived = self._arrived, None  # only the first movement overlaps it
         if to_open:
             self.clock.wait(self.release_s, since=since)
+            opened_at = self.clock.now()
             since = self.clock.mark()  # the bookkeeping below overlaps the operate time
             with self._lock:
                 for relay in to_open:
                     self._closed.discard(relay)
                     self._counts[relay] += 1
-                    self._events.append(RelayEvent(self.clock.now(), relay, "open", cause))
+                    self._events.append(RelayEvent(opened_at, relay, "open", cause))
             self._notify()
         if to_close:
             self.clock.wait(self.operate_s, since=since)
