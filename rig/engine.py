@@ -16,7 +16,7 @@ import time
 from collections import deque
 from collections.abc import Callable
 from dataclasses import dataclass, field, replace
-from typing import cast
+from typing import Any, cast
 
 from drivers.base import Dmm, MeterFunction, RelayBox, Supply
 from rig.commit_ahead import CommitAhead, RowTicket
@@ -64,8 +64,8 @@ class Bench:
 
 @dataclass(frozen=True)
 class _AheadReading:
-    """A reading taken for a later step (stored at once, unsettled), and the meter setup it was
-    taken in."""
+    """A reading taken for a later step (stored at once as that step's settled reading), and the
+    meter setup it was taken in."""
 
     step_id: str
     state: tuple[object, ...]
@@ -196,7 +196,7 @@ class Engine:
         self._meter_setup: tuple[object, ...] | None = None
         self._step_settle_s: float | None = None
         self._position = 0
-        self._notes_now: list[str] = []
+        self._run_notes: list[str] = []
         """The running run's notes (for what a step finds that concerns the whole run)."""
         self._done_ids: frozenset[str] = frozenset()
         self._ahead: deque[_AheadReading] = deque()
@@ -225,6 +225,7 @@ class Engine:
         station = self.plan.station
         sequence = self.plan.sequence
         notes = [*(notes or []), *byte_notes]
+        self._run_notes = notes
         notes.extend(abandoned_notes(self.store.mark_incomplete(station.name, INCOMPLETE_REASON)))
         identities = self._identities(notes)
         done: dict[str, StepResult] = {}
@@ -290,7 +291,7 @@ class Engine:
             status, reason = "aborted", str(exc)
         finally:
             failures = self._end_safe()  # first: the last rows commit while the bench goes safe
-            self._drop_ahead(notes)
+            self._drop_ahead()
             try:
                 self._writes.flush()
             except RigError as exc:
@@ -385,7 +386,6 @@ class Engine:
         self._step_settle = 0.0
         self._step_settle_s = spec.settle_s
         self._position = position
-        self._notes_now = notes
         self._step_readings = 0
         started = _now()
         kind = KINDS[spec.kind]
@@ -638,21 +638,10 @@ class Engine:
             # kept the moment it is taken (a crash loses nothing), as the settled reading of
             # the step it is for; the flag is taken back if that step never uses it
             their_role = KINDS[self.plan.sequence.step(step_id).kind].one_reading or "ahead"
-            used = range_ if range_ is not None else self._autorange(function, value)
-            u = self._u_reading(function, value, used)
+            reading = self._reading(function, their_role, value, range_, nplc, taken_at)
             row = self._writes.add_reading_for_later(
-                self._run_id,
-                step_id,
-                role=their_role,
-                function=function.value,
-                value=value,
-                range_=used,
-                nplc=nplc,
-                u_std=u,
-                taken_at=taken_at,
-                settled=True,
+                self._run_id, step_id, **_row_fields(reading, settled=True)
             )
-            reading = Reading(their_role, function.value, value, used, nplc, taken_at, u)
             self._ahead.append(_AheadReading(step_id, state, reading, row))
         return own
 
@@ -664,13 +653,13 @@ class Engine:
             return None
         ahead = self._ahead[0]
         if ahead.step_id != self._step_id or ahead.state != (self._moves, function, range_, nplc):
-            self._drop_ahead(self._notes_now)
+            self._drop_ahead()
             return None
         self._ahead.popleft()
         self._step_readings += 1
         return ahead.reading
 
-    def _drop_ahead(self, notes: list[str]) -> None:
+    def _drop_ahead(self) -> None:
         """Readings taken ahead that no step used (a step failed or was stopped before its
         turn): already stored under the step they were taken for, now flagged unsettled, and
         named in the notes."""
@@ -679,7 +668,8 @@ class Engine:
         unused, self._ahead = list(self._ahead), deque()
         self._writes.mark_unsettled_later([a.row for a in unused])
         steps = ", ".join(a.step_id for a in unused)
-        notes.append(f"{len(unused)} reading(s) taken ahead were not used (for {steps}); kept")
+        note = f"{len(unused)} reading(s) taken ahead were not used (for {steps}); kept"
+        self._run_notes.append(note)
 
     def _agree_values(
         self, function: MeterFunction, values: list[float], range_: float | None
@@ -709,23 +699,25 @@ class Engine:
         settled: bool = False,
     ) -> Reading:
         """Store one raw reading at once, with the range it was taken on and its uncertainty."""
-        used_range = range_ if range_ is not None else self._autorange(function, value)
-        u = self._u_reading(function, value, used_range)
-        taken_at = time.time()
-        self.store.add_reading(
-            self._run_id,
-            self._step_id,
-            role=role,
-            function=function.value,
-            value=value,
-            range_=used_range,
-            nplc=nplc,
-            u_std=u,
-            taken_at=taken_at,
-            settled=settled,
-        )
+        reading = self._reading(function, role, value, range_, nplc, time.time())
+        self.store.add_reading(self._run_id, self._step_id, **_row_fields(reading, settled))
         self._step_readings += 1
-        return Reading(role, function.value, value, used_range, nplc, taken_at, u)
+        return reading
+
+    def _reading(
+        self,
+        function: MeterFunction,
+        role: str,
+        value: float,
+        range_: float | None,
+        nplc: float,
+        taken_at: float,
+    ) -> Reading:
+        """A raw reading with the range it was taken on (autorange: estimated) and its
+        uncertainty."""
+        used = range_ if range_ is not None else self._autorange(function, value)
+        u = self._u_reading(function, value, used)
+        return Reading(role, function.value, value, used, nplc, taken_at, u)
 
     def _autorange(self, function: MeterFunction, value: float) -> float | None:
         return autorange_estimate(self.plan.station, function, value)
@@ -830,6 +822,20 @@ def autorange_estimate(station: Station, function: MeterFunction, value: float) 
         return float(station.dmm_accuracy.range_for(function.value, abs(value)))
     except ValueError:
         return None
+
+
+def _row_fields(reading: Reading, settled: bool) -> dict[str, Any]:
+    """A reading as the store's ``add_reading`` takes it."""
+    return {
+        "role": reading.role,
+        "function": reading.function,
+        "value": reading.value,
+        "range_": reading.range_,
+        "nplc": reading.nplc,
+        "u_std": reading.u_std,
+        "taken_at": reading.taken_at,
+        "settled": settled,
+    }
 
 
 def lead_zero_ohm(station: Station, hi: str, lo: str) -> float:

@@ -40,7 +40,6 @@ from bench_helpers import SEQUENCES, shipped_bench
 from data.many_readings import write_sequence
 from handwritten_script import SETTLE_S, HandReading, HandScript
 
-from drivers.base import MeterFunction
 from drivers.visa_session import VisaSession
 from rig.bench_open import close_bench, open_bench
 from rig.engine import Engine
@@ -81,18 +80,12 @@ class Samples:
     script_relay_ops: list[int] = field(default_factory=list)
 
 
-def meter_function(plan: Plan, step_id: str) -> MeterFunction | None:
-    """What the meter measures in a step."""
-    spec = next(p.spec for p in plan.steps if p.spec.id == step_id)
-    return KINDS[spec.kind].meter_function(spec)
-
-
 def hand_table(plan: Plan) -> list[HandReading]:
     """The engineer's table for the script: every reading in file order, relays as planned."""
     table = []
     for spec in plan.sequence.steps:
         planned = next(p for p in plan.steps if p.spec.id == spec.id)
-        function = meter_function(plan, spec.id)
+        function = KINDS[spec.kind].meter_function(spec)
         if function is None or spec.supply is not None:
             if planned.relay_sets:
                 raise ValueError(f"the hand script takes no supply steps ({spec.id})")
