@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import enum
 from abc import ABC, abstractmethod
-from collections.abc import Iterable
+from collections.abc import Callable, Iterable
 from dataclasses import dataclass
 
 
@@ -53,6 +53,8 @@ class Instrument(ABC):
 class Dmm(Instrument):
     """A digital multimeter."""
 
+    _to_configure: tuple[MeterFunction, float | None, float] | None = None
+
     @abstractmethod
     def reset(self) -> None:
         """Return the meter to a known state (``*RST``, ``*CLS``) and check its error queue."""
@@ -63,6 +65,23 @@ class Dmm(Instrument):
 
         Reads the instrument's error queue afterwards and raises ``InstrumentReportedError``.
         """
+
+    def send_configuration(
+        self, function: MeterFunction, range_: float | None, nplc: float
+    ) -> None:
+        """The first half of ``configure``: send the setup without waiting for anything, so it
+        can go out while relays move (a meter that stops answering then holds nothing up).
+        ``confirm_configuration`` must follow before the next reading.
+
+        This default only remembers the setup; a driver that can split the two overrides both."""
+        self._to_configure = (function, range_, nplc)
+
+    def confirm_configuration(self) -> None:
+        """The second half of ``configure``: check that the setup sent was taken (the error
+        queue), raising ``InstrumentReportedError`` if not."""
+        wanted, self._to_configure = self._to_configure, None
+        if wanted is not None:
+            self.configure(*wanted)
 
     @abstractmethod
     def read(self) -> float:
@@ -113,6 +132,16 @@ class RelayBox(Instrument):
 
         Relays already closed that stay closed are not touched.
         """
+
+    def apply_overlapping(self, closed: Iterable[int], meanwhile: Callable[[], object]) -> None:
+        """``apply(closed)``, calling ``meanwhile`` once while the contacts move, so that other
+        instruments are set up inside the relay time instead of after it.  The change is read
+        back first; an error from ``meanwhile`` is raised after that.
+
+        This default cannot overlap and calls ``meanwhile`` after the change; a driver whose
+        box answers only once its contacts have moved overrides it."""
+        self.apply(closed)
+        meanwhile()
 
     @abstractmethod
     def closed_relays(self) -> frozenset[int]:

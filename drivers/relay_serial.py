@@ -13,7 +13,7 @@ import math
 import termios
 import threading
 from collections import deque
-from collections.abc import Iterable, Mapping
+from collections.abc import Callable, Iterable, Mapping
 
 import serial
 
@@ -159,11 +159,21 @@ class SerialRelayBox(RelayBox):
             self._verify(reply, frozenset(), "OPENALL")
 
     def apply(self, closed: Iterable[int]) -> None:
+        self._set(closed, None)
+
+    def apply_overlapping(self, closed: Iterable[int], meanwhile: Callable[[], object]) -> None:
+        """The box answers SET once its contacts have moved, so ``meanwhile`` runs between
+        sending the command and reading that answer (on the first attempt only)."""
+        work = _OnceMeanwhile(meanwhile)
+        self._set(closed, work)  # a change that failed is raised first, and alone
+        work.raise_error()
+
+    def _set(self, closed: Iterable[int], meanwhile: _OnceMeanwhile | None) -> None:
         target = self._check_relays(closed)
         arg = format_relays(target)
         with self._lock:
             before = self._known
-            reply = self._transact(Verb.SET, arg)
+            reply = self._transact(Verb.SET, arg, meanwhile)
             self._count(before, target)
             self._verify(reply, target, f"SET {arg}")
 
@@ -289,7 +299,9 @@ class SerialRelayBox(RelayBox):
                 command,
             )
 
-    def _transact(self, verb: Verb, arg: str = "") -> Reply:
+    def _transact(
+        self, verb: Verb, arg: str = "", meanwhile: _OnceMeanwhile | None = None
+    ) -> Reply:
         """Send one command and return its OK reply, retrying once on a bad or missing reply."""
         text = f"{verb.value} {arg}".strip()
         with self._lock:
@@ -299,7 +311,7 @@ class SerialRelayBox(RelayBox):
                 self._seq = next_seq(seq)
                 frame = encode_command(Command(seq, verb.value, arg))
                 try:
-                    reply = self._exchange(seq, frame, text)
+                    reply = self._exchange(seq, frame, text, meanwhile)
                 except (InstrumentTimeout, InstrumentProtocolError) as exc:
                     self._abandoned.append(seq)
                     failure = exc
@@ -326,11 +338,19 @@ class SerialRelayBox(RelayBox):
             command=command,
         )
 
-    def _exchange(self, seq: int, frame: bytes, command: str) -> Reply:
+    def _exchange(
+        self, seq: int, frame: bytes, command: str, meanwhile: _OnceMeanwhile | None = None
+    ) -> Reply:
         port = self._port
         try:
             self._lines.discard_input()
             port.write(frame)
+            if meanwhile is not None:
+                try:
+                    meanwhile.run()
+                except BaseException:  # Ctrl-C: the reply still comes; the next command skips it
+                    self._abandoned.append(seq)
+                    raise
             # a few stale replies to commands given up on may precede ours
             for _ in range(1 + len(self._abandoned)):
                 line = self._lines.read_line(MAX_REPLY_LINE)
@@ -397,3 +417,25 @@ class SerialRelayBox(RelayBox):
             stop.set()
         if thread is not None and thread is not threading.current_thread():
             thread.join()
+
+
+class _OnceMeanwhile:
+    """The caller's work done while the box moves: run at most once, its error kept until the
+    box's answer has been read and checked (the relays' state is the more urgent news)."""
+
+    def __init__(self, work: Callable[[], object]) -> None:
+        self._work: Callable[[], object] | None = work
+        self._error: Exception | None = None
+
+    def run(self) -> None:
+        work, self._work = self._work, None
+        if work is None:
+            return
+        try:
+            work()
+        except Exception as exc:  # handed back by raise_error once the reply is read
+            self._error = exc
+
+    def raise_error(self) -> None:
+        if self._error is not None:
+            raise self._error

@@ -86,6 +86,8 @@ class ScpiDmm(Dmm):
         self._commands = merge_dialect(self.DIALECT, name, settings)
         self._session = VisaSession(name, resource, settings)
         self._configuration: DmmConfiguration | None = None
+        self._unconfirmed: tuple[DmmConfiguration, str] | None = None
+        """A configuration sent whose error check is still to come, and what was sent."""
         self._sample_count: int | None = None
 
     @property
@@ -106,6 +108,7 @@ class ScpiDmm(Dmm):
 
     def reset(self) -> None:
         self._configuration = None
+        self._unconfirmed = None
         self._sample_count = None
         self._session.write(self._commands["reset"])
         self.check_errors(after=self._commands["reset"])
@@ -114,6 +117,12 @@ class ScpiDmm(Dmm):
         raise_queued_errors(self._session, self._commands["error"], after)
 
     def configure(self, function: MeterFunction, range_: float | None, nplc: float) -> None:
+        self.send_configuration(function, range_, nplc)
+        self.confirm_configuration()
+
+    def send_configuration(
+        self, function: MeterFunction, range_: float | None, nplc: float
+    ) -> None:
         wanted = self._checked(function, range_, nplc)
         old = self._configuration
         if wanted == old:
@@ -132,13 +141,20 @@ class ScpiDmm(Dmm):
         if old is None or old.function is not function or old.nplc != nplc:
             commands.append(self._commands["nplc"].format(function=func, nplc=format_number(nplc)))
         self._configuration = None
+        self._unconfirmed = None
         if old is None or old.function is not function:
             self._sample_count = None  # CONFigure resets the sample count on SCPI meters
         # One program message, then the error query on its own: a meter may skip the rest of a
         # message after a refused unit (IEEE 488.2 leaves the recovery point to the device), so a
         # query at the end of it might never be answered.
         self._session.write(compound(commands))
-        self.check_errors(after="; ".join(commands))
+        self._unconfirmed = (wanted, "; ".join(commands))
+
+    def confirm_configuration(self) -> None:
+        if self._unconfirmed is None:
+            return
+        (wanted, sent), self._unconfirmed = self._unconfirmed, None
+        self.check_errors(after=sent)
         self._configuration = wanted
         log.debug("%s configured %s", self.name, wanted)
 

@@ -12,6 +12,7 @@ import tty
 from collections.abc import Callable, Iterator
 
 import pytest
+from polling import wait_for
 
 from drivers.relay_frames import (
     BoxInfo,
@@ -34,20 +35,10 @@ from rig.errors import (
     InstrumentTimeout,
 )
 from rig.sim.sim_relay_box import SimRelayBox
-from rig.sim.timing import BenchClock
+from rig.sim.timing import BenchClock, Timing
 
 pytestmark = pytest.mark.timeout(30)
 SETTINGS = {"timeout_ms": 200}
-
-
-def wait_for(condition: Callable[[], bool], limit_s: float = 5.0) -> bool:
-    """Poll until ``condition`` holds; the limit is generous, only a hang makes it fail."""
-    deadline = time.monotonic() + limit_s
-    while time.monotonic() < deadline:
-        if condition():
-            return True
-        time.sleep(0.01)
-    return condition()
 
 
 @pytest.fixture
@@ -403,3 +394,68 @@ def test_a_change_is_verified_from_its_own_reply_without_a_state_query() -> None
             box.close()
     finally:
         peer.close()
+
+
+# ---- other work while the contacts move --------------------------------------------------------
+
+
+@pytest.fixture
+def slow_sim() -> Iterator[SimRelayBox]:
+    """A box in real timing whose contacts take 50 ms to close (figures invented for the test)."""
+    box = SimRelayBox(
+        relay_count=8, max_closed=3, clock=BenchClock(Timing.REAL), operate_s=0.05, release_s=0.02
+    )
+    box.start()
+    yield box
+    box.stop()
+
+
+def test_work_given_to_a_change_runs_while_the_contacts_move(slow_sim: SimRelayBox) -> None:
+    # The box answers SET once its contacts have moved (docs/relay-box-protocol.md), so work
+    # done between sending the command and reading the answer overlaps the operate time.
+    box = SerialRelayBox("relays", slow_sim.port_path, SETTINGS)
+    try:
+        ran: list[tuple[float, frozenset[int]]] = []
+        box.apply_overlapping([4], lambda: ran.append((time.monotonic(), slow_sim.closed())))
+        closed_at = slow_sim.events()[-1]
+        assert closed_at.action == "close" and closed_at.relay == 4
+        assert len(ran) == 1
+        when, seen = ran[0]
+        assert seen == frozenset()  # relay 4 was still moving when the work ran
+        assert when < closed_at.t
+        assert box.closed_relays() == {4}
+    finally:
+        box.close()
+
+
+def test_an_error_of_the_work_comes_after_the_change_is_verified(
+    sim: SimRelayBox, box: SerialRelayBox
+) -> None:
+    def fails() -> None:
+        raise InstrumentTimeout("meter did not answer", instrument="dmm")
+
+    with pytest.raises(InstrumentTimeout, match="meter did not answer"):
+        box.apply_overlapping([2, 3], fails)
+    assert sim.closed() == {2, 3}  # the change itself went through and was read back
+    assert box.closed_relays() == {2, 3}  # the link is still in step
+    box.apply([1])
+    assert sim.closed() == {1}
+
+
+def test_a_failed_change_is_raised_and_not_the_work(sim: SimRelayBox, box: SerialRelayBox) -> None:
+    def fails() -> None:
+        raise RuntimeError("should stay behind the relay box's error")
+
+    with pytest.raises(InstrumentReportedError, match="relay box refused"):
+        box.apply_overlapping([1, 2, 3, 4], fails)  # over the box's budget of 3
+
+
+def test_the_work_runs_once_when_the_change_is_retried(
+    sim: SimRelayBox, box: SerialRelayBox
+) -> None:
+    sim.inject_fault("no_ack")  # the first answer is lost; the driver sends SET again
+    calls: list[int] = []
+    box.apply_overlapping([5], lambda: calls.append(1))
+    assert box.retries == 1
+    assert calls == [1]
+    assert sim.closed() == {5}

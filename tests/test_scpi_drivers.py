@@ -15,6 +15,7 @@ from collections.abc import Iterator
 from dataclasses import dataclass
 
 import pytest
+from polling import wait_for
 from small_bench import R_LEAD, R_LOAD, R_X, SmallBench
 
 from drivers.base import InstrumentIdentity, MeterFunction
@@ -184,6 +185,34 @@ def test_instrument_refusal_after_configure_is_reported(resistor: Rig, dmm: Scpi
     assert caught.value.instrument == "dmm"
     assert dmm.configuration is None
     dmm.configure(MeterFunction.DC_VOLTS, 10.0, 1.0)  # the queue was emptied: it works again
+    assert dmm.configuration is not None
+
+
+def test_a_setup_sent_ahead_is_taken_at_once_and_checked_later(resistor: Rig, dmm: ScpiDmm) -> None:
+    # The first half sends the program message and waits for nothing; the meter takes it as it
+    # arrives.  The error check comes with the second half, and only then is it recorded.
+    before = resistor.dmm_sim.lines_handled
+    dmm.send_configuration(MeterFunction.RES_2W, 1000.0, 1.0)
+    assert dmm.configuration is None  # not yet known to be taken
+    assert wait_for(lambda: resistor.dmm_sim.lines_handled == before + 1)
+    assert resistor.dmm_sim.function is MeterFunction.RES_2W
+    dmm.confirm_configuration()
+    assert resistor.dmm_sim.lines_handled == before + 2  # the setup, then SYST:ERR?
+    assert dmm.configuration == DmmConfiguration(MeterFunction.RES_2W, 1000.0, 1.0)
+    dmm.confirm_configuration()  # nothing left to check: nothing sent
+    assert resistor.dmm_sim.lines_handled == before + 2
+
+
+def test_a_setup_refused_while_sent_ahead_is_reported_by_its_check(
+    resistor: Rig, dmm: ScpiDmm
+) -> None:
+    resistor.dmm_sim.inject_fault("config_error")
+    dmm.send_configuration(MeterFunction.DC_VOLTS, 10.0, 1.0)  # nothing raised yet
+    with pytest.raises(InstrumentReportedError) as caught:
+        dmm.confirm_configuration()
+    assert caught.value.code == -221
+    assert dmm.configuration is None
+    dmm.configure(MeterFunction.DC_VOLTS, 10.0, 1.0)  # sent again in full, and taken
     assert dmm.configuration is not None
 
 

@@ -3,10 +3,11 @@
 from __future__ import annotations
 
 import time
-from collections.abc import Callable, Iterator
+from collections.abc import Iterator
 
 import pytest
 import serial
+from polling import wait_for
 
 from drivers.relay_frames import (
     MAX_COMMAND_LINE,
@@ -26,16 +27,6 @@ from rig.sim.sim_relay_box import SimRelayBox
 from rig.sim.timing import BenchClock, Timing
 
 pytestmark = pytest.mark.timeout(30)
-
-
-def wait_for(condition: Callable[[], bool], limit_s: float = 5.0) -> bool:
-    """Poll until ``condition`` holds; the limit is generous, only a hang makes it fail."""
-    deadline = time.monotonic() + limit_s
-    while time.monotonic() < deadline:
-        if condition():
-            return True
-        time.sleep(0.01)
-    return condition()
 
 
 class Link:

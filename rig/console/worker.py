@@ -124,6 +124,18 @@ class LiveDmm(_PassThrough, Dmm):
 
     def configure(self, function: MeterFunction, range_: float | None, nplc: float) -> None:
         self.inner.configure(function, range_, nplc)
+        self._new_function(function)
+
+    def send_configuration(
+        self, function: MeterFunction, range_: float | None, nplc: float
+    ) -> None:
+        self.inner.send_configuration(function, range_, nplc)
+        self._new_function(function)
+
+    def confirm_configuration(self) -> None:
+        self.inner.confirm_configuration()
+
+    def _new_function(self, function: MeterFunction) -> None:
         self._unit = FUNCTIONS[function.value]
         self._count = 0
 
@@ -160,10 +172,16 @@ class GuardedRelays(_PassThrough, RelayBox):
         self.inner.open_all()
 
     def apply(self, closed: Iterable[int]) -> None:
+        self.inner.apply(self._allowed(closed))
+
+    def apply_overlapping(self, closed: Iterable[int], meanwhile: Callable[[], object]) -> None:
+        self.inner.apply_overlapping(self._allowed(closed), meanwhile)
+
+    def _allowed(self, closed: Iterable[int]) -> frozenset[int]:
         wanted = frozenset(closed)
         if wanted and self._stop.is_set():
             raise StopRequested("stopped by the operator")
-        self.inner.apply(wanted)
+        return wanted
 
     def closed_relays(self) -> frozenset[int]:
         return self.inner.closed_relays()
