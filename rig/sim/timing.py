@@ -11,9 +11,7 @@ import enum
 import threading
 import time
 
-_SPIN_S = 0.0003
-"""``time.sleep`` wakes 0.1-0.2 ms late here (measured); an instrument's own timer does not, so
-the last 0.3 ms of a wait are spent yielding until the deadline instead of oversleeping it."""
+from rig.deadline import wait_until
 
 
 class Timing(enum.Enum):
@@ -40,12 +38,8 @@ class BenchClock:
         if self.timing is not Timing.REAL:
             return
         start = time.perf_counter() if since is None else since
-        deadline = start + seconds
-        remaining = deadline - time.perf_counter()
-        if remaining > _SPIN_S:
-            time.sleep(remaining - _SPIN_S)
-        while time.perf_counter() < deadline:  # the last fraction of a ms, to the deadline
-            time.sleep(0)  # gives up the GIL each turn, so the controller's thread runs
+        # an instrument's own timer does not oversleep as ``time.sleep`` does
+        wait_until(start + seconds, time.perf_counter)
         if seconds > 0 or since is not None:
             with self._lock:
                 self._spent_s += time.perf_counter() - start
