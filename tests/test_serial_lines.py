@@ -5,6 +5,7 @@ returned when the port's timeout passes."""
 from __future__ import annotations
 
 import os
+import time
 import tty
 from collections.abc import Iterator
 
@@ -59,5 +60,19 @@ def test_timeout_returns_what_came_and_discard_forgets_the_rest(
     os.write(master, b"stale\nstale too\n")
     assert reader.read_line(1024) == b"stale\n"  # "stale too" is now held by the reader
     reader.discard_input()
+    os.write(master, b"fresh\n")
+    assert reader.read_line(1024) == b"fresh\n"
+
+
+def test_discard_forgets_what_waits_in_the_port_too(pty: tuple[int, serial.Serial]) -> None:
+    master, port = pty
+    reader = LineReader(port)
+    os.write(master, b"stale reply\n")
+    deadline = time.monotonic() + 5.0
+    while not port.in_waiting and time.monotonic() < deadline:  # the terminal delivers it
+        time.sleep(0.001)
+    assert port.in_waiting
+    reader.discard_input()
+    assert port.in_waiting == 0
     os.write(master, b"fresh\n")
     assert reader.read_line(1024) == b"fresh\n"
