@@ -16,12 +16,14 @@ import time
 from collections import deque
 from collections.abc import Callable
 from dataclasses import dataclass, field, replace
+from functools import partial
 from typing import Any, cast
 
 from drivers.base import Dmm, MeterFunction, RelayBox, Supply
 from rig.commit_ahead import CommitAhead, RowTicket
 from rig.config.fixture import FixtureMap
 from rig.config.station import FUNCTIONS, Station
+from rig.deadline import wait_until
 from rig.entry_text import kept_entry_text
 from rig.errors import InstrumentError, InterlockError, RigError
 from rig.events import (
@@ -522,13 +524,44 @@ class Engine:
     # --- StepContext: what steps ask of the bench ---------------------------------------------
 
     def connect(self, route: Route) -> None:
+        self._connect(route, None)
+
+    def measure_on(
+        self,
+        route: Route,
+        function: MeterFunction,
+        *,
+        role: str,
+        range_: float | None,
+        nplc: float,
+    ) -> Reading:
+        self._connect(route, (function, range_, nplc))
+        return self.measure(function, role=role, range_=range_, nplc=nplc)
+
+    def _connect(
+        self, route: Route, setup: tuple[MeterFunction, float | None, float] | None
+    ) -> None:
+        """Close the route's relays; with the ``setup`` of the reading to come, set the meter up
+        while they move (its change then needs no settle of its own: the relays', later, starts
+        it)."""
         relays = plan_relays(self.plan.station.fixture, route)
         if relays != self._closed:
             self._moves += 1  # before the change: a failed apply must not leave a settled state
-            self.bench.relays.apply(relays)  # the last step's rows commit meanwhile
+            # the last step's rows commit meanwhile
+            overlap = setup is not None and setup != self._meter_setup
+            dmm = self.bench.dmm
+            if setup is not None and overlap:
+                # sent while the contacts move, checked once they have: nothing waits inside
+                self._meter_setup = None  # unknown until the meter has taken it
+                self.bench.relays.apply_overlapping(relays, partial(dmm.send_configuration, *setup))
+            else:
+                self.bench.relays.apply(relays)
             self._closed = relays
             self._relays_changed_at = time.time()
             self._moved_at = time.monotonic()
+            if setup is not None and overlap:
+                dmm.confirm_configuration()
+                self._meter_setup = setup
             self._writes.flush()
             if self.stop.is_set():  # a listener may have asked on an event held until now
                 raise StopRequested("stopped by the operator")
@@ -536,14 +569,10 @@ class Engine:
     def measure(
         self, function: MeterFunction, *, role: str, range_: float | None, nplc: float
     ) -> Reading:
-        dmm = self.bench.dmm
         started = time.monotonic()
         reading = self._reading_taken_ahead(function, role, range_, nplc)
         if reading is None:
-            setup = (function, range_, nplc)
-            dmm.configure(function, range_, nplc)
-            if setup != self._meter_setup:  # another function or range drives the circuit
-                self._meter_setup = setup  # anew (an ohms test current charges its capacitors)
+            if self._configure(function, range_, nplc):
                 self._moved_at = time.monotonic()
             started = time.monotonic()
             reading = self._settled_reading(function, role, range_, nplc)
@@ -561,6 +590,18 @@ class Engine:
             ReadingTaken(self._step_id, role, reading.value, FUNCTIONS[function.value], True)
         )
         return reading
+
+    def _configure(self, function: MeterFunction, range_: float | None, nplc: float) -> bool | None:
+        """Set the meter up; True when that changed its setup, for another function or range
+        drives the circuit anew (an ohms test current charges its capacitors)."""
+        setup = (function, range_, nplc)
+        if setup == self._meter_setup:
+            self.bench.dmm.configure(function, range_, nplc)  # the driver's own check: no-op
+            return False
+        self._meter_setup = None  # unknown until the meter has taken it
+        self.bench.dmm.configure(function, range_, nplc)
+        self._meter_setup = setup
+        return True
 
     def _settled_reading(
         self, function: MeterFunction, role: str, range_: float | None, nplc: float
@@ -600,11 +641,13 @@ class Engine:
         return readings[-1]
 
     def _sleep_until(self, deadline: float) -> None:
-        """Wait for ``time.monotonic()`` to reach ``deadline``, answering a stop within 50 ms."""
-        while (left := deadline - time.monotonic()) > 0:
-            if self.stop.is_set():
-                raise StopRequested("stopped by the operator")
-            time.sleep(min(left, 0.05))
+        """Wait for ``time.monotonic()`` to reach ``deadline`` (not later: a stated settle is
+        part of the physical limit), answering a stop within 50 ms."""
+        wait_until(deadline, time.monotonic, check=self._check_stop, slice_s=0.05)
+
+    def _check_stop(self) -> None:
+        if self.stop.is_set():
+            raise StopRequested("stopped by the operator")
 
     def _read_with_ahead(
         self,

@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import math
 import threading
+from dataclasses import replace
 from pathlib import Path
 
 import pytest
@@ -235,3 +236,34 @@ def test_a_bench_that_cannot_be_made_safe_after_the_last_step_aborts_the_run(
     assert summary.reason.startswith("the bench could not be made safe at the end: relay box")
     assert "relay box did not answer in time" in summary.reason  # in plain words
     assert not summary.safe
+
+
+def test_a_meter_silent_for_its_setup_while_relays_move_leaves_the_box_fed(
+    tmp_path: Path,
+) -> None:
+    # A step's meter setup goes out while its relays move, and its error check waits until the
+    # box has answered: a meter that then falls silent for longer than the box's watchdog must
+    # not keep the relay driver from feeding it.  The check times out, the step is retried once
+    # on a bench made safe again, and the run completes (figures invented for the test: meter
+    # timeout 1.5 s, watchdog 1 s).
+    with shipped_bench("temp-circuit", folder=tmp_path) as (bench, station):
+        station.instruments["dmm"].settings["timeout_ms"] = 1500
+        plan = replace(
+            shipped_plan("temp-circuit-check", station), station=replace(station, watchdog_s=1.0)
+        )
+        handle = bench.dmm.handle
+        reads, silenced = [0], [False]
+
+        def silence_the_second_setup(line: str) -> str | None:
+            reads[0] += "READ?" in line
+            if reads[0] == 1 and "RANG" in line and not silenced[0]:
+                silenced[0] = True
+                bench.dmm.inject_fault("silent", 1)  # its error check goes unanswered
+            return handle(line)
+
+        bench.dmm.handle = silence_the_second_setup  # type: ignore[method-assign]
+        summary = run_plan(plan, "SILENT-1")
+        assert bench.relay_box.closed() == frozenset()
+    assert summary.status == "complete", summary.reason
+    assert any("cured by one retry" in n for n in summary.notes), summary.notes
+    assert not any("watchdog" in n for n in summary.notes), summary.notes

@@ -8,6 +8,8 @@ Settled to 1 ppm of the swing takes ``ln(1e6) = 13.8`` time constants (mathemati
 from __future__ import annotations
 
 import sqlite3
+import time
+from collections.abc import Callable
 from pathlib import Path
 
 import pytest
@@ -98,14 +100,24 @@ def run_slow(tmp_path: Path, settle: str | None) -> tuple[float, int]:
     return result.value, result.readings
 
 
-def run_slow_text(tmp_path: Path, text: str) -> StepResult:
-    """The result of the step ``slow`` of sequence ``text`` on the slow unit, in real timing."""
+def run_slow_text(
+    tmp_path: Path,
+    text: str,
+    *,
+    relay_operate_s: float = 0.005,
+    watch: Callable[[VirtualBench], None] = lambda bench: None,
+) -> StepResult:
+    """The result of the step ``slow`` of sequence ``text`` on the slow unit, in real timing;
+    ``watch`` is given the started bench before the run."""
     tmp_path.mkdir(parents=True, exist_ok=True)
     unit_file = tmp_path / "slow-unit.toml"
     unit_file.write_text(SLOW_UNIT, encoding="utf-8")
     unit = load_unit(unit_file)
-    bench = VirtualBench(unit, load_fixture(unit.fixture_path), timing=Timing.REAL)
+    bench = VirtualBench(
+        unit, load_fixture(unit.fixture_path), timing=Timing.REAL, relay_operate_s=relay_operate_s
+    )
     bench.start()
+    watch(bench)
     try:
         station_path = bench.write_station(tmp_path / "station.toml", data_dir=str(tmp_path))
         sequence_path = tmp_path / "slow.toml"
@@ -221,4 +233,34 @@ def test_a_new_meter_function_on_the_same_route_waits_the_settle_again(tmp_path:
     result = run_slow_text(tmp_path, text)
     assert result.readings == 1
     assert result.settle_s >= 0.14  # the wait, measured by the engine (a floor: never shorter)
+    assert result.value == pytest.approx(R_OHM, rel=1e-3)
+
+
+def test_the_meter_is_set_up_while_the_relays_move_and_the_settle_runs_from_them(
+    tmp_path: Path,
+) -> None:
+    # The quick step leaves the meter on its 1 kohm range; the slow step needs 100 kohm on other
+    # pins.  The range is sent while the relays close (40 ms here, so the order is plain), and
+    # the stated 150 ms still runs from the relays' change, when the 1 uF starts charging.
+    got: list[tuple[float, str]] = []  # what the virtual meter received, and when
+    benches: list[VirtualBench] = []
+
+    def watch(bench: VirtualBench) -> None:
+        handle = bench.dmm.handle
+
+        def noted(line: str) -> str | None:
+            got.append((time.monotonic(), line))
+            return handle(line)
+
+        bench.dmm.handle = noted  # type: ignore[method-assign]
+        benches.append(bench)
+
+    result = run_slow_text(tmp_path, slow_sequence("150 ms"), relay_operate_s=0.04, watch=watch)
+    events = benches[0].relay_box.events()
+    closed = max(e.t for e in events if e.action == "close")  # the slow route's contacts
+    setup = next(t for t, line in reversed(got) if "RANG 100000" in line)
+    read = max(t for t, line in got if "READ?" in line)
+    assert setup < closed  # set up while the contacts moved
+    assert read - closed >= 0.15  # the settle counted from the relays, never shorter
+    assert result.readings == 1
     assert result.value == pytest.approx(R_OHM, rel=1e-3)

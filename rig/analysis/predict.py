@@ -24,6 +24,7 @@ from rig.judge.decision import Verdict
 from rig.plan import Plan
 from rig.routing import Route, plan_relays
 from rig.steps import KINDS, Outcome, Reading, SupplyRequest
+from rig.steps.context import ConnectThenMeasure
 
 
 @dataclass(frozen=True)
@@ -62,7 +63,7 @@ class _Earlier:
     u_std: float
 
 
-class _SolverContext:
+class _SolverContext(ConnectThenMeasure):
     """A ``StepContext`` whose instruments are the circuit solver."""
 
     def __init__(self, plan: Plan, bench: StaticBench, prediction: Prediction) -> None:

@@ -30,10 +30,14 @@ COVERAGE_K = 2.0
 class MeasurePort(Protocol):
     """What a harness scan needs of a bench: the engine's step context provides it."""
 
-    def connect(self, route: Route) -> None: ...
-
-    def measure(
-        self, function: MeterFunction, *, role: str, range_: float | None, nplc: float
+    def measure_on(
+        self,
+        route: Route,
+        function: MeterFunction,
+        *,
+        role: str,
+        range_: float | None,
+        nplc: float,
     ) -> Reading: ...
 
     def lead_zero(self, hi: str, lo: str) -> float: ...
@@ -130,8 +134,8 @@ def run_continuity(
 ) -> list[ContinuityResult]:
     results = []
     for check in checks:
-        port.connect(check.route)
-        reading = port.measure(
+        reading = port.measure_on(
+            check.route,
             check.function,
             role=f"continuity {check.hi}>{check.lo}",
             range_=range_ohm,

@@ -120,12 +120,10 @@ def island_reader(
 
     def read(hi: frozenset[int], lo: frozenset[int]) -> float:
         count[0] += 1
-        port.connect(
+        reading = port.measure_on(
             Route.ganged_dmm(
                 [islands[i][0] for i in sorted(hi)], [islands[i][0] for i in sorted(lo)]
-            )
-        )
-        reading = port.measure(
+            ),
             MeterFunction.RES_2W,
             role=f"isolation {count[0]} ({len(hi)} to {len(lo)})",
             range_=settings.isolation_range_ohm,
@@ -182,9 +180,12 @@ def _refine(
     short is reported with a resistance worth quoting; kept as found if that reads over range."""
     hi, lo, four = orientation(fixture, islands[join.a][0], islands[join.b][0])
     route = Route.four_wire(hi, hi, lo, lo) if four else Route.dmm(hi, lo)
-    port.connect(route)
     function = MeterFunction.RES_4W if four else MeterFunction.RES_2W
-    reading = port.measure(
-        function, role=f"join {hi}>{lo}", range_=settings.continuity_range_ohm, nplc=settings.nplc
+    reading = port.measure_on(
+        route,
+        function,
+        role=f"join {hi}>{lo}",
+        range_=settings.continuity_range_ohm,
+        nplc=settings.nplc,
     )
     return replace(join, r_ohm=reading.value) if math.isfinite(reading.value) else join

@@ -3,7 +3,8 @@
 Each drill starts a virtual bench, writes its station file, and runs a short powered sequence
 through the real drivers.  The moment the chosen step's relays have closed, the fault is armed on
 the bench's side through the control channel's own command handler (``instrument NAME KIND N``),
-so the point does not depend on how fast the controller runs.  After the run the
+so the point does not depend on how fast the controller runs (a fault of the meter's setup is
+armed one step ahead: see ``ARMED_A_STEP_AHEAD``).  After the run the
 bench's own side is watched until every relay is open and the supply is off; the drill records the
 run's outcome, its reason, whether one retry cured the fault, and how long the bench took to be
 safe.  Used by the reliability tests and ``tests/benchmarks/reliability.py``.
@@ -38,6 +39,11 @@ FAULTS: dict[str, tuple[str, str]] = {
 
 POINTS = {"start": 1, "middle": 3, "end": 5}
 """Where in the five-step drill sequence the fault is armed (the step that is starting)."""
+
+ARMED_A_STEP_AHEAD = ("dmm-scpi-error",)
+"""Faults of the meter's setup: a step's setup is sent while its relays move, before they have
+closed, so such a fault is armed when the step before has closed its relays (before the run, for
+the first step); the step's own setup is then the next one the meter takes."""
 
 NOT_RETRIED = ("supply-trip", "relay-pty-gone")
 """Faults a retry must not or cannot cure: a tripped unit is never re-powered; a vanished port
@@ -149,7 +155,11 @@ def run_drill(fault: str, point: str, *, persistent: bool, folder: Path) -> Dril
     try:
         plan = load_plan(sequence, drill_station(bench, folder))
         # armed on the bench's side when the chosen step's relays have closed
-        bench.relay_box.when_closed(plan.steps[at_step - 1].relay_sets[0], arm)
+        arm_at = at_step - 1 if fault in ARMED_A_STEP_AHEAD else at_step
+        if arm_at == 0:
+            arm()
+        else:
+            bench.relay_box.when_closed(plan.steps[arm_at - 1].relay_sets[0], arm)
         summary = run_plan(plan, f"DRILL-{fault}-{point}")
         store = ResultStore(plan.station.store_path)  # the record, not the summary, is judged
         try:

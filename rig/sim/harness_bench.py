@@ -29,6 +29,7 @@ from rig.sim.probe import SupplySettings
 from rig.sim.sim_dmm import OVERRANGE_FACTOR, SPECS
 from rig.sim.timing import BenchClock, Timing
 from rig.steps.base import Reading
+from rig.steps.context import ConnectThenMeasure
 
 GAUGES = ("0.35 mm2", "0.5 mm2", "0.75 mm2", "20 AWG", "18 AWG", "16 AWG")
 
@@ -120,7 +121,7 @@ def harness_bench(
     return VirtualBench(unit, fixture, faults=unit_faults, seed=seed)
 
 
-class ProbePort:
+class ProbePort(ConnectThenMeasure):
     """The harness check's ``MeasurePort`` straight onto the bench circuit: same relays, same
     solver, the DMM's overload rule, no sockets, no noise.  For benchmarks and large models."""
 

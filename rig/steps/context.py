@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from abc import ABC, abstractmethod
 from typing import Protocol
 
 from drivers.base import MeterFunction
@@ -27,6 +28,18 @@ class StepContext(Protocol):
     ) -> Reading:
         """A settled reading on the current route; every raw reading is kept by the engine."""
 
+    def measure_on(
+        self,
+        route: Route,
+        function: MeterFunction,
+        *,
+        role: str,
+        range_: float | None,
+        nplc: float,
+    ) -> Reading:
+        """``connect(route)``, then ``measure(...)``: told both at once, the engine sets the
+        meter up while the relays move."""
+
     def power(self, request: SupplyRequest | None) -> None:
         """Program and switch on the bench supply, or switch it off for ``None``."""
 
@@ -48,3 +61,27 @@ class StepContext(Protocol):
     @property
     def fixture(self) -> FixtureMap:
         """The station's fixture map (a harness step joins its wire list to it)."""
+
+
+class ConnectThenMeasure(ABC):
+    """``measure_on`` as the two calls it stands for, for contexts with nothing to overlap."""
+
+    @abstractmethod
+    def connect(self, route: Route) -> None: ...
+
+    @abstractmethod
+    def measure(
+        self, function: MeterFunction, *, role: str, range_: float | None, nplc: float
+    ) -> Reading: ...
+
+    def measure_on(
+        self,
+        route: Route,
+        function: MeterFunction,
+        *,
+        role: str,
+        range_: float | None,
+        nplc: float,
+    ) -> Reading:
+        self.connect(route)
+        return self.measure(function, role=role, range_=range_, nplc=nplc)

@@ -37,9 +37,9 @@ class Volts(StepKind):
 
     def run(self, ctx: StepContext, spec: StepSpec) -> Outcome:
         ctx.power(spec.supply)
-        ctx.connect(self.routes(spec)[0])
         fn = MeterFunction.DC_VOLTS
-        r = ctx.measure(fn, role="hi-lo", range_=spec.range_, nplc=spec.nplc)
+        route = self.routes(spec)[0]
+        r = ctx.measure_on(route, fn, role="hi-lo", range_=spec.range_, nplc=spec.nplc)
         return Outcome(r.value, self.unit, r.u_std, spec.limits, [r])
 
 
@@ -82,13 +82,12 @@ class WireDrop(StepKind):
     def run(self, ctx: StepContext, spec: StepSpec) -> Outcome:
         ctx.power(spec.supply)
         direct_route, from_route, to_route = self.routes(spec)
-        ctx.connect(direct_route)
         fn = MeterFunction.DC_VOLTS
-        direct = ctx.measure(fn, role="direct", range_=spec.range_, nplc=spec.nplc)
-        ctx.connect(from_route)
-        at_from = ctx.measure(fn, role="from-reference", range_=None, nplc=spec.nplc)
-        ctx.connect(to_route)
-        at_to = ctx.measure(fn, role="to-reference", range_=at_from.range_, nplc=spec.nplc)
+        direct = ctx.measure_on(direct_route, fn, role="direct", range_=spec.range_, nplc=spec.nplc)
+        at_from = ctx.measure_on(from_route, fn, role="from-reference", range_=None, nplc=spec.nplc)
+        at_to = ctx.measure_on(
+            to_route, fn, role="to-reference", range_=at_from.range_, nplc=spec.nplc
+        )
         computed = at_from.value - at_to.value
         readings_ok = all(math.isfinite(r.u_std) for r in (at_from, at_to))
         # same meter, same range: the gain error is common to both (GUM 5.2); correlation 1 is
@@ -133,9 +132,9 @@ class Resistance(StepKind):
 
     def run(self, ctx: StepContext, spec: StepSpec) -> Outcome:
         ctx.power(None)
-        ctx.connect(self.routes(spec)[0])
         fn = self.meter_function(spec)
-        r = ctx.measure(fn, role="hi-lo", range_=spec.range_, nplc=spec.nplc)
+        route = self.routes(spec)[0]
+        r = ctx.measure_on(route, fn, role="hi-lo", range_=spec.range_, nplc=spec.nplc)
         stated = spec.params.get("zero_ohm")
         if stated is not None:
             zero = float(stated)

@@ -43,8 +43,13 @@ class ReferenceTemperature(StepKind):
 
     def run(self, ctx: StepContext, spec: StepSpec) -> Outcome:
         ctx.power(None)
-        ctx.connect(self.routes(spec)[0])
-        r = ctx.measure(MeterFunction.RES_4W, role="pt-4w", range_=spec.range_, nplc=spec.nplc)
+        r = ctx.measure_on(
+            self.routes(spec)[0],
+            MeterFunction.RES_4W,
+            role="pt-4w",
+            range_=spec.range_,
+            nplc=spec.nplc,
+        )
         rtd = Rtd(r0_ohm=float(spec.params["r0_ohm"]))
         if not math.isfinite(r.value) or r.value <= 0:
             return Outcome(math.nan, self.unit, math.nan, spec.limits, [r], note="no Pt100 reading")
@@ -140,8 +145,13 @@ class NtcCheck(StepKind):
         u_r_pred = abs(float(model.dr_dt(temp))) * u_temp
         if spec.params["mode"] == "resistance":
             ctx.power(None)
-            ctx.connect(self.routes(spec)[0])
-            r = ctx.measure(MeterFunction.RES_2W, role="ntc", range_=spec.range_, nplc=spec.nplc)
+            r = ctx.measure_on(
+                self.routes(spec)[0],
+                MeterFunction.RES_2W,
+                role="ntc",
+                range_=spec.range_,
+                nplc=spec.nplc,
+            )
             limits = apply_tolerance(r_pred, spec.params["tolerance"])
             u = math.hypot(r.u_std, u_r_pred)
             return Outcome(
@@ -158,8 +168,13 @@ class NtcCheck(StepKind):
             float(dv_dr_sensor(v_ref, pull, r_pred)) * u_r_pred, v_pred / v_ref * u_ref
         )
         ctx.power(spec.supply)
-        ctx.connect(self.routes(spec)[0])
-        v = ctx.measure(MeterFunction.DC_VOLTS, role="signal", range_=spec.range_, nplc=spec.nplc)
+        v = ctx.measure_on(
+            self.routes(spec)[0],
+            MeterFunction.DC_VOLTS,
+            role="signal",
+            range_=spec.range_,
+            nplc=spec.nplc,
+        )
         limits = apply_tolerance(v_pred, spec.params["tolerance"])
         return Outcome(
             v.value,
@@ -208,11 +223,9 @@ class RatiometricCheck(StepKind):
         model: Ratiometric = spec.params["model"]
         ctx.power(spec.supply)
         out_route, supply_route = self.routes(spec)
-        ctx.connect(out_route)
         fn = MeterFunction.DC_VOLTS
-        v_out = ctx.measure(fn, role="output", range_=spec.range_, nplc=spec.nplc)
-        ctx.connect(supply_route)
-        v_sup = ctx.measure(fn, role="supply", range_=None, nplc=spec.nplc)
+        v_out = ctx.measure_on(out_route, fn, role="output", range_=spec.range_, nplc=spec.nplc)
+        v_sup = ctx.measure_on(supply_route, fn, role="supply", range_=None, nplc=spec.nplc)
         predicted = float(model.fraction_at(float(spec.params["pressure_pa"]))) * 100.0
         tol = float(spec.params["tolerance_pct"])
         limits = Limits(predicted - tol, predicted + tol)
