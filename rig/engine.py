@@ -548,20 +548,20 @@ class Engine:
         if relays != self._closed:
             self._moves += 1  # before the change: a failed apply must not leave a settled state
             # the last step's rows commit meanwhile
-            overlap = setup is not None and setup != self._meter_setup
-            dmm = self.bench.dmm
-            if setup is not None and overlap:
+            ahead = setup if setup is not None and setup != self._meter_setup else None
+            if ahead is not None:
                 # sent while the contacts move, checked once they have: nothing waits inside
                 self._meter_setup = None  # unknown until the meter has taken it
-                self.bench.relays.apply_overlapping(relays, partial(dmm.send_configuration, *setup))
+                send = partial(self.bench.dmm.send_configuration, *ahead)
+                self.bench.relays.apply_overlapping(relays, send)
             else:
                 self.bench.relays.apply(relays)
             self._closed = relays
             self._relays_changed_at = time.time()
             self._moved_at = time.monotonic()
-            if setup is not None and overlap:
-                dmm.confirm_configuration()
-                self._meter_setup = setup
+            if ahead is not None:
+                self.bench.dmm.confirm_configuration()
+                self._meter_setup = ahead
             self._writes.flush()
             if self.stop.is_set():  # a listener may have asked on an event held until now
                 raise StopRequested("stopped by the operator")
@@ -591,17 +591,15 @@ class Engine:
         )
         return reading
 
-    def _configure(self, function: MeterFunction, range_: float | None, nplc: float) -> bool | None:
+    def _configure(self, function: MeterFunction, range_: float | None, nplc: float) -> bool:
         """Set the meter up; True when that changed its setup, for another function or range
         drives the circuit anew (an ohms test current charges its capacitors)."""
         setup = (function, range_, nplc)
-        if setup == self._meter_setup:
-            self.bench.dmm.configure(function, range_, nplc)  # the driver's own check: no-op
-            return False
-        self._meter_setup = None  # unknown until the meter has taken it
+        changed = setup != self._meter_setup
+        self._meter_setup = None  # unknown until the meter has taken it (the driver skips a repeat)
         self.bench.dmm.configure(function, range_, nplc)
         self._meter_setup = setup
-        return True
+        return changed
 
     def _settled_reading(
         self, function: MeterFunction, role: str, range_: float | None, nplc: float
@@ -643,7 +641,7 @@ class Engine:
     def _sleep_until(self, deadline: float) -> None:
         """Wait for ``time.monotonic()`` to reach ``deadline`` (not later: a stated settle is
         part of the physical limit), answering a stop within 50 ms."""
-        wait_until(deadline, time.monotonic, check=self._check_stop, slice_s=0.05)
+        wait_until(deadline, check=self._check_stop)
 
     def _check_stop(self) -> None:
         if self.stop.is_set():
