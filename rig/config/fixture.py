@@ -9,7 +9,9 @@ its own.  Routing and interlocks (``rig.routing``) and the virtual bench both re
 from __future__ import annotations
 
 import enum
+from collections.abc import Mapping
 from dataclasses import dataclass, field
+from functools import cached_property
 from pathlib import Path
 
 from rig.config.reader import TomlDoc
@@ -43,6 +45,8 @@ class FixturePin:
 
 @dataclass
 class FixtureMap:
+    """A loaded fixture.  Its pins are read-only once loaded: ``relay_owner`` is worked out once."""
+
     name: str
     path: Path
     relay_count: int
@@ -50,8 +54,14 @@ class FixtureMap:
     pins: dict[str, FixturePin] = field(default_factory=dict)
     rated_operations: int = 10_000_000
 
-    def relay_owner(self) -> dict[int, tuple[str, Bus]]:
+    def relay_owner(self) -> Mapping[int, tuple[str, Bus]]:
         """Each relay number -> the (pin, bus) it joins."""
+        return self._relay_owner
+
+    @cached_property
+    def _relay_owner(self) -> dict[int, tuple[str, Bus]]:
+        # Kept once: routing asks for it on every route and every interlock check, and rebuilding
+        # it over all pins each time made checking a 256-pin plan twice as slow per step.
         return {r: (pin.name, bus) for pin in self.pins.values() for bus, r in pin.relays.items()}
 
     def relay_for(self, pin: str, bus: Bus) -> int | None:
@@ -80,13 +90,7 @@ def parse_fixture(doc: TomlDoc) -> FixtureMap:
     rated = head.integer("rated_operations", 10_000_000, minimum=1) if head else 10_000_000
     if head:
         head.reject_unknown()
-    fixture = FixtureMap(
-        name=name or "fixture",
-        path=doc.path,
-        relay_count=relay_count or 0,
-        max_closed=max_closed or 0,
-        rated_operations=rated,
-    )
+    pins: dict[str, FixturePin] = {}
     used: dict[int, str] = {}
     for pin_name, section in root.named_tables("pins"):
         relays: dict[Bus, int] = {}
@@ -115,13 +119,20 @@ def parse_fixture(doc: TomlDoc) -> FixtureMap:
         if pin.bench_ground:
             pin = FixturePin(pin.name, pin.relays, pin.connector, True, True)
         section.reject_unknown()
-        fixture.pins[pin_name] = pin
-    if not fixture.pins:
+        pins[pin_name] = pin
+    if not pins:
         root.problem("pins", "no pins defined; expected [pins.NAME] tables")
-    if sum(p.bench_ground for p in fixture.pins.values()) > 1:
+    if sum(p.bench_ground for p in pins.values()) > 1:
         root.problem("pins", "more than one pin has bench_ground = true; expected one")
     root.reject_unknown()
-    return fixture
+    return FixtureMap(
+        name=name or "fixture",
+        path=doc.path,
+        relay_count=relay_count or 0,
+        max_closed=max_closed or 0,
+        pins=pins,
+        rated_operations=rated,
+    )
 
 
 def describe_relay(fixture: FixtureMap, relay: int) -> str:
