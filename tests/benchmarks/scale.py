@@ -2,12 +2,16 @@
 
 Two sweeps on generated data: 10 to 5,000 steps on a 32-pin fixture, and 8 to 256 pins with 500
 steps.  The fixture gives every pin a DMM HI and a DMM LO relay; the unit is a resistor ladder fed
-with 5 V; the sequence is volts steps between random pin pairs, reordering allowed.  Printed per
+with 5 V; the sequence is volts steps between random pin pairs, reordering allowed.  In the pin
+sweep the pairs come from 8 pins spread across the fixture at every size, so that each size does
+the same relay work and only the fixture's size changes.  Printed per
 size: check time in total and per step, and the engine's cost per step on the virtual bench in
 instant timing, both as wall time and as the engine thread's own CPU time (which leaves out the
 simulated instruments serving in their own threads).  The goal is flat per-step figures.
+Every figure is the median of ``--repeat`` runs (default 3): a shared host's figures move by up to
+twice between back-to-back runs.
 
-Usage: python tests/benchmarks/scale.py [--quick]
+Usage: python tests/benchmarks/scale.py [--quick] [--repeat N]
 """
 
 from __future__ import annotations
@@ -18,6 +22,7 @@ import random
 import statistics
 import tempfile
 import time
+from dataclasses import dataclass
 from pathlib import Path
 
 from rig.bench_open import close_bench, open_bench
@@ -28,6 +33,12 @@ from rig.engine import Engine
 from rig.runner import load_plan
 from rig.sim.bench import VirtualBench
 from rig.store import ResultStore
+
+STEP_SWEEP_PINS = 128
+"""The step sweep's fixture: 8,128 pin pairs, enough for 5,000 steps on routes of their own."""
+
+PIN_SWEEP_SPREAD = 8
+"""The pin sweep draws its routes from this many pins at every size: 28 distinct pairs."""
 
 
 def pin(index: int) -> str:
@@ -74,11 +85,30 @@ def write_unit(folder: Path, pins: int) -> Path:
     return path
 
 
-def write_sequence(folder: Path, pins: int, steps: int, seed: int = 7) -> Path:
+def write_sequence(
+    folder: Path, pins: int, steps: int, *, spread: int = 0, distinct: bool = False, seed: int = 7
+) -> Path:
+    """Volts steps between random pin pairs, reordering allowed.
+
+    ``spread``: the pairs come from that many pins only, spaced across the fixture, so that every
+    fixture size gets the same routes and the same relay work: the pin sweep then compares the
+    cost of a bigger fixture, not of a workload with more routes.
+    ``distinct``: no two steps share a pair, so that no step can ride on another's route or
+    reading and every step of the step sweep does the same work.
+    """
     rng = random.Random(seed)
+    pool = [round(i * (pins - 1) / (spread - 1)) for i in range(spread)] if spread else range(pins)
+    if distinct:
+        pairs = [(a, b) for a in pool for b in pool if a < b]
+        if len(pairs) < steps:
+            raise ValueError(f"{pins} pins give {len(pairs)} distinct pairs; {steps} asked")
+        chosen = [(a, b) if rng.random() < 0.5 else (b, a) for a, b in rng.sample(pairs, steps)]
+    else:
+        chosen = [
+            (pool[i], pool[j]) for i, j in (rng.sample(range(len(pool)), 2) for _ in range(steps))
+        ]
     lines = ["[sequence]", f'name = "scale-{pins}-{steps}"', "reorder = true", ""]
-    for n in range(steps):
-        hi, lo = rng.sample(range(pins), 2)
+    for n, (hi, lo) in enumerate(chosen):
         lines += ["[[steps]]", f'id = "s{n:05d}"', 'kind = "volts"']
         lines += [f'hi = "{pin(hi)}"', f'lo = "{pin(lo)}"', 'low = "-6 V"', 'high = "6 V"', ""]
     path = folder / f"sequence-{steps}.toml"
@@ -96,8 +126,8 @@ def time_check(sequence: Path, station: Station, repeat: int) -> float:
     return statistics.median(times)
 
 
-def time_engine(sequence: Path, station: Station, folder: Path) -> tuple[float, float]:
-    """(wall, engine-thread CPU) seconds per step for one run in instant timing."""
+def time_engine(sequence: Path, station: Station, folder: Path) -> tuple[float, float, int]:
+    """(wall s, engine-thread CPU s, planned relay operations) for one run in instant timing."""
     plan = load_plan(sequence, station)
     instruments = open_bench(station)
     store = ResultStore(folder / "results.db")
@@ -111,51 +141,106 @@ def time_engine(sequence: Path, station: Station, folder: Path) -> tuple[float, 
         store.close()
     if summary.status != "complete":
         raise RuntimeError(f"scale run did not complete: {summary.reason}")
-    steps = len(plan.steps)
-    return wall / steps, cpu / steps
+    return wall, cpu, plan.relay_ops
 
 
-def measure(folder: Path, pins: int, steps: int, engine: bool) -> dict[str, object]:
+@dataclass
+class Size:
+    """One size's totals; per-step figures are worked out when printing."""
+
+    sweep: str
+    pins: int
+    steps: int
+    check_s: float
+    engine_s: float
+    engine_cpu_s: float
+    relay_ops: int
+
+
+def median_engine(
+    sequence: Path, station: Station, folder: Path, repeat: int
+) -> tuple[float, float, int]:
+    """Median wall and median engine-thread CPU time over ``repeat`` runs, and the relay ops."""
+    runs = [time_engine(sequence, station, folder) for _ in range(repeat)]
+    walls, cpus, ops = zip(*runs, strict=True)
+    return statistics.median(walls), statistics.median(cpus), ops[0]
+
+
+def measure(
+    folder: Path, sweep: str, pins: int, steps: int, repeat: int, **routes: int | bool
+) -> Size:
     folder.mkdir(parents=True, exist_ok=True)
     fixture = load_fixture(write_fixture(folder, pins))
     unit = load_unit(write_unit(folder, pins))
-    sequence = write_sequence(folder, pins, steps)
+    sequence = write_sequence(folder, pins, steps, **routes)  # type: ignore[arg-type]
     with VirtualBench(unit, fixture) as bench:
         station = load_station(bench.write_station(folder / "station.toml"))
-        check_s = time_check(sequence, station, 3 if steps <= 1000 else 1)
+        wall, cpu, relay_ops = median_engine(sequence, station, folder, repeat)
+    check_s = time_check(sequence, station, repeat)  # with the bench's threads gone
+    return Size(sweep, pins, steps, check_s, wall, cpu, relay_ops)
+
+
+def rows_of(sizes: list[Size]) -> list[dict[str, object]]:
+    """Per-step figures; in the step sweep also the cost of each step added since the last size,
+    which leaves out the run's fixed cost (opening, safe state, the run record) that a 10-step
+    run spreads over only 10 steps."""
+    rows: list[dict[str, object]] = []
+    previous: Size | None = None
+    for size in sizes:
         row: dict[str, object] = {
-            "pins": pins,
-            "steps": steps,
-            "check_ms": round(check_s * 1000, 1),
-            "check_us_per_step": round(check_s / steps * 1e6, 1),
+            "sweep": size.sweep,
+            "pins": size.pins,
+            "steps": size.steps,
+            "relay_ops": size.relay_ops,
+            "check_ms": round(size.check_s * 1000, 1),
+            "check_us_per_step": round(size.check_s / size.steps * 1e6, 1),
+            "engine_ms_per_step": round(size.engine_s / size.steps * 1000, 2),
+            "engine_cpu_ms_per_step": round(size.engine_cpu_s / size.steps * 1000, 2),
         }
-        if engine:
-            wall, cpu = time_engine(sequence, station, folder)
-            row["engine_ms_per_step"] = round(wall * 1000, 2)
-            row["engine_cpu_ms_per_step"] = round(cpu * 1000, 2)
-    return row
+        if previous is not None and previous.sweep == size.sweep == "steps":
+            added = size.steps - previous.steps
+            row["check_us_per_added_step"] = round(
+                (size.check_s - previous.check_s) / added * 1e6, 1
+            )
+            row["engine_cpu_ms_per_added_step"] = round(
+                (size.engine_cpu_s - previous.engine_cpu_s) / added * 1000, 2
+            )
+        rows.append(row)
+        previous = size
+    return rows
 
 
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--quick", action="store_true", help="small sizes only (smoke run)")
+    parser.add_argument("--repeat", type=int, default=3, help="runs per size; medians are kept")
     args = parser.parse_args()
+    repeat = 1 if args.quick else max(1, args.repeat)
     step_sizes = (10, 100) if args.quick else (10, 100, 1000, 5000)
     pin_sizes = (8, 32) if args.quick else (8, 32, 128, 256)
     pin_steps = 50 if args.quick else 500
-    rows = []
+    sizes = []
     with tempfile.TemporaryDirectory() as tmp:
         for steps in step_sizes:
-            rows.append(measure(Path(tmp) / f"s{steps}", 32, steps, engine=True))
+            folder = Path(tmp) / f"s{steps}"
+            sizes.append(measure(folder, "steps", STEP_SWEEP_PINS, steps, repeat, distinct=True))
         for pins in pin_sizes:
-            rows.append(measure(Path(tmp) / f"p{pins}", pins, pin_steps, engine=True))
-    print(f"{'pins':>5}{'steps':>7}{'check ms':>10}{'us/step':>9}{'engine ms/step':>16}{'cpu':>7}")
+            folder = Path(tmp) / f"p{pins}"
+            sizes.append(measure(folder, "pins", pins, pin_steps, repeat, spread=PIN_SWEEP_SPREAD))
+    rows = rows_of(sizes)
+    print(
+        f"{'pins':>5}{'steps':>7}{'relay ops':>10}{'check ms':>10}{'us/step':>9}{'added':>8}"
+        f"{'engine ms/step':>16}{'cpu':>7}{'added':>8}"
+    )
     for r in rows:
         print(
-            f"{r['pins']:>5}{r['steps']:>7}{r['check_ms']:>10}{r['check_us_per_step']:>9}"
-            f"{r.get('engine_ms_per_step', '-'):>16}{r.get('engine_cpu_ms_per_step', '-'):>7}"
+            f"{r['pins']:>5}{r['steps']:>7}{r['relay_ops']:>10}{r['check_ms']:>10}"
+            f"{r['check_us_per_step']:>9}{r.get('check_us_per_added_step', '-'):>8}"
+            f"{r['engine_ms_per_step']:>16}{r['engine_cpu_ms_per_step']:>7}"
+            f"{r.get('engine_cpu_ms_per_added_step', '-'):>8}"
         )
     summary = {
+        "repeat": repeat,
         "check_us_per_step_max": max(float(str(r["check_us_per_step"])) for r in rows),
         "engine_cpu_ms_per_step_max": max(float(str(r["engine_cpu_ms_per_step"])) for r in rows),
         "sizes": rows,
