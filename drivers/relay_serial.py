@@ -120,6 +120,7 @@ class SerialRelayBox(RelayBox):
             ) from exc
         try:
             info = self._info()
+            self._identity_text = info.identity
             self.relay_count = info.relays
             self.max_closed = info.budget
             self._counts = dict.fromkeys(range(1, info.relays + 1), 0)
@@ -140,13 +141,18 @@ class SerialRelayBox(RelayBox):
     # ---- RelayBox -----------------------------------------------------------------------------
 
     def identity(self) -> InstrumentIdentity:
-        info = self._info()
-        fields = info.identity.split(",")
+        """The identity the box gave in its ``WHO`` reply when the port was opened.
+
+        The driver asks ``WHO`` on opening anyway (for the relay count and budget); asking again
+        for every run's record would cost a serial round trip a run.  An instrument exchanged
+        behind an open port is not noticed: reopen the bench after exchanging one."""
+        text = self._identity_text
+        fields = text.split(",")
         if len(fields) != 4:
             raise self._error(
                 InstrumentProtocolError,
                 "identity must have 4 comma-separated fields (maker, model, serial, firmware), "
-                f"found {info.identity!r}",
+                f"found {text!r}",
                 "WHO",
             )
         return InstrumentIdentity(*(f.strip() for f in fields))

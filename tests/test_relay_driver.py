@@ -70,6 +70,15 @@ def test_identity_and_size(box: SerialRelayBox) -> None:
     assert (box.relay_count, box.max_closed) == (8, 3)
 
 
+def test_identity_is_the_one_given_on_opening(sim: SimRelayBox, box: SerialRelayBox) -> None:
+    # the WHO reply read on opening is kept: a run's record costs no serial round trip for it
+    handled = sim.lines_handled
+    assert box.identity().serial == "S-7"
+    assert sim.lines_handled == handled
+    box.closed_relays()  # the counter does count what is asked (so the check above can fail)
+    assert sim.lines_handled == handled + 1
+
+
 def test_apply_and_read_back(sim: SimRelayBox, box: SerialRelayBox) -> None:
     box.apply([3, 1])
     assert sim.closed() == {1, 3}
