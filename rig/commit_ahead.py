@@ -34,6 +34,20 @@ class RowTicket:
     row: int = 0
 
 
+class Pending:
+    """The answer of a store call made on the worker (``CommitAhead.meanwhile``)."""
+
+    def __init__(self, owner: CommitAhead) -> None:
+        self._owner = owner
+        self.value: Any = None
+
+    def result(self) -> Any:
+        """Wait until the call and every write before it have committed; its answer, or the
+        error of the first write that failed."""
+        self._owner.flush()
+        return self.value
+
+
 class CommitAhead:
     """Wraps a results store; queued writes commit in order on one worker thread."""
 
@@ -93,6 +107,19 @@ class CommitAhead:
             if worker is not None:
                 self._queue.put(_STOP)
                 worker.join()
+
+    def meanwhile(self, name: str, *args: Any, **kwargs: Any) -> Pending:
+        """Make the store call ``name`` on the worker, in order with the writes, while the caller
+        goes on (the run's start commits while the bench is made safe); ``result()`` waits."""
+        pending = Pending(self)
+        call = getattr(self._store, name)
+
+        def write() -> object:
+            pending.value = call(*args, **kwargs)
+            return pending.value
+
+        self._put(write, name)
+        return pending
 
     def add_reading_for_later(self, *args: Any, **kwargs: Any) -> RowTicket:
         """Queue a reading like ``add_reading`` and return a ticket for its row, for a later

@@ -228,11 +228,15 @@ class Engine:
         sequence = self.plan.sequence
         notes = [*(notes or []), *byte_notes]
         self._run_notes = notes
-        notes.extend(abandoned_notes(self.store.mark_incomplete(station.name, INCOMPLETE_REASON)))
+        counts_before = self._relay_counts()  # the safe start's own openings are this run's
+        # the store's writes at the start commit on its worker while the instruments are asked
+        abandoned = self._writes.meanwhile("mark_incomplete", station.name, INCOMPLETE_REASON)
         identities = self._identities(notes)
+        notes.extend(abandoned_notes(abandoned.result()))
         done: dict[str, StepResult] = {}
         if resume is None:
-            run_id = self.store.start_run(
+            started = self._writes.meanwhile(
+                "start_run",
                 RunHeader(
                     serial=serial,
                     sequence_name=sequence.name,
@@ -245,8 +249,10 @@ class Engine:
                     instruments=tuple(identities),
                     study_part=study_part,
                     study_trial=study_trial,
-                )
+                ),
             )
+            unsafe = self._start_safe()  # while the run's row commits
+            run_id = int(started.result())
         else:
             cont = continuation(self.store, resume, self.plan)
             run_id, serial, done = cont.run_id, cont.serial, cont.done
@@ -256,17 +262,20 @@ class Engine:
                 f"continued after an interruption; {len(done)} of {len(self.plan.steps)} steps "
                 "were already done"
             )
+            unsafe = self._start_safe()
         self._run_id = run_id
         self.listener(
             RunStarted(run_id, serial, sequence.name, tuple(p.spec.id for p in self.plan.steps))
         )
         notes.extend(wear_warnings(self.store.relay_wear(station.name), station.fixture))
-        counts_before = self._relay_counts()
         status, reason = "complete", ""
         results: list[StepResult] = []
         interrupted: BaseException | None = None
         try:
-            self._start_safe()
+            if unsafe:  # raised here, so that the run is recorded as aborted
+                raise InstrumentError(
+                    "the bench could not be brought to the safe state: " + "; ".join(unsafe)
+                )
             self.bench.relays.start_watchdog(station.watchdog_s)
             for position, planned in enumerate(self.plan.steps, start=1):
                 if self.stop.is_set():
@@ -299,7 +308,7 @@ class Engine:
             except RigError as exc:
                 if status == "complete":
                     status, reason = "aborted", str(exc)
-            self._record_wear(counts_before)
+            operations = self._operations_since(counts_before)
         safe = not failures
         if failures:
             notes.append("could not make safe: " + "; ".join(failures))
@@ -313,7 +322,12 @@ class Engine:
             run_id, serial, sequence.name, status, verdict, reason, results, safe, notes
         )
         self.store.finish_run(
-            run_id, status=status, verdict=verdict.value, reason=reason, notes=notes
+            run_id,
+            status=status,
+            verdict=verdict.value,
+            reason=reason,
+            notes=notes,
+            relay_operations=operations,
         )
         self.listener(
             RunFinished(
@@ -354,20 +368,18 @@ class Engine:
         except (RigError, OSError):
             return {}
 
-    def _record_wear(self, before: dict[int, int]) -> None:
+    def _operations_since(self, before: dict[int, int]) -> dict[int, int]:
+        """The relay operations of this run, by relay (recorded with the run's end)."""
         after = self._relay_counts()
-        delta = {r: n - before.get(r, 0) for r, n in after.items() if n > before.get(r, 0)}
-        self.store.add_relay_operations(self.plan.station.name, delta)
+        return {r: n - before.get(r, 0) for r, n in after.items() if n > before.get(r, 0)}
 
-    def _start_safe(self) -> None:
-        """Bring the box to a known state (all open, read back) before anything else."""
+    def _start_safe(self) -> list[str]:
+        """Bring the bench to a known state (all open, supply off, read back) before any step;
+        returns what could not be made safe (empty when safe)."""
         failures = make_safe(self.bench)
-        if failures:
-            raise InstrumentError(
-                "the bench could not be brought to the safe state: " + "; ".join(failures)
-            )
         self._closed = frozenset()
         self._supply_state = None
+        return failures
 
     def _end_safe(self) -> list[str]:
         failures = make_safe(self.bench)

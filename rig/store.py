@@ -17,7 +17,7 @@ import json
 import math
 import sqlite3
 import uuid
-from collections.abc import Iterable, Iterator, Sequence
+from collections.abc import Iterable, Iterator, Mapping, Sequence
 from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
@@ -410,25 +410,43 @@ class ResultStore:
             db.execute(f"INSERT INTO steps ({names}) VALUES ({marks})", tuple(fields.values()))
 
     def finish_run(
-        self, run_id: int, *, status: str, verdict: str, reason: str = "", notes: Sequence[str] = ()
+        self,
+        run_id: int,
+        *,
+        status: str,
+        verdict: str,
+        reason: str = "",
+        notes: Sequence[str] = (),
+        relay_operations: Mapping[int, int] | None = None,
     ) -> None:
+        """Record the run's end.  ``relay_operations`` (the run's own, by relay) are added to its
+        station's lifetime counts in the same commit: one commit less at the end of every run, and
+        wear is never counted without the run that caused it."""
         with self._tx() as db:
             db.execute(
                 "UPDATE runs SET ended_at=?, status=?, verdict=?, reason=?, notes=? WHERE id=?",
                 (_now(), status, verdict, reason, json.dumps(list(notes)), run_id),
             )
+            if relay_operations:
+                row = db.execute("SELECT station FROM runs WHERE id=?", (run_id,)).fetchone()
+                if row is not None:
+                    self._count_wear(db, str(row[0]), relay_operations)
 
-    def add_relay_operations(self, station: str, counts: dict[int, int]) -> None:
-        """Add one run's relay operations to the station's lifetime counts."""
+    def add_relay_operations(self, station: str, counts: Mapping[int, int]) -> None:
+        """Add relay operations to the station's lifetime counts."""
         with self._tx() as db:
-            for relay, ops in counts.items():
-                if ops:
-                    db.execute(
-                        "INSERT INTO relay_wear (station, relay, operations) VALUES (?,?,?)"
-                        " ON CONFLICT (station, relay) DO UPDATE SET"
-                        " operations = relay_wear.operations + excluded.operations",
-                        (station, relay, ops),
-                    )
+            self._count_wear(db, station, counts)
+
+    @staticmethod
+    def _count_wear(db: Connection, station: str, counts: Mapping[int, int]) -> None:
+        for relay, ops in counts.items():
+            if ops:
+                db.execute(
+                    "INSERT INTO relay_wear (station, relay, operations) VALUES (?,?,?)"
+                    " ON CONFLICT (station, relay) DO UPDATE SET"
+                    " operations = relay_wear.operations + excluded.operations",
+                    (station, relay, ops),
+                )
 
     def relay_wear(self, station: str) -> dict[int, int]:
         rows = self._db.execute(

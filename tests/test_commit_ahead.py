@@ -88,3 +88,56 @@ def test_a_failed_commit_aborts_the_run_and_is_never_reported(tmp_path: Path, st
     last = events[-1]
     assert isinstance(last, RunFinished) and last.status == "aborted"
     assert "disk full" in last.reason
+
+
+class SlowStartStore(ResultStore):
+    """The results store whose run start takes 0.3 s to commit; it counts the queries the
+    virtual supply answered meanwhile."""
+
+    supply: Any = None
+    answered_meanwhile = -1
+
+    def start_run(self, *args: Any, **kwargs: Any) -> int:
+        before = self.supply.lines_answered
+        time.sleep(0.3)
+        self.answered_meanwhile = self.supply.lines_answered - before
+        return super().start_run(*args, **kwargs)
+
+
+def test_the_run_row_commits_while_the_bench_is_made_safe(tmp_path: Path) -> None:
+    # The safe start (supply off, its error queue and its output read back) needs nothing from
+    # the store, so it goes on while the run's row commits; waiting for the commit first would
+    # leave the supply unasked for those 0.3 s.
+    with shipped_bench("temp-circuit", folder=tmp_path) as (bench, station):
+        plan = shipped_plan("temp-circuit-check", station)
+        store = SlowStartStore(tmp_path / "r.sqlite")
+        store.supply = bench.supply
+        instruments = open_bench(station)
+        try:
+            summary = Engine(plan, instruments, store).run("SN-START")
+        finally:
+            close_bench(instruments)
+        assert summary.status == "complete"
+        assert store.answered_meanwhile >= 2  # SYST:ERR? and OUTP? during the commit
+        assert store.run(summary.run_id)["status"] == "complete"
+        store.close()
+
+
+def test_a_bench_not_made_safe_at_the_start_is_recorded_as_aborted(tmp_path: Path) -> None:
+    with shipped_bench("temp-circuit", folder=tmp_path) as (bench, station):
+        station.instruments["supply"].settings["timeout_ms"] = 200
+        plan = shipped_plan("temp-circuit-check", station)
+        store = ResultStore(tmp_path / "r.sqlite")
+        instruments = open_bench(station)
+        bench.supply.inject_fault("silent", None)  # no query to the supply is answered
+        try:
+            summary = Engine(plan, instruments, store).run("SN-UNSAFE")
+        finally:
+            bench.supply.clear_faults()
+            close_bench(instruments)
+        assert summary.status == "aborted" and summary.results == []
+        assert "could not be brought to the safe state" in summary.reason
+        assert not summary.safe
+        row = store.run(summary.run_id)
+        assert row["status"] == "aborted" and "safe state" in row["reason"]
+        store.close()

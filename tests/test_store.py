@@ -90,7 +90,10 @@ def test_export_carries_the_whole_record(tmp_path: Path) -> None:
             "extras": {"x": 1.0, "bad": math.nan},
         },
     )
-    store.finish_run(run_id, status="complete", verdict="pass")
+    store.add_relay_operations(HEADER.station, {2: 4})
+    store.finish_run(run_id, status="complete", verdict="pass", relay_operations={2: 1, 7: 3})
+    # the run's operations are added to its station's counts with its end, in one commit
+    assert store.relay_wear(HEADER.station) == {2: 5, 7: 3}
     record = run_record(store, run_id)
     assert record["run"]["faults"] == ["open:w"]
     assert record["steps"][0]["extras"] == {"x": 1.0}
