@@ -144,8 +144,8 @@ class SerialRelayBox(RelayBox):
         """The identity the box gave in its ``WHO`` reply when the port was opened.
 
         The driver asks ``WHO`` on opening anyway (for the relay count and budget); asking again
-        for every run's record would cost a serial round trip a run.  An instrument exchanged
-        behind an open port is not noticed: reopen the bench after exchanging one."""
+        for every run's record would cost a serial round trip a run.  ``rig run`` and the
+        console open the bench for every run, so a box exchanged between runs is asked anew."""
         text = self._identity_text
         fields = text.split(",")
         if len(fields) != 4:

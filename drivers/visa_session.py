@@ -165,6 +165,11 @@ class VisaSession:
             raise InstrumentConnectionLost(
                 f"connection lost ({type(error).__name__}: {error})", **self.where(command)
             ) from error
+        except BaseException:
+            # cut short (Ctrl-C): its reply may still come and would answer the next query, such
+            # as the read-back that proves the bench safe; the next command opens a fresh socket
+            self._discard()
+            raise
         try:
             return raw.decode("ascii").rstrip("\r\n")
         except UnicodeDecodeError as error:

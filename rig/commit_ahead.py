@@ -6,8 +6,9 @@ change nor the next reading depends on those rows, so the engine lets them commi
 
 The promise that nothing is reported as stored before it is committed is kept by holding back
 the engine's events: an event waits until every write queued before it has committed, and events
-are delivered in the order they were emitted.  Every other store call (reads, run start and end)
-waits for all queued writes first, so the SQLite connection is never used by two threads at once.
+are delivered in the order they were emitted.  Every other store call (reads, the run's end)
+waits for all queued writes first, so the SQLite connection is never used by two threads at once;
+the run's start goes on the worker too (``meanwhile``), and the engine waits for its answer.
 """
 
 from __future__ import annotations

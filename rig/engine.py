@@ -8,6 +8,7 @@ verified by read-back; the run is recorded as complete or aborted with its reaso
 
 from __future__ import annotations
 
+import contextlib
 import datetime as dt
 import logging
 import math
@@ -20,7 +21,7 @@ from functools import partial
 from typing import Any, cast
 
 from drivers.base import Dmm, MeterFunction, RelayBox, Supply
-from rig.commit_ahead import CommitAhead, RowTicket
+from rig.commit_ahead import CommitAhead, Pending, RowTicket
 from rig.config.fixture import FixtureMap
 from rig.config.station import FUNCTIONS, Station
 from rig.deadline import wait_until
@@ -44,7 +45,7 @@ from rig.reading_guard import guard_verdict, reading_problems
 from rig.resume import INCOMPLETE_REASON, abandoned_notes, continuation
 from rig.routing import Route, plan_relays
 from rig.steps import KINDS, Outcome, Reading, StepSpec, SupplyRequest
-from rig.store import ResultStore, RunHeader
+from rig.store import ResultStore, RunHeader, StoreError
 
 log = logging.getLogger(__name__)
 
@@ -231,38 +232,43 @@ class Engine:
         counts_before = self._relay_counts()  # the safe start's own openings are this run's
         # the store's writes at the start commit on its worker while the instruments are asked
         abandoned = self._writes.meanwhile("mark_incomplete", station.name, INCOMPLETE_REASON)
-        identities = self._identities(notes)
-        notes.extend(abandoned_notes(abandoned.result()))
-        done: dict[str, StepResult] = {}
-        if resume is None:
-            started = self._writes.meanwhile(
-                "start_run",
-                RunHeader(
-                    serial=serial,
-                    sequence_name=sequence.name,
-                    sequence_hash=sequence.content_hash,
-                    sequence_path=str(sequence.path),
-                    station=station.name,
-                    operator=operator,
-                    unit=unit,
-                    faults=faults,
-                    instruments=tuple(identities),
-                    study_part=study_part,
-                    study_trial=study_trial,
-                ),
-            )
-            unsafe = self._start_safe()  # while the run's row commits
-            run_id = int(started.result())
-        else:
-            cont = continuation(self.store, resume, self.plan)
-            run_id, serial, done = cont.run_id, cont.serial, cont.done
-            self._done_ids = frozenset(done)
-            self.store.reopen_run(run_id)
-            notes.append(
-                f"continued after an interruption; {len(done)} of {len(self.plan.steps)} steps "
-                "were already done"
-            )
-            unsafe = self._start_safe()
+        try:
+            identities = self._identities(notes)
+            notes.extend(abandoned_notes(abandoned.result()))
+            done: dict[str, StepResult] = {}
+            if resume is None:
+                started = self._writes.meanwhile(
+                    "start_run",
+                    RunHeader(
+                        serial=serial,
+                        sequence_name=sequence.name,
+                        sequence_hash=sequence.content_hash,
+                        sequence_path=str(sequence.path),
+                        station=station.name,
+                        operator=operator,
+                        unit=unit,
+                        faults=faults,
+                        instruments=tuple(identities),
+                        study_part=study_part,
+                        study_trial=study_trial,
+                    ),
+                )
+                unsafe, held = self._start_safe()  # while the run's row commits
+                run_id = self._run_row(started, unsafe)
+            else:
+                cont = continuation(self.store, resume, self.plan)
+                run_id, serial, done = cont.run_id, cont.serial, cont.done
+                self._done_ids = frozenset(done)
+                self.store.reopen_run(run_id)
+                notes.append(
+                    f"continued after an interruption; {len(done)} of {len(self.plan.steps)} steps "
+                    "were already done"
+                )
+                unsafe, held = self._start_safe()
+        except BaseException:
+            with contextlib.suppress(RigError):  # the first error is the one to report
+                self._writes.close()  # the worker ends before the caller may close the store
+            raise
         self._run_id = run_id
         self.listener(
             RunStarted(run_id, serial, sequence.name, tuple(p.spec.id for p in self.plan.steps))
@@ -272,6 +278,8 @@ class Engine:
         results: list[StepResult] = []
         interrupted: BaseException | None = None
         try:
+            if held is not None:  # an interrupt during the safe start ends the run as any other
+                raise held
             if unsafe:  # raised here, so that the run is recorded as aborted
                 raise InstrumentError(
                     "the bench could not be brought to the safe state: " + "; ".join(unsafe)
@@ -373,13 +381,33 @@ class Engine:
         after = self._relay_counts()
         return {r: n - before.get(r, 0) for r, n in after.items() if n > before.get(r, 0)}
 
-    def _start_safe(self) -> list[str]:
-        """Bring the bench to a known state (all open, supply off, read back) before any step;
-        returns what could not be made safe (empty when safe)."""
-        failures = make_safe(self.bench)
-        self._closed = frozenset()
-        self._supply_state = None
-        return failures
+    def _start_safe(self) -> tuple[list[str], BaseException | None]:
+        """Bring the bench to a known state (all open, supply off, read back) before any step.
+
+        Returns what could not be made safe (empty when safe) and an interrupt (Ctrl-C) that
+        came meanwhile: the run's row is still committing, so the interrupt is raised once the
+        run exists, and the run then ends as any interrupted run does (made safe, recorded)."""
+        try:
+            return make_safe(self.bench), None
+        except BaseException as exc:
+            return [], exc
+        finally:
+            self._closed = frozenset()
+            self._supply_state = None
+
+    @staticmethod
+    def _run_row(started: Pending, unsafe: list[str]) -> int:
+        """The new run's id once its row has committed; a failed commit says, besides, whether
+        the bench could not be made safe (no run then exists to say it)."""
+        try:
+            return int(started.result())
+        except StoreError as exc:
+            if unsafe:
+                raise StoreError(
+                    f"{exc}; besides, the bench could not be brought to the safe state: "
+                    + "; ".join(unsafe)
+                ) from exc
+            raise
 
     def _end_safe(self) -> list[str]:
         failures = make_safe(self.bench)

@@ -8,6 +8,10 @@ only (SQLite WAL: readers see the last commit, source: sqlite.org, WAL page).
 
 from __future__ import annotations
 
+import json
+import os
+import signal
+import threading
 import time
 from pathlib import Path
 from typing import Any
@@ -91,7 +95,7 @@ def test_a_failed_commit_aborts_the_run_and_is_never_reported(tmp_path: Path, st
 
 
 class SlowStartStore(ResultStore):
-    """The results store whose run start takes 0.3 s to commit; it counts the queries the
+    """The results store whose run start takes 0.5 s to commit; it counts the queries the
     virtual supply answered meanwhile."""
 
     supply: Any = None
@@ -99,7 +103,7 @@ class SlowStartStore(ResultStore):
 
     def start_run(self, *args: Any, **kwargs: Any) -> int:
         before = self.supply.lines_answered
-        time.sleep(0.3)
+        time.sleep(0.5)
         self.answered_meanwhile = self.supply.lines_answered - before
         return super().start_run(*args, **kwargs)
 
@@ -107,7 +111,7 @@ class SlowStartStore(ResultStore):
 def test_the_run_row_commits_while_the_bench_is_made_safe(tmp_path: Path) -> None:
     # The safe start (supply off, its error queue and its output read back) needs nothing from
     # the store, so it goes on while the run's row commits; waiting for the commit first would
-    # leave the supply unasked for those 0.3 s.
+    # leave the supply unasked for those 0.5 s.
     with shipped_bench("temp-circuit", folder=tmp_path) as (bench, station):
         plan = shipped_plan("temp-circuit-check", station)
         store = SlowStartStore(tmp_path / "r.sqlite")
@@ -140,4 +144,62 @@ def test_a_bench_not_made_safe_at_the_start_is_recorded_as_aborted(tmp_path: Pat
         assert not summary.safe
         row = store.run(summary.run_id)
         assert row["status"] == "aborted" and "safe state" in row["reason"]
+        store.close()
+
+
+def test_ctrl_c_during_the_safe_start_ends_as_an_interrupted_run(tmp_path: Path) -> None:
+    # Ctrl-C while the bench is being made safe (the run's row still committing) must end the
+    # run as any interrupt does: the bench made safe, the run recorded as aborted, the store's
+    # worker gone before the caller closes the store; then the interrupt goes on to the caller.
+    with shipped_bench("temp-circuit", folder=tmp_path) as (bench, station):
+        plan = shipped_plan("temp-circuit-check", station)
+        store = ResultStore(tmp_path / "r.sqlite")
+        handle = bench.supply.handle
+        sent: list[str] = []
+
+        def handle_and_interrupt(line: str) -> str | None:
+            if line.strip().upper().startswith("OUTP OFF") and not sent:
+                sent.append(line)  # the first switch-off is the safe start's: press Ctrl-C
+                os.kill(os.getpid(), signal.SIGINT)
+            return handle(line)
+
+        bench.supply.handle = handle_and_interrupt  # type: ignore[method-assign]
+        instruments = open_bench(station)
+        try:
+            with pytest.raises(KeyboardInterrupt):
+                Engine(plan, instruments, store).run("SN-CTRL-C")
+        finally:
+            close_bench(instruments)
+        assert sent, "the safe start switched the supply off"
+        assert not any(t.name == "store-commits" for t in threading.enumerate())
+        run = store.runs(1)[0]
+        assert run["status"] == "aborted" and "interrupted" in run["reason"]
+        notes = json.loads(run["notes"])
+        assert notes == [] or not any("could not make safe" in note for note in notes), notes
+        assert bench.relay_box.closed() == frozenset()
+        assert not bench.supply_settings.output_on
+        store.close()
+
+
+class FailingStartStore(ResultStore):
+    def start_run(self, *args: Any, **kwargs: Any) -> int:
+        raise StoreError("cannot write to the results store r.sqlite: disk I/O error")
+
+
+def test_a_failed_run_start_says_too_that_the_bench_is_not_safe(tmp_path: Path) -> None:
+    with shipped_bench("temp-circuit", folder=tmp_path) as (bench, station):
+        station.instruments["supply"].settings["timeout_ms"] = 200
+        plan = shipped_plan("temp-circuit-check", station)
+        store = FailingStartStore(tmp_path / "r.sqlite")
+        instruments = open_bench(station)
+        bench.supply.inject_fault("silent", None)
+        try:
+            with pytest.raises(StoreError) as failed:
+                Engine(plan, instruments, store).run("SN-NO-ROW")
+        finally:
+            bench.supply.clear_faults()
+            close_bench(instruments)
+        assert "disk I/O error" in str(failed.value)
+        assert "could not be brought to the safe state" in str(failed.value)
+        assert not any(t.name == "store-commits" for t in threading.enumerate())
         store.close()

@@ -7,6 +7,8 @@ values come from small_bench (Ohm's law and the divider rule, worked by hand).
 from __future__ import annotations
 
 import math
+import os
+import signal
 import socket
 import statistics
 import threading
@@ -292,6 +294,26 @@ def test_after_a_timeout_a_late_reply_does_not_answer_the_next_query() -> None:
         driver = ScpiDmm("dmm", rig.dmm_server.resource, FAST)
         with pytest.raises(InstrumentTimeout):
             driver.read()
+        assert driver.identity() == DMM_ID
+        driver.close()
+    finally:
+        rig.dmm_server.stop()
+        rig.psu_server.stop()
+
+
+def test_after_ctrl_c_mid_query_the_late_reply_does_not_answer_the_next_query() -> None:
+    # Ctrl-C while a 20 NPLC reading (0.4 s) integrates: its reply still comes, and would answer
+    # the next query (at the end of a run, the read-back that proves the bench safe).
+    rig = start("resistor", Timing.REAL)
+    try:
+        rig.dmm_sim.handle("CONF:FRES 1000;:FRES:NPLC 20")
+        driver = ScpiDmm("dmm", rig.dmm_server.resource, {"timeout_ms": 2000})
+        timer = threading.Timer(0.1, lambda: os.kill(os.getpid(), signal.SIGINT))
+        timer.start()
+        with pytest.raises(KeyboardInterrupt):
+            driver.read()
+        timer.join()
+        time.sleep(0.5)  # the reading's reply has come by now
         assert driver.identity() == DMM_ID
         driver.close()
     finally:

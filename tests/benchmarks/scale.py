@@ -1,13 +1,13 @@
 """Cost of ``rig check`` (loading, planning, interlocks) and of the engine per step, by size.
 
-Two sweeps on generated data: 10 to 5,000 steps on a 32-pin fixture, and 8 to 256 pins with 500
-steps.  The fixture gives every pin a DMM HI and a DMM LO relay; the unit is a resistor ladder fed
-with 5 V; the sequence is volts steps between random pin pairs, reordering allowed.  In the pin
-sweep the pairs come from 8 pins spread across the fixture at every size, so that each size does
-the same relay work and only the fixture's size changes.  Printed per
-size: check time in total and per step, and the engine's cost per step on the virtual bench in
-instant timing, both as wall time and as the engine thread's own CPU time (which leaves out the
-simulated instruments serving in their own threads).  The goal is flat per-step figures.
+Two sweeps on generated data: 10 to 5,000 steps on a 128-pin fixture (every step on a pin pair
+of its own), and 8 to 256 pins with 500 steps.  The fixture gives every pin a DMM HI and a DMM LO
+relay; the unit is a resistor ladder fed with 5 V; the sequence is volts steps between pin pairs,
+reordering allowed.  In the pin sweep the pairs come from 8 pins spread across the fixture at
+every size, so that each size does the same relay work and only the fixture's size changes.
+Printed per size: check time in total and per step, and the engine's cost per step on the virtual
+bench in instant timing, both as wall time and as the engine thread's own CPU time (which leaves
+out the simulated instruments serving in their own threads).  The goal is flat per-step figures.
 Every figure is the median of ``--repeat`` runs (default 3): a shared host's figures move by up to
 twice between back-to-back runs.
 
@@ -167,12 +167,19 @@ def median_engine(
 
 
 def measure(
-    folder: Path, sweep: str, pins: int, steps: int, repeat: int, **routes: int | bool
+    folder: Path,
+    sweep: str,
+    pins: int,
+    steps: int,
+    repeat: int,
+    *,
+    spread: int = 0,
+    distinct: bool = False,
 ) -> Size:
     folder.mkdir(parents=True, exist_ok=True)
     fixture = load_fixture(write_fixture(folder, pins))
     unit = load_unit(write_unit(folder, pins))
-    sequence = write_sequence(folder, pins, steps, **routes)  # type: ignore[arg-type]
+    sequence = write_sequence(folder, pins, steps, spread=spread, distinct=distinct)
     with VirtualBench(unit, fixture) as bench:
         station = load_station(bench.write_station(folder / "station.toml"))
         wall, cpu, relay_ops = median_engine(sequence, station, folder, repeat)
@@ -215,7 +222,9 @@ def main() -> None:
     parser.add_argument("--quick", action="store_true", help="small sizes only (smoke run)")
     parser.add_argument("--repeat", type=int, default=3, help="runs per size; medians are kept")
     args = parser.parse_args()
-    repeat = 1 if args.quick else max(1, args.repeat)
+    if args.repeat < 1:
+        parser.error(f"--repeat must be a whole number of runs >= 1, got {args.repeat}")
+    repeat = 1 if args.quick else args.repeat
     step_sizes = (10, 100) if args.quick else (10, 100, 1000, 5000)
     pin_sizes = (8, 32) if args.quick else (8, 32, 128, 256)
     pin_steps = 50 if args.quick else 500
