@@ -351,43 +351,13 @@ class SerialRelayBox(RelayBox):
         try:
             self._lines.discard_input()
             port.write(frame)
-            if meanwhile is not None:
-                try:
+            try:
+                if meanwhile is not None:
                     meanwhile.run()
-                except BaseException:  # Ctrl-C: the reply still comes; the next command skips it
-                    self._abandoned.append(seq)
-                    raise
-            # a few stale replies to commands given up on may precede ours
-            for _ in range(1 + len(self._abandoned)):
-                line = self._lines.read_line(MAX_REPLY_LINE)
-                if not line.endswith(TERMINATOR):
-                    if line:
-                        raise self._error(
-                            InstrumentProtocolError,
-                            f"reply not terminated by LF within {self._timeout_ms:g} ms: "
-                            f"{line[:60]!r}",
-                            command,
-                        )
-                    raise self._error(
-                        InstrumentTimeout, f"no reply within {self._timeout_ms:g} ms", command
-                    )
-                try:
-                    reply = decode_reply(line)
-                except FrameError as exc:
-                    raise self._error(
-                        InstrumentProtocolError, f"bad reply {line[:60]!r}: {exc}", command
-                    ) from exc
-                if reply.seq is None or reply.seq == seq:
-                    return reply
-                if reply.seq in self._abandoned:
-                    log.debug("relay box %s: discarding late reply %r", self.name, line)
-                    continue
-                raise self._error(
-                    InstrumentProtocolError,
-                    f"reply carries sequence number {reply.seq:04X}, expected {seq:04X}",
-                    command,
-                )
-            raise self._error(InstrumentProtocolError, "only stale replies arrived", command)
+                return self._read_reply(seq, command)
+            except (KeyboardInterrupt, SystemExit):
+                self._abandoned.append(seq)  # Ctrl-C: the reply still comes; the next skips it
+                raise
         except serial.SerialTimeoutException as exc:
             raise self._error(
                 InstrumentTimeout, f"write not done within {self._timeout_ms:g} ms", command
@@ -396,6 +366,39 @@ class SerialRelayBox(RelayBox):
             raise self._error(
                 InstrumentConnectionLost, f"serial port failed: {exc}", command
             ) from exc
+
+    def _read_reply(self, seq: int, command: str) -> Reply:
+        """Our reply, skipping late replies to commands given up on (a few may precede it).
+        Port failures are turned into instrument errors by the caller, ``_exchange``."""
+        for _ in range(1 + len(self._abandoned)):
+            line = self._lines.read_line(MAX_REPLY_LINE)
+            if not line.endswith(TERMINATOR):
+                if line:
+                    raise self._error(
+                        InstrumentProtocolError,
+                        f"reply not terminated by LF within {self._timeout_ms:g} ms: {line[:60]!r}",
+                        command,
+                    )
+                raise self._error(
+                    InstrumentTimeout, f"no reply within {self._timeout_ms:g} ms", command
+                )
+            try:
+                reply = decode_reply(line)
+            except FrameError as exc:
+                raise self._error(
+                    InstrumentProtocolError, f"bad reply {line[:60]!r}: {exc}", command
+                ) from exc
+            if reply.seq is None or reply.seq == seq:
+                return reply
+            if reply.seq in self._abandoned:
+                log.debug("relay box %s: discarding late reply %r", self.name, line)
+                continue
+            raise self._error(
+                InstrumentProtocolError,
+                f"reply carries sequence number {reply.seq:04X}, expected {seq:04X}",
+                command,
+            )
+        raise self._error(InstrumentProtocolError, "only stale replies arrived", command)
 
     def _heartbeat(self, interval_s: float, stop: threading.Event) -> None:
         """Feed the box's watchdog until told to stop; each beat takes the command lock."""

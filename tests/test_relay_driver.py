@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import os
+import signal
 import subprocess
 import sys
 import textwrap
@@ -468,3 +469,25 @@ def test_the_work_runs_once_when_the_change_is_retried(
     assert box.retries == 1
     assert calls == [1]
     assert sim.closed() == {5}
+
+
+def test_after_ctrl_c_mid_reply_the_late_reply_is_skipped_quietly() -> None:
+    # Ctrl-C while the box's contacts move (0.3 s here): the box still answers that SET, and
+    # the next command must skip the answer, not take it as a garbled reply and retry.
+    sim = SimRelayBox(
+        relay_count=8, max_closed=3, clock=BenchClock(Timing.REAL), operate_s=0.3, release_s=0.3
+    )
+    sim.start()
+    driver = SerialRelayBox("relays", sim.port_path, {"timeout_ms": 2000})
+    try:
+        timer = threading.Timer(0.1, lambda: os.kill(os.getpid(), signal.SIGINT))
+        timer.start()
+        with pytest.raises(KeyboardInterrupt):
+            driver.apply([2])
+        timer.join()
+        # asked at once, while the contacts still move: the SET's answer comes first
+        assert driver.closed_relays() == frozenset({2})
+        assert driver.retries == 0  # skipped as a late reply, not retried as a bad one
+    finally:
+        driver.close()
+        sim.stop()
