@@ -112,6 +112,13 @@ class Supply(Instrument):
     def output_is_on(self) -> bool:
         """Read back whether the output is on (never a cached value)."""
 
+    def send_output_off(self) -> None:
+        """Switch the output off without reading the error queue, where the read-back that
+        follows is the proof and a refusal matters only if the output still reads on (the end of
+        a run).  This default checks, as ``set_output(False)``; a driver that can send without
+        waiting overrides it."""
+        self.set_output(False)
+
     @abstractmethod
     def measure_voltage(self) -> float: ...
 

@@ -85,6 +85,11 @@ class ScpiSupply(Supply):
         state = self._commands["on" if on else "off"]
         self._set(self._commands["output"].format(state=state))
 
+    def send_output_off(self) -> None:
+        """``OUTP OFF`` alone: the read-back that follows waits for it (queries are answered in
+        order), and the next ``set_output`` or safe start empties the error queue."""
+        self._session.write(self._commands["output"].format(state=self._commands["off"]))
+
     def output_is_on(self) -> bool:
         command = self._commands["output_query"]
         reply = self._session.query(command).strip().upper()

@@ -121,16 +121,28 @@ class StopRequested(RigError):
     """The operator asked to stop the run."""
 
 
-def make_safe(bench: Bench) -> list[str]:
+def make_safe(bench: Bench, *, run_ending: bool = False) -> list[str]:
     """Open every relay and switch the supply off, each verified by read-back; returns what could
-    not be made safe, in words (empty when the bench is safe)."""
+    not be made safe, in words (empty when the bench is safe).
+
+    Before or during a run the supply's error queue is emptied as well, so that a stale trip is
+    not blamed on a later step.  At a run's end (``run_ending``) it is read only if the output
+    still reads on, with the switch-off sent again: a round trip less a run, and the next run's
+    safe start empties the queue."""
     failures: list[str] = []
     supply, relays = bench.supply, bench.relays
     # The read-back decides: a command that reports an error (a stale trip in the supply's queue,
     # a lost acknowledgement) may still have been carried out.
-    refused = _attempt(lambda: supply.set_output(False))
+    if run_ending:
+        refused = _attempt(supply.send_output_off)
+    else:
+        refused = _attempt(lambda: supply.set_output(False))
     try:
-        if supply.output_is_on():
+        on = supply.output_is_on()
+        if on and run_ending:
+            refused = _attempt(lambda: supply.set_output(False))  # again, with its error check
+            on = supply.output_is_on()
+        if on:
             failures.append(f"supply {supply.name}: output still reads on {refused}".strip())
     except (RigError, OSError) as exc:
         failures.append(f"supply {supply.name}: {refused or exc}")
@@ -410,7 +422,7 @@ class Engine:
             raise
 
     def _end_safe(self) -> list[str]:
-        failures = make_safe(self.bench)
+        failures = make_safe(self.bench, run_ending=True)
         try:
             self.bench.relays.stop_watchdog()
         except (RigError, OSError) as exc:

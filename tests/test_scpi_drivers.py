@@ -134,6 +134,18 @@ def test_supply_and_dmm_together_measure_ohms_law(series: Rig) -> None:
     meter.close()
 
 
+def test_supply_switched_off_without_waiting_is_proven_by_its_read_back(series: Rig) -> None:
+    psu = ScpiSupply("psu", series.psu_server.resource, FAST)
+    psu.reset()
+    psu.set_output(True)
+    answered = series.psu_sim.lines_answered
+    psu.send_output_off()  # sent, not waited for: no error query
+    assert series.psu_sim.lines_answered == answered
+    assert not psu.output_is_on()  # answered after the switch-off, in order
+    assert series.bench.supply.output_on is False
+    psu.close()
+
+
 def test_integer_nplc_rejects_mains_and_half_nplc_does_not(dmm: ScpiDmm) -> None:
     # Seeded and with wide margins (see test_sim_dmm for the analytic figure); cannot flake.
     dmm.configure(MeterFunction.RES_4W, 1000.0, 1.0)

@@ -196,3 +196,58 @@ def test_prompt_opens_every_relay_and_switches_the_supply_off_first(tmp_path: Pa
         bench.stop()
     assert seen == [(frozenset(), False)]
     assert summary.status == "complete"
+
+
+def _logged_supply(bench: VirtualBench, *, miss_the_last_off: bool) -> list[str]:
+    """Every line the virtual supply is sent, in order.  With ``miss_the_last_off`` the first
+    ``OUTP OFF`` after the output went on is ignored (a supply that missed the command): in the
+    powered sequence that is the run's end, since its steps share one supply setting."""
+    lines: list[str] = []
+    handle = bench.supply.handle
+    went_on = missed = False
+
+    def logged(line: str) -> str | None:
+        nonlocal went_on, missed
+        lines.append(line.strip().upper())
+        went_on = went_on or lines[-1] == "OUTP ON"
+        if miss_the_last_off and went_on and not missed and lines[-1] == "OUTP OFF":
+            missed = True
+            return None
+        return handle(line)
+
+    bench.supply.handle = logged  # type: ignore[method-assign]
+    return lines
+
+
+def _powered_run(tmp_path: Path, *, miss_the_last_off: bool) -> tuple[list[str], bool]:
+    bench, station_path = _bench(tmp_path, BARE_SENSOR)
+    try:
+        seq = tmp_path / "powered.toml"
+        seq.write_text(POWERED_SEQUENCE, encoding="utf-8")
+        plan = build_plan(load_sequence(seq), load_station(station_path))
+        lines = _logged_supply(bench, miss_the_last_off=miss_the_last_off)
+        summary = run_plan(plan, "P-OFF")
+        assert summary.status == "complete", summary.reason
+        assert not bench.supply_settings.output_on and bench.relay_box.closed() == frozenset()
+    finally:
+        bench.stop()
+    return lines, summary.safe
+
+
+def test_a_run_ends_with_the_supply_switched_off_and_read_back(tmp_path: Path) -> None:
+    lines, safe = _powered_run(tmp_path, miss_the_last_off=False)
+    assert safe
+    # the safe start empties the error queue (a stale trip is not blamed on a later step)
+    first_off = lines.index("OUTP OFF")
+    assert lines[first_off : first_off + 3] == ["OUTP OFF", "SYST:ERR?", "OUTP?"]
+    assert "OUTP ON" in lines  # the run did power the sensor
+    # at the end the read-back is the proof: no error query when the output reads off
+    assert lines[-2:] == ["OUTP OFF", "OUTP?"]
+
+
+def test_a_supply_still_on_at_the_end_is_switched_off_again_with_its_check(
+    tmp_path: Path,
+) -> None:
+    lines, safe = _powered_run(tmp_path, miss_the_last_off=True)
+    assert safe  # the second switch-off worked and was read back
+    assert lines[-5:] == ["OUTP OFF", "OUTP?", "OUTP OFF", "SYST:ERR?", "OUTP?"]

@@ -215,6 +215,9 @@ class GuardedSupply(_PassThrough, Supply):
             raise StopRequested("stopped by the operator")
         self.inner.set_output(on)
 
+    def send_output_off(self) -> None:
+        self.inner.send_output_off()
+
     def output_is_on(self) -> bool:
         return self.inner.output_is_on()
 
