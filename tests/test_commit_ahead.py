@@ -20,7 +20,7 @@ import pytest
 from bench_helpers import shipped_bench, shipped_plan
 
 from rig.bench_open import close_bench, open_bench
-from rig.engine import Engine
+from rig.engine import Engine, RunSummary
 from rig.events import Event, ReadingTaken, RunFinished, StepFinished, StepStarted
 from rig.store import ResultStore, StoreError
 
@@ -127,24 +127,29 @@ def test_the_run_row_commits_while_the_bench_is_made_safe(tmp_path: Path) -> Non
         store.close()
 
 
-def test_a_bench_not_made_safe_at_the_start_is_recorded_as_aborted(tmp_path: Path) -> None:
+def run_with_a_silent_supply(tmp_path: Path, store: ResultStore, serial: str) -> RunSummary:
+    """The harness check with no query to the supply answered (200 ms timeouts)."""
     with shipped_bench("temp-circuit", folder=tmp_path) as (bench, station):
         station.instruments["supply"].settings["timeout_ms"] = 200
         plan = shipped_plan("temp-circuit-check", station)
-        store = ResultStore(tmp_path / "r.sqlite")
         instruments = open_bench(station)
-        bench.supply.inject_fault("silent", None)  # no query to the supply is answered
+        bench.supply.inject_fault("silent", None)
         try:
-            summary = Engine(plan, instruments, store).run("SN-UNSAFE")
+            return Engine(plan, instruments, store).run(serial)
         finally:
             bench.supply.clear_faults()
             close_bench(instruments)
-        assert summary.status == "aborted" and summary.results == []
-        assert "could not be brought to the safe state" in summary.reason
-        assert not summary.safe
-        row = store.run(summary.run_id)
-        assert row["status"] == "aborted" and "safe state" in row["reason"]
-        store.close()
+
+
+def test_a_bench_not_made_safe_at_the_start_is_recorded_as_aborted(tmp_path: Path) -> None:
+    store = ResultStore(tmp_path / "r.sqlite")
+    summary = run_with_a_silent_supply(tmp_path, store, "SN-UNSAFE")
+    assert summary.status == "aborted" and summary.results == []
+    assert "could not be brought to the safe state" in summary.reason
+    assert not summary.safe
+    row = store.run(summary.run_id)
+    assert row["status"] == "aborted" and "safe state" in row["reason"]
+    store.close()
 
 
 def test_ctrl_c_during_the_safe_start_ends_as_an_interrupted_run(tmp_path: Path) -> None:
@@ -187,19 +192,10 @@ class FailingStartStore(ResultStore):
 
 
 def test_a_failed_run_start_says_too_that_the_bench_is_not_safe(tmp_path: Path) -> None:
-    with shipped_bench("temp-circuit", folder=tmp_path) as (bench, station):
-        station.instruments["supply"].settings["timeout_ms"] = 200
-        plan = shipped_plan("temp-circuit-check", station)
-        store = FailingStartStore(tmp_path / "r.sqlite")
-        instruments = open_bench(station)
-        bench.supply.inject_fault("silent", None)
-        try:
-            with pytest.raises(StoreError) as failed:
-                Engine(plan, instruments, store).run("SN-NO-ROW")
-        finally:
-            bench.supply.clear_faults()
-            close_bench(instruments)
-        assert "disk I/O error" in str(failed.value)
-        assert "could not be brought to the safe state" in str(failed.value)
-        assert not any(t.name == "store-commits" for t in threading.enumerate())
-        store.close()
+    store = FailingStartStore(tmp_path / "r.sqlite")
+    with pytest.raises(StoreError) as failed:
+        run_with_a_silent_supply(tmp_path, store, "SN-NO-ROW")
+    assert "disk I/O error" in str(failed.value)
+    assert "could not be brought to the safe state" in str(failed.value)
+    assert not any(t.name == "store-commits" for t in threading.enumerate())
+    store.close()
