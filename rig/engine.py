@@ -265,8 +265,8 @@ class Engine:
                         study_trial=study_trial,
                     ),
                 )
-                unsafe, held = self._start_safe()  # while the run's row commits
-                run_id = self._run_row(started, unsafe)
+                start_problem = self._start_safe()  # while the run's row commits
+                run_id = self._run_row(started, start_problem)
             else:
                 cont = continuation(self.store, resume, self.plan)
                 run_id, serial, done = cont.run_id, cont.serial, cont.done
@@ -276,7 +276,7 @@ class Engine:
                     f"continued after an interruption; {len(done)} of {len(self.plan.steps)} steps "
                     "were already done"
                 )
-                unsafe, held = self._start_safe()
+                start_problem = self._start_safe()
         except BaseException:
             with contextlib.suppress(RigError):  # the first error is the one to report
                 self._writes.close()  # the worker ends before the caller may close the store
@@ -290,12 +290,8 @@ class Engine:
         results: list[StepResult] = []
         interrupted: BaseException | None = None
         try:
-            if held is not None:  # an interrupt during the safe start ends the run as any other
-                raise held
-            if unsafe:  # raised here, so that the run is recorded as aborted
-                raise InstrumentError(
-                    "the bench could not be brought to the safe state: " + "; ".join(unsafe)
-                )
+            if start_problem is not None:  # raised here: the run ends as any other, recorded
+                raise start_problem
             self.bench.relays.start_watchdog(station.watchdog_s)
             for position, planned in enumerate(self.plan.steps, start=1):
                 if self.stop.is_set():
@@ -393,32 +389,35 @@ class Engine:
         after = self._relay_counts()
         return {r: n - before.get(r, 0) for r, n in after.items() if n > before.get(r, 0)}
 
-    def _start_safe(self) -> tuple[list[str], BaseException | None]:
+    def _start_safe(self) -> BaseException | None:
         """Bring the bench to a known state (all open, supply off, read back) before any step.
 
-        Returns what could not be made safe (empty when safe) and an interrupt (Ctrl-C) that
-        came meanwhile: the run's row is still committing, so the interrupt is raised once the
-        run exists, and the run then ends as any interrupted run does (made safe, recorded)."""
+        Returns what to raise once the run exists (its row is still committing): an
+        ``InstrumentError`` naming what could not be made safe, or an interrupt (Ctrl-C) that came
+        meanwhile; None when the bench is safe.  The run then ends as any aborted or interrupted
+        run does (made safe, recorded)."""
         try:
-            return make_safe(self.bench), None
+            failures = make_safe(self.bench)
         except BaseException as exc:
-            return [], exc
+            return exc
         finally:
             self._closed = frozenset()
             self._supply_state = None
+        if not failures:
+            return None
+        return InstrumentError(
+            "the bench could not be brought to the safe state: " + "; ".join(failures)
+        )
 
     @staticmethod
-    def _run_row(started: Pending, unsafe: list[str]) -> int:
+    def _run_row(started: Pending, start_problem: BaseException | None) -> int:
         """The new run's id once its row has committed; a failed commit says, besides, whether
         the bench could not be made safe (no run then exists to say it)."""
         try:
             return int(started.result())
         except StoreError as exc:
-            if unsafe:
-                raise StoreError(
-                    f"{exc}; besides, the bench could not be brought to the safe state: "
-                    + "; ".join(unsafe)
-                ) from exc
+            if isinstance(start_problem, InstrumentError):
+                raise StoreError(f"{exc}; besides, {start_problem}") from exc
             raise
 
     def _end_safe(self) -> list[str]:
