@@ -8,11 +8,13 @@ meter range each step will hold, and the run's duration at the physical limit of
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 
 from rig.config.sequence import Sequence
-from rig.config.station import Station
+from rig.config.station import FUNCTIONS, Station
 from rig.errors import ConfigError, InterlockError, Problem
+from rig.quantity import format_quantity
 from rig.routing import interlock_violations, relay_operations, relays_for
 from rig.step_order import order_steps
 from rig.steps import KINDS, StepSpec
@@ -222,6 +224,9 @@ def build_plan(sequence: Sequence, station: Station) -> Plan:
             for violation in violations:
                 problems.append(Problem(str(sequence.path), spec.key, f"interlock: {violation}"))
             relay_sets.append(relays)
+        unlisted = _unlisted_range(spec, station)
+        if unlisted is not None:
+            problems.append(Problem(str(sequence.path), f"{spec.key}.range", unlisted))
         planned[spec.id] = PlannedStep(spec, relay_sets, _fixed_range(spec, station))
     if problems:
         raise ConfigError(problems)
@@ -236,6 +241,27 @@ def build_plan(sequence: Sequence, station: Station) -> Plan:
         if _switching_cost(ordered, plan.timing) < _switching_cost(in_file, plan.timing):
             plan.steps = ordered  # greedy is a heuristic: keep it only when it saves something
     return plan
+
+
+def _unlisted_range(spec: StepSpec, station: Station) -> str | None:
+    """Why a step's stated range cannot be used, or None: a range the station's accuracy table
+    does not list would leave every reading of the step without an uncertainty to judge with."""
+    function = KINDS[spec.kind].meter_function(spec)
+    if spec.range_ is None or function is None:
+        return None
+    try:
+        listed = station.dmm_accuracy.ranges(function.value)
+    except ValueError as exc:
+        return f"a fixed range needs the station's accuracy for {function.value}: {exc}"
+    if any(math.isclose(spec.range_, r, rel_tol=1e-9) for r in listed):
+        return None
+    unit = FUNCTIONS[function.value]
+    stated = format_quantity(spec.range_, unit)
+    expected = ", ".join(format_quantity(r, unit) for r in listed)
+    return (
+        f"range {stated} is not one the station's accuracy table lists for "
+        f'{function.value}: expected "auto" or one of {expected}'
+    )
 
 
 def _fixed_range(spec: StepSpec, station: Station) -> float | None:

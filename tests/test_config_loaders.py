@@ -21,6 +21,7 @@ from rig.config.station import Station, load_station
 from rig.config.unit_file import NtcSensor, RatiometricSensor, load_unit
 from rig.errors import ConfigError, Problem
 from rig.plan import build_plan
+from rig.quantity import format_quantity
 
 ROOT = Path(__file__).resolve().parent.parent
 SEQUENCES = ROOT / "sequences"
@@ -333,6 +334,26 @@ def test_pin_not_in_fixture_is_found_by_the_planner(tmp_path: Path, station: Sta
         assert problem.file == str(path)
         assert repr(pin) in problem.message
         assert "demo-fixture" in problem.message
+
+
+def test_a_fixed_range_the_meter_does_not_list_is_found_by_the_planner(
+    tmp_path: Path, station: Station
+) -> None:
+    # A range outside the accuracy table would leave the step's readings without an uncertainty,
+    # so it must stop at `rig check`, not surface as an unjudged reading mid-run.
+    listed = station.dmm_accuracy.ranges("dcv")
+    unlisted = 7.0
+    assert all(abs(r - unlisted) > 1e-6 for r in listed)
+    good = volts_step("held") + f'range = "{listed[-1]:g} V"\n'
+    bad = volts_step("odd") + f'range = "{unlisted:g} V"\n'
+    path = write(tmp_path, "seq.toml", SEQUENCE_HEAD + good + bad)
+    sequence = load_sequence(path)  # the file itself is well formed
+    with pytest.raises(ConfigError) as caught:
+        build_plan(sequence, station)
+    (problem,) = caught.value.problems
+    assert (problem.file, problem.key) == (str(path), "steps[1].range")
+    assert "7 V" in problem.message and "dcv" in problem.message
+    assert all(format_quantity(r, "V") in problem.message for r in listed)
 
 
 def test_several_problems_reported_together(tmp_path: Path) -> None:
