@@ -310,8 +310,8 @@ def _estimate(plan: Plan, step: PlannedStep) -> tuple[str, str, str]:
         if spec.limits is None
         else (spec.limits.high if spec.limits.high is not None else spec.limits.low)
     )
-    if spec.limits is None or at is None:
-        return range_text, "-", "-"
+    if spec.limits is None or at is None or not kind.limits_in_meter_units:
+        return range_text, "-", "-"  # a temperature or a fraction: the meter's U is not in its unit
     try:
         accuracy = plan.station.dmm_accuracy.spec_for(function.value, step.range_)
     except ValueError:

@@ -18,6 +18,7 @@ from rig.quantity import format_quantity
 from rig.routing import interlock_violations, relay_operations, relays_for
 from rig.step_order import order_steps
 from rig.steps import KINDS, StepSpec
+from rig.steps.base import EarlierSteps
 
 
 @dataclass
@@ -187,6 +188,7 @@ def build_plan(sequence: Sequence, station: Station) -> Plan:
     problems: list[Problem] = []
     planned: dict[str, PlannedStep] = {}
     bench_ground = next((p.name for p in fixture.pins.values() if p.bench_ground), None)
+    by_id = {spec.id: spec for spec in sequence.steps}
     for spec in sequence.steps:
         kind = KINDS[spec.kind]
         if spec.kind == "ground-drop" and not spec.pins.get("lo"):
@@ -227,7 +229,7 @@ def build_plan(sequence: Sequence, station: Station) -> Plan:
         unlisted = _unlisted_range(spec, station)
         if unlisted is not None:
             problems.append(Problem(str(sequence.path), f"{spec.key}.range", unlisted))
-        planned[spec.id] = PlannedStep(spec, relay_sets, _fixed_range(spec, station))
+        planned[spec.id] = PlannedStep(spec, relay_sets, _fixed_range(spec, by_id.get, station))
     if problems:
         raise ConfigError(problems)
     plan = Plan(sequence, station)
@@ -264,18 +266,18 @@ def _unlisted_range(spec: StepSpec, station: Station) -> str | None:
     )
 
 
-def _fixed_range(spec: StepSpec, station: Station) -> float | None:
-    """Hold a fixed range where the limits allow it, so no reading pays for autorange."""
+def _fixed_range(spec: StepSpec, earlier: EarlierSteps, station: Station) -> float | None:
+    """Hold a fixed range where the file bounds the reading, so no reading pays for autorange."""
     if spec.range_ is not None:
         return spec.range_
     kind = KINDS[spec.kind]
     function = kind.meter_function(spec)
-    if function is None or spec.limits is None or not kind.limits_in_meter_units:
+    if function is None:
         return None
-    bounds = [abs(b) for b in (spec.limits.low, spec.limits.high) if b is not None]
-    if not bounds:
+    largest = kind.largest_reading(spec, earlier)
+    if largest is None or not math.isfinite(largest):
         return None
     try:
-        return float(station.dmm_accuracy.range_for(function.value, max(bounds)))
+        return float(station.dmm_accuracy.range_for(function.value, largest))
     except ValueError:
         return None

@@ -92,7 +92,7 @@ def test_a_stated_settle_time_replaces_the_proof(tmp_path: Path, station: Statio
 def test_physical_limit_adds_autorange_where_the_range_is_not_fixed(
     tmp_path: Path, station: Station
 ) -> None:
-    # A Pt100 on four relays (5-8), 10 NPLC; its limits are in degC, so no fixed range:
+    # A Pt100 on four relays (5-8), 10 NPLC, without limits, so nothing bounds its range:
     # 5 + 3 ms relays, 10 / 50 Hz + 1 ms reading, 5 ms autorange = 214 ms.
     steps = (
         '[[steps]]\nid = "pt"\nkind = "reference-temperature"\nforce_hi = "PT_FH"\n'

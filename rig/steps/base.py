@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import math
 from abc import ABC, abstractmethod
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
@@ -55,6 +56,10 @@ class StepSpec:
     """How long the circuit takes to settle after a change of route, when the engineer knows it
     (from the circuit's time constants): rig waits that long and reads once.  None: not known,
     so rig proves each reading settled by reading until two agree."""
+
+
+EarlierSteps = Callable[[str], StepSpec | None]
+"""A sequence's steps by id (None for an id it has not): what a step's bounds may rest on."""
 
 
 @dataclass(frozen=True)
@@ -123,3 +128,13 @@ class StepKind(ABC):
     def references(self, spec: StepSpec) -> tuple[str, ...]:
         """Ids of earlier steps this one reads (checked at load time)."""
         return spec.depends_on
+
+    def largest_reading(self, spec: StepSpec, earlier: EarlierSteps) -> float | None:
+        """The largest |reading|, in the meter's unit, that a passing unit can give, or None
+        where the file does not bound it: the planner holds the smallest range that holds it,
+        so no reading pays for autorange.  Here: the largest |limit| where the limits are in
+        the meter's unit."""
+        if spec.limits is None or not self.limits_in_meter_units:
+            return None
+        bounds = [abs(b) for b in (spec.limits.low, spec.limits.high) if b is not None]
+        return max(bounds) if bounds else None

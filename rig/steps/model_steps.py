@@ -18,7 +18,7 @@ from rig.models.ntc import BetaNtc, NtcModel, SteinhartHart
 from rig.models.ratiometric import Ratiometric
 from rig.models.rtd import Rtd
 from rig.routing import Route
-from rig.steps.base import Outcome, StepKind, StepSpec
+from rig.steps.base import EarlierSteps, Outcome, StepKind, StepSpec
 from rig.steps.context import StepContext
 from rig.steps.limits import apply_tolerance, read_limits, read_tolerance
 from rig.steps.pins import read_pins, read_supply
@@ -40,6 +40,10 @@ class ReferenceTemperature(StepKind):
     def routes(self, spec: StepSpec) -> list[Route]:
         p = spec.pins
         return [Route.four_wire(p["force_hi"], p["sense_hi"], p["force_lo"], p["sense_lo"])]
+
+    def largest_reading(self, spec: StepSpec, earlier: EarlierSteps) -> float | None:
+        """The Pt100's resistance at the high temperature limit (R rises with T)."""
+        return _pt100_ohm_at_most(spec)
 
     def run(self, ctx: StepContext, spec: StepSpec) -> Outcome:
         ctx.power(None)
@@ -83,6 +87,39 @@ def _temperature_source(sec: Section, spec: StepSpec) -> None:
         spec.params["temperature_from"] = source
     else:
         spec.params["temperature_c"] = sec.quantity("temperature", "degC")
+
+
+def _pt100_ohm_at_most(spec: StepSpec) -> float | None:
+    """A reference-temperature step's largest passing resistance, or None without a high limit."""
+    if spec.limits is None or spec.limits.high is None:
+        return None
+    return float(Rtd(r0_ohm=float(spec.params["r0_ohm"])).r_at(spec.limits.high))
+
+
+def _coldest_c(spec: StepSpec, earlier: EarlierSteps) -> float | None:
+    """The lowest temperature the step can be judged at: its stated one, or the low limit of the
+    reference-temperature step it reads (a colder reference fails that step)."""
+    source = spec.params.get("temperature_from")
+    if not source:
+        stated = spec.params.get("temperature_c")
+        return None if stated is None else float(stated)
+    reference = earlier(str(source))
+    if reference is None or reference.kind != "reference-temperature" or reference.limits is None:
+        return None
+    return reference.limits.low
+
+
+def _reference_v_at_most(spec: StepSpec, earlier: EarlierSteps) -> float | None:
+    """The divider's highest reference voltage: the stated one, or the high limit of the volts
+    step it is measured by."""
+    source = spec.params.get("reference_from")
+    if not source:
+        stated = spec.params.get("reference_v")
+        return None if stated is None else float(stated)
+    reference = earlier(str(source))
+    if reference is None or reference.kind != "volts" or reference.limits is None:
+        return None
+    return reference.limits.high
 
 
 def _temperature(ctx: StepContext, spec: StepSpec) -> tuple[float, float]:
@@ -137,6 +174,24 @@ class NtcCheck(StepKind):
         if spec.supply is not None:
             route = route + Route.supply(spec.supply.pos, spec.supply.neg)
         return [route]
+
+    def largest_reading(self, spec: StepSpec, earlier: EarlierSteps) -> float | None:
+        """The upper limit at the coldest temperature the step can be judged at: an NTC's
+        resistance, and its divider's voltage, fall as it warms.  None where the file leaves
+        the temperature or the divider's reference unbounded."""
+        model: NtcModel | None = spec.params.get("model")
+        tolerance = spec.params.get("tolerance")
+        coldest = _coldest_c(spec, earlier)
+        if model is None or tolerance is None or coldest is None:
+            return None
+        r_most = float(model.r_at(coldest))
+        if spec.params["mode"] == "resistance":
+            return apply_tolerance(r_most, tolerance).high
+        v_ref = _reference_v_at_most(spec, earlier)
+        if v_ref is None:
+            return None
+        v_most = float(divider_voltage(v_ref, float(spec.params["pullup_ohm"]), r_most))
+        return apply_tolerance(v_most, tolerance).high
 
     def run(self, ctx: StepContext, spec: StepSpec) -> Outcome:
         model: NtcModel = spec.params["model"]
