@@ -105,7 +105,7 @@ def main() -> None:
     args = parser.parse_args()
     sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
     from bench_helpers import shipped_bench, shipped_plan
-    from throughput import hand_table
+    from controller_process import hand_table
 
     from rig.sim.timing import Timing
 

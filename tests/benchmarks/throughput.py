@@ -17,10 +17,13 @@ interleaved (rig first on even repetitions, the script first on odd ones), media
 
 The wall time is that of ``Engine.run`` on opened instruments (safe state at start and end, the
 results store, every read-back), as ``rig run`` spends it after start-up; the script's is its loop
-on opened connections.  Opening connections and starting Python are left out of both.  Figures are
-wall-clock on a shared machine: read them as ratios from one run, not as absolute speeds.
+on opened connections.  Opening connections and starting Python are left out of both.  Both run in
+a process of their own (``controller_process.py``), as a controller runs apart from real
+instruments; the virtual bench stays in this one.  ``--same-process`` times them in the bench's
+process instead, to show what sharing its interpreter costs.  Figures are wall-clock on a shared
+machine: read them as ratios from one run, not as absolute speeds.
 
-Usage: python tests/benchmarks/throughput.py [--quick] [--repeat N]
+Usage: python tests/benchmarks/throughput.py [--quick] [--repeat N] [--same-process]
 """
 
 from __future__ import annotations
@@ -37,18 +40,15 @@ from pathlib import Path
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
 from bench_helpers import SEQUENCES, shipped_bench
+from controller_process import ControllerProcess, ControllerSide, hand_table
 from data.many_readings import write_sequence
-from handwritten_script import SETTLE_S, HandReading, HandScript
+from handwritten_script import SETTLE_S, HandReading
 
 from drivers.visa_session import VisaSession
-from rig.bench_open import close_bench, open_bench
-from rig.engine import Engine
 from rig.plan import InstrumentTiming, Plan
 from rig.runner import load_plan
 from rig.sim.bench import VirtualBench
 from rig.sim.timing import Timing
-from rig.steps import KINDS
-from rig.store import ResultStore
 
 
 @dataclass(frozen=True)
@@ -80,22 +80,6 @@ class Samples:
     script_relay_ops: list[int] = field(default_factory=list)
 
 
-def hand_table(plan: Plan) -> list[HandReading]:
-    """The engineer's table for the script: every reading in file order, relays as planned."""
-    table = []
-    for spec in plan.sequence.steps:
-        planned = next(p for p in plan.steps if p.spec.id == spec.id)
-        function = KINDS[spec.kind].meter_function(spec)
-        if function is None or spec.supply is not None:
-            if planned.relay_sets:
-                raise ValueError(f"the hand script takes no supply steps ({spec.id})")
-            continue
-        for index, relays in enumerate(planned.relay_sets):
-            label = f"{spec.id}[{index}]"
-            table.append(HandReading(label, tuple(sorted(relays)), function.value, spec.nplc))
-    return table
-
-
 def box_operations(bench: VirtualBench) -> int:
     return sum(bench.relay_box.operation_counts().values())
 
@@ -105,36 +89,28 @@ def round_trips(bench: VirtualBench) -> int:
     return bench.dmm.lines_answered + bench.supply.lines_answered + bench.relay_box.lines_handled
 
 
-def time_rig(bench: VirtualBench, plan: Plan, store: ResultStore, serial: str, s: Samples) -> None:
-    instruments = open_bench(plan.station)
+Controller = ControllerSide | ControllerProcess
+
+
+def time_one(
+    bench: VirtualBench, side: Controller, request: dict[str, object], s: Samples, who: str
+) -> None:
+    """Open (untimed), then the timed work with the bench's counters read on either side."""
+    side.answer(request)
     try:
-        engine = Engine(plan, instruments, store)
         ops, spent, trips = box_operations(bench), bench.clock.spent_s, round_trips(bench)
-        start = time.perf_counter()
-        summary = engine.run(serial)
-        wall = time.perf_counter() - start
-        if summary.status != "complete":
-            raise RuntimeError(f"rig run did not complete: {summary.reason}")
-        s.rig_wall_s.append(wall)
-        s.rig_instrument_s.append(bench.clock.spent_s - spent)
-        s.rig_relay_ops.append(box_operations(bench) - ops)
-        s.rig_round_trips.append(round_trips(bench) - trips)
-        s.rig_readings.append(sum(r.readings for r in summary.results))
+        done = side.answer({"go": True})
+        if who == "rig":
+            s.rig_wall_s.append(float(done["wall_s"]))
+            s.rig_instrument_s.append(bench.clock.spent_s - spent)
+            s.rig_relay_ops.append(box_operations(bench) - ops)
+            s.rig_round_trips.append(round_trips(bench) - trips)
+            s.rig_readings.append(int(done["readings"]))
+        else:
+            s.script_wall_s.append(float(done["wall_s"]))
+            s.script_relay_ops.append(box_operations(bench) - ops)
     finally:
-        close_bench(instruments)
-
-
-def time_script(bench: VirtualBench, table: list[HandReading], csv: Path, s: Samples) -> None:
-    assert bench.endpoints is not None
-    script = HandScript(bench.endpoints.dmm_resource, bench.endpoints.relay_port)
-    try:
-        ops = box_operations(bench)
-        start = time.perf_counter()
-        script.run(table, csv)
-        s.script_wall_s.append(time.perf_counter() - start)
-        s.script_relay_ops.append(box_operations(bench) - ops)
-    finally:
-        script.close()
+        side.answer({"close": True})
 
 
 def script_floor_s(table: list[HandReading], plan: Plan) -> float:
@@ -170,7 +146,9 @@ def round_trip_ms(resource: str, count: int = 50, idle_s: float = 0.0) -> float:
         session.close()
 
 
-def measure(workload: Workload, folder: Path, repeat: int, generated: int) -> dict[str, object]:
+def measure(
+    workload: Workload, folder: Path, repeat: int, generated: int, same_process: bool
+) -> dict[str, object]:
     folder.mkdir(parents=True, exist_ok=True)
     timing = InstrumentTiming()
     with shipped_bench(
@@ -183,21 +161,32 @@ def measure(workload: Workload, folder: Path, repeat: int, generated: int) -> di
         path = workload.sequence or write_sequence(folder / "generated.toml", generated)
         plan = load_plan(path, station)
         table = hand_table(plan)
-        store = ResultStore(folder / "results.db")
+        results = folder / "results.db"
+        side: Controller = (
+            ControllerSide(station.path, path, results)
+            if same_process
+            else ControllerProcess(station.path, path, results)
+        )
         samples = Samples()
+        assert bench.endpoints is not None
+        script = {
+            "open": "script",
+            "dmm": bench.endpoints.dmm_resource,
+            "relays": bench.endpoints.relay_port,
+            "csv": str(folder / "hand.csv"),
+        }
         try:
             runs = [
-                lambda: time_rig(bench, plan, store, "SN-RIG", samples),
-                lambda: time_script(bench, table, folder / "hand.csv", samples),
+                lambda: time_one(bench, side, {"open": "rig", "serial": "SN-RIG"}, samples, "rig"),
+                lambda: time_one(bench, side, script, samples, "script"),
             ]
             for rep in range(repeat):
                 for n in range(len(runs)):  # rotate who goes first
                     runs[(rep + n) % len(runs)]()
-            assert bench.endpoints is not None
             rtt_ms = round_trip_ms(bench.endpoints.dmm_resource)
             rtt_idle_ms = round_trip_ms(bench.endpoints.dmm_resource, count=20, idle_s=0.02)
         finally:
-            store.close()
+            side.shut()
     limit = plan.physical_limit()
     rig_wall = statistics.median(samples.rig_wall_s)
     overheads = [w - i for w, i in zip(samples.rig_wall_s, samples.rig_instrument_s, strict=True)]
@@ -234,6 +223,11 @@ def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--quick", action="store_true", help="one repetition, 20 generated steps")
     parser.add_argument("--repeat", type=int, default=7, help="repetitions (median of these)")
+    parser.add_argument(
+        "--same-process",
+        action="store_true",
+        help="time rig and the script in the bench's own process (shows what sharing it costs)",
+    )
     args = parser.parse_args()
     repeat = 1 if args.quick else max(5, args.repeat)
     generated = 20 if args.quick else 200
@@ -241,7 +235,8 @@ def main() -> None:
     results = []
     with tempfile.TemporaryDirectory() as tmp:
         for workload in WORKLOADS:
-            results.append(measure(workload, Path(tmp) / workload.name, repeat, generated))
+            folder = Path(tmp) / workload.name
+            results.append(measure(workload, folder, repeat, generated, args.same_process))
     ms = {k: v * 1000 for k, v in vars(timing).items()}
     print(
         f"instrument figures: relay operate {ms['relay_operate_s']:g} ms, release "
