@@ -137,10 +137,12 @@ def slow_sequence(folder: Path, steps: int = 4) -> Path:
     return path
 
 
-def long_sequence(folder: Path, steps: int) -> Path:
+def long_sequence(folder: Path, steps: int, closing_soak_s: float = 0.0) -> Path:
     """``steps`` resistance checks of the sender, each its own step, 2-wire and 4-wire in turn
     (so every step is its own meter query: none can share one with the next, see
-    ``rig.read_ahead``, and the run lasts long enough for keys to arrive while it runs)."""
+    ``rig.read_ahead``, and the run lasts long enough for keys to arrive while it runs).
+    ``closing_soak_s``: a soak after the last check, so the run is still going when keys
+    arrive however fast this machine takes the checks."""
     head = (
         '[sequence]\nname = "many-steps"\n'
         'description = "Many short resistance steps (test sequence)"\nreorder = false\n'
@@ -150,6 +152,8 @@ def long_sequence(folder: Path, steps: int) -> Path:
         f'wires = {2 if n % 2 else 4}\nlow = "1 kohm"\nhigh = "4 kohm"\n'
         for n in range(1, steps + 1)
     )
+    if closing_soak_s:
+        body += f'\n[[steps]]\nid = "hold"\nkind = "soak"\nduration = "{closing_soak_s:g} s"\n'
     path = folder / "many-steps.toml"
     path.write_text(head + body)
     return path

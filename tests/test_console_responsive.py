@@ -99,7 +99,9 @@ def test_a_500_step_run_is_drawn_in_bounded_batches_while_keys_are_handled(
     steps = 500
 
     async def scenario() -> None:
-        sequence = long_sequence(tmp_path, steps)
+        # the closing soak keeps the run going while the keys arrive: at least one is handled
+        # mid-run however fast the checks go (on a loaded host they once all ended first)
+        sequence = long_sequence(tmp_path, steps, closing_soak_s=3.0)
         with console_on_bench("ntc-sender", tmp_path, sequence) as (app, _bench):
             async with app.run_test(size=SIZE) as pilot:
                 screen = await start_run(pilot, "NTC-5000")
@@ -114,12 +116,12 @@ def test_a_500_step_run_is_drawn_in_bounded_batches_while_keys_are_handled(
                     await wait_for(pilot, lambda: app.screen is screen, "the run view")
                 await finish(pilot, screen)
                 table = screen.query_one("#steps", DataTable)
-                assert table.row_count == steps
+                assert table.row_count == steps + 1  # and the soak
                 assert screen.summary is not None and screen.summary.status == "complete"
                 # the UI drew while the engine ran: several updates, none larger than a batch
                 assert len(screen.batches) > 1, screen.batches
                 assert max(screen.batches) <= BATCH_ITEMS
-                assert sum(screen.batches) == steps
+                assert sum(screen.batches) == steps + 1
                 assert handled_mid_run >= 1
 
     asyncio.run(scenario())
