@@ -140,15 +140,30 @@ class RelayBox(Instrument):
         Relays already closed that stay closed are not touched.
         """
 
+    def send_change(self, closed: Iterable[int]) -> None:
+        """Start ``apply(closed)`` and return while the contacts move; ``finish_change`` then
+        verifies it.  Until then the caller may do other work, such as setting up the meter or
+        filing the last step's results, and the relays move meanwhile.
+
+        This default cannot split a change and makes it whole here; a driver whose box answers
+        only once its contacts have moved overrides both."""
+        self.apply(closed)
+
+    def finish_change(self) -> None:
+        """Wait for the change ``send_change`` started, verify it by read-back, and raise what
+        went wrong with it.  Nothing to do when no change is pending."""
+
     def apply_overlapping(self, closed: Iterable[int], meanwhile: Callable[[], object]) -> None:
         """``apply(closed)``, calling ``meanwhile`` once while the contacts move, so that other
         instruments are set up inside the relay time instead of after it.  The change is read
-        back first; an error from ``meanwhile`` is raised after that.
-
-        This default cannot overlap and calls ``meanwhile`` after the change; a driver whose
-        box answers only once its contacts have moved overrides it."""
-        self.apply(closed)
-        meanwhile()
+        back first; an error from ``meanwhile`` is raised after that."""
+        self.send_change(closed)
+        try:
+            meanwhile()
+        except Exception:
+            self.finish_change()  # a failed change is the more urgent news: raised first
+            raise
+        self.finish_change()
 
     @abstractmethod
     def closed_relays(self) -> frozenset[int]:

@@ -8,12 +8,15 @@ twice.
 
 from __future__ import annotations
 
+import contextlib
 import logging
 import math
+import os
 import termios
 import threading
 from collections import deque
-from collections.abc import Callable, Iterable, Mapping
+from collections.abc import Iterable, Iterator, Mapping
+from dataclasses import dataclass
 
 import serial
 
@@ -103,6 +106,8 @@ class SerialRelayBox(RelayBox):
         self._lock = threading.RLock()
         self._seq = 0
         self._abandoned: deque[int] = deque(maxlen=8)
+        self._change: _Change | None = None
+        """The last change sent with ``send_change``, until ``finish_change`` takes it."""
         self._beat_stop: threading.Event | None = None
         self._beat_thread: threading.Thread | None = None
         try:
@@ -159,29 +164,71 @@ class SerialRelayBox(RelayBox):
 
     def open_all(self) -> None:
         with self._lock:
+            change = self._drop_change()  # counted before the opening, and superseded by it
+            if change is not None and change.verified and not change.target:
+                return  # that change opened every relay: the box's answer to it proved it
             before = self._known
             reply = self._transact(Verb.OPENALL)
             self._count(before, frozenset())
             self._verify(reply, frozenset(), "OPENALL")
 
     def apply(self, closed: Iterable[int]) -> None:
-        self._set(closed, None)
+        self.send_change(closed)
+        self.finish_change()
 
-    def apply_overlapping(self, closed: Iterable[int], meanwhile: Callable[[], object]) -> None:
-        """The box answers SET once its contacts have moved, so ``meanwhile`` runs between
-        sending the command and reading that answer (on the first attempt only)."""
-        work = _OnceMeanwhile(meanwhile)
-        self._set(closed, work)  # a change that failed is raised first, and alone
-        work.raise_error()
-
-    def _set(self, closed: Iterable[int], meanwhile: _OnceMeanwhile | None) -> None:
+    def send_change(self, closed: Iterable[int]) -> None:
+        """Write the SET and return without its answer (the box gives it once its contacts have
+        moved).  The lock is not held meanwhile: whoever talks to the box next (the heartbeat, a
+        safe state, ``finish_change``) reads that answer first, so one command is in flight at a
+        time and the heartbeat is never held up by the caller's work.  What went wrong with the
+        change is raised by ``finish_change``; a later change or ``open_all`` supersedes it."""
         target = self._check_relays(closed)
         arg = format_relays(target)
         with self._lock:
-            before = self._known
-            reply = self._transact(Verb.SET, arg, meanwhile)
-            self._count(before, target)
-            self._verify(reply, target, f"SET {arg}")
+            self._drop_change()  # one command in flight; an unfinished change is superseded
+            change = _Change(arg, target, self._known)
+            change.seq = self._send(Verb.SET, arg)
+            self._change = change
+
+    def finish_change(self) -> None:
+        """Read and verify the answer to the change sent last (if another call has not already),
+        raising what went wrong with it."""
+        with self._lock:
+            self._answer_change()
+            change, self._change = self._change, None
+        if change is not None and change.error is not None:
+            raise change.error
+
+    def _answer_change(self) -> None:
+        """Read the answer to a change in flight, if any, keeping its error for
+        ``finish_change`` (the lock is held)."""
+        change = self._change
+        if change is None or change.answered:
+            return
+        change.answered = True
+        try:
+            reply = self._transact(Verb.SET, change.arg, sent=change.seq)
+            self._count(change.before, change.target)
+            self._verify(reply, change.target, f"SET {change.arg}")
+            change.verified = True
+        except InstrumentError as exc:
+            change.error = exc
+            log.debug("relay box %s: change to %s failed: %s", self.name, change.arg, exc)
+
+    def _drop_change(self) -> _Change | None:
+        """Answer a change in flight and forget it: what comes next supersedes it (the lock is
+        held).  Its failure, which nobody will now be told of, is logged; the change is
+        returned."""
+        self._answer_change()
+        change, self._change = self._change, None
+        if change is not None and change.error is not None:
+            log.warning(
+                "relay box %s: superseded change to %s had failed: %s",
+                self.name,
+                change.arg,
+                change.error,
+            )
+        return change
 
     def closed_relays(self) -> frozenset[int]:
         with self._lock:
@@ -214,8 +261,10 @@ class SerialRelayBox(RelayBox):
         thread.start()
 
     def stop_watchdog(self) -> None:
-        self._stop_heartbeat()
         self._transact(Verb.WDOFF)
+        # the heartbeat is stopped after: waking its thread costs the command nothing, and a
+        # beat that still comes only feeds a watchdog that is off
+        self._stop_heartbeat()
 
     def operation_counts(self) -> dict[int, int]:
         with self._lock:
@@ -305,21 +354,20 @@ class SerialRelayBox(RelayBox):
                 command,
             )
 
-    def _transact(
-        self, verb: Verb, arg: str = "", meanwhile: _OnceMeanwhile | None = None
-    ) -> Reply:
-        """Send one command and return its OK reply, retrying once on a bad or missing reply."""
+    def _transact(self, verb: Verb, arg: str = "", *, sent: int | None = None) -> Reply:
+        """Send one command and return its OK reply, retrying once on a bad or missing reply.
+        With ``sent`` (its sequence number), the command was written already: read its reply
+        (and retry it the same way)."""
         text = f"{verb.value} {arg}".strip()
         with self._lock:
+            if sent is None:
+                self._answer_change()  # one command in flight at a time
             failure: InstrumentError | None = None
             for attempt in range(_ATTEMPTS):
-                seq = self._seq
-                self._seq = next_seq(seq)
-                frame = encode_command(Command(seq, verb.value, arg))
                 try:
-                    reply = self._exchange(seq, frame, text, meanwhile)
+                    seq = sent if attempt == 0 and sent is not None else self._send(verb, arg)
+                    reply = self._receive(seq, text)
                 except (InstrumentTimeout, InstrumentProtocolError) as exc:
-                    self._abandoned.append(seq)
                     failure = exc
                     log.warning("relay box %s: %s (attempt %d)", self.name, exc, attempt + 1)
                     continue
@@ -344,20 +392,43 @@ class SerialRelayBox(RelayBox):
             command=command,
         )
 
-    def _exchange(
-        self, seq: int, frame: bytes, command: str, meanwhile: _OnceMeanwhile | None = None
-    ) -> Reply:
-        port = self._port
+    def _send(self, verb: Verb, arg: str) -> int:
+        """Write one command with the next sequence number; returns that number."""
+        seq = self._seq
+        self._seq = next_seq(seq)
+        frame = encode_command(Command(seq, verb.value, arg))
+        command = f"{verb.value} {arg}".strip()
         try:
-            self._lines.discard_input()
-            port.write(frame)
+            with self._port_errors(command):
+                self._lines.discard_input()
+                self._port.write(frame)
+            # The kernel hands the bytes on to the line (or to the pseudo-terminal's other end)
+            # from a work item on this CPU, which waits while this thread keeps computing: let it
+            # run now, since the caller may go on computing while the box carries the command out.
+            os.sched_yield()
+        except InstrumentTimeout:
+            self._abandoned.append(seq)  # part of it may have gone: its reply is skipped
+            raise
+        return seq
+
+    def _receive(self, seq: int, command: str) -> Reply:
+        """The reply to command ``seq``; a timed-out or garbled one is given up on (its late
+        reply is then skipped)."""
+        with self._port_errors(command):
             try:
-                if meanwhile is not None:
-                    meanwhile.run()
                 return self._read_reply(seq, command)
+            except (InstrumentTimeout, InstrumentProtocolError):
+                self._abandoned.append(seq)
+                raise
             except (KeyboardInterrupt, SystemExit):
                 self._abandoned.append(seq)  # Ctrl-C: the reply still comes; the next skips it
                 raise
+
+    @contextlib.contextmanager
+    def _port_errors(self, command: str) -> Iterator[None]:
+        """Port failures as instrument errors that name the box and the command."""
+        try:
+            yield
         except serial.SerialTimeoutException as exc:
             raise self._error(
                 InstrumentTimeout, f"write not done within {self._timeout_ms:g} ms", command
@@ -369,7 +440,7 @@ class SerialRelayBox(RelayBox):
 
     def _read_reply(self, seq: int, command: str) -> Reply:
         """Our reply, skipping late replies to commands given up on (a few may precede it).
-        Port failures are turned into instrument errors by the caller, ``_exchange``."""
+        Port failures are turned into instrument errors by the caller, ``_receive``."""
         for _ in range(1 + len(self._abandoned)):
             line = self._lines.read_line(MAX_REPLY_LINE)
             if not line.endswith(TERMINATOR):
@@ -428,23 +499,16 @@ class SerialRelayBox(RelayBox):
             thread.join()
 
 
-class _OnceMeanwhile:
-    """The caller's work done while the box moves: run at most once, its error kept until the
-    box's answer has been read and checked (the relays' state is the more urgent news)."""
+@dataclass
+class _Change:
+    """A SET written to the box whose answer may still be unread."""
 
-    def __init__(self, work: Callable[[], object]) -> None:
-        self._work: Callable[[], object] | None = work
-        self._error: Exception | None = None
-
-    def run(self) -> None:
-        work, self._work = self._work, None
-        if work is None:
-            return
-        try:
-            work()
-        except Exception as exc:  # handed back by raise_error once the reply is read
-            self._error = exc
-
-    def raise_error(self) -> None:
-        if self._error is not None:
-            raise self._error
+    arg: str
+    target: frozenset[int]
+    before: frozenset[int]
+    seq: int = 0
+    answered: bool = False
+    """Its answer has been read, or given up on (an interrupt while waiting for it)."""
+    verified: bool = False
+    """The box's answer showed exactly ``target`` closed."""
+    error: InstrumentError | None = None

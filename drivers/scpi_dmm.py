@@ -86,8 +86,9 @@ class ScpiDmm(Dmm):
         self._commands = merge_dialect(self.DIALECT, name, settings)
         self._session = VisaSession(name, resource, settings)
         self._configuration: DmmConfiguration | None = None
-        self._unconfirmed: tuple[DmmConfiguration, str] | None = None
-        """A configuration sent whose error check is still to come, and what was sent."""
+        self._unconfirmed: tuple[DmmConfiguration, str, int | None] | None = None
+        """A configuration sent whose error check is still to come, what was sent, and the
+        sample count it set (None: left as it was)."""
         self._sample_count: int | None = None
 
     @property
@@ -142,20 +143,27 @@ class ScpiDmm(Dmm):
             commands.append(self._commands["nplc"].format(function=func, nplc=format_number(nplc)))
         self._configuration = None
         self._unconfirmed = None
+        count: int | None = None
         if old is None or old.function is not function:
-            self._sample_count = None  # CONFigure resets the sample count on SCPI meters
+            # CONFigure resets the sample count on SCPI meters; it is set along, to the one
+            # reading most steps take, so the first READ? needs no message of its own
+            self._sample_count = None
+            count = 1
+            commands.append(self._commands["count"].format(count=count))
         # One program message, then the error query on its own: a meter may skip the rest of a
         # message after a refused unit (IEEE 488.2 leaves the recovery point to the device), so a
         # query at the end of it might never be answered.
         self._session.write(compound(commands))
-        self._unconfirmed = (wanted, "; ".join(commands))
+        self._unconfirmed = (wanted, "; ".join(commands), count)
 
     def confirm_configuration(self) -> None:
         if self._unconfirmed is None:
             return
-        (wanted, sent), self._unconfirmed = self._unconfirmed, None
+        (wanted, sent, count), self._unconfirmed = self._unconfirmed, None
         self.check_errors(after=sent)
         self._configuration = wanted
+        if count is not None:
+            self._sample_count = count
         log.debug("%s configured %s", self.name, wanted)
 
     def read(self) -> float:

@@ -491,3 +491,99 @@ def test_after_ctrl_c_mid_reply_the_late_reply_is_skipped_quietly() -> None:
     finally:
         driver.close()
         sim.stop()
+
+
+# ---- a change sent now, its answer read later ---------------------------------------------------
+
+
+def test_a_change_sent_returns_while_the_contacts_move(slow_sim: SimRelayBox) -> None:
+    # Operate 50 ms (invented for the test): send_change comes back long before the contacts
+    # have closed; finish_change waits for the box's answer and verifies it.
+    box = SerialRelayBox("relays", slow_sim.port_path, SETTINGS)
+    try:
+        box.send_change([3])
+        assert slow_sim.closed() == frozenset()  # still moving
+        box.finish_change()
+        assert slow_sim.closed() == {3}
+        assert box.operation_counts()[3] == 1
+        box.finish_change()  # nothing pending: nothing to do
+    finally:
+        box.close()
+
+
+def test_the_heartbeat_answers_a_change_left_in_flight(slow_sim: SimRelayBox) -> None:
+    # Watchdog 90 ms, a beat every 30 ms.  The caller sends a change and then leaves the box
+    # alone for 300 ms: the box trips unless the heartbeat can still beat, which it can only by
+    # reading the change's answer first (one command in flight at a time).
+    box = SerialRelayBox("relays", slow_sim.port_path, SETTINGS)
+    try:
+        box.start_watchdog(0.09)
+        box.send_change([2])
+        time.sleep(0.3)
+        assert not slow_sim.watchdog_tripped
+        assert box.heartbeat_error is None
+        box.finish_change()  # answered by the heartbeat, verified here without a word sent
+        assert slow_sim.closed() == {2}
+        box.stop_watchdog()
+    finally:
+        box.close()
+
+
+def test_a_refused_change_is_raised_by_finish_change(sim: SimRelayBox, box: SerialRelayBox) -> None:
+    box.send_change([1, 2, 3, 4])  # over the box's coil budget of 3: refused, nothing moves
+    with pytest.raises(InstrumentReportedError, match="relay box refused"):
+        box.finish_change()
+    assert sim.closed() == frozenset()
+    box.apply([1])  # the link is in step
+    assert sim.closed() == {1}
+
+
+def test_opening_everything_supersedes_a_change_in_flight(
+    sim: SimRelayBox, box: SerialRelayBox
+) -> None:
+    box.send_change([4, 5])
+    box.open_all()  # reads the change's answer first, then opens
+    assert sim.closed() == frozenset()
+    assert box.operation_counts()[4] == 2 and box.operation_counts()[5] == 2
+    box.finish_change()  # superseded: nothing left to report
+    assert box.closed_relays() == frozenset()
+
+
+def test_a_change_to_all_open_is_itself_the_proof_of_the_safe_state(
+    sim: SimRelayBox, box: SerialRelayBox
+) -> None:
+    # The box answers a change with the state it reads after its contacts moved: when that
+    # change opened everything and was verified, opening everything again proves nothing more.
+    box.apply([6])
+    handled = sim.lines_handled
+    box.send_change([])
+    box.open_all()
+    assert sim.lines_handled == handled + 1  # the SET alone: its own answer proved it
+    assert sim.closed() == frozenset()
+    box.open_all()  # with no such change pending it is sent as always
+    assert sim.lines_handled == handled + 2
+
+
+def test_an_opening_cut_short_by_ctrl_c_is_not_taken_as_proof() -> None:
+    # Ctrl-C while waiting for the answer to a change to all open: that change is unverified,
+    # so the safe state that follows sends OPENALL and checks its answer instead of trusting it.
+    sim = SimRelayBox(
+        relay_count=8, max_closed=3, clock=BenchClock(Timing.REAL), operate_s=0.3, release_s=0.3
+    )
+    sim.start()
+    driver = SerialRelayBox("relays", sim.port_path, {"timeout_ms": 2000})
+    try:
+        driver.apply([2])
+        driver.send_change([])
+        timer = threading.Timer(0.1, lambda: os.kill(os.getpid(), signal.SIGINT))
+        timer.start()
+        with pytest.raises(KeyboardInterrupt):
+            driver.finish_change()
+        timer.join()
+        handled = sim.lines_handled
+        driver.open_all()
+        assert sim.lines_handled == handled + 1  # OPENALL went out
+        assert sim.closed() == frozenset()
+    finally:
+        driver.close()
+        sim.stop()

@@ -146,6 +146,22 @@ def test_supply_switched_off_without_waiting_is_proven_by_its_read_back(series: 
     psu.close()
 
 
+def test_a_change_of_function_sets_the_sample_count_along(resistor: Rig, dmm: ScpiDmm) -> None:
+    # CONFigure resets the sample count on SCPI meters; the driver sets it to one in the same
+    # program message, so the first READ? after a change of function needs no message before it.
+    dmm.configure(MeterFunction.RES_2W, 1000.0, 1.0)
+    assert resistor.dmm_sim.handle("SAMP:COUN?") == "1"
+    before = resistor.dmm_sim.lines_handled
+    dmm.read()
+    assert resistor.dmm_sim.lines_handled == before + 1  # READ? alone
+    dmm.read_many(3)  # another count: set first
+    assert resistor.dmm_sim.lines_handled == before + 3
+    dmm.configure(MeterFunction.RES_4W, 1000.0, 1.0)
+    before = resistor.dmm_sim.lines_handled
+    dmm.read()
+    assert resistor.dmm_sim.lines_handled == before + 1
+
+
 def test_integer_nplc_rejects_mains_and_half_nplc_does_not(dmm: ScpiDmm) -> None:
     # Seeded and with wide margins (see test_sim_dmm for the analytic figure); cannot flake.
     dmm.configure(MeterFunction.RES_4W, 1000.0, 1.0)

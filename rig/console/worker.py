@@ -174,8 +174,11 @@ class GuardedRelays(_PassThrough, RelayBox):
     def apply(self, closed: Iterable[int]) -> None:
         self.inner.apply(self._allowed(closed))
 
-    def apply_overlapping(self, closed: Iterable[int], meanwhile: Callable[[], object]) -> None:
-        self.inner.apply_overlapping(self._allowed(closed), meanwhile)
+    def send_change(self, closed: Iterable[int]) -> None:
+        self.inner.send_change(self._allowed(closed))
+
+    def finish_change(self) -> None:
+        self.inner.finish_change()
 
     def _allowed(self, closed: Iterable[int]) -> frozenset[int]:
         wanted = frozenset(closed)
