@@ -108,7 +108,8 @@ class Plan:
     def physical_limit(self) -> PhysicalLimit:
         """Relay changes after ordering times their release and operate times, plus readings
         times their integration time (NPLC / line frequency, plus the meter's own time per
-        reading), plus the autorange penalty where the range is not fixed, plus the waits the
+        reading), plus the autorange penalty for each reading the planner cannot hold a range
+        for (``StepKind.autoranged_readings``), plus the waits the
         sequence states (soaks, settle before a supply readback), plus the settling after each
         change of route (stated, or one proving integration).  Operator time is left out."""
         t = self.timing
@@ -138,9 +139,10 @@ class Plan:
                     else:
                         settle_s += spec.settle_s
                 previous = setup
-            if step.relay_sets and step.range_ is None:
-                autoranged += 1  # once per step: autorange pays on a range change
-                autorange_s += t.autorange_s
+            if step.relay_sets:  # autorange pays on a change of range: at most once a reading
+                paid = KINDS[spec.kind].autoranged_readings(spec, step.range_)
+                autoranged += paid
+                autorange_s += paid * t.autorange_s
         return PhysicalLimit(
             relays_s,
             readings_s,

@@ -103,6 +103,21 @@ def test_physical_limit_adds_autorange_where_the_range_is_not_fixed(
     assert limit.strict_s == pytest.approx(0.008 + 0.201 + 0.005)
 
 
+def test_a_wire_drops_reference_reading_pays_for_autorange(
+    tmp_path: Path, station: Station
+) -> None:
+    # The direct reading across the wire is on the range its +-10 mV limits hold (100 mV); the
+    # reading from the reference cannot be bounded (it is the signal's own voltage), so the
+    # meter autoranges onto it: 5 ms; the third reading stays on the range that one found.
+    steps = (
+        '[[steps]]\nid = "drop"\nkind = "wire-drop"\nfrom = "S_SIG"\nto = "C_SIG"\n'
+        'reference = "CHASSIS"\nmax = "0.01 V"\nnplc = 1\n'
+    )
+    limit = plan_of(tmp_path, station, steps).physical_limit()
+    assert limit.readings == 3 and limit.autoranged == 1
+    assert limit.autorange_s == pytest.approx(0.005)
+
+
 def test_stated_figures_are_those_of_the_virtual_bench() -> None:
     stated = InstrumentTiming()
     defaults = inspect.signature(VirtualBench).parameters
@@ -141,3 +156,39 @@ def test_no_run_on_the_bench_beats_the_physical_limit(tmp_path: Path) -> None:
     # instruments' time, so the run cannot be shorter than the whole limit less autorange either
     assert limit.settle_s > 0
     assert wall >= (limit.total_s - limit.autorange_s) * 0.99
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize(
+    ("unit", "sequence"),
+    [
+        ("ntc-sender", "ntc-sender-screen"),
+        ("temp-circuit", "temp-circuit-check"),
+        ("pressure-circuit", "pressure-circuit-check"),
+    ],
+)
+def test_the_limit_counts_all_the_time_the_bench_charges(
+    tmp_path: Path, unit: str, sequence: str
+) -> None:
+    # The other side of the floor: the instrument time the virtual bench charges for a run is
+    # no more than the limit's own instrument part (relays, readings, autorange), so nothing the
+    # instruments spend is left out of the limit and counted against the controller.  (It may
+    # be less: the meter pays autorange only when autorange changes the range.)
+    with shipped_bench(unit, folder=tmp_path, timing=Timing.REAL) as (bench, station):
+        plan = shipped_plan(sequence, station)
+        limit = plan.physical_limit()
+        instruments = open_bench(station)
+        store = ResultStore(tmp_path / "r.sqlite")
+        try:
+            charged = []
+            for n in range(2):  # the second run starts from the ranges the first left
+                spent = bench.clock.spent_s
+                summary = Engine(plan, instruments, store).run(f"CHARGED-{n}")
+                assert summary.status == "complete"
+                charged.append(bench.clock.spent_s - spent)
+        finally:
+            close_bench(instruments)
+            store.close()
+    for spent in charged:
+        assert spent <= limit.strict_s * 1.01 + 0.001  # 1 % and 1 ms for the bench's own timer
+        assert spent >= (limit.strict_s - limit.autorange_s) * 0.99

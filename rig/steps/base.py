@@ -129,6 +129,12 @@ class StepKind(ABC):
         """Ids of earlier steps this one reads (checked at load time)."""
         return spec.depends_on
 
+    def autoranged_readings(self, spec: StepSpec, held: float | None) -> int:
+        """How many of the step's readings pay for autorange (the meter pays it on a change of
+        range), with ``held`` the range the planner holds for the step (None: none): here one
+        for a step that measures without a held range."""
+        return 1 if held is None else 0
+
     def largest_reading(self, spec: StepSpec, earlier: EarlierSteps) -> float | None:
         """The largest |reading|, in the meter's unit, that a passing unit can give, or None
         where the file does not bound it: the planner holds the smallest range that holds it,

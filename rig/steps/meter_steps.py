@@ -79,6 +79,11 @@ class WireDrop(StepKind):
             _with_supply(spec, Route.dmm(p["to"], p["reference"])),
         ]
 
+    def autoranged_readings(self, spec: StepSpec, held: float | None) -> int:
+        """The reading from the reference autoranges onto the signal's range (nothing in the
+        file bounds it), after the direct reading on the held range, or its own autorange."""
+        return 1 + super().autoranged_readings(spec, held)
+
     def run(self, ctx: StepContext, spec: StepSpec) -> Outcome:
         ctx.power(spec.supply)
         direct_route, from_route, to_route = self.routes(spec)
