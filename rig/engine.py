@@ -17,7 +17,6 @@ import time
 from collections import deque
 from collections.abc import Callable
 from dataclasses import dataclass, field, replace
-from functools import partial
 from typing import Any, cast
 
 from drivers.base import Dmm, MeterFunction, RelayBox, Supply
@@ -128,7 +127,10 @@ def make_safe(bench: Bench, *, run_ending: bool = False) -> list[str]:
     Before or during a run the supply's error queue is emptied as well, so that a stale trip is
     not blamed on a later step.  At a run's end (``run_ending``) it is read only if the output
     still reads on, with the switch-off sent again: a round trip less a run, and the next run's
-    safe start empties the queue."""
+    safe start empties the queue.  The supply is proven off before the relays are told to open,
+    so they never break a current it still drives; where the engine sent an opening ahead (the
+    supply was off already), the box's answer to it is the proof and ``open_all`` sends nothing
+    more."""
     failures: list[str] = []
     supply, relays = bench.supply, bench.relays
     # The read-back decides: a command that reports an error (a stale trip in the supply's queue,
@@ -195,6 +197,8 @@ class Engine:
         self.stop = stop or threading.Event()
         self.settle = settle or SettlePolicy()
         self._closed: frozenset[int] = frozenset()
+        self._relays_moving: frozenset[int] | None = None
+        """A change sent to the relay box whose answer is still to be read (``_move_ahead``)."""
         self._supply_state: SupplyRequest | None = None
         self._moves = 0
         """Relay and supply changes so far; a settled reading is valid until the next one."""
@@ -219,6 +223,12 @@ class Engine:
         were taken in: served while nothing moves, stored unsettled if never used."""
         self._step_finals: list[Reading] = []
         self._step_problems: list[str] = []
+        self._step_routes: list[frozenset[int]] | None = None
+        """The relay sets the running step measures on, in order, where its kind says so
+        (``StepKind.routes_in_order``); None where not known."""
+        self._routes_done = 0
+        self._move_when_read: frozenset[int] | None = None
+        """The relay change to send once the reading being taken is in (``_reading_in``)."""
 
     # --- the run ------------------------------------------------------------------------------
 
@@ -265,6 +275,7 @@ class Engine:
                         study_trial=study_trial,
                     ),
                 )
+                wear = self._writes.meanwhile("relay_wear", station.name)
                 start_problem = self._start_safe()  # while the run's row commits
                 run_id = self._run_row(started, start_problem)
             else:
@@ -276,23 +287,27 @@ class Engine:
                     f"continued after an interruption; {len(done)} of {len(self.plan.steps)} steps "
                     "were already done"
                 )
+                wear = self._writes.meanwhile("relay_wear", station.name)
                 start_problem = self._start_safe()
         except BaseException:
-            with contextlib.suppress(RigError):  # the first error is the one to report
+            # no run to record this in: the bench is left safe (the safe start may have armed
+            # the watchdog and sent the first route ahead) and the first error is the one raised
+            with contextlib.suppress(RigError, OSError):
+                self._end_safe()
+            with contextlib.suppress(RigError):
                 self._writes.close()  # the worker ends before the caller may close the store
             raise
         self._run_id = run_id
         self.listener(
             RunStarted(run_id, serial, sequence.name, tuple(p.spec.id for p in self.plan.steps))
         )
-        notes.extend(wear_warnings(self.store.relay_wear(station.name), station.fixture))
+        notes.extend(wear_warnings(wear.result(), station.fixture))
         status, reason = "complete", ""
         results: list[StepResult] = []
         interrupted: BaseException | None = None
         try:
             if start_problem is not None:  # raised here: the run ends as any other, recorded
                 raise start_problem
-            self.bench.relays.start_watchdog(station.watchdog_s)
             for position, planned in enumerate(self.plan.steps, start=1):
                 if self.stop.is_set():
                     raise StopRequested("stopped by the operator")
@@ -390,24 +405,29 @@ class Engine:
         return {r: n - before.get(r, 0) for r, n in after.items() if n > before.get(r, 0)}
 
     def _start_safe(self) -> BaseException | None:
-        """Bring the bench to a known state (all open, supply off, read back) before any step.
+        """Bring the bench to a known state (all open, supply off, read back) before any step,
+        arm the relay box's watchdog, and send the first step's route ahead.
 
         Returns what to raise once the run exists (its row is still committing): an
-        ``InstrumentError`` naming what could not be made safe, or an interrupt (Ctrl-C) that came
-        meanwhile; None when the bench is safe.  The run then ends as any aborted or interrupted
-        run does (made safe, recorded)."""
+        ``InstrumentError`` naming what could not be made safe or armed, or an interrupt (Ctrl-C)
+        that came meanwhile; None when the bench is safe and guarded.  The run then ends as any
+        aborted or interrupted run does (made safe, recorded)."""
         try:
             failures = make_safe(self.bench)
+            if not failures:
+                self.bench.relays.start_watchdog(self.plan.station.watchdog_s)
         except BaseException as exc:
             return exc
         finally:
             self._closed = frozenset()
+            self._relays_moving = None
             self._supply_state = None
-        if not failures:
-            return None
-        return InstrumentError(
-            "the bench could not be brought to the safe state: " + "; ".join(failures)
-        )
+        if failures:
+            return InstrumentError(
+                "the bench could not be brought to the safe state: " + "; ".join(failures)
+            )
+        self._move_ahead(self._opening_relays(0))  # while the run's row commits
+        return None
 
     @staticmethod
     def _run_row(started: Pending, start_problem: BaseException | None) -> int:
@@ -427,6 +447,7 @@ class Engine:
         except (RigError, OSError) as exc:
             log.warning("could not stop the relay watchdog: %s", exc)
         self._closed = frozenset()
+        self._relays_moving = None
         self._supply_state = None
         return failures
 
@@ -440,12 +461,14 @@ class Engine:
         self._step_settle_s = spec.settle_s
         self._position = position
         self._step_readings = 0
+        self._step_routes = planned.relay_sets if KINDS[spec.kind].routes_in_order else None
         started = _now()
         kind = KINDS[spec.kind]
         retried = ""
         relay_retries = getattr(self.bench.relays, "retries", 0)
         while True:
             self._step_finals, self._step_problems = [], []
+            self._routes_done = 0
             try:
                 outcome = kind.run(self, spec)
                 self._check_supply_still_on(spec)
@@ -491,6 +514,7 @@ class Engine:
         self._moves += 1  # relays opened and the meter reset: nothing read before is settled
         self._meter_setup = None
         self._closed = frozenset()
+        self._relays_moving = None
         self._supply_state = None
         try:
             self.bench.dmm.reset()
@@ -587,7 +611,9 @@ class Engine:
         nplc: float,
     ) -> Reading:
         self._connect(route, (function, range_, nplc))
-        return self.measure(function, role=role, range_=range_, nplc=nplc)
+        self._routes_done += 1
+        known = self._step_routes is not None
+        return self._measure(function, role=role, range_=range_, nplc=nplc, move_on=known)
 
     def _connect(
         self, route: Route, setup: tuple[MeterFunction, float | None, float] | None
@@ -596,38 +622,125 @@ class Engine:
         while they move (its change then needs no settle of its own: the relays', later, starts
         it)."""
         relays = plan_relays(self.plan.station.fixture, route)
-        if relays != self._closed:
-            self._moves += 1  # before the change: a failed apply must not leave a settled state
-            # the last step's rows commit meanwhile
-            ahead = setup if setup is not None and setup != self._meter_setup else None
-            if ahead is not None:
-                # sent while the contacts move, checked once they have: nothing waits inside
-                self._meter_setup = None  # unknown until the meter has taken it
-                send = partial(self.bench.dmm.send_configuration, *ahead)
-                self.bench.relays.apply_overlapping(relays, send)
-            else:
-                self.bench.relays.apply(relays)
+        if self._relays_moving is not None and self._relays_moving != relays:
+            self._relays_landed()  # another change is on its way: it ends first
+        if self._relays_moving is None:
+            if relays == self._closed:
+                return
+            self._moves += 1  # before the change: a failed change must not leave a settled state
+            self.bench.relays.send_change(relays)
+            self._relays_moving = relays
+        # the contacts are moving: the meter is set up and the last step's rows commit meanwhile
+        ahead = setup if setup is not None and setup != self._meter_setup else None
+        if ahead is not None:
+            self._meter_setup = None  # unknown until the meter has taken it
+            try:
+                self.bench.dmm.send_configuration(*ahead)
+            except Exception:
+                self._relays_landed()  # a failed change is the more urgent news: raised first
+                raise
+        self._relays_landed()
+        if ahead is not None:
+            self.bench.dmm.confirm_configuration()
+            self._meter_setup = ahead
+        self._writes.flush()
+        if self.stop.is_set():  # a listener may have asked on an event held until now
+            raise StopRequested("stopped by the operator")
+
+    def _relays_landed(self) -> None:
+        """Wait for the change on its way and verify it; the settle runs from now."""
+        relays, self._relays_moving = self._relays_moving, None
+        self.bench.relays.finish_change()
+        if relays is not None:
             self._closed = relays
-            self._relays_changed_at = time.time()
-            self._moved_at = time.monotonic()
-            if ahead is not None:
-                self.bench.dmm.confirm_configuration()
-                self._meter_setup = ahead
-            self._writes.flush()
-            if self.stop.is_set():  # a listener may have asked on an event held until now
-                raise StopRequested("stopped by the operator")
+        self._relays_changed_at = time.time()
+        self._moved_at = time.monotonic()
+
+    def _move_ahead(self, relays: frozenset[int] | None) -> None:
+        """Send the relay change the bench needs next as soon as that is known (the reading
+        before it is in, the safe start done), so that the contacts move while the engine
+        computes, judges and files; the next connect then only waits for them.  Not once a stop
+        has been asked for.  A change that cannot be sent now is left to the connect, which then
+        meets its error itself."""
+        if relays is None or relays in (self._closed, self._relays_moving) or self.stop.is_set():
+            return
+        self._moves += 1
+        try:
+            self.bench.relays.send_change(relays)
+        except (RigError, OSError) as exc:
+            log.debug("next route not sent ahead: %s", exc)
+            return
+        self._relays_moving = relays
+
+    def _reading_in(self) -> None:
+        """The step's reading is in (not yet stored): send the relay change that comes next,
+        where ``_measure`` found it known."""
+        relays, self._move_when_read = self._move_when_read, None
+        self._move_ahead(relays)
+
+    def _last_route_read(self) -> bool:
+        """Whether the running step has come to the last of the routes it runs in order."""
+        return self._step_routes is not None and self._routes_done >= len(self._step_routes)
+
+    def _next_relays(self) -> frozenset[int] | None:
+        """The relays the running step needs after its reading just taken, where that is known
+        (its kind runs its routes in order, ``StepKind.routes_in_order``): its next route, or
+        after its last what comes after it (``_opening_relays``)."""
+        routes = self._step_routes
+        if routes is None:
+            return None
+        if not self._last_route_read():
+            return routes[self._routes_done]
+        return self._opening_relays(self._position)
+
+    def _opening_relays(self, position: int) -> frozenset[int] | None:
+        """The relays the step after ``position`` (1-based; 0 for the first) begins on, where it
+        begins by closing its first route with the supply as it is now; at the plan's end, with
+        the supply off, every relay open (what the run's end does next).  None where unknown."""
+        upcoming = self._next_planned(position)
+        if upcoming is None:
+            return frozenset() if self._supply_state is None else None
+        if not (KINDS[upcoming.spec.kind].routes_in_order and upcoming.relay_sets):
+            return None
+        return upcoming.relay_sets[0] if upcoming.spec.supply == self._supply_state else None
+
+    def _next_planned(self, position: int) -> PlannedStep | None:
+        """The step that runs after the one at ``position`` (1-based), skipping steps a
+        continued run has done already."""
+        for planned in self.plan.steps[position:]:
+            if planned.spec.id not in self._done_ids:
+                return planned
+        return None
 
     def measure(
         self, function: MeterFunction, *, role: str, range_: float | None, nplc: float
     ) -> Reading:
+        return self._measure(function, role=role, range_=range_, nplc=nplc, move_on=False)
+
+    def _measure(
+        self,
+        function: MeterFunction,
+        *,
+        role: str,
+        range_: float | None,
+        nplc: float,
+        move_on: bool,
+    ) -> Reading:
+        """A settled reading; with ``move_on`` (the step runs its routes in order), the next
+        route is sent as soon as the reading is in."""
         started = time.monotonic()
-        reading = self._reading_taken_ahead(function, role, range_, nplc)
-        if reading is None:
-            if self._configure(function, range_, nplc):
-                self._moved_at = time.monotonic()
-            started = time.monotonic()
-            reading = self._settled_reading(function, role, range_, nplc)
-        self._step_settle += time.monotonic() - started
+        self._move_when_read = self._next_relays() if move_on else None
+        try:
+            reading = self._reading_taken_ahead(function, role, range_, nplc)
+            if reading is None:
+                if self._configure(function, range_, nplc):
+                    self._moved_at = time.monotonic()
+                started = time.monotonic()
+                reading = self._settled_reading(function, role, range_, nplc)
+            self._step_settle += time.monotonic() - started
+            self._reading_in()  # a reading taken ahead: in since before this step
+        finally:
+            self._move_when_read = None
         self._step_finals.append(reading)
         self._step_problems.extend(
             reading_problems(
@@ -674,6 +787,8 @@ class Engine:
         values = dmm.read_many(2) if proof else [dmm.read()]
         agreed = not proof or self._agree_values(function, values, range_)
         done = agreed or not math.isfinite(values[-1]) or len(values) >= self.settle.max_readings
+        if done:
+            self._reading_in()
         readings = [
             self._record(function, role, v, range_, nplc, settled=done and i == len(values) - 1)
             for i, v in enumerate(values)
@@ -684,6 +799,7 @@ class Engine:
             last = readings[-1].value
             done = agreed or len(readings) >= self.settle.max_readings or not math.isfinite(last)
             if done:
+                self._reading_in()
                 self._writes.mark_last_settled()
         if proof and agreed:
             self._settled_state = state
@@ -722,14 +838,18 @@ class Engine:
             skip=self._done_ids,
         )
         if not ids:
-            return self._record(function, role, self.bench.dmm.read(), range_, nplc, settled=True)
+            value = self.bench.dmm.read()
+            self._reading_in()
+            return self._record(function, role, value, range_, nplc, settled=True)
         values = self.bench.dmm.read_many(1 + len(ids))
+        self._reading_in()
         own = self._record(function, role, values[0], range_, nplc, settled=True)
         taken_at = own.taken_at
         for step_id, value in zip(ids, values[1:], strict=True):
             # kept the moment it is taken (a crash loses nothing), as the settled reading of
             # the step it is for; the flag is taken back if that step never uses it
-            their_role = KINDS[self.plan.sequence.step(step_id).kind].one_reading or "ahead"
+            their_spec = self.plan.sequence.step(step_id)
+            their_role = KINDS[their_spec.kind].one_reading(their_spec) or "ahead"
             reading = self._reading(function, their_role, value, range_, nplc, taken_at)
             row = self._writes.add_reading_for_later(
                 self._run_id, step_id, **_row_fields(reading, settled=True)

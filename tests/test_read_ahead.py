@@ -85,6 +85,18 @@ def test_the_same_reading_in_a_row_is_taken_ahead_until_something_differs(
     assert ahead_of(plan, 3) == []  # its neighbours read another route
 
 
+def test_an_ntc_checked_by_its_voltage_takes_part_like_a_volts_step(station: Station) -> None:
+    # An NTC judged by its divider voltage is one DC-volts reading on one route, like a volts
+    # step: the two in a row on the same pins share one query (values invented for the test).
+    ntc = (
+        '[[steps]]\nid = "curve"\nkind = "ntc"\nmeasure = "voltage"\nhi = "S_SIG"\n'
+        'lo = "C_GND"\nr25 = "2 kohm"\nbeta = "3450 K"\ntemperature = "23 degC"\n'
+        'tolerance = "5 %"\npullup = "2.49 kohm"\nreference = "5 V"\nnplc = 1\nrange = "10 V"\n'
+    )
+    plan = make_plan(station, volts("a", "S_SIG", "C_GND", low="0 V", high="5 V") + ntc)
+    assert ahead_of(plan, 0) == ["curve"]
+
+
 @pytest.mark.parametrize(
     "different",
     [

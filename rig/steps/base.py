@@ -99,11 +99,20 @@ class StepKind(ABC):
     limits_in_meter_units: bool = True
     """False where the judged value is not the meter's own reading (a temperature, a fraction,
     a prediction-relative limit): the planner then cannot pick a range from the limits."""
-    one_reading: str | None = None
-    """The role of the step's only reading, for kinds whose run is: the supply as the step
-    states, one route, one meter reading of ``meter_function(spec)`` at the step's range and
-    NPLC, nothing else on the bench.  Such steps in a row on one route share one query
-    (``rig.read_ahead``).  None for every other kind."""
+
+    def one_reading(self, spec: StepSpec) -> str | None:
+        """The role of the step's only reading, for kinds whose run is: the supply as the step
+        states, one route, one meter reading of ``meter_function(spec)`` at the step's range
+        and NPLC, nothing else on the bench.  Such steps in a row on one route share one query
+        (``rig.read_ahead``).  None for every other kind."""
+        return None
+
+    routes_in_order: bool = False
+    """True for kinds whose run asks exactly this of the bench: ``ctx.power(spec.supply)``, then
+    one ``ctx.measure_on`` on each of ``routes(spec)`` in order, and nothing after the last.  The
+    engine then knows a step's last reading when it comes and the next step's first route
+    before it starts, and sends that route's relay change at once: the contacts move while the
+    step is computed, judged and filed."""
     overload_is_a_result: bool = False
     """True where an overload reading is itself a result the step judges (an isolation reading
     above the range proves at least the range): the engine's reading guard then leaves the

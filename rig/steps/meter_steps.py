@@ -25,7 +25,10 @@ class Volts(StepKind):
 
     name = "volts"
     unit = "V"
-    one_reading = "hi-lo"
+    routes_in_order = True
+
+    def one_reading(self, spec: StepSpec) -> str | None:
+        return "hi-lo"
 
     def parse(self, sec: Section, spec: StepSpec) -> None:
         read_pins(sec, spec, "hi", "lo")
@@ -65,6 +68,7 @@ class WireDrop(StepKind):
 
     name = "wire-drop"
     unit = "V"
+    routes_in_order = True
 
     def parse(self, sec: Section, spec: StepSpec) -> None:
         read_pins(sec, spec, "from", "to", "reference")
@@ -115,7 +119,10 @@ class Resistance(StepKind):
 
     name = "resistance"
     unit = "ohm"
-    one_reading = "hi-lo"
+    routes_in_order = True  # its supply is always off (``spec.supply`` is None)
+
+    def one_reading(self, spec: StepSpec) -> str | None:
+        return "hi-lo"
 
     def parse(self, sec: Section, spec: StepSpec) -> None:
         read_pins(sec, spec, "hi", "lo")

@@ -31,6 +31,7 @@ class ReferenceTemperature(StepKind):
     unit = "degC"
     function = MeterFunction.RES_4W
     limits_in_meter_units = False
+    routes_in_order = True  # its supply is always off (``spec.supply`` is None)
 
     def parse(self, sec: Section, spec: StepSpec) -> None:
         read_pins(sec, spec, "force_hi", "sense_hi", "force_lo", "sense_lo")
@@ -141,11 +142,15 @@ class NtcCheck(StepKind):
     name = "ntc"
     unit = "ohm"
     limits_in_meter_units = False
+    routes_in_order = True  # off in resistance mode, where ``spec.supply`` is None
 
     def meter_function(self, spec: StepSpec) -> MeterFunction:
         """Ohms (2-wire) or DC volts, as ``measure`` says."""
         voltage = spec.params.get("mode") == "voltage"
         return MeterFunction.DC_VOLTS if voltage else MeterFunction.RES_2W
+
+    def one_reading(self, spec: StepSpec) -> str | None:
+        return "signal" if spec.params.get("mode") == "voltage" else "ntc"
 
     def parse(self, sec: Section, spec: StepSpec) -> None:
         read_pins(sec, spec, "hi", "lo")
@@ -194,23 +199,32 @@ class NtcCheck(StepKind):
         return apply_tolerance(v_most, tolerance).high
 
     def run(self, ctx: StepContext, spec: StepSpec) -> Outcome:
+        # the reading first, the prediction after: the engine may move the relays on for the
+        # next step while this one computes
+        voltage = spec.params["mode"] == "voltage"
+        ctx.power(spec.supply if voltage else None)
+        reading = ctx.measure_on(
+            self.routes(spec)[0],
+            self.meter_function(spec),
+            role=str(self.one_reading(spec)),
+            range_=spec.range_,
+            nplc=spec.nplc,
+        )
         model: NtcModel = spec.params["model"]
         temp, u_temp = _temperature(ctx, spec)
         r_pred = float(model.r_at(temp))
         u_r_pred = abs(float(model.dr_dt(temp))) * u_temp
-        if spec.params["mode"] == "resistance":
-            ctx.power(None)
-            r = ctx.measure_on(
-                self.routes(spec)[0],
-                MeterFunction.RES_2W,
-                role="ntc",
-                range_=spec.range_,
-                nplc=spec.nplc,
-            )
+        if not voltage:
             limits = apply_tolerance(r_pred, spec.params["tolerance"])
-            u = math.hypot(r.u_std, u_r_pred)
+            u = math.hypot(reading.u_std, u_r_pred)
             return Outcome(
-                r.value, "ohm", u, limits, [r], predicted=r_pred, extras={"temperature_c": temp}
+                reading.value,
+                "ohm",
+                u,
+                limits,
+                [reading],
+                predicted=r_pred,
+                extras={"temperature_c": temp},
             )
         if spec.params.get("reference_from"):
             ref = ctx.earlier(spec.params["reference_from"])
@@ -222,21 +236,13 @@ class NtcCheck(StepKind):
         u_v_pred = math.hypot(
             float(dv_dr_sensor(v_ref, pull, r_pred)) * u_r_pred, v_pred / v_ref * u_ref
         )
-        ctx.power(spec.supply)
-        v = ctx.measure_on(
-            self.routes(spec)[0],
-            MeterFunction.DC_VOLTS,
-            role="signal",
-            range_=spec.range_,
-            nplc=spec.nplc,
-        )
         limits = apply_tolerance(v_pred, spec.params["tolerance"])
         return Outcome(
-            v.value,
+            reading.value,
             "V",
-            math.hypot(v.u_std, u_v_pred),
+            math.hypot(reading.u_std, u_v_pred),
             limits,
-            [v],
+            [reading],
             predicted=v_pred,
             extras={"temperature_c": temp, "reference_v": v_ref, "predicted_r_ohm": r_pred},
         )
@@ -249,6 +255,7 @@ class RatiometricCheck(StepKind):
     name = "ratiometric"
     unit = "%"
     limits_in_meter_units = False
+    routes_in_order = True
 
     def parse(self, sec: Section, spec: StepSpec) -> None:
         read_pins(sec, spec, "output", "power", "ground")

@@ -1,0 +1,270 @@
+"""The next relay change sent as soon as it is known: the contacts move while the engine computes,
+judges and files the step before (``Engine._move_ahead``), and the safe state's two links waited
+on at once (``make_safe``).
+
+The contract the engine relies on (``StepKind.routes_in_order``) is checked kind by kind against
+what each kind's run really asks of the bench; the order of work is checked on the virtual bench
+through the real drivers, with the relay box's calls and the engine's events logged side by side.
+"""
+
+from __future__ import annotations
+
+import itertools
+import math
+import time
+from collections.abc import Iterable
+from dataclasses import dataclass
+from pathlib import Path
+
+import pytest
+from bench_helpers import SEQUENCES, shipped_bench, shipped_plan
+from offline_station import offline_demo_station
+
+from drivers.base import InstrumentIdentity, MeterFunction, RelayBox
+from rig.bench_open import close_bench, open_bench
+from rig.config.fixture import FixtureMap
+from rig.engine import Bench, Engine, RunSummary, make_safe
+from rig.events import Event, StepFinished, StepStarted
+from rig.plan import Plan
+from rig.routing import Route, plan_relays
+from rig.runner import load_plan
+from rig.sim.timing import Timing
+from rig.steps import KINDS, Reading, SupplyRequest
+from rig.store import ResultStore
+
+SHIPPED = ("ntc-sender-screen", "temp-circuit-check", "pressure-circuit-check")
+
+
+class RecordingContext:
+    """A ``StepContext`` that only writes down what a step asks of the bench."""
+
+    def __init__(self, plan: Plan) -> None:
+        self.plan = plan
+        self.calls: list[tuple[str, object]] = []
+
+    def power(self, request: SupplyRequest | None) -> None:
+        self.calls.append(("power", request))
+
+    def connect(self, route: Route) -> None:
+        self.calls.append(("connect", route))
+
+    def measure(
+        self, function: MeterFunction, *, role: str, range_: float | None, nplc: float
+    ) -> Reading:
+        self.calls.append(("measure", function))
+        # plausible values for the kinds' arithmetic: a Pt100 near 23 degC, an NTC near its
+        # R25, a sensor signal of a few volts
+        value = {MeterFunction.RES_4W: 109.0, MeterFunction.RES_2W: 2000.0}.get(function, 2.3)
+        return Reading(role, function.value, value, range_, nplc, time.time(), 0.01)
+
+    def measure_on(
+        self,
+        route: Route,
+        function: MeterFunction,
+        *,
+        role: str,
+        range_: float | None,
+        nplc: float,
+    ) -> Reading:
+        self.calls.append(("measure_on", route))
+        return self.measure(function, role=role, range_=range_, nplc=nplc)
+
+    def supply_current(self, *, role: str) -> Reading:
+        self.calls.append(("supply_current", role))
+        return Reading(role, "supply-current", 0.01, 0.1, 0.0, time.time(), 1e-4)
+
+    def earlier(self, step_id: str) -> Reading:
+        kind = self.plan.sequence.step(step_id).kind
+        value = 23.0 if kind == "reference-temperature" else 5.0
+        return Reading("earlier", "", value, None, 1.0, 0.0, 0.05)
+
+    def prompt(self, text: str) -> bool:
+        self.calls.append(("prompt", text))
+        return True
+
+    def wait(self, seconds: float) -> None:
+        self.calls.append(("wait", seconds))
+
+    def lead_zero(self, hi: str, lo: str) -> float:
+        return 0.0
+
+    @property
+    def fixture(self) -> FixtureMap:
+        return self.plan.station.fixture
+
+
+@pytest.mark.parametrize("sequence", SHIPPED)
+def test_kinds_that_say_they_run_their_routes_in_order_do(sequence: str, tmp_path: Path) -> None:
+    # The engine sends a step's next route, and the next step's first, the moment a reading is
+    # in: right only if the kind asks exactly power(spec.supply), then one measure_on per route
+    # in the order routes() gives, and nothing else of the bench.
+    plan = load_plan(SEQUENCES / f"{sequence}.toml", offline_demo_station("order", tmp_path))
+    checked = 0
+    for planned in plan.steps:
+        kind = KINDS[planned.spec.kind]
+        if not kind.routes_in_order:
+            continue
+        context = RecordingContext(plan)
+        kind.run(context, planned.spec)  # type: ignore[arg-type]
+        bench_calls = [c for c in context.calls if c[0] != "measure"]
+        expected = [("power", planned.spec.supply)]
+        expected += [("measure_on", route) for route in kind.routes(planned.spec)]
+        assert bench_calls == expected, planned.spec.id
+        routes = kind.routes(planned.spec)
+        assert [plan_relays(plan.station.fixture, r) for r in routes] == planned.relay_sets
+        checked += 1
+    assert checked >= 3
+
+
+class LoggedRelays(RelayBox):
+    """The real relay-box driver, with each change it is given written into a shared log."""
+
+    def __init__(self, inner: RelayBox, log: list[tuple[str, object]]) -> None:
+        self.inner, self.log = inner, log
+        self.name, self.resource = inner.name, inner.resource
+
+    def identity(self) -> InstrumentIdentity:
+        return self.inner.identity()
+
+    def close(self) -> None:
+        self.inner.close()
+
+    def open_all(self) -> None:
+        self.log.append(("open_all", frozenset()))
+        self.inner.open_all()
+
+    def apply(self, closed: Iterable[int]) -> None:
+        self.log.append(("apply", frozenset(closed)))
+        self.inner.apply(closed)
+
+    def send_change(self, closed: Iterable[int]) -> None:
+        self.log.append(("send", frozenset(closed)))
+        self.inner.send_change(closed)
+
+    def finish_change(self) -> None:
+        self.inner.finish_change()
+
+    def closed_relays(self) -> frozenset[int]:
+        return self.inner.closed_relays()
+
+    def start_watchdog(self, timeout_s: float) -> None:
+        self.inner.start_watchdog(timeout_s)
+
+    def stop_watchdog(self) -> None:
+        self.inner.stop_watchdog()
+
+    def operation_counts(self) -> dict[int, int]:
+        return self.inner.operation_counts()
+
+
+@dataclass
+class LoggedRun:
+    summary: RunSummary
+    plan: Plan
+    log: list[tuple[str, object]]
+    """The relay box's changes and the step events, in the order the engine made them."""
+    operations: int
+    """Contact operations the box counted during the run."""
+
+
+def logged_run(tmp_path: Path, *, stop_at: str = "") -> LoggedRun:
+    """The shipped harness check on the virtual bench, the relay box's changes and the engine's
+    step events written into one log as the engine thread makes them; ``stop_at``: the
+    operator's stop comes as that step starts."""
+    with shipped_bench("temp-circuit", folder=tmp_path) as (bench, station):
+        plan = shipped_plan("temp-circuit-check", station)
+        opened = open_bench(station)
+        log: list[tuple[str, object]] = []
+        instruments = Bench(opened.dmm, opened.supply, LoggedRelays(opened.relays, log))
+        store = ResultStore(tmp_path / "r.sqlite")
+        try:
+            engine = Engine(plan, instruments, store)
+            deliver = engine.listener
+
+            def emitted(event: Event) -> None:  # in the engine's thread, in order
+                if isinstance(event, StepStarted):
+                    log.append(("StepStarted", event.step_id))
+                    if event.step_id == stop_at:
+                        engine.stop.set()
+                        log.append(("stop", None))
+                elif isinstance(event, StepFinished):
+                    log.append(("StepFinished", event.result.step_id))
+                deliver(event)
+
+            engine.listener = emitted
+            operations = sum(bench.relay_box.operation_counts().values())
+            summary = engine.run("AHEAD-1")
+            operations = sum(bench.relay_box.operation_counts().values()) - operations
+        finally:
+            close_bench(opened)
+            store.close()
+        assert bench.relay_box.closed() == frozenset()  # left safe, however it ended
+    return LoggedRun(summary, plan, log, operations)
+
+
+def test_the_next_route_moves_while_the_step_before_is_filed(tmp_path: Path) -> None:
+    run = logged_run(tmp_path)
+    log = run.log
+    assert run.summary.status == "complete"
+    assert run.operations == run.plan.relay_ops  # sent ahead, never sent twice or in vain
+    sends = [entry for entry in log if entry[0] == "send"]
+    assert not any(entry[0] == "apply" for entry in log)
+
+    def at(entry: tuple[str, object]) -> int:
+        return log.index(entry)
+
+    steps = run.plan.steps
+    # the first route goes out with the safe start, before the first step begins
+    assert at(("send", steps[0].relay_sets[0])) < at(("StepStarted", steps[0].spec.id))
+    for step, following in itertools.pairwise(steps):
+        inside = step.relay_sets[1:]  # a step's own later routes: sent before it is filed too
+        for relays in inside:
+            assert at(("send", relays)) < at(("StepFinished", step.spec.id))
+        nxt = following.relay_sets[0]
+        if nxt != step.relay_sets[-1]:
+            # sent once the step's last reading was in: before the step is judged and filed
+            assert at(("send", nxt)) < at(("StepFinished", step.spec.id)), step.spec.id
+    # after the last reading every relay opens at once (the supply is off)
+    assert sends[-1] == ("send", frozenset())
+    assert at(sends[-1]) < at(("StepFinished", steps[-1].spec.id))
+
+
+def test_the_supply_is_proven_off_before_the_relays_open(tmp_path: Path) -> None:
+    # Relays that take 100 ms to release (invented for the test): with the supply on, the safe
+    # state proves it off before the box is told to open, so no contact breaks a current the
+    # supply still drives (the engine opens ahead only where the supply was off already).
+    with shipped_bench(
+        "temp-circuit", folder=tmp_path, timing=Timing.REAL, relay_release_s=0.1
+    ) as (bench, station):
+        lines: list[tuple[float, str]] = []
+        handle = bench.supply.handle
+
+        def logged(line: str) -> str | None:
+            lines.append((time.monotonic(), line.strip().upper()))
+            return handle(line)
+
+        bench.supply.handle = logged  # type: ignore[method-assign]
+        instruments = open_bench(station)
+        try:
+            instruments.relays.apply([9, 12])
+            instruments.supply.set_voltage(5.0)
+            instruments.supply.set_output(True)
+            assert make_safe(instruments, run_ending=True) == []
+        finally:
+            close_bench(instruments)
+    opened = [e for e in bench.relay_box.events() if e.action == "open"]
+    assert {e.relay for e in opened} == {9, 12}
+    release_began = min(e.t for e in opened) - 0.1
+    asked_at = max(t for t, line in lines if line == "OUTP?")
+    assert asked_at < release_began
+    assert not bench.supply_settings.output_on
+    assert bench.relay_box.closed() == frozenset()
+
+
+def test_nothing_moves_ahead_once_a_stop_is_asked(tmp_path: Path) -> None:
+    second = "signal-at-controller"  # the harness check's second step
+    run = logged_run(tmp_path, stop_at=second)
+    assert run.summary.status == "aborted"
+    assert not math.isnan(run.summary.results[0].value)  # the first step was filed whole
+    after_stop = run.log[run.log.index(("stop", None)) :]
+    assert not [entry for entry in after_stop if entry[0] == "send"]  # only the safe state
