@@ -27,8 +27,9 @@ EXPECTED_KEYS = {
 }
 
 
-HELPERS = {"controller_process.py"}
-"""Not benchmarks: run by one (throughput.py runs the controller's side through it)."""
+HELPERS = {"controller_process.py", "host_tuning.py"}
+"""Not benchmarks: used by one (throughput.py runs the controller's side through the first and
+sets the host up for timing with the second)."""
 
 
 @pytest.mark.parametrize(

@@ -17,7 +17,7 @@ counters, so they hold exactly the timed work.  A failure answers ``{"error": ".
 class serves in-process too (``throughput.py --same-process``), to show what the shared process
 costs.
 
-Usage (by throughput.py): python controller_process.py STATION SEQUENCE RESULTS_DB
+Usage (by throughput.py): python controller_process.py STATION SEQUENCE RESULTS_DB [CPU]
 """
 
 from __future__ import annotations
@@ -30,6 +30,7 @@ from pathlib import Path
 from typing import Any, TextIO
 
 from handwritten_script import HandReading, HandScript
+from host_tuning import pin_this_process
 
 from rig.bench_open import Bench, close_bench, open_bench
 from rig.config.station import load_station
@@ -115,10 +116,15 @@ class ControllerSide:
 
 
 class ControllerProcess:
-    """The parent's handle on a ``ControllerSide`` in a process of its own."""
+    """The parent's handle on a ``ControllerSide`` in a process of its own, on ``cpu`` if
+    given (``host_tuning``)."""
 
-    def __init__(self, station: Path, sequence: Path, results: Path) -> None:
+    def __init__(
+        self, station: Path, sequence: Path, results: Path, cpu: int | None = None
+    ) -> None:
         argv = [sys.executable, __file__, str(station), str(sequence), str(results)]
+        if cpu is not None:
+            argv.append(str(cpu))
         self._child = subprocess.Popen(
             argv, stdin=subprocess.PIPE, stdout=subprocess.PIPE, text=True, bufsize=1
         )
@@ -156,6 +162,7 @@ def serve(side: ControllerSide, requests: TextIO, replies: TextIO) -> None:
 
 def main() -> None:
     station, sequence, results = (Path(a) for a in sys.argv[1:4])
+    pin_this_process(int(sys.argv[4]) if len(sys.argv) > 4 else None)
     replies = sys.stdout
     sys.stdout = sys.stderr  # nothing else may write on the reply channel
     serve(ControllerSide(station, sequence, results), sys.stdin, replies)

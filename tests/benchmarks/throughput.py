@@ -23,7 +23,11 @@ instruments; the virtual bench stays in this one.  ``--same-process`` times them
 process instead, to show what sharing its interpreter costs.  Figures are wall-clock on a shared
 machine: read them as ratios from one run, not as absolute speeds.
 
-Usage: python tests/benchmarks/throughput.py [--quick] [--repeat N] [--same-process]
+The host is set up for timing as a station's controller PC would be (``host_tuning``: the
+controller on a core of its own, CPUs kept out of deep idle, where the host allows it); the
+first line printed says what was applied, and ``--as-is`` leaves the host alone.
+
+Usage: python tests/benchmarks/throughput.py [--quick] [--repeat N] [--same-process] [--as-is]
 """
 
 from __future__ import annotations
@@ -43,6 +47,7 @@ from bench_helpers import SEQUENCES, shipped_bench
 from controller_process import ControllerProcess, ControllerSide, hand_table
 from data.many_readings import write_sequence
 from handwritten_script import SETTLE_S, HandReading
+from host_tuning import tuned_host
 
 from drivers.visa_session import VisaSession
 from rig.plan import InstrumentTiming, Plan
@@ -147,7 +152,12 @@ def round_trip_ms(resource: str, count: int = 50, idle_s: float = 0.0) -> float:
 
 
 def measure(
-    workload: Workload, folder: Path, repeat: int, generated: int, same_process: bool
+    workload: Workload,
+    folder: Path,
+    repeat: int,
+    generated: int,
+    same_process: bool,
+    controller_cpu: int | None,
 ) -> dict[str, object]:
     folder.mkdir(parents=True, exist_ok=True)
     timing = InstrumentTiming()
@@ -165,7 +175,7 @@ def measure(
         side: Controller = (
             ControllerSide(station.path, path, results)
             if same_process
-            else ControllerProcess(station.path, path, results)
+            else ControllerProcess(station.path, path, results, controller_cpu)
         )
         samples = Samples()
         assert bench.endpoints is not None
@@ -228,15 +238,24 @@ def main() -> None:
         action="store_true",
         help="time rig and the script in the bench's own process (shows what sharing it costs)",
     )
+    parser.add_argument(
+        "--as-is",
+        action="store_true",
+        help="leave the host alone: no cores of their own, idle states as they are",
+    )
     args = parser.parse_args()
     repeat = 1 if args.quick else max(5, args.repeat)
     generated = 20 if args.quick else 200
     timing = InstrumentTiming()
     results = []
-    with tempfile.TemporaryDirectory() as tmp:
+    tune = not (args.as_is or args.quick)
+    with tempfile.TemporaryDirectory() as tmp, tuned_host(tune, pin=not args.same_process) as host:
         for workload in WORKLOADS:
             folder = Path(tmp) / workload.name
-            results.append(measure(workload, folder, repeat, generated, args.same_process))
+            results.append(
+                measure(workload, folder, repeat, generated, args.same_process, host.controller_cpu)
+            )
+    print(host.describe())
     ms = {k: v * 1000 for k, v in vars(timing).items()}
     print(
         f"instrument figures: relay operate {ms['relay_operate_s']:g} ms, release "
@@ -268,6 +287,7 @@ def main() -> None:
     )
     summary = {
         "repetitions": repeat,
+        "host": host.as_json(),
         "wall_over_limit_max": max(float(str(r["wall_over_limit"])) for r in results),
         "script_over_rig_min": min(float(str(r["script_over_rig"])) for r in results),
         "workloads": results,
