@@ -194,8 +194,7 @@ class SerialRelayBox(RelayBox):
         """Read and verify the answer to the change sent last (if another call has not already),
         raising what went wrong with it."""
         with self._lock:
-            self._answer_change()
-            change, self._change = self._change, None
+            change = self._take_change()
         if change is not None and change.error is not None:
             raise change.error
 
@@ -215,12 +214,16 @@ class SerialRelayBox(RelayBox):
             change.error = exc
             log.debug("relay box %s: change to %s failed: %s", self.name, change.arg, exc)
 
-    def _drop_change(self) -> _Change | None:
-        """Answer a change in flight and forget it: what comes next supersedes it (the lock is
-        held).  Its failure, which nobody will now be told of, is logged; the change is
-        returned."""
+    def _take_change(self) -> _Change | None:
+        """The change sent last, answered, and no longer pending (the lock is held)."""
         self._answer_change()
         change, self._change = self._change, None
+        return change
+
+    def _drop_change(self) -> _Change | None:
+        """``_take_change`` where what comes next supersedes the change: its failure, which
+        nobody will now be told of, is logged."""
+        change = self._take_change()
         if change is not None and change.error is not None:
             log.warning(
                 "relay box %s: superseded change to %s had failed: %s",
@@ -261,10 +264,13 @@ class SerialRelayBox(RelayBox):
         thread.start()
 
     def stop_watchdog(self) -> None:
-        self._transact(Verb.WDOFF)
-        # the heartbeat is stopped after: waking its thread costs the command nothing, and a
-        # beat that still comes only feeds a watchdog that is off
-        self._stop_heartbeat()
+        beat = self._beat_stop
+        if beat is not None:
+            beat.set()  # no beat after this one: a watchdog left armed (WDOFF failed) goes unfed
+        try:
+            self._transact(Verb.WDOFF)
+        finally:
+            self._stop_heartbeat()  # joined after: waking its thread costs the command nothing
 
     def operation_counts(self) -> dict[int, int]:
         with self._lock:
@@ -406,8 +412,9 @@ class SerialRelayBox(RelayBox):
             # from a work item on this CPU, which waits while this thread keeps computing: let it
             # run now, since the caller may go on computing while the box carries the command out.
             os.sched_yield()
-        except InstrumentTimeout:
-            self._abandoned.append(seq)  # part of it may have gone: its reply is skipped
+        except (InstrumentTimeout, KeyboardInterrupt, SystemExit):
+            # part of it, or all, may have gone (a write cut short, Ctrl-C): its reply is skipped
+            self._abandoned.append(seq)
             raise
         return seq
 

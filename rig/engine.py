@@ -298,14 +298,14 @@ class Engine:
                 self._writes.close()  # the worker ends before the caller may close the store
             raise
         self._run_id = run_id
-        self.listener(
-            RunStarted(run_id, serial, sequence.name, tuple(p.spec.id for p in self.plan.steps))
-        )
-        notes.extend(wear_warnings(wear.result(), station.fixture))
         status, reason = "complete", ""
         results: list[StepResult] = []
         interrupted: BaseException | None = None
-        try:
+        try:  # from here on, however the run ends, it ends safe and recorded
+            self.listener(
+                RunStarted(run_id, serial, sequence.name, tuple(p.spec.id for p in self.plan.steps))
+            )
+            notes.extend(wear_warnings(wear.result(), station.fixture))
             if start_problem is not None:  # raised here: the run ends as any other, recorded
                 raise start_problem
             for position, planned in enumerate(self.plan.steps, start=1):
@@ -441,9 +441,13 @@ class Engine:
             raise
 
     def _end_safe(self) -> list[str]:
+        """The safe state at a run's end; the watchdog is switched off only once it holds.  On a
+        bench that could not be made safe it stays armed: when the bench is closed and its
+        heartbeat stops, the box opens every relay by itself."""
         failures = make_safe(self.bench, run_ending=True)
         try:
-            self.bench.relays.stop_watchdog()
+            if not failures:
+                self.bench.relays.stop_watchdog()
         except (RigError, OSError) as exc:
             log.warning("could not stop the relay watchdog: %s", exc)
         self._closed = frozenset()
@@ -639,10 +643,14 @@ class Engine:
             except Exception:
                 self._relays_landed()  # a failed change is the more urgent news: raised first
                 raise
+            set_up_at = time.monotonic()
         self._relays_landed()
         if ahead is not None:
             self.bench.dmm.confirm_configuration()
             self._meter_setup = ahead
+            # the settle runs from the later of the two: the contacts may have landed (a change
+            # sent ahead) before the meter took a setup that drives the circuit anew
+            self._moved_at = max(self._moved_at, set_up_at)
         self._writes.flush()
         if self.stop.is_set():  # a listener may have asked on an event held until now
             raise StopRequested("stopped by the operator")
@@ -650,9 +658,10 @@ class Engine:
     def _relays_landed(self) -> None:
         """Wait for the change on its way and verify it; the settle runs from now."""
         relays, self._relays_moving = self._relays_moving, None
+        if relays is None:
+            return
         self.bench.relays.finish_change()
-        if relays is not None:
-            self._closed = relays
+        self._closed = relays
         self._relays_changed_at = time.time()
         self._moved_at = time.monotonic()
 
@@ -678,10 +687,6 @@ class Engine:
         relays, self._move_when_read = self._move_when_read, None
         self._move_ahead(relays)
 
-    def _last_route_read(self) -> bool:
-        """Whether the running step has come to the last of the routes it runs in order."""
-        return self._step_routes is not None and self._routes_done >= len(self._step_routes)
-
     def _next_relays(self) -> frozenset[int] | None:
         """The relays the running step needs after its reading just taken, where that is known
         (its kind runs its routes in order, ``StepKind.routes_in_order``): its next route, or
@@ -689,20 +694,24 @@ class Engine:
         routes = self._step_routes
         if routes is None:
             return None
-        if not self._last_route_read():
+        if self._routes_done < len(routes):
             return routes[self._routes_done]
         return self._opening_relays(self._position)
 
     def _opening_relays(self, position: int) -> frozenset[int] | None:
         """The relays the step after ``position`` (1-based; 0 for the first) begins on, where it
-        begins by closing its first route with the supply as it is now; at the plan's end, with
-        the supply off, every relay open (what the run's end does next).  None where unknown."""
+        begins by closing its first route with the supply off; at the plan's end every relay
+        open (what the run's end does next).  None where unknown, and None while the supply is
+        on: a step's supply is checked once its last reading is in, and a trip that the next
+        route caused must not be blamed on it."""
+        if self._supply_state is not None:
+            return None
         upcoming = self._next_planned(position)
         if upcoming is None:
-            return frozenset() if self._supply_state is None else None
+            return frozenset()
         if not (KINDS[upcoming.spec.kind].routes_in_order and upcoming.relay_sets):
             return None
-        return upcoming.relay_sets[0] if upcoming.spec.supply == self._supply_state else None
+        return upcoming.relay_sets[0] if upcoming.spec.supply is None else None
 
     def _next_planned(self, position: int) -> PlannedStep | None:
         """The step that runs after the one at ``position`` (1-based), skipping steps a
@@ -737,8 +746,9 @@ class Engine:
                     self._moved_at = time.monotonic()
                 started = time.monotonic()
                 reading = self._settled_reading(function, role, range_, nplc)
+            else:
+                self._reading_in()  # taken ahead: in since before this step began
             self._step_settle += time.monotonic() - started
-            self._reading_in()  # a reading taken ahead: in since before this step
         finally:
             self._move_when_read = None
         self._step_finals.append(reading)
@@ -787,10 +797,13 @@ class Engine:
         values = dmm.read_many(2) if proof else [dmm.read()]
         agreed = not proof or self._agree_values(function, values, range_)
         done = agreed or not math.isfinite(values[-1]) or len(values) >= self.settle.max_readings
+        taken_at = time.time()
         if done:
             self._reading_in()
         readings = [
-            self._record(function, role, v, range_, nplc, settled=done and i == len(values) - 1)
+            self._record(
+                function, role, v, range_, nplc, settled=done and i == len(values) - 1, at=taken_at
+            )
             for i, v in enumerate(values)
         ]
         while not done:
@@ -799,7 +812,7 @@ class Engine:
             last = readings[-1].value
             done = agreed or len(readings) >= self.settle.max_readings or not math.isfinite(last)
             if done:
-                self._reading_in()
+                self._reading_in()  # after its row: agreeing needs the reading's uncertainty
                 self._writes.mark_last_settled()
         if proof and agreed:
             self._settled_state = state
@@ -838,13 +851,12 @@ class Engine:
             skip=self._done_ids,
         )
         if not ids:
-            value = self.bench.dmm.read()
+            value, taken_at = self.bench.dmm.read(), time.time()
             self._reading_in()
-            return self._record(function, role, value, range_, nplc, settled=True)
-        values = self.bench.dmm.read_many(1 + len(ids))
+            return self._record(function, role, value, range_, nplc, settled=True, at=taken_at)
+        values, taken_at = self.bench.dmm.read_many(1 + len(ids)), time.time()
         self._reading_in()
-        own = self._record(function, role, values[0], range_, nplc, settled=True)
-        taken_at = own.taken_at
+        own = self._record(function, role, values[0], range_, nplc, settled=True, at=taken_at)
         for step_id, value in zip(ids, values[1:], strict=True):
             # kept the moment it is taken (a crash loses nothing), as the settled reading of
             # the step it is for; the flag is taken back if that step never uses it
@@ -909,9 +921,11 @@ class Engine:
         nplc: float,
         *,
         settled: bool = False,
+        at: float | None = None,
     ) -> Reading:
-        """Store one raw reading at once, with the range it was taken on and its uncertainty."""
-        reading = self._reading(function, role, value, range_, nplc, time.time())
+        """Store one raw reading at once, with the range it was taken on and its uncertainty;
+        ``at``: when it came in (``time.time()``; now where not given)."""
+        reading = self._reading(function, role, value, range_, nplc, at or time.time())
         self.store.add_reading(self._run_id, self._step_id, **_row_fields(reading, settled))
         self._step_readings += 1
         return reading

@@ -1,6 +1,6 @@
 """The next relay change sent as soon as it is known: the contacts move while the engine computes,
-judges and files the step before (``Engine._move_ahead``), and the safe state's two links waited
-on at once (``make_safe``).
+judges and files the step before (``Engine._move_ahead``); never across a step while the supply
+is on, never after a stop, and with the supply on the safe state proves it off first.
 
 The contract the engine relies on (``StepKind.routes_in_order``) is checked kind by kind against
 what each kind's run really asks of the bench; the order of work is checked on the virtual bench
@@ -10,24 +10,26 @@ through the real drivers, with the relay box's calls and the engine's events log
 from __future__ import annotations
 
 import itertools
-import math
 import time
 from collections.abc import Iterable
 from dataclasses import dataclass
 from pathlib import Path
 
 import pytest
-from bench_helpers import SEQUENCES, shipped_bench, shipped_plan
+from bench_helpers import SEQUENCES, shipped_bench
 from offline_station import offline_demo_station
 
 from drivers.base import InstrumentIdentity, MeterFunction, RelayBox
+from drivers.relay_frames import WatchdogMode
+from drivers.relay_serial import SerialRelayBox
 from rig.bench_open import close_bench, open_bench
 from rig.config.fixture import FixtureMap
 from rig.engine import Bench, Engine, RunSummary, make_safe
-from rig.events import Event, StepFinished, StepStarted
+from rig.events import Event, RunStarted, StepFinished, StepStarted
 from rig.plan import Plan
 from rig.routing import Route, plan_relays
 from rig.runner import load_plan
+from rig.sim.fault_drill import DRILL_SEQUENCE
 from rig.sim.timing import Timing
 from rig.steps import KINDS, Reading, SupplyRequest
 from rig.store import ResultStore
@@ -167,14 +169,30 @@ class LoggedRun:
     """Contact operations the box counted during the run."""
 
 
-def logged_run(tmp_path: Path, *, stop_at: str = "") -> LoggedRun:
-    """The shipped harness check on the virtual bench, the relay box's changes and the engine's
-    step events written into one log as the engine thread makes them; ``stop_at``: the
-    operator's stop comes as that step starts."""
-    with shipped_bench("temp-circuit", folder=tmp_path) as (bench, station):
-        plan = shipped_plan("temp-circuit-check", station)
-        opened = open_bench(station)
+def logged_run(
+    tmp_path: Path,
+    *,
+    unit: str = "temp-circuit",
+    sequence: Path = SEQUENCES / "temp-circuit-check.toml",
+    stop_when_read: bool = False,
+) -> LoggedRun:
+    """A sequence on the virtual bench, the relay box's changes and the engine's step events
+    written into one log as the engine thread makes them.  ``stop_when_read``: the operator's
+    stop comes while the run's first reading integrates, so it is there when the reading is."""
+    with shipped_bench(unit, folder=tmp_path) as (bench, station):
+        plan = load_plan(sequence, station)
         log: list[tuple[str, object]] = []
+        if stop_when_read:
+            handle = bench.dmm.handle
+
+            def stop_on_reading(line: str) -> str | None:
+                if "READ?" in line.upper() and not engine.stop.is_set():
+                    engine.stop.set()
+                    log.append(("stop", None))
+                return handle(line)
+
+            bench.dmm.handle = stop_on_reading  # type: ignore[method-assign]
+        opened = open_bench(station)
         instruments = Bench(opened.dmm, opened.supply, LoggedRelays(opened.relays, log))
         store = ResultStore(tmp_path / "r.sqlite")
         try:
@@ -184,9 +202,6 @@ def logged_run(tmp_path: Path, *, stop_at: str = "") -> LoggedRun:
             def emitted(event: Event) -> None:  # in the engine's thread, in order
                 if isinstance(event, StepStarted):
                     log.append(("StepStarted", event.step_id))
-                    if event.step_id == stop_at:
-                        engine.stop.set()
-                        log.append(("stop", None))
                 elif isinstance(event, StepFinished):
                     log.append(("StepFinished", event.result.step_id))
                 deliver(event)
@@ -199,6 +214,7 @@ def logged_run(tmp_path: Path, *, stop_at: str = "") -> LoggedRun:
             close_bench(opened)
             store.close()
         assert bench.relay_box.closed() == frozenset()  # left safe, however it ended
+        assert not bench.supply_settings.output_on
     return LoggedRun(summary, plan, log, operations)
 
 
@@ -262,9 +278,104 @@ def test_the_supply_is_proven_off_before_the_relays_open(tmp_path: Path) -> None
 
 
 def test_nothing_moves_ahead_once_a_stop_is_asked(tmp_path: Path) -> None:
-    second = "signal-at-controller"  # the harness check's second step
-    run = logged_run(tmp_path, stop_at=second)
+    # The stop comes while the first route's reading integrates: the reading still comes in
+    # (it is kept), but the next route is not sent, and the run ends aborted and safe.
+    run = logged_run(tmp_path, stop_when_read=True)
     assert run.summary.status == "aborted"
-    assert not math.isnan(run.summary.results[0].value)  # the first step was filed whole
     after_stop = run.log[run.log.index(("stop", None)) :]
     assert not [entry for entry in after_stop if entry[0] == "send"]  # only the safe state
+
+
+def test_nothing_moves_ahead_across_steps_while_the_supply_is_on(tmp_path: Path) -> None:
+    # Five powered steps (the fault drills' sequence, each on its own route): a step's supply is
+    # checked once its reading is in, so the next step's route waits for that step to start, and
+    # a trip the next route causes is that step's own.  At the end, with the supply on, the safe
+    # state proves it off before any relay opens (no opening ahead).
+    path = tmp_path / "powered.toml"
+    path.write_text(DRILL_SEQUENCE, encoding="utf-8")
+    run = logged_run(tmp_path, unit="pressure-circuit", sequence=path)
+    assert run.summary.status == "complete"
+    log = run.log
+    for planned in run.plan.steps:
+        assert log.index(("send", planned.relay_sets[0])) > log.index(
+            ("StepStarted", planned.spec.id)
+        )
+    assert ("send", frozenset()) not in log and ("open_all", frozenset()) in log
+
+
+class _Powered:
+    """Step texts for every kind that runs its routes in order, with the supply on where the
+    kind can have it (values invented for the test)."""
+
+    SUPPLY = 'supply = { pos = "P_5V", neg = "P_GND", voltage = "5 V", limit = "50 mA" }\n'
+    STEPS = (
+        '[[steps]]\nid = "pt"\nkind = "reference-temperature"\nforce_hi = "PT_FH"\n'
+        'sense_hi = "PT_SH"\nforce_lo = "PT_FL"\nsense_lo = "PT_SL"\nlow = "10 degC"\n'
+        'high = "40 degC"\n'
+        '[[steps]]\nid = "v"\nkind = "volts"\nhi = "P_SIG"\nlo = "P_GND"\nlow = "0 V"\n'
+        'high = "5 V"\n' + SUPPLY + '[[steps]]\nid = "r2"\nkind = "resistance"\nhi = "S_SIG"\n'
+        'lo = "C_SIG"\nhigh = "1 ohm"\n'
+        '[[steps]]\nid = "r4"\nkind = "resistance"\nhi = "T1"\nlo = "T2"\nwires = 4\n'
+        'high = "10 kohm"\n'
+        '[[steps]]\nid = "drop"\nkind = "wire-drop"\nfrom = "P_SIG"\nto = "C_PSIG"\n'
+        'reference = "CHASSIS"\nmax = "0.01 V"\n' + SUPPLY + '[[steps]]\nid = "gnd"\n'
+        'kind = "ground-drop"\npin = "P_GND"\nmax = "0.02 V"\n' + SUPPLY + "[[steps]]\n"
+        'id = "ntc-v"\nkind = "ntc"\nmeasure = "voltage"\nhi = "S_SIG"\nlo = "S_GND"\n'
+        'r25 = "2 kohm"\nbeta = "3450 K"\ntemperature_from = "pt"\ntolerance = "5 %"\n'
+        'pullup = "2.49 kohm"\nreference = "5 V"\n' + SUPPLY + '[[steps]]\nid = "ntc-r"\n'
+        'kind = "ntc"\nhi = "T1"\nlo = "T2"\nr25 = "2 kohm"\nbeta = "3450 K"\n'
+        'temperature_from = "pt"\ntolerance = "5 %"\n'
+        '[[steps]]\nid = "map"\nkind = "ratiometric"\noutput = "P_SIG"\npower = "P_5V"\n'
+        'ground = "P_GND"\nrange_low = "20 kPa"\nrange_high = "250 kPa"\ntolerance = "2 %"\n'
+        + SUPPLY
+    )
+
+
+def test_every_kind_and_mode_keeps_its_promise_powered_or_not(tmp_path: Path) -> None:
+    path = tmp_path / "kinds.toml"
+    path.write_text('[sequence]\nname = "kinds"\nreorder = false\n' + _Powered.STEPS)
+    plan = load_plan(path, offline_demo_station("kinds", tmp_path))
+    powered = 0
+    for planned in plan.steps:
+        kind = KINDS[planned.spec.kind]
+        assert kind.routes_in_order, planned.spec.kind
+        context = RecordingContext(plan)
+        kind.run(context, planned.spec)  # type: ignore[arg-type]
+        expected = [("power", planned.spec.supply)]
+        expected += [("measure_on", route) for route in kind.routes(planned.spec)]
+        assert [c for c in context.calls if c[0] != "measure"] == expected, planned.spec.id
+        powered += planned.spec.supply is not None
+    assert powered == 5
+
+
+def test_ctrl_c_as_the_run_starts_still_ends_it_safe_and_recorded(tmp_path: Path) -> None:
+    # The safe start arms the watchdog and sends the first route ahead before the run's first
+    # event; Ctrl-C while that event is shown (the CLI printing it) must still end the run safe,
+    # the watchdog off, and recorded as interrupted.
+    with shipped_bench("temp-circuit", folder=tmp_path) as (_, station):
+        plan = load_plan(SEQUENCES / "temp-circuit-check.toml", station)
+        instruments = open_bench(station)
+        store = ResultStore(tmp_path / "r.sqlite")
+        started: list[int] = []
+        try:
+            engine = Engine(plan, instruments, store)
+            deliver = engine.listener
+
+            def interrupted(event: Event) -> None:
+                deliver(event)
+                if isinstance(event, RunStarted):
+                    started.append(event.run_id)
+                    raise KeyboardInterrupt
+
+            engine.listener = interrupted
+            with pytest.raises(KeyboardInterrupt):
+                engine.run("CTRL-C-1")
+            relays = instruments.relays
+            assert isinstance(relays, SerialRelayBox)
+            assert relays.closed_relays() == frozenset()
+            assert relays.watchdog_state().watchdog is WatchdogMode.OFF
+            run = store.run(started[0])
+        finally:
+            close_bench(instruments)
+            store.close()
+    assert run["status"] == "aborted" and "interrupted" in str(run["reason"])

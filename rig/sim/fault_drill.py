@@ -4,7 +4,9 @@ Each drill starts a virtual bench, writes its station file, and runs a short pow
 through the real drivers.  The moment the chosen step's relays have closed, the fault is armed on
 the bench's side through the control channel's own command handler (``instrument NAME KIND N``),
 so the point does not depend on how fast the controller runs (a fault of the meter's setup is
-armed one step ahead: see ``ARMED_A_STEP_AHEAD``).  After the run the
+armed one step ahead: see ``ARMED_A_STEP_AHEAD``).  The drill's steps are powered, and the engine
+sends a step's relays ahead of it only with the supply off, so each step's relays close once that
+step has begun.  After the run the
 bench's own side is watched until every relay is open and the supply is off; the drill records the
 run's outcome, its reason, whether one retry cured the fault, and how long the bench took to be
 safe.  Used by the reliability tests and ``tests/benchmarks/reliability.py``.

@@ -26,6 +26,7 @@ class BenchClock:
         self.timing = timing
         self._lock = threading.Lock()
         self._spent_s = 0.0
+        self._charged_s = 0.0
 
     def mark(self) -> float:
         """A start time for ``wait(..., since=mark)``."""
@@ -35,6 +36,8 @@ class BenchClock:
         """Spend ``seconds`` of instrument time (nothing in instant timing).  With ``since`` (a
         ``mark()``), the time already gone since then counts: the simulator's own computing
         overlaps the instrument time instead of adding to it."""
+        with self._lock:
+            self._charged_s += max(0.0, seconds)
         if self.timing is not Timing.REAL:
             return
         start = time.perf_counter() if since is None else since
@@ -50,6 +53,14 @@ class BenchClock:
         controller's own time apart: wall time minus this."""
         with self._lock:
             return self._spent_s
+
+    @property
+    def charged_s(self) -> float:
+        """Instrument time the simulated instruments have charged so far, by their own figures
+        (relay times, integrations, autorange), however late the host woke them: what the
+        physical limit must account for, whatever the timing."""
+        with self._lock:
+            return self._charged_s
 
     def now(self) -> float:
         """Monotonic seconds; settling after a relay change is computed against this."""

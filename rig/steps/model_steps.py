@@ -281,6 +281,12 @@ class RatiometricCheck(StepKind):
             Route.dmm(p["power"], p["ground"]) + extra,
         ]
 
+    def autoranged_readings(self, spec: StepSpec, held: float | None) -> int:
+        """The supply reading autoranges (nothing in the file bounds the sensor's supply), also
+        where a range is held for the output; with none held both do, onto what is as a rule
+        one range: one autorange either way."""
+        return 1
+
     def run(self, ctx: StepContext, spec: StepSpec) -> Outcome:
         model: Ratiometric = spec.params["model"]
         ctx.power(spec.supply)
