@@ -20,8 +20,15 @@ from rig.console.words import (
     quantity_cells,
     run_verdict,
 )
-from rig.console.worker import GuardedRelays, GuardedSupply, Inbox, PromptGate, StopSwitch
-from rig.engine import StopRequested
+from rig.console.worker import (
+    GuardedRelays,
+    GuardedSupply,
+    Inbox,
+    PromptGate,
+    SafeStateMade,
+    StopSwitch,
+)
+from rig.engine import Bench, StopRequested
 from rig.events import StepResult
 from rig.judge.decision import DecisionRule, Limits, Verdict
 
@@ -211,5 +218,62 @@ def test_after_a_stop_the_real_relay_box_and_supply_refuse_to_close_or_switch_on
             relays.apply(set())  # opening is always allowed
             supply.set_output(False)
             assert bench.state()["closed_relays"] == [] and bench.state()["outputs_on"] == []
+        finally:
+            close_bench(real)
+
+
+class _HeldRelays:
+    """The real relay box driver, with a closing held just after the guard let it through: the
+    moment a stop can come between the guard's check and the command reaching the box."""
+
+    def __init__(self, real: object) -> None:
+        self._real = real
+        self.reached = threading.Event()
+        self.go = threading.Event()
+
+    def apply(self, closed: object) -> None:
+        self.reached.set()
+        assert self.go.wait(5)
+        self._real.apply(closed)  # type: ignore[attr-defined]
+
+    def __getattr__(self, name: str) -> object:
+        return getattr(self._real, name)
+
+
+def _safe_state_made(inbox: Inbox, within_s: float) -> bool:
+    waited = threading.Event()
+    for _ in range(int(within_s / 0.01)):
+        if any(isinstance(item, SafeStateMade) for item in inbox.take(100)):
+            return True
+        waited.wait(0.01)
+    return False
+
+
+def test_a_closing_let_through_just_before_a_stop_is_undone_by_the_stop(tmp_path: Path) -> None:
+    # Safety property of the stop switch (common practice, no published source): once the stop's
+    # make-safe has finished, no relay is closed, even when a closing passed the guard's check
+    # just before the stop and reached the box after it.
+    with shipped_bench("pressure-circuit", folder=tmp_path) as (bench, station):
+        real = open_bench(station)
+        try:
+            inbox = Inbox()
+            stop = StopSwitch(inbox)
+            held = _HeldRelays(real.relays)
+            guarded = Bench(
+                real.dmm,
+                GuardedSupply(real.supply, stop.event),
+                GuardedRelays(held, stop.event),  # type: ignore[arg-type]
+            )
+            stop.attach(guarded)
+            closing = threading.Thread(target=guarded.relays.apply, args=({1, 2},))
+            closing.start()
+            assert held.reached.wait(5)  # past the guard's check, not yet at the box
+            stop.throw()
+            made_early = _safe_state_made(inbox, within_s=0.3)
+            held.go.set()
+            closing.join(5)
+            assert made_early or _safe_state_made(inbox, within_s=5)
+            assert not made_early, "the stop's make-safe finished before an allowed closing"
+            assert bench.state()["closed_relays"] == []
         finally:
             close_bench(real)

@@ -4,7 +4,9 @@ The engine blocks on instruments for as long as a reading takes, so it runs in a
 Everything it reports goes into an ``Inbox`` that the UI empties in bounded batches on a timer;
 the UI never waits for the engine and the engine never touches a widget.  ``StopSwitch`` makes the
 bench safe at once from its own thread (the drivers lock each command) and keeps it safe: once it
-is thrown, the engine may not close a relay or switch the supply on again.
+is thrown, the engine may not close a relay or switch the supply on again.  Each guard checks
+the switch and sends under one lock that the switch's own make-safe takes too, so a closing that
+passed the check before the stop lands before the opening, never after it.
 """
 
 from __future__ import annotations
@@ -94,6 +96,15 @@ class _PassThrough:
         self.name = inner.name
         self.resource = inner.resource
         self._stop = stop
+        # held from the stop check to the end of the command it allows, and by every command
+        # that makes safe, so a stop's make-safe always comes after a command that passed
+        self._gate = threading.Lock()
+
+    def _unless_stopped(self, wanted: bool) -> None:
+        """Refuse what ``wanted`` (a closing, a switch-on) once the stop is thrown; call with
+        ``_gate`` held."""
+        if wanted and self._stop.is_set():
+            raise StopRequested("stopped by the operator")
 
     def identity(self) -> InstrumentIdentity:
         return self.inner.identity()
@@ -169,22 +180,23 @@ class GuardedRelays(_PassThrough, RelayBox):
         self._wrap(inner, stop)
 
     def open_all(self) -> None:
-        self.inner.open_all()
+        with self._gate:
+            self.inner.open_all()
 
     def apply(self, closed: Iterable[int]) -> None:
-        self.inner.apply(self._allowed(closed))
+        wanted = frozenset(closed)
+        with self._gate:
+            self._unless_stopped(bool(wanted))
+            self.inner.apply(wanted)
 
     def send_change(self, closed: Iterable[int]) -> None:
-        self.inner.send_change(self._allowed(closed))
+        wanted = frozenset(closed)
+        with self._gate:
+            self._unless_stopped(bool(wanted))
+            self.inner.send_change(wanted)
 
     def finish_change(self) -> None:
         self.inner.finish_change()
-
-    def _allowed(self, closed: Iterable[int]) -> frozenset[int]:
-        wanted = frozenset(closed)
-        if wanted and self._stop.is_set():
-            raise StopRequested("stopped by the operator")
-        return wanted
 
     def closed_relays(self) -> frozenset[int]:
         return self.inner.closed_relays()
@@ -214,12 +226,13 @@ class GuardedSupply(_PassThrough, Supply):
         self.inner.set_current_limit(amps)
 
     def set_output(self, on: bool) -> None:
-        if on and self._stop.is_set():
-            raise StopRequested("stopped by the operator")
-        self.inner.set_output(on)
+        with self._gate:
+            self._unless_stopped(on)
+            self.inner.set_output(on)
 
     def send_output_off(self) -> None:
-        self.inner.send_output_off()
+        with self._gate:
+            self.inner.send_output_off()
 
     def output_is_on(self) -> bool:
         return self.inner.output_is_on()
@@ -232,7 +245,10 @@ class GuardedSupply(_PassThrough, Supply):
 
 
 class StopSwitch:
-    """The operator's stop: tells the engine, and opens relays and supply now, not later."""
+    """The operator's stop: tells the engine, and opens relays and supply now, not later.
+
+    Attach the guarded bench, not the instruments behind it: its make-safe then waits for a
+    command the guards let through just before the stop, and undoes it."""
 
     def __init__(self, inbox: Inbox) -> None:
         self.event = threading.Event()
@@ -374,7 +390,7 @@ def _run(
         GuardedSupply(real.supply, stop.event),
         GuardedRelays(real.relays, stop.event),
     )
-    stop.attach(real)
+    stop.attach(bench)  # through the guards: its make-safe follows a closing already allowed
     try:
         engine = Engine(
             request.plan, bench, store, listener=listener, ask=gate.ask, stop=stop.event
