@@ -178,7 +178,7 @@ def cmd_demo(args: argparse.Namespace, out: Output) -> int:
     out.line(f"{len(runs)} runs stored in {store_path}")
     out.line(
         f"station files (one per unit, all naming that store): {store_path.parent}/station-*.toml;"
-        " try: rig report RUN_ID --station FILE, rig stats --station FILE,"
+        " try: rig report RUN --station FILE, rig stats --station FILE,"
         " rig diagnose RUN_ID --station FILE --unit UNIT_FILE"
     )
     return 0

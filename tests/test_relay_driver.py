@@ -211,6 +211,21 @@ def test_commands_while_heartbeat_runs_do_not_interleave(
     assert not sim.watchdog_tripped
 
 
+def test_no_beat_follows_the_watchdog_switched_off(sim: SimRelayBox, box: SerialRelayBox) -> None:
+    # Once stop_watchdog has returned the heartbeat's thread is gone and the box hears nothing
+    # more from it (docs/relay-box-protocol.md, host side).
+    box.start_watchdog(0.03)  # a beat every 10 ms
+    assert wait_for(lambda: sim.lines_handled >= 4)  # WHO, state, WDARM, and beats
+    box.stop_watchdog()
+    handled = sim.lines_handled
+    assert wait_for(
+        lambda: not any(t.name.startswith("relay-box heartbeat") for t in threading.enumerate())
+    )
+    time.sleep(0.05)  # five beat periods
+    assert sim.lines_handled == handled
+    assert box.watchdog_state().watchdog is WatchdogMode.OFF
+
+
 def test_watchdog_out_of_range_is_refused_by_the_box(box: SerialRelayBox) -> None:
     with pytest.raises(InstrumentReportedError) as caught:
         box.start_watchdog(0.001)

@@ -50,7 +50,7 @@ def stored(store_path: Path, run_id: int) -> tuple[dict[str, Any], list[Any], li
 
 
 def printed(capsys: pytest.CaptureFixture[str], run_id: int, *args: str) -> str:
-    """What ``rig report RUN_ID ARGS --out -`` prints."""
+    """What ``rig report RUN ARGS --out -`` prints."""
     assert main(["report", str(run_id), *args, "--out", "-"]) == 0
     return capsys.readouterr().out
 
@@ -167,7 +167,7 @@ def test_bad_run_id_and_places_are_reported_without_traceback(
 ) -> None:
     _, store_path, _ = recorded
     assert main(["report", "999", "--store", str(store_path)]) == 2
-    assert "RUN_ID 999: no run 999" in capsys.readouterr().err
+    assert "RUN 999: no run 999" in capsys.readouterr().err
     assert main(["report", "1", "--store", str(store_path.parent / "missing.sqlite")]) == 2
     assert "no such results store file" in capsys.readouterr().err
     assert (
@@ -178,4 +178,4 @@ def test_bad_run_id_and_places_are_reported_without_traceback(
     with pytest.raises(SystemExit) as stop:
         main(["report", "first", "--store", str(store_path)])
     assert stop.value.code == 2
-    assert "RUN_ID: invalid int value: 'first'" in capsys.readouterr().err
+    assert "RUN: expected a run id (a whole number" in capsys.readouterr().err

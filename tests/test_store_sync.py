@@ -4,6 +4,7 @@ a link cut in the middle of a send.  Every check reads the server directly, not 
 
 from __future__ import annotations
 
+import json
 import shutil
 import subprocess
 import sys
@@ -94,6 +95,20 @@ def clean_env(tmp_path: Path) -> dict[str, str]:
     return env
 
 
+def password_file_env(
+    tmp_path: Path, cluster: Cluster
+) -> tuple[dict[str, str], pytest.MonkeyPatch]:
+    """The environment of a `rig` process that finds the server's password in a password file,
+    and the same set in this process (``undo`` the patch when done)."""
+    env = clean_env(tmp_path)
+    env["PGPASSFILE"] = str(passfile(tmp_path, cluster))
+    patch = pytest.MonkeyPatch()
+    patch.setenv("PGPASSFILE", env["PGPASSFILE"])
+    for name in ("PGPASSWORD", "RIG_DATABASE_URL"):
+        patch.delenv(name, raising=False)
+    return env, patch
+
+
 @pytest.mark.slow
 @pytest.mark.timeout(400)
 def test_four_stations_at_once_land_every_run_once(
@@ -153,12 +168,7 @@ def test_server_stopped_mid_run_buffers_and_sends_once_on_return(
     reports: list[SyncReport] = []
     with shipped_bench("temp-circuit", folder=tmp_path) as (_, bench_station):
         path = with_server_section(bench_station, pg_cluster, dbname)
-        env = clean_env(tmp_path)
-        env["PGPASSFILE"] = str(passfile(tmp_path, pg_cluster))
-        mp = pytest.MonkeyPatch()
-        mp.setenv("PGPASSFILE", env["PGPASSFILE"])
-        for name in ("PGPASSWORD", "RIG_DATABASE_URL"):
-            mp.delenv(name, raising=False)
+        env, mp = password_file_env(tmp_path, pg_cluster)
         station = load_station(path)
         plan = shipped_plan("temp-circuit-check", station)
         stopped: list[bool] = []
@@ -270,3 +280,54 @@ def test_a_link_cut_in_the_middle_of_a_send_loses_and_doubles_nothing(
         committed_unheard += len(after_cut) > first.sent
         assert after_resend == expected, cut  # then all of it, each once
     assert committed_unheard >= 2  # the case that matters: the server had it, the station not
+
+
+def test_a_report_by_station_finds_the_run_that_station_printed(
+    tmp_path: Path,
+    pg_cluster: Cluster,
+    pg_database: str,
+) -> None:
+    # Ids are each database's own (docs/postgresql.md): two stations on one server give the same
+    # run different ids there, and `rig report N --station` must still mean the station's run N.
+    dbname = str(psycopg.conninfo.conninfo_to_dict(pg_database)["dbname"])
+    env, mp = password_file_env(tmp_path, pg_cluster)
+    try:
+        with (
+            shipped_bench("temp-circuit", folder=tmp_path / "a") as (_, a),
+            shipped_bench("temp-circuit", folder=tmp_path / "b") as (_, b),
+        ):
+            station_a = load_station(with_server_section(a, pg_cluster, dbname))
+            station_b = load_station(with_server_section(b, pg_cluster, dbname))
+            for serial in ("A-1", "A-2"):
+                run_plan(shipped_plan("temp-circuit-check", station_a), serial)
+            plan_b = shipped_plan("temp-circuit-check", station_b)
+            b1 = run_plan(plan_b, "B-1")  # run 1 at station b, run 3 on the server
+            own = ResultStore(station_b.store_path)
+            try:  # recorded, not yet sent (as when the link is down)
+                b2 = run_plan(plan_b, "B-2", store=own)
+                b1_record_id = str(own.run(b1.run_id)["run_uid"])
+            finally:
+                own.close()
+    finally:
+        mp.undo()
+    assert (b1.run_id, b2.run_id) == (1, 2)
+
+    def report(run: str, station: Path) -> subprocess.CompletedProcess[str]:
+        args = ["report", run, "--station", str(station), "--format", "json", "--out", "-"]
+        return rig_cli(args, env)
+
+    def serial_in(done: subprocess.CompletedProcess[str]) -> str:
+        assert done.returncode == 0, done.stderr
+        return str(json.loads(done.stdout)["run"]["serial"])
+
+    assert serial_in(report("1", station_b.path)) == "B-1"  # server id 1 is A-1
+    assert serial_in(report("2", station_a.path)) == "A-2"
+    assert serial_in(report(b1_record_id, station_a.path)) == "B-1"  # a record id, any station
+    waiting = report("2", station_b.path)
+    assert serial_in(waiting) == "B-2"
+    assert "has not reached the results server yet" in waiting.stderr
+    missing = report("9", station_b.path)
+    assert missing.returncode == 2 and "no run 9 in" in missing.stderr
+    assert "Traceback" not in missing.stderr
+    malformed = report("run-1", station_b.path)
+    assert malformed.returncode == 2 and "expected a run id" in malformed.stderr

@@ -1,4 +1,4 @@
-"""``rig report RUN_ID``: one run's record as HTML (plots inline), CSV or JSON."""
+"""``rig report RUN``: one run's record as HTML (plots inline), CSV or JSON."""
 
 from __future__ import annotations
 
@@ -7,6 +7,7 @@ import re
 from pathlib import Path
 
 from rig.cli_output import Output
+from rig.commands._run_ref import find_run, run_ref
 from rig.commands._store_args import ArgumentProblem, add_store_args, checked_output, open_from_args
 
 EXIT_WRITTEN, EXIT_BAD_INPUT = 0, 2
@@ -14,7 +15,13 @@ EXIT_WRITTEN, EXIT_BAD_INPUT = 0, 2
 
 def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     report = sub.add_parser("report", help="one run's record as HTML, CSV or JSON")
-    report.add_argument("run_id", type=int, metavar="RUN_ID")
+    report.add_argument(
+        "run",
+        type=run_ref,
+        metavar="RUN",
+        help="the run id rig run printed (the station's own, also where the record is read from "
+        "the results server), or the run's record id (32 hex digits)",
+    )
     report.add_argument("--format", choices=("html", "csv", "json"), default="html")
     report.add_argument(
         "--out", type=Path, help="file to write ('-' for the terminal); default: the data folder"
@@ -43,16 +50,24 @@ def cmd_report(args: argparse.Namespace, out: Output) -> int:
         return EXIT_BAD_INPUT
     try:
         try:
-            run = opened.store.run(args.run_id)
+            found = find_run(opened, args.run)
         except StoreError as exc:
-            out.error(f"rig: RUN_ID {args.run_id}: {exc}")
+            out.error(f"rig: RUN {args.run}: {exc}")
             return EXIT_BAD_INPUT
-        diagnosis = diagnose_stored_run(
-            opened.store, run, station=opened.station, unit_path=args.unit
-        )
-        record = run_record(opened.store, args.run_id, diagnosis)
+        try:
+            run = found.store.run(found.run_id)
+            diagnosis = diagnose_stored_run(
+                found.store, run, station=opened.station, unit_path=args.unit
+            )
+            record = run_record(found.store, found.run_id, diagnosis)
+        finally:
+            if found.store is not opened.store:
+                found.store.close()
     finally:
         opened.store.close()
+    if found.note:
+        out.error(f"note: {found.note}")
+    label = args.run.number if args.run.number is not None else found.run_id
     render = {"html": render_run, "csv": record_csv, "json": record_json}[args.format]
     text = render(record)
     if args.out is not None and str(args.out) == "-":
@@ -61,7 +76,7 @@ def cmd_report(args: argparse.Namespace, out: Output) -> int:
     try:
         target = checked_output(
             args.out
-            or opened.data_dir / "reports" / default_name(args.run_id, run["serial"], args.format)
+            or opened.data_dir / "reports" / default_name(label, run["serial"], args.format)
         )
         target.parent.mkdir(parents=True, exist_ok=True)
         target.write_text(text, encoding="utf-8")
@@ -71,5 +86,5 @@ def cmd_report(args: argparse.Namespace, out: Output) -> int:
     except OSError as exc:
         out.error(f"rig: cannot write the report: {exc}")
         return EXIT_BAD_INPUT
-    out.line(f"report of run {args.run_id} ({run['serial']}) written to {target}")
+    out.line(f"report of run {label} ({run['serial']}) written to {target}")
     return EXIT_WRITTEN
