@@ -16,15 +16,13 @@ from dataclasses import dataclass
 from types import MappingProxyType
 from typing import ClassVar
 
-from drivers.base import Dmm, InstrumentIdentity, MeterFunction
+from drivers.base import Dmm, MeterFunction
+from drivers.scpi_driver import ScpiDriver
 from drivers.visa_session import (
-    VisaSession,
     compound,
     format_number,
-    merge_dialect,
     parse_number,
     parse_numbers,
-    raise_queued_errors,
 )
 from rig.errors import InstrumentError, InstrumentProtocolError, RigError
 
@@ -47,17 +45,7 @@ class DmmConfiguration:
     nplc: float
 
 
-def parse_identity(reply: str, where: Mapping[str, str]) -> InstrumentIdentity:
-    """The four ``*IDN?`` fields (IEEE 488.2-1992 §10.14)."""
-    fields = [f.strip() for f in reply.split(",")]
-    if len(fields) != 4:
-        raise InstrumentProtocolError(
-            f"expected four comma-separated *IDN? fields, got {reply!r}", **where
-        )
-    return InstrumentIdentity(*fields)
-
-
-class ScpiDmm(Dmm):
+class ScpiDmm(ScpiDriver, Dmm):
     """``drivers.base.Dmm`` over SCPI; constructor ``(name, resource, settings)``."""
 
     #: Command roles -> templates.  Placeholders: {function} (a ``func_*`` entry), {range},
@@ -81,10 +69,7 @@ class ScpiDmm(Dmm):
     )
 
     def __init__(self, name: str, resource: str, settings: Mapping[str, object]) -> None:
-        self.name = name
-        self.resource = resource
-        self._commands = merge_dialect(self.DIALECT, name, settings)
-        self._session = VisaSession(name, resource, settings)
+        super().__init__(name, resource, settings)
         self._configuration: DmmConfiguration | None = None
         self._unconfirmed: tuple[DmmConfiguration, str, int | None] | None = None
         """A configuration sent whose error check is still to come, what was sent, and the
@@ -96,15 +81,6 @@ class ScpiDmm(Dmm):
         """The last configuration set, or None if unknown (after reset or a failed configure)."""
         return self._configuration
 
-    # ----------------------------------------------------------------- Instrument
-
-    def identity(self) -> InstrumentIdentity:
-        command = self._commands["identity"]
-        return parse_identity(self._session.query(command), self._session.where(command))
-
-    def close(self) -> None:
-        self._session.close()
-
     # ----------------------------------------------------------------- Dmm
 
     def reset(self) -> None:
@@ -113,9 +89,6 @@ class ScpiDmm(Dmm):
         self._sample_count = None
         self._session.write(self._commands["reset"])
         self.check_errors(after=self._commands["reset"])
-
-    def check_errors(self, after: str = "") -> None:
-        raise_queued_errors(self._session, self._commands["error"], after)
 
     def configure(self, function: MeterFunction, range_: float | None, nplc: float) -> None:
         self.send_configuration(function, range_, nplc)

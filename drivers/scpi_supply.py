@@ -13,21 +13,18 @@ from collections.abc import Mapping
 from types import MappingProxyType
 from typing import ClassVar
 
-from drivers.base import InstrumentIdentity, Supply
-from drivers.scpi_dmm import parse_identity
+from drivers.base import Supply
+from drivers.scpi_driver import ScpiDriver
 from drivers.visa_session import (
-    VisaSession,
     format_number,
-    merge_dialect,
     parse_number,
-    raise_queued_errors,
 )
 from rig.errors import InstrumentProtocolError, RigError
 
 log = logging.getLogger(__name__)
 
 
-class ScpiSupply(Supply):
+class ScpiSupply(ScpiDriver, Supply):
     """``drivers.base.Supply`` over SCPI; constructor ``(name, resource, settings)``."""
 
     #: Command roles -> templates.  Placeholders: {volts}, {amps}, {state} (``on``/``off`` entry).
@@ -47,29 +44,11 @@ class ScpiSupply(Supply):
         }
     )
 
-    def __init__(self, name: str, resource: str, settings: Mapping[str, object]) -> None:
-        self.name = name
-        self.resource = resource
-        self._commands = merge_dialect(self.DIALECT, name, settings)
-        self._session = VisaSession(name, resource, settings)
-
-    # ----------------------------------------------------------------- Instrument
-
-    def identity(self) -> InstrumentIdentity:
-        command = self._commands["identity"]
-        return parse_identity(self._session.query(command), self._session.where(command))
-
-    def close(self) -> None:
-        self._session.close()
-
     # ----------------------------------------------------------------- Supply
 
     def reset(self) -> None:
         """``*RST`` (output off on SCPI supplies) and ``*CLS``, then check the queue."""
         self._set(self._commands["reset"])
-
-    def check_errors(self, after: str = "") -> None:
-        raise_queued_errors(self._session, self._commands["error"], after)
 
     def set_voltage(self, volts: float) -> None:
         value = self._non_negative("volts", volts)

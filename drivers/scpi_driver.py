@@ -1,0 +1,49 @@
+"""What the SCPI drivers share: the session, the dialect table, the identity and the error queue.
+
+Each driver (``ScpiDmm``, ``ScpiSupply``) is then its own table of commands (``DIALECT``) and
+the few methods that use it.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from typing import ClassVar
+
+from drivers.base import InstrumentIdentity
+from drivers.visa_session import VisaSession, merge_dialect, raise_queued_errors
+from rig.errors import InstrumentProtocolError
+
+
+def parse_identity(reply: str, where: Mapping[str, str]) -> InstrumentIdentity:
+    """The four ``*IDN?`` fields (IEEE 488.2-1992 §10.14)."""
+    fields = [f.strip() for f in reply.split(",")]
+    if len(fields) != 4:
+        raise InstrumentProtocolError(
+            f"expected four comma-separated *IDN? fields, got {reply!r}", **where
+        )
+    return InstrumentIdentity(*fields)
+
+
+class ScpiDriver:
+    """Constructor ``(name, resource, settings)``: the dialect merged from the settings, and one
+    session; a subclass names its command roles in ``DIALECT`` (with ``identity`` and
+    ``error`` among them)."""
+
+    DIALECT: ClassVar[Mapping[str, str]]
+
+    def __init__(self, name: str, resource: str, settings: Mapping[str, object]) -> None:
+        self.name = name
+        self.resource = resource
+        self._commands = merge_dialect(self.DIALECT, name, settings)
+        self._session = VisaSession(name, resource, settings)
+
+    def identity(self) -> InstrumentIdentity:
+        command = self._commands["identity"]
+        return parse_identity(self._session.query(command), self._session.where(command))
+
+    def close(self) -> None:
+        self._session.close()
+
+    def check_errors(self, after: str = "") -> None:
+        """Empty the error queue; ``InstrumentReportedError`` if it held anything."""
+        raise_queued_errors(self._session, self._commands["error"], after)
