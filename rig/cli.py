@@ -325,11 +325,20 @@ def _estimate(plan: Plan, step: PlannedStep) -> tuple[str, str, str]:
 # --- rig run ----------------------------------------------------------------------------------
 
 
+def serial_problem(serial: str) -> str:
+    """Why ``--serial`` cannot name the unit in a record, or empty when it can: a run filed under
+    a blank serial cannot be found again."""
+    return "" if serial.strip() else "--serial: the unit's serial number is blank; give it"
+
+
 def cmd_run(args: argparse.Namespace, out: Output) -> int:
+    from rig.engine import StopRequested
     from rig.runner import load_plan, run_plan
     from rig.stats.study import study_problem
 
-    problem = study_problem(args.study_part, args.study_trial, args.operator)
+    problem = serial_problem(args.serial) or study_problem(
+        args.study_part, args.study_trial, args.operator
+    )
     if problem:
         out.error(f"rig: {problem}")
         return EXIT_BAD_INPUT
@@ -349,7 +358,13 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
         if args.yes:
             out.line(f"  prompt: {text} (confirmed by --yes)")
             return True
-        answer = input(f"  {text} [y/N] ")
+        try:
+            answer = input(f"  {text} [y/N] ")
+        except EOFError:  # input is not a terminal and has ended: nobody is there to answer
+            raise StopRequested(
+                f"the prompt {text!r} got no answer: standard input ended; run rig at a "
+                "terminal, or confirm prompts with --yes"
+            ) from None
         return answer.strip().lower() in ("y", "yes")
 
     out.show_readings = bool(getattr(args, "readings", False))

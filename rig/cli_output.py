@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 import math
+import os
 import sys
 import time
 from collections.abc import Sequence
@@ -24,16 +25,28 @@ class Output:
         self.show_readings = False
         """Print each reading once the store has committed it (``rig run --readings``)."""
         self._total = 0
+        self._gone: set[TextIO] = set()
 
     def line(self, text: str = "") -> None:
         if not self.quiet:
-            print(text, file=self.out, flush=True)
+            self._write(self.out, text)
 
     def error(self, text: str) -> None:
-        print(text, file=self.err, flush=True)
+        self._write(self.err, text)
 
     def json(self, data: Any) -> None:
-        print(json.dumps(data, indent=2, default=str), file=self.out, flush=True)
+        self._write(self.out, json.dumps(data, indent=2, default=str))
+
+    def _write(self, stream: TextIO, text: str) -> None:
+        """One line; once its reader has gone (``rig check ... | head``) the stream is quietly
+        dropped and the command goes on: a run still ends safe and recorded."""
+        if stream in self._gone:
+            return
+        try:
+            print(text, file=stream, flush=True)
+        except BrokenPipeError:
+            self._gone.add(stream)
+            _to_devnull(stream)
 
     def table(self, headers: Sequence[str], rows: Sequence[Sequence[str]]) -> None:
         widths = [len(h) for h in headers]
@@ -104,3 +117,18 @@ def show_limits(limits: Limits | None, unit: str) -> str:
     low = "-inf" if limits.low is None else show(limits.low, unit)
     high = "+inf" if limits.high is None else show(limits.high, unit)
     return f"{low} .. {high}"
+
+
+def _to_devnull(stream: TextIO) -> None:
+    """Point ``stream``'s file descriptor at the null device, so that what is still buffered
+    and the interpreter's flush at exit do not fail again (the Python documentation's recipe,
+    ``signal`` module, "Note on SIGPIPE")."""
+    try:
+        descriptor = stream.fileno()
+    except (OSError, ValueError):  # not a file (a test's buffer): nothing more to do
+        return
+    devnull = os.open(os.devnull, os.O_WRONLY)
+    try:
+        os.dup2(devnull, descriptor)
+    finally:
+        os.close(devnull)

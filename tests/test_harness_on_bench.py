@@ -110,6 +110,8 @@ def test_group_isolation_through_the_real_stack_agrees_with_pair_by_pair(tmp_pat
                     str(wires.path),
                     "--station",
                     str(station),
+                    "--serial",
+                    f"ISO-{method}",
                     "--ambient",
                     "23 degC",
                     "--isolation-method",
@@ -143,7 +145,16 @@ def test_capture_a_good_harness_then_check_others_against_it(tmp_path: Path, cap
     wires, fixture = write_invented(tmp_path / "list", 8, seed=2, splices=1, spare=1)
     captured = tmp_path / "captured.csv"
     with served(harness_bench(wires, fixture, seed=2, ambient_c=20.0), tmp_path / "a") as st:
-        args = ["harness", "capture", "--station", str(st), "--out", str(captured)]
+        args = [
+            "harness",
+            "capture",
+            "--station",
+            str(st),
+            "--out",
+            str(captured),
+            "--serial",
+            "G1",
+        ]
         code = main([*args, "--ambient", "20 degC", "--json"])
         assert code == EXIT_PASS
     report = json.loads(capsys.readouterr().out)
@@ -156,7 +167,7 @@ def test_capture_a_good_harness_then_check_others_against_it(tmp_path: Path, cap
     for faults, expected in (([], EXIT_PASS), ([BuildFault("high", "W2", ohm=0.3)], EXIT_FAIL)):
         bench = harness_bench(wires, fixture, faults, seed=5, ambient_c=30.0)
         with served(bench, tmp_path / f"b{len(faults)}") as st:
-            args = ["harness", "check", str(captured), "--station", str(st)]
+            args = ["harness", "check", str(captured), "--station", str(st), "--serial", "H1"]
             code = main([*args, "--ambient", "30 degC", "--json"])
         out = json.loads(capsys.readouterr().out)
         assert code == expected, out["notes"]
@@ -169,7 +180,8 @@ def test_bad_wire_list_is_reported_by_row_column_and_value(tmp_path: Path, capsy
     bad = tmp_path / "bad.csv"
     bad.write_text(text, encoding="utf-8")
     with served(harness_bench(wires, fixture), tmp_path / "a") as st:
-        code = main(["harness", "check", str(bad), "--station", str(st), "--ambient", "20 degC"])
+        args = ["harness", "check", str(bad), "--station", str(st), "--serial", "H2"]
+        code = main([*args, "--ambient", "20 degC"])
     err = capsys.readouterr().err
     assert code == EXIT_BAD_INPUT
     assert "column to_pin" in err and "B-99 is not a pin" in err

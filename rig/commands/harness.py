@@ -51,7 +51,7 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
 
 def _common(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--station", type=Path, required=True)
-    parser.add_argument("--serial", default="harness")
+    parser.add_argument("--serial", required=True, help="the harness's serial number")
     parser.add_argument("--operator", default="")
     parser.add_argument("--ambient", required=True, help="ambient temperature, e.g. '23 degC'")
     parser.add_argument("--json", action="store_true")
@@ -65,13 +65,17 @@ def _sequence_text(keys: dict[str, object]) -> str:
 
 
 def _run(args: argparse.Namespace, out: Output, keys: dict[str, object], what: str) -> int:
-    from rig.cli import CAUTION, _exit_code
+    from rig.cli import CAUTION, EXIT_BAD_INPUT, _exit_code, serial_problem
     from rig.config.reader import TomlDoc
     from rig.config.sequence import parse_sequence
     from rig.config.station import load_station
     from rig.plan import build_plan
     from rig.runner import run_plan
 
+    problem = serial_problem(args.serial)
+    if problem:
+        out.error(f"rig: {problem}")
+        return EXIT_BAD_INPUT
     station = load_station(args.station)
     keys = {**keys, "temperature": args.ambient}
     doc = TomlDoc(Path(f"rig harness {what} (command line)"), _sequence_text(keys))

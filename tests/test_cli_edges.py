@@ -1,0 +1,71 @@
+"""The command line where the user's surroundings are unusual: no terminal to answer a prompt,
+a reader that stops reading, a blank serial number.  Each ends in a sentence and an exit code,
+never a traceback, and a run that had started still ends safe and recorded."""
+
+from __future__ import annotations
+
+import io
+import sqlite3
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+from bench_helpers import SEQUENCES, shipped_bench
+
+from rig.cli import EXIT_ABORTED, EXIT_BAD_INPUT, main
+
+SENSOR_SCREEN = SEQUENCES / "ntc-sender-screen.toml"  # begins with an operator prompt
+
+
+def test_a_prompt_with_no_one_to_answer_ends_the_run_aborted_and_recorded(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str], monkeypatch: pytest.MonkeyPatch
+) -> None:
+    monkeypatch.setattr(sys, "stdin", io.StringIO(""))  # a script's input that has ended
+    with shipped_bench("ntc-sender", folder=tmp_path) as (bench, station):
+        code = main(["run", str(SENSOR_SCREEN), "--station", str(station.path), "--serial", "N1"])
+        assert bench.relay_box.closed() == frozenset()
+        assert bench.state()["outputs_on"] == []
+    captured = capsys.readouterr()
+    assert code == EXIT_ABORTED
+    assert "Traceback" not in captured.err
+    assert "got no answer: standard input ended" in captured.out
+    assert "--yes" in captured.out
+    with sqlite3.connect(station.store_path) as db:
+        status, reason = db.execute("SELECT status, reason FROM runs").fetchone()
+    assert status == "aborted" and "got no answer" in reason
+
+
+@pytest.mark.parametrize("serial", ["", "   "])
+def test_a_blank_serial_is_refused_before_anything_moves(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str], serial: str
+) -> None:
+    with shipped_bench("ntc-sender", folder=tmp_path) as (bench, station):
+        run = ["run", str(SENSOR_SCREEN), "--station", str(station.path), "--serial", serial]
+        assert main([*run, "--yes"]) == EXIT_BAD_INPUT
+        assert sum(bench.relay_box.operation_counts().values()) == 0
+    assert "--serial: the unit's serial number is blank" in capsys.readouterr().err
+    assert not station.store_path.exists() or _runs(station.store_path) == 0
+
+
+def _runs(store: Path) -> int:
+    with sqlite3.connect(store) as db:
+        return int(db.execute("SELECT COUNT(*) FROM runs").fetchone()[0])
+
+
+def test_a_reader_that_stops_reading_gets_no_traceback(tmp_path: Path) -> None:
+    # `rig check ... | head -1`: the reader's end is closed before rig writes (EPIPE); rig stops
+    # writing and exits as usual (Python documentation, signal module, "Note on SIGPIPE").
+    with shipped_bench("ntc-sender", folder=tmp_path) as (_, station):
+        check = [sys.executable, "-m", "rig.cli", "check", str(SENSOR_SCREEN)]
+        proc = subprocess.Popen(
+            [*check, "--station", str(station.path)],
+            stdout=subprocess.PIPE,
+            stderr=subprocess.PIPE,
+        )
+        assert proc.stdout is not None and proc.stderr is not None
+        proc.stdout.close()  # gone before rig's first line
+        err = proc.stderr.read().decode()
+        code = proc.wait(timeout=60)
+    assert "Traceback" not in err and "BrokenPipeError" not in err, err
+    assert code == 0, err
