@@ -19,6 +19,7 @@ from rig.errors import ConfigError, RigError
 from rig.judge.decision import Verdict
 
 if TYPE_CHECKING:
+    from rig.engine import RunSummary
     from rig.plan import Plan, PlannedStep
     from rig.store_sync import SyncReport
 
@@ -211,6 +212,7 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
             ]
         )
     out.table(["step", "kind", "pins", "relays", "interlocks", "range", "U (k=2)", "TUR"], rows)
+    _show_supply(plan, out)
     out.line()
     out.line(
         f"relay operations: {plan.relay_ops} as planned "
@@ -246,6 +248,28 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
     return 0
 
 
+def _show_supply(plan: Plan, out: Output) -> None:
+    """What each powered step programs into the supply, so that a voltage or current limit
+    that is wrong for the unit is seen before anything is powered."""
+    powered = [step.spec for step in plan.steps if step.spec.supply is not None]
+    if not powered:
+        return
+    out.line()
+    out.line("the supply, step by step (it drives current into the unit: keep each limit low):")
+    rows = [
+        [
+            spec.id,
+            spec.supply.pos,
+            spec.supply.neg,
+            show(spec.supply.volts, "V"),
+            show(spec.supply.limit_a, "A"),
+        ]
+        for spec in powered
+        if spec.supply is not None
+    ]
+    out.table(["step", "+", "-", "voltage", "current limit"], rows)
+
+
 def _show_settling(plan: Plan, unit_path: Path, out: Output) -> None:
     """Each route's time constant on the unit model, what settling to 1 ppm takes, and the
     settle the sequence states, so an engineer can state it from the circuit."""
@@ -273,7 +297,7 @@ def _show_settling(plan: Plan, unit_path: Path, out: Output) -> None:
                 verdict,
             ]
         )
-    out.table(["step", "relays", "function", "tau", "1 ppm", "settle", ""], rows)
+    out.table(["step", "relays", "function", "tau", "1 ppm", "settle", "verdict"], rows)
     for r in found:
         if r.short:
             out.line(
@@ -302,7 +326,9 @@ def _estimate(plan: Plan, step: PlannedStep) -> tuple[str, str, str]:
     spec = step.spec
     kind = KINDS[spec.kind]
     function = kind.meter_function(spec)
-    if function is None or step.range_ is None:
+    if function is None:
+        return "-", "-", "-"  # nothing measured with the meter (a prompt, a soak)
+    if step.range_ is None:
         return "auto", "-", "-"
     range_text = show(step.range_, FUNCTIONS[function.value])
     at = (
@@ -323,6 +349,16 @@ def _estimate(plan: Plan, step: PlannedStep) -> tuple[str, str, str]:
 
 
 # --- rig run ----------------------------------------------------------------------------------
+
+
+def _diagnosable(summary: RunSummary) -> bool:
+    """Whether ``rig diagnose`` has something to explain: a run that went to its end with a step
+    that failed on a reading.  An aborted run failed on the bench, not the unit; a harness proof
+    names its own findings."""
+    failed = [r for r in summary.results if r.step_id in summary.failed_steps]
+    return summary.status == "complete" and any(
+        r.verdict is not Verdict.ERROR and r.kind != "harness-proof" for r in failed
+    )
 
 
 def serial_problem(serial: str) -> str:
@@ -421,10 +457,13 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
         if summary.reason:
             out.line(f"reason: {summary.reason}")
         out.line(f"record: run {summary.run_id} in {plan.station.store_path}")
-        if summary.failed_steps:
+        if _diagnosable(summary):
             from rig.commands.diagnose import suggestion
 
-            out.line(f"likely fault: {suggestion(summary.run_id, args.station)} --unit UNIT_FILE")
+            command = suggestion(summary.run_id, args.station)
+            if not unit:
+                command += " --unit UNIT_FILE"
+            out.line(f"to rank the likely faults: {command}")
         if server:
             out.line(server)
     return _exit_code(summary.verdict, summary.status)

@@ -106,7 +106,7 @@ def test_diagnose_command_after_a_failed_run(
         code = main(["run", str(sequence), "--station", str(station.path), "--serial", "SN-C"])
         assert code == 1
         text = capsys.readouterr().out
-        assert "rig diagnose" in text
+        assert "to rank the likely faults: rig diagnose" in text and "--unit UNIT_FILE" in text
     run_id = next(int(w) for w in text.split("record: run ")[1].split()[:1])
     args = ["diagnose", str(run_id), "--station", str(station.path), "--unit", str(UNIT)]
     assert main([*args, "--json"]) == 0
@@ -124,9 +124,15 @@ def test_a_unit_recorded_by_rig_run_is_found_by_diagnose(
     with shipped_bench("temp-circuit", ("open:ground",), folder=tmp_path) as (_, station):
         args = ["run", str(sequence), "--station", str(station.path), "--serial", "SN-U"]
         assert main([*args, "--unit", str(UNIT)]) == 1
-        capsys.readouterr()
+        suggested = capsys.readouterr().out
+        assert "rig diagnose 1" in suggested and "UNIT_FILE" not in suggested  # it is recorded
         assert main(["diagnose", "1", "--station", str(station.path), "--json"]) == 0
         assert json.loads(capsys.readouterr().out)["hypotheses"][0]["spec"] == "open:ground"
+        # another unit's model given by hand is diagnosed with, but not without a word
+        other = SEQUENCES / "units" / "ntc-sender.toml"
+        diagnose = ["diagnose", "1", "--station", str(station.path), "--unit", str(other)]
+        main([*diagnose, "--json"])
+        assert "was recorded with unit" in capsys.readouterr().err
         # a unit file that does not load is named before anything moves
         assert main([*args, "--unit", str(tmp_path / "missing.toml")]) == 2
         assert "missing.toml" in capsys.readouterr().err
@@ -140,7 +146,7 @@ def test_diagnose_names_what_is_missing(tmp_path: Path, capsys: pytest.CaptureFi
     # `rig run` without --unit records no unit, so the unit file must be given
     assert main(["diagnose", "1", "--station", str(station.path)]) == 2
     assert "--unit" in capsys.readouterr().err
-    assert main(["diagnose", "99", "--station", str(station.path), "--unit", str(UNIT)]) == 3
+    assert main(["diagnose", "99", "--station", str(station.path), "--unit", str(UNIT)]) == 2
     assert "no run 99" in capsys.readouterr().err
 
 

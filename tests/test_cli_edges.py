@@ -69,3 +69,43 @@ def test_a_reader_that_stops_reading_gets_no_traceback(tmp_path: Path) -> None:
         code = proc.wait(timeout=60)
     assert "Traceback" not in err and "BrokenPipeError" not in err, err
     assert code == 0, err
+
+
+POWERED = """
+[sequence]
+name = "powered-check"
+[[steps]]
+id = "feed"
+kind = "volts"
+hi = "P_5V"
+lo = "P_GND"
+nominal = "5 V"
+tolerance = "5 %"
+supply = { pos = "P_5V", neg = "P_GND", voltage = "5 V", limit = "LIMIT" }
+[[steps]]
+id = "confirm"
+kind = "prompt"
+text = "Is the unit's lamp lit?"
+"""
+
+
+def test_check_shows_what_the_supply_is_set_to_and_an_aborted_run_is_not_sent_to_diagnose(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    sequence = tmp_path / "powered.toml"
+    sequence.write_text(POWERED.replace("LIMIT", "5 A"), encoding="utf-8")
+    with shipped_bench("temp-circuit", folder=tmp_path) as (_, station):
+        assert main(["check", str(sequence), "--station", str(station.path)]) == 0
+        shown = capsys.readouterr().out
+        code = main(
+            ["run", str(sequence), "--station", str(station.path), "--serial", "S5", "--yes"]
+        )
+        ran = capsys.readouterr().out
+    table = shown.split("the supply, step by step")[1]
+    assert "feed" in table and "5 V" in table and "5 A" in table
+    prompt_row = next(line for line in shown.splitlines() if line.startswith("confirm"))
+    assert "auto" not in prompt_row  # a prompt has no meter range
+    # the virtual supply's limit stops at 3 A: the run is refused by the supply, not the unit
+    assert code == EXIT_ABORTED
+    assert "the supply refused the command 'CURR 5'" in ran
+    assert "rig diagnose" not in ran

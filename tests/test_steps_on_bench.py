@@ -99,6 +99,27 @@ def test_powered_sensor_draw_soak_and_fraction(tmp_path: Path) -> None:
     assert results["fraction"].value == pytest.approx(26.208, abs=0.05)
 
 
+def test_a_current_limit_the_supply_cannot_set_is_named_as_such_not_as_a_trip(
+    tmp_path: Path,
+) -> None:
+    # The virtual supply's limit spans 1 mA to 3 A (a typical 30 V / 3 A bench supply, from
+    # memory); it answers "CURR 5" with -222 "Data out of range" (SCPI-1999 Vol. 2, 21.8: an
+    # execution error, the command not carried out). That is a setting to correct, not a unit
+    # drawing too much current.
+    bench, station_path = _bench(tmp_path, BARE_SENSOR)
+    try:
+        seq = tmp_path / "five-amps.toml"
+        seq.write_text(POWERED_SEQUENCE.replace('limit = "50 mA"', 'limit = "5 A"', 1))
+        summary = run_plan(build_plan(load_sequence(seq), load_station(station_path)), "P-2")
+        assert not bench.supply_settings.output_on and bench.relay_box.closed() == frozenset()
+    finally:
+        bench.stop()
+    assert summary.status == "aborted"
+    assert "the supply refused the command 'CURR 5'" in summary.reason, summary.reason
+    assert "-222" in summary.reason
+    assert "too much current" not in summary.reason
+
+
 SENDER = f"""
 # invented test unit: a 2.0 kohm resistor standing for a sender, with long fixture leads
 [unit]

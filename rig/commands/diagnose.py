@@ -7,6 +7,8 @@ from pathlib import Path
 
 from rig.cli_output import Output
 
+EXIT_BAD_INPUT = 2
+
 
 def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     p = sub.add_parser("diagnose", help="rank the faults that explain a stored run")
@@ -15,7 +17,8 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     p.add_argument(
         "--unit",
         type=Path,
-        help="unit file (default: units/<unit name of the run>.toml beside the sequence)",
+        help="unit file (default: the one recorded with the run by rig run --unit, or for a "
+        "demo run units/<unit name>.toml beside its sequence)",
     )
     p.add_argument("--sequence", type=Path, help="sequence file (default: the run's own)")
     p.add_argument("--store", type=Path, help="results file (default: the station's)")
@@ -29,18 +32,32 @@ def suggestion(run_id: int, station: Path) -> str:
     return f"rig diagnose {run_id} --station {station}"
 
 
+def _other_unit(recorded: str, given: Path, name: str) -> str:
+    """The unit the run was recorded with, where it is not the one given (empty otherwise): a
+    diagnosis on another unit's model ranks faults of a circuit that was not tested."""
+    if not recorded:
+        return ""
+    if recorded.endswith(".toml"):  # `rig run --unit` records the file itself
+        return "" if Path(recorded).resolve() == given.resolve() else recorded
+    return "" if recorded == name else recorded
+
+
 def cmd_diagnose(args: argparse.Namespace, out: Output) -> int:
     from rig.analysis.diagnose import diagnose_run
     from rig.config.station import load_station
     from rig.config.unit_file import load_unit
     from rig.errors import ConfigError, Problem
     from rig.runner import load_plan
-    from rig.store import ResultStore
+    from rig.store import ResultStore, StoreError
 
     station = load_station(args.station)
     store = ResultStore(args.store or station.store_path)
     try:
-        run = store.run(args.run_id)
+        try:
+            run = store.run(args.run_id)
+        except StoreError as exc:
+            out.error(f"rig: RUN_ID {args.run_id}: {exc}")
+            return EXIT_BAD_INPUT
         sequence = args.sequence or Path(run["sequence_path"])
         unit_path = args.unit
         if unit_path is None:
@@ -54,6 +71,12 @@ def cmd_diagnose(args: argparse.Namespace, out: Output) -> int:
             else:  # the demo records the unit's name, beside its sequence
                 unit_path = sequence.parent / "units" / f"{recorded}.toml"
         unit = load_unit(unit_path)
+        other = _other_unit(str(run["unit"] or ""), unit_path, unit.name)
+        if other:
+            out.error(
+                f"warning: run {args.run_id} was recorded with unit {other}; diagnosing with "
+                f"{unit_path} ({unit.name}) instead"
+            )
         plan = load_plan(sequence, station)
         if plan.sequence.content_hash != run["sequence_hash"]:
             out.error(f"warning: {sequence} has changed since run {args.run_id} was taken")
