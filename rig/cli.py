@@ -160,8 +160,8 @@ def cmd_demo(args: argparse.Namespace, out: Output) -> int:
     for r in runs:
         faults = ", ".join(r.case.faults) or "none"
         out.line(
-            f"{r.case.serial}  {r.case.sequence:<24} faults: {faults:<26} "
-            f"-> {r.summary.verdict.value.upper()}"
+            f"run {r.summary.run_id:<3} {r.case.serial}  {r.case.sequence:<24} "
+            f"faults: {faults:<26} -> {r.summary.verdict.value.upper()}"
         )
         for result in r.summary.results:
             if result.step_id in r.summary.failed_steps and result.unit == "faults":
@@ -176,7 +176,8 @@ def cmd_demo(args: argparse.Namespace, out: Output) -> int:
         if r.likely_fault:
             out.line(f"      likely fault (rig diagnose): {r.likely_fault}")
     out.line()
-    out.line(f"{len(runs)} runs stored in {store_path}")
+    ids = f" (runs {runs[0].summary.run_id} to {runs[-1].summary.run_id})" if runs else ""
+    out.line(f"{len(runs)} runs stored in {store_path}{ids}")
     out.line(
         f"station files (one per unit, all naming that store): {store_path.parent}/station-*.toml;"
         " try: rig report RUN --station FILE, rig stats --station FILE,"

@@ -74,18 +74,23 @@ class Output:
             self.error("WARNING: the bench could not be verified safe: " + "; ".join(event.notes))
 
     def results(self, results: Sequence[StepResult]) -> None:
-        rows = [
-            [
-                r.step_id,
-                show(r.value, r.unit),
-                show_limits(r.limits, r.unit),
-                "" if math.isnan(r.expanded_u) else "±" + show(r.expanded_u, r.unit),
-                "" if r.tur is None else f"{r.tur:.1f}:1" + (" LOW" if r.tur_low else ""),
-                r.verdict.value.upper(),
-            ]
-            for r in results
-        ]
+        rows = [[r.step_id, *_result_cells(r), r.verdict.value.upper()] for r in results]
         self.table(["step", "value", "limits", "U (k=2)", "TUR", "verdict"], rows)
+
+
+def _result_cells(r: StepResult) -> list[str]:
+    """Value, limits, U and TUR of one step as a reader expects them: an operator's answer in
+    words, a harness proof's count of faults against none allowed, a reading with its limits."""
+    if r.kind == "prompt" and not math.isnan(r.value):
+        return ["confirmed" if r.value >= 0.5 else "declined", "", "", ""]
+    if r.kind == "harness-proof" and r.unit == "faults" and not math.isnan(r.value):
+        return [f"{r.value:g} fault(s) found", "none allowed", "", ""]
+    return [
+        show(r.value, r.unit),
+        show_limits(r.limits, r.unit),
+        "" if math.isnan(r.expanded_u) else "±" + show(r.expanded_u, r.unit),
+        "" if r.tur is None else f"{r.tur:.1f}:1" + (" LOW" if r.tur_low else ""),
+    ]
 
 
 def serve_bench(out: Output, title: str, rows: Sequence[tuple[str, str]], station: object) -> None:

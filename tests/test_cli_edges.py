@@ -5,6 +5,7 @@ never a traceback, and a run that had started still ends safe and recorded."""
 from __future__ import annotations
 
 import io
+import json
 import sqlite3
 import subprocess
 import sys
@@ -14,6 +15,9 @@ import pytest
 from bench_helpers import SEQUENCES, shipped_bench
 
 from rig.cli import EXIT_ABORTED, EXIT_BAD_INPUT, main
+from rig.cli_output import Output
+from rig.events import StepResult
+from rig.judge.decision import DecisionRule, Limits, Verdict
 
 SENSOR_SCREEN = SEQUENCES / "ntc-sender-screen.toml"  # begins with an operator prompt
 
@@ -109,3 +113,37 @@ def test_check_shows_what_the_supply_is_set_to_and_an_aborted_run_is_not_sent_to
     assert code == EXIT_ABORTED
     assert "the supply refused the command 'CURR 5'" in ran
     assert "rig diagnose" not in ran
+
+
+def test_the_results_table_gives_an_answer_and_a_fault_count_in_words(
+    capsys: pytest.CaptureFixture[str],
+) -> None:
+    def result(kind: str, value: float, unit: str, limits: Limits) -> StepResult:
+        return StepResult(
+            1, kind, kind, "", {}, value, unit, limits, None, 0.0, 0.0, 2.0,
+            DecisionRule.SIMPLE, Verdict.PASS, None, False, 1, 0.0,
+        )  # fmt: skip
+
+    Output().results(
+        [
+            result("prompt", 1.0, "", Limits(0.5, None)),  # as the prompt step gives it
+            result("harness-proof", 2.0, "faults", Limits(None, 0.0)),  # as the harness proof
+            result("volts", 2.5, "V", Limits(0.6, 4.8)),
+        ]
+    )
+    rows = {line.split()[0]: line for line in capsys.readouterr().out.splitlines()[2:]}
+    assert "confirmed" in rows["prompt"] and "0.5" not in rows["prompt"]
+    assert "2 fault(s) found" in rows["harness-proof"] and "none allowed" in rows["harness-proof"]
+    assert "2.5 V" in rows["volts"] and "600 mV .. 4.8 V" in rows["volts"]
+
+
+def test_the_demo_names_each_run_by_the_id_rig_report_takes(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    assert main(["demo", "--data-dir", str(tmp_path)]) == 0
+    text = capsys.readouterr().out
+    assert "12 runs stored in" in text and "(runs 1 to 12)" in text
+    first = next(line for line in text.splitlines() if line.startswith("run 1 "))
+    assert main(["report", "1", "--store", str(tmp_path / "results.sqlite"), "--out", "-",
+                 "--format", "json"]) == 0  # fmt: skip
+    assert json.loads(capsys.readouterr().out)["run"]["serial"] in first
