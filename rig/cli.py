@@ -69,12 +69,17 @@ def _parser() -> argparse.ArgumentParser:
 
     demo = sub.add_parser("demo", help="run the demo sequences on a virtual bench")
     demo.add_argument("--json", action="store_true", help="one machine-readable summary")
-    demo.add_argument("--data-dir", type=Path, default=Path("rig-data/demo"))
+    demo.add_argument(
+        "--data-dir",
+        type=Path,
+        default=Path("rig-data/demo"),
+        help="where the demo's store, station files and reports go (rig-data/demo)",
+    )
     demo.set_defaults(func=cmd_demo)
 
     check = sub.add_parser("check", help="validate a sequence against a station and show its plan")
-    check.add_argument("sequence", type=Path)
-    check.add_argument("--station", type=Path, required=True)
+    check.add_argument("sequence", type=Path, help="the sequence file to check")
+    check.add_argument("--station", type=Path, required=True, help="the station file")
     check.add_argument(
         "--unit",
         type=Path,
@@ -83,32 +88,56 @@ def _parser() -> argparse.ArgumentParser:
     check.set_defaults(func=cmd_check)
 
     run = sub.add_parser("run", help="run a sequence on a station")
-    run.add_argument("sequence", type=Path)
-    run.add_argument("--station", type=Path, required=True)
-    run.add_argument("--serial", required=True)
-    run.add_argument("--operator", default="")
+    run.add_argument("sequence", type=Path, help="the sequence file to run")
+    run.add_argument("--station", type=Path, required=True, help="the station file")
+    run.add_argument("--serial", required=True, help="the unit's serial number")
+    run.add_argument("--operator", default="", help="who runs the test, for the record")
     run.add_argument(
         "--unit",
         type=Path,
         help="the unit file of what is tested, recorded with the run (rig diagnose reads it)",
     )
     run.add_argument("--yes", action="store_true", help="confirm operator prompts automatically")
-    run.add_argument("--json", action="store_true")
+    run.add_argument("--json", action="store_true", help="one machine-readable summary")
     run.add_argument("--readings", action="store_true", help="print each reading once it is stored")
     run.add_argument("--study-part", default="", help="gauge study: the part measured")
     run.add_argument("--study-trial", type=int, help="gauge study: this trial's number (1, 2, ...)")
     run.set_defaults(func=cmd_run)
 
     sim = sub.add_parser("sim", help="serve a virtual bench for a unit file")
-    sim.add_argument("--unit", type=Path, required=True)
-    sim.add_argument("--fault", action="append", default=[], metavar="SPEC")
-    sim.add_argument("--timing", choices=("instant", "real"), default="instant")
-    sim.add_argument("--station-out", type=Path, default=Path("rig-data/virtual-station.toml"))
-    sim.add_argument("--state-file", type=Path)
-    sim.add_argument("--dmm-port", type=int, default=0)
-    sim.add_argument("--supply-port", type=int, default=0)
-    sim.add_argument("--control-port", type=int, default=0)
-    sim.add_argument("--seed", type=int, default=0)
+    sim.add_argument("--unit", type=Path, required=True, help="the unit file to serve")
+    sim.add_argument(
+        "--fault",
+        action="append",
+        default=[],
+        metavar="SPEC",
+        help="a fault to build into the unit, e.g. open:signal (repeatable; docs/fault-specs.md)",
+    )
+    sim.add_argument(
+        "--timing",
+        choices=("instant", "real"),
+        default="instant",
+        help="instruments answer at once, or take their real relay and integration times",
+    )
+    sim.add_argument(
+        "--station-out",
+        type=Path,
+        default=Path("rig-data/virtual-station.toml"),
+        help="where to write the station file that names this bench",
+    )
+    sim.add_argument(
+        "--state-file",
+        type=Path,
+        help="a JSON file rewritten on every change: closed relays, outputs on, faults",
+    )
+    sim.add_argument("--dmm-port", type=int, default=0, help="TCP port of the DMM (0: any free)")
+    sim.add_argument(
+        "--supply-port", type=int, default=0, help="TCP port of the supply (0: any free)"
+    )
+    sim.add_argument(
+        "--control-port", type=int, default=0, help="TCP port of the control channel (0: any)"
+    )
+    sim.add_argument("--seed", type=int, default=0, help="seed of the simulated noise")
     sim.set_defaults(func=cmd_sim)
 
     from rig.commands import register_all

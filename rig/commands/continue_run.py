@@ -16,10 +16,12 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     parser = sub.add_parser(
         "continue", help="continue an incomplete run from its next step (after a crash)"
     )
-    parser.add_argument("run_id", type=int, metavar="RUN_ID")
-    parser.add_argument("--station", type=Path, required=True)
+    parser.add_argument(
+        "run_id", type=int, metavar="RUN_ID", help="the incomplete run's id, as rig run printed it"
+    )
+    parser.add_argument("--station", type=Path, required=True, help="the station file")
     parser.add_argument("--yes", action="store_true", help="confirm operator prompts automatically")
-    parser.add_argument("--json", action="store_true")
+    parser.add_argument("--json", action="store_true", help="one machine-readable summary")
     parser.add_argument(
         "--readings", action="store_true", help="print each reading once it is stored"
     )

@@ -20,8 +20,8 @@ VERDICT_MARKS = {
 
 def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     p = sub.add_parser("coverage", help="fault coverage of a sequence, by simulation")
-    p.add_argument("sequence", type=Path)
-    p.add_argument("--station", type=Path, required=True)
+    p.add_argument("sequence", type=Path, help="the sequence file")
+    p.add_argument("--station", type=Path, required=True, help="the station file")
     p.add_argument("--unit", type=Path, required=True, help="unit file the faults are put in")
     p.add_argument(
         "--series",
@@ -33,7 +33,7 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
         "--drift", metavar="PCT", default="10 %", help="sensor drift to try either way (10 %%)"
     )
     p.add_argument("--fault", action="append", default=[], metavar="SPEC", help="only these faults")
-    p.add_argument("--json", action="store_true")
+    p.add_argument("--json", action="store_true", help="machine-readable output")
     p.set_defaults(func=cmd_coverage)
 
 

@@ -12,8 +12,8 @@ EXIT_BAD_INPUT = 2
 
 def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     p = sub.add_parser("diagnose", help="rank the faults that explain a stored run")
-    p.add_argument("run_id", type=int)
-    p.add_argument("--station", type=Path, required=True)
+    p.add_argument("run_id", type=int, help="the run id rig run printed")
+    p.add_argument("--station", type=Path, required=True, help="the station file")
     p.add_argument(
         "--unit",
         type=Path,
@@ -23,7 +23,7 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     p.add_argument("--sequence", type=Path, help="sequence file (default: the run's own)")
     p.add_argument("--store", type=Path, help="results file (default: the station's)")
     p.add_argument("--top", type=int, default=5, help="hypotheses to show (5)")
-    p.add_argument("--json", action="store_true")
+    p.add_argument("--json", action="store_true", help="machine-readable output")
     p.set_defaults(func=cmd_diagnose)
 
 

@@ -25,36 +25,52 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     verbs = parser.add_subparsers(dest="harness_command", required=True)
 
     check = verbs.add_parser("check", help="prove a harness on the fixture against a wire list")
-    check.add_argument("wire_list", type=Path)
+    check.add_argument("wire_list", type=Path, help="the wire list (CSV) to prove against")
     _common(check)
-    check.add_argument("--isolation-method", choices=("groups", "pairs", "off"), default="groups")
+    check.add_argument(
+        "--isolation-method",
+        choices=("groups", "pairs", "off"),
+        default="groups",
+        help="isolation by group testing (default), pair by pair, or not at all",
+    )
     check.add_argument("--isolation", default="1 Mohm", help="per pair minimum (default 1 Mohm)")
     check.add_argument("--contact-allowance", default="5 mohm", help="per contact (5 mohm)")
     check.set_defaults(func=cmd_check)
 
     capture = verbs.add_parser("capture", help="write a wire list from a known-good harness")
-    capture.add_argument("--out", type=Path, required=True)
+    capture.add_argument("--out", type=Path, required=True, help="the wire list to write")
     capture.add_argument("--connectors", default="", help="comma-separated; default all pins")
     _common(capture)
     capture.set_defaults(func=cmd_capture)
 
     sim = verbs.add_parser("sim", help="serve a harness as built on a virtual bench")
-    sim.add_argument("wire_list", type=Path)
-    sim.add_argument("--fixture", type=Path, required=True)
-    sim.add_argument("--fault", action="append", default=[], metavar="SPEC")
+    sim.add_argument("wire_list", type=Path, help="the wire list of the harness to serve")
+    sim.add_argument("--fixture", type=Path, required=True, help="the fixture file")
+    sim.add_argument(
+        "--fault",
+        action="append",
+        default=[],
+        metavar="SPEC",
+        help="a build fault, e.g. swap:W4,W5 (repeatable; docs/harness.md)",
+    )
     sim.add_argument("--ambient", type=float, default=23.0, help="degC (default 23)")
     sim.add_argument("--probe", default="", help="FORCE_HI,SENSE_HI,FORCE_LO,SENSE_LO pins")
-    sim.add_argument("--station-out", type=Path, default=Path("rig-data/harness-station.toml"))
-    sim.add_argument("--seed", type=int, default=0)
+    sim.add_argument(
+        "--station-out",
+        type=Path,
+        default=Path("rig-data/harness-station.toml"),
+        help="where to write the station file that names this bench",
+    )
+    sim.add_argument("--seed", type=int, default=0, help="seed of the simulated noise")
     sim.set_defaults(func=cmd_sim)
 
 
 def _common(parser: argparse.ArgumentParser) -> None:
-    parser.add_argument("--station", type=Path, required=True)
+    parser.add_argument("--station", type=Path, required=True, help="the station file")
     parser.add_argument("--serial", required=True, help="the harness's serial number")
-    parser.add_argument("--operator", default="")
+    parser.add_argument("--operator", default="", help="who runs the test, for the record")
     parser.add_argument("--ambient", required=True, help="ambient temperature, e.g. '23 degC'")
-    parser.add_argument("--json", action="store_true")
+    parser.add_argument("--json", action="store_true", help="one machine-readable summary")
 
 
 def _sequence_text(keys: dict[str, object]) -> str:

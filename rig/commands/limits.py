@@ -27,7 +27,7 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     p = sub.add_parser(
         "limits", help="propose limits for a false-reject target by Monte Carlo over tolerances"
     )
-    p.add_argument("sequence", type=Path)
+    p.add_argument("sequence", type=Path, help="the sequence file")
     p.add_argument("--unit", type=Path, required=True, help="unit file with the tolerances")
     p.add_argument(
         "--station",
@@ -35,7 +35,7 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
         help="station whose DMM accuracy is used (default: the virtual bench's figures)",
     )
     p.add_argument("--samples", type=int, default=100_000, help="good units to draw (100000)")
-    p.add_argument("--seed", type=int, default=0)
+    p.add_argument("--seed", type=int, default=0, help="seed of the Monte Carlo draws")
     p.add_argument(
         "--false-reject-ppm",
         type=float,
@@ -44,7 +44,7 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     )
     p.add_argument("--step", action="append", default=[], metavar="ID", help="only these steps")
     p.add_argument("--toml", action="store_true", help="print the proposed limits as TOML")
-    p.add_argument("--json", action="store_true")
+    p.add_argument("--json", action="store_true", help="machine-readable output")
     p.set_defaults(func=cmd_limits)
 
 

@@ -22,7 +22,12 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
         help="the run id rig run printed (the station's own, also where the record is read from "
         "the results server), or the run's record id (32 hex digits)",
     )
-    report.add_argument("--format", choices=("html", "csv", "json"), default="html")
+    report.add_argument(
+        "--format",
+        choices=("html", "csv", "json"),
+        default="html",
+        help="html (default), csv or json",
+    )
     report.add_argument(
         "--out", type=Path, help="file to write ('-' for the terminal); default: the data folder"
     )

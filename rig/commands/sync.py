@@ -14,7 +14,7 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     sync = sub.add_parser(
         "sync", help="send runs waiting in the station's own store to its results server"
     )
-    sync.add_argument("--station", type=Path, required=True)
+    sync.add_argument("--station", type=Path, required=True, help="the station file")
     sync.add_argument("--json", action="store_true", help="one machine-readable summary")
     sync.set_defaults(func=cmd_sync)
 
