@@ -152,9 +152,13 @@ def test_stats_json_and_tables(demo_store: Path, capsys: pytest.CaptureFixture[s
     }
     assert data["pareto_by_fault_kind"] is None and "no diagnosis" in data["fault_kind_note"]
     assert all("cpk" in s for s in data["steps"])
+    # an operator's answer (the sensor screen's prompt "place") is no measurement to take a
+    # capability of; a declined prompt would still count in the Pareto
+    assert "place" not in {s["step_id"] for s in data["steps"]}
     assert main(["stats", "--store", str(demo_store), "--serial-prefix", "HAR-"]) == 0
     text = capsys.readouterr().out
     assert "4 production runs" in text and "Failure Pareto by step" in text
+    assert "Cp and Cpk from fewer than 30 values are rough" in text  # 4 runs a step here
 
 
 def test_stats_page_has_tables_and_charts(

@@ -16,6 +16,7 @@ if TYPE_CHECKING:
     from rig.stats.from_store import FaultFinder
 
 EXIT_OK, EXIT_BAD_INPUT = 0, 2
+FEW_FOR_CAPABILITY = 30
 
 
 def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
@@ -215,6 +216,11 @@ def _print_shop(stats: Any, out: Output) -> None:
             for s in stats.steps
         ],
     )
+    if any(s.n < FEW_FOR_CAPABILITY for s in stats.steps if s.cpk is not None):
+        out.line(
+            f"  Cp and Cpk from fewer than {FEW_FOR_CAPABILITY} values are rough: their "
+            "confidence interval is wide (common practice, no published source)"
+        )
 
 
 def _pareto(out: Output, frame: Any, headers: list[str]) -> None:

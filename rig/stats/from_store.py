@@ -49,6 +49,12 @@ class StepStats:
     failures: int
 
 
+NOT_MEASUREMENTS = frozenset({"", "faults", "nets"})
+"""Units of step values that are answers and counts, not readings: an operator prompt's 1 or 0,
+a harness proof's faults found, a capture's nets.  They count in the failure Pareto, but a mean,
+a spread and a capability of them mean nothing."""
+
+
 @dataclass
 class ShopStats:
     where: RunFilter
@@ -171,7 +177,7 @@ def shop_stats(
         pareto_steps=pareto(by_step, "step"),
         pareto_faults=faults,
         fault_note=note,
-        steps=[g for g in groups if g.n > 0],
+        steps=[g for g in groups if g.n > 0 and g.unit not in NOT_MEASUREMENTS],
     )
 
 
