@@ -147,3 +147,8 @@ def test_the_demo_names_each_run_by_the_id_rig_report_takes(
     assert main(["report", "1", "--store", str(tmp_path / "results.sqlite"), "--out", "-",
                  "--format", "json"]) == 0  # fmt: skip
     assert json.loads(capsys.readouterr().out)["run"]["serial"] in first
+    # the demo's harness station: the harness proof's many routes are counted, not listed
+    harness = ["check", str(SEQUENCES / "harness" / "harness-proof.toml")]
+    assert main([*harness, "--station", str(tmp_path / "station-harness.toml")]) == 0
+    row = next(line for line in capsys.readouterr().out.splitlines() if line.startswith("harness "))
+    assert " routes " in row and len(row) < 160
