@@ -19,7 +19,7 @@ from drivers.visa_session import (
     format_number,
     parse_number,
 )
-from rig.errors import InstrumentProtocolError, RigError
+from rig.errors import InstrumentProtocolError, InstrumentReportedError, RigError, SettingRefused
 
 log = logging.getLogger(__name__)
 
@@ -52,11 +52,11 @@ class ScpiSupply(ScpiDriver, Supply):
 
     def set_voltage(self, volts: float) -> None:
         value = self._non_negative("volts", volts)
-        self._set(self._commands["voltage"].format(volts=format_number(value)))
+        self._set_value(self._commands["voltage"].format(volts=format_number(value)))
 
     def set_current_limit(self, amps: float) -> None:
         value = self._non_negative("amps", amps)
-        self._set(self._commands["current_limit"].format(amps=format_number(value)))
+        self._set_value(self._commands["current_limit"].format(amps=format_number(value)))
 
     def set_output(self, on: bool) -> None:
         if not isinstance(on, bool):
@@ -91,6 +91,23 @@ class ScpiSupply(ScpiDriver, Supply):
     def _set(self, command: str) -> None:
         self._session.write(command)
         self.check_errors(after=command)
+
+    def _set_value(self, command: str) -> None:
+        """A voltage or current limit: one refused as a value, with nothing else reported, is a
+        ``SettingRefused`` (a setting to correct, not a trip to look into)."""
+        try:
+            self._set(command)
+        except InstrumentReportedError as exc:
+            if all(-199 <= c <= -100 or -229 <= c <= -220 for c in exc.codes):
+                raise SettingRefused(
+                    exc.message,
+                    code=exc.code,
+                    codes=exc.codes,
+                    instrument=exc.instrument,
+                    resource=exc.resource,
+                    command=exc.command,
+                ) from exc
+            raise
 
     def _measure(self, role: str) -> float:
         command = self._commands[role]

@@ -270,7 +270,10 @@ def raise_queued_errors(session: VisaSession, error_query: str, after: str) -> N
     if found:
         listed = "; ".join(f'{code},"{text}"' for code, text in found)
         raise InstrumentReportedError(
-            f"instrument reported {listed}", code=found[0][0], **session.where(after)
+            f"instrument reported {listed}",
+            code=found[0][0],
+            codes=tuple(code for code, _ in found),
+            **session.where(after),
         )
 
 

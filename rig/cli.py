@@ -16,6 +16,7 @@ from typing import TYPE_CHECKING
 from rig import __version__
 from rig.cli_output import Output, serve_bench, show, show_limits
 from rig.errors import ConfigError, RigError
+from rig.events import NOT_READINGS
 from rig.judge.decision import Verdict
 
 if TYPE_CHECKING:
@@ -230,7 +231,7 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
     for step in plan.steps:
         spec = step.spec
         relays = " | ".join(",".join(str(r) for r in sorted(rs)) for rs in step.relay_sets)
-        if len(relays) > RELAYS_SHOWN_CHARS:  # a harness proof's many routes: say how many
+        if len(step.relay_sets) > 4 and len(relays) > RELAYS_SHOWN_CHARS:  # a harness proof
             relays = f"{len(step.relay_sets)} routes"
         range_text, u_text, tur_text = _estimate(plan, step)
         rows.append(
@@ -387,11 +388,11 @@ def _estimate(plan: Plan, step: PlannedStep) -> tuple[str, str, str]:
 
 def _diagnosable(summary: RunSummary) -> bool:
     """Whether ``rig diagnose`` has something to explain: a run that went to its end with a step
-    that failed on a reading.  An aborted run failed on the bench, not the unit; a harness proof
-    names its own findings."""
+    that failed on a reading.  An aborted run failed on the bench, not the unit; a declined
+    prompt is an operator's answer, and a harness proof names its own findings."""
     failed = [r for r in summary.results if r.step_id in summary.failed_steps]
     return summary.status == "complete" and any(
-        r.verdict is not Verdict.ERROR and r.kind != "harness-proof" for r in failed
+        r.verdict is not Verdict.ERROR and r.unit not in NOT_READINGS for r in failed
     )
 
 
@@ -406,7 +407,8 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
     from rig.runner import load_plan, run_plan
     from rig.stats.study import study_problem
 
-    problem = serial_problem(args.serial) or study_problem(
+    continuing = getattr(args, "resume", None) is not None  # its serial is the record's own
+    problem = ("" if continuing else serial_problem(args.serial)) or study_problem(
         args.study_part, args.study_trial, args.operator
     )
     if problem:
@@ -435,6 +437,8 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
                 f"the prompt {text!r} got no answer: standard input ended; run rig at a "
                 "terminal, or confirm prompts with --yes"
             ) from None
+        except OSError as exc:  # the terminal hung up, or the prompt's reader went away
+            raise StopRequested(f"the prompt {text!r} could not be put: {exc}") from None
         return answer.strip().lower() in ("y", "yes")
 
     out.show_readings = bool(getattr(args, "readings", False))

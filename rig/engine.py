@@ -999,7 +999,12 @@ class Engine:
     def prompt(self, text: str) -> bool:
         self._writes.flush()  # the operator sees every result before being asked
         self.listener(PromptShown(self._step_id, text))
-        return self.ask(text)
+        try:
+            return self.ask(text)
+        except RigError:
+            raise
+        except Exception as exc:  # a front end that cannot ask (its terminal or window gone)
+            raise StopRequested(f"the prompt {text!r} could not be put: {exc!r}") from exc
 
     @property
     def fixture(self) -> FixtureMap:

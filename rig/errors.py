@@ -55,6 +55,8 @@ class InstrumentError(RigError):
     def __init__(
         self, message: str, *, instrument: str = "", resource: str = "", command: str = ""
     ) -> None:
+        self.message = message
+        """What went wrong, without where (the instrument, resource and command follow it)."""
         self.instrument = instrument
         self.resource = resource
         self.command = command
@@ -81,11 +83,22 @@ class InstrumentProtocolError(InstrumentError):
 
 
 class InstrumentReportedError(InstrumentError):
-    """The instrument itself reported an error (SCPI error queue, relay box error reply)."""
+    """The instrument itself reported an error (SCPI error queue, relay box error reply).
 
-    def __init__(self, message: str, *, code: int = 0, **where: str) -> None:
+    ``code`` is the first error's number; ``codes`` every one read with it."""
+
+    def __init__(
+        self, message: str, *, code: int = 0, codes: tuple[int, ...] = (), **where: str
+    ) -> None:
         self.code = code
+        self.codes = codes or (code,)
         super().__init__(message, **where)
+
+
+class SettingRefused(InstrumentReportedError):
+    """The instrument refused a value it was asked to set, with a SCPI command error or a
+    parameter error (-100 to -199, -220 to -229; SCPI-1999 Vol. 2, 21.8) and nothing else: it
+    did not take the value, and no fault of the instrument or of what it drives was reported."""
 
 
 class SafeStateError(RigError):

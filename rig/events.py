@@ -6,6 +6,11 @@ from dataclasses import dataclass, field
 
 from rig.judge.decision import DecisionRule, Limits, Verdict
 
+NOT_READINGS = frozenset({"", "faults", "nets"})
+"""Units of step values that are answers and counts, not readings: an operator prompt's 1 or 0,
+a harness proof's faults found, a capture's nets.  A failed one is no fault for ``rig diagnose``
+to explain, and a mean, a spread or a capability of them means nothing."""
+
 
 @dataclass(frozen=True)
 class StepResult:

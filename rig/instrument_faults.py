@@ -15,6 +15,7 @@ from rig.errors import (
     InstrumentProtocolError,
     InstrumentReportedError,
     InstrumentTimeout,
+    SettingRefused,
 )
 
 ROLE_WORDS = {"dmm": "the DMM", "supply": "the supply", "relay_box": "the relay box"}
@@ -39,14 +40,6 @@ def is_transient(exc: InstrumentError, *, supply_name: str) -> bool:
     )
 
 
-def refused_as_given(exc: InstrumentReportedError) -> bool:
-    """The instrument refused the command itself, so did nothing: a SCPI command error (-100 to
-    -199) or execution error (-200 to -299), such as -222 "Data out of range" (SCPI-1999 Vol. 2,
-    §21.8).  Device-specific errors (-300 to -399, and positive codes), where a protection trip
-    is reported, are not among them."""
-    return -299 <= exc.code <= -100
-
-
 def _who(exc: InstrumentError) -> str:
     if exc.instrument in ROLE_WORDS:
         return ROLE_WORDS[exc.instrument]
@@ -62,14 +55,12 @@ def plain_reason(exc: InstrumentError) -> str:
             "the supply's output went off during a powered step (over-current trip?): the unit "
             "may draw too much current; find the cause before powering it again"
         )
+    elif isinstance(exc, SettingRefused) and exc.instrument == "supply":
+        text = (
+            f"the supply refused the command {exc.command!r}: it cannot be set to what the step "
+            "asks; check the step's supply voltage and current limit against the supply's ranges"
+        )
     elif isinstance(exc, InstrumentReportedError) and exc.instrument == "supply":
-        if refused_as_given(exc):
-            text = (
-                f"the supply refused the command {exc.command!r}: it cannot be set to what the "
-                "step asks; check the step's supply voltage and current limit against the "
-                "supply's ranges"
-            )
-            return f"{text} (details: {exc})"
         text = (
             f"the supply reported an error{command}; if its over-current protection tripped, the "
             "unit may draw too much current: find the cause before powering it again"

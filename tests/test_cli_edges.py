@@ -12,12 +12,13 @@ import sys
 from pathlib import Path
 
 import pytest
-from bench_helpers import SEQUENCES, shipped_bench
+from bench_helpers import SEQUENCES, shipped_bench, shipped_plan
 
 from rig.cli import EXIT_ABORTED, EXIT_BAD_INPUT, main
 from rig.cli_output import Output
 from rig.events import StepResult
 from rig.judge.decision import DecisionRule, Limits, Verdict
+from rig.runner import run_plan
 
 SENSOR_SCREEN = SEQUENCES / "ntc-sender-screen.toml"  # begins with an operator prompt
 
@@ -152,3 +153,38 @@ def test_the_demo_names_each_run_by_the_id_rig_report_takes(
     assert main([*harness, "--station", str(tmp_path / "station-harness.toml")]) == 0
     row = next(line for line in capsys.readouterr().out.splitlines() if line.startswith("harness "))
     assert " routes " in row and len(row) < 160
+
+
+def test_a_prompt_that_cannot_be_put_ends_the_run_aborted_and_recorded(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str], monkeypatch: pytest.MonkeyPatch
+) -> None:
+    def reader_gone(prompt: str = "") -> str:
+        raise BrokenPipeError(32, "Broken pipe")  # what input() raises when its reader is gone
+
+    monkeypatch.setattr("builtins.input", reader_gone)
+    with shipped_bench("ntc-sender", folder=tmp_path / "cli") as (bench, station):
+        code = main(["run", str(SENSOR_SCREEN), "--station", str(station.path), "--serial", "N2"])
+        assert bench.relay_box.closed() == frozenset()
+    assert code == EXIT_ABORTED and "Traceback" not in capsys.readouterr().err
+    with sqlite3.connect(station.store_path) as db:
+        assert db.execute("SELECT status FROM runs").fetchone()[0] == "aborted"
+
+    # any front end whose question fails (a window closed under it) ends the run the same way
+    def window_gone(text: str) -> bool:
+        raise RuntimeError("the window was closed")
+
+    with shipped_bench("ntc-sender", folder=tmp_path / "engine") as (bench, station):
+        summary = run_plan(shipped_plan("ntc-sender-screen", station), "N3", ask=window_gone)
+        assert bench.relay_box.closed() == frozenset()
+    assert summary.status == "aborted" and "could not be put" in summary.reason
+
+
+def test_a_declined_prompt_is_not_sent_to_diagnose(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str], monkeypatch: pytest.MonkeyPatch
+) -> None:
+    monkeypatch.setattr(sys, "stdin", io.StringIO("n\n"))  # the operator answers no
+    with shipped_bench("ntc-sender", folder=tmp_path) as (_, station):
+        code = main(["run", str(SENSOR_SCREEN), "--station", str(station.path), "--serial", "N4"])
+    out = capsys.readouterr().out
+    assert code == 1 and "declined" in out  # the run went on and failed on the answer
+    assert "rig diagnose" not in out

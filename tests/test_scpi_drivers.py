@@ -31,6 +31,7 @@ from rig.errors import (
     InstrumentReportedError,
     InstrumentTimeout,
     RigError,
+    SettingRefused,
 )
 from rig.sim import sim_dmm
 from rig.sim.scpi_server import MAX_LINE_BYTES, ScpiTcpServer
@@ -376,14 +377,22 @@ def test_supply_trip_is_reported_and_read_back(series: Rig) -> None:
     with pytest.raises(InstrumentReportedError) as caught:
         psu.set_voltage(4.0)
     assert caught.value.code == -300 and "over-current" in str(caught.value)
+    assert not isinstance(caught.value, SettingRefused)  # a device error: a trip, not a value
+    # a refused value with a trip queued behind it is still reported as the trip it may be
+    series.psu_sim.push_error(-300, "over-current protection tripped")  # as a trip queues it
+    with pytest.raises(InstrumentReportedError) as both:
+        psu.set_voltage(100.0)
+    assert both.value.codes == (-300, -222)  # the queue is first in, first out (SCPI-1999)
+    assert not isinstance(both.value, SettingRefused)
     psu.close()
 
 
 def test_supply_refusal_and_bad_values(series: Rig) -> None:
     psu = ScpiSupply("psu", series.psu_server.resource, FAST)
-    with pytest.raises(InstrumentReportedError) as caught:
+    with pytest.raises(SettingRefused) as caught:
         psu.set_voltage(100.0)
     assert caught.value.code == -222  # SCPI-1999: Data out of range
+    assert caught.value.command == "VOLT 100"
     with pytest.raises(RigError, match="volts must be a finite number"):
         psu.set_voltage(-1.0)
     with pytest.raises(RigError, match="True or False"):

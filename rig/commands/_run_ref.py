@@ -66,9 +66,12 @@ def find_run(opened: OpenedStore, ref: RunRef) -> FoundRun:
         if on_server is not None:
             return FoundRun(server, on_server)
     if not station.store_path.is_file():
-        raise StoreError(
-            f"run {ref}: not on the results server, and {station.store_path} does not exist"
-        )
+        if ref.number is not None:  # a number means this station's run, known from its file
+            raise StoreError(
+                f"run ids are the station's own, and its file {station.store_path} is not on "
+                "this computer; give the run's record id (32 hex digits) instead"
+            )
+        raise StoreError(f"no run with record id {ref.record_id} on the results server")
     local = ResultStore(station.store_path)
     try:
         local_id = _id_in(local, ref)

@@ -36,7 +36,7 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     report.set_defaults(func=cmd_report)
 
 
-def default_name(run_id: int, serial: str, fmt: str) -> str:
+def default_name(run_id: int | str, serial: str, fmt: str) -> str:
     """``run-12-HAR-0102.html``: the serial reduced to characters safe in any file name."""
     safe = re.sub(r"[^A-Za-z0-9._-]+", "_", serial).strip("._") or "unit"
     return f"run-{run_id}-{safe[:60]}.{fmt}"
@@ -72,7 +72,8 @@ def cmd_report(args: argparse.Namespace, out: Output) -> int:
         opened.store.close()
     if found.note:
         out.error(f"note: {found.note}")
-    label = args.run.number if args.run.number is not None else found.run_id
+    # files are named by the id the user knows: the station's own, or a record id's start
+    label = args.run.number if args.run.number is not None else str(args.run)[:8]
     render = {"html": render_run, "csv": record_csv, "json": record_json}[args.format]
     text = render(record)
     if args.out is not None and str(args.out) == "-":

@@ -15,6 +15,7 @@ from typing import Any
 
 import pandas as pd
 
+from rig.events import NOT_READINGS
 from rig.stats.capability import capability_from_moments, moments_from_sums
 from rig.stats.filters import RunFilter
 from rig.stats.grr import GaugeStudy, GaugeStudyError, Observation, gauge_rr
@@ -47,12 +48,6 @@ class StepStats:
     mean_expanded_u: float | None
     position: int
     failures: int
-
-
-NOT_MEASUREMENTS = frozenset({"", "faults", "nets"})
-"""Units of step values that are answers and counts, not readings: an operator prompt's 1 or 0,
-a harness proof's faults found, a capture's nets.  They count in the failure Pareto, but a mean,
-a spread and a capability of them mean nothing."""
 
 
 @dataclass
@@ -177,7 +172,7 @@ def shop_stats(
         pareto_steps=pareto(by_step, "step"),
         pareto_faults=faults,
         fault_note=note,
-        steps=[g for g in groups if g.n > 0 and g.unit not in NOT_MEASUREMENTS],
+        steps=[g for g in groups if g.n > 0 and g.unit not in NOT_READINGS],  # in the Pareto still,
     )
 
 
