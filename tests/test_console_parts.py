@@ -277,3 +277,34 @@ def test_a_closing_let_through_just_before_a_stop_is_undone_by_the_stop(tmp_path
             assert bench.state()["closed_relays"] == []
         finally:
             close_bench(real)
+
+
+def test_the_bench_is_not_closed_under_the_stops_make_safe(tmp_path: Path) -> None:
+    # The worker closes the instruments once the run returns; the stop's make-safe may still be
+    # waiting its turn then (here behind a closing held on its way to the box). Closing the
+    # ports under it would turn a safe bench into "could not make safe".
+    with shipped_bench("pressure-circuit", folder=tmp_path) as (bench, station):
+        real = open_bench(station)
+        inbox = Inbox()
+        stop = StopSwitch(inbox)
+        held = _HeldRelays(real.relays)
+        guarded = Bench(
+            real.dmm,
+            GuardedSupply(real.supply, stop.event),
+            GuardedRelays(held, stop.event),  # type: ignore[arg-type]
+        )
+        stop.attach(guarded)
+        closing = threading.Thread(target=guarded.relays.apply, args=({1, 2},))
+        closing.start()
+        assert held.reached.wait(5)
+        stop.throw()
+        detached = threading.Event()
+        threading.Thread(target=lambda: (stop.detach(), detached.set())).start()
+        assert not detached.wait(0.3)  # the make-safe is not done: detach waits for it
+        held.go.set()
+        closing.join(5)
+        assert detached.wait(5)
+        close_bench(real)  # what the worker does next
+        made = [i for i in inbox.take(100) if isinstance(i, SafeStateMade)]
+        assert made and made[0].failures == ()
+        assert bench.state()["closed_relays"] == []

@@ -244,6 +244,11 @@ class GuardedSupply(_PassThrough, Supply):
         return self.inner.measure_current()
 
 
+MAKE_SAFE_WAIT_S = 60.0
+"""Longest the worker waits for the stop's make-safe before closing the bench: each command it
+sends is bounded by its instrument's timeout, so this is only reached by a bench that hangs."""
+
+
 class StopSwitch:
     """The operator's stop: tells the engine, and opens relays and supply now, not later.
 
@@ -255,14 +260,20 @@ class StopSwitch:
         self._inbox = inbox
         self._bench: Bench | None = None
         self._lock = threading.Lock()
+        self._making_safe: threading.Thread | None = None
 
     def attach(self, bench: Bench) -> None:
         with self._lock:
             self._bench = bench
 
     def detach(self) -> None:
+        """Forget the bench, once a make-safe already under way has finished with it: the caller
+        closes the instruments next, and closing them under it would fail it."""
         with self._lock:
             self._bench = None
+            making_safe, self._making_safe = self._making_safe, None
+        if making_safe is not None:
+            making_safe.join(MAKE_SAFE_WAIT_S)
 
     def throw(self) -> None:
         if self.event.is_set():
@@ -270,8 +281,11 @@ class StopSwitch:
         self.event.set()
         with self._lock:
             bench = self._bench
-        if bench is not None:
-            threading.Thread(target=self._make_safe, args=(bench,), daemon=True).start()
+            if bench is not None:
+                self._making_safe = threading.Thread(
+                    target=self._make_safe, args=(bench,), name="stop: make safe", daemon=True
+                )
+                self._making_safe.start()
 
     def _make_safe(self, bench: Bench) -> None:
         self._inbox.put(SafeStateMade(tuple(make_safe(bench))))
