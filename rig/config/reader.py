@@ -13,6 +13,7 @@ from collections.abc import Iterator
 from pathlib import Path
 from typing import Any
 
+from rig.config.key_lines import key_lines, parent_path
 from rig.errors import ConfigError, Problem
 from rig.quantity import QuantityError, parse_quantity
 
@@ -36,7 +37,8 @@ class TomlDoc:
                     [Problem(self.name, "", f"cannot read the file: {exc}")]
                 ) from None
         self.text = text
-        self._lines = text.splitlines()
+        self._key_lines: dict[str, int] | None = None
+        """Where each key is written, read from the text when a problem first needs it."""
         try:
             self.data: dict[str, Any] = tomllib.loads(text)
         except tomllib.TOMLDecodeError as exc:
@@ -53,40 +55,15 @@ class TomlDoc:
         self.problems.append(Problem(self.name, key, message, line=self.line_of(key)))
 
     def line_of(self, key_path: str) -> int | None:
-        """Best-effort line of a key path such as ``wires.signal.length_m`` or ``steps[3].low``
-        (1-based); a key not written on a line of its own falls back to its table's line."""
-        if not key_path:
-            return None
-        match = re.fullmatch(r"(?:(.*?)(?:\[(\d+)\])?\.)?([^.\[\]]+)(?:\[(\d+)\])?", key_path)
-        if match is None:
-            return None
-        table, index_text, leaf, leaf_index = match.groups()
-        table = table or ""
-        wanted = int(index_text or 0)
-        header = re.compile(r"^\s*(\[\[?)\s*([^\]]+?)\s*\]\]?\s*(#.*)?$")
-        key_re = re.compile(rf'^\s*"?{re.escape(leaf)}"?\s*=')
-        own_header = f"{table}.{leaf}" if table else leaf
-        seen = 0
-        in_table = not table
-        leaf_seen = 0
-        for number, line in enumerate(self._lines, start=1):
-            found = header.match(line)
-            if found:
-                name = found.group(2).strip()
-                if name == own_header:
-                    if leaf_index is None or leaf_seen == int(leaf_index):
-                        return number
-                    leaf_seen += 1
-                if name == table:
-                    in_table = seen == wanted
-                    seen += 1
-                else:
-                    in_table = False
-                continue
-            if in_table and key_re.match(line):
-                return number
-        if table:
-            return self.line_of(table.rsplit("[", 1)[0] if table.endswith("]") else table)
+        """The line of a key path such as ``steps[3].low`` (1-based); for a key that is not
+        written, the line of the nearest table it belongs in (a step's own ``[[steps]]``)."""
+        if self._key_lines is None:
+            self._key_lines = key_lines(self.text)
+        path = key_path
+        while path:
+            if path in self._key_lines:
+                return self._key_lines[path]
+            path = parent_path(path)
         return None
 
     def raise_if_problems(self) -> None:

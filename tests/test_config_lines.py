@@ -1,0 +1,93 @@
+"""Where a problem points: the line of the key it is about, or, for a key that is not written,
+the line of the step's own ``[[steps]]`` header; and one problem per mistake.
+
+The TOML shapes used here (arrays of tables, sub-tables of an array element, inline tables,
+multi-line strings, dotted keys) are those the TOML 1.0 spec defines; which line a message should
+name is common practice for compilers and linters, no published source.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+
+from rig.config.reader import TomlDoc
+from rig.config.sequence import load_sequence
+from rig.errors import ConfigError, Problem
+
+HEAD = '[sequence]\nname = "lines"\n'
+PROMPT = '\n[[steps]]\nid = "connect"\nkind = "prompt"\ntext = "Connect the unit."\n'
+
+
+def volts(step_id: str | None, *extra: str, low: str = '"1.0 V"') -> str:
+    """A volts step; ``step_id`` None leaves the id out, ``extra`` lines go after the pins."""
+    lines = ["", "[[steps]]"]
+    if step_id is not None:
+        lines.append(f'id = "{step_id}"')
+    lines += ['kind = "volts"', 'hi = "C_SIG"', 'lo = "C_GND"', *extra, f"low = {low}"]
+    return "\n".join(lines) + "\n"
+
+
+def header_lines(text: str) -> list[int]:
+    """1-based lines of the ``[[steps]]`` headers of ``text``."""
+    return [n for n, line in enumerate(text.splitlines(), 1) if line.strip() == "[[steps]]"]
+
+
+def line_with(text: str, fragment: str) -> int:
+    hits = [n for n, line in enumerate(text.splitlines(), 1) if fragment in line]
+    assert len(hits) == 1, f"{fragment!r} is on lines {hits}"
+    return hits[0]
+
+
+def problems(tmp_path: Path, text: str) -> list[Problem]:
+    path = tmp_path / "seq.toml"
+    path.write_text(text, encoding="utf-8")
+    with pytest.raises(ConfigError) as caught:
+        load_sequence(path)
+    return caught.value.problems
+
+
+def test_a_missing_key_points_at_its_own_step_not_the_first(tmp_path: Path) -> None:
+    text = HEAD + PROMPT + volts("sig") + volts(None) + volts("late")
+    (problem,) = problems(tmp_path, text)
+    assert problem.key == "steps[2].id"
+    assert problem.line == header_lines(text)[2]
+
+
+def _doc(text: str) -> TomlDoc:
+    return TomlDoc(Path("shapes.toml"), text)
+
+
+def test_a_key_of_an_inline_table_is_on_that_tables_line() -> None:
+    text = (
+        HEAD
+        + volts("a")
+        + volts("b", 'supply = { pos = "P_5V", neg = "P_GND", voltage = "5 V", limit = "9 A" }')
+        + volts("c")
+    )
+    assert _doc(text).line_of("steps[1].supply.limit") == line_with(text, "supply =")
+    assert _doc(text).line_of("steps[2].supply.limit") == header_lines(text)[2]
+
+
+def test_a_sub_table_of_an_array_element_belongs_to_the_latest_element() -> None:
+    text = (
+        "[[dmm.accuracy.dcv]]\nrange = '1 V'\n[[dmm.accuracy.dcv]]\nrange = '10 V'\n"
+        "[[steps]]\nid = 'a'\n[[steps]]\nid = 'b'\n[steps.supply]\npos = 'P_5V'\n"
+    )
+    doc = _doc(text)
+    assert doc.line_of("dmm.accuracy.dcv[1].range") == line_with(text, "10 V")
+    assert doc.line_of("steps[1].supply.pos") == line_with(text, "P_5V")
+    assert doc.line_of("steps[0].supply.pos") == header_lines(text)[0]
+
+
+def test_text_inside_a_multi_line_string_is_not_a_key() -> None:
+    text = '[[steps]]\nid = "a"\ntext = """\nlow = "not a key"\n"""\nlow = "1 V"\n'
+    assert _doc(text).line_of("steps[0].low") == line_with(text, '"1 V"')
+
+
+def test_a_dotted_key_and_a_quoted_key_are_found() -> None:
+    text = '[station]\nname = "x"\nsettings.timeout_ms = 5\n"data_dir" = "d"\n'
+    doc = _doc(text)
+    assert doc.line_of("station.settings.timeout_ms") == 3
+    assert doc.line_of("station.data_dir") == 4
