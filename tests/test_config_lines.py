@@ -20,12 +20,15 @@ HEAD = '[sequence]\nname = "lines"\n'
 PROMPT = '\n[[steps]]\nid = "connect"\nkind = "prompt"\ntext = "Connect the unit."\n'
 
 
-def volts(step_id: str | None, *extra: str, low: str = '"1.0 V"') -> str:
-    """A volts step; ``step_id`` None leaves the id out, ``extra`` lines go after the pins."""
+def volts(step_id: str | None, *extra: str, low: str | None = '"1.0 V"') -> str:
+    """A volts step; ``step_id`` or ``low`` None leaves that key out; ``extra`` lines go after
+    the pins."""
     lines = ["", "[[steps]]"]
     if step_id is not None:
         lines.append(f'id = "{step_id}"')
-    lines += ['kind = "volts"', 'hi = "C_SIG"', 'lo = "C_GND"', *extra, f"low = {low}"]
+    lines += ['kind = "volts"', 'hi = "C_SIG"', 'lo = "C_GND"', *extra]
+    if low is not None:
+        lines.append(f"low = {low}")
     return "\n".join(lines) + "\n"
 
 
@@ -91,3 +94,56 @@ def test_a_dotted_key_and_a_quoted_key_are_found() -> None:
     doc = _doc(text)
     assert doc.line_of("station.settings.timeout_ms") == 3
     assert doc.line_of("station.data_dir") == 4
+
+
+# ---- one mistake, one problem ------------------------------------------------------------------
+
+NTC = (
+    '\n[[steps]]\nid = "ambient"\nkind = "reference-temperature"\nforce_hi = "PT_FH"\n'
+    'sense_hi = "PT_SH"\nforce_lo = "PT_FL"\nsense_lo = "PT_SL"\n'
+    '\n[[steps]]\nid = "curve"\nkind = "ntc"\nhi = "C_SIG"\nlo = "C_GND"\nr25 = "2.0 kohm"\n'
+    'beta = "3450 K"\ntemperature_from = "ambient"\ntolerance = "5 %"\n'
+)
+
+
+@pytest.mark.parametrize(
+    ("extra", "low", "key", "fragment"),
+    [
+        (('max = "30"',), None, "max", '"30"'),  # no unit
+        (('max = "30 mA"',), None, "max", "30 mA"),  # a current where a voltage belongs
+        (('nominal = "5 V"', 'tolerance = "-0.2 V"'), None, "tolerance", "-0.2 V"),
+        (('nominal = "5"', 'tolerance = "5 %"'), None, "nominal", 'nominal = "5"'),
+        ((), '"1.0 ohm"', "low", "1.0 ohm"),  # the only limit, and wrong: not also "no limits"
+    ],
+    ids=["max-no-unit", "max-wrong-unit", "negative-tolerance", "nominal-no-unit", "low-ohm"],
+)
+def test_a_wrong_limit_is_one_problem_at_its_own_key(
+    tmp_path: Path, extra: tuple[str, ...], low: str | None, key: str, fragment: str
+) -> None:
+    text = HEAD + PROMPT + volts("drop", *extra, low=low)
+    (problem,) = problems(tmp_path, text)
+    assert problem.key == f"steps[1].{key}"
+    assert problem.line == line_with(text, fragment)
+
+
+def test_a_misspelt_required_key_is_one_problem_at_the_misspelling(tmp_path: Path) -> None:
+    text = HEAD + NTC.replace("temperature_from =", "temperature_frm =")
+    (problem,) = problems(tmp_path, text)
+    assert problem.key == "steps[1].temperature_frm"
+    assert problem.line == line_with(text, "temperature_frm")
+    assert "'temperature_from'" in problem.message  # the key that was meant, and that it is
+    assert "missing" in problem.message  # missing because of this
+
+
+def test_a_misspelt_table_name_is_one_problem_at_its_header(tmp_path: Path) -> None:
+    text = HEAD.replace("[sequence]", "[sequense]") + PROMPT
+    (problem,) = problems(tmp_path, text)
+    assert (problem.key, problem.line) == ("sequense", 1)
+    assert "'sequence'" in problem.message
+
+
+def test_a_tolerance_without_nominal_says_so(tmp_path: Path) -> None:
+    text = HEAD + volts("drop", 'high = "4 V"', 'tolerance = "5 %"', low=None)
+    (problem,) = problems(tmp_path, text)
+    assert problem.key == "steps[0].tolerance"
+    assert "needs a nominal" in problem.message  # not "unknown key": it is a key of the step

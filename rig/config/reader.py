@@ -7,6 +7,7 @@ run of ``rig check`` lists every problem at once instead of the first.
 
 from __future__ import annotations
 
+import difflib
 import re
 import tomllib
 from collections.abc import Iterator
@@ -51,8 +52,10 @@ class TomlDoc:
     def root(self) -> Section:
         return Section(self, self.data, "")
 
-    def problem(self, key: str, message: str) -> None:
-        self.problems.append(Problem(self.name, key, message, line=self.line_of(key)))
+    def problem(self, key: str, message: str) -> Problem:
+        found = Problem(self.name, key, message, line=self.line_of(key))
+        self.problems.append(found)
+        return found
 
     def line_of(self, key_path: str) -> int | None:
         """The line of a key path such as ``steps[3].low`` (1-based); for a key that is not
@@ -94,6 +97,8 @@ class Section:
         self.data = data
         self.prefix = prefix
         self._seen: set[str] = set()
+        self._missing: dict[str, tuple[Problem, str]] = {}
+        """Required keys found missing: their problem and what was expected."""
 
     def key(self, name: str) -> str:
         return f"{self.prefix}.{name}" if self.prefix else name
@@ -101,14 +106,20 @@ class Section:
     def has(self, name: str) -> bool:
         return name in self.data
 
-    def problem(self, name: str, message: str) -> None:
-        self.doc.problem(self.key(name) if name else self.prefix, message)
+    def problem(self, name: str, message: str) -> Problem:
+        return self.doc.problem(self.key(name) if name else self.prefix, message)
+
+    def missing(self, name: str, expected: str) -> None:
+        """A required key is not there.  Where a key that is there looks like a misspelling of
+        it, ``reject_unknown`` reports that key in its place: one mistake, one problem."""
+        self._seen.add(name)
+        self._missing[name] = (self.problem(name, f"missing; expected {expected}"), expected)
 
     def _get(self, name: str, default: Any, expected: str) -> Any:
         self._seen.add(name)
         if name not in self.data:
             if default is _MISSING:
-                self.problem(name, f"missing; expected {expected}")
+                self.missing(name, expected)
             return default
         return self.data[name]
 
@@ -211,7 +222,7 @@ class Section:
         value = self.data.get(name)
         if value is None:
             if required:
-                self.problem(name, "missing; expected a table")
+                self.missing(name, "a table")
             return None
         if not isinstance(value, dict):
             self.problem(name, f"expected a table, found {_describe(value)}")
@@ -253,6 +264,17 @@ class Section:
         """Every key not read is reported: a typo must not be silently ignored."""
         allowed = self._seen | set(also_allowed)
         for name in self.data:
-            if name not in allowed:
-                known = ", ".join(sorted(allowed)) or "none"
-                self.problem(name, f"unknown key; expected one of: {known}")
+            if name in allowed:
+                continue
+            meant = difflib.get_close_matches(name, list(self._missing), n=1, cutoff=0.8)
+            if meant:
+                missing, expected = self._missing.pop(meant[0])
+                self.doc.problems.remove(missing)
+                self.problem(
+                    name,
+                    f"unknown key; a misspelt {meant[0]!r}? That key is missing "
+                    f"(expected {expected})",
+                )
+                continue
+            known = ", ".join(sorted(allowed)) or "none"
+            self.problem(name, f"unknown key; expected one of: {known}")

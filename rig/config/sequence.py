@@ -111,7 +111,7 @@ def _parse_step(
     for ref in spec.depends_on:
         if ref not in seen:
             sec.problem(
-                _ref_key(sec),
+                _ref_key(sec, ref),
                 f"names step {ref!r}, which is not an earlier step of this sequence",
             )
     sec.reject_unknown()
@@ -125,8 +125,9 @@ def _meter_unit(kind_unit: str, spec: StepSpec) -> str:
     return {"degC": "ohm", "%": "V"}.get(kind_unit, kind_unit)
 
 
-def _ref_key(sec: Section) -> str:
+def _ref_key(sec: Section, ref: str) -> str:
+    """The key that names step ``ref``."""
     for key in ("temperature_from", "reference_from"):
-        if sec.has(key):
+        if sec.raw(key) == ref:
             return key
     return "id"

@@ -8,6 +8,7 @@ ratiometric sensor's output is judged as a fraction of its measured supply.
 from __future__ import annotations
 
 import math
+from typing import Any
 
 from drivers.base import MeterFunction
 from rig.config.reader import Section
@@ -81,13 +82,35 @@ def _read_ntc_model(sec: Section) -> NtcModel | None:
     return BetaNtc(r25, beta)
 
 
-def _temperature_source(sec: Section, spec: StepSpec) -> None:
-    source = sec.string("temperature_from", "")
-    if source:
+def _earlier_or_stated(
+    sec: Section,
+    spec: StepSpec,
+    from_key: str,
+    value_key: str,
+    unit: str,
+    *,
+    positive: bool = False,
+) -> tuple[str, Any]:
+    """One of two keys is required: ``from_key``, naming an earlier step whose value is used
+    (a dependency of the step), or ``value_key``, a value stated in ``unit``.  Returns the key
+    given and its value (a step id, or the value in SI; None where it is wrong or missing)."""
+    if sec.has(from_key) and sec.has(value_key):
+        sec.problem(value_key, f"give either {from_key} or {value_key}, not both")
+    if sec.has(value_key) and not sec.has(from_key):
+        return value_key, sec.quantity(value_key, unit, positive=positive)
+    sec.raw(value_key)  # a known key, whichever of the two is given
+    if not sec.has(from_key):
+        sec.missing(from_key, f"the id of an earlier step, or {value_key} with a value in {unit}")
+        return from_key, None
+    source = sec.string(from_key)
+    if source is not None:
         spec.depends_on = (*spec.depends_on, source)
-        spec.params["temperature_from"] = source
-    else:
-        spec.params["temperature_c"] = sec.quantity("temperature", "degC")
+    return from_key, source
+
+
+def _temperature_source(sec: Section, spec: StepSpec) -> None:
+    key, value = _earlier_or_stated(sec, spec, "temperature_from", "temperature", "degC")
+    spec.params["temperature_from" if key == "temperature_from" else "temperature_c"] = value
 
 
 def _pt100_ohm_at_most(spec: StepSpec) -> float | None:
@@ -161,17 +184,15 @@ class NtcCheck(StepKind):
         unit = "V" if mode == "voltage" else "ohm"
         spec.params["unit"] = unit
         tolerance = read_tolerance(sec, unit)
-        if tolerance is None:
-            sec.problem("tolerance", f"expected a tolerance such as '5 %' or '0.1 {unit}'")
+        if tolerance is None and not sec.has("tolerance"):
+            sec.missing("tolerance", f"a tolerance such as '5 %' or '0.1 {unit}'")
         spec.params["tolerance"] = tolerance
         if mode == "voltage":
             spec.params["pullup_ohm"] = sec.quantity("pullup", "ohm", positive=True)
-            ref_from = sec.string("reference_from", "")
-            if ref_from:
-                spec.depends_on = (*spec.depends_on, ref_from)
-                spec.params["reference_from"] = ref_from
-            else:
-                spec.params["reference_v"] = sec.quantity("reference", "V", positive=True)
+            key, value = _earlier_or_stated(
+                sec, spec, "reference_from", "reference", "V", positive=True
+            )
+            spec.params["reference_from" if key == "reference_from" else "reference_v"] = value
             read_supply(sec, spec)
 
     def routes(self, spec: StepSpec) -> list[Route]:
