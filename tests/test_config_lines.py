@@ -11,10 +11,12 @@ from __future__ import annotations
 from pathlib import Path
 
 import pytest
+from offline_station import offline_demo_station
 
 from rig.config.reader import TomlDoc
 from rig.config.sequence import load_sequence
 from rig.errors import ConfigError, Problem
+from rig.plan import build_plan
 
 HEAD = '[sequence]\nname = "lines"\n'
 PROMPT = '\n[[steps]]\nid = "connect"\nkind = "prompt"\ntext = "Connect the unit."\n'
@@ -147,3 +149,40 @@ def test_a_tolerance_without_nominal_says_so(tmp_path: Path) -> None:
     (problem,) = problems(tmp_path, text)
     assert problem.key == "steps[0].tolerance"
     assert "needs a nominal" in problem.message  # not "unknown key": it is a key of the step
+
+
+# ---- problems the planner finds ----------------------------------------------------------------
+
+
+def plan_problems(tmp_path: Path, text: str) -> list[Problem]:
+    path = tmp_path / "seq.toml"
+    path.write_text(text, encoding="utf-8")
+    sequence = load_sequence(path)  # the file itself is well formed
+    with pytest.raises(ConfigError) as caught:
+        build_plan(sequence, offline_demo_station("lines", tmp_path))
+    return caught.value.problems
+
+
+def test_a_ground_drop_pin_not_in_the_fixture_is_one_problem_at_its_line(tmp_path: Path) -> None:
+    text = HEAD + PROMPT + '\n[[steps]]\nid = "drop"\nkind = "ground-drop"\npin = "C_GROUND"\n'
+    text += 'ground = "CHASSIS"\nmax = "30 mV"\n'
+    (problem,) = plan_problems(tmp_path, text)
+    assert problem.key == "steps[1].pin"  # what the file says, not the role it plays (hi)
+    assert problem.line == line_with(text, "C_GROUND")
+    assert "'C_GROUND'" in problem.message
+
+
+def test_a_supply_pin_not_in_the_fixture_is_named_by_its_key(tmp_path: Path) -> None:
+    supply = 'supply = { pos = "P_6V", neg = "P_GND", voltage = "5 V", limit = "50 mA" }'
+    text = HEAD + PROMPT + volts("powered", supply)
+    (problem,) = plan_problems(tmp_path, text)
+    assert problem.key == "steps[1].supply.pos"
+    assert problem.line == line_with(text, "P_6V")
+
+
+def test_an_interlock_problem_points_at_its_step(tmp_path: Path) -> None:
+    text = HEAD + PROMPT + volts("sig") + volts("same").replace('lo = "C_GND"', 'lo = "C_SIG"')
+    (problem,) = plan_problems(tmp_path, text)
+    assert problem.key == "steps[2]"
+    assert problem.line == header_lines(text)[2]
+    assert "interlock" in problem.message

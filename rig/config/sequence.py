@@ -14,6 +14,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from rig.config.reader import Section, TomlDoc
+from rig.errors import Problem
 from rig.judge.decision import DecisionRule
 from rig.steps import KINDS, StepSpec
 
@@ -32,9 +33,16 @@ class Sequence:
     settle_s: float | None = None
     """The settle time of every meter step that states none (None: prove settling)."""
     steps: list[StepSpec] = field(default_factory=list)
+    source: TomlDoc | None = field(default=None, repr=False, compare=False)
+    """The file as read: where its keys are, for problems found after loading."""
 
     def step(self, step_id: str) -> StepSpec:
         return next(s for s in self.steps if s.id == step_id)
+
+    def problem(self, key: str, message: str) -> Problem:
+        """A problem of this file found after loading (by the planner), at the line of ``key``."""
+        line = self.source.line_of(key) if self.source is not None else None
+        return Problem(str(self.path), key, message, line=line)
 
 
 def load_sequence(path: Path | str) -> Sequence:
@@ -52,6 +60,7 @@ def parse_sequence(doc: TomlDoc) -> Sequence:
         name="",
         path=doc.path,
         content_hash=hashlib.sha256(doc.text.encode("utf-8")).hexdigest(),
+        source=doc,
     )
     if head:
         sequence.name = head.string("name") or ""

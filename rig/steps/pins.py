@@ -29,3 +29,4 @@ def read_supply(sec: Section, spec: StepSpec, *, required: bool = False) -> None
         spec.supply = SupplyRequest(pos, neg, volts, limit)
         spec.pins["supply_pos"] = pos
         spec.pins["supply_neg"] = neg
+        spec.pin_keys.update(supply_pos="supply.pos", supply_neg="supply.neg")
