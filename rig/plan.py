@@ -11,14 +11,18 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
+import numpy as np
+
 from rig.config.sequence import Sequence
 from rig.config.station import FUNCTIONS, Station
 from rig.errors import ConfigError, InterlockError, Problem
+from rig.models import ModelInputError
 from rig.quantity import format_quantity
 from rig.routing import interlock_violations, relay_operations, relays_for
 from rig.step_order import order_steps
 from rig.steps import KINDS, StepSpec
 from rig.steps.base import EarlierSteps
+from rig.steps.model_input import refused
 
 
 @dataclass
@@ -232,7 +236,13 @@ def build_plan(sequence: Sequence, station: Station) -> Plan:
         unlisted = _unlisted_range(spec, station)
         if unlisted is not None:
             problems.append(sequence.problem(f"{spec.key}.range", unlisted))
-        planned[spec.id] = PlannedStep(spec, relay_sets, _fixed_range(spec, by_id.get, station))
+        try:
+            with np.errstate(over="ignore", invalid="ignore"):  # what overflows is refused
+                held = _fixed_range(spec, by_id.get, station)
+        except ModelInputError as exc:  # the step's model, asked for its largest reading
+            problems.append(sequence.problem(spec.key, refused(exc)))
+            continue
+        planned[spec.id] = PlannedStep(spec, relay_sets, held)
     if problems:
         raise ConfigError(problems)
     plan = Plan(sequence, station)

@@ -16,7 +16,9 @@ from pathlib import Path
 from rig.config.reader import Section, TomlDoc
 from rig.errors import Problem
 from rig.judge.decision import DecisionRule
+from rig.models import ModelInputError
 from rig.steps import KINDS, StepSpec
+from rig.steps.model_input import refused
 
 _ID = re.compile(r"^[a-z][a-z0-9_-]{0,47}$")
 RULES = {"simple": DecisionRule.SIMPLE, "guarded": DecisionRule.GUARDED}
@@ -112,7 +114,11 @@ def _parse_step(
         nplc=sec.number("nplc", 1.0, minimum=0.001),
         rule=RULES[rule_name] if rule_name else default_rule,
     )
-    kind.parse(sec, spec)
+    try:
+        kind.parse(sec, spec)
+    except ModelInputError as exc:  # a model refused what no check of the kind's caught
+        sec.problem("", refused(exc))
+        return None
     if kind.meter_function(spec) is not None:  # a supply step's own settle is read by its kind
         spec.settle_s = _settle(sec, default_settle)
     if sec.raw("range") not in (None, "auto"):

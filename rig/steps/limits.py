@@ -5,6 +5,7 @@ from __future__ import annotations
 from rig.config.reader import Section
 from rig.judge.decision import Limits
 from rig.quantity import QuantityError, parse_quantity
+from rig.steps.model_input import built
 
 
 def read_tolerance(sec: Section, unit: str, key: str = "tolerance") -> tuple[str, float] | None:
@@ -13,18 +14,17 @@ def read_tolerance(sec: Section, unit: str, key: str = "tolerance") -> tuple[str
     if raw is None:
         return None
     try:
-        return "pct", parse_quantity(raw, "%")
+        found = "pct", parse_quantity(raw, "%")
     except QuantityError:
-        pass
-    try:
-        value = parse_quantity(raw, unit)
-    except QuantityError:
-        sec.problem(key, f"expected a tolerance in % or in {unit} (e.g. '5 %'), found {raw!r}")
-        return None
-    if value <= 0:
+        try:
+            found = "abs", parse_quantity(raw, unit)
+        except QuantityError:
+            sec.problem(key, f"expected a tolerance in % or in {unit} (e.g. '5 %'), found {raw!r}")
+            return None
+    if found[1] <= 0:  # zero too: limits of one point no reading could pass under guarded rules
         sec.problem(key, f"expected a positive tolerance, found {raw!r}")
         return None
-    return "abs", value
+    return found
 
 
 def apply_tolerance(nominal: float, tolerance: tuple[str, float]) -> Limits:
@@ -53,7 +53,7 @@ def read_limits(sec: Section, unit: str, *, required: bool = True) -> Limits | N
             return None
         if low is not None or high is not None or most is not None:
             sec.problem("nominal", "give either nominal + tolerance, low/high, or max, not several")
-        return apply_tolerance(nominal, tolerance)
+        return built(sec, "tolerance", lambda: apply_tolerance(nominal, tolerance))
     if most is not None:
         if low is not None or high is not None:
             sec.problem("max", "give either max or low/high, not both")
