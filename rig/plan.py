@@ -13,6 +13,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from rig.config.model_input import refused
 from rig.config.sequence import Sequence
 from rig.config.station import FUNCTIONS, Station
 from rig.errors import ConfigError, InterlockError, Problem
@@ -22,7 +23,6 @@ from rig.routing import interlock_violations, relay_operations, relays_for
 from rig.step_order import order_steps
 from rig.steps import KINDS, StepSpec
 from rig.steps.base import EarlierSteps
-from rig.steps.model_input import refused
 
 
 @dataclass

@@ -15,11 +15,13 @@ from offline_station import offline_station_text
 
 from rig.cli import EXIT_BAD_INPUT, main
 from rig.config.sequence import load_sequence
+from rig.config.unit_file import load_unit
 from rig.errors import ConfigError, Problem
 from rig.models import ModelInputError
 from rig.steps import KINDS
 
-FIXTURE = Path(__file__).resolve().parent.parent / "sequences" / "demo-fixture.toml"
+SEQUENCES = Path(__file__).resolve().parent.parent / "sequences"
+FIXTURE = SEQUENCES / "demo-fixture.toml"
 
 HEAD = '[sequence]\nname = "model-input"\n'
 AMBIENT = (
@@ -122,7 +124,7 @@ def test_a_model_that_overflows_while_planning_is_a_problem_of_the_step(
     text = swap(text, 'measure = "voltage"', 'measure = "resistance"')
     text = swap(text, 'pullup = "2.49 kohm"\nreference = "5.0 V"\n', "")
     (printed,) = check(tmp_path, text, capsys)
-    assert "outside what its model takes" in printed
+    assert "outside what the model takes" in printed
     assert f"seq.toml:{line_with(text, '[[steps]]')} [steps[0]]" in printed
 
 
@@ -141,7 +143,44 @@ def test_a_model_error_no_check_foresaw_is_still_a_problem(
     assert problem == Problem(
         str(path),
         "steps[0]",
-        "the step's values are outside what its model takes: an argument no check of the "
-        "kind's looked at",
+        "the values are outside what the model takes: an argument no check of the kind's looked at",
         line=line_with(HEAD + VOLTS, "[[steps]]"),
     )
+
+
+UNIT_CASES = [
+    # the same transfer as a ratiometric step's (common practice: two distinct points)
+    ("pressure", "span", 'range_high = "500 kPa"', 'range_high = "0 kPa"'),
+    ("pressure", "fraction", "fraction_high = 0.9", "fraction_high = 1.2"),
+    # SI Brochure, 9th ed.: nothing is colder than -273.15 degC
+    ("temp", "sensor-below-absolute-zero", 'temperature = "ambient"', 'temperature = "-300 degC"'),
+    # IEC 60751: the reference Pt100's curve spans -200 degC to 850 degC
+    ("temp", "ambient-off-the-pt100-curve", 'temperature = "23 degC"', 'temperature = "-250 degC"'),
+    # Steinhart and Hart (1968): B > 0, or resistance would rise with temperature
+    (
+        "temp",
+        "steinhart-hart-b",
+        'r25 = "2.0 kohm"\nbeta = "3450 K"\ntemperature = "ambient"\nr25_tolerance = "2 %"\n'
+        'beta_tolerance = "1 %"',
+        "steinhart_hart = [1.4e-3, 0.0, 1e-7]",
+    ),
+]
+
+
+@pytest.mark.parametrize(
+    ("unit", "old", "new"), [(c[0], *c[2:]) for c in UNIT_CASES], ids=[c[1] for c in UNIT_CASES]
+)
+def test_a_unit_file_with_values_its_models_refuse_does_not_load(
+    tmp_path: Path, unit: str, old: str, new: str
+) -> None:
+    base = (SEQUENCES / "units" / f"{unit}-circuit.toml").read_text(encoding="utf-8")
+    text = swap(base, "../demo-fixture.toml", str(FIXTURE))
+    text = swap(text, old, new)
+    path = tmp_path / "unit.toml"
+    path.write_text(text, encoding="utf-8")
+    with pytest.raises(ConfigError) as caught:
+        load_unit(path)
+    (problem,) = caught.value.problems
+    last = new.splitlines()[-1]
+    assert problem.line == line_with(text, last)
+    assert problem.key.endswith(last.split("=")[0].strip())

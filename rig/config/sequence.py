@@ -13,12 +13,12 @@ import re
 from dataclasses import dataclass, field
 from pathlib import Path
 
+from rig.config.model_input import refused
 from rig.config.reader import Section, TomlDoc
 from rig.errors import Problem
 from rig.judge.decision import DecisionRule
 from rig.models import ModelInputError
 from rig.steps import KINDS, StepSpec
-from rig.steps.model_input import refused
 
 _ID = re.compile(r"^[a-z][a-z0-9_-]{0,47}$")
 RULES = {"simple": DecisionRule.SIMPLE, "guarded": DecisionRule.GUARDED}

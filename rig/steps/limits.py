@@ -2,10 +2,10 @@
 
 from __future__ import annotations
 
+from rig.config.model_input import built
 from rig.config.reader import Section
 from rig.judge.decision import Limits
 from rig.quantity import QuantityError, parse_quantity
-from rig.steps.model_input import built
 
 
 def read_tolerance(sec: Section, unit: str, key: str = "tolerance") -> tuple[str, float] | None:

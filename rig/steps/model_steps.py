@@ -11,18 +11,18 @@ import math
 from typing import Any
 
 from drivers.base import MeterFunction
+from rig.config.model_input import above_absolute_zero, read_ratiometric, read_steinhart_hart
 from rig.config.reader import Section
 from rig.judge.decision import Limits
 from rig.judge.propagate import u_quotient
 from rig.models.divider import divider_voltage, dv_dr_sensor
-from rig.models.ntc import KELVIN_OFFSET, BetaNtc, NtcModel, SteinhartHart
+from rig.models.ntc import BetaNtc, NtcModel
 from rig.models.ratiometric import Ratiometric
 from rig.models.rtd import T_MAX_C, T_MIN_C, Rtd
 from rig.routing import Route
 from rig.steps.base import EarlierSteps, Outcome, StepKind, StepSpec
 from rig.steps.context import StepContext
 from rig.steps.limits import apply_tolerance, read_limits, read_tolerance
-from rig.steps.model_input import built
 from rig.steps.pins import read_pins, read_supply
 
 
@@ -75,14 +75,8 @@ class ReferenceTemperature(StepKind):
 
 
 def _read_ntc_model(sec: Section) -> NtcModel | None:
-    coeffs = sec.raw("steinhart_hart")
-    if coeffs is not None:
-        numbers = isinstance(coeffs, list) and len(coeffs) == 3
-        if numbers and all(isinstance(c, int | float) and not isinstance(c, bool) for c in coeffs):
-            a, b, c = (float(c) for c in coeffs)
-            return built(sec, "steinhart_hart", lambda: SteinhartHart(a, b, c))
-        sec.problem("steinhart_hart", f"expected three numbers [A, B, C], found {coeffs!r}")
-        return None
+    if sec.has("steinhart_hart"):
+        return read_steinhart_hart(sec)
     r25 = sec.quantity("r25", "ohm", positive=True)
     beta = sec.quantity("beta", "K", positive=True)
     if r25 is None or beta is None:
@@ -118,13 +112,8 @@ def _earlier_or_stated(
 
 def _temperature_source(sec: Section, spec: StepSpec) -> None:
     key, value = _earlier_or_stated(sec, spec, "temperature_from", "temperature", "degC")
-    if key == "temperature" and value is not None and value <= -KELVIN_OFFSET:
-        sec.problem(
-            key,
-            f"expected a temperature above absolute zero (-{KELVIN_OFFSET:g} degC), "
-            f"found {sec.raw(key)!r}",
-        )
-        value = None
+    if key == "temperature":
+        value = above_absolute_zero(sec, key, value)
     spec.params["temperature_from" if key == "temperature_from" else "temperature_c"] = value
 
 
@@ -284,15 +273,6 @@ class NtcCheck(StepKind):
         )
 
 
-def _fraction(sec: Section, key: str, default: float) -> float | None:
-    """A fraction of the supply, 0 to 1 (0.1 is 10 %)."""
-    value = sec.number(key, default)
-    if value is not None and not 0.0 <= value <= 1.0:
-        sec.problem(key, f"expected a fraction from 0 to 1 (0.1 is 10 % of supply), found {value}")
-        return None
-    return value
-
-
 class RatiometricCheck(StepKind):
     """A ratiometric sensor's output as a fraction of its supply, against its transfer at the
     known pressure (ambient unless stated)."""
@@ -304,28 +284,7 @@ class RatiometricCheck(StepKind):
 
     def parse(self, sec: Section, spec: StepSpec) -> None:
         read_pins(sec, spec, "output", "power", "ground")
-        low = sec.quantity("range_low", "Pa")
-        high = sec.quantity("range_high", "Pa")
-        frac_low = _fraction(sec, "fraction_low", 0.1)
-        frac_high = _fraction(sec, "fraction_high", 0.9)
-        spec.params["model"] = None
-        if low is None or high is None or frac_low is None or frac_high is None:
-            pass
-        elif low == high:
-            sec.problem(
-                "range_high",
-                f"expected a pressure other than range_low ({sec.raw('range_low')!r}): "
-                "the sensor's span cannot be empty",
-            )
-        elif frac_low == frac_high:
-            sec.problem(
-                "fraction_high",
-                f"expected a fraction other than fraction_low ({frac_low:g}): "
-                "the output must change across the span",
-            )
-        else:
-            model = built(sec, "range_high", lambda: Ratiometric(low, high, frac_low, frac_high))
-            spec.params["model"] = model
+        spec.params["model"] = read_ratiometric(sec)
         spec.params["pressure_pa"] = sec.quantity("pressure", "Pa", 101_325.0)
         tolerance = sec.quantity("tolerance", "%", positive=True)
         spec.params["tolerance_pct"] = tolerance
