@@ -15,6 +15,7 @@ from pathlib import Path
 from typing import Any
 
 from rig.config.key_lines import key_lines, parent_path
+from rig.config.text_file import read_text
 from rig.errors import ConfigError, Problem
 from rig.quantity import QuantityError, parse_quantity
 
@@ -29,14 +30,7 @@ class TomlDoc:
         self.name = str(path)
         self.problems: list[Problem] = []
         if text is None:
-            try:
-                text = self.path.read_text(encoding="utf-8")
-            except FileNotFoundError:
-                raise ConfigError([Problem(self.name, "", "file not found")]) from None
-            except (OSError, UnicodeDecodeError) as exc:
-                raise ConfigError(
-                    [Problem(self.name, "", f"cannot read the file: {exc}")]
-                ) from None
+            text = read_text(self.path)
         self.text = text
         self._key_lines: dict[str, int] | None = None
         """Where each key is written, read from the text when a problem first needs it."""
