@@ -186,3 +186,22 @@ def test_an_interlock_problem_points_at_its_step(tmp_path: Path) -> None:
     assert problem.key == "steps[2]"
     assert problem.line == header_lines(text)[2]
     assert "interlock" in problem.message
+
+
+# ---- every problem at once ---------------------------------------------------------------------
+
+
+def test_a_step_without_an_id_still_has_its_other_keys_checked(tmp_path: Path) -> None:
+    text = HEAD + PROMPT + volts(None, 'high = "4 V"', low='"30"')
+    found = {(p.key, p.line) for p in problems(tmp_path, text)}
+    assert found == {
+        ("steps[1].id", header_lines(text)[1]),
+        ("steps[1].low", line_with(text, '"30"')),
+    }
+
+
+def test_a_supply_voltage_out_of_range_is_reported_beside_a_missing_limit(tmp_path: Path) -> None:
+    supply = 'supply = { pos = "P_5V", neg = "P_GND", voltage = "48 V" }'
+    text = HEAD + volts("powered", supply, 'high = "4 V"')
+    keys = {p.key for p in problems(tmp_path, text)}
+    assert keys == {"steps[0].supply.limit", "steps[0].supply.voltage"}

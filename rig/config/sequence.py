@@ -102,8 +102,9 @@ def _parse_step(
         sec.problem("id", f"expected lower-case letters, digits, '-' or '_', found {step_id!r}")
     if step_id in seen:
         sec.problem("id", f"step id {step_id!r} is used twice")
-    if not step_id or kind_name is None or kind_name not in KINDS:
+    if kind_name is None or kind_name not in KINDS:
         return None
+    step_id = step_id or ""  # a step without an id is still read, for its other problems
     kind = KINDS[kind_name]
     rule_name = sec.string("decision_rule", None, choices=tuple(RULES))
     spec = StepSpec(
@@ -130,7 +131,7 @@ def _parse_step(
                 f"names step {ref!r}, which is not an earlier step of this sequence",
             )
     sec.reject_unknown()
-    return spec
+    return spec if step_id else None
 
 
 def _meter_unit(kind_unit: str, spec: StepSpec) -> str:
