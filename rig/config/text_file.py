@@ -27,6 +27,11 @@ def read_text(path: Path) -> str:
         raise ConfigError([Problem(name, "", "file not found")]) from None
     except OSError as exc:
         raise ConfigError([Problem(name, "", f"cannot read the file: {exc}")]) from None
+    return decode_text(data, name)
+
+
+def decode_text(data: bytes, name: str) -> str:
+    """The file ``name``'s bytes as text; raises ``ConfigError`` where they are not UTF-8."""
     problem = _not_utf8(data, name)
     if problem is not None:
         raise ConfigError([problem])
