@@ -11,9 +11,13 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
+import numpy as np
+
+from rig.config.model_input import refused
 from rig.config.sequence import Sequence
 from rig.config.station import FUNCTIONS, Station
 from rig.errors import ConfigError, InterlockError, Problem
+from rig.models import ModelInputError
 from rig.quantity import format_quantity
 from rig.routing import interlock_violations, relay_operations, relays_for
 from rig.step_order import order_steps
@@ -196,42 +200,49 @@ def build_plan(sequence: Sequence, station: Station) -> Plan:
         if spec.kind == "ground-drop" and not spec.pins.get("lo"):
             if bench_ground is None:
                 problems.append(
-                    Problem(
-                        str(sequence.path),
+                    sequence.problem(
                         f"{spec.key}.ground",
                         "no ground pin given and the fixture has no bench_ground pin",
                     )
                 )
                 continue
             spec.pins["lo"] = bench_ground
-        for role, pin in spec.pins.items():
-            if pin not in fixture.pins:
-                problems.append(
-                    Problem(
-                        str(sequence.path),
-                        f"{spec.key}.{role}",
-                        f"pin {pin!r} is not in fixture {fixture.name!r} ({fixture.path.name})",
-                    )
+        unknown = {  # by the key it was written under: a pin in two roles is one mistake
+            f"{spec.key}.{spec.pin_keys.get(role, role)}": pin
+            for role, pin in spec.pins.items()
+            if pin not in fixture.pins
+        }
+        for key, pin in unknown.items():
+            problems.append(
+                sequence.problem(
+                    key, f"pin {pin!r} is not in fixture {fixture.name!r} ({fixture.path.name})"
                 )
-        if any(p.key.startswith(spec.key + ".") for p in problems):
+            )
+        if unknown:
             continue
         relay_sets = []
         for route in kind.routes(spec):
             try:
                 relays = relays_for(fixture, route)
             except InterlockError as exc:
-                problems.append(Problem(str(sequence.path), spec.key, str(exc)))
+                problems.append(sequence.problem(spec.key, str(exc)))
                 continue
             violations = interlock_violations(
                 fixture, relays, zero_check=route.zero_check, ganged=route.ganged
             )
             for violation in violations:
-                problems.append(Problem(str(sequence.path), spec.key, f"interlock: {violation}"))
+                problems.append(sequence.problem(spec.key, f"interlock: {violation}"))
             relay_sets.append(relays)
         unlisted = _unlisted_range(spec, station)
         if unlisted is not None:
-            problems.append(Problem(str(sequence.path), f"{spec.key}.range", unlisted))
-        planned[spec.id] = PlannedStep(spec, relay_sets, _fixed_range(spec, by_id.get, station))
+            problems.append(sequence.problem(f"{spec.key}.range", unlisted))
+        try:
+            with np.errstate(over="ignore", invalid="ignore"):  # what overflows is refused
+                held = _fixed_range(spec, by_id.get, station)
+        except ModelInputError as exc:  # the step's model, asked for its largest reading
+            problems.append(sequence.problem(spec.key, refused(exc)))
+            continue
+        planned[spec.id] = PlannedStep(spec, relay_sets, held)
     if problems:
         raise ConfigError(problems)
     plan = Plan(sequence, station)

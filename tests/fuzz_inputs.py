@@ -17,12 +17,14 @@ import json
 import math
 import tempfile
 from collections.abc import Callable
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
 from hypothesis import strategies as st
 
 from rig.config.fixture import FixtureMap
+from rig.config.station import Station
 from rig.config.unit_file import UnitModel
 from rig.errors import ConfigError, Problem
 
@@ -219,7 +221,7 @@ def mutated(draw: st.DrawFn, text: str) -> str:
         if not lines:
             break
         i = draw(st.integers(0, len(lines) - 1))
-        op = draw(st.sampled_from(["drop", "double", "value", "insert", "chars"]))
+        op = draw(st.sampled_from(["drop", "double", "value", "insert", "chars", "mark"]))
         if op == "drop":
             del lines[i]
         elif op == "double":
@@ -230,8 +232,11 @@ def mutated(draw: st.DrawFn, text: str) -> str:
         elif op == "insert":
             key = draw(st.sampled_from([*STEP_KEYS, "fixture", "relay_count", "max_closed"]))
             lines.insert(i, f"{key} = {toml_value(draw(values))}")
-        else:
-            junk = draw(st.text(alphabet="[]{}=\"'#.,\\\n\x00 é", min_size=1, max_size=6))
+        elif op == "mark":  # a byte-order mark, where editors put it or anywhere
+            at = i if draw(st.booleans()) else 0
+            lines[at] = "\ufeff" + lines[at]
+        else:  # \udcf4 stands for the byte 0xf4 alone, which is not UTF-8 (see ``as_read``)
+            junk = draw(st.text(alphabet="[]{}=\"'#.,\\\n\x00 é\udcf4", min_size=1, max_size=6))
             at = draw(st.integers(0, len(lines[i])))
             lines[i] = lines[i][:at] + junk + lines[i][at:]
     return "\n".join(lines) + "\n"
@@ -264,14 +269,51 @@ def outcome_of(action: Callable[[], object], name: str) -> str | None:
     return None
 
 
+def file_bytes(text: str) -> bytes:
+    """``text`` as a file holds it: UTF-8, where ``\udc80``-``\udcff`` stand for single bytes
+    that are not UTF-8 (Python's surrogateescape)."""
+    try:
+        return text.encode("utf-8", "surrogateescape")
+    except UnicodeEncodeError:  # other lone surrogates: bytes that are not UTF-8 either
+        return text.encode("utf-8", "surrogatepass")
+
+
+def as_read(text: str, path: Path) -> str:
+    """``text`` through the reader every file kind shares (mark dropped, bad bytes refused)."""
+    from rig.config.text_file import decode_text
+
+    return decode_text(file_bytes(text), str(path))
+
+
+_SCRATCH = Path(tempfile.mkdtemp(prefix="rig-fuzz-"))
+
+
+@functools.cache
+def _offline_station(fixture: Path) -> Station:
+    from offline_station import offline_station_text
+
+    from rig.config.station import load_station
+
+    folder = Path(tempfile.mkdtemp(dir=_SCRATCH))
+    path = folder / "station.toml"
+    path.write_text(offline_station_text("fuzz", fixture, folder / "data"), encoding="utf-8")
+    return load_station(path)
+
+
 def check_sequence_text(text: str, path: Path = Path("fuzz/sequence.toml")) -> str | None:
+    """Read and, where the file is well formed, plan: a model asked for a step's largest
+    reading, a pin, an interlock are found there."""
     from rig.config.reader import TomlDoc
     from rig.config.sequence import parse_sequence
+    from rig.plan import build_plan
+
+    fixture = SEQUENCES / "harness" / "fixture.toml" if path.parent.name == "harness" else FIXTURE
 
     def parse() -> None:
-        doc = TomlDoc(path, text)
-        parse_sequence(doc)
+        doc = TomlDoc(path, as_read(text, path))
+        sequence = parse_sequence(doc)
         doc.raise_if_problems()
+        build_plan(sequence, _offline_station(fixture))
 
     return outcome_of(parse, str(path))
 
@@ -281,7 +323,7 @@ def check_fixture_text(text: str) -> str | None:
     from rig.config.reader import TomlDoc
 
     def parse() -> None:
-        doc = TomlDoc(FIXTURE, text)
+        doc = TomlDoc(FIXTURE, as_read(text, FIXTURE))
         parse_fixture(doc)
         doc.raise_if_problems()
 
@@ -293,21 +335,18 @@ def check_unit_text(text: str, path: Path) -> str | None:
     from rig.config.unit_file import parse_unit
 
     def parse() -> None:
-        doc = TomlDoc(path, text)
+        doc = TomlDoc(path, as_read(text, path))
         parse_unit(doc)
         doc.raise_if_problems()
 
     return outcome_of(parse, str(path))
 
 
-_SCRATCH = Path(tempfile.mkdtemp(prefix="rig-fuzz-"))
-
-
 def check_station_text(text: str) -> str | None:
     from rig.config.station import load_station
 
     path = _SCRATCH / "station.toml"
-    path.write_text(text, encoding="utf-8", errors="surrogatepass")
+    path.write_bytes(file_bytes(text))
     return outcome_of(lambda: load_station(path), str(path))
 
 
@@ -330,7 +369,7 @@ def check_wire_list_text(text: str) -> str | None:
 
     fixture = _harness_fixture()
     path = Path("fuzz/wires.csv")
-    return outcome_of(lambda: parse_wire_list(text, path, fixture), str(path))
+    return outcome_of(lambda: parse_wire_list(as_read(text, path), path, fixture), str(path))
 
 
 def check_fault_specs(specs: list[str]) -> str | None:
@@ -376,6 +415,136 @@ def check_cli(argv: list[str]) -> str | None:
         return f"main({argv!r}) printed a traceback: {err.getvalue()[-500:]}"
     if code == 2 and not err.getvalue().strip():
         return f"main({argv!r}) failed with no message"
+    return None
+
+
+# --- one mistake each: a newcomer's sequence, broken in the ways a trial found -----------------
+
+TRIAL = """\
+# One step of each common kind on the demo fixture; each case of MALFORMED breaks one thing.
+[sequence]
+name = "trial"
+decision_rule = "guarded"
+
+[[steps]]  # connect
+id = "connect"
+kind = "prompt"
+text = "Connect the unit."
+
+[[steps]]  # ambient
+id = "ambient"
+kind = "reference-temperature"
+force_hi = "PT_FH"
+sense_hi = "PT_SH"
+force_lo = "PT_FL"
+sense_lo = "PT_SL"
+low = "15 degC"
+high = "35 degC"
+
+[[steps]]  # signal
+id = "signal"
+kind = "volts"
+hi = "C_SIG"
+lo = "C_GND"
+low = "1.0 V"
+high = "4.0 V"
+
+[[steps]]  # drop
+id = "drop"
+kind = "ground-drop"
+pin = "C_GND"
+ground = "CHASSIS"
+max = "30 mV"
+
+[[steps]]  # curve
+id = "curve"
+kind = "ntc"
+hi = "C_SIG"
+lo = "C_GND"
+r25 = "2.0 kohm"
+beta = "3450 K"
+temperature_from = "ambient"
+tolerance = "5 %"
+
+[[steps]]  # pressure
+id = "pressure"
+kind = "ratiometric"
+output = "P_SIG"
+power = "P_5V"
+ground = "P_GND"
+range_low = "0 bar"
+range_high = "5 bar"
+tolerance = "2 %"
+"""
+
+
+@dataclass(frozen=True)
+class Mistake:
+    """``TRIAL`` with ``old`` replaced by ``new``: ``rig check`` must print exactly one problem,
+    at ``key`` (None: the file is fine) on the line holding ``at``, and exit 2."""
+
+    name: str
+    old: str
+    new: str
+    key: str | None
+    at: str = ""
+
+
+MALFORMED = [
+    Mistake("byte-order mark", "# One", "\ufeff# One", None),
+    Mistake(
+        "negative percent", 'tolerance = "5 %"', 'tolerance = "-5 %"', "steps[4].tolerance", "-5 %"
+    ),
+    Mistake("zero percent", 'tolerance = "5 %"', 'tolerance = "0 %"', "steps[4].tolerance", "0 %"),
+    Mistake("empty span", 'high = "5 bar"', 'high = "0 bar"', "steps[5].range_high", "range_high"),
+    Mistake(
+        "fraction above 1",
+        'tolerance = "2 %"',
+        "tolerance = '2 %'\nfraction_low = 1.5",
+        "steps[5].fraction_low",
+        "1.5",
+    ),
+    Mistake("no id", 'id = "signal"\n', "", "steps[2].id", "# signal"),
+    Mistake("no unit", 'max = "30 mV"', 'max = "30"', "steps[3].max", 'max = "30"'),
+    Mistake(
+        "misspelt key", "temperature_from", "temperature_frm", "steps[4].temperature_frm", "frm"
+    ),
+    Mistake("misspelt table", "[sequence]", "[sequense]", "sequense", "sequense"),
+    Mistake(
+        "pin not in the fixture", 'pin = "C_GND"', 'pin = "C_GROUND"', "steps[3].pin", "C_GROUND"
+    ),
+    Mistake(
+        "colder than absolute zero",
+        'temperature_from = "ambient"',
+        'temperature = "-300 degC"',
+        "steps[4].temperature",
+        "-300",
+    ),
+    Mistake("off the Pt100 curve", 'high = "35 degC"', 'high = "900 degC"', "steps[1].high", "900"),
+    Mistake("byte not UTF-8", "Connect the", "Conn\udcf4ct the", "", "Conn"),
+]
+"""The mistakes of a newcomer's trial of ``rig check``, each alone."""
+
+
+def check_mistake(mistake: Mistake) -> str | None:
+    """None if ``rig check`` reports ``mistake`` as its one problem, where it is, with exit 2."""
+    from rig.cli import main
+
+    assert TRIAL.count(mistake.old) == 1, mistake.old
+    text = TRIAL.replace(mistake.old, mistake.new)
+    path = Path(tempfile.mkdtemp(dir=_SCRATCH)) / "trial.toml"
+    path.write_bytes(file_bytes(text))
+    station = _offline_station(FIXTURE).path
+    err = io.StringIO()
+    with contextlib.redirect_stdout(io.StringIO()), contextlib.redirect_stderr(err):
+        code = main(["check", str(path), "--station", str(station)])
+    printed = err.getvalue().splitlines()[1:]
+    if mistake.key is None:
+        return None if code == 0 else f"{mistake.name}: exit {code}, {printed}"
+    lines = [n for n, line in enumerate(text.splitlines(), 1) if mistake.at in line]
+    where = f"{path}:{lines[0]}" + (f" [{mistake.key}]" if mistake.key else "") + ": "
+    if code != 2 or len(printed) != 1 or not printed[0].strip().startswith(where):
+        return f"{mistake.name}: exit {code}, expected one problem at {where!r}, got {printed}"
     return None
 
 

@@ -8,7 +8,7 @@ from __future__ import annotations
 from typing import Any
 
 import pytest
-from fuzz_inputs import TARGETS
+from fuzz_inputs import MALFORMED, TARGETS, Mistake, check_mistake
 from hypothesis import HealthCheck, given, settings
 
 CASES = {
@@ -54,3 +54,8 @@ def test_no_traceback_and_every_problem_located(name: str) -> None:
 
     case()
     assert len(ran) >= CASES[name] // 2, "hypothesis ran far fewer cases than asked"
+
+
+@pytest.mark.parametrize("mistake", MALFORMED, ids=lambda m: m.name)
+def test_each_mistake_of_a_trial_is_one_problem_where_it_is(mistake: Mistake) -> None:
+    assert check_mistake(mistake) is None

@@ -7,12 +7,15 @@ run of ``rig check`` lists every problem at once instead of the first.
 
 from __future__ import annotations
 
+import difflib
 import re
 import tomllib
 from collections.abc import Iterator
 from pathlib import Path
 from typing import Any
 
+from rig.config.key_lines import key_lines, parent_path
+from rig.config.text_file import read_text
 from rig.errors import ConfigError, Problem
 from rig.quantity import QuantityError, parse_quantity
 
@@ -27,16 +30,10 @@ class TomlDoc:
         self.name = str(path)
         self.problems: list[Problem] = []
         if text is None:
-            try:
-                text = self.path.read_text(encoding="utf-8")
-            except FileNotFoundError:
-                raise ConfigError([Problem(self.name, "", "file not found")]) from None
-            except (OSError, UnicodeDecodeError) as exc:
-                raise ConfigError(
-                    [Problem(self.name, "", f"cannot read the file: {exc}")]
-                ) from None
+            text = read_text(self.path)
         self.text = text
-        self._lines = text.splitlines()
+        self._key_lines: dict[str, int] | None = None
+        """Where each key is written, read from the text when a problem first needs it."""
         try:
             self.data: dict[str, Any] = tomllib.loads(text)
         except tomllib.TOMLDecodeError as exc:
@@ -49,44 +46,21 @@ class TomlDoc:
     def root(self) -> Section:
         return Section(self, self.data, "")
 
-    def problem(self, key: str, message: str) -> None:
-        self.problems.append(Problem(self.name, key, message, line=self.line_of(key)))
+    def problem(self, key: str, message: str) -> Problem:
+        found = Problem(self.name, key, message, line=self.line_of(key))
+        self.problems.append(found)
+        return found
 
     def line_of(self, key_path: str) -> int | None:
-        """Best-effort line of a key path such as ``wires.signal.length_m`` or ``steps[3].low``
-        (1-based); a key not written on a line of its own falls back to its table's line."""
-        if not key_path:
-            return None
-        match = re.fullmatch(r"(?:(.*?)(?:\[(\d+)\])?\.)?([^.\[\]]+)(?:\[(\d+)\])?", key_path)
-        if match is None:
-            return None
-        table, index_text, leaf, leaf_index = match.groups()
-        table = table or ""
-        wanted = int(index_text or 0)
-        header = re.compile(r"^\s*(\[\[?)\s*([^\]]+?)\s*\]\]?\s*(#.*)?$")
-        key_re = re.compile(rf'^\s*"?{re.escape(leaf)}"?\s*=')
-        own_header = f"{table}.{leaf}" if table else leaf
-        seen = 0
-        in_table = not table
-        leaf_seen = 0
-        for number, line in enumerate(self._lines, start=1):
-            found = header.match(line)
-            if found:
-                name = found.group(2).strip()
-                if name == own_header:
-                    if leaf_index is None or leaf_seen == int(leaf_index):
-                        return number
-                    leaf_seen += 1
-                if name == table:
-                    in_table = seen == wanted
-                    seen += 1
-                else:
-                    in_table = False
-                continue
-            if in_table and key_re.match(line):
-                return number
-        if table:
-            return self.line_of(table.rsplit("[", 1)[0] if table.endswith("]") else table)
+        """The line of a key path such as ``steps[3].low`` (1-based); for a key that is not
+        written, the line of the nearest table it belongs in (a step's own ``[[steps]]``)."""
+        if self._key_lines is None:
+            self._key_lines = key_lines(self.text)
+        path = key_path
+        while path:
+            if path in self._key_lines:
+                return self._key_lines[path]
+            path = parent_path(path)
         return None
 
     def raise_if_problems(self) -> None:
@@ -117,6 +91,8 @@ class Section:
         self.data = data
         self.prefix = prefix
         self._seen: set[str] = set()
+        self._missing: dict[str, tuple[Problem, str]] = {}
+        """Required keys found missing: their problem and what was expected."""
 
     def key(self, name: str) -> str:
         return f"{self.prefix}.{name}" if self.prefix else name
@@ -124,14 +100,20 @@ class Section:
     def has(self, name: str) -> bool:
         return name in self.data
 
-    def problem(self, name: str, message: str) -> None:
-        self.doc.problem(self.key(name) if name else self.prefix, message)
+    def problem(self, name: str, message: str) -> Problem:
+        return self.doc.problem(self.key(name) if name else self.prefix, message)
+
+    def missing(self, name: str, expected: str) -> None:
+        """A required key is not there.  Where a key that is there looks like a misspelling of
+        it, ``reject_unknown`` reports that key in its place: one mistake, one problem."""
+        self._seen.add(name)
+        self._missing[name] = (self.problem(name, f"missing; expected {expected}"), expected)
 
     def _get(self, name: str, default: Any, expected: str) -> Any:
         self._seen.add(name)
         if name not in self.data:
             if default is _MISSING:
-                self.problem(name, f"missing; expected {expected}")
+                self.missing(name, expected)
             return default
         return self.data[name]
 
@@ -234,7 +216,7 @@ class Section:
         value = self.data.get(name)
         if value is None:
             if required:
-                self.problem(name, "missing; expected a table")
+                self.missing(name, "a table")
             return None
         if not isinstance(value, dict):
             self.problem(name, f"expected a table, found {_describe(value)}")
@@ -276,6 +258,17 @@ class Section:
         """Every key not read is reported: a typo must not be silently ignored."""
         allowed = self._seen | set(also_allowed)
         for name in self.data:
-            if name not in allowed:
-                known = ", ".join(sorted(allowed)) or "none"
-                self.problem(name, f"unknown key; expected one of: {known}")
+            if name in allowed:
+                continue
+            meant = difflib.get_close_matches(name, list(self._missing), n=1, cutoff=0.8)
+            if meant:
+                missing, expected = self._missing.pop(meant[0])
+                self.doc.problems.remove(missing)
+                self.problem(
+                    name,
+                    f"unknown key; a misspelt {meant[0]!r}? That key is missing "
+                    f"(expected {expected})",
+                )
+                continue
+            known = ", ".join(sorted(allowed)) or "none"
+            self.problem(name, f"unknown key; expected one of: {known}")

@@ -13,8 +13,11 @@ import re
 from dataclasses import dataclass, field
 from pathlib import Path
 
+from rig.config.model_input import refused
 from rig.config.reader import Section, TomlDoc
+from rig.errors import Problem
 from rig.judge.decision import DecisionRule
+from rig.models import ModelInputError
 from rig.steps import KINDS, StepSpec
 
 _ID = re.compile(r"^[a-z][a-z0-9_-]{0,47}$")
@@ -32,9 +35,16 @@ class Sequence:
     settle_s: float | None = None
     """The settle time of every meter step that states none (None: prove settling)."""
     steps: list[StepSpec] = field(default_factory=list)
+    source: TomlDoc | None = field(default=None, repr=False, compare=False)
+    """The file as read: where its keys are, for problems found after loading."""
 
     def step(self, step_id: str) -> StepSpec:
         return next(s for s in self.steps if s.id == step_id)
+
+    def problem(self, key: str, message: str) -> Problem:
+        """A problem of this file found after loading (by the planner), at the line of ``key``."""
+        line = self.source.line_of(key) if self.source is not None else None
+        return Problem(str(self.path), key, message, line=line)
 
 
 def load_sequence(path: Path | str) -> Sequence:
@@ -52,6 +62,7 @@ def parse_sequence(doc: TomlDoc) -> Sequence:
         name="",
         path=doc.path,
         content_hash=hashlib.sha256(doc.text.encode("utf-8")).hexdigest(),
+        source=doc,
     )
     if head:
         sequence.name = head.string("name") or ""
@@ -91,8 +102,9 @@ def _parse_step(
         sec.problem("id", f"expected lower-case letters, digits, '-' or '_', found {step_id!r}")
     if step_id in seen:
         sec.problem("id", f"step id {step_id!r} is used twice")
-    if not step_id or kind_name is None or kind_name not in KINDS:
+    if kind_name is None or kind_name not in KINDS:
         return None
+    step_id = step_id or ""  # a step without an id is still read, for its other problems
     kind = KINDS[kind_name]
     rule_name = sec.string("decision_rule", None, choices=tuple(RULES))
     spec = StepSpec(
@@ -103,7 +115,11 @@ def _parse_step(
         nplc=sec.number("nplc", 1.0, minimum=0.001),
         rule=RULES[rule_name] if rule_name else default_rule,
     )
-    kind.parse(sec, spec)
+    try:
+        kind.parse(sec, spec)
+    except ModelInputError as exc:  # a model refused what no check of the kind's caught
+        sec.problem("", refused(exc))
+        return None
     if kind.meter_function(spec) is not None:  # a supply step's own settle is read by its kind
         spec.settle_s = _settle(sec, default_settle)
     if sec.raw("range") not in (None, "auto"):
@@ -111,11 +127,11 @@ def _parse_step(
     for ref in spec.depends_on:
         if ref not in seen:
             sec.problem(
-                _ref_key(sec),
+                _ref_key(sec, ref),
                 f"names step {ref!r}, which is not an earlier step of this sequence",
             )
     sec.reject_unknown()
-    return spec
+    return spec if step_id else None
 
 
 def _meter_unit(kind_unit: str, spec: StepSpec) -> str:
@@ -125,8 +141,9 @@ def _meter_unit(kind_unit: str, spec: StepSpec) -> str:
     return {"degC": "ohm", "%": "V"}.get(kind_unit, kind_unit)
 
 
-def _ref_key(sec: Section) -> str:
+def _ref_key(sec: Section, ref: str) -> str:
+    """The key that names step ``ref``."""
     for key in ("temperature_from", "reference_from"):
-        if sec.has(key):
+        if sec.raw(key) == ref:
             return key
     return "id"

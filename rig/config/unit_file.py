@@ -12,8 +12,11 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from pathlib import Path
 
+from rig.config.model_input import above_absolute_zero, read_ratiometric, read_steinhart_hart
 from rig.config.reader import Section, TomlDoc
 from rig.models.copper import area_from_gauge
+from rig.models.ratiometric import Ratiometric
+from rig.models.rtd import T_MAX_C, T_MIN_C
 from rig.quantity import QuantityError, parse_quantity
 
 SENSOR_KINDS = ("ntc", "ratiometric", "potentiometer", "switch")
@@ -206,6 +209,20 @@ def _percent(section: Section, name: str) -> float:
     return 0.0 if value is None else float(value)
 
 
+def _in_ambient_span(section: Section, name: str, *values: float) -> bool:
+    """Whether an ambient temperature (or range) lies where the models of a bench hold: on the
+    reference Pt100's curve, -200 to 850 degC (IEC 60751), where copper's resistance is still
+    positive too (its linear model reaches zero near -234 degC); a problem if not."""
+    if all(T_MIN_C <= value <= T_MAX_C for value in values):
+        return True
+    section.problem(
+        name,
+        f"expected an ambient temperature from {T_MIN_C:g} to {T_MAX_C:g} degC (the reference "
+        f"Pt100's curve, IEC 60751), found {section.raw(name)!r}",
+    )
+    return False
+
+
 def _temperature_range(section: Section, name: str) -> tuple[float, float] | None:
     """Two temperatures, low first: ``["18 degC", "28 degC"]``."""
     raw = section.raw(name)
@@ -243,9 +260,15 @@ def parse_unit(doc: TomlDoc) -> UnitModel:
     ambient = root.table("ambient")
     if ambient:
         unit.ambient_c = ambient.quantity("temperature", "degC", 23.0)
+        if not _in_ambient_span(ambient, "temperature", unit.ambient_c):
+            unit.ambient_c = 23.0
         unit.pressure_pa = ambient.quantity("pressure", "Pa", 101_325.0, positive=True)
         unit.ambient_range_c = _temperature_range(ambient, "temperature_range")
-        if unit.ambient_range_c and not (
+        if unit.ambient_range_c and not _in_ambient_span(
+            ambient, "temperature_range", *unit.ambient_range_c
+        ):
+            unit.ambient_range_c = None
+        elif unit.ambient_range_c and not (
             unit.ambient_range_c[0] <= unit.ambient_c <= unit.ambient_range_c[1]
         ):
             ambient.problem(
@@ -332,20 +355,13 @@ def _parse_sensor(name: str, sec: Section) -> Sensor | None:
     temperature = _temperature(sec)
     if kind == "ntc":
         a, b = _between(sec)
-        coeffs = sec.raw("steinhart_hart")
-        if coeffs is not None:
-            if not (
-                isinstance(coeffs, list)
-                and len(coeffs) == 3
-                and all(isinstance(c, int | float) and not isinstance(c, bool) for c in coeffs)
-            ):
-                sec.problem("steinhart_hart", f"expected three numbers [A, B, C], found {coeffs!r}")
-                coeffs = None
+        if sec.has("steinhart_hart"):
+            model = read_steinhart_hart(sec)
             return NtcSensor(
                 name,
                 a,
                 b,
-                sh_coefficients=None if coeffs is None else (coeffs[0], coeffs[1], coeffs[2]),
+                sh_coefficients=None if model is None else (model.a, model.b, model.c),
                 temp_c=temperature,
             )
         return NtcSensor(
@@ -359,15 +375,16 @@ def _parse_sensor(name: str, sec: Section) -> Sensor | None:
             beta_tolerance_pct=_percent(sec, "beta_tolerance"),
         )
     if kind == "ratiometric":
+        transfer = read_ratiometric(sec) or Ratiometric(0.0, 1.0)  # the default: problems stop it
         return RatiometricSensor(
             name,
             supply=sec.string("supply") or "?",
             output=sec.string("output") or "?",
             ground=sec.string("ground") or "?",
-            p_low_pa=sec.quantity("range_low", "Pa") or 0.0,
-            p_high_pa=sec.quantity("range_high", "Pa") or 1.0,
-            fraction_low=sec.number("fraction_low", 0.1),
-            fraction_high=sec.number("fraction_high", 0.9),
+            p_low_pa=transfer.p_min,
+            p_high_pa=transfer.p_max,
+            fraction_low=transfer.frac_min,
+            fraction_high=transfer.frac_max,
             pressure_pa=sec.quantity("pressure", "Pa", None),
             quiescent_a=sec.quantity("quiescent_current", "A", 0.005, positive=True),
             r_out_ohm=sec.quantity("output_resistance", "ohm", 100.0, positive=True),
@@ -402,8 +419,7 @@ def _temperature(sec: Section) -> float | None:
     """``temperature = "ambient"`` (default) or a value in degC."""
     if sec.raw("temperature") in (None, "ambient"):
         return None
-    value = sec.quantity("temperature", "degC")
-    return None if value is None else float(value)
+    return above_absolute_zero(sec, "temperature", sec.quantity("temperature", "degC"))
 
 
 def _check_names_unique(unit: UnitModel, root: Section) -> None:

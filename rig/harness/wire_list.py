@@ -21,6 +21,7 @@ from pathlib import Path
 import pandas as pd
 
 from rig.config.fixture import FixtureMap
+from rig.config.text_file import read_text
 from rig.errors import ConfigError, Problem
 from rig.models._common import ModelInputError
 from rig.models.copper import area_from_gauge
@@ -124,13 +125,7 @@ class WireList:
 def load_wire_list(path: Path | str, fixture: FixtureMap | None = None) -> WireList:
     """Read and validate a wire list (and its join to ``fixture``); raises ``ConfigError``."""
     path = Path(path)
-    try:
-        text = path.read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise ConfigError([Problem(str(path), "", "file not found")]) from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise ConfigError([Problem(str(path), "", f"cannot read the file: {exc}")]) from None
-    return parse_wire_list(text, path, fixture)
+    return parse_wire_list(read_text(path), path, fixture)
 
 
 def parse_wire_list(text: str, path: Path, fixture: FixtureMap | None = None) -> WireList:

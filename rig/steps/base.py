@@ -43,6 +43,9 @@ class StepSpec:
     key: str
     """Where the step is in its file (``steps[3]``), for messages."""
     pins: dict[str, str] = field(default_factory=dict)
+    pin_keys: dict[str, str] = field(default_factory=dict)
+    """The key a pin was read from where it is not its role (``supply_pos`` from ``supply.pos``;
+    a ground drop's ``hi`` is its ``pin``), for messages about the pin."""
     limits: Limits | None = None
     nplc: float = 1.0
     range_: float | None = None

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from rig.config.model_input import built
 from rig.config.reader import Section
 from rig.judge.decision import Limits
 from rig.quantity import QuantityError, parse_quantity
@@ -13,18 +14,17 @@ def read_tolerance(sec: Section, unit: str, key: str = "tolerance") -> tuple[str
     if raw is None:
         return None
     try:
-        return "pct", parse_quantity(raw, "%")
+        found = "pct", parse_quantity(raw, "%")
     except QuantityError:
-        pass
-    try:
-        value = parse_quantity(raw, unit)
-    except QuantityError:
-        sec.problem(key, f"expected a tolerance in % or in {unit} (e.g. '5 %'), found {raw!r}")
-        return None
-    if value <= 0:
+        try:
+            found = "abs", parse_quantity(raw, unit)
+        except QuantityError:
+            sec.problem(key, f"expected a tolerance in % or in {unit} (e.g. '5 %'), found {raw!r}")
+            return None
+    if found[1] <= 0:  # zero too: limits of one point no reading could pass under guarded rules
         sec.problem(key, f"expected a positive tolerance, found {raw!r}")
         return None
-    return "abs", value
+    return found
 
 
 def apply_tolerance(nominal: float, tolerance: tuple[str, float]) -> Limits:
@@ -35,25 +35,32 @@ def apply_tolerance(nominal: float, tolerance: tuple[str, float]) -> Limits:
 
 
 def read_limits(sec: Section, unit: str, *, required: bool = True) -> Limits | None:
-    """Fixed limits of a step: ``low``/``high``, ``nominal`` + ``tolerance``, or ``max``."""
+    """Fixed limits of a step: ``low``/``high``, ``nominal`` + ``tolerance``, or ``max``.
+
+    A limit key that is there but wrong is reported once, by itself: it is not also "no limits"
+    or "nominal needs a tolerance"."""
     low = sec.quantity("low", unit, None)
     high = sec.quantity("high", unit, None)
     nominal = sec.quantity("nominal", unit, None)
     most = sec.quantity("max", unit, None, positive=True)
-    tolerance = read_tolerance(sec, unit) if nominal is not None else None
+    tolerance = read_tolerance(sec, unit)
+    if sec.has("tolerance") and not sec.has("nominal"):
+        sec.problem("tolerance", "a tolerance needs a nominal value; give nominal too")
     if nominal is not None:
         if tolerance is None:
-            sec.problem("tolerance", f"nominal needs a tolerance such as '5 %' or '0.1 {unit}'")
+            if not sec.has("tolerance"):
+                sec.missing("tolerance", f"a tolerance such as '5 %' or '0.1 {unit}' for nominal")
             return None
         if low is not None or high is not None or most is not None:
             sec.problem("nominal", "give either nominal + tolerance, low/high, or max, not several")
-        return apply_tolerance(nominal, tolerance)
+        return built(sec, "tolerance", lambda: apply_tolerance(nominal, tolerance))
     if most is not None:
         if low is not None or high is not None:
             sec.problem("max", "give either max or low/high, not both")
         return Limits(-most, most)
     if low is None and high is None:
-        if required:
+        limit_keys = ("low", "high", "nominal", "max", "tolerance")
+        if required and not any(sec.has(key) for key in limit_keys):
             sec.problem(
                 "low",
                 f"no limits; expected low and/or high, nominal + tolerance, or max (in {unit})",

@@ -60,6 +60,7 @@ class GroundDrop(Volts):
         spec.limits = read_limits(sec, self.unit)
         spec.pins["hi"] = spec.pins.get("pin", "?")
         spec.pins["lo"] = spec.pins.get("ground", "")  # filled from the fixture at planning
+        spec.pin_keys.update(hi="pin", lo="ground")
 
 
 class WireDrop(StepKind):

@@ -8,15 +8,17 @@ ratiometric sensor's output is judged as a fraction of its measured supply.
 from __future__ import annotations
 
 import math
+from typing import Any
 
 from drivers.base import MeterFunction
+from rig.config.model_input import above_absolute_zero, read_ratiometric, read_steinhart_hart
 from rig.config.reader import Section
 from rig.judge.decision import Limits
 from rig.judge.propagate import u_quotient
 from rig.models.divider import divider_voltage, dv_dr_sensor
-from rig.models.ntc import BetaNtc, NtcModel, SteinhartHart
+from rig.models.ntc import BetaNtc, NtcModel
 from rig.models.ratiometric import Ratiometric
-from rig.models.rtd import Rtd
+from rig.models.rtd import T_MAX_C, T_MIN_C, Rtd
 from rig.routing import Route
 from rig.steps.base import EarlierSteps, Outcome, StepKind, StepSpec
 from rig.steps.context import StepContext
@@ -37,6 +39,15 @@ class ReferenceTemperature(StepKind):
         read_pins(sec, spec, "force_hi", "sense_hi", "force_lo", "sense_lo")
         spec.params["r0_ohm"] = sec.quantity("r0", "ohm", 100.0, positive=True)
         spec.limits = read_limits(sec, self.unit, required=False)
+        for side in ("low", "high"):
+            value = getattr(spec.limits, side) if spec.limits else None
+            if value is not None and not T_MIN_C <= value <= T_MAX_C:
+                written = side if sec.has(side) else "nominal" if sec.has("nominal") else "max"
+                sec.problem(
+                    written,
+                    f"the {side} limit, {value:g} degC, is outside what a Pt100 reads: "
+                    f"{T_MIN_C:g} to {T_MAX_C:g} degC (IEC 60751)",
+                )
 
     def routes(self, spec: StepSpec) -> list[Route]:
         p = spec.pins
@@ -64,16 +75,8 @@ class ReferenceTemperature(StepKind):
 
 
 def _read_ntc_model(sec: Section) -> NtcModel | None:
-    coeffs = sec.raw("steinhart_hart")
-    if coeffs is not None:
-        if isinstance(coeffs, list) and len(coeffs) == 3:
-            try:
-                return SteinhartHart(float(coeffs[0]), float(coeffs[1]), float(coeffs[2]))
-            except (TypeError, ValueError) as exc:
-                sec.problem("steinhart_hart", str(exc))
-                return None
-        sec.problem("steinhart_hart", f"expected three numbers [A, B, C], found {coeffs!r}")
-        return None
+    if sec.has("steinhart_hart"):
+        return read_steinhart_hart(sec)
     r25 = sec.quantity("r25", "ohm", positive=True)
     beta = sec.quantity("beta", "K", positive=True)
     if r25 is None or beta is None:
@@ -81,13 +84,37 @@ def _read_ntc_model(sec: Section) -> NtcModel | None:
     return BetaNtc(r25, beta)
 
 
-def _temperature_source(sec: Section, spec: StepSpec) -> None:
-    source = sec.string("temperature_from", "")
-    if source:
+def _earlier_or_stated(
+    sec: Section,
+    spec: StepSpec,
+    from_key: str,
+    value_key: str,
+    unit: str,
+    *,
+    positive: bool = False,
+) -> tuple[str, Any]:
+    """One of two keys is required: ``from_key``, naming an earlier step whose value is used
+    (a dependency of the step), or ``value_key``, a value stated in ``unit``.  Returns the key
+    given and its value (a step id, or the value in SI; None where it is wrong or missing)."""
+    if sec.has(from_key) and sec.has(value_key):
+        sec.problem(value_key, f"give either {from_key} or {value_key}, not both")
+    if sec.has(value_key) and not sec.has(from_key):
+        return value_key, sec.quantity(value_key, unit, positive=positive)
+    sec.raw(value_key)  # a known key, whichever of the two is given
+    if not sec.has(from_key):
+        sec.missing(from_key, f"the id of an earlier step, or {value_key} with a value in {unit}")
+        return from_key, None
+    source = sec.string(from_key)
+    if source is not None:
         spec.depends_on = (*spec.depends_on, source)
-        spec.params["temperature_from"] = source
-    else:
-        spec.params["temperature_c"] = sec.quantity("temperature", "degC")
+    return from_key, source
+
+
+def _temperature_source(sec: Section, spec: StepSpec) -> None:
+    key, value = _earlier_or_stated(sec, spec, "temperature_from", "temperature", "degC")
+    if key == "temperature":
+        value = above_absolute_zero(sec, key, value)
+    spec.params["temperature_from" if key == "temperature_from" else "temperature_c"] = value
 
 
 def _pt100_ohm_at_most(spec: StepSpec) -> float | None:
@@ -161,17 +188,15 @@ class NtcCheck(StepKind):
         unit = "V" if mode == "voltage" else "ohm"
         spec.params["unit"] = unit
         tolerance = read_tolerance(sec, unit)
-        if tolerance is None:
-            sec.problem("tolerance", f"expected a tolerance such as '5 %' or '0.1 {unit}'")
+        if tolerance is None and not sec.has("tolerance"):
+            sec.missing("tolerance", f"a tolerance such as '5 %' or '0.1 {unit}'")
         spec.params["tolerance"] = tolerance
         if mode == "voltage":
             spec.params["pullup_ohm"] = sec.quantity("pullup", "ohm", positive=True)
-            ref_from = sec.string("reference_from", "")
-            if ref_from:
-                spec.depends_on = (*spec.depends_on, ref_from)
-                spec.params["reference_from"] = ref_from
-            else:
-                spec.params["reference_v"] = sec.quantity("reference", "V", positive=True)
+            key, value = _earlier_or_stated(
+                sec, spec, "reference_from", "reference", "V", positive=True
+            )
+            spec.params["reference_from" if key == "reference_from" else "reference_v"] = value
             read_supply(sec, spec)
 
     def routes(self, spec: StepSpec) -> list[Route]:
@@ -259,15 +284,7 @@ class RatiometricCheck(StepKind):
 
     def parse(self, sec: Section, spec: StepSpec) -> None:
         read_pins(sec, spec, "output", "power", "ground")
-        low = sec.quantity("range_low", "Pa")
-        high = sec.quantity("range_high", "Pa")
-        spec.params["model"] = (
-            None
-            if low is None or high is None
-            else Ratiometric(
-                low, high, sec.number("fraction_low", 0.1), sec.number("fraction_high", 0.9)
-            )
-        )
+        spec.params["model"] = read_ratiometric(sec)
         spec.params["pressure_pa"] = sec.quantity("pressure", "Pa", 101_325.0)
         tolerance = sec.quantity("tolerance", "%", positive=True)
         spec.params["tolerance_pct"] = tolerance

@@ -23,9 +23,10 @@ def read_supply(sec: Section, spec: StepSpec, *, required: bool = False) -> None
     volts = table.quantity("voltage", "V")
     limit = table.quantity("limit", "A", positive=True)
     table.reject_unknown()
+    if volts is not None and not 0 <= volts <= 30:
+        table.problem("voltage", f"expected 0 V to 30 V for a bench supply, found {volts:g} V")
     if pos and neg and volts is not None and limit is not None:
-        if volts < 0 or volts > 30:
-            table.problem("voltage", f"expected 0 V to 30 V for a bench supply, found {volts:g} V")
         spec.supply = SupplyRequest(pos, neg, volts, limit)
         spec.pins["supply_pos"] = pos
         spec.pins["supply_neg"] = neg
+        spec.pin_keys.update(supply_pos="supply.pos", supply_neg="supply.neg")
