@@ -289,8 +289,22 @@ def _show_supply(plan: Plan, out: Output) -> None:
     powered = [step.spec for step in plan.steps if step.spec.supply is not None]
     if not powered:
         return
+    caps = plan.station.supply_caps
+    stated = [
+        f"{what} {show(cap, unit)}"
+        for what, cap, unit in (
+            ("voltage", caps.max_voltage, "V"),
+            ("limit", caps.max_current, "A"),
+        )
+        if cap is not None
+    ]
     out.line()
     out.line("the supply, step by step (it drives current into the unit: keep each limit low):")
+    out.line(
+        "  the station allows at most " + " and ".join(stated)
+        if stated
+        else "  the station states no max_voltage or max_current for its supply"
+    )
     rows = [
         [
             spec.id,

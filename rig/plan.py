@@ -236,6 +236,8 @@ def build_plan(sequence: Sequence, station: Station) -> Plan:
         unlisted = _unlisted_range(spec, station)
         if unlisted is not None:
             problems.append(sequence.problem(f"{spec.key}.range", unlisted))
+        for key, message in _over_supply_caps(spec, station):
+            problems.append(sequence.problem(f"{spec.key}.supply.{key}", message))
         try:
             with np.errstate(over="ignore", invalid="ignore"):  # what overflows is refused
                 held = _fixed_range(spec, by_id.get, station)
@@ -256,6 +258,28 @@ def build_plan(sequence: Sequence, station: Station) -> Plan:
         if _switching_cost(ordered, plan.timing) < _switching_cost(in_file, plan.timing):
             plan.steps = ordered  # greedy is a heuristic: keep it only when it saves something
     return plan
+
+
+def _over_supply_caps(spec: StepSpec, station: Station) -> list[tuple[str, str]]:
+    """The supply settings of a step above what its station allows (``[supply]``'s
+    ``max_voltage`` and ``max_current``), by key: refused before anything is powered."""
+    request, caps = spec.supply, station.supply_caps
+    if request is None:
+        return []
+    found = []
+    for key, asked, cap, unit, what in (
+        ("voltage", request.volts, caps.max_voltage, "V", "max_voltage"),
+        ("limit", request.limit_a, caps.max_current, "A", "max_current"),
+    ):
+        if cap is not None and asked > cap * (1 + 1e-9):
+            found.append(
+                (
+                    key,
+                    f"{format_quantity(asked, unit)} is above the station's {what} of "
+                    f"{format_quantity(cap, unit)} ({station.path.name}, [supply])",
+                )
+            )
+    return found
 
 
 def _unlisted_range(spec: StepSpec, station: Station) -> str | None:

@@ -188,3 +188,36 @@ def test_a_declined_prompt_is_not_sent_to_diagnose(
     out = capsys.readouterr().out
     assert code == 1 and "declined" in out  # the run went on and failed on the answer
     assert "rig diagnose" not in out
+
+
+def test_a_supply_setting_above_the_stations_caps_is_refused_before_anything_is_powered(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # Set the current limit no higher than the circuit needs (the project's cautions; common
+    # practice, no published source): the station states what its wiring may carry.
+    sequence = tmp_path / "powered.toml"
+    sequence.write_text(POWERED.replace("LIMIT", "2 A"), encoding="utf-8")
+    supply_line = next(n for n, t in enumerate(POWERED.splitlines(), 1) if t.startswith("supply"))
+    with shipped_bench("temp-circuit", folder=tmp_path) as (bench, station):
+        text = station.path.read_text(encoding="utf-8")
+        capped = text.replace(
+            "[supply]\n", '[supply]\nmax_voltage = "16 V"\nmax_current = "0.5 A"\n'
+        )
+        assert capped != text
+        station.path.write_text(capped, encoding="utf-8")
+        code = main(
+            ["run", str(sequence), "--station", str(station.path), "--serial", "C1", "--yes"]
+        )
+        assert (
+            bench.state()["outputs_on"] == []
+            and sum(bench.relay_box.operation_counts().values()) == 0
+        )
+        err = capsys.readouterr().err
+        sequence.write_text(POWERED.replace("LIMIT", "50 mA"), encoding="utf-8")
+        assert main(["check", str(sequence), "--station", str(station.path)]) == 0
+        shown = capsys.readouterr().out
+    assert code == EXIT_BAD_INPUT
+    assert f"powered.toml:{supply_line} [steps[0].supply.limit]" in err
+    assert "2 A is above the station's max_current of 500 mA" in err
+    assert "[steps[0].supply.voltage]" not in err  # 5 V is within 16 V
+    assert "the station allows at most voltage 16 V and limit 500 mA" in shown

@@ -33,6 +33,15 @@ class InstrumentConfig:
     allow_past_due: bool = False
 
 
+@dataclass(frozen=True)
+class SupplyCaps:
+    """What a station lets a step program into its supply: the supply's own ratings, or less
+    where the fixture's wiring or the units tested call for less (None: no cap stated)."""
+
+    max_voltage: float | None
+    max_current: float | None
+
+
 @dataclass
 class Station:
     name: str
@@ -46,6 +55,8 @@ class Station:
     lead_zero_ohm: dict[str, float] = field(default_factory=dict)
     """Fixture lead resistance per pin pair ("A:B"), subtracted from resistance readings."""
     watchdog_s: float = 2.0
+    supply_caps: SupplyCaps = field(default_factory=lambda: SupplyCaps(None, None))
+    """The most a step may program into the supply (``max_voltage``, ``max_current``)."""
     store: StoreSettings = field(default_factory=StoreSettings)
     """Where results go besides the station's own file (``[store]``, docs/postgresql.md)."""
 
@@ -87,6 +98,7 @@ def load_station(path: Path | str) -> Station:
     instruments: dict[str, InstrumentConfig] = {}
     accuracy = AccuracyTable({})
     supply_accuracy: dict[str, tuple[float, AccuracySpec]] = {}
+    supply_caps = SupplyCaps(None, None)
     for role in ROLES:
         sec = root.table(role, required=True)
         if sec is None:
@@ -96,6 +108,10 @@ def load_station(path: Path | str) -> Station:
             accuracy = _accuracy_table(sec)
         if role == "supply":
             supply_accuracy = _supply_accuracy(sec)
+            supply_caps = SupplyCaps(
+                sec.quantity("max_voltage", "V", None, positive=True),
+                sec.quantity("max_current", "A", None, positive=True),
+            )
         sec.reject_unknown()
 
     zeros: dict[str, float] = {}
@@ -124,6 +140,7 @@ def load_station(path: Path | str) -> Station:
         data_dir=data_dir,
         lead_zero_ohm=zeros,
         watchdog_s=watchdog_s,
+        supply_caps=supply_caps,
         store=store,
     )
 
