@@ -15,9 +15,12 @@ from rig.cli_output import Output, serve_bench
 
 HARNESS_CAUTION = (
     "Caution: test harnesses off the vehicle or machine, never on live circuits: disconnect "
-    "batteries and supplies first. The DMM's ohms test current is small (about 1 mA or less); "
-    "keep it that way, and follow local codes and licensed practice."
+    "batteries and supplies first, and never probe mains; bench work on vehicle and machine "
+    "electrics can burn, shock or start fires. The DMM's ohms test current is small (about 1 mA "
+    "or less); keep it that way, and follow local codes and licensed practice."
 )
+"""One caution for the harness commands: the general one (``rig.cli.CAUTION``) with what a
+harness adds, so that the two are not printed back to back."""
 
 
 def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
@@ -81,7 +84,7 @@ def _sequence_text(keys: dict[str, object]) -> str:
 
 
 def _run(args: argparse.Namespace, out: Output, keys: dict[str, object], what: str) -> int:
-    from rig.cli import CAUTION, EXIT_BAD_INPUT, _exit_code, serial_problem
+    from rig.cli import EXIT_BAD_INPUT, _exit_code, serial_problem
     from rig.config.reader import TomlDoc
     from rig.config.sequence import parse_sequence
     from rig.config.station import load_station
@@ -101,7 +104,6 @@ def _run(args: argparse.Namespace, out: Output, keys: dict[str, object], what: s
     if args.json:
         out.quiet = True
     else:
-        out.line(CAUTION)
         out.line(HARNESS_CAUTION)
     summary = run_plan(plan, args.serial, operator=args.operator, listener=out.on_event)
     result = next((r for r in summary.results if r.step_id == "harness"), None)
