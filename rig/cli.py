@@ -22,6 +22,7 @@ from rig.judge.decision import Verdict
 if TYPE_CHECKING:
     from rig.engine import RunSummary
     from rig.plan import Plan, PlannedStep
+    from rig.steps import StepSpec
     from rig.store_sync import SyncReport
 
 EXIT_PASS, EXIT_FAIL, EXIT_BAD_INPUT, EXIT_ABORTED = 0, 1, 2, 3
@@ -241,12 +242,14 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
                 " ".join(f"{k}={v}" for k, v in spec.pins.items()),
                 relays or "-",
                 "ok",
+                _limits_text(spec),
                 range_text,
                 u_text,
                 tur_text,
             ]
         )
-    out.table(["step", "kind", "pins", "relays", "interlocks", "range", "U (k=2)", "TUR"], rows)
+    headers = ["step", "kind", "pins", "relays", "interlocks", "limits", "range", "U (k=2)", "TUR"]
+    out.table(headers, rows)
     _show_supply(plan, out)
     out.line()
     out.line(
@@ -281,6 +284,26 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
         finally:
             store.close()
     return 0
+
+
+def _limits_text(spec: StepSpec) -> str:
+    """A step's limits as the file sets them: fixed, or around the model's prediction, which is
+    made at run time (the ratiometric tolerance is in points of the supply, not of the value)."""
+    from rig.steps import KINDS
+
+    unit = KINDS[spec.kind].unit
+    if spec.kind == "prompt":
+        return "confirmed"
+    if spec.limits is not None:
+        return show_limits(spec.limits, unit)
+    tolerance = spec.params.get("tolerance")
+    if isinstance(tolerance, tuple):
+        how, amount = tolerance
+        return f"model ± {amount:g} %" if how == "pct" else f"model ± {show(amount, unit)}"
+    points = spec.params.get("tolerance_pct")
+    if isinstance(points, int | float):
+        return f"model ± {points:g} % of supply"
+    return "-"
 
 
 def _show_supply(plan: Plan, out: Output) -> None:

@@ -221,3 +221,16 @@ def test_a_supply_setting_above_the_stations_caps_is_refused_before_anything_is_
     assert "2 A is above the station's max_current of 500 mA" in err
     assert "[steps[0].supply.voltage]" not in err  # 5 V is within 16 V
     assert "the station allows at most voltage 16 V and limit 500 mA" in shown
+
+
+def test_check_shows_each_steps_limits_as_the_file_sets_them(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # the shipped pressure check: a fixed nominal +/- 5 % and a ratiometric tolerance, which is
+    # in points of the supply (docs/sequence-file.md), said as such
+    with shipped_bench("pressure-circuit", folder=tmp_path) as (_, station):
+        check = ["check", str(SEQUENCES / "pressure-circuit-check.toml")]
+        assert main([*check, "--station", str(station.path)]) == 0
+    rows = {line.split()[0]: line for line in capsys.readouterr().out.splitlines() if line}
+    assert "4.75 V .. 5.25 V" in rows["reference-at-sensor"]  # 5 V +/- 5 %
+    assert "model ± 2 % of supply" in rows["output-fraction"]
