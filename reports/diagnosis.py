@@ -15,6 +15,7 @@ from typing import Any
 
 from rig.config.station import Station
 from rig.errors import RigError
+from rig.events import NOT_READINGS
 from rig.store import ResultStore
 
 log = logging.getLogger(__name__)
@@ -27,15 +28,24 @@ def unavailable(message: str) -> dict[str, Any]:
 
 
 def find_unit_file(run: Mapping[str, Any], unit_path: Path | None) -> Path | None:
-    """The unit file given, else ``<sequences>/units/<unit name>.toml`` if it exists."""
+    """The unit file given, else the one the run recorded: ``rig run --unit`` records the file
+    itself, the demo a unit's name, found in ``units/`` beside the run's sequence or among the
+    shipped ones.  None where none is given, recorded or found."""
     if unit_path is not None:
         return unit_path
-    if not run.get("unit"):
+    recorded = str(run.get("unit") or "")
+    if not recorded:
         return None
+    if recorded.endswith(".toml"):
+        return Path(recorded) if Path(recorded).is_file() else None
     from rig.demo import sequences_dir
 
-    candidate = sequences_dir() / "units" / f"{run['unit']}.toml"
-    return candidate if candidate.exists() else None
+    beside = Path(str(run.get("sequence_path") or ".")).parent / "units"
+    for folder in (beside, sequences_dir() / "units"):
+        candidate = folder / f"{recorded}.toml"
+        if candidate.is_file():
+            return candidate
+    return None
 
 
 _LOADED: dict[tuple[str, str, int], tuple[Any, Any]] = {}
@@ -69,6 +79,12 @@ def diagnose_stored_run(
         module = importlib.import_module("rig.analysis.diagnose")
     except ImportError:
         return unavailable("no diagnosis is available: the fault analysis is not installed")
+    failed = [s for s in store.steps(int(run["id"])) if s["verdict"] in FAILED_VERDICTS]
+    if failed and all(s["unit"] in NOT_READINGS for s in failed):
+        return unavailable(
+            "nothing for a diagnosis to explain: what failed is an operator's answer or a harness "
+            "proof, whose findings are in its step's note"
+        )
     if station is None:
         return unavailable("no diagnosis is available: give --station to plan the sequence")
     unit_file = find_unit_file(run, unit_path)

@@ -128,6 +128,12 @@ def test_a_unit_recorded_by_rig_run_is_found_by_diagnose(
         assert "rig diagnose 1" in suggested and "UNIT_FILE" not in suggested  # it is recorded
         assert main(["diagnose", "1", "--station", str(station.path), "--json"]) == 0
         assert json.loads(capsys.readouterr().out)["hypotheses"][0]["spec"] == "open:ground"
+        # the run's record finds it too (it looked for a unit *named* by the recorded path)
+        report = ["report", "1", "--station", str(station.path), "--format", "json"]
+        assert main([*report, "--out", "-"]) == 0
+        diagnosis = json.loads(capsys.readouterr().out)["diagnosis"]
+        assert diagnosis["available"], diagnosis["message"]
+        assert diagnosis["hypotheses"][0]["spec"] == "open:ground"
         # another unit's model given by hand is diagnosed with, but not without a word
         other = SEQUENCES / "units" / "ntc-sender.toml"
         diagnose = ["diagnose", "1", "--station", str(station.path), "--unit", str(other)]

@@ -185,9 +185,13 @@ def test_a_declined_prompt_is_not_sent_to_diagnose(
     monkeypatch.setattr(sys, "stdin", io.StringIO("n\n"))  # the operator answers no
     with shipped_bench("ntc-sender", folder=tmp_path) as (_, station):
         code = main(["run", str(SENSOR_SCREEN), "--station", str(station.path), "--serial", "N4"])
-    out = capsys.readouterr().out
+        out = capsys.readouterr().out
+        report = ["report", "1", "--station", str(station.path), "--format", "json", "--out", "-"]
+        assert main(report) == 0
+        diagnosis = json.loads(capsys.readouterr().out)["diagnosis"]
     assert code == 1 and "declined" in out  # the run went on and failed on the answer
     assert "rig diagnose" not in out
+    assert not diagnosis["available"] and "an operator's answer" in diagnosis["message"]
 
 
 def test_a_supply_setting_above_the_stations_caps_is_refused_before_anything_is_powered(

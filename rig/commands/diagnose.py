@@ -43,6 +43,7 @@ def _other_unit(recorded: str, given: Path, name: str) -> str:
 
 
 def cmd_diagnose(args: argparse.Namespace, out: Output) -> int:
+    from reports.diagnosis import find_unit_file
     from rig.analysis.diagnose import diagnose_run
     from rig.config.station import load_station
     from rig.config.unit_file import load_unit
@@ -59,17 +60,14 @@ def cmd_diagnose(args: argparse.Namespace, out: Output) -> int:
             out.error(f"rig: RUN_ID {args.run_id}: {exc}")
             return EXIT_BAD_INPUT
         sequence = args.sequence or Path(run["sequence_path"])
-        unit_path = args.unit
+        unit_path = find_unit_file(run, args.unit)
         if unit_path is None:
-            if not run["unit"]:
-                raise ConfigError(
-                    [Problem("--unit", "", f"run {args.run_id} names no unit; give --unit FILE")]
-                )
-            recorded = str(run["unit"])
-            if recorded.endswith(".toml"):  # `rig run --unit` records the file itself
-                unit_path = Path(recorded)
-            else:  # the demo records the unit's name, beside its sequence
-                unit_path = sequence.parent / "units" / f"{recorded}.toml"
+            recorded = (
+                f"records unit {run['unit']!r}, not found" if run["unit"] else "names no unit"
+            )
+            raise ConfigError(
+                [Problem("--unit", "", f"run {args.run_id} {recorded}; give --unit FILE")]
+            )
         unit = load_unit(unit_path)
         other = _other_unit(str(run["unit"] or ""), unit_path, unit.name)
         if other:
