@@ -173,3 +173,19 @@ def test_diagnosis_follows_the_ambient_the_run_measured(tmp_path: Path) -> None:
         store.close()
     assert at_file_ambient.hypotheses[0].spec.startswith("drift:coolant=-")
     assert found.hypotheses[0].spec == "none"
+
+
+def test_diagnose_names_the_faults_it_cannot_tell_apart_with_the_first(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # An open sender lead reads the same whichever lead it is (series circuit, Kirchhoff): the
+    # probability printed is the group's, so every member is named on the same row.
+    sequence = SEQUENCES / "ntc-sender-screen.toml"
+    unit = SEQUENCES / "units" / "ntc-sender.toml"
+    with shipped_bench("ntc-sender", ("open:lead_b",), folder=tmp_path) as (_, station):
+        args = ["run", str(sequence), "--station", str(station.path), "--serial", "SN-L"]
+        assert main([*args, "--unit", str(unit), "--yes"]) == 1
+        capsys.readouterr()
+        assert main(["diagnose", "1", "--station", str(station.path)]) == 0
+    first = next(line for line in capsys.readouterr().out.splitlines() if line.startswith("1 "))
+    assert "open:lead_a" in first and "open:lead_b" in first and "(or " in first

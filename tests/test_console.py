@@ -129,6 +129,35 @@ def test_a_failed_run_on_a_known_unit_shows_ranked_hypotheses_or_why_not(tmp_pat
     asyncio.run(scenario())
 
 
+def test_faults_the_sequence_cannot_tell_apart_are_shown_together(tmp_path: Path) -> None:
+    # An open sender lead reads the same whichever lead it is: the probability shown is that of
+    # the group, and the pane names every member (not one lead, with certainty).
+    async def scenario() -> None:
+        faults = ("open:lead_b",)
+        with console_on_bench("ntc-sender", tmp_path, "ntc-sender-screen", faults=faults) as (
+            app,
+            _bench,
+        ):
+            async with app.run_test(size=SIZE) as pilot:
+                screen = await start_run(pilot, "NTC-1002")
+                await wait_for(pilot, lambda: isinstance(app.screen, PromptScreen), "the prompt")
+                await pilot.press("y")
+                await finish(pilot, screen)
+                view = screen.diagnosis
+                assert view is not None
+                if importlib.util.find_spec("rig.analysis.diagnose") is None:  # optional module
+                    return
+                assert not view.unavailable, view.unavailable
+                top = view.hypotheses[0]
+                assert top.same_as, top
+                assert "open:lead_a" in (top.fault, *top.same_as)
+                text = str(screen.query_one("#diagnosis", Static).render())
+                assert "alike to this sequence" in text
+                assert all(name in text for name in top.same_as)
+
+    asyncio.run(scenario())
+
+
 def test_an_empty_scan_starts_nothing_and_says_what_to_do(tmp_path: Path) -> None:
     async def scenario() -> None:
         with console_on_bench("ntc-sender", tmp_path, "ntc-sender-screen") as (app, _bench):

@@ -32,6 +32,11 @@ def suggestion(run_id: int, station: Path) -> str:
     return f"rig diagnose {run_id} --station {station}"
 
 
+def _with_alike(spec: str, same_as: tuple[str, ...] | list[str]) -> str:
+    """A fault with those the sequence cannot tell from it: the probability is theirs together."""
+    return f"{spec} (or {', '.join(same_as)})" if same_as else spec
+
+
 def _other_unit(recorded: str, given: Path, name: str) -> str:
     """The unit the run was recorded with, where it is not the one given (empty otherwise): a
     diagnosis on another unit's model ranks faults of a circuit that was not tested."""
@@ -108,7 +113,7 @@ def cmd_diagnose(args: argparse.Namespace, out: Output) -> int:
     out.table(
         ["#", "probability", "fault", "where"],
         [
-            [str(k), f"{h.probability:.1%}", h.spec, h.where]
+            [str(k), f"{h.probability:.1%}", _with_alike(h.spec, h.same_as), h.where]
             for k, h in enumerate(hypotheses, start=1)
         ],
     )

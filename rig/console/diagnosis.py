@@ -27,7 +27,9 @@ MAX_SHOWN = 5
 class Hypothesis:
     fault: str
     probability: float
+    """Of the fault and of those ``same_as`` together: the sequence cannot tell them apart."""
     where: str
+    same_as: tuple[str, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -82,7 +84,9 @@ def diagnose(
         log.exception("diagnosis of run %s failed", run_id)
         return DiagnosisView(run_id, unavailable=f"no diagnosis available: {exc!r}")
     hypotheses = tuple(
-        Hypothesis(str(h.spec), float(h.probability), str(h.where or ""))
+        Hypothesis(
+            str(h.spec), float(h.probability), str(h.where or ""), tuple(map(str, h.same_as))
+        )
         for h in list(found.hypotheses)[:MAX_SHOWN]
     )
     return DiagnosisView(run_id, hypotheses, found.next_check)

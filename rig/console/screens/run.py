@@ -326,6 +326,8 @@ class RunScreen(Screen[str | None]):
             text.append(
                 f"{rank}. {h.probability * 100:3.0f} %  {h.fault}\n", "bold" if rank == 1 else ""
             )
+            if h.same_as:  # the percentage is theirs together: the sequence cannot separate them
+                text.append(f"         or, alike to this sequence, {', '.join(h.same_as)}\n")
             if h.where:
                 text.append(f"         {h.where}\n", "dim")
         box.update(text)
