@@ -68,15 +68,29 @@ def _instruments(run: Mapping[str, Any]) -> str:
     )
 
 
+DECISION_NOTE = (
+    "Each value is judged against its limits with its expanded uncertainty U (k = 2, about 95 %, "
+    "GUM) under the step's decision rule (ILAC-G8:09/2019). Under the guarded rule a value within "
+    "U of a limit is conditional: a conditional pass lies inside the limits and a conditional fail "
+    "outside, but this measurement cannot rule out the other side. Retest, or measure with a "
+    "smaller U, before deciding on such a unit."
+)
+
+
+def _answered(s: Mapping[str, Any]) -> bool:
+    """An operator prompt's step: its value is the answer, 1 or 0, not a reading."""
+    return s.get("kind") == "prompt" and s["value"] is not None and math.isfinite(s["value"])
+
+
 def _steps(steps: list[Mapping[str, Any]]) -> str:
     rows = [
         [
             s["position"],
             s["step_id"],
             s["title"],
-            num(s["value"]),
+            ("confirmed" if s["value"] >= 0.5 else "declined") if _answered(s) else num(s["value"]),
             s["unit"],
-            num(s["low"]),
+            "" if _answered(s) else num(s["low"]),
             num(s["high"]),
             num(s["predicted"]),
             num(s["expanded_u"], 3),
@@ -104,8 +118,12 @@ def _steps(steps: list[Mapping[str, Any]]) -> str:
         "verdict",
         "note",
     ]
-    return "<h2>Steps</h2>" + table(
-        headers, rows, numeric=(0, 3, 5, 6, 7, 8, 9, 11), verdict_column=12, table_id="steps"
+    return (
+        "<h2>Steps</h2>"
+        + table(
+            headers, rows, numeric=(0, 3, 5, 6, 7, 8, 9, 11), verdict_column=12, table_id="steps"
+        )
+        + f'<p class="note">{esc(DECISION_NOTE)}</p>'
     )
 
 

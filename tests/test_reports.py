@@ -179,3 +179,18 @@ def test_bad_run_id_and_places_are_reported_without_traceback(
         main(["report", "first", "--store", str(store_path)])
     assert stop.value.code == 2
     assert "RUN: expected a run id (a whole number" in capsys.readouterr().err
+
+
+def test_the_record_gives_a_prompts_answer_and_says_what_conditional_means(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # ILAC-G8:09/2019 decision rules: the record a customer gets says what a conditional verdict
+    # is; an operator's answer reads as one, not as 1 against a limit of 0.5
+    with shipped_bench("ntc-sender", folder=tmp_path) as (_, station):
+        run_plan(shipped_plan("ntc-sender-screen", station), "R-1", ask=lambda text: True)
+        assert main(["report", "1", "--station", str(station.path), "--out", "-"]) == 0
+    page = capsys.readouterr().out
+    steps = page.split('id="steps"')[1].split("</table>")[0]
+    place = next(row for row in steps.split("<tr") if ">place<" in row)
+    assert ">confirmed<" in place and ">0.5<" not in place
+    assert "ILAC-G8" in page and "conditional fail" in page.split('id="steps"')[1]

@@ -17,6 +17,7 @@ from rig.demo import CASES, run_demo
 from rig.runner import run_plan
 from rig.stats.filters import FilterError, RunFilter, make_filter
 from rig.stats.from_store import shop_stats
+from rig.stats.yields import runs_frame, screen_outcomes, units_frame
 from rig.store import ResultStore
 
 PASSING = ("pass", "conditional pass")
@@ -54,7 +55,28 @@ def test_yield_and_screens_match_the_stored_runs(demo_store: Path) -> None:
         )
         assert table.loc[sequence, "final_yield"] == pytest.approx(sum(last.values()) / len(last))
         screens = stats.screens.set_index("sequence")
-        assert screens.loc[sequence, "no_fault_found"] == sum(last.values())
+        last_verdicts = {r["serial"]: r["verdict"] for r in mine if r["status"] == "complete"}
+        assert screens.loc[sequence, "no_fault_found"] == sum(
+            v == "pass" for v in last_verdicts.values()
+        )
+
+
+def test_a_screen_confirms_only_beyond_the_uncertainty_and_calls_conditional_inconclusive() -> None:
+    # ILAC-G8:2019 (guarded decision rules): a conditional pass or fail lies within the
+    # measurement's uncertainty of a limit, so it decides neither way; a returned unit whose last
+    # verdict is conditional is inconclusive, not a confirmed failure or no fault found.
+    rows = [
+        (1, "A", "screen", "2026-12-01", "complete", "fail"),
+        (2, "B", "screen", "2026-12-01", "complete", "conditional fail"),
+        (3, "C", "screen", "2026-12-01", "complete", "conditional pass"),
+        (4, "D", "screen", "2026-12-01", "complete", "pass"),
+        (5, "E", "screen", "2026-12-01", "aborted", "error"),
+        (6, "B", "screen", "2026-12-02", "complete", "fail"),  # B retested: confirmed now
+    ]
+    screen = screen_outcomes(units_frame(runs_frame(rows))).iloc[0]
+    assert (screen["units"], screen["confirmed_failure"], screen["no_fault_found"]) == (5, 2, 1)
+    assert (screen["inconclusive"], screen["undecided"]) == (1, 1)
+    assert screen["confirmed_share"] == pytest.approx(2 / 3)
 
 
 def test_pareto_and_capability_match_the_stored_steps(demo_store: Path) -> None:

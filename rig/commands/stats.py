@@ -174,18 +174,31 @@ def _print_shop(stats: Any, out: Output) -> None:
     out.line()
     out.line("Screens: last verdict per unit (confirmed failure / no fault found)")
     out.table(
-        ["sequence", "units", "confirmed", "no fault found", "undecided", "confirmed share"],
+        [
+            "sequence",
+            "units",
+            "confirmed",
+            "no fault found",
+            "inconclusive",
+            "undecided",
+            "confirmed share",
+        ],
         [
             [
                 r.sequence,
                 str(r.units),
                 str(r.confirmed_failure),
                 str(r.no_fault_found),
+                str(r.inconclusive),
                 str(r.undecided),
                 _pct(r.confirmed_share),
             ]
             for r in stats.screens.itertuples()
         ],
+    )
+    out.line(
+        "  confirmed: a fail beyond the uncertainty of the reading; no fault found: a pass beyond "
+        "it; inconclusive: a conditional verdict, within it (retest)"
     )
     out.line()
     out.line("Failure Pareto by step")

@@ -44,6 +44,9 @@ def units_frame(runs: pd.DataFrame) -> pd.DataFrame:
             "first_passed": runs["passed"].to_numpy()[first],
             "last_passed": runs["passed"].to_numpy()[last],
             "last_failed": runs["failed"].to_numpy()[last],
+            "last_verdict": np.where(
+                runs["status"].to_numpy() == "complete", runs["verdict"].to_numpy(), ""
+            )[last],
         }
     )
 
@@ -77,22 +80,34 @@ def yield_by_day(units: pd.DataFrame) -> pd.DataFrame:
 
 
 def screen_outcomes(units: pd.DataFrame) -> pd.DataFrame:
-    """Per sequence, the last verdict on each unit: confirmed failure, no fault found, undecided.
+    """Per sequence, the last verdict on each unit: confirmed failure, no fault found,
+    inconclusive, undecided.
 
-    For a screen of returned units a fail confirms the fault and a pass finds none; a last run
-    that did not complete leaves the unit undecided.
+    For a screen of returned units a fail confirms the fault and a pass finds none: each lies
+    beyond the measurement's uncertainty from its limit.  A conditional pass or fail lies within
+    it (ILAC-G8): neither can be defended to a customer as a decision, so the unit is
+    inconclusive (retest, or measure with a smaller uncertainty).  A last run that did not
+    complete leaves the unit undecided.  The confirmed share is over the units decided.
     """
-    grouped = units.groupby("sequence")
-    confirmed = grouped["last_failed"].sum().astype(int)
-    no_fault = grouped["last_passed"].sum().astype(int)
-    units = grouped.size()
+    last = units["last_verdict"]
+    frame = units.assign(
+        confirmed=last == "fail",
+        no_fault=last == "pass",
+        inconclusive=last.isin(("conditional pass", "conditional fail")),
+    )
+    grouped = frame.groupby("sequence")
+    confirmed = grouped["confirmed"].sum().astype(int)
+    no_fault = grouped["no_fault"].sum().astype(int)
+    inconclusive = grouped["inconclusive"].sum().astype(int)
+    count = grouped.size()
     decided = confirmed + no_fault
     table = pd.DataFrame(
         {
-            "units": units,
+            "units": count,
             "confirmed_failure": confirmed,
             "no_fault_found": no_fault,
-            "undecided": units - decided,
+            "inconclusive": inconclusive,
+            "undecided": count - decided - inconclusive,
             "confirmed_share": (confirmed / decided.where(decided > 0)).astype(float),
         }
     )
