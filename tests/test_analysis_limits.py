@@ -260,6 +260,18 @@ def test_cli_prints_toml_to_paste_and_json(capsys: pytest.CaptureFixture[str]) -
     assert "How each tolerance is drawn" in text
 
 
+def test_a_drop_gets_a_bound_on_its_size_only(capsys: pytest.CaptureFixture[str]) -> None:
+    # A drop along a wire or to ground is good when small (common practice, no published
+    # source): a window around the sampled drops would exclude zero and fail a better harness.
+    args = ["limits", str(SEQUENCES / "temp-circuit-check.toml"), "--samples", "5000"]
+    unit = SEQUENCES / "units" / "temp-circuit.toml"
+    assert main([*args, "--unit", str(unit), "--toml"]) == 0
+    pasted = tomllib.loads(capsys.readouterr().out)
+    for drop in ("signal-wire-drop", "sensor-ground-drop"):
+        assert set(pasted[drop]) == {"max"}, pasted[drop]
+    assert set(pasted["signal-at-controller"]) == {"low", "high"}
+
+
 def test_cli_unknown_step_names_the_file_and_option(capsys: pytest.CaptureFixture[str]) -> None:
     sequence = SEQUENCES / "temp-circuit-check.toml"
     unit = SEQUENCES / "units" / "temp-circuit.toml"

@@ -189,11 +189,11 @@ def propose(dist: StepDistribution, false_reject_ppm: float) -> Proposal:
         reach = FigureLimits(
             tail_quantile(finite, alpha).value, tail_quantile(finite, 1 - alpha).value
         )
-    else:
+    else:  # a bound on the size: around the prediction ("tolerance") or around zero ("max")
         need = tail_quantile(np.abs(finite), 1 - alpha)
         tol, tol_text = round_out(need.value, unit, up=True)
         limits = FigureLimits(-tol, tol)
-        toml = {"tolerance": tol_text}
+        toml = {"max" if dist.form == "magnitude" else "tolerance": tol_text}
         method = need.method
         reach = FigureLimits(-need.value, need.value)
     present = present_limits(spec)

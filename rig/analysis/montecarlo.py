@@ -78,7 +78,8 @@ class StepDistribution:
     in % or in the value's unit, ``ratiometric`` in percentage points)."""
     figure_unit: str
     form: str
-    """"window" (low/high limits) or "tolerance" (± around the prediction)."""
+    """"window" (low/high limits), "tolerance" (± around the prediction) or "magnitude" (a
+    bound on the size alone, ``max``)."""
 
 
 @dataclass
@@ -169,6 +170,8 @@ def figure_form(spec: StepSpec) -> tuple[str, str]:
         return ("%" if kind == "pct" else str(spec.params["unit"])), "tolerance"
     if spec.kind == "ratiometric":
         return "%", "tolerance"
+    if KINDS[spec.kind].small_is_good:
+        return step_unit(spec), "magnitude"
     return step_unit(spec), "window"
 
 

@@ -141,6 +141,8 @@ def _limits_text(limits: FigureLimits | None, unit: str, form: str) -> str:
         return "(none)"
     if form == "tolerance":
         return f"±{show(limits.high, unit)}"
+    if form == "magnitude" and limits.low is not None and limits.low == -(limits.high or 0.0):
+        return f"|x| ≤ {show(limits.high, unit)}"
     low = "-inf" if limits.low is None else show(limits.low, unit)
     high = "+inf" if limits.high is None else show(limits.high, unit)
     return f"{low} .. {high}"

@@ -116,6 +116,10 @@ class StepKind(ABC):
     engine then knows a step's last reading when it comes and the next step's first route
     before it starts, and sends that route's relay change at once: the contacts move while the
     step is computed, judged and filed."""
+    small_is_good: bool = False
+    """True for kinds whose good value is near zero and only its size matters (a voltage drop
+    along a wire or to ground): limits proposed for them bound the size alone (``max``), since
+    a unit better than the ones sampled must not fail a lower limit."""
     overload_is_a_result: bool = False
     """True where an overload reading is itself a result the step judges (an isolation reading
     above the range proves at least the range): the engine's reading guard then leaves the

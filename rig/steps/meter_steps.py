@@ -50,6 +50,7 @@ class GroundDrop(Volts):
     """Voltage drop from a ground pin of the unit to bench ground (default: the fixture's)."""
 
     name = "ground-drop"
+    small_is_good = True
 
     def parse(self, sec: Section, spec: StepSpec) -> None:
         read_pins(sec, spec, "pin")
@@ -70,6 +71,7 @@ class WireDrop(StepKind):
     name = "wire-drop"
     unit = "V"
     routes_in_order = True
+    small_is_good = True
 
     def parse(self, sec: Section, spec: StepSpec) -> None:
         read_pins(sec, spec, "from", "to", "reference")
