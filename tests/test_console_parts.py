@@ -19,6 +19,7 @@ from rig.console.words import (
     pins_text,
     quantity_cells,
     run_verdict,
+    stored_run_word,
 )
 from rig.console.worker import (
     GuardedRelays,
@@ -308,3 +309,14 @@ def test_the_bench_is_not_closed_under_the_stops_make_safe(tmp_path: Path) -> No
         made = [i for i in inbox.take(100) if isinstance(i, SafeStateMade)]
         assert made and made[0].failures == ()
         assert bench.state()["closed_relays"] == []
+
+
+def test_a_stored_run_reads_as_the_run_screen_said_it() -> None:
+    # an aborted run's record verdict is "error" (docs/sequence-file.md): the history still says
+    # ABORTED, as the run screen did when it ended
+    assert stored_run_word("aborted", "error") == "ABORTED"
+    assert stored_run_word("incomplete", None) == "INCOMPLETE"
+    assert stored_run_word("running", None) == "RUNNING"
+    assert (
+        stored_run_word("complete", "conditional fail") == VERDICT_WORDS[Verdict.CONDITIONAL_FAIL]
+    )

@@ -11,8 +11,7 @@ from textual.widgets import DataTable
 
 from rig.console.big_letters import big_letters, width_of
 from rig.console.chart import Chart, render
-from rig.console.words import RunVerdict, verdict_word
-from rig.judge.decision import Verdict
+from rig.console.words import RunVerdict, stored_run_word
 
 
 class StatusPanel(Widget):
@@ -98,8 +97,7 @@ class RunList(DataTable[Any]):
     def show_runs(self, runs: list[dict[str, Any]], time_text: Callable[[str], str]) -> None:
         self.clear()
         for run in runs:
-            verdict = run["verdict"] or "running"
-            word = verdict_word(Verdict(verdict)) if verdict in _VALUES else verdict.upper()
+            word = stored_run_word(str(run["status"] or ""), run["verdict"])
             self.add_row(
                 str(run["id"]),
                 run["serial"],
@@ -114,6 +112,3 @@ class RunList(DataTable[Any]):
         event.stop()
         if event.row_key.value is not None:
             self._opener(int(event.row_key.value))
-
-
-_VALUES = {v.value for v in Verdict}

@@ -36,8 +36,19 @@ _PREFIXES = {-9: "n", -6: "u", -3: "m", 0: "", 3: "k", 6: "M", 9: "G"}
 _SYMBOLS = {"degC": "°C", "ohm": "ohm"}
 
 
+VERDICT_VALUES = frozenset(v.value for v in Verdict)
+
+
 def verdict_word(verdict: Verdict) -> str:
     return VERDICT_WORDS[verdict]
+
+
+def stored_run_word(status: str, verdict: str | None) -> str:
+    """A stored run's outcome in the word the run screen gave it: its verdict once complete,
+    ABORTED (or INCOMPLETE) otherwise (the record's verdict of such a run is ``error``)."""
+    if status == "complete" and verdict in VERDICT_VALUES:
+        return verdict_word(Verdict(verdict))
+    return status.upper() if status else "RUNNING"
 
 
 @dataclass(frozen=True)

@@ -16,7 +16,7 @@ from textual.widgets import DataTable, Footer, Static
 
 from rig.console.setup import ConsoleSetup
 from rig.console.widgets import RunList
-from rig.console.words import VERDICT_STYLES, kind_cells, verdict_word
+from rig.console.words import VERDICT_STYLES, kind_cells, stored_run_word, verdict_word
 from rig.judge.decision import Limits, Verdict
 from rig.store import ResultStore
 
@@ -95,7 +95,7 @@ class RecordScreen(Screen[None]):
     def on_mount(self) -> None:
         run = self.store.run(self.run_id)
         verdict = run["verdict"]
-        word = verdict_word(Verdict(verdict)) if verdict else "RUNNING"
+        word = stored_run_word(str(run["status"] or ""), verdict)
         style = VERDICT_STYLES[Verdict(verdict)] if verdict else ""
         head = Text()
         head.append(f"Run {run['id']}  ", "bold")
