@@ -36,7 +36,8 @@ class Planted:
     kind: str
     """The finding kind it must produce."""
     words: tuple[str, ...]
-    """Text the finding must contain."""
+    """Text the finding must contain: the wire-list words a technician works by (pins, nets,
+    wire ids)."""
 
 
 def plant_faults(nets: int, splices: int, spare_pins: list[str], seed: int) -> list[Planted]:
@@ -52,13 +53,15 @@ def plant_faults(nets: int, splices: int, spare_pins: list[str], seed: int) -> l
             break
         i = order.pop()
         if kind == "open":
-            planted.append(Planted(BuildFault("open", f"W{i}"), "open", (f"A-{i}", f"B-{i}")))
+            planted.append(
+                Planted(BuildFault("open", f"W{i}"), "open", (f"A-{i}", f"B-{i}", f"(wire W{i}"))
+            )
         elif kind == "high":
             fault = BuildFault("high", f"W{i}", ohm=0.5)
-            planted.append(Planted(fault, "high-resistance", (f"N{i}:", "limit")))
+            planted.append(Planted(fault, "high-resistance", (f"N{i}:", "limit", f"(wire W{i}")))
         elif kind == "very-high":
             fault = BuildFault("high", f"W{i}", ohm=2000.0)
-            planted.append(Planted(fault, "high-resistance", (f"N{i}:", "only through")))
+            planted.append(Planted(fault, "high-resistance", (f"N{i}:", "only through", f"W{i}")))
         elif kind == "short":
             j = order.pop()
             fault = BuildFault("short", f"W{i}", other=f"W{j}")
@@ -78,7 +81,9 @@ def plant_faults(nets: int, splices: int, spare_pins: list[str], seed: int) -> l
             planted.append(Planted(fault, "miswire", (f"A-{i} reaches B-{j}, expected B-{i}",)))
     if splices:
         planted.append(
-            Planted(BuildFault("missing-splice", "W1c"), "splice", ("C-1 does not reach", "SP1"))
+            Planted(
+                BuildFault("missing-splice", "W1c"), "splice", ("C-1 does not reach", "SP1", "W1c")
+            )
         )
     return planted
 

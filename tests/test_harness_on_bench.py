@@ -4,6 +4,7 @@ pty to the relay box, a real SQLite store; through ``rig run`` and ``rig harness
 from __future__ import annotations
 
 import json
+import re
 import sqlite3
 from collections.abc import Iterator
 from contextlib import contextmanager
@@ -171,7 +172,7 @@ def test_capture_a_good_harness_then_check_others_against_it(tmp_path: Path, cap
             code = main([*args, "--ambient", "30 degC", "--json"])
         out = json.loads(capsys.readouterr().out)
         assert code == expected, out["notes"]
-    assert any("net N2: A-2 to B-2 reads" in n for n in out["notes"])
+    assert any(re.match(r"net N2: A-2 to B-2 \(wire \w+\) reads", n) for n in out["notes"])
 
 
 def test_bad_wire_list_is_reported_by_row_column_and_value(tmp_path: Path, capsys) -> None:  # type: ignore[no-untyped-def]

@@ -84,13 +84,30 @@ def name_findings(
     return findings
 
 
+def _along(net: Net | None, a: str, b: str) -> str:
+    """The wires between two pins of a net, as a technician finds them on the bench: by id, and
+    colour where the list gives one (`` (wire W7, violet)``); empty where the list cannot say."""
+    if net is None:
+        return ""
+    try:
+        rows = net.path(a, b)
+    except (KeyError, ValueError):
+        return ""
+    if len(rows) == 1:
+        row = rows[0]
+        return f" (wire {row.wire}, {row.colour})" if row.colour else f" (wire {row.wire})"
+    return f" (wires {', '.join(r.wire for r in rows)})" if rows else ""
+
+
 def _over_limit(continuity: Sequence[ContinuityResult], wires: WireList) -> list[Finding]:
     bad = (Verdict.FAIL, Verdict.CONDITIONAL_FAIL)
+    nets = {net.name: net for net in wires.nets}
     return [
         Finding(
             "high-resistance",
-            f"net {r.check.net}: {r.check.hi} to {r.check.lo} reads {_ohm(r.value_ohm)}, "
-            f"limit {_ohm(r.check.limit.max_ohm)}",
+            f"net {r.check.net}: {r.check.hi} to {r.check.lo}"
+            f"{_along(nets.get(r.check.net), r.check.hi, r.check.lo)} reads "
+            f"{_ohm(r.value_ohm)}, limit {_ohm(r.check.limit.max_ohm)}",
             (r.check.hi, r.check.lo),
             (r.check.net,),
         )
@@ -112,8 +129,8 @@ def _weak_joins(
             found.append(
                 Finding(
                     "high-resistance",
-                    f"net {net_a.name}: {a} reaches {b} only through {_ohm(join.r_ohm)}, "
-                    "above the continuity range",
+                    f"net {net_a.name}: {a} reaches {b}{_along(net_a, a, b)} only through "
+                    f"{_ohm(join.r_ohm)}, above the continuity range",
                     (a, b),
                     (net_a.name,),
                 )
@@ -152,7 +169,7 @@ def _split(
                     Finding(
                         "splice",
                         f"{cut_off} does not reach {rest} of net {net.name}: missing splice or "
-                        f"broken branch at splice {splices[-1]}",
+                        f"broken branch at splice {splices[-1]}{_along(net, a, b)}",
                         (*pins, *parts[main]),
                         (net.name,),
                     )
@@ -161,7 +178,7 @@ def _split(
                 found.append(
                     Finding(
                         "open",
-                        f"net {net.name} open: {a} does not reach {b}",
+                        f"net {net.name} open: {a} does not reach {b}{_along(net, a, b)}",
                         (a, b),
                         (net.name,),
                     )
