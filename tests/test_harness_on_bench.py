@@ -125,6 +125,7 @@ def test_group_isolation_through_the_real_stack_agrees_with_pair_by_pair(tmp_pat
     store = tmp_path / "data" / "results.sqlite"
     with sqlite3.connect(store) as db:
         notes = [r[0] for r in db.execute("SELECT note FROM steps ORDER BY run_id")]
+        named = db.execute("SELECT DISTINCT sequence_name, sequence_path FROM runs").fetchall()
         counts = dict(
             db.execute(
                 "SELECT run_id, COUNT(*) FROM readings WHERE settled=1 AND role LIKE 'isolation%'"
@@ -135,6 +136,13 @@ def test_group_isolation_through_the_real_stack_agrees_with_pair_by_pair(tmp_pat
         sorted(t.split(" are joined")[0] for t in n.split("; ") if "short" in t) for n in notes
     ]
     assert shorts[0] == shorts[1] == ["nets N3 and N11", "nets N6 and N7"]
+    # the record names the wire list the harness was proved against, not only its hash
+    assert named == [
+        (
+            f"rig harness check: {wires.path.name}",
+            f"rig harness check of {wires.path} (command line)",
+        )
+    ]
     # each short is read again on the continuity range: a 10 mohm touch between the wire
     # midpoints plus half of each wire and its contacts (invented figures), well under 1 ohm
     assert all("mohm)" in t for n in notes for t in n.split("; ") if "short" in t)

@@ -76,14 +76,19 @@ def _common(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--json", action="store_true", help="one machine-readable summary")
 
 
-def _sequence_text(keys: dict[str, object]) -> str:
-    lines = ["[sequence]", 'name = "rig harness"', "", "[[steps]]", 'id = "harness"']
+def _sequence_text(name: str, keys: dict[str, object]) -> str:
+    lines = ["[sequence]", f"name = {json.dumps(name)}", "", "[[steps]]", 'id = "harness"']
     lines.append('kind = "harness-proof"')
     lines += [f"{key} = {json.dumps(value)}" for key, value in keys.items()]
     return "\n".join(lines) + "\n"
 
 
-def _run(args: argparse.Namespace, out: Output, keys: dict[str, object], what: str) -> int:
+def _run(
+    args: argparse.Namespace, out: Output, keys: dict[str, object], what: str, subject: Path
+) -> int:
+    """One harness-proof step through the engine.  Its record names ``subject`` (the wire list
+    checked against, or the one a capture writes): in the sequence's name, so that statistics
+    keep each wire list's harnesses apart, and in the sequence's place."""
     from rig.cli import EXIT_BAD_INPUT, _exit_code, serial_problem
     from rig.config.reader import TomlDoc
     from rig.config.sequence import parse_sequence
@@ -97,7 +102,8 @@ def _run(args: argparse.Namespace, out: Output, keys: dict[str, object], what: s
         return EXIT_BAD_INPUT
     station = load_station(args.station)
     keys = {**keys, "temperature": args.ambient}
-    doc = TomlDoc(Path(f"rig harness {what} (command line)"), _sequence_text(keys))
+    source = Path(f"rig harness {what} of {subject} (command line)")
+    doc = TomlDoc(source, _sequence_text(f"rig harness {what}: {subject.name}", keys))
     sequence = parse_sequence(doc)
     doc.raise_if_problems()
     plan = build_plan(sequence, station)
@@ -143,7 +149,7 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
         "isolation": args.isolation,
         "contact_allowance": args.contact_allowance,
     }
-    return _run(args, out, keys, "check")
+    return _run(args, out, keys, "check", args.wire_list.resolve())
 
 
 def cmd_capture(args: argparse.Namespace, out: Output) -> int:
@@ -151,7 +157,7 @@ def cmd_capture(args: argparse.Namespace, out: Output) -> int:
     connectors = [c.strip() for c in args.connectors.split(",") if c.strip()]
     if connectors:
         keys["capture_connectors"] = connectors
-    return _run(args, out, keys, "capture")
+    return _run(args, out, keys, "capture", args.out.resolve())
 
 
 def cmd_sim(args: argparse.Namespace, out: Output) -> int:
