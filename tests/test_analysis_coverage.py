@@ -13,13 +13,14 @@ from pathlib import Path
 import pytest
 from bench_helpers import SEQUENCES, shipped_bench, shipped_plan
 
-from rig.analysis.coverage import fault_coverage
+from rig.analysis.coverage import fault_coverage, moves_no_reading
 from rig.analysis.fault_set import DETECTING, single_faults, wire_pairs
-from rig.analysis.predict import SequencePredictor
+from rig.analysis.predict import SequencePredictor, StepPrediction
 from rig.cli import main
 from rig.config.station import Station
 from rig.config.unit_file import load_unit
 from rig.faults import Fault
+from rig.judge.decision import Verdict
 from rig.runner import load_plan
 
 WEAK = Path(__file__).parent / "data" / "weak-temp-check.toml"
@@ -73,6 +74,24 @@ def test_weak_sequence_misses_what_a_window_cannot_see(station: Station) -> None
         "short-ref:ground",
     }
     assert report.coverage_pct == pytest.approx(100 * 7 / 13)
+    # Each of them moves the controller signal by more than its uncertainty (about 0.25 mV): even
+    # the ground wire touching ground, which takes the ground wire's drop of some millivolts out
+    # of the divider (Ohm's law on the shared ground current); so none is unseen.
+    assert [r.fault.spec for r in report.rows if r.unseen] == []
+
+
+def test_a_fault_is_unseen_only_when_no_reading_moves_beyond_its_uncertainty() -> None:
+    good = [StepPrediction("a", 2.0, "V", 0.001, Verdict.PASS), _nan_step()]
+    within = [StepPrediction("a", 2.0009, "V", 0.001, Verdict.PASS), _nan_step()]
+    beyond = [StepPrediction("a", 2.0011, "V", 0.001, Verdict.PASS), _nan_step()]
+    lost = [StepPrediction("a", math.nan, "V", 0.001, Verdict.FAIL), _nan_step()]
+    assert moves_no_reading(good, within)
+    assert not moves_no_reading(good, beyond)
+    assert not moves_no_reading(good, lost)  # a reading that is lost has moved
+
+
+def _nan_step() -> StepPrediction:
+    return StepPrediction("p", math.nan, "", math.nan, Verdict.SKIPPED)  # a prompt: no value
 
 
 def test_coverage_json(station: Station, capsys: pytest.CaptureFixture[str]) -> None:

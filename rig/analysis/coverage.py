@@ -7,11 +7,12 @@ through, so it does not count as detected.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Sequence
 from dataclasses import dataclass
 
 from rig.analysis.fault_set import DETECTING, single_faults
-from rig.analysis.predict import SequencePredictor
+from rig.analysis.predict import SequencePredictor, StepPrediction
 from rig.config.unit_file import UnitModel
 from rig.faults import Fault
 from rig.judge.decision import Verdict
@@ -23,10 +24,28 @@ class CoverageRow:
     fault: Fault
     verdicts: tuple[Verdict, ...]
     """One per step, in plan order."""
+    unseen: bool = False
+    """No reading of the sequence moves by more than its expanded uncertainty with this fault:
+    no limit on these readings could catch it; it needs another reading, or does not change
+    the circuit as these readings see it."""
 
     @property
     def detected(self) -> bool:
         return any(v in DETECTING for v in self.verdicts)
+
+
+def moves_no_reading(good: Sequence[StepPrediction], faulty: Sequence[StepPrediction]) -> bool:
+    """Every step's value under the fault within the step's U of the good unit's (a step with
+    no stated uncertainty counts as moved if its value changes at all)."""
+    for ok, bad in zip(good, faulty, strict=True):
+        if math.isnan(ok.value) != math.isnan(bad.value):
+            return False
+        if math.isnan(ok.value):
+            continue
+        room = ok.expanded_u if math.isfinite(ok.expanded_u) else 0.0
+        if abs(bad.value - ok.value) > room:
+            return False
+    return True
 
 
 @dataclass(frozen=True)
@@ -58,6 +77,7 @@ class CoverageReport:
             "detected": len(self.detected),
             "coverage_pct": round(self.coverage_pct, 2),
             "undetected": [f.spec for f in self.undetected],
+            "unseen": [r.fault.spec for r in self.rows if r.unseen],
             "steps": list(self.steps),
             "good_unit": dict(zip(self.steps, (v.value for v in self.good_unit), strict=True)),
             "matrix": {
@@ -73,8 +93,12 @@ def fault_coverage(
     """Run the plan for every fault (default: the unit's single-fault set)."""
     chosen = list(faults) if faults is not None else single_faults(unit, plan)
     predictor = SequencePredictor(plan, unit)
-    good = tuple(s.verdict for s in predictor.predict())
-    rows = tuple(
-        CoverageRow(fault, tuple(s.verdict for s in predictor.predict([fault]))) for fault in chosen
-    )
-    return CoverageReport(tuple(p.spec.id for p in plan.steps), rows, good)
+    good = predictor.predict()
+    rows = []
+    for fault in chosen:
+        faulty = predictor.predict([fault])
+        rows.append(
+            CoverageRow(fault, tuple(s.verdict for s in faulty), moves_no_reading(good, faulty))
+        )
+    steps = tuple(p.spec.id for p in plan.steps)
+    return CoverageReport(steps, tuple(rows), tuple(s.verdict for s in good))

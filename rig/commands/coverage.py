@@ -73,8 +73,15 @@ def cmd_coverage(args: argparse.Namespace, out: Output) -> int:
     out.line()
     if report.undetected:
         out.line("not detected by any step:")
-        for fault in report.undetected:
-            out.line(f"  {fault.spec}")
+        for row in report.rows:
+            if not row.detected:
+                why = (
+                    " (moves no reading by more than its uncertainty: no limit here can catch "
+                    "it; it needs another reading, or changes nothing these readings see)"
+                    if row.unseen
+                    else " (moves a reading by more than its uncertainty, but within its limits)"
+                )
+                out.line(f"  {row.fault.spec}{why}")
     out.line(
         f"coverage: {len(report.detected)} of {len(report.rows)} single faults "
         f"({report.coverage_pct:.1f} %)"
