@@ -13,7 +13,7 @@ import pandas as pd
 from reports.html_page import esc, figure, page, table
 from reports.run_html import num
 from reports.svg_plots import histogram_chart, pareto_chart, trend_chart
-from rig.stats.from_store import ShopStats, StepStats
+from rig.stats.from_store import RELATIVE, ShopStats, StepStats, deviation_of
 
 SeriesLoader = Callable[[StepStats], Sequence[tuple[dt.datetime, float]]]
 """The (start time, value) series of one step group, in time order."""
@@ -108,11 +108,20 @@ def render_stats(stats: ShopStats, series: SeriesLoader) -> str:
 def series_from_rows(
     rows: Sequence[Sequence[Any]], step: StepStats
 ) -> list[tuple[dt.datetime, float]]:
-    """(time, value) pairs of ``ResultStore.step_series`` rows that share the step's limits."""
+    """(time, value) pairs of ``ResultStore.step_series`` rows that share the step's limits; for
+    a step judged around a prediction, each reading's deviation from it (``model_step_stats``)."""
     found = []
+    model = step.unit == RELATIVE or step.unit.endswith(" off prediction")
     for row in rows:
         _, started, value, low, high = row[:5]
-        if value is None or low != step.low or high != step.high or not math.isfinite(value):
+        predicted = row[9]
+        if value is None or not math.isfinite(value):
+            continue
+        if model:
+            if predicted is None:
+                continue
+            value = deviation_of(float(value), float(predicted), step.unit)
+        elif low != step.low or high != step.high:
             continue
         stamp = dt.datetime.fromisoformat(str(started)).astimezone(dt.UTC).replace(tzinfo=None)
         found.append((stamp, float(value)))

@@ -534,6 +534,19 @@ class ResultStore:
             params,
         )
 
+    def model_step_rows(self, where: RunFilter) -> list[Any]:
+        """The steps judged around a prediction (``predicted`` set): sequence, step, unit,
+        value, predicted, low, high, expanded U, position and verdict, one row a step run.  Their
+        limits move with the prediction, so they are not summed by limits as the others are
+        (``rig.stats.from_store.model_step_stats``)."""
+        sql, params = _run_where(where)
+        return self._rows(
+            "SELECT r.sequence_name, s.step_id, s.unit, s.value, s.predicted, s.low, s.high,"
+            " s.expanded_u, s.position, s.verdict FROM steps s JOIN runs r ON r.id = s.run_id"
+            f" WHERE {sql} AND s.predicted IS NOT NULL ORDER BY r.id, s.position",
+            params,
+        )
+
     def step_moments(self, where: RunFilter) -> list[Any]:
         """Per (sequence, step, unit, low, high): values, sums of d and d^2 with d = value minus
         the step's limit (its low, else its high, else 0), mean expanded uncertainty, first
@@ -549,7 +562,9 @@ class ResultStore:
             f"COUNT(s.value), SUM({d}), SUM({d} * {d}), AVG(s.expanded_u), MIN(s.position),"
             " SUM(CASE WHEN s.verdict IN ('fail', 'conditional fail', 'error') THEN 1 ELSE 0 END)"
         )
-        join = f"FROM steps s JOIN runs r ON r.id = s.run_id WHERE {sql}"
+        # steps judged around a prediction have limits that move from run to run: they are
+        # summed apart, as deviations (``model_step_rows``)
+        join = f"FROM steps s JOIN runs r ON r.id = s.run_id WHERE {sql} AND s.predicted IS NULL"
         coarse = self._rows(
             f"SELECT MIN(r.sequence_name), MAX(r.sequence_name), s.step_id, s.unit, s.low, s.high,"
             f" {sums} {join} GROUP BY s.step_id, s.unit, s.low, s.high",
@@ -576,12 +591,12 @@ class ResultStore:
         return rows
 
     def step_series(self, where: RunFilter, sequence: str, step_id: str) -> list[Any]:
-        """(run_id, started_at, value, low, high, expanded_u, study_part, operator, study_trial)
-        of one step over the matching runs, in time order."""
+        """(run_id, started_at, value, low, high, expanded_u, study_part, operator, study_trial,
+        predicted) of one step over the matching runs, in time order."""
         sql, params = _run_where(where)
         return self._rows(
             "SELECT s.run_id, r.started_at, s.value, s.low, s.high, s.expanded_u, r.study_part,"
-            " r.operator, r.study_trial FROM steps s JOIN runs r ON r.id = s.run_id"
+            " r.operator, r.study_trial, s.predicted FROM steps s JOIN runs r ON r.id = s.run_id"
             f" WHERE {sql} AND r.sequence_name = ? AND s.step_id = ?"
             " ORDER BY r.started_at, s.run_id",
             [*params, sequence, step_id],

@@ -6,6 +6,7 @@ values never pass through Python one by one; runs come as plain rows into one Da
 
 from __future__ import annotations
 
+import math
 import threading
 from collections import Counter
 from collections.abc import Callable
@@ -16,7 +17,7 @@ from typing import Any
 import pandas as pd
 
 from rig.events import NOT_READINGS
-from rig.stats.capability import capability_from_moments, moments_from_sums
+from rig.stats.capability import capability, capability_from_moments, moments_from_sums
 from rig.stats.filters import RunFilter
 from rig.stats.grr import GaugeStudy, GaugeStudyError, Observation, gauge_rr
 from rig.stats.pareto import fault_kind, pareto
@@ -31,6 +32,10 @@ from rig.store import ResultStore
 
 FaultFinder = Callable[[int], str | None]
 """Given a failed run's id, the spec of its most likely fault, or None if none is known."""
+
+
+FAILED = frozenset({"fail", "conditional fail", "error"})
+"""Verdicts counted as failures in the Pareto (as ``ResultStore.step_moments`` counts them)."""
 
 
 @dataclass(frozen=True)
@@ -144,6 +149,97 @@ def step_stats_from(moments: list[Any]) -> list[StepStats]:
     return sorted(found, key=lambda s: (s.sequence, s.position, s.step_id))
 
 
+def model_step_stats(rows: list[Any]) -> list[StepStats]:
+    """``StepStats`` of steps judged around a prediction, from ``ResultStore.model_step_rows``:
+    of each reading's deviation from its prediction, against the tolerance, which stays put
+    while the limits move with the prediction (an NTC's with the measured temperature).  The
+    deviation is in the step's unit where the limits keep their offset from the prediction, else
+    in % of the prediction where they keep their ratio to it (a tolerance in %); a step whose
+    limits keep neither is left out."""
+    by_step: dict[tuple[str, str], list[Any]] = {}
+    for row in rows:
+        by_step.setdefault((str(row[0]), str(row[1])), []).append(row)
+    found = []
+    for (sequence, step_id), runs in by_step.items():
+        form = _deviation_form(runs)
+        if form is None:
+            continue
+        unit, low, high, figures = form
+        cap = capability(figures, low, high)
+        us = [float(r[7]) for r in runs if r[7] is not None and math.isfinite(float(r[7]))]
+        found.append(
+            StepStats(
+                sequence,
+                step_id,
+                unit,
+                low,
+                high,
+                cap.n,
+                cap.mean,
+                cap.std,
+                cap.cp,
+                cap.cpk,
+                sum(us) / len(us) if us else None,
+                min(int(r[8]) for r in runs),
+                sum(str(r[9]) in FAILED for r in runs),
+            )
+        )
+    return found
+
+
+def _deviation_form(
+    runs: list[Any],
+) -> tuple[str, float | None, float | None, list[float]] | None:
+    """(unit, low, high, deviations) of a model step's runs, or None where the limits keep no
+    fixed offset nor ratio to the prediction."""
+    unit = str(runs[0][2])
+    # a fixed offset first: where the prediction never moves, a ratio would be fixed too
+    for relative in (False, True):
+        sides: list[tuple[float | None, float | None]] = []
+        figures: list[float] = []
+        for _, _, _, value, predicted, low, high, *_ in runs:
+            scale = abs(float(predicted)) / 100.0 if relative else 1.0
+            if scale == 0.0 or not math.isfinite(scale):
+                break
+            sides.append((_offset(low, predicted, scale), _offset(high, predicted, scale)))
+            if value is not None and math.isfinite(float(value)):
+                named = RELATIVE if relative else unit
+                figures.append(deviation_of(float(value), float(predicted), named))
+        else:
+            if _all_close(sides):
+                low, high = sides[0]
+                named = RELATIVE if relative else f"{unit} off prediction"
+                return named, low, high, figures
+    return None
+
+
+RELATIVE = "% of prediction"
+"""The unit of a model step's deviation where its limits keep a ratio to the prediction."""
+
+
+def deviation_of(value: float, predicted: float, unit: str) -> float:
+    """A reading's deviation from its prediction, in the unit ``model_step_stats`` gave its
+    step (``RELATIVE``, or the step's unit "off prediction")."""
+    scale = abs(predicted) / 100.0 if unit == RELATIVE else 1.0
+    return (value - predicted) / scale
+
+
+def _offset(limit: Any, predicted: Any, scale: float) -> float | None:
+    """A limit's distance from the prediction, in units of ``scale``."""
+    return None if limit is None else (float(limit) - float(predicted)) / scale
+
+
+def _all_close(sides: list[tuple[float | None, float | None]]) -> bool:
+    """Every run's limits at the same place against its prediction."""
+    first = sides[0]
+    return all(
+        (a is None and b is None)
+        or (a is not None and b is not None and math.isclose(a, b, rel_tol=1e-6, abs_tol=1e-12))
+        for side in sides
+        for a, b in zip(first, side, strict=True)
+    )
+
+
 def shop_stats(
     store: ResultStore, where: RunFilter, find_fault: FaultFinder | None = None
 ) -> ShopStats:
@@ -151,7 +247,8 @@ def shop_stats(
     moments = step_moments_alongside(store, where)
     runs = runs_frame(store.run_rows(where))
     units = units_frame(runs)
-    groups = step_stats_from(moments.result())
+    groups = step_stats_from(moments.result()) + model_step_stats(store.model_step_rows(where))
+    groups.sort(key=lambda g: (g.sequence, g.position, g.step_id))
     by_step = Counter[str]()
     for group in groups:
         by_step[f"{group.sequence} / {group.step_id}"] += group.failures
@@ -194,6 +291,6 @@ def stored_study(store: ResultStore, where: RunFilter, sequence: str, step_id: s
             float("nan") if value is None else value,
             where=f"run {run_id}",
         )
-        for run_id, _, value, _, _, _, part, operator, trial in rows
+        for run_id, _, value, _, _, _, part, operator, trial, _ in rows
     ]
     return gauge_rr(observations)
