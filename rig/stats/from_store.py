@@ -17,7 +17,12 @@ from typing import Any
 import pandas as pd
 
 from rig.events import NOT_READINGS
-from rig.stats.capability import capability, capability_from_moments, moments_from_sums
+from rig.stats.capability import (
+    Capability,
+    capability,
+    capability_from_moments,
+    moments_from_sums,
+)
 from rig.stats.filters import RunFilter
 from rig.stats.grr import GaugeStudy, GaugeStudyError, Observation, gauge_rr
 from rig.stats.pareto import fault_kind, pareto
@@ -129,24 +134,28 @@ def step_stats_from(moments: list[Any]) -> list[StepStats]:
         shift = low if low is not None else (high if high is not None else 0.0)
         mean, std = moments_from_sums(int(n), float(sum_d or 0), float(sum_d2 or 0), shift)
         cap = capability_from_moments(int(n), mean, std, low, high)
+        mean_u = None if mean_u is None else float(mean_u)
         found.append(
-            StepStats(
-                sequence,
-                step_id,
-                unit,
-                low,
-                high,
-                cap.n,
-                cap.mean,
-                cap.std,
-                cap.cp,
-                cap.cpk,
-                None if mean_u is None else float(mean_u),
-                int(position),
-                int(failures or 0),
-            )
+            _stats(sequence, step_id, unit, (low, high), cap, mean_u, int(position), failures)
         )
     return sorted(found, key=lambda s: (s.sequence, s.position, s.step_id))
+
+
+def _stats(
+    sequence: str,
+    step_id: str,
+    unit: str,
+    limits: tuple[float | None, float | None],
+    cap: Capability,
+    mean_u: float | None,
+    position: int,
+    failures: int | None,
+) -> StepStats:
+    low, high = limits
+    return StepStats(
+        sequence, step_id, unit, low, high, cap.n, cap.mean, cap.std, cap.cp, cap.cpk, mean_u,
+        position, int(failures or 0),
+    )  # fmt: skip
 
 
 def model_step_stats(rows: list[Any]) -> list[StepStats]:
@@ -167,23 +176,9 @@ def model_step_stats(rows: list[Any]) -> list[StepStats]:
         unit, low, high, figures = form
         cap = capability(figures, low, high)
         us = [float(r[7]) for r in runs if r[7] is not None and math.isfinite(float(r[7]))]
-        found.append(
-            StepStats(
-                sequence,
-                step_id,
-                unit,
-                low,
-                high,
-                cap.n,
-                cap.mean,
-                cap.std,
-                cap.cp,
-                cap.cpk,
-                sum(us) / len(us) if us else None,
-                min(int(r[8]) for r in runs),
-                sum(str(r[9]) in FAILED for r in runs),
-            )
-        )
+        mean_u = sum(us) / len(us) if us else None
+        position, failures = min(int(r[8]) for r in runs), sum(str(r[9]) in FAILED for r in runs)
+        found.append(_stats(sequence, step_id, unit, (low, high), cap, mean_u, position, failures))
     return found
 
 
