@@ -127,6 +127,32 @@ def _steps(steps: list[Mapping[str, Any]]) -> str:
     )
 
 
+def _nets(steps: list[Mapping[str, Any]]) -> str:
+    """A harness proof's continuity net by net: each reading against its limit, the figures a
+    shop ships or rejects a harness on (kept in the step's extras as ``net N A>B ohm`` and
+    ``... max_ohm``)."""
+    rows = []
+    for s in steps:
+        extras = s.get("extras") or {}
+        if s.get("kind") != "harness-proof" or not isinstance(extras, Mapping):
+            continue
+        for key, value in extras.items():
+            if not (key.startswith("net ") and key.endswith(" ohm")) or key.endswith(" max_ohm"):
+                continue
+            name = key.removesuffix(" ohm")
+            net, _, ends = name.removeprefix("net ").rpartition(" ")
+            hi, _, lo = ends.partition(">")
+            limit = extras.get(f"{name} max_ohm")
+            within = limit is not None and math.isfinite(value) and value <= limit
+            rows.append(
+                [s["step_id"], net, hi, lo, num(value), num(limit), "within" if within else "OVER"]
+            )
+    if not rows:
+        return ""
+    headers = ["step", "net", "from", "to", "reading (ohm)", "limit (ohm)", "against limit"]
+    return "<h2>Continuity, net by net</h2>" + table(headers, rows, numeric=(4, 5), table_id="nets")
+
+
 def _margins(steps: list[Mapping[str, Any]]) -> str:
     labels, positions, half = [], [], []
     for s in steps:
@@ -199,6 +225,7 @@ def render_run(record: Mapping[str, Any]) -> str:
         _header(run),
         _instruments(run),
         _steps(record["steps"]),
+        _nets(record["steps"]),
         _margins(record["steps"]),
         _diagnosis(record.get("diagnosis")),
         _readings(record["readings"]),

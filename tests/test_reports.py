@@ -16,6 +16,7 @@ from bench_helpers import SEQUENCES, shipped_bench, shipped_plan
 from reports.html_page import esc
 from reports.run_export import csv_safe, run_record
 from rig.cli import main
+from rig.demo import HARNESS_CASES, run_demo
 from rig.runner import run_plan
 from rig.store import ResultStore
 
@@ -194,3 +195,19 @@ def test_the_record_gives_a_prompts_answer_and_says_what_conditional_means(
     place = next(row for row in steps.split("<tr") if ">place<" in row)
     assert ">confirmed<" in place and ">0.5<" not in place
     assert "ILAC-G8" in page and "conditional fail" in page.split('id="steps"')[1]
+
+
+def test_a_harness_record_gives_each_nets_reading_against_its_limit(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # what a shop ships a harness on: every net's continuity reading and its limit, in the record
+    _, runs = run_demo(tmp_path, cases=HARNESS_CASES[:1])  # the good harness
+    assert runs[0].summary.verdict.value == "pass"
+    station = tmp_path / "station-harness.toml"
+    assert main(["report", "1", "--station", str(station), "--out", "-"]) == 0
+    page = capsys.readouterr().out
+    assert "Continuity, net by net" in page
+    nets = page.split('id="nets"')[1].split("</table>")[0]
+    proof = next(r for r in runs[0].summary.results if r.kind == "harness-proof")
+    assert nets.count("<tr") - 1 == sum(1 for key in proof.extras if key.endswith(" max_ohm"))
+    assert "OVER" not in nets and nets.count(">within<") >= int(proof.extras["nets"])

@@ -17,7 +17,7 @@ from rig.cli import main
 from rig.config.fixture import load_fixture
 from rig.config.station import load_station
 from rig.config.unit_file import load_unit
-from rig.demo import CASES, run_demo
+from rig.demo import CASES, HARNESS_CASES, run_demo
 from rig.runner import run_plan
 from rig.sim.bench import VirtualBench
 from rig.stats.filters import FilterError, RunFilter, make_filter
@@ -281,3 +281,16 @@ def test_an_ntc_step_at_several_temperatures_is_one_capability_row(tmp_path: Pat
         (-5, 5)
     )
     assert abs(rows[0].mean) < 1.0  # good senders: within a fraction of a per cent of the curve
+
+
+def test_a_harness_proofs_own_findings_fill_the_fault_kind_pareto(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # the proof names its faults in the wire list's words; the Pareto takes their kind from it
+    # instead of calling the run "not diagnosed" (the demo builds W4 and W5 swapped)
+    _, runs = run_demo(tmp_path, cases=HARNESS_CASES)
+    assert [r.summary.verdict.value for r in runs] == ["pass", "fail"]
+    assert main(["stats", "--station", str(tmp_path / "station-harness.toml"), "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    assert data["pareto_by_fault_kind"] is not None
+    assert {r["fault_kind"]: r["count"] for r in data["pareto_by_fault_kind"]} == {"swap": 1}

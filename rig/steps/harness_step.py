@@ -101,6 +101,9 @@ def report_outcome(report: HarnessReport, settings: HarnessSettings, unit: str) 
         extras[f"{key} max_ohm"] = r.check.limit.max_ohm
     if report.isolation is not None:
         extras["isolation_proven_ohm"] = report.isolation.proven_ohm
+    for finding in report.findings:  # by kind, for the failure Pareto of rig stats
+        key = f"found {finding.kind}"
+        extras[key] = extras.get(key, 0.0) + 1.0
     words = [f.text for f in report.findings]
     if report.isolation is not None and math.isfinite(report.isolation.proven_ohm):
         which = "nets not named above" if words else "nets"
