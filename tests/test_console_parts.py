@@ -13,7 +13,7 @@ from rig.bench_open import close_bench, open_bench
 from rig.console.big_letters import ROWS, big_letters
 from rig.console.chart import BrailleCanvas, Chart, Line, Mark, render
 from rig.console.plots import ntc_chart, ntc_nominal, trend_chart
-from rig.console.screens.start import serial_problem
+from rig.console.screens.start import operator_line, serial_problem
 from rig.console.words import (
     VERDICT_WORDS,
     pins_text,
@@ -320,3 +320,10 @@ def test_a_stored_run_reads_as_the_run_screen_said_it() -> None:
     assert (
         stored_run_word("complete", "conditional fail") == VERDICT_WORDS[Verdict.CONDITIONAL_FAIL]
     )
+
+
+def test_the_start_screen_says_who_runs_are_recorded_as() -> None:
+    # a QA or shop record names who tested (common practice, no published source): its absence
+    # is said where every run starts
+    assert operator_line("A. Tester").startswith("Operator: A. Tester")
+    assert "not given" in operator_line("") and "--operator" in operator_line("")

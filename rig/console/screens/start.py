@@ -35,12 +35,21 @@ def serial_problem(text: str) -> str:
     return ""
 
 
+def operator_line(operator: str) -> str:
+    """Who each run is recorded as: a QA or shop record names who tested, so its absence is
+    said where the operator starts every run."""
+    if operator:
+        return f"Operator: {operator} (recorded with each run)"
+    return "Operator: not given; runs are recorded without one (start with --operator NAME)"
+
+
 class StartScreen(Screen[None]):
     """Where each unit's test begins."""
 
     DEFAULT_CSS = """
     StartScreen #start-title { text-style: bold; height: 1; }
     StartScreen #start-bench { color: $text-muted; height: auto; }
+    StartScreen #start-operator { color: $text-muted; height: auto; }
     StartScreen #start-left { width: 52; padding: 1 1; }
     StartScreen #start-right { width: 1fr; padding: 1 1; }
     StartScreen .label { text-style: bold; margin-top: 1; }
@@ -73,6 +82,7 @@ class StartScreen(Screen[None]):
         yield Static(f"rig console · station {station.name}", id="start-title")
         if self.setup.bench_label:
             yield Static(self.setup.bench_label, id="start-bench")
+        yield Static(operator_line(self.setup.operator), id="start-operator")
         with Horizontal():
             with Vertical(id="start-left"):
                 yield Static("Serial number (scan, or type and press Enter)", classes="label")
