@@ -244,14 +244,15 @@ def test_cli_prints_toml_to_paste_and_json(capsys: pytest.CaptureFixture[str]) -
     ]
     assert main([*args, "--toml"]) == 0
     pasted = tomllib.loads(capsys.readouterr().out)
-    assert set(pasted) == {"well-temperature", "sender-resistance", "sender-4wire"}
+    assert set(pasted) == {"sender-resistance", "sender-4wire"}  # not the bench's own Pt100
     assert set(pasted["sender-resistance"]) == {"tolerance"}
     assert set(pasted["sender-4wire"]) == {"low", "high"}
 
     assert main([*args, "--json"]) == 0
     data = json.loads(capsys.readouterr().out)
     assert data["samples"] == 5000
-    assert data["skipped"] == [{"id": "place", "reason": "an operator prompt: nothing is measured"}]
+    assert [s["id"] for s in data["skipped"]] == ["place", "well-temperature"]
+    assert data["skipped"][0]["reason"] == "an operator prompt: nothing is measured"
     assert {d["what"] for d in data["draws"]} >= {"ambient", "sensors.sender.r25"}
 
     assert main(args) == 0

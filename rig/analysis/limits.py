@@ -292,6 +292,15 @@ class LimitsStudy:
         return {c.fault for checks in self.checks.values() for c in checks if getattr(c, which)}
 
 
+NOT_PROPOSED = {
+    "reference-temperature": (
+        "the bench's own reference probe: its limits state the temperatures the sequence holds "
+        "for, not a property of the unit to screen"
+    ),
+}
+"""Kinds drawn with the rest (others depend on their values) but given no proposed limits."""
+
+
 def study_limits(
     plan: Plan,
     unit: UnitModel,
@@ -309,10 +318,13 @@ def study_limits(
     predictor = SequencePredictor(plan, unit)
     nominal = predictor.run()
     result = SequenceMonteCarlo(plan, unit, nominal).run(samples, seed)
+    for dist in result.steps:
+        if dist.spec.kind in NOT_PROPOSED:
+            result.skipped[dist.spec.id] = NOT_PROPOSED[dist.spec.kind]
     proposals = [
         propose(dist, false_reject_ppm)
         for dist in result.steps
-        if only is None or dist.spec.id in only
+        if dist.spec.kind not in NOT_PROPOSED and (only is None or dist.spec.id in only)
     ]
     fault_list = list(single_faults(unit, plan) if faults is None else faults)
     study = LimitsStudy(result, false_reject_ppm, proposals, fault_list)
