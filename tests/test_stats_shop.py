@@ -294,3 +294,5 @@ def test_a_harness_proofs_own_findings_fill_the_fault_kind_pareto(
     data = json.loads(capsys.readouterr().out)
     assert data["pareto_by_fault_kind"] is not None
     assert {r["fault_kind"]: r["count"] for r in data["pareto_by_fault_kind"]} == {"swap": 1}
+    # a harness proof ships or rejects a harness: it is no returned-unit screen
+    assert data["screen_outcomes"] == []

@@ -235,6 +235,11 @@ def _all_close(sides: list[tuple[float | None, float | None]]) -> bool:
     )
 
 
+def _without(table: pd.DataFrame, sequences: set[str]) -> pd.DataFrame:
+    """``table``'s rows of every sequence but ``sequences``."""
+    return table[~table["sequence"].isin(sequences)].reset_index(drop=True)
+
+
 def shop_stats(
     store: ResultStore, where: RunFilter, find_fault: FaultFinder | None = None
 ) -> ShopStats:
@@ -244,6 +249,8 @@ def shop_stats(
     units = units_frame(runs)
     groups = step_stats_from(moments.result()) + model_step_stats(store.model_step_rows(where))
     groups.sort(key=lambda g: (g.sequence, g.position, g.step_id))
+    # a harness proof decides ship or reject, not a returned unit's fault: no screen of it
+    harness_proofs = {g.sequence for g in groups if g.unit == "faults"}
     by_step = Counter[str]()
     for group in groups:
         by_step[f"{group.sequence} / {group.step_id}"] += group.failures
@@ -260,7 +267,7 @@ def shop_stats(
         runs=len(runs),
         by_sequence=yield_by_sequence(runs, units),
         by_day=yield_by_day(units),
-        screens=screen_outcomes(units),
+        screens=_without(screen_outcomes(units), harness_proofs),
         pareto_steps=pareto(by_step, "step"),
         pareto_faults=faults,
         fault_note=note,
