@@ -1,10 +1,12 @@
 """The error messages the file-format pages show are what rig prints for the broken files.
 
-Each page's "Error messages" section shows real output on broken files (``bad/f1.toml`` ...).
-Those files are kept in ``tests/data/doc-examples``; each test copies them to ``bad/`` in a
-temporary folder, runs rig on them the way the page says, shortens the temporary folder out of
-the paths as the pages do, and compares every example line with what rig printed, in order.  A
-page whose examples drift from rig's output, or that leaves a line out, fails.
+Each file-format page's "Error messages" section shows real output on broken files
+(``bad/f1.toml`` ...).  Those files are kept in ``tests/data/doc-examples``; each test copies them
+to ``bad/`` in a temporary folder (with the shipped demo fixture and, as ``sequence.toml``, the
+sequence page's complete example beside them), runs rig on them the way the page says, shortens
+the temporary folder out of the paths as the pages do, and compares every example line with what
+rig printed, in order.  A page whose examples drift from rig's output, or that leaves a line out,
+fails.
 
 Source: the pages themselves (``docs/*-file.md``); that documentation examples are checked by
 running them is common practice, no published source.
@@ -54,8 +56,8 @@ def _cli(*args: str) -> Run:
     return run
 
 
-def _check(station: str) -> Run:
-    return _cli("check", "bad/sequence.toml", "--station", f"bad/{station}.toml")
+def _check(station: str, sequence: str = "bad/sequence.toml") -> Run:
+    return _cli("check", sequence, "--station", f"bad/{station}.toml")
 
 
 # What each page runs, in the order its examples show the output.
@@ -70,6 +72,11 @@ PAGES: dict[str, list[Run]] = {
     "unit-file.md": [
         _loader(load_unit, name)
         for name in ("u1", "u2", "u3", "u7", "u6", "u8", "u9", "u4", "nofile")
+    ],
+    "sequence-file.md": [
+        *(_check("station", f"bad/{name}.toml") for name in ("s1", "s2", "s3", "s4", "s5", "s6")),
+        _check("demo-station", "bad/p1.toml"),
+        _check("p-station", "sequence.toml"),
     ],
 }
 
@@ -95,6 +102,8 @@ def test_page_shows_what_rig_prints(
     capsys: pytest.CaptureFixture[str],
 ) -> None:
     shutil.copytree(DATA, tmp_path / "bad")
+    shutil.copy(ROOT / "sequences" / "demo-fixture.toml", tmp_path / "bad")
+    shutil.copy(DATA / "sequence.toml", tmp_path)
     monkeypatch.chdir(tmp_path)
     printed = [line for run in PAGES[page] for line in run(capsys)]
     shown = [line.replace(f"{tmp_path.resolve()}/", "") for line in printed]
