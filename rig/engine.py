@@ -200,6 +200,9 @@ class Engine:
         self._relays_moving: frozenset[int] | None = None
         """A change sent to the relay box whose answer is still to be read (``_move_ahead``)."""
         self._supply_state: SupplyRequest | None = None
+        self._output_due: SupplyRequest | None = None
+        """A supply ``power`` asked for whose output is still off: it comes on once its relays
+        have closed (``_switch_on``)."""
         self._moves = 0
         """Relay and supply changes so far; a settled reading is valid until the next one."""
         self._settled_state: tuple[object, ...] | None = None
@@ -422,6 +425,7 @@ class Engine:
             self._closed = frozenset()
             self._relays_moving = None
             self._supply_state = None
+            self._output_due = None
         if failures:
             return InstrumentError(
                 "the bench could not be brought to the safe state: " + "; ".join(failures)
@@ -453,6 +457,7 @@ class Engine:
         self._closed = frozenset()
         self._relays_moving = None
         self._supply_state = None
+        self._output_due = None
         return failures
 
     # --- one step -----------------------------------------------------------------------------
@@ -520,6 +525,7 @@ class Engine:
         self._closed = frozenset()
         self._relays_moving = None
         self._supply_state = None
+        self._output_due = None
         try:
             self.bench.dmm.reset()
         except (RigError, OSError) as again:
@@ -532,7 +538,8 @@ class Engine:
         if self.stop.is_set():  # the operator's stop switched it off (the console does at once)
             raise StopRequested("stopped by the operator")
         supply = self.bench.supply
-        if self._supply_state is not None and not supply.output_is_on():
+        switched_on = self._supply_state is not None and self._output_due is None
+        if switched_on and not supply.output_is_on():
             raise SupplyWentOff(
                 f"output reads off at the end of step {spec.id}",
                 instrument=supply.name,
@@ -622,6 +629,13 @@ class Engine:
     def _connect(
         self, route: Route, setup: tuple[MeterFunction, float | None, float] | None
     ) -> None:
+        """Close the route's relays, then switch on a supply ``power`` asked for (its relays are
+        closed now: it never switches live)."""
+        self._close(route, setup)
+        if self._output_due is not None:
+            self._switch_on()
+
+    def _close(self, route: Route, setup: tuple[MeterFunction, float | None, float] | None) -> None:
         """Close the route's relays; with the ``setup`` of the reading to come, set the meter up
         while they move (its change then needs no settle of its own: the relays', later, starts
         it)."""
@@ -952,18 +966,31 @@ class Engine:
         return reading_u(self.plan.station, function, value, range_)
 
     def power(self, request: SupplyRequest | None) -> None:
+        """Switch the output off, and for a ``request`` switch it on once the relays that take
+        it to the unit have closed: the supply's relays make and break with no current flowing
+        (cold switching, common practice for relay contacts), and a contact never closes onto
+        a live output.  Where those relays are closed already the output comes on now."""
         if request == self._supply_state:
             return
         self._moves += 1
-        supply = self.bench.supply
-        if request is None:
-            supply.set_output(False)
-        else:
-            supply.set_output(False)
-            supply.set_voltage(request.volts)
-            supply.set_current_limit(request.limit_a)
-            supply.set_output(True)
+        self.bench.supply.set_output(False)
         self._supply_state = request
+        self._output_due = request
+        self._moved_at = time.monotonic()
+        if request is not None and self._relays_moving is None:
+            fixture = self.plan.station.fixture
+            if plan_relays(fixture, Route.supply(request.pos, request.neg)) <= self._closed:
+                self._switch_on()
+
+    def _switch_on(self) -> None:
+        """Program and switch on the supply as ``power`` asked, its relays now closed."""
+        request, self._output_due = self._output_due, None
+        if request is None:
+            return
+        supply = self.bench.supply
+        supply.set_voltage(request.volts)
+        supply.set_current_limit(request.limit_a)
+        supply.set_output(True)
         self._moved_at = time.monotonic()
 
     def supply_current(self, *, role: str) -> Reading:

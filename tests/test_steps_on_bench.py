@@ -272,3 +272,79 @@ def test_a_supply_still_on_at_the_end_is_switched_off_again_with_its_check(
     lines, safe = _powered_run(tmp_path, miss_the_last_off=True)
     assert safe  # the second switch-off worked and was read back
     assert lines[-5:] == ["OUTP OFF", "OUTP?", "OUTP OFF", "SYST:ERR?", "OUTP?"]
+
+
+COLD = """
+[sequence]
+name = "cold"
+reorder = false
+[[steps]]
+id = "unpowered"
+kind = "resistance"
+hi = "P_SIG"
+lo = "P_GND"
+low = "1 ohm"
+high = "1 Mohm"
+[[steps]]
+id = "feed"
+kind = "volts"
+hi = "P_5V"
+lo = "P_GND"
+supply = { pos = "P_5V", neg = "P_GND", voltage = "5 V", limit = "50 mA" }
+nominal = "5 V"
+tolerance = "5 %"
+[[steps]]
+id = "fraction"
+kind = "ratiometric"
+output = "P_SIG"
+power = "P_5V"
+ground = "P_GND"
+range_low = "0 kPa"
+range_high = "500 kPa"
+pressure = "101.3 kPa"
+tolerance = "1 %"
+supply = { pos = "P_5V", neg = "P_GND", voltage = "6 V", limit = "50 mA" }
+[[steps]]
+id = "draw"
+kind = "supply-current"
+supply = { pos = "P_5V", neg = "P_GND", voltage = "5 V", limit = "50 mA" }
+nominal = "8 mA"
+tolerance = "5 %"
+"""
+
+
+def test_the_supplys_relays_never_switch_with_its_output_on(tmp_path: Path) -> None:
+    # Cold switching (common practice for relay contacts, no published source): a relay that
+    # takes the supply to the unit closes and opens with the output off, so no contact makes or
+    # breaks the supply's current; the output comes on once they have landed.
+    from rig.routing import Route, plan_relays
+
+    bench, station_path = _bench(tmp_path, BARE_SENSOR)
+    timeline: list[tuple[frozenset[int], bool]] = []
+    original = bench.relay_box._on_change
+
+    def relays_changed() -> None:
+        timeline.append((bench.relay_box.closed(), bench.supply_settings.output_on))
+        if original is not None:
+            original()
+
+    bench.relay_box._on_change = relays_changed
+    try:
+        seq = tmp_path / "cold.toml"
+        seq.write_text(COLD, encoding="utf-8")
+        plan = build_plan(load_sequence(seq), load_station(station_path))
+        summary = run_plan(plan, "C-1")
+        supply_relays = plan_relays(plan.station.fixture, Route.supply("P_5V", "P_GND"))
+    finally:
+        bench.stop()
+    assert summary.status == "complete", summary.reason
+    assert supply_relays and len(timeline) >= 3
+    before: frozenset[int] = frozenset()
+    for closed, output_on in timeline:
+        moved = (closed ^ before) & supply_relays
+        assert not (moved and output_on), (sorted(moved), "moved with the output on")
+        before = closed
+    # and the powered steps measured a powered unit (the output did come on)
+    results = {r.step_id: r for r in summary.results}
+    assert results["feed"].value == pytest.approx(5.0, rel=0.01)
+    assert results["draw"].value == pytest.approx(0.008, rel=0.05)
