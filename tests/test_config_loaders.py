@@ -405,6 +405,21 @@ def test_station_lists_its_fixtures_problems_too(tmp_path: Path) -> None:
     assert (str(bad_fixture), "pins.CHASSIS.dmm_hi") in where
 
 
+def test_a_lead_zero_pair_must_name_the_fixtures_pins(tmp_path: Path) -> None:
+    # a pair no step can name would never be subtracted: the resistance readings between the
+    # pins meant would keep their fixture leads, silently
+    path = station_file(tmp_path, FIXTURE)
+    text = path.read_text(encoding="utf-8")
+    path.write_text(text + '\n[lead_zero]\n"T1:T9" = "0.1 ohm"\n"T1-T2" = "0.1 ohm"\n')
+    with pytest.raises(ConfigError) as caught:
+        load_station(path)
+    found = {p.key: p.message for p in caught.value.problems}
+    assert "pin 'T9' is not in fixture" in found["lead_zero.T1:T9"]
+    assert "expected a pin pair" in found["lead_zero.T1-T2"]
+    path.write_text(text + '\n[lead_zero]\n"T2:T1" = "0.1 ohm"\n')
+    assert load_station(path).lead_zero_ohm == {"T2:T1": 0.1}
+
+
 def test_station_with_a_missing_fixture(tmp_path: Path) -> None:
     path = station_file(tmp_path, tmp_path / "no-such-fixture.toml")
     with pytest.raises(ConfigError) as caught:

@@ -9,6 +9,7 @@ frequency.  See ``docs/station-file.md``.
 from __future__ import annotations
 
 import datetime as dt
+import math
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -18,6 +19,7 @@ from rig.config.reader import Section, TomlDoc
 from rig.config.store_section import StoreSettings, parse_store
 from rig.errors import ConfigError
 from rig.judge.accuracy import AccuracySpec, AccuracyTable
+from rig.quantity import format_quantity
 
 FUNCTIONS = {"dcv": "V", "res2w": "ohm", "res4w": "ohm", "dci": "A"}
 ROLES = ("dmm", "supply", "relay_box")
@@ -119,7 +121,10 @@ def load_station(path: Path | str) -> Station:
     if zero_sec:
         for pair in list(zero_sec.data):
             value = zero_sec.quantity(pair, "ohm")
-            if value is not None:
+            problem = _pair_problem(pair, fixture)
+            if problem:  # a pair no step can name would never be subtracted, silently
+                zero_sec.problem(pair, problem)
+            elif value is not None:
                 zeros[pair] = value
         zero_sec.reject_unknown()
     store = parse_store(root.table("store"))
@@ -143,6 +148,22 @@ def load_station(path: Path | str) -> Station:
         supply_caps=supply_caps,
         store=store,
     )
+
+
+def _pair_problem(pair: str, fixture: FixtureMap | None) -> str:
+    """Why a ``[lead_zero]`` key names no pair of the fixture's pins (empty when it does)."""
+    pins = pair.split(":")
+    if len(pins) != 2 or not all(p.strip() for p in pins):
+        return 'expected a pin pair such as "S_SIG:S_RET"'
+    if fixture is None:  # the fixture's own problems are listed
+        return ""
+    unknown = [p for p in pins if p not in fixture.pins]
+    if unknown:
+        return (
+            f"pin {', '.join(repr(p) for p in unknown)} is not in fixture {fixture.name!r} "
+            f"({fixture.path.name})"
+        )
+    return ""
 
 
 def _instrument(role: str, sec: Section) -> InstrumentConfig:
@@ -187,7 +208,10 @@ def _accuracy_table(sec: Section) -> AccuracyTable:
             upper = entry.quantity("range", unit, positive=True)
             spec = _spec(entry)
             entry.reject_unknown()
-            if upper is not None:
+            if upper is not None and any(math.isclose(upper, u) for u, _ in rows):
+                shown = format_quantity(upper, unit)
+                entry.problem("range", f"the {shown} range is listed twice; give each range once")
+            elif upper is not None:
                 rows.append((upper, spec))
         if not rows:
             table.problem(function, f"missing; expected [[dmm.accuracy.{function}]] rows")
