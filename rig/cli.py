@@ -214,7 +214,7 @@ def cmd_demo(args: argparse.Namespace, out: Output) -> int:
     out.line(
         f"station files (one per unit, all naming that store): {store_path.parent}/station-*.toml;"
         " try: rig report RUN --station FILE, rig stats --station FILE,"
-        " rig diagnose RUN_ID --station FILE --unit UNIT_FILE"
+        " rig diagnose RUN_ID --station FILE"
     )
     return 0
 
