@@ -184,3 +184,18 @@ def test_a_unit_file_with_values_its_models_refuse_does_not_load(
     last = new.splitlines()[-1]
     assert problem.line == line_with(text, last)
     assert problem.key.endswith(last.split("=")[0].strip())
+
+
+def test_a_temperature_on_a_sensor_it_cannot_change_is_a_problem(tmp_path: Path) -> None:
+    # only an NTC's value is a function of its own temperature (Steinhart-Hart, Beta model); on
+    # a ratiometric sensor the key would be read and silently do nothing
+    base = (SEQUENCES / "units" / "pressure-circuit.toml").read_text(encoding="utf-8")
+    text = swap(base, "../demo-fixture.toml", str(FIXTURE))
+    text = swap(text, 'kind = "ratiometric"', 'kind = "ratiometric"\ntemperature = "80 degC"')
+    path = tmp_path / "unit.toml"
+    path.write_text(text, encoding="utf-8")
+    with pytest.raises(ConfigError) as caught:
+        load_unit(path)
+    (problem,) = caught.value.problems
+    assert problem.key.endswith(".temperature") and "unknown key" in problem.message
+    assert problem.line == line_with(text, 'temperature = "80 degC"')

@@ -352,8 +352,8 @@ def parse_unit(doc: TomlDoc) -> UnitModel:
 
 def _parse_sensor(name: str, sec: Section) -> Sensor | None:
     kind = sec.string("kind", choices=SENSOR_KINDS)
-    temperature = _temperature(sec)
-    if kind == "ntc":
+    if kind == "ntc":  # only an NTC's value depends on its own temperature; elsewhere it is unknown
+        temperature = _temperature(sec)
         a, b = _between(sec)
         if sec.has("steinhart_hart"):
             model = read_steinhart_hart(sec)
