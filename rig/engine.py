@@ -21,7 +21,7 @@ from typing import Any, cast
 
 from drivers.base import Dmm, MeterFunction, RelayBox, Supply
 from rig.commit_ahead import CommitAhead, Pending, RowTicket
-from rig.config.fixture import FixtureMap
+from rig.config.fixture import Bus, FixtureMap
 from rig.config.station import FUNCTIONS, Station
 from rig.deadline import wait_until
 from rig.entry_text import kept_entry_text
@@ -118,6 +118,14 @@ def wear_warnings(wear: dict[int, int], fixture: FixtureMap) -> list[str]:
 
 class StopRequested(RigError):
     """The operator asked to stop the run."""
+
+
+def supply_bus_relays(fixture: FixtureMap) -> frozenset[int]:
+    """The relays that join a fixture pin to the supply's + or - bus."""
+    buses = (Bus.SUPPLY_POS, Bus.SUPPLY_NEG)
+    return frozenset(
+        r for pin in fixture.pins.values() for b, r in pin.relays.items() if b in buses
+    )
 
 
 def make_safe(bench: Bench, *, run_ending: bool = False) -> list[str]:
@@ -645,6 +653,7 @@ class Engine:
         if self._relays_moving is None:
             if relays == self._closed:
                 return
+            self._output_off_for(relays)
             self._moves += 1  # before the change: a failed change must not leave a settled state
             self.bench.relays.send_change(relays)
             self._relays_moving = relays
@@ -981,6 +990,14 @@ class Engine:
             fixture = self.plan.station.fixture
             if plan_relays(fixture, Route.supply(request.pos, request.neg)) <= self._closed:
                 self._switch_on()
+
+    def _output_off_for(self, relays: frozenset[int]) -> None:
+        """Whatever a step asked in what order: a change that moves a relay of the supply's
+        buses finds the output off, and ``_connect`` switches it on again once it has landed."""
+        on = self._supply_state is not None and self._output_due is None
+        if on and (relays ^ self._closed) & supply_bus_relays(self.plan.station.fixture):
+            self.bench.supply.set_output(False)
+            self._output_due = self._supply_state
 
     def _switch_on(self) -> None:
         """Program and switch on the supply as ``power`` asked, its relays now closed."""

@@ -348,3 +348,68 @@ def test_the_supplys_relays_never_switch_with_its_output_on(tmp_path: Path) -> N
     results = {r.step_id: r for r in summary.results}
     assert results["feed"].value == pytest.approx(5.0, rel=0.01)
     assert results["draw"].value == pytest.approx(0.008, rel=0.05)
+
+
+SECOND_SUPPLY_PIN = """
+[sequence]
+name = "two-supply-pins"
+reorder = false
+[[steps]]
+id = "feed"
+kind = "volts"
+hi = "P_5V"
+lo = "P_GND"
+supply = { pos = "P_5V", neg = "P_GND", voltage = "5 V", limit = "50 mA" }
+nominal = "5 V"
+tolerance = "5 %"
+[[steps]]
+id = "back-feed"
+kind = "supply-current"
+supply = { pos = "P_SIG", neg = "P_GND", voltage = "1 V", limit = "20 mA" }
+max = "20 mA"
+"""
+
+
+def test_moving_the_supply_to_other_pins_switches_it_off_first(tmp_path: Path) -> None:
+    # A step that connects before it powers (a supply-current step once did) or a supply moved
+    # to other pins between two powered steps: the output must still be off while the supply's
+    # relays move (cold switching; common practice, no published source). A fixture copy gives
+    # P_SIG a relay to the supply's + bus, so the supply can move from P_5V to P_SIG.
+    from rig.config.fixture import Bus
+
+    fixture_text = FIXTURE.read_text(encoding="utf-8")
+    fixture_text = fixture_text.replace("dmm_lo = 21\n", "dmm_lo = 21\nsupply_pos = 40\n", 1)
+    fixture = tmp_path / "fixture.toml"
+    fixture.write_text(fixture_text, encoding="utf-8")
+    unit_text = BARE_SENSOR.replace(str(FIXTURE), str(fixture))
+    bench, station_path = _bench(tmp_path, unit_text)
+    timeline: list[tuple[frozenset[int], bool]] = []
+    original = bench.relay_box._on_change
+
+    def relays_changed() -> None:
+        timeline.append((bench.relay_box.closed(), bench.supply_settings.output_on))
+        if original is not None:
+            original()
+
+    bench.relay_box._on_change = relays_changed
+    try:
+        seq = tmp_path / "two.toml"
+        seq.write_text(SECOND_SUPPLY_PIN, encoding="utf-8")
+        plan = build_plan(load_sequence(seq), load_station(station_path))
+        summary = run_plan(plan, "C-2")
+        supply_relays = {
+            relay
+            for pin in plan.station.fixture.pins.values()
+            for bus, relay in pin.relays.items()
+            if bus in (Bus.SUPPLY_POS, Bus.SUPPLY_NEG)
+        }
+    finally:
+        bench.stop()
+    assert summary.status == "complete", summary.reason
+    assert 40 in supply_relays
+    before: frozenset[int] = frozenset()
+    for closed, output_on in timeline:
+        moved = (closed ^ before) & supply_relays
+        assert not (moved and output_on), (sorted(moved), "moved with the output on")
+        before = closed
+    assert any(40 in closed for closed, _ in timeline)  # the supply did move to P_SIG

@@ -179,8 +179,8 @@ class SupplyCurrent(StepKind):
         return [Route.supply(spec.supply.pos, spec.supply.neg)]
 
     def run(self, ctx: StepContext, spec: StepSpec) -> Outcome:
+        ctx.power(spec.supply)  # first: the output is off while the route's relays move
         ctx.connect(self.routes(spec)[0])
-        ctx.power(spec.supply)
         ctx.wait(float(spec.params.get("settle_s") or 0.0))
         r = ctx.supply_current(role="supply")
         return Outcome(r.value, self.unit, r.u_std, spec.limits, [r])
