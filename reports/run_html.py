@@ -136,17 +136,17 @@ def _nets(steps: list[Mapping[str, Any]]) -> str:
         extras = s.get("extras") or {}
         if s.get("kind") != "harness-proof" or not isinstance(extras, Mapping):
             continue
-        for key, value in extras.items():
-            if not (key.startswith("net ") and key.endswith(" ohm")) or key.endswith(" max_ohm"):
+        for key, limit in extras.items():
+            if not (key.startswith("net ") and key.endswith(" max_ohm")):
                 continue
-            name = key.removesuffix(" ohm")
+            name = key.removesuffix(" max_ohm")
             net, _, ends = name.removeprefix("net ").rpartition(" ")
             hi, _, lo = ends.partition(">")
-            limit = extras.get(f"{name} max_ohm")
-            within = limit is not None and math.isfinite(value) and value <= limit
-            rows.append(
-                [s["step_id"], net, hi, lo, num(value), num(limit), "within" if within else "OVER"]
-            )
+            value = extras.get(f"{name} ohm")  # absent: no reading (an open net reads overload)
+            within = value is not None and math.isfinite(value) and value <= limit
+            reading = "no reading" if value is None else num(value)
+            verdict = "within" if within else "OVER"
+            rows.append([s["step_id"], net, hi, lo, reading, num(limit), verdict])
     if not rows:
         return ""
     headers = ["step", "net", "from", "to", "reading (ohm)", "limit (ohm)", "against limit"]

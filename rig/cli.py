@@ -291,7 +291,7 @@ def _limits_text(spec: StepSpec) -> str:
     made at run time (the ratiometric tolerance is in points of the supply, not of the value)."""
     from rig.steps import KINDS
 
-    unit = KINDS[spec.kind].unit
+    unit = str(spec.params.get("unit", KINDS[spec.kind].unit))  # an NTC read as a voltage: V
     if spec.kind == "prompt":
         return "confirmed"
     if spec.limits is not None:

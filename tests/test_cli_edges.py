@@ -238,3 +238,16 @@ def test_check_shows_each_steps_limits_as_the_file_sets_them(
     rows = {line.split()[0]: line for line in capsys.readouterr().out.splitlines() if line}
     assert "4.75 V .. 5.25 V" in rows["reference-at-sensor"]  # 5 V +/- 5 %
     assert "model ± 2 % of supply" in rows["output-fraction"]
+
+
+def test_check_gives_an_ntc_read_as_a_voltage_its_tolerance_in_volts(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    text = (SEQUENCES / "temp-circuit-check.toml").read_text(encoding="utf-8")
+    assert 'tolerance = "4 %"' in text
+    sequence = tmp_path / "volts-tolerance.toml"
+    sequence.write_text(text.replace('tolerance = "4 %"', 'tolerance = "0.1 V"'), encoding="utf-8")
+    with shipped_bench("temp-circuit", folder=tmp_path) as (_, station):
+        assert main(["check", str(sequence), "--station", str(station.path)]) == 0
+    row = next(line for line in capsys.readouterr().out.splitlines() if "signal-vs-curve" in line)
+    assert "model ± 100 mV" in row

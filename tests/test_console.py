@@ -204,3 +204,29 @@ def test_history_lists_the_station_runs_and_opens_a_record(tmp_path: Path) -> No
                 assert _cell_text(recent, 0, 1) == "NTC-1003"
 
     asyncio.run(scenario())
+
+
+def test_an_operator_name_with_brackets_is_shown_as_typed(tmp_path: Path) -> None:
+    # what the operator typed is text, not markup: it is shown whole, as the record keeps it,
+    # and a stray closing tag is no crash
+    from dataclasses import replace
+
+    from bench_helpers import SEQUENCES, shipped_bench
+    from console_helpers import console_setup
+
+    from rig.console import ConsoleApp
+
+    name = "Jo [/b] Smith [night shift]"
+
+    async def scenario() -> None:
+        with shipped_bench("ntc-sender", folder=tmp_path) as (bench, station):
+            setup = console_setup(station, SEQUENCES / "ntc-sender-screen.toml", bench=bench)
+            app = ConsoleApp(replace(setup, operator=name))
+            async with app.run_test(size=SIZE) as pilot:
+                await wait_for(pilot, lambda: len(app.screen_stack) > 1, "the cautions")
+                await pilot.press("enter")
+                await wait_for(pilot, lambda: app.cautions_acknowledged, "the start view")
+                shown = str(app.screen.query_one("#start-operator", Static).render())
+                assert name in shown
+
+    asyncio.run(scenario())

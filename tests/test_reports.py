@@ -211,3 +211,22 @@ def test_a_harness_record_gives_each_nets_reading_against_its_limit(
     proof = next(r for r in runs[0].summary.results if r.kind == "harness-proof")
     assert nets.count("<tr") - 1 == sum(1 for key in proof.extras if key.endswith(" max_ohm"))
     assert "OVER" not in nets and nets.count(">within<") >= int(proof.extras["nets"])
+
+
+def test_a_net_with_no_reading_is_listed_over_its_limit() -> None:
+    # an open net reads overload, which the record keeps as no reading: the net is still listed
+    from reports.run_html import _nets
+
+    step = {
+        "step_id": "harness",
+        "kind": "harness-proof",
+        "extras": {
+            "net N1 A-1>B-1 ohm": 0.05,
+            "net N1 A-1>B-1 max_ohm": 0.1,
+            "net N2 A-2>B-2 max_ohm": 0.1,  # its reading was overload
+        },
+    }
+    html = _nets([step])
+    rows = html.split("<tr")[2:]
+    assert len(rows) == 2
+    assert ">within<" in rows[0] and "no reading" in rows[1] and ">OVER<" in rows[1]

@@ -21,7 +21,7 @@ from rig.demo import CASES, HARNESS_CASES, run_demo
 from rig.runner import run_plan
 from rig.sim.bench import VirtualBench
 from rig.stats.filters import FilterError, RunFilter, make_filter
-from rig.stats.from_store import shop_stats
+from rig.stats.from_store import model_step_stats, shop_stats
 from rig.stats.yields import runs_frame, screen_outcomes, units_frame
 from rig.store import ResultStore
 
@@ -296,3 +296,26 @@ def test_a_harness_proofs_own_findings_fill_the_fault_kind_pareto(
     assert {r["fault_kind"]: r["count"] for r in data["pareto_by_fault_kind"]} == {"swap": 1}
     # a harness proof ships or rejects a harness: it is no returned-unit screen
     assert data["screen_outcomes"] == []
+
+
+def test_a_model_step_whose_tolerance_changed_keeps_its_failures() -> None:
+    # rows as ResultStore.model_step_rows gives them: the tolerance went from 5 % to 10 % of the
+    # prediction between runs, so no one offset or ratio holds; the step falls back to one row
+    # per set of limits, on the values, and both failures still count (for the Pareto)
+    rows = [
+        ("s", "ntc", "ohm", 2100.0, 2000.0, 1900.0, 2100.0, 5.0, 3, "pass"),
+        ("s", "ntc", "ohm", 2300.0, 2100.0, 1995.0, 2205.0, 5.0, 3, "fail"),
+        ("s", "ntc", "ohm", 2600.0, 2200.0, 1980.0, 2420.0, 5.0, 3, "fail"),
+    ]
+    found = model_step_stats(rows)
+    assert sum(s.failures for s in found) == 2
+    assert sorted((s.low, s.high, s.n) for s in found) == [
+        (1900.0, 2100.0, 1),
+        (1980.0, 2420.0, 1),
+        (1995.0, 2205.0, 1),
+    ]
+    # and where they do hold (5 % each time), one row in % of the prediction
+    same = [(*r[:5], r[4] * 0.95, r[4] * 1.05, *r[7:]) for r in rows]
+    (one,) = model_step_stats(same)
+    assert one.unit == "% of prediction" and (one.low, one.high) == pytest.approx((-5.0, 5.0))
+    assert one.failures == 2

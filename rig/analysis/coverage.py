@@ -77,7 +77,7 @@ class CoverageReport:
             "detected": len(self.detected),
             "coverage_pct": round(self.coverage_pct, 2),
             "undetected": [f.spec for f in self.undetected],
-            "unseen": [r.fault.spec for r in self.rows if r.unseen],
+            "unseen": [r.fault.spec for r in self.rows if r.unseen and not r.detected],
             "steps": list(self.steps),
             "good_unit": dict(zip(self.steps, (v.value for v in self.good_unit), strict=True)),
             "matrix": {

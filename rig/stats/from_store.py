@@ -164,22 +164,43 @@ def model_step_stats(rows: list[Any]) -> list[StepStats]:
     while the limits move with the prediction (an NTC's with the measured temperature).  The
     deviation is in the step's unit where the limits keep their offset from the prediction, else
     in % of the prediction where they keep their ratio to it (a tolerance in %); a step whose
-    limits keep neither is left out."""
+    limits keep neither gets a row per set of limits, on its values, as a fixed-limit step."""
     by_step: dict[tuple[str, str], list[Any]] = {}
     for row in rows:
         by_step.setdefault((str(row[0]), str(row[1])), []).append(row)
     found = []
     for (sequence, step_id), runs in by_step.items():
         form = _deviation_form(runs)
-        if form is None:
+        if form is not None:
+            unit, low, high, figures = form
+            found.append(_model_row(sequence, step_id, unit, (low, high), figures, runs))
             continue
-        unit, low, high, figures = form
-        cap = capability(figures, low, high)
-        us = [float(r[7]) for r in runs if r[7] is not None and math.isfinite(float(r[7]))]
-        mean_u = sum(us) / len(us) if us else None
-        position, failures = min(int(r[8]) for r in runs), sum(str(r[9]) in FAILED for r in runs)
-        found.append(_stats(sequence, step_id, unit, (low, high), cap, mean_u, position, failures))
+        # limits that keep no one offset nor ratio (the tolerance changed between runs): per
+        # set of limits, on the values, as fixed-limit steps; its failures count all the same
+        by_limits: dict[tuple[Any, Any], list[Any]] = {}
+        for row in runs:
+            by_limits.setdefault((row[5], row[6]), []).append(row)
+        for (low, high), same in by_limits.items():
+            values = [float(r[3]) for r in same if r[3] is not None]
+            unit = str(same[0][2])
+            found.append(_model_row(sequence, step_id, unit, (low, high), values, same))
     return found
+
+
+def _model_row(
+    sequence: str,
+    step_id: str,
+    unit: str,
+    limits: tuple[float | None, float | None],
+    figures: list[float],
+    runs: list[Any],
+) -> StepStats:
+    """One row of ``model_step_stats``: the figures' capability and the runs' failures."""
+    cap = capability(figures, *limits)
+    us = [float(r[7]) for r in runs if r[7] is not None and math.isfinite(float(r[7]))]
+    mean_u = sum(us) / len(us) if us else None
+    position, failures = min(int(r[8]) for r in runs), sum(str(r[9]) in FAILED for r in runs)
+    return _stats(sequence, step_id, unit, limits, cap, mean_u, position, failures)
 
 
 def _deviation_form(
@@ -203,7 +224,7 @@ def _deviation_form(
         else:
             if _all_close(sides):
                 low, high = sides[0]
-                named = RELATIVE if relative else f"{unit} off prediction"
+                named = RELATIVE if relative else f"{_points(unit)} off prediction"
                 return named, low, high, figures
     return None
 
@@ -217,6 +238,11 @@ def deviation_of(value: float, predicted: float, unit: str) -> float:
     step (``RELATIVE``, or the step's unit "off prediction")."""
     scale = abs(predicted) / 100.0 if unit == RELATIVE else 1.0
     return (value - predicted) / scale
+
+
+def _points(unit: str) -> str:
+    """A difference of two values in %, in words that do not read as a share of the prediction."""
+    return "percentage points" if unit == "%" else unit
 
 
 def _offset(limit: Any, predicted: Any, scale: float) -> float | None:

@@ -82,7 +82,7 @@ class StartScreen(Screen[None]):
         yield Static(f"rig console · station {station.name}", id="start-title")
         if self.setup.bench_label:
             yield Static(self.setup.bench_label, id="start-bench")
-        yield Static(operator_line(self.setup.operator), id="start-operator")
+        yield Static(operator_line(self.setup.operator), id="start-operator", markup=False)
         with Horizontal():
             with Vertical(id="start-left"):
                 yield Static("Serial number (scan, or type and press Enter)", classes="label")
