@@ -11,6 +11,7 @@ import importlib.util
 import math
 from pathlib import Path
 
+from bench_helpers import SEQUENCES as SEQUENCES_DIR
 from console_helpers import console_on_bench, finish, start_run, stored_run, wait_for
 from textual.widgets import DataTable, Static
 
@@ -228,5 +229,30 @@ def test_an_operator_name_with_brackets_is_shown_as_typed(tmp_path: Path) -> Non
                 await wait_for(pilot, lambda: app.cautions_acknowledged, "the start view")
                 shown = str(app.screen.query_one("#start-operator", Static).render())
                 assert name in shown
+
+    asyncio.run(scenario())
+
+
+def test_a_prompt_text_with_brackets_is_shown_as_written(tmp_path: Path) -> None:
+    # a sequence's words are text: "[T1]" names a pin, it is not markup to be swallowed
+    text = (SEQUENCES_DIR / "ntc-sender-screen.toml").read_text(encoding="utf-8")
+    asked = "Clip the sender's leads to [T1] and [T2], then press y."
+    sequence = tmp_path / "bracketed.toml"
+    sequence.write_text(
+        text.replace(
+            'text = "Place the sender in the well and clip its two leads to T1 and T2."',
+            f'text = "{asked}"',
+        ),
+        encoding="utf-8",
+    )
+
+    async def scenario() -> None:
+        with console_on_bench("ntc-sender", tmp_path / "bench", sequence) as (app, _bench):
+            async with app.run_test(size=SIZE) as pilot:
+                await start_run(pilot, "NTC-1003")
+                await wait_for(pilot, lambda: isinstance(app.screen, PromptScreen), "the prompt")
+                shown = str(app.screen.query_one("#prompt-text", Static).render())
+                assert asked in shown
+                await pilot.press("s")
 
     asyncio.run(scenario())

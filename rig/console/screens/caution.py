@@ -38,7 +38,7 @@ class CautionScreen(ModalScreen[bool]):
             yield Static("CAUTION: bench work", id="caution-title")
             yield Static(CAUTION, id="caution-text")
             if self.bench_label:
-                yield Static(self.bench_label, id="caution-bench")
+                yield Static(self.bench_label, id="caution-bench", markup=False)
             yield Static("Press Enter to confirm you have read this.", id="caution-keys")
 
     def action_acknowledge(self) -> None:

@@ -42,7 +42,7 @@ class PromptScreen(ModalScreen[bool]):
     def compose(self) -> ComposeResult:
         with Vertical():
             yield Static(f"OPERATOR ACTION ({self.step_id})", id="prompt-title")
-            yield Static(self.text, id="prompt-text")
+            yield Static(self.text, id="prompt-text", markup=False)  # the file's words
             yield Static(
                 "y = yes, done     n = no (the step fails)     s = stop the run", id="prompt-keys"
             )

@@ -79,9 +79,9 @@ class StartScreen(Screen[None]):
 
     def compose(self) -> ComposeResult:
         station = self.setup.station
-        yield Static(f"rig console · station {station.name}", id="start-title")
+        yield Static(f"rig console · station {station.name}", id="start-title", markup=False)
         if self.setup.bench_label:
-            yield Static(self.setup.bench_label, id="start-bench")
+            yield Static(self.setup.bench_label, id="start-bench", markup=False)
         yield Static(operator_line(self.setup.operator), id="start-operator", markup=False)
         with Horizontal():
             with Vertical(id="start-left"):
