@@ -95,16 +95,23 @@ def test_a_failed_commit_aborts_the_run_and_is_never_reported(tmp_path: Path, st
 
 
 class SlowStartStore(ResultStore):
-    """The results store whose run start takes 0.5 s to commit; it counts the queries the
-    virtual supply answered meanwhile."""
+    """The results store whose run start does not commit until the virtual supply has answered
+    the run's first ``expected`` queries (or 2 s have passed): an engine that waited for the
+    commit before asking the supply would leave it at fewer.  Deterministic, however the threads
+    are scheduled."""
 
     supply: Any = None
+    baseline = 0
+    expected = 3
     answered_meanwhile = -1
 
     def start_run(self, *args: Any, **kwargs: Any) -> int:
-        before = self.supply.lines_answered
-        time.sleep(0.5)
-        self.answered_meanwhile = self.supply.lines_answered - before
+        deadline = time.monotonic() + 2.0
+        while self.supply.lines_answered - self.baseline < self.expected:
+            if time.monotonic() > deadline:
+                break
+            time.sleep(0.001)
+        self.answered_meanwhile = self.supply.lines_answered - self.baseline
         return super().start_run(*args, **kwargs)
 
 
@@ -117,12 +124,14 @@ def test_the_run_row_commits_while_the_bench_is_made_safe(tmp_path: Path) -> Non
         store = SlowStartStore(tmp_path / "r.sqlite")
         store.supply = bench.supply
         instruments = open_bench(station)
+        store.baseline = bench.supply.lines_answered
         try:
             summary = Engine(plan, instruments, store).run("SN-START")
         finally:
             close_bench(instruments)
         assert summary.status == "complete"
-        assert store.answered_meanwhile >= 2  # SYST:ERR? and OUTP? during the commit
+        # *IDN?, then SYST:ERR? and OUTP? of the safe start, all answered before the row commits
+        assert store.answered_meanwhile >= store.expected
         assert store.run(summary.run_id)["status"] == "complete"
         store.close()
 
