@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import asyncio
 import importlib.util
+import json
 import math
 from pathlib import Path
 
@@ -254,5 +255,39 @@ def test_a_prompt_text_with_brackets_is_shown_as_written(tmp_path: Path) -> None
                 shown = str(app.screen.query_one("#prompt-text", Static).render())
                 assert asked in shown
                 await pilot.press("s")
+
+    asyncio.run(scenario())
+
+
+def test_a_unit_file_given_to_the_console_is_recorded_and_diagnosed_from(tmp_path: Path) -> None:
+    # `rig console --unit FILE` records the file with each run, as `rig run --unit` does, so the
+    # run can be diagnosed later from its record, here by `rig report`
+    from dataclasses import replace
+
+    from bench_helpers import shipped_bench
+    from console_helpers import console_setup
+
+    from rig.cli import main
+    from rig.console import ConsoleApp
+
+    unit_file = (SEQUENCES_DIR / "units" / "temp-circuit.toml").resolve()
+
+    async def scenario() -> None:
+        with shipped_bench("temp-circuit", ("open:signal",), folder=tmp_path) as (bench, station):
+            setup = console_setup(station, SEQUENCES_DIR / "temp-circuit-check.toml", bench=bench)
+            app = ConsoleApp(replace(setup, unit_file=unit_file))
+            async with app.run_test(size=SIZE) as pilot:
+                screen = await start_run(pilot, "HAR-2002")
+                await finish(pilot, screen)
+                assert screen.summary is not None
+                run, _ = stored_run(app, screen.summary.run_id)
+                assert run["unit"] == str(unit_file)
+                view = screen.diagnosis
+                assert view is not None and not view.unavailable, view
+                assert view.hypotheses[0].fault == "open:signal"
+            report = ["report", str(screen.summary.run_id), "--station", str(station.path)]
+            assert main([*report, "--format", "json", "--out", str(tmp_path / "r.json")]) == 0
+        diagnosis = json.loads((tmp_path / "r.json").read_text(encoding="utf-8"))["diagnosis"]
+        assert diagnosis["available"] and diagnosis["hypotheses"][0]["spec"] == "open:signal"
 
     asyncio.run(scenario())

@@ -106,7 +106,8 @@ def _opened(args: argparse.Namespace) -> Iterator[ConsoleSetup]:
         station = load_station(args.station)
         plans = [load_plan(path, station) for path in args.sequences]
         unit = load_unit(args.unit) if args.unit is not None else None
-        yield ConsoleSetup(station, plans, operator=args.operator, unit=unit)
+        unit_file = args.unit.resolve() if args.unit is not None else None
+        yield ConsoleSetup(station, plans, operator=args.operator, unit=unit, unit_file=unit_file)
         return
     with _demo_bench(args) as (bench, station_path):
         from rig.config.station import load_station

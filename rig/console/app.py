@@ -57,7 +57,10 @@ class ConsoleApp(App[None]):
         return runs[:RECENT_RUNS]
 
     def start_run(self, plan: Plan, serial: str) -> None:
-        unit = self.setup.unit.name if self.setup.unit is not None else ""
+        if self.setup.unit_file is not None:
+            unit = str(self.setup.unit_file)
+        else:
+            unit = self.setup.unit.name if self.setup.unit is not None else ""
         request = RunRequest(plan, serial, self.setup.operator, unit, self.setup.faults)
 
         def next_unit(serial: str | None) -> None:

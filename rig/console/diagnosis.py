@@ -44,12 +44,16 @@ class DiagnosisView:
 
 
 def find_unit(name: str, known: UnitModel | None, units_dir: Path) -> UnitModel | None:
-    """The unit model a run names: the one the console knows, or ``units_dir/<name>.toml``."""
+    """The unit model a run names: the one the console knows, the unit file the run recorded,
+    or ``units_dir/<name>.toml``."""
     if not name:
         return None
-    if known is not None and known.name == name:
+    recorded = Path(name) if name.endswith(".toml") else None
+    if known is not None and (
+        known.name == name or (recorded is not None and known.path.resolve() == recorded.resolve())
+    ):
         return known
-    path = units_dir / f"{name}.toml"
+    path = recorded if recorded is not None else units_dir / f"{name}.toml"
     if not path.is_file():
         return None
     try:

@@ -29,6 +29,9 @@ class ConsoleSetup:
     operator: str = ""
     unit: UnitModel | None = None
     """The unit model when it is known (a virtual bench); lets diagnosis run without a lookup."""
+    unit_file: Path | None = None
+    """The unit file given with ``--unit``: each run records it, as ``rig run --unit`` does, so
+    ``rig diagnose`` and ``rig report`` find it later wherever it lies (else the unit's name)."""
     faults: tuple[str, ...] = ()
     """Faults injected on a virtual bench, recorded with each run."""
     bench_label: str = ""
