@@ -139,7 +139,7 @@ def test_group_isolation_through_the_real_stack_agrees_with_pair_by_pair(tmp_pat
     # the record names the wire list the harness was proved against, not only its hash
     assert named == [
         (
-            f"rig harness check: {wires.path.name}",
+            f"rig harness check: {wires.path.parent.name}/{wires.path.name}",
             f"rig harness check of {wires.path} (command line)",
         )
     ]

@@ -103,7 +103,8 @@ def _run(
     station = load_station(args.station)
     keys = {**keys, "temperature": args.ambient}
     source = Path(f"rig harness {what} of {subject} (command line)")
-    doc = TomlDoc(source, _sequence_text(f"rig harness {what}: {subject.name}", keys))
+    named = f"{subject.parent.name}/{subject.name}"  # two lists of one name in two folders differ
+    doc = TomlDoc(source, _sequence_text(f"rig harness {what}: {named}", keys))
     sequence = parse_sequence(doc)
     doc.raise_if_problems()
     plan = build_plan(sequence, station)
