@@ -10,6 +10,7 @@ from typing import Any
 from reports.html_page import esc, figure, page, table
 from reports.svg_plots import margin_chart
 from rig import __version__
+from rig.events import prompt_answer
 
 
 def num(value: object, digits: int = 7) -> str:
@@ -88,7 +89,7 @@ def _steps(steps: list[Mapping[str, Any]]) -> str:
             s["position"],
             s["step_id"],
             s["title"],
-            ("confirmed" if s["value"] >= 0.5 else "declined") if _answered(s) else num(s["value"]),
+            prompt_answer(s["value"]) if _answered(s) else num(s["value"]),
             s["unit"],
             "" if _answered(s) else num(s["low"]),
             num(s["high"]),

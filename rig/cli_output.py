@@ -10,7 +10,15 @@ import time
 from collections.abc import Sequence
 from typing import Any, TextIO
 
-from rig.events import Event, ReadingTaken, RunFinished, RunStarted, StepFinished, StepResult
+from rig.events import (
+    Event,
+    ReadingTaken,
+    RunFinished,
+    RunStarted,
+    StepFinished,
+    StepResult,
+    prompt_answer,
+)
 from rig.judge.decision import Limits
 from rig.quantity import format_quantity
 
@@ -82,7 +90,7 @@ def _result_cells(r: StepResult) -> list[str]:
     """Value, limits, U and TUR of one step as a reader expects them: an operator's answer in
     words, a harness proof's count of faults against none allowed, a reading with its limits."""
     if r.kind == "prompt" and not math.isnan(r.value):
-        return ["confirmed" if r.value >= 0.5 else "declined", "", "", ""]
+        return [prompt_answer(r.value), "", "", ""]
     if r.kind == "harness-proof" and r.unit == "faults" and not math.isnan(r.value):
         return [f"{r.value:g} fault(s) found", "none allowed", "", ""]
     return [

@@ -211,6 +211,8 @@ class Engine:
         self._output_due: SupplyRequest | None = None
         """A supply ``power`` asked for whose output is still off: it comes on once its relays
         have closed (``_switch_on``)."""
+        self._supply_relays = supply_bus_relays(plan.station.fixture)
+        """The fixture's relays to the supply's buses: found once, checked at every change."""
         self._moves = 0
         """Relay and supply changes so far; a settled reading is valid until the next one."""
         self._settled_state: tuple[object, ...] | None = None
@@ -995,7 +997,7 @@ class Engine:
         """Whatever a step asked in what order: a change that moves a relay of the supply's
         buses finds the output off, and ``_connect`` switches it on again once it has landed."""
         on = self._supply_state is not None and self._output_due is None
-        if on and (relays ^ self._closed) & supply_bus_relays(self.plan.station.fixture):
+        if on and (relays ^ self._closed) & self._supply_relays:
             self.bench.supply.set_output(False)
             self._output_due = self._supply_state
 

@@ -12,6 +12,11 @@ a harness proof's faults found, a capture's nets.  A failed one is no fault for 
 to explain, and a mean, a spread or a capability of them means nothing."""
 
 
+def prompt_answer(value: float) -> str:
+    """An operator prompt's value (1 or 0) as the answer it records, for tables and records."""
+    return "confirmed" if value >= 0.5 else "declined"
+
+
 @dataclass(frozen=True)
 class StepResult:
     """A judged step, as a front end shows it and the store keeps it."""

@@ -241,6 +241,26 @@ class _HeldRelays:
         return getattr(self._real, name)
 
 
+def _closing_held_past_the_guard(
+    real: Bench,
+) -> tuple[Inbox, StopSwitch, _HeldRelays, threading.Thread]:
+    """A stop switch over the guarded bench, and a closing of relays 1 and 2 in a thread of its
+    own, held past the guard's check and not yet at the box."""
+    inbox = Inbox()
+    stop = StopSwitch(inbox)
+    held = _HeldRelays(real.relays)
+    guarded = Bench(
+        real.dmm,
+        GuardedSupply(real.supply, stop.event),
+        GuardedRelays(held, stop.event),  # type: ignore[arg-type]
+    )
+    stop.attach(guarded)
+    closing = threading.Thread(target=guarded.relays.apply, args=({1, 2},))
+    closing.start()
+    assert held.reached.wait(5)
+    return inbox, stop, held, closing
+
+
 def _safe_state_made(inbox: Inbox, within_s: float) -> bool:
     waited = threading.Event()
     for _ in range(int(within_s / 0.01)):
@@ -257,18 +277,7 @@ def test_a_closing_let_through_just_before_a_stop_is_undone_by_the_stop(tmp_path
     with shipped_bench("pressure-circuit", folder=tmp_path) as (bench, station):
         real = open_bench(station)
         try:
-            inbox = Inbox()
-            stop = StopSwitch(inbox)
-            held = _HeldRelays(real.relays)
-            guarded = Bench(
-                real.dmm,
-                GuardedSupply(real.supply, stop.event),
-                GuardedRelays(held, stop.event),  # type: ignore[arg-type]
-            )
-            stop.attach(guarded)
-            closing = threading.Thread(target=guarded.relays.apply, args=({1, 2},))
-            closing.start()
-            assert held.reached.wait(5)  # past the guard's check, not yet at the box
+            inbox, stop, held, closing = _closing_held_past_the_guard(real)
             stop.throw()
             made_early = _safe_state_made(inbox, within_s=0.3)
             held.go.set()
@@ -286,18 +295,7 @@ def test_the_bench_is_not_closed_under_the_stops_make_safe(tmp_path: Path) -> No
     # ports under it would turn a safe bench into "could not make safe".
     with shipped_bench("pressure-circuit", folder=tmp_path) as (bench, station):
         real = open_bench(station)
-        inbox = Inbox()
-        stop = StopSwitch(inbox)
-        held = _HeldRelays(real.relays)
-        guarded = Bench(
-            real.dmm,
-            GuardedSupply(real.supply, stop.event),
-            GuardedRelays(held, stop.event),  # type: ignore[arg-type]
-        )
-        stop.attach(guarded)
-        closing = threading.Thread(target=guarded.relays.apply, args=({1, 2},))
-        closing.start()
-        assert held.reached.wait(5)
+        inbox, stop, held, closing = _closing_held_past_the_guard(real)
         stop.throw()
         detached = threading.Event()
         threading.Thread(target=lambda: (stop.detach(), detached.set())).start()

@@ -5,6 +5,7 @@ lead zero against 4-wire, and the shipped limits against the common-practice che
 from __future__ import annotations
 
 import time
+from collections.abc import Collection
 from pathlib import Path
 
 import pytest
@@ -14,8 +15,9 @@ from rig.config.fixture import load_fixture
 from rig.config.sequence import load_sequence
 from rig.config.station import load_station
 from rig.config.unit_file import load_unit
+from rig.engine import RunSummary
 from rig.judge.decision import Verdict
-from rig.plan import build_plan
+from rig.plan import Plan, build_plan
 from rig.runner import run_plan
 from rig.sim.bench import VirtualBench
 
@@ -313,14 +315,16 @@ tolerance = "5 %"
 """
 
 
-def test_the_supplys_relays_never_switch_with_its_output_on(tmp_path: Path) -> None:
-    # Cold switching (common practice for relay contacts, no published source): a relay that
-    # takes the supply to the unit closes and opens with the output off, so no contact makes or
-    # breaks the supply's current; the output comes on once they have landed.
-    from rig.routing import Route, plan_relays
+Timeline = list[tuple[frozenset[int], bool]]
 
-    bench, station_path = _bench(tmp_path, BARE_SENSOR)
-    timeline: list[tuple[frozenset[int], bool]] = []
+
+def _run_watching_relays(
+    tmp_path: Path, unit_text: str, sequence_text: str, serial: str
+) -> tuple[RunSummary, Plan, Timeline]:
+    """Run ``sequence_text`` on a bench of ``unit_text``, noting after every relay change the
+    relays closed and whether the supply's output was on while they moved."""
+    bench, station_path = _bench(tmp_path, unit_text)
+    timeline: Timeline = []
     original = bench.relay_box._on_change
 
     def relays_changed() -> None:
@@ -330,20 +334,33 @@ def test_the_supplys_relays_never_switch_with_its_output_on(tmp_path: Path) -> N
 
     bench.relay_box._on_change = relays_changed
     try:
-        seq = tmp_path / "cold.toml"
-        seq.write_text(COLD, encoding="utf-8")
+        seq = tmp_path / "watched.toml"
+        seq.write_text(sequence_text, encoding="utf-8")
         plan = build_plan(load_sequence(seq), load_station(station_path))
-        summary = run_plan(plan, "C-1")
-        supply_relays = plan_relays(plan.station.fixture, Route.supply("P_5V", "P_GND"))
+        return run_plan(plan, serial), plan, timeline
     finally:
         bench.stop()
-    assert summary.status == "complete", summary.reason
-    assert supply_relays and len(timeline) >= 3
+
+
+def _assert_never_moved_live(timeline: Timeline, supply_relays: Collection[int]) -> None:
     before: frozenset[int] = frozenset()
     for closed, output_on in timeline:
-        moved = (closed ^ before) & supply_relays
+        moved = (closed ^ before) & set(supply_relays)
         assert not (moved and output_on), (sorted(moved), "moved with the output on")
         before = closed
+
+
+def test_the_supplys_relays_never_switch_with_its_output_on(tmp_path: Path) -> None:
+    # Cold switching (common practice for relay contacts, no published source): a relay that
+    # takes the supply to the unit closes and opens with the output off, so no contact makes or
+    # breaks the supply's current; the output comes on once they have landed.
+    from rig.routing import Route, plan_relays
+
+    summary, plan, timeline = _run_watching_relays(tmp_path, BARE_SENSOR, COLD, "C-1")
+    supply_relays = plan_relays(plan.station.fixture, Route.supply("P_5V", "P_GND"))
+    assert summary.status == "complete", summary.reason
+    assert supply_relays and len(timeline) >= 3
+    _assert_never_moved_live(timeline, supply_relays)
     # and the powered steps measured a powered unit (the output did come on)
     results = {r.step_id: r for r in summary.results}
     assert results["feed"].value == pytest.approx(5.0, rel=0.01)
@@ -382,34 +399,14 @@ def test_moving_the_supply_to_other_pins_switches_it_off_first(tmp_path: Path) -
     fixture = tmp_path / "fixture.toml"
     fixture.write_text(fixture_text, encoding="utf-8")
     unit_text = BARE_SENSOR.replace(str(FIXTURE), str(fixture))
-    bench, station_path = _bench(tmp_path, unit_text)
-    timeline: list[tuple[frozenset[int], bool]] = []
-    original = bench.relay_box._on_change
-
-    def relays_changed() -> None:
-        timeline.append((bench.relay_box.closed(), bench.supply_settings.output_on))
-        if original is not None:
-            original()
-
-    bench.relay_box._on_change = relays_changed
-    try:
-        seq = tmp_path / "two.toml"
-        seq.write_text(SECOND_SUPPLY_PIN, encoding="utf-8")
-        plan = build_plan(load_sequence(seq), load_station(station_path))
-        summary = run_plan(plan, "C-2")
-        supply_relays = {
-            relay
-            for pin in plan.station.fixture.pins.values()
-            for bus, relay in pin.relays.items()
-            if bus in (Bus.SUPPLY_POS, Bus.SUPPLY_NEG)
-        }
-    finally:
-        bench.stop()
+    summary, plan, timeline = _run_watching_relays(tmp_path, unit_text, SECOND_SUPPLY_PIN, "C-2")
+    supply_relays = {
+        relay
+        for pin in plan.station.fixture.pins.values()
+        for bus, relay in pin.relays.items()
+        if bus in (Bus.SUPPLY_POS, Bus.SUPPLY_NEG)
+    }
     assert summary.status == "complete", summary.reason
     assert 40 in supply_relays
-    before: frozenset[int] = frozenset()
-    for closed, output_on in timeline:
-        moved = (closed ^ before) & supply_relays
-        assert not (moved and output_on), (sorted(moved), "moved with the output on")
-        before = closed
+    _assert_never_moved_live(timeline, supply_relays)
     assert any(40 in closed for closed, _ in timeline)  # the supply did move to P_SIG
