@@ -1043,14 +1043,20 @@ class Engine:
         return self._results[step_id]
 
     def prompt(self, text: str) -> bool:
+        """Ask the operator.  A prompt is its step's last use of the bench, so once it is
+        confirmed the next step's first route is sent at once: its contacts move while the
+        engine files the answer."""
         self._writes.flush()  # the operator sees every result before being asked
         self.listener(PromptShown(self._step_id, text))
         try:
-            return self.ask(text)
+            confirmed = self.ask(text)
         except RigError:
             raise
         except Exception as exc:  # a front end that cannot ask (its terminal or window gone)
             raise StopRequested(f"the prompt {text!r} could not be put: {exc!r}") from exc
+        if confirmed:
+            self._move_ahead(self._opening_relays(self._position))
+        return confirmed
 
     @property
     def fixture(self) -> FixtureMap:

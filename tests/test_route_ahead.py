@@ -175,10 +175,12 @@ def logged_run(
     unit: str = "temp-circuit",
     sequence: Path = SEQUENCES / "temp-circuit-check.toml",
     stop_when_read: bool = False,
+    answer: bool = True,
 ) -> LoggedRun:
     """A sequence on the virtual bench, the relay box's changes and the engine's step events
     written into one log as the engine thread makes them.  ``stop_when_read``: the operator's
-    stop comes while the run's first reading integrates, so it is there when the reading is."""
+    stop comes while the run's first reading integrates, so it is there when the reading is.
+    ``answer``: the operator's answer to every prompt."""
     with shipped_bench(unit, folder=tmp_path) as (bench, station):
         plan = load_plan(sequence, station)
         log: list[tuple[str, object]] = []
@@ -196,7 +198,7 @@ def logged_run(
         instruments = Bench(opened.dmm, opened.supply, LoggedRelays(opened.relays, log))
         store = ResultStore(tmp_path / "r.sqlite")
         try:
-            engine = Engine(plan, instruments, store)
+            engine = Engine(plan, instruments, store, ask=lambda text: answer)
             deliver = engine.listener
 
             def emitted(event: Event) -> None:  # in the engine's thread, in order
@@ -243,6 +245,32 @@ def test_the_next_route_moves_while_the_step_before_is_filed(tmp_path: Path) -> 
     # after the last reading every relay opens at once (the supply is off)
     assert sends[-1] == ("send", frozenset())
     assert at(sends[-1]) < at(("StepFinished", steps[-1].spec.id))
+
+
+def test_a_confirmed_prompt_sends_the_next_route_before_it_is_filed(tmp_path: Path) -> None:
+    # The sensor screen begins with a prompt (relays all open, supply off, then the question):
+    # once the operator confirms, the well probe's route moves while the answer is filed.
+    run = logged_run(
+        tmp_path, unit="ntc-sender", sequence=SEQUENCES / "ntc-sender-screen.toml", answer=True
+    )
+    assert run.summary.status == "complete"
+    assert run.operations == run.plan.relay_ops  # sent ahead, never twice
+    prompt, first = run.plan.steps[0], run.plan.steps[1]
+    assert prompt.spec.kind == "prompt" and first.relay_sets
+    sent = run.log.index(("send", first.relay_sets[0]))
+    assert sent < run.log.index(("StepFinished", prompt.spec.id))
+    assert sent > run.log.index(("StepStarted", prompt.spec.id))  # not before the question
+
+
+def test_a_prompt_answered_no_sends_nothing_ahead(tmp_path: Path) -> None:
+    # "No" fails the prompt's step; whatever the run does next, no route went out on that answer.
+    run = logged_run(
+        tmp_path, unit="ntc-sender", sequence=SEQUENCES / "ntc-sender-screen.toml", answer=False
+    )
+    prompt = run.plan.steps[0]
+    filed = run.log.index(("StepFinished", prompt.spec.id))
+    asked = run.log.index(("StepStarted", prompt.spec.id))
+    assert not [e for e in run.log[asked:filed] if e[0] == "send" and e[1]]
 
 
 def test_the_supply_is_proven_off_before_the_relays_open(tmp_path: Path) -> None:

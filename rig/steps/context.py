@@ -50,7 +50,8 @@ class StepContext(Protocol):
         """The result of an earlier step of this run, by id."""
 
     def prompt(self, text: str) -> bool:
-        """Ask the operator; True when confirmed."""
+        """Ask the operator; True when confirmed.  It is the step's last use of the bench: once
+        confirmed, the engine may start the next step's first route."""
 
     def wait(self, seconds: float) -> None:
         """A timed soak."""
