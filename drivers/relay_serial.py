@@ -482,7 +482,10 @@ class SerialRelayBox(RelayBox):
         """Feed the box's watchdog until told to stop; each beat takes the command lock."""
         while not stop.wait(interval_s):
             try:
-                reply = self._transact(Verb.BEAT)
+                with self._lock:
+                    if stop.is_set():  # told to stop while waiting for the lock
+                        return
+                    reply = self._transact(Verb.BEAT)
             except InstrumentConnectionLost as exc:
                 log.error("relay box %s: heartbeat stopped, port lost: %s", self.name, exc)
                 self.heartbeat_error = exc

@@ -20,6 +20,7 @@ from drivers.relay_frames import (
     BoxState,
     ErrorCode,
     Reply,
+    Verb,
     WatchdogMode,
     decode_command,
     encode_reply,
@@ -224,6 +225,28 @@ def test_no_beat_follows_the_watchdog_switched_off(sim: SimRelayBox, box: Serial
     time.sleep(0.05)  # five beat periods
     assert sim.lines_handled == handled
     assert box.watchdog_state().watchdog is WatchdogMode.OFF
+
+
+def test_a_beat_held_up_by_the_switch_off_is_not_sent(
+    sim: SimRelayBox, box: SerialRelayBox
+) -> None:
+    # A beat falls due while the switch-off holds the command lock: once the lock is free the
+    # heartbeat must see it was told to stop, or a watchdog whose WDOFF failed is fed once more.
+    # (The lock and the stop event are the driver's own; the test takes them as stop_watchdog
+    # does, and holds the lock across several beat periods so that a beat is surely waiting.)
+    box.start_watchdog(0.03)  # a beat every 10 ms
+    assert wait_for(lambda: sim.lines_handled >= 4)
+    beat, thread = box._beat_stop, box._beat_thread
+    assert beat is not None and thread is not None
+    with box._lock:
+        time.sleep(0.05)  # the heartbeat is now waiting for the lock
+        beat.set()
+        box._transact(Verb.WDOFF)
+        handled = sim.lines_handled
+    thread.join(timeout=2)
+    assert not thread.is_alive()
+    assert sim.lines_handled == handled  # no BEAT after the WDOFF
+    box._stop_heartbeat()
 
 
 def test_watchdog_out_of_range_is_refused_by_the_box(box: SerialRelayBox) -> None:
