@@ -20,6 +20,7 @@ from rig.events import NOT_READINGS
 from rig.judge.decision import Verdict
 
 if TYPE_CHECKING:
+    from rig.config.station import Station
     from rig.engine import RunSummary
     from rig.plan import Plan, PlannedStep
     from rig.steps import StepSpec
@@ -228,6 +229,8 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
     plan = load_plan(args.sequence, args.station)
     station = plan.station
     out.line(f"sequence {plan.sequence.name} ({args.sequence}) on station {station.name}: valid")
+    if station.operator_required:
+        out.line("operator: required by the station (operator_required); run with --operator NAME")
     rows = []
     for step in plan.steps:
         spec = step.spec
@@ -439,6 +442,17 @@ def serial_problem(serial: str) -> str:
     return "" if serial.strip() else "--serial: the unit's serial number is blank; give it"
 
 
+def operator_problem(station: Station, operator: str) -> str:
+    """Why a run may not start under ``operator``, or empty when it may: a station that must
+    record who tested each unit refuses a run with no name, before any instrument is opened."""
+    if not station.operator_required or operator.strip():
+        return ""
+    return (
+        f"{station.path} sets operator_required = true under [station]: give --operator NAME "
+        "(who tests; it is recorded with the run)"
+    )
+
+
 def cmd_run(args: argparse.Namespace, out: Output) -> int:
     from rig.engine import StopRequested
     from rig.runner import load_plan, run_plan
@@ -452,6 +466,10 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
         out.error(f"rig: {problem}")
         return EXIT_BAD_INPUT
     plan = load_plan(args.sequence, args.station)
+    problem = operator_problem(plan.station, args.operator)
+    if problem:
+        out.error(f"rig: {problem}")
+        return EXIT_BAD_INPUT
     unit = ""
     if getattr(args, "unit", None) is not None:
         from rig.config.unit_file import load_unit

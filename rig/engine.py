@@ -300,6 +300,9 @@ class Engine:
                     f"continued after an interruption; {len(done)} of {len(self.plan.steps)} steps "
                     "were already done"
                 )
+                # the run's header keeps who started it; whoever carries on is noted
+                if operator.strip() and operator != cont.operator:
+                    notes.append(f"continued by operator {operator}")
                 wear = self._writes.meanwhile("relay_wear", station.name)
                 start_problem = self._start_safe()
         except BaseException:

@@ -63,7 +63,7 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
 
 
 def cmd_console(args: argparse.Namespace, out: Output) -> int:
-    from rig.cli import EXIT_BAD_INPUT
+    from rig.cli import EXIT_BAD_INPUT, operator_problem
     from rig.console import ConsoleApp
 
     problem = _argument_problem(args)
@@ -71,6 +71,10 @@ def cmd_console(args: argparse.Namespace, out: Output) -> int:
         out.error(f"rig console: {problem}")
         return EXIT_BAD_INPUT
     with _opened(args) as setup:
+        problem = operator_problem(setup.station, setup.operator)  # before the first run
+        if problem:
+            out.error(f"rig console: {problem}")
+            return EXIT_BAD_INPUT
         ConsoleApp(setup).run()
     return 0
 

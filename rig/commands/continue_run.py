@@ -20,6 +20,10 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
         "run_id", type=int, metavar="RUN_ID", help="the incomplete run's id, as rig run printed it"
     )
     parser.add_argument("--station", type=Path, required=True, help="the station file")
+    parser.add_argument(
+        "--operator",
+        help="who carries on the run, noted in its record (default: who started it)",
+    )
     parser.add_argument("--yes", action="store_true", help="confirm operator prompts automatically")
     parser.add_argument("--json", action="store_true", help="one machine-readable summary")
     parser.add_argument(
@@ -29,11 +33,15 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
 
 
 def cmd_continue(args: argparse.Namespace, out: Output) -> int:
-    from rig.cli import _parser, cmd_run
+    from rig.cli import EXIT_BAD_INPUT, _parser, cmd_run, operator_problem
     from rig.config.station import load_station
     from rig.store import ResultStore
 
     station = load_station(args.station)
+    problem = operator_problem(station, args.operator or "")  # who carries on, named anew
+    if problem:
+        out.error(f"rig: {problem}")
+        return EXIT_BAD_INPUT
     store = ResultStore(station.store_path)
     try:
         run = store.run(args.run_id)
@@ -50,7 +58,7 @@ def cmd_continue(args: argparse.Namespace, out: Output) -> int:
             "--serial",
             str(run["serial"]),
             "--operator",
-            str(run["operator"]),
+            str(run["operator"]) if args.operator is None else args.operator,
             *flags,
         ]
     )

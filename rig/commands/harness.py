@@ -89,18 +89,18 @@ def _run(
     """One harness-proof step through the engine.  Its record names ``subject`` (the wire list
     checked against, or the one a capture writes): in the sequence's name, so that statistics
     keep each wire list's harnesses apart, and in the sequence's place."""
-    from rig.cli import EXIT_BAD_INPUT, _exit_code, serial_problem
+    from rig.cli import EXIT_BAD_INPUT, _exit_code, operator_problem, serial_problem
     from rig.config.reader import TomlDoc
     from rig.config.sequence import parse_sequence
     from rig.config.station import load_station
     from rig.plan import build_plan
     from rig.runner import run_plan
 
-    problem = serial_problem(args.serial)
+    station = load_station(args.station)
+    problem = serial_problem(args.serial) or operator_problem(station, args.operator)
     if problem:
         out.error(f"rig: {problem}")
         return EXIT_BAD_INPUT
-    station = load_station(args.station)
     keys = {**keys, "temperature": args.ambient}
     source = Path(f"rig harness {what} of {subject} (command line)")
     named = f"{subject.parent.name}/{subject.name}"  # two lists of one name in two folders differ

@@ -2,8 +2,8 @@
 
 A station names its fixture map, its DMM, supply and relay box (driver name from the ``rig.drivers``
 entry points, VISA resource or serial port, settings, calibration due date), the DMM's accuracy as
-its data sheet states it (per function and range, % of reading + % of range, or ppm), and the mains
-frequency.  See ``docs/station-file.md``.
+its data sheet states it (per function and range, % of reading + % of range, or ppm), the mains
+frequency, and whether every run must name its operator.  See ``docs/station-file.md``.
 """
 
 from __future__ import annotations
@@ -61,6 +61,8 @@ class Station:
     """The most a step may program into the supply (``max_voltage``, ``max_current``)."""
     store: StoreSettings = field(default_factory=StoreSettings)
     """Where results go besides the station's own file (``[store]``, docs/postgresql.md)."""
+    operator_required: bool = False
+    """A run is refused without an operator's name, for a shop that must record who tested."""
 
     @property
     def store_path(self) -> Path:
@@ -78,6 +80,7 @@ def load_station(path: Path | str) -> Station:
     fixture: FixtureMap | None = None
     fixture_problems: list[Any] = []
     watchdog_s = 2.0
+    operator_required = False
     if head:
         name = head.string("name") or "station"
         line_hz = head.quantity("line_frequency", "Hz", 50.0, positive=True)
@@ -86,6 +89,7 @@ def load_station(path: Path | str) -> Station:
         data_text = head.string("data_dir", "rig-data")
         data_dir = (doc.path.parent / data_text).resolve()
         watchdog_s = head.quantity("watchdog", "s", 2.0, positive=True)
+        operator_required = head.boolean("operator_required", False)
         fixture_text = head.string("fixture")
         if fixture_text:
             fixture_path = (doc.path.parent / fixture_text).resolve()
@@ -147,6 +151,7 @@ def load_station(path: Path | str) -> Station:
         watchdog_s=watchdog_s,
         supply_caps=supply_caps,
         store=store,
+        operator_required=operator_required,
     )
 
 
