@@ -68,6 +68,8 @@ PAGES: dict[str, list[Run]] = {
         _check("st2"),
         _check("st4"),
         _cli("run", "bad/sequence.toml", "--station", "bad/st5.toml", "--serial", "D1", "--yes"),
+        _check("st6"),
+        _cli("run", "bad/sequence.toml", "--station", "bad/st7.toml", "--serial", "D1", "--yes"),
     ],
     "unit-file.md": [
         _loader(load_unit, name)
