@@ -300,7 +300,7 @@ def test_cli_unknown_step_names_the_file_and_option(capsys: pytest.CaptureFixtur
         (
             'r25_tolerance = "2 %"',
             'r25_tolerence = "2 %"',
-            "[sensors.coolant.r25_tolerence]: unknown key; expected one of:",
+            "[sensors.coolant.r25_tolerence]: unknown key; did you mean 'r25_tolerance'?",
         ),
         (
             'temperature_range = ["15 degC", "35 degC"]',

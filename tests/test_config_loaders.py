@@ -205,6 +205,39 @@ def test_unknown_key_is_a_typo_not_ignored(tmp_path: Path) -> None:
     assert typo.line == line_of(text, "guage")
 
 
+def _shipped_text(loader: Callable[[Path], Any], tmp_path: Path) -> str:
+    """The text of a shipped file ``loader`` reads (the station: the offline one)."""
+    if loader is load_station:
+        return station_file(tmp_path).read_text(encoding="utf-8")
+    shipped = {load_unit: TEMP_UNIT, load_fixture: FIXTURE}
+    return shipped.get(loader, SEQUENCES / "temp-circuit-check.toml").read_text(encoding="utf-8")
+
+
+# A misspelling of an optional key in each kind of file: the line as shipped, the key misspelt,
+# and the table it is in.  Which key a typo is taken for follows difflib's ratio (Python standard
+# library) at 0.75 or more; offering the one close key is common practice for linters and
+# compilers, no published source.
+MISSPELT_OPTIONAL = [
+    pytest.param(load_unit, 'r25_tolerance = "2 %"', "r25_tolerence", "sensors.coolant", id="unit"),
+    pytest.param(load_fixture, "rated_operations = ", "rated_operatons", "fixture", id="fixture"),
+    pytest.param(load_sequence, 'title = "Sensor ground to', "titel", "steps[4]", id="sequence"),
+    pytest.param(load_station, 'watchdog = "2 s"', "wachdog", "station", id="station"),
+]
+
+
+@pytest.mark.parametrize(("loader", "line", "typo", "table"), MISSPELT_OPTIONAL)
+def test_a_misspelt_optional_key_names_the_key_meant(
+    tmp_path: Path, loader: Callable[[Path], Any], line: str, typo: str, table: str
+) -> None:
+    meant = line.split(" =")[0]
+    text = mutate(_shipped_text(loader, tmp_path), line, line.replace(meant, typo, 1))
+    path = write(tmp_path, "broken.toml", text)
+    (problem,) = problems_of(loader, path)  # the default stands in: nothing else is wrong
+    assert problem.key == f"{table}.{typo}"
+    assert problem.message.startswith(f"unknown key; did you mean {meant!r}? Expected one of: ")
+    assert problem.line == line_of(text, typo)
+
+
 def test_wrong_type(tmp_path: Path) -> None:
     base = FIXTURE.read_text(encoding="utf-8")
     text = mutate(base, "relay_count = 48", 'relay_count = "48"')

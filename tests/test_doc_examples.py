@@ -76,7 +76,10 @@ PAGES: dict[str, list[Run]] = {
         for name in ("u1", "u2", "u3", "u7", "u6", "u8", "u9", "u4", "nofile")
     ],
     "sequence-file.md": [
-        *(_check("station", f"bad/{name}.toml") for name in ("s1", "s2", "s3", "s4", "s5", "s6")),
+        *(
+            _check("station", f"bad/{name}.toml")
+            for name in ("s1", "s2", "s3", "s4", "s5", "s7", "s6")
+        ),
         _check("demo-station", "bad/p1.toml"),
         _check("p-station", "sequence.toml"),
     ],

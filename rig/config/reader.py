@@ -10,7 +10,7 @@ from __future__ import annotations
 import difflib
 import re
 import tomllib
-from collections.abc import Iterator
+from collections.abc import Iterable, Iterator
 from pathlib import Path
 from typing import Any
 
@@ -20,6 +20,9 @@ from rig.errors import ConfigError, Problem
 from rig.quantity import QuantityError, parse_quantity
 
 _MISSING: Any = object()
+_CLOSE = 0.75
+"""How alike (difflib's ratio) an unknown key and a known one must be to name it as meant:
+"guage" and "gauge" are 0.8 alike, "tolerence" and "tolerance" 0.89, "colour" and "value" 0.36."""
 
 
 class TomlDoc:
@@ -260,15 +263,24 @@ class Section:
         for name in self.data:
             if name in allowed:
                 continue
-            meant = difflib.get_close_matches(name, list(self._missing), n=1, cutoff=0.8)
+            meant = _close_key(name, self._missing)
             if meant:
-                missing, expected = self._missing.pop(meant[0])
+                missing, expected = self._missing.pop(meant)
                 self.doc.problems.remove(missing)
                 self.problem(
                     name,
-                    f"unknown key; a misspelt {meant[0]!r}? That key is missing "
-                    f"(expected {expected})",
+                    f"unknown key; a misspelt {meant!r}? That key is missing (expected {expected})",
                 )
                 continue
             known = ", ".join(sorted(allowed)) or "none"
-            self.problem(name, f"unknown key; expected one of: {known}")
+            meant = _close_key(name, allowed - set(self.data))  # not one written already
+            if meant:
+                self.problem(name, f"unknown key; did you mean {meant!r}? Expected one of: {known}")
+            else:
+                self.problem(name, f"unknown key; expected one of: {known}")
+
+
+def _close_key(name: str, keys: Iterable[str]) -> str | None:
+    """The one key ``name`` looks like a misspelling of, if one is close enough to say so."""
+    meant = difflib.get_close_matches(name, sorted(keys), n=1, cutoff=_CLOSE)
+    return meant[0] if meant else None
