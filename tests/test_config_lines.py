@@ -151,6 +151,27 @@ def test_a_tolerance_without_nominal_says_so(tmp_path: Path) -> None:
     assert "needs a nominal" in problem.message  # not "unknown key": it is a key of the step
 
 
+# An ntc step read as a divider voltage: every key that only that reading takes, and a tolerance
+# and range in volts (docs/sequence-file.md, the ntc step).
+NTC_DIVIDER = NTC.replace('tolerance = "5 %"\n', 'tolerance = "0.1 V"\n') + (
+    'measure = "voltage"\npullup = "2.49 kohm"\nreference = "5 V"\nrange = "10 V"\n'
+    'supply = { pos = "P_5V", neg = "P_GND", voltage = "5 V", limit = "50 mA" }\n'
+)
+
+
+@pytest.mark.parametrize(("written", "found"), [('"volts"', "'volts'"), ("5", "5")])
+def test_a_wrong_measure_is_one_problem_at_its_key(
+    tmp_path: Path, written: str, found: str
+) -> None:
+    (tmp_path / "good.toml").write_text(HEAD + NTC_DIVIDER, encoding="utf-8")
+    load_sequence(tmp_path / "good.toml")  # with measure right, nothing else is wrong
+    text = HEAD + NTC_DIVIDER.replace('measure = "voltage"', f"measure = {written}")
+    (problem,) = problems(tmp_path, text)  # not also the divider's keys, as "unknown"
+    assert problem.file == str(tmp_path / "seq.toml")
+    assert (problem.key, problem.line) == ("steps[1].measure", line_with(text, "measure ="))
+    assert problem.message == f"expected one of 'resistance', 'voltage', found {found}"
+
+
 # ---- problems the planner finds ----------------------------------------------------------------
 
 

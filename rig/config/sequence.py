@@ -122,8 +122,9 @@ def _parse_step(
         return None
     if kind.meter_function(spec) is not None:  # a supply step's own settle is read by its kind
         spec.settle_s = _settle(sec, default_settle)
-    if sec.raw("range") not in (None, "auto"):
-        spec.range_ = sec.quantity("range", _meter_unit(kind.unit, spec))
+    meter_unit = _meter_unit(kind.unit, spec)
+    if sec.raw("range") not in (None, "auto") and meter_unit is not None:
+        spec.range_ = sec.quantity("range", meter_unit)
     for ref in spec.depends_on:
         if ref not in seen:
             sec.problem(
@@ -134,10 +135,11 @@ def _parse_step(
     return spec if step_id else None
 
 
-def _meter_unit(kind_unit: str, spec: StepSpec) -> str:
-    """The unit of the meter's range for a step (a temperature step reads ohms)."""
+def _meter_unit(kind_unit: str, spec: StepSpec) -> str | None:
+    """The unit of the meter's range for a step (a temperature step reads ohms); None where the
+    step's own unit is not known (a wrong key it depends on is reported already)."""
     if "unit" in spec.params:
-        return str(spec.params["unit"])
+        return None if spec.params["unit"] is None else str(spec.params["unit"])
     return {"degC": "ohm", "%": "V"}.get(kind_unit, kind_unit)
 
 

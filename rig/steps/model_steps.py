@@ -158,6 +158,18 @@ def _temperature(ctx: StepContext, spec: StepSpec) -> tuple[float, float]:
     return float(spec.params["temperature_c"]), 0.0
 
 
+_NTC_MEASURES = {"resistance": "ohm", "voltage": "V"}
+"""What an ntc step's ``measure`` takes, and the unit the step then reads in."""
+_NTC_BY_MEASURE = ("tolerance", "pullup", "reference", "reference_from", "supply")
+"""The keys of an ntc step whose meaning (or whether they belong) depends on ``measure``."""
+
+
+def _ntc_measure(sec: Section) -> str | None:
+    """``measure`` ("resistance" when it is not written); None where it is wrong, a problem."""
+    mode = sec.string("measure", "resistance", choices=tuple(_NTC_MEASURES))
+    return mode if sec.raw("measure") in (None, mode) else None
+
+
 class NtcCheck(StepKind):
     """An NTC thermistor against its curve at the reference temperature.
 
@@ -181,12 +193,16 @@ class NtcCheck(StepKind):
 
     def parse(self, sec: Section, spec: StepSpec) -> None:
         read_pins(sec, spec, "hi", "lo")
-        mode = sec.string("measure", "resistance", choices=("resistance", "voltage"))
+        mode = _ntc_measure(sec)
         spec.params["mode"] = mode
         spec.params["model"] = _read_ntc_model(sec)
         _temperature_source(sec, spec)
-        unit = "V" if mode == "voltage" else "ohm"
+        unit = _NTC_MEASURES.get(mode) if mode else None
         spec.params["unit"] = unit
+        if unit is None:  # ``measure`` is wrong (reported): what the keys it rules must hold is not
+            for key in _NTC_BY_MEASURE:  # known, so they are left to be judged once it is mended
+                sec.raw(key)
+            return
         tolerance = read_tolerance(sec, unit)
         if tolerance is None and not sec.has("tolerance"):
             sec.missing("tolerance", f"a tolerance such as '5 %' or '0.1 {unit}'")
