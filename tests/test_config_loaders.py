@@ -306,6 +306,20 @@ def test_unknown_step_kind(tmp_path: Path) -> None:
     assert problem.line == line_of(text, "voltz")
 
 
+def test_a_sensor_of_unknown_kind_still_has_its_name_checked(tmp_path: Path) -> None:
+    # two mistakes in one table: a kind rig does not know, and the name of a wire
+    base = TEMP_UNIT.read_text(encoding="utf-8")
+    text = mutate(base, '[sensors.coolant]\nkind = "ntc"', '[sensors.ground]\nkind = "thermistor"')
+    path = write(tmp_path, "unit.toml", text)
+    problems = problems_of(load_unit, path)
+    assert [p.key for p in problems] == ["sensors.ground.kind", "sensors"]  # not its other keys
+    kind, clash = problems
+    assert "'thermistor'" in kind.message and "'ntc'" in kind.message
+    assert kind.line == line_of(text, "thermistor")
+    assert clash.message == "part name 'ground' is also used in [wires]; names must be unique"
+    assert clash.line == line_of(text, "[sensors.ground]")
+
+
 def test_duplicate_step_id(tmp_path: Path) -> None:
     text = SEQUENCE_HEAD + volts_step("signal") + volts_step("signal", hi="C_SIG", lo="C_GND")
     path = write(tmp_path, "seq.toml", text)

@@ -21,6 +21,8 @@ from rig.quantity import QuantityError, parse_quantity
 
 SENSOR_KINDS = ("ntc", "ratiometric", "potentiometer", "switch")
 PROBE_CLASSES = ("AA", "A", "B")
+_PART_GROUPS = ("wires", "resistors", "sensors", "capacitors")
+"""The tables of named parts, whose names must not repeat from one to another."""
 
 
 @dataclass(frozen=True)
@@ -328,8 +330,9 @@ def parse_unit(doc: TomlDoc) -> UnitModel:
 
     for sensor_name, sec in root.named_tables("sensors"):
         sensor = _parse_sensor(sensor_name, sec)
-        if sensor is not None:
-            unit.sensors[sensor_name] = sensor
+        if sensor is None:  # its kind is wrong or missing (reported): which keys it takes is not
+            continue  # known, so they are left to be judged once the kind is mended
+        unit.sensors[sensor_name] = sensor
         sec.reject_unknown()
 
     probe = root.table("reference_probe")
@@ -345,7 +348,7 @@ def parse_unit(doc: TomlDoc) -> UnitModel:
         )
         probe.reject_unknown()
 
-    _check_names_unique(unit, root)
+    _check_names_unique(root)
     root.reject_unknown()
     return unit
 
@@ -422,15 +425,17 @@ def _temperature(sec: Section) -> float | None:
     return above_absolute_zero(sec, "temperature", sec.quantity("temperature", "degC"))
 
 
-def _check_names_unique(unit: UnitModel, root: Section) -> None:
+def _check_names_unique(root: Section) -> None:
+    """Part names are unique across the groups.  The names are those the file gives, whether or
+    not the part could be read: a sensor of an unknown kind still takes its name."""
     seen: dict[str, str] = {}
-    for group, names in (
-        ("wires", unit.wires),
-        ("resistors", unit.resistors),
-        ("sensors", unit.sensors),
-        ("capacitors", unit.capacitors),
-    ):
-        for part in names:
+    for group in _PART_GROUPS:
+        tables = root.data.get(group)
+        if not isinstance(tables, dict):  # reported where the group is read
+            continue
+        for part, value in tables.items():
+            if not isinstance(value, dict):  # reported where the group is read: not a part
+                continue
             if part in seen:
                 root.problem(
                     group,
