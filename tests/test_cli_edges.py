@@ -251,3 +251,17 @@ def test_check_gives_an_ntc_read_as_a_voltage_its_tolerance_in_volts(
         assert main(["check", str(sequence), "--station", str(station.path)]) == 0
     row = next(line for line in capsys.readouterr().out.splitlines() if "signal-vs-curve" in line)
     assert "model ± 100 mV" in row
+
+
+def test_python_dash_m_rig_runs_the_same_commands(tmp_path: Path) -> None:
+    # For an environment whose scripts folder is not on the PATH: the module form reads the same
+    # arguments and gives the same exit codes (2: bad input, naming the file).
+    missing = tmp_path / "nowhere.toml"
+    done = subprocess.run(
+        [sys.executable, "-m", "rig", "check", str(missing), "--station", str(missing)],
+        capture_output=True,
+        text=True,
+        timeout=60,
+    )
+    assert done.returncode == 2, done.stderr
+    assert "nowhere.toml" in done.stderr and "Traceback" not in done.stderr
