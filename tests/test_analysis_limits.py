@@ -333,3 +333,43 @@ def test_bad_tolerance_in_a_unit_file_names_file_and_key(
     err = capsys.readouterr().err
     assert str(unit) in err and expected in err, err
     assert "Traceback" not in err
+
+
+@pytest.mark.parametrize(
+    ("sequence", "unit_name"),
+    [("temp-circuit-check", "temp-circuit"), ("ntc-sender-screen", "ntc-sender")],
+)
+@pytest.mark.parametrize(("low", "high"), [(-200, -199), (849, 850)])
+def test_an_ambient_range_out_to_the_reference_curves_ends_is_studied(
+    sequence: str,
+    unit_name: str,
+    low: int,
+    high: int,
+    tmp_path: Path,
+    capsys: pytest.CaptureFixture[str],
+) -> None:
+    # -200 and 850 degC are the ends of the Pt100 curve (IEC 60751) and the unit file accepts
+    # them; a class A probe there may read as the curve 0.55 or 1.85 degC further out.  Units
+    # whose probe then reads off the curve count as no reading, as on the bench; the study runs.
+    # A range 1 degC wide puts many draws within a tolerance of the end.
+    text = (SEQUENCES / "units" / f"{unit_name}.toml").read_text(encoding="utf-8")
+    stated = ('temperature = "23 degC"', 'temperature_range = ["15 degC", "35 degC"]')
+    assert all(text.count(old) == 1 for old in stated)
+    end = low if low == -200 else high
+    text = text.replace(stated[0], f'temperature = "{end} degC"')
+    text = text.replace(stated[1], f'temperature_range = ["{low} degC", "{high} degC"]')
+    fixture = json.dumps(str(SEQUENCES / "demo-fixture.toml"))
+    unit = tmp_path / "unit.toml"
+    unit.write_text(text.replace('"../demo-fixture.toml"', fixture), encoding="utf-8")
+    args = ["limits", str(SEQUENCES / f"{sequence}.toml"), "--unit", str(unit), "--json"]
+    assert main([*args, "--samples", "2000"]) == 0, capsys.readouterr().err
+    data = json.loads(capsys.readouterr().out)
+    assert data["draws"][0] == {
+        "what": "ambient",
+        "spread": f"{low} to {high} degC",
+        "distribution": "uniform",
+        "why": "uniform over the stated range: a unit may be tested anywhere in it",
+    }
+    # every step has limits or a reason why not (an NTC at -200 degC is all but open)
+    ids = [s.id for s in load_sequence(SEQUENCES / f"{sequence}.toml").steps]
+    assert sorted(s["id"] for s in data["steps"] + data["skipped"]) == sorted(ids)

@@ -119,3 +119,21 @@ def test_bad_parameters_are_rig_errors_and_value_errors() -> None:
 def test_float_in_float_out() -> None:
     assert type(PT100.r_at(25.0)) is float
     assert type(PT100.t_at(110.0)) is float
+
+
+@pytest.mark.parametrize(("temp_c", "cls", "sign"), [(-200.0, "A", -1.0), (850.0, "B", 1.0)])
+def test_element_at_a_span_end_may_deviate_past_it_by_its_class(
+    temp_c: float, cls: ToleranceClass, sign: float
+) -> None:
+    # IEC 60751 states a class tolerance as a deviation in degC from the curve: an element at
+    # -200 degC (class A: 0.55 degC) or 850 degC (class B: 4.55 degC) reads as the curve just past
+    # the span.  The value is the Callendar-Van Dusen polynomial with the IEC 60751 coefficients
+    # at temp + deviation, recomputed here; the element's own temperature stays inside the span.
+    a, b, c = 3.9083e-3, -5.775e-7, -4.183e-12
+    dev = sign * tolerance_c(temp_c, cls)
+    t = temp_c + dev
+    expected = 100 * (1 + a * t + b * t**2 + (c * (t - 100) * t**3 if t < 0 else 0.0))
+    got = PT100.r_of_element(np.array([temp_c]), np.array([dev]))
+    np.testing.assert_allclose(got, [expected], rtol=1e-12)
+    with pytest.raises(ModelInputError, match="outside the valid range -200 to 850 degC"):
+        PT100.r_of_element(np.array([temp_c + sign * 0.01]), np.array([0.0]))

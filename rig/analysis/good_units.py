@@ -15,13 +15,10 @@ import numpy.typing as npt
 from rig.config.unit_file import NtcSensor, RatiometricSensor, UnitModel
 from rig.models.copper import wire_resistance_ohm
 from rig.models.ratiometric import Ratiometric
-from rig.models.rtd import Rtd
+from rig.models.rtd import TOLERANCE_CLASSES, Rtd
 from rig.unit_circuit import ntc_model
 
 FloatArray = npt.NDArray[np.float64]
-
-IEC_60751_CLASSES = {"AA": (0.10, 0.0017), "A": (0.15, 0.002), "B": (0.30, 0.005)}
-"""Tolerance class of a platinum RTD: +-(a + b |t|) degC (IEC 60751)."""
 
 UNIFORM = "uniform"
 UNIFORM_PART = (
@@ -90,7 +87,7 @@ class GoodUnitSampler:
                     Draw(f"sensors.{sensor.name}.fraction", spread, UNIFORM, UNIFORM_PART)
                 )
         if u.probe is not None and u.probe.tolerance_class:
-            a, b = IEC_60751_CLASSES[u.probe.tolerance_class]
+            a, b = TOLERANCE_CLASSES[u.probe.tolerance_class]
             spread = f"class {u.probe.tolerance_class}: ±({a:g} + {b:g}|t|) degC (IEC 60751)"
             self.draws.append(Draw("reference_probe", spread, UNIFORM, UNIFORM_PART))
 
@@ -125,13 +122,12 @@ class GoodUnitSampler:
                 nominal = _fraction(sensor, u.pressure_pa)
                 values[f"rat:{sensor.name}:gain"] = nominal + rng.uniform(-t, t, size=n) / 100.0
         if u.probe is not None:
-            temp = ambient
+            # the class tolerance is a deviation from the curve at the element's temperature
+            deviation = np.zeros(n)
             if u.probe.tolerance_class:
-                a, b = IEC_60751_CLASSES[u.probe.tolerance_class]
-                temp = ambient + (a + b * np.abs(ambient)) * rng.uniform(-1.0, 1.0, size=n)
-            values["probe:element"] = np.asarray(
-                Rtd(r0_ohm=u.probe.r0_ohm).r_at(temp), dtype=np.float64
-            )
+                a, b = TOLERANCE_CLASSES[u.probe.tolerance_class]
+                deviation = (a + b * np.abs(ambient)) * rng.uniform(-1.0, 1.0, size=n)
+            values["probe:element"] = Rtd(r0_ohm=u.probe.r0_ohm).r_of_element(ambient, deviation)
         return Samples(n, values, ambient)
 
 

@@ -139,7 +139,11 @@ def prediction_centre(spec: StepSpec, earlier: Mapping[str, FloatArray]) -> Floa
         return r_pred
     ref = p.get("reference_from")
     v_ref = earlier[ref] if ref else np.array([float(p["reference_v"])])
-    return np.asarray(divider_voltage(v_ref, float(p["pullup_ohm"]), r_pred), dtype=np.float64)
+    # a sample with no temperature or no reference has no prediction either (NaN, as above)
+    ok = np.isfinite(r_pred) & np.isfinite(v_ref) & (v_ref > 0.0)
+    pullup = float(p["pullup_ohm"])
+    v_pred = divider_voltage(np.where(ok, v_ref, 1.0), pullup, np.where(ok, r_pred, 1.0))
+    return np.where(ok, np.asarray(v_pred, dtype=np.float64), math.nan)
 
 
 def step_value(spec: StepSpec, readings: Mapping[str, FloatArray], station: Station) -> FloatArray:

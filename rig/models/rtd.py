@@ -35,7 +35,7 @@ IEC_C = -4.183e-12
 
 ToleranceClass = Literal["AA", "A", "B"]
 
-_TOLERANCE: dict[str, tuple[float, float]] = {
+TOLERANCE_CLASSES: dict[str, tuple[float, float]] = {
     "AA": (0.10, 0.0017),
     "A": (0.15, 0.002),
     "B": (0.30, 0.005),
@@ -71,6 +71,22 @@ class Rtd:
         t = as_array(temp_c, "temp_c")
         check_range(t, "temp_c", T_MIN_C, T_MAX_C, "degC")
         return like(self.r0_ohm * self._ratio(t), temp_c)
+
+    def r_of_element(self, temp_c: FloatArray, deviation_c: FloatArray) -> FloatArray:
+        """Resistance of an element at ``temp_c`` (-200 to 850 degC) that deviates from the curve
+        by ``deviation_c``: the curve read at ``temp_c + deviation_c``.
+
+        IEC 60751 states an element's tolerance as a deviation in degC from the curve, so an
+        element at the end of the span may read as the curve a little past it; the polynomial is
+        carried on that far (at most a class tolerance, 4.55 degC for class B at 850 degC) rather
+        than refusing an element whose own temperature is inside the span.
+        """
+        t = as_array(temp_c, "temp_c")
+        check_range(t, "temp_c", T_MIN_C, T_MAX_C, "degC")
+        dev = as_array(deviation_c, "deviation_c")
+        if np.any(~np.isfinite(dev)):
+            raise ModelInputError("deviation_c must be finite")
+        return np.asarray(self.r0_ohm * self._ratio(t + dev), dtype=np.float64)
 
     def dr_dt(self, temp_c: F) -> F:
         """Slope dR/dT in ohm per kelvin at ``temp_c``."""
@@ -108,11 +124,11 @@ class Rtd:
 
 def tolerance_c(temp_c: F, cls: ToleranceClass) -> F:
     """Permitted deviation +-degC of a class AA, A or B element at ``temp_c`` (IEC 60751)."""
-    if cls not in _TOLERANCE:
+    if cls not in TOLERANCE_CLASSES:
         raise ModelInputError(
-            f"tolerance class {cls!r} is not known: expected one of {', '.join(_TOLERANCE)}"
+            f"tolerance class {cls!r} is not known: expected one of {', '.join(TOLERANCE_CLASSES)}"
         )
-    fixed, per_degree = _TOLERANCE[cls]
+    fixed, per_degree = TOLERANCE_CLASSES[cls]
     t = as_array(temp_c, "temp_c")
     if np.any(~np.isfinite(t)):
         raise ModelInputError("temp_c must be finite")
