@@ -3,6 +3,7 @@ least-squares ANOVA, and the F tail against scipy; the study CSV reader's errors
 
 from __future__ import annotations
 
+import codecs
 import json
 from pathlib import Path
 
@@ -210,5 +211,35 @@ def test_study_csv_without_the_columns_or_file(tmp_path: Path) -> None:
     path.write_text("piece,who,value\n1,A,0.5\n", "utf-8")
     with pytest.raises(GaugeStudyError, match="lacks column\\(s\\) part, operator, trial"):
         read_study_csv(path)
-    with pytest.raises(GaugeStudyError, match="no such file"):
+    with pytest.raises(GaugeStudyError, match=r"missing\.csv: file not found"):
         read_study_csv(tmp_path / "missing.csv")
+
+
+def test_study_csv_names_a_byte_that_is_not_utf8_by_line_and_column(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # 0xE9 is 'e acute' in Latin-1 (ISO/IEC 8859-1); in UTF-8 it is the lead byte of a
+    # three-byte sequence and ',' cannot follow it (The Unicode Standard, 3.9, table 3-7).
+    # A spreadsheet saved as "CSV" in a Western code page writes such a byte for an operator
+    # named with an accent; the reader names its line and column, as for any rig data file.
+    path = tmp_path / "latin1.csv"
+    path.write_bytes(b"part,operator,trial,value\n1,kim,1,0.5\n1,Ren\xe9,1,0.6\n")
+    with pytest.raises(GaugeStudyError) as caught:
+        read_study_csv(path)
+    expected = (
+        f"{path}:3: cannot read the file: the byte 0xe9 at column 6 is not UTF-8; the file "
+        "must be UTF-8 text (save it as UTF-8)"
+    )
+    assert str(caught.value) == expected
+    assert main(["stats", "grr", "--csv", str(path)]) == 2
+    assert capsys.readouterr().err == f"rig: {expected}\n"
+
+
+def test_study_csv_saved_as_utf16_is_named_as_such(tmp_path: Path) -> None:
+    # FF FE at the start is the UTF-16 little-endian byte-order mark (The Unicode Standard,
+    # 23.8); a spreadsheet's "Unicode text" export writes it.  rig asks for UTF-8 by name.
+    path = tmp_path / "wide.csv"
+    text = "part,operator,trial,value\n1,kim,1,0.5\n"
+    path.write_bytes(codecs.BOM_UTF16_LE + text.encode("utf-16-le"))
+    with pytest.raises(GaugeStudyError, match=r"wide.csv:1: .*it is UTF-16 text.*save it as UTF-8"):
+        read_study_csv(path)

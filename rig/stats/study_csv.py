@@ -1,5 +1,9 @@
 """Reading a gauge study made elsewhere from CSV: columns ``part``, ``operator``, ``trial``,
-``value``; one row per measurement.  Every problem names the file, the row and the column."""
+``value``; one row per measurement.  Every problem names the file, the row and the column.
+
+The file is read as rig reads its other data files (``rig.config.text_file``), so a CSV saved by
+a spreadsheet with a byte-order mark is accepted and a byte that is not UTF-8 is named by its line
+and column."""
 
 from __future__ import annotations
 
@@ -7,6 +11,8 @@ import csv
 import math
 from pathlib import Path
 
+from rig.config.text_file import read_text
+from rig.errors import ConfigError
 from rig.stats.grr import GaugeStudyError, Observation
 
 COLUMNS = ("part", "operator", "trial", "value")
@@ -15,11 +21,9 @@ COLUMNS = ("part", "operator", "trial", "value")
 def read_study_csv(path: Path) -> list[Observation]:
     """The study's measurements; raises ``GaugeStudyError`` listing every bad row."""
     try:
-        text = path.read_text(encoding="utf-8-sig")
-    except FileNotFoundError:
-        raise GaugeStudyError(f"{path}: no such file") from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise GaugeStudyError(f"{path}: cannot read it as UTF-8 text ({exc})") from None
+        text = read_text(path)
+    except ConfigError as exc:
+        raise GaugeStudyError(str(exc)) from None
     reader = csv.DictReader(text.splitlines())
     header = [h.strip().lower() for h in (reader.fieldnames or [])]
     missing = [c for c in COLUMNS if c not in header]
