@@ -537,11 +537,13 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
                     }
                     for r in summary.results
                 ],
+                "cut_short": summary.cut_short,
+                "not_run": summary.not_run,
             }
         )
     else:
         out.line()
-        out.results(summary.results)
+        out.results(summary.results, summary.cut_short, summary.not_run)
         for result in summary.results:
             if result.step_id in summary.failed_steps and result.note:
                 out.line(f"  {result.step_id}: " + "\n    ".join(result.note.split("; ")))

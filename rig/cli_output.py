@@ -11,6 +11,8 @@ from collections.abc import Sequence
 from typing import Any, TextIO
 
 from rig.events import (
+    CUT_SHORT,
+    NOT_RUN,
     Event,
     ReadingTaken,
     RunFinished,
@@ -81,8 +83,18 @@ class Output:
         elif isinstance(event, RunFinished) and not event.safe:
             self.error("WARNING: the bench could not be verified safe: " + "; ".join(event.notes))
 
-    def results(self, results: Sequence[StepResult]) -> None:
+    def results(
+        self,
+        results: Sequence[StepResult],
+        cut_short: str | None = None,
+        not_run: Sequence[str] = (),
+    ) -> None:
+        """The judged steps, then the planned steps an ended run has no result for (so a reader
+        of an aborted run sees what was never measured)."""
         rows = [[r.step_id, *_result_cells(r), r.verdict.value.upper()] for r in results]
+        if cut_short is not None:
+            rows.append([cut_short, "", "", "", "", CUT_SHORT.upper()])
+        rows += [[step_id, "", "", "", "", NOT_RUN.upper()] for step_id in not_run]
         self.table(["step", "value", "limits", "U (k=2)", "TUR", "verdict"], rows)
 
 

@@ -95,6 +95,10 @@ class RunSummary:
     results: list[StepResult] = field(default_factory=list)
     safe: bool = True
     notes: list[str] = field(default_factory=list)
+    cut_short: str | None = None
+    """The planned step the run ended during, with no result (an aborted run), if any."""
+    not_run: list[str] = field(default_factory=list)
+    """Planned steps the run ended before beginning, in plan order; nothing is stored for them."""
 
     @property
     def failed_steps(self) -> list[str]:
@@ -316,6 +320,7 @@ class Engine:
         self._run_id = run_id
         status, reason = "complete", ""
         results: list[StepResult] = []
+        begun: str | None = None  # the step under way, until its result is in
         interrupted: BaseException | None = None
         try:  # from here on, however the run ends, it ends safe and recorded
             self.listener(
@@ -332,9 +337,11 @@ class Engine:
                     results.append(result)
                     self._results[result.step_id] = result
                     continue
+                begun = planned.spec.id
                 result = self._run_step(position, planned, notes)
                 results.append(result)
                 self._results[result.step_id] = result
+                begun = None
                 if result.verdict is Verdict.ERROR:
                     status, reason = "aborted", f"step {result.step_id}: {result.note}"
                     break
@@ -365,8 +372,22 @@ class Engine:
         verdict = worst(r.verdict for r in results)
         if status == "aborted":
             verdict = Verdict.ERROR
+        judged = {r.step_id for r in results}
+        not_run = [
+            p.spec.id for p in self.plan.steps if p.spec.id not in judged and p.spec.id != begun
+        ]
         summary = RunSummary(
-            run_id, serial, sequence.name, status, verdict, reason, results, safe, notes
+            run_id,
+            serial,
+            sequence.name,
+            status,
+            verdict,
+            reason,
+            results,
+            safe,
+            notes,
+            cut_short=begun,
+            not_run=not_run,
         )
         self.store.finish_run(
             run_id,

@@ -12,6 +12,13 @@ a harness proof's faults found, a capture's nets.  A failed one is no fault for 
 to explain, and a mean, a spread or a capability of them means nothing."""
 
 
+NOT_RUN = "not run"
+CUT_SHORT = "not finished"
+"""How a live view marks a planned step an ended run has no result for: never begun, or begun and
+cut short by the run's end (its raw readings so far are stored; no step result is).  Words of a
+view, not verdicts: nothing is stored for such a step."""
+
+
 def prompt_answer(value: float) -> str:
     """An operator prompt's value (1 or 0) as the answer it records, for tables and records."""
     return "confirmed" if value >= 0.5 else "declined"

@@ -35,3 +35,39 @@ def shipped_bench(
 
 def shipped_plan(sequence_name: str, station: Station) -> Plan:
     return load_plan(SEQUENCES / f"{sequence_name}.toml", station)
+
+
+MIDWAY_STOP = """\
+# A test sequence, invented for the test: a check, a question, two checks after it.
+[sequence]
+name = "stops-midway"
+reorder = false
+
+[[steps]]
+id = "lead-check"
+kind = "resistance"
+hi = "T1"
+lo = "T2"
+low = "1 kohm"
+high = "4 kohm"
+
+[[steps]]
+id = "seated"
+kind = "prompt"
+text = "Is the sender seated in the well?"
+
+[[steps]]
+id = "lead-check-4w"
+kind = "resistance"
+hi = "T1"
+lo = "T2"
+wires = 4
+low = "1 kohm"
+high = "4 kohm"
+
+[[steps]]
+id = "hold"
+kind = "soak"
+duration = "0.1 s"
+"""
+"""A run of this on the NTC sender with no answer to its question stops at its second step."""

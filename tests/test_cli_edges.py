@@ -12,7 +12,7 @@ import sys
 from pathlib import Path
 
 import pytest
-from bench_helpers import SEQUENCES, shipped_bench, shipped_plan
+from bench_helpers import MIDWAY_STOP, SEQUENCES, shipped_bench, shipped_plan
 
 from rig.cli import EXIT_ABORTED, EXIT_BAD_INPUT, main
 from rig.cli_output import Output
@@ -265,3 +265,35 @@ def test_python_dash_m_rig_runs_the_same_commands(tmp_path: Path) -> None:
     )
     assert done.returncode == 2, done.stderr
     assert "nowhere.toml" in done.stderr and "Traceback" not in done.stderr
+
+def test_an_aborted_run_lists_the_planned_steps_it_never_measured(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str], monkeypatch: pytest.MonkeyPatch
+) -> None:
+    # the run stops at its second step (no one to answer): the first is judged, the question is
+    # cut short, the last two were never begun; the table and --json say so, and the store
+    # keeps a row for the judged step only (nothing is made up for the others)
+    sequence = tmp_path / "stops-midway.toml"
+    sequence.write_text(MIDWAY_STOP, encoding="utf-8")
+    monkeypatch.setattr(sys, "stdin", io.StringIO(""))
+    with shipped_bench("ntc-sender", folder=tmp_path / "bench") as (_, station):
+        run = ["run", str(sequence), "--station", str(station.path), "--serial", "M1"]
+        assert main(run) == EXIT_ABORTED
+        table = [line.strip() for line in capsys.readouterr().out.splitlines()]
+        assert main([*run, "--json"]) == EXIT_ABORTED
+        printed = capsys.readouterr().out
+        data = json.loads(printed[printed.index("{") :])  # after the unanswered question
+        with sqlite3.connect(station.store_path) as db:
+            stored = db.execute("SELECT run_id, step_id FROM steps ORDER BY run_id").fetchall()
+    header = next(n for n, line in enumerate(table) if line.startswith("step "))
+    rows = {}
+    for line in table[header + 2 :]:
+        if not line:
+            break
+        rows[line.split()[0]] = line
+    assert list(rows) == ["lead-check", "seated", "lead-check-4w", "hold"]  # in plan order
+    assert rows["lead-check"].endswith("PASS")
+    assert rows["seated"].endswith("NOT FINISHED")
+    assert rows["lead-check-4w"].endswith("NOT RUN") and rows["hold"].endswith("NOT RUN")
+    assert [s["id"] for s in data["steps"]] == ["lead-check"]
+    assert data["cut_short"] == "seated" and data["not_run"] == ["lead-check-4w", "hold"]
+    assert stored == [(1, "lead-check"), (2, "lead-check")]

@@ -291,3 +291,36 @@ def test_a_unit_file_given_to_the_console_is_recorded_and_diagnosed_from(tmp_pat
         assert diagnosis["available"] and diagnosis["hypotheses"][0]["spec"] == "open:signal"
 
     asyncio.run(scenario())
+
+
+def test_an_aborted_run_shows_the_planned_steps_it_never_measured(tmp_path: Path) -> None:
+    # the operator stops the run at its second step, a question: the run view lists the judged
+    # step, the question cut short and the steps never begun, in plan order; the store has a
+    # row for the judged step only
+    from bench_helpers import MIDWAY_STOP
+
+    sequence = tmp_path / "stops-midway.toml"
+    sequence.write_text(MIDWAY_STOP, encoding="utf-8")
+
+    async def scenario() -> None:
+        with console_on_bench("ntc-sender", tmp_path / "bench", sequence) as (app, _bench):
+            async with app.run_test(size=SIZE) as pilot:
+                screen = await start_run(pilot, "NTC-1004")
+                await wait_for(pilot, lambda: isinstance(app.screen, PromptScreen), "the prompt")
+                await pilot.press("s")
+                await finish(pilot, screen)
+                assert screen.summary is not None and screen.summary.status == "aborted"
+                table = screen.query_one("#steps", DataTable)
+                rows = [
+                    [str(cell) for cell in table.get_row_at(n)[:3]] for n in range(table.row_count)
+                ]
+                assert rows == [
+                    ["1", "lead-check", "PASS"],
+                    ["2", "seated", "NOT FINISHED"],
+                    ["3", "lead-check-4w", "NOT RUN"],
+                    ["4", "hold", "NOT RUN"],
+                ]
+                _, steps = stored_run(app, screen.summary.run_id)
+                assert [s["step_id"] for s in steps] == ["lead-check"]
+
+    asyncio.run(scenario())

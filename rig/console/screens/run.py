@@ -46,7 +46,7 @@ from rig.console.worker import (
     run_in_worker,
 )
 from rig.engine import RunSummary
-from rig.events import StepFinished, StepResult, StepStarted
+from rig.events import CUT_SHORT, NOT_RUN, StepFinished, StepResult, StepStarted
 from rig.judge.decision import Verdict
 from rig.store import ResultStore
 
@@ -283,6 +283,7 @@ class RunScreen(Screen[str | None]):
         status.show_verdict(
             run_verdict(summary.status, summary.verdict, summary.reason, summary.safe)
         )
+        self._add_unjudged(summary)
         table = self.query_one("#steps", DataTable)
         failed = [r for r in self.results if r.step_id in summary.failed_steps]
         if failed:
@@ -300,6 +301,23 @@ class RunScreen(Screen[str | None]):
             self.query_one("#diagnosis", Static).display = True
         self._update_plot()
         self._ready_for_next()
+
+    def _add_unjudged(self, summary: RunSummary) -> None:
+        """Rows after the judged ones for the planned steps the run has no result for, so whoever
+        reads an aborted run sees what was never measured (nothing is stored for them)."""
+        marks = [(summary.cut_short, CUT_SHORT)] if summary.cut_short else []
+        marks += [(step_id, NOT_RUN) for step_id in summary.not_run]
+        if not marks:
+            return
+        planned = {p.spec.id: (n, p.spec) for n, p in enumerate(self.request.plan.steps, start=1)}
+        table = self.query_one("#steps", DataTable)
+        for step_id, word in marks:
+            position, spec = planned[step_id]
+            word_cell = Text(word.upper(), "dim")
+            pins = pins_text(dict(spec.pins))
+            table.add_row(
+                str(position), step_id, word_cell, "", "", "", "", pins, key=str(position)
+            )
 
     def _ready_for_next(self) -> None:
         self.refresh_bindings()
