@@ -290,6 +290,7 @@ class Engine:
                         instruments=tuple(identities),
                         study_part=study_part,
                         study_trial=study_trial,
+                        planned_steps=tuple(p.spec.id for p in self.plan.steps),
                     ),
                 )
                 wear = self._writes.meanwhile("relay_wear", station.name)
@@ -299,7 +300,7 @@ class Engine:
                 cont = continuation(self.store, resume, self.plan)
                 run_id, serial, done = cont.run_id, cont.serial, cont.done
                 self._done_ids = frozenset(done)
-                self.store.reopen_run(run_id)
+                self.store.reopen_run(run_id, [p.spec.id for p in self.plan.steps])
                 notes.append(
                     f"continued after an interruption; {len(done)} of {len(self.plan.steps)} steps "
                     "were already done"
@@ -396,6 +397,7 @@ class Engine:
             reason=reason,
             notes=notes,
             relay_operations=operations,
+            cut_short=begun,
         )
         self.listener(
             RunFinished(

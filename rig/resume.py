@@ -12,9 +12,11 @@ from __future__ import annotations
 
 import json
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import Any
 
+from rig.config.sequence import Sequence
 from rig.errors import RigError
 from rig.events import StepResult
 from rig.judge.decision import DecisionRule, Limits, Verdict
@@ -47,6 +49,12 @@ def abandoned_notes(run_ids: list[int]) -> list[str]:
     ]
 
 
+def same_sequence(run: Mapping[str, Any], sequence: Sequence) -> bool:
+    """Whether ``sequence`` is the very text the run recorded (its SHA-256): only then do the
+    run's steps and the file's belong to one test (to continue it, or to read its plan again)."""
+    return str(run["sequence_hash"]) == sequence.content_hash
+
+
 def continuation(store: ResultStore, run_id: int, plan: Plan) -> Continuation:
     """Check that ``run_id`` can be continued with ``plan`` and load what it has done."""
     run = store.run(run_id)
@@ -59,7 +67,7 @@ def continuation(store: ResultStore, run_id: int, plan: Plan) -> Continuation:
         raise ResumeRefused(
             f"run {run_id} ran on station {run['station']!r}; this station is {plan.station.name!r}"
         )
-    if run["sequence_hash"] != plan.sequence.content_hash:
+    if not same_sequence(run, plan.sequence):
         raise ResumeRefused(
             f"the sequence {plan.sequence.path} changed since run {run_id} began "
             "(its content hash differs); start a new run instead"

@@ -135,6 +135,13 @@ MIGRATIONS: list[str] = [
     CREATE INDEX steps_for_stats ON steps
         (step_id, unit, low, high, run_id, value, expanded_u, verdict, position);
     """,
+    # 4 -> 5: what a run planned, so its record shows the steps it never measured
+    # (rig.planned_steps): the step ids in run order (JSON, written at the start), and the step
+    # under way when it ended ('' none; NULL where no end was recorded, or an older run)
+    """
+    ALTER TABLE runs ADD COLUMN planned_steps TEXT;
+    ALTER TABLE runs ADD COLUMN cut_short_step TEXT;
+    """,
 ]
 
 SCHEMA_VERSION = len(MIGRATIONS)
@@ -249,6 +256,8 @@ class RunHeader:
     instruments: tuple[dict[str, str], ...] = ()
     study_part: str = ""
     study_trial: int | None = None
+    planned_steps: tuple[str, ...] | None = None
+    """The step ids in the order the run will take them (after reordering); None: not known."""
 
 
 class ResultStore:
@@ -329,8 +338,8 @@ class ResultStore:
             cur = db.execute(
                 "INSERT INTO runs (run_uid, serial, sequence_name, sequence_hash, sequence_path,"
                 " station, operator, unit, faults, instruments, started_at, status,"
-                " study_part, study_trial)"
-                " VALUES (?,?,?,?,?,?,?,?,?,?,?, 'running', ?, ?) RETURNING id",
+                " study_part, study_trial, planned_steps)"
+                " VALUES (?,?,?,?,?,?,?,?,?,?,?, 'running', ?, ?, ?) RETURNING id",
                 (
                     uuid.uuid4().hex,
                     header.serial,
@@ -345,6 +354,7 @@ class ResultStore:
                     _now(),
                     header.study_part,
                     header.study_trial,
+                    None if header.planned_steps is None else json.dumps(header.planned_steps),
                 ),
             )
             return int(cur.fetchone()[0])
@@ -418,14 +428,18 @@ class ResultStore:
         reason: str = "",
         notes: Sequence[str] = (),
         relay_operations: Mapping[int, int] | None = None,
+        cut_short: str | None = None,
     ) -> None:
         """Record the run's end.  ``relay_operations`` (the run's own, by relay) are added to its
         station's lifetime counts in the same commit: one commit less at the end of every run, and
-        wear is never counted without the run that caused it."""
+        wear is never counted without the run that caused it.  ``cut_short`` is the step under
+        way when the run ended (None: none was), so the record can tell it from those never
+        begun."""
         with self._tx() as db:
             db.execute(
-                "UPDATE runs SET ended_at=?, status=?, verdict=?, reason=?, notes=? WHERE id=?",
-                (_now(), status, verdict, reason, json.dumps(list(notes)), run_id),
+                "UPDATE runs SET ended_at=?, status=?, verdict=?, reason=?, notes=?,"
+                " cut_short_step=? WHERE id=?",
+                (_now(), status, verdict, reason, json.dumps(list(notes)), cut_short or "", run_id),
             )
             if relay_operations:
                 row = db.execute("SELECT station FROM runs WHERE id=?", (run_id,)).fetchone()
@@ -481,13 +495,16 @@ class ResultStore:
                 )
         return ids
 
-    def reopen_run(self, run_id: int) -> None:
-        """Set an incomplete run running again, to be continued from its next step."""
+    def reopen_run(self, run_id: int, planned_steps: Sequence[str] | None = None) -> None:
+        """Set an incomplete run running again, to be continued from its next step.  The planned
+        steps it recorded at its start are kept; ``planned_steps`` is recorded only where it
+        recorded none (a run begun by an older rig, continued with the same sequence)."""
+        planned = None if planned_steps is None else json.dumps(list(planned_steps))
         with self._tx() as db:
             db.execute(
-                "UPDATE runs SET status='running', ended_at=NULL"
-                " WHERE id=? AND status='incomplete'",
-                (run_id,),
+                "UPDATE runs SET status='running', ended_at=NULL, cut_short_step=NULL,"
+                " planned_steps=COALESCE(planned_steps, ?) WHERE id=? AND status='incomplete'",
+                (planned, run_id),
             )
 
     # --- reading ------------------------------------------------------------------------------

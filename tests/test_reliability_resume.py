@@ -6,6 +6,8 @@ from __future__ import annotations
 
 import contextlib
 import io
+import json
+import sqlite3
 from pathlib import Path
 
 import pytest
@@ -109,3 +111,25 @@ def test_the_continue_command_explains_a_refusal(bench_files: tuple[Path, Path])
         with contextlib.redirect_stderr(err), contextlib.redirect_stdout(io.StringIO()):
             code = main(["continue", str(run_id), "--station", str(station)])
         assert code == 3 and words in err.getvalue() and "Traceback" not in err.getvalue()
+
+
+def test_a_continued_run_keeps_the_steps_it_planned(bench_files: tuple[Path, Path]) -> None:
+    # the list a run recorded at its start is its own: continuing does not plan it again (the
+    # station's plan could order the steps otherwise by then, as the one written here does);
+    # a run begun by an older rig, which recorded none, gets the plan it is continued with
+    sequence, station = bench_files
+    store_path = load_plan(sequence, station).station.store_path
+    own = _dead_run(sequence, station, after="signal")
+    older = _dead_run(sequence, station, after="signal")
+    with sqlite3.connect(store_path) as db:
+        (recorded,) = db.execute("SELECT planned_steps FROM runs WHERE id=?", (own,)).fetchone()
+        assert json.loads(recorded) == STEPS  # recorded as the run started
+        other_order = json.dumps([STEPS[0], *reversed(STEPS[1:])])
+        db.execute("UPDATE runs SET planned_steps=? WHERE id=?", (other_order, own))
+        db.execute("UPDATE runs SET planned_steps=NULL WHERE id=?", (older,))
+    for run_id in (own, older):
+        assert run_plan(load_plan(sequence, station), "x", resume=run_id).status == "complete"
+    with sqlite3.connect(store_path) as db:
+        planned = dict(db.execute("SELECT id, planned_steps FROM runs").fetchall())
+    assert planned[own] == other_order
+    assert json.loads(planned[older]) == STEPS

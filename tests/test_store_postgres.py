@@ -4,6 +4,7 @@ address, an unreachable server and a wrong password, and the password file honou
 
 from __future__ import annotations
 
+import json
 import math
 import multiprocessing
 import os
@@ -22,7 +23,10 @@ from rig.store_postgres import PostgresBackend, open_postgres, pg_ddl
 pytestmark = pytest.mark.postgres
 KEYS_ADDED = next(i for i, m in enumerate(MIGRATIONS) if "ADD COLUMN reading_uid" in m)
 
-HEADER = RunHeader("SN", "seq", "abc", "/x.toml", "bench", "op", unit="u", faults=("open:w",))
+HEADER = RunHeader(
+    "SN", "seq", "abc", "/x.toml", "bench", "op", unit="u", faults=("open:w",),
+    planned_steps=("s1", "s2"),
+)  # fmt: skip
 STEP: dict[str, Any] = {
     "step_id": "s1",
     "kind": "volts",
@@ -96,6 +100,10 @@ def test_the_interface_gives_the_same_record_on_both_engines(
         on_sqlite = comparable(local, record_one_run(local))
         on_server = comparable(server, record_one_run(server))
         assert on_server == on_sqlite
+        # what the run planned, and that no step was under way at its end ("" is "none", NULL
+        # "not recorded"): the record of steps it never measured rests on both
+        assert json.loads(on_server["run"]["planned_steps"]) == ["s1", "s2"]
+        assert on_server["run"]["cut_short_step"] == ""
         # source: PostgreSQL manual, 8.1.4 "Floating-Point Types": real is 4 bytes with about 6
         # decimal digits, double precision 8 bytes with 15; 0.1 + 1e-12 survives only the latter
         assert on_server["steps"][0]["value"] == 0.1 + 1e-12
@@ -169,8 +177,10 @@ def test_a_server_made_by_an_earlier_schema_migrates_and_keeps_its_runs(
             (reading,) = store.readings(int(run["id"]))
             assert reading["value"] == 2.5
             assert reading["reading_uid"] == ("old-run:1" if version <= KEYS_ADDED else None)
+            assert run["planned_steps"] is None  # not known: not made up
         new = store.start_run(HEADER)  # and the migrated database takes new runs
         assert store.run(new)["status"] == "running"
+        assert json.loads(store.run(new)["planned_steps"]) == ["s1", "s2"]
     finally:
         store.close()
 
@@ -192,6 +202,8 @@ def test_a_sqlite_file_made_by_an_earlier_schema_migrates_and_keeps_its_runs(
             # the key given to readings written before keys existed: run key and row (a row
             # written later without one, as here, gets it at the next sync)
             assert reading["reading_uid"] == ("old-run:1" if version <= KEYS_ADDED else None)
+            assert store.run(1)["planned_steps"] is None
+            assert store.run(1)["cut_short_step"] is None
     finally:
         store.close()
 

@@ -53,6 +53,7 @@ def cmd_diagnose(args: argparse.Namespace, out: Output) -> int:
     from rig.config.station import load_station
     from rig.config.unit_file import load_unit
     from rig.errors import ConfigError, Problem
+    from rig.resume import same_sequence
     from rig.runner import load_plan
     from rig.store import ResultStore, StoreError
 
@@ -81,7 +82,7 @@ def cmd_diagnose(args: argparse.Namespace, out: Output) -> int:
                 f"{unit_path} ({unit.name}) instead"
             )
         plan = load_plan(sequence, station)
-        if plan.sequence.content_hash != run["sequence_hash"]:
+        if not same_sequence(run, plan.sequence):
             out.error(f"warning: {sequence} has changed since run {args.run_id} was taken")
         diagnosis = diagnose_run(store, args.run_id, unit, plan)
     finally:
