@@ -73,6 +73,13 @@ def diagnose_stored_run(
     unit_path: Path | None = None,
 ) -> dict[str, Any]:
     """The diagnosis of one stored run as plain data, or the reason there is none."""
+    status = str(run.get("status") or "")
+    if status in ("aborted", "incomplete"):  # its faults would be guessed from missing steps
+        return unavailable(
+            f"no diagnosis is made of an {status} run: it ended before every step was measured"
+        )
+    if status == "running":
+        return unavailable("no diagnosis yet: the run has not ended")
     if run.get("verdict") not in FAILED_VERDICTS:
         return unavailable("the run did not fail: no diagnosis needed")
     try:

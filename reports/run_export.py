@@ -13,6 +13,8 @@ import json
 from collections.abc import Iterable, Mapping
 from typing import Any
 
+from rig.config.station import Station
+from rig.planned_steps import recorded_steps, unmeasured_steps
 from rig.store import ResultStore
 
 STEP_COLUMNS = (
@@ -48,9 +50,14 @@ RUN_COLUMNS = (
     "run_ended_at",
     "run_status",
     "run_verdict",
+    "run_reason",
     "instruments",
     "diagnosis",
+    "not_measured_notes",
 )
+NOT_MEASURED_COLUMN = "not_measured"
+"""Set only on the rows of planned steps with no result ("not finished" or "not run"): their
+value, limits and verdict stay empty, so no formula over those columns counts them as results."""
 _FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
 
 
@@ -62,16 +69,33 @@ def csv_safe(value: object) -> object:
 
 
 def run_record(
-    store: ResultStore, run_id: int, diagnosis: Mapping[str, Any] | None = None
+    store: ResultStore,
+    run_id: int,
+    diagnosis: Mapping[str, Any] | None = None,
+    station: Station | None = None,
 ) -> dict[str, Any]:
-    """Everything kept for one run: header, steps, every raw reading, and its diagnosis."""
+    """Everything kept for one run: header, steps, every raw reading, the planned steps it has
+    no result for (``station`` plans an older run's sequence again), and its diagnosis."""
     run = store.run(run_id)
+    steps = store.steps(run_id)
+    readings = store.readings(run_id)
+    missing = unmeasured_steps(run, steps, readings, station)
     for key in ("faults", "instruments", "notes"):
         run[key] = json.loads(run[key])
-    steps = store.steps(run_id)
+    planned = recorded_steps(run)
+    if planned is not None:
+        run["planned_steps"] = list(planned)
     for step in steps:
         step["extras"] = json.loads(step["extras"])
-    record: dict[str, Any] = {"run": run, "steps": steps, "readings": store.readings(run_id)}
+    record: dict[str, Any] = {
+        "run": run,
+        "steps": steps,
+        "readings": readings,
+        "not_measured": [
+            {"position": m.position, "step_id": m.step_id, "state": m.state} for m in missing.steps
+        ],
+        "not_measured_notes": list(missing.notes),
+    }
     if diagnosis is not None:
         record["diagnosis"] = dict(diagnosis)
     return record
@@ -116,7 +140,9 @@ def diagnosis_text(diagnosis: Mapping[str, Any] | None) -> str:
 
 def record_csv(record: Mapping[str, Any]) -> str:
     """The whole record as one CSV table: a row per step, carrying the run's header fields, its
-    instruments and diagnosis, and the step's raw readings (space separated, in order)."""
+    instruments and diagnosis, and the step's raw readings (space separated, in order); then a
+    row per planned step with no result, named in its own column and nowhere else; a run with
+    no step at all still gives one row, of its own fields."""
     run = record["run"]
     header = {
         "run_id": run["id"],
@@ -132,8 +158,10 @@ def record_csv(record: Mapping[str, Any]) -> str:
         "run_ended_at": run["ended_at"],
         "run_status": run["status"],
         "run_verdict": run["verdict"],
+        "run_reason": run["reason"],
         "instruments": instruments_text(run["instruments"]),
         "diagnosis": diagnosis_text(record.get("diagnosis")),
+        "not_measured_notes": " ".join(record.get("not_measured_notes", [])),
     }
     readings: dict[str, list[str]] = {}
     for r in record["readings"]:
@@ -142,7 +170,18 @@ def record_csv(record: Mapping[str, Any]) -> str:
         {**header, **step, "readings": " ".join(readings.get(step["step_id"], []))}
         for step in record["steps"]
     ]
-    return _safe_rows(rows, (*RUN_COLUMNS, *STEP_COLUMNS, "readings"))
+    rows += [
+        {
+            **header,
+            "position": m["position"],
+            "step_id": m["step_id"],
+            NOT_MEASURED_COLUMN: m["state"],
+            "readings": " ".join(readings.get(m["step_id"], [])),
+        }
+        for m in record.get("not_measured", [])
+    ]
+    columns = (*RUN_COLUMNS, *STEP_COLUMNS, NOT_MEASURED_COLUMN, "readings")
+    return _safe_rows(rows or [header], columns)
 
 
 def _reading_text(reading: Mapping[str, Any]) -> str:

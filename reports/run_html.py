@@ -10,7 +10,7 @@ from typing import Any
 from reports.html_page import esc, figure, page, table
 from reports.svg_plots import margin_chart
 from rig import __version__
-from rig.events import prompt_answer
+from rig.events import CUT_SHORT, NOT_RUN, prompt_answer
 
 
 def num(value: object, digits: int = 7) -> str:
@@ -128,6 +128,28 @@ def _steps(steps: list[Mapping[str, Any]]) -> str:
     )
 
 
+NOT_MEASURED_NOTE = (
+    f"The run ended before these planned steps gave a result, so nothing was judged for them: "
+    f"{CUT_SHORT} is the step under way when the run ended (any raw readings it took are listed "
+    f"below), {NOT_RUN} a step never begun."
+)
+
+
+def _not_measured(record: Mapping[str, Any]) -> str:
+    """The planned steps with no result, after the judged ones, in plan order: a record of an
+    aborted run must show what was never measured."""
+    missing = record.get("not_measured") or []
+    notes = "".join(f'<p class="note">{esc(n)}</p>' for n in record.get("not_measured_notes", []))
+    if not missing and not notes:
+        return ""
+    text = "<h2>Planned steps not measured</h2>" + notes
+    if missing:
+        rows = [[m["position"], m["step_id"], m["state"]] for m in missing]
+        text += table(["#", "step", "state"], rows, numeric=(0,), table_id="not-measured")
+        text += f'<p class="note">{esc(NOT_MEASURED_NOTE)}</p>'
+    return text
+
+
 def _nets(steps: list[Mapping[str, Any]]) -> str:
     """A harness proof's continuity net by net: each reading against its limit, the figures a
     shop ships or rejects a harness on (kept in the step's extras as ``net N A>B ohm`` and
@@ -226,6 +248,7 @@ def render_run(record: Mapping[str, Any]) -> str:
         _header(run),
         _instruments(run),
         _steps(record["steps"]),
+        _not_measured(record),
         _nets(record["steps"]),
         _margins(record["steps"]),
         _diagnosis(record.get("diagnosis")),

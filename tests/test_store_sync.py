@@ -331,3 +331,47 @@ def test_a_report_by_station_finds_the_run_that_station_printed(
     assert "Traceback" not in missing.stderr
     malformed = report("run-1", station_b.path)
     assert malformed.returncode == 2 and "expected a run id" in malformed.stderr
+
+
+def test_an_aborted_runs_plan_reaches_the_server_and_its_report_there(
+    tmp_path: Path,
+    pg_cluster: Cluster,
+    pg_database: str,
+    monkeypatch: pytest.MonkeyPatch,
+) -> None:
+    # the run is sent as it ends (the station has a server): its planned steps and the step
+    # under way travel with it, so the record read from the server lists what was never measured
+    import io
+
+    from bench_helpers import MIDWAY_STOP
+
+    from rig.cli import EXIT_ABORTED, main
+
+    dbname = str(psycopg.conninfo.conninfo_to_dict(pg_database)["dbname"])
+    sequence = tmp_path / "stops-midway.toml"
+    sequence.write_text(MIDWAY_STOP, encoding="utf-8")
+    env, mp = password_file_env(tmp_path, pg_cluster)
+    try:
+        with shipped_bench("ntc-sender", folder=tmp_path / "bench") as (_, station):
+            station_file = with_server_section(station, pg_cluster, dbname)
+            monkeypatch.setattr(sys, "stdin", io.StringIO(""))  # the question gets no answer
+            args = ["run", str(sequence), "--station", str(station_file), "--serial", "P-1"]
+            assert main(args) == EXIT_ABORTED
+    finally:
+        mp.undo()
+    with psycopg.connect(pg_database) as conn:
+        on_server = conn.execute("SELECT planned_steps, cut_short_step FROM runs").fetchall()
+    assert [(json.loads(p), c) for p, c in on_server] == [
+        (["lead-check", "seated", "lead-check-4w", "hold"], "seated")
+    ]
+    done = rig_cli(
+        ["report", "1", "--station", str(station_file), "--format", "json", "--out", "-"], env
+    )
+    assert done.returncode == 0, done.stderr
+    assert "has not reached the results server" not in done.stderr  # read from the server
+    record = json.loads(done.stdout)
+    assert [(m["step_id"], m["state"]) for m in record["not_measured"]] == [
+        ("seated", "not finished"),
+        ("lead-check-4w", "not run"),
+        ("hold", "not run"),
+    ]

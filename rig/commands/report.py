@@ -64,7 +64,7 @@ def cmd_report(args: argparse.Namespace, out: Output) -> int:
             diagnosis = diagnose_stored_run(
                 found.store, run, station=opened.station, unit_path=args.unit
             )
-            record = run_record(found.store, found.run_id, diagnosis)
+            record = run_record(found.store, found.run_id, diagnosis, opened.station)
         finally:
             if found.store is not opened.store:
                 found.store.close()
