@@ -296,7 +296,7 @@ def test_a_unit_file_given_to_the_console_is_recorded_and_diagnosed_from(tmp_pat
 def test_an_aborted_run_shows_the_planned_steps_it_never_measured(tmp_path: Path) -> None:
     # the operator stops the run at its second step, a question: the run view lists the judged
     # step, the question cut short and the steps never begun, in plan order; the store has a
-    # row for the judged step only
+    # row for the judged step only, and the record view shows the same rows from what it keeps
     from bench_helpers import MIDWAY_STOP
 
     sequence = tmp_path / "stops-midway.toml"
@@ -322,5 +322,15 @@ def test_an_aborted_run_shows_the_planned_steps_it_never_measured(tmp_path: Path
                 ]
                 _, steps = stored_run(app, screen.summary.run_id)
                 assert [s["step_id"] for s in steps] == ["lead-check"]
+                # the stored record (F2, Enter) lists them too, read from the store alone
+                await pilot.press("f2")
+                await wait_for(pilot, lambda: isinstance(app.screen, HistoryScreen), "history")
+                await pilot.press("enter")
+                await wait_for(pilot, lambda: isinstance(app.screen, RecordScreen), "the record")
+                record = app.screen.query_one("#record-steps", DataTable)
+                assert [
+                    [str(cell) for cell in record.get_row_at(n)[:3]]
+                    for n in range(record.row_count)
+                ] == rows
 
     asyncio.run(scenario())

@@ -18,6 +18,7 @@ from rig.console.setup import ConsoleSetup
 from rig.console.widgets import RunList
 from rig.console.words import VERDICT_STYLES, kind_cells, stored_run_word, verdict_word
 from rig.judge.decision import Limits, Verdict
+from rig.planned_steps import unmeasured_steps
 from rig.store import ResultStore
 
 
@@ -121,7 +122,9 @@ class RecordScreen(Screen[None]):
 
         table = self.query_one("#record-steps", DataTable)
         table.add_columns(*RECORD_COLUMNS)
-        for row in self.store.steps(self.run_id):
+        steps = self.store.steps(self.run_id)
+        readings = self.store.readings(self.run_id)
+        for row in steps:
             value = row["value"] if row["value"] is not None else float("nan")
             cells = kind_cells(row["kind"], value, row["unit"], _limits(row), row["expanded_u"])
             step_verdict = Verdict(row["verdict"])
@@ -136,14 +139,19 @@ class RecordScreen(Screen[None]):
                 row["decision_rule"],
                 row["note"],
             )
+        missing = unmeasured_steps(run, steps, readings, self.setup.station)
+        for step in missing.steps:  # after the judged steps: what the run never measured
+            state = Text(step.state.upper(), "dim")
+            table.add_row(str(step.position), step.step_id, state, *[""] * 6)
         notes = Text()
+        for line in missing.notes:
+            notes.append(f"{line}\n", "dim")
         for inst in json.loads(run["instruments"] or "[]"):
             due = inst.get("calibration_due") or "not given"
             notes.append(f"{inst['role']}: {inst['identity']} (calibration due {due})\n", "dim")
         for note in json.loads(run["notes"] or "[]"):
             notes.append(f"note: {note}\n")
-        readings = len(self.store.readings(self.run_id))
-        notes.append(f"{readings} raw readings kept in the results store", "dim")
+        notes.append(f"{len(readings)} raw readings kept in the results store", "dim")
         self.query_one("#record-notes", Static).update(notes)
         table.focus()
 
