@@ -266,6 +266,7 @@ def test_python_dash_m_rig_runs_the_same_commands(tmp_path: Path) -> None:
     assert done.returncode == 2, done.stderr
     assert "nowhere.toml" in done.stderr and "Traceback" not in done.stderr
 
+
 def test_an_aborted_run_lists_the_planned_steps_it_never_measured(
     tmp_path: Path, capsys: pytest.CaptureFixture[str], monkeypatch: pytest.MonkeyPatch
 ) -> None:
