@@ -109,3 +109,35 @@ def test_sync_without_a_server_says_so_and_with_a_dead_one_keeps_the_runs(
         err = capsys.readouterr().err
         assert "1 waiting" in err and "nothing answers there" in err
         assert "Traceback" not in err
+
+
+def test_report_and_stats_with_the_server_down_say_where_the_station_s_runs_are(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # Every run is in the station's own file first: one run's report is read from it, with a
+    # note; statistics (which would silently shrink to this station's runs) name the file to
+    # read instead. Both exit 3 as rig sync does: the input is not at fault.
+    import socket
+
+    monkeypatch.delenv("RIG_DATABASE_URL", raising=False)
+    with shipped_bench("temp-circuit", folder=tmp_path) as (_, station):
+        seq = str(Path(__file__).resolve().parent.parent / "sequences" / "temp-circuit-check.toml")
+        assert main(["run", seq, "--station", str(station.path), "--serial", "DOWN-1"]) == 0
+        with socket.socket() as s:  # a port where nothing listens
+            s.bind(("127.0.0.1", 0))
+            port = s.getsockname()[1]
+        monkeypatch.setenv("RIG_DATABASE_URL", f"postgresql://bench@127.0.0.1:{port}/rig")
+        capsys.readouterr()
+        out_file = tmp_path / "r.csv"
+        report = ["report", "1", "--station", str(station.path), "--format", "csv"]
+        assert main([*report, "--out", str(out_file)]) == 0
+        err = capsys.readouterr().err
+        assert "cannot reach the results server" in err
+        assert f"read from the station's own file {station.store_path}" in err
+        assert "DOWN-1" in out_file.read_text(encoding="utf-8")
+        assert main(["stats", "--station", str(station.path)]) == 3
+        err = capsys.readouterr().err
+        assert f"give --store {station.store_path}" in err and "Traceback" not in err
+        station.store_path.unlink()  # no own file either: nothing to fall back on
+        assert main([*report, "--out", str(out_file)]) == 3
+        assert "cannot reach the results server" in capsys.readouterr().err

@@ -27,21 +27,51 @@ def add_store_args(parser: argparse.ArgumentParser) -> None:
     where.add_argument("--store", type=Path, help="a results store file (SQLite)")
 
 
+class ServerUnreachable(RigError):
+    """The station's results server cannot be opened; its own file holds its own runs."""
+
+
 @dataclass
 class OpenedStore:
     store: ResultStore
     station: Station | None
     data_dir: Path
+    note: str = ""
+    """What the user must know about where the runs are read from (empty: as asked)."""
 
 
-def open_from_args(args: argparse.Namespace) -> OpenedStore:
-    """The store named on the command line; a missing store file is an error, not a new file."""
+def open_from_args(
+    args: argparse.Namespace, *, own_file_if_unreachable: bool = False
+) -> OpenedStore:
+    """The store named on the command line; a missing store file is an error, not a new file.
+
+    A station with a results server is read from the server.  When the server cannot be opened,
+    ``own_file_if_unreachable`` (one run's report) reads the station's own file instead, with a
+    note; otherwise (statistics across stations, which the own file would silently narrow)
+    ``ServerUnreachable`` says how to read the own file."""
     if args.station is not None:
         from rig.config.station import load_station
-        from rig.store_open import open_store
+        from rig.store import StoreError
+        from rig.store_open import open_local_store, open_server_store
 
         station = load_station(args.station)
-        return OpenedStore(open_store(station), station, station.store_path.parent)
+        own = station.store_path
+        try:
+            server = open_server_store(station)
+        except StoreError as exc:
+            if not own.is_file():
+                raise ServerUnreachable(str(exc)) from None
+            if not own_file_if_unreachable:
+                raise ServerUnreachable(
+                    f"{exc}; this station's own runs are in {own}: give --store {own} to read "
+                    "them alone"
+                ) from None
+            note = (
+                f"{exc}; read from the station's own file {own} instead (its own runs, including "
+                "any not yet sent to the server)"
+            )
+            return OpenedStore(open_local_store(station), station, own.parent, note)
+        return OpenedStore(server or open_local_store(station), station, own.parent)
     path: Path = args.store
     if not path.is_file():
         raise ArgumentProblem(f"--store {path}: no such results store file")

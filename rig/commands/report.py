@@ -49,10 +49,12 @@ def cmd_report(args: argparse.Namespace, out: Output) -> int:
     from rig.store import StoreError
 
     try:
-        opened = open_from_args(args)
+        opened = open_from_args(args, own_file_if_unreachable=True)
     except ArgumentProblem as exc:
         out.error(f"rig: {exc}")
         return EXIT_BAD_INPUT
+    if opened.note:
+        out.error(f"note: {opened.note}")
     try:
         try:
             found = find_run(opened, args.run)

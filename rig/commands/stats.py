@@ -10,13 +10,19 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 from rig.cli_output import Output
-from rig.commands._store_args import ArgumentProblem, OpenedStore, checked_output, open_from_args
+from rig.commands._store_args import (
+    ArgumentProblem,
+    OpenedStore,
+    ServerUnreachable,
+    checked_output,
+    open_from_args,
+)
 from rig.stats.filters import RunFilter
 
 if TYPE_CHECKING:
     from rig.stats.from_store import FaultFinder
 
-EXIT_OK, EXIT_BAD_INPUT = 0, 2
+EXIT_OK, EXIT_BAD_INPUT, EXIT_UNREACHABLE = 0, 2, 3
 FEW_FOR_CAPABILITY = 30
 
 
@@ -57,6 +63,9 @@ def cmd_stats(args: argparse.Namespace, out: Output) -> int:
         if args.topic == "grr":
             return _grr(args, out)
         return _shop(args, out)
+    except ServerUnreachable as exc:  # not the input's fault: as rig report and rig sync say it
+        out.error(f"rig: {exc}")
+        return EXIT_UNREACHABLE
     except (FilterError, GaugeStudyError, ArgumentProblem, StoreError) as exc:
         out.error(f"rig: {exc}")
         return EXIT_BAD_INPUT
