@@ -282,7 +282,7 @@ class Engine:
                         serial=serial,
                         sequence_name=sequence.name,
                         sequence_hash=sequence.content_hash,
-                        sequence_path=str(sequence.path),
+                        sequence_path=sequence.recorded_path(),
                         station=station.name,
                         operator=operator,
                         unit=unit,

@@ -5,6 +5,7 @@ The reference is the fault injected into the bench; no published source is invol
 from __future__ import annotations
 
 import json
+import sqlite3
 from dataclasses import replace
 from pathlib import Path
 
@@ -189,3 +190,32 @@ def test_diagnose_names_the_faults_it_cannot_tell_apart_with_the_first(
         assert main(["diagnose", "1", "--station", str(station.path)]) == 0
     first = next(line for line in capsys.readouterr().out.splitlines() if line.startswith("1 "))
     assert "open:lead_a" in first and "open:lead_b" in first and "(or " in first
+
+
+def test_a_run_started_with_a_relative_sequence_is_diagnosed_from_another_folder(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str], monkeypatch: pytest.MonkeyPatch
+) -> None:
+    # The technician runs `rig run sequence.toml ...` in the sequence's folder and diagnoses
+    # from elsewhere: the run records the sequence in full, as it does the unit file.
+    work = tmp_path / "work"
+    work.mkdir()
+    (work / "sequence.toml").write_bytes((SEQUENCES / "temp-circuit-check.toml").read_bytes())
+    with shipped_bench("temp-circuit", ("open:ground",), folder=tmp_path) as (_, station):
+        monkeypatch.chdir(work)
+        args = ["run", "sequence.toml", "--station", str(station.path), "--serial", "SN-P"]
+        assert main([*args, "--unit", str(UNIT)]) == 1
+        monkeypatch.chdir(tmp_path)
+        capsys.readouterr()
+        assert main(["diagnose", "1", "--station", str(station.path), "--json"]) == 0
+        assert json.loads(capsys.readouterr().out)["hypotheses"][0]["spec"] == "open:ground"
+        # a run recorded before paths were kept in full holds the path as typed: the error
+        # names it and the option that gives the file
+        with sqlite3.connect(station.store_path) as db:
+            db.execute("UPDATE runs SET sequence_path = 'sequence.toml' WHERE id = 1")
+        db.close()
+        assert main(["diagnose", "1", "--station", str(station.path)]) == 2
+        err = capsys.readouterr().err
+        assert "'sequence.toml'" in err and "--sequence FILE" in err and "Traceback" not in err
+        given = ["--sequence", str(work / "sequence.toml"), "--json"]
+        assert main(["diagnose", "1", "--station", str(station.path), *given]) == 0
+        assert json.loads(capsys.readouterr().out)["hypotheses"][0]["spec"] == "open:ground"

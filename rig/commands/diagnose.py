@@ -6,6 +6,7 @@ import argparse
 from pathlib import Path
 
 from rig.cli_output import Output
+from rig.errors import ConfigError, Problem
 
 EXIT_BAD_INPUT = 2
 
@@ -47,12 +48,34 @@ def _other_unit(recorded: str, given: Path, name: str) -> str:
     return "" if recorded == name else recorded
 
 
+def recorded_sequence(run_id: int, recorded: str) -> Path:
+    """The sequence file a run records, where it is still found.  Runs record it in full; older
+    runs recorded it as typed, so from another folder it is not found: the error names the
+    recorded path and the option that gives the file, not a bare "file not found"."""
+    path = Path(recorded)
+    if path.is_file():
+        return path
+    where = (
+        "no longer there"
+        if path.is_absolute()
+        else f"relative to the folder rig run was started in; not found from {Path.cwd()}"
+    )
+    raise ConfigError(
+        [
+            Problem(
+                "--sequence",
+                "",
+                f"run {run_id} records sequence file {recorded!r} ({where}); give --sequence FILE",
+            )
+        ]
+    )
+
+
 def cmd_diagnose(args: argparse.Namespace, out: Output) -> int:
     from reports.diagnosis import find_unit_file
     from rig.analysis.diagnose import diagnose_run
     from rig.config.station import load_station
     from rig.config.unit_file import load_unit
-    from rig.errors import ConfigError, Problem
     from rig.resume import same_sequence
     from rig.runner import load_plan
     from rig.store import ResultStore, StoreError
@@ -65,7 +88,7 @@ def cmd_diagnose(args: argparse.Namespace, out: Output) -> int:
         except StoreError as exc:
             out.error(f"rig: RUN_ID {args.run_id}: {exc}")
             return EXIT_BAD_INPUT
-        sequence = args.sequence or Path(run["sequence_path"])
+        sequence = args.sequence or recorded_sequence(args.run_id, str(run["sequence_path"]))
         unit_path = find_unit_file(run, args.unit)
         if unit_path is None:
             recorded = (

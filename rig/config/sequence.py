@@ -41,6 +41,12 @@ class Sequence:
     def step(self, step_id: str) -> StepSpec:
         return next(s for s in self.steps if s.id == step_id)
 
+    def recorded_path(self) -> str:
+        """Where a run records this sequence as coming from: the file's full path, so that
+        ``rig diagnose`` and ``rig report`` find it again from any folder (messages keep the path
+        as typed).  A sequence built in memory (``rig harness``) names its place in words."""
+        return str(self.path.resolve()) if self.path.is_file() else str(self.path)
+
     def problem(self, key: str, message: str) -> Problem:
         """A problem of this file found after loading (by the planner), at the line of ``key``."""
         line = self.source.line_of(key) if self.source is not None else None
