@@ -183,6 +183,29 @@ def test_capture_a_good_harness_then_check_others_against_it(tmp_path: Path, cap
     assert any(re.match(r"net N2: A-2 to B-2 \(wire \w+\) reads", n) for n in out["notes"])
 
 
+def test_capture_refuses_connectors_the_fixture_lacks_and_fails_when_nothing_is_joined(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # The invented harness runs every wire from connector A to connector B (no splices): a
+    # misspelt connector used to scan nothing, and A alone holds no net, yet both wrote an
+    # empty wire list and passed, a reference that every later harness would fail against.
+    wires, fixture = write_invented(tmp_path / "list", 4, seed=3, splices=0, spare=0)
+    captured = tmp_path / "captured.csv"
+    with served(harness_bench(wires, fixture, seed=3), tmp_path / "a") as st:
+        args = ["harness", "capture", "--station", str(st), "--out", str(captured)]
+        args += ["--serial", "G2", "--ambient", "20 degC"]
+        assert main([*args, "--connectors", "A,J9"]) == EXIT_BAD_INPUT
+        err = capsys.readouterr().err
+        assert "no connector 'J9'" in err and "it has A, B" in err and "Traceback" not in err
+        assert not captured.exists()
+        assert main([*args, "--connectors", "A", "--json"]) == EXIT_FAIL
+        report = json.loads(capsys.readouterr().out)
+        assert report["verdict"] == "fail" and "no nets found" in report["notes"][0]
+        assert not captured.exists()
+        assert main([*args, "--connectors", "A,B", "--json"]) == EXIT_PASS
+    assert len(load_wire_list(captured, fixture).nets) == 4
+
+
 def test_bad_wire_list_is_reported_by_row_column_and_value(tmp_path: Path, capsys) -> None:  # type: ignore[no-untyped-def]
     wires, fixture = write_invented(tmp_path / "list", 8, seed=1, spare=0)
     text = wires.path.read_text(encoding="utf-8").replace("B,3,", "B,99,")

@@ -154,9 +154,17 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
 
 
 def cmd_capture(args: argparse.Namespace, out: Output) -> int:
+    from rig.config.station import load_station
+    from rig.errors import ConfigError
+    from rig.harness.capture import connector_problems
+
     keys: dict[str, object] = {"capture_to": str(args.out.resolve())}
     connectors = [c.strip() for c in args.connectors.split(",") if c.strip()]
     if connectors:
+        fixture = load_station(args.station).fixture
+        problems = connector_problems(fixture, connectors, "--connectors")
+        if problems:  # before anything is opened
+            raise ConfigError(problems)
         keys["capture_connectors"] = connectors
     return _run(args, out, keys, "capture", args.out.resolve())
 

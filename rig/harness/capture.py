@@ -13,6 +13,7 @@ import math
 from dataclasses import dataclass
 
 from rig.config.fixture import Bus, FixtureMap
+from rig.errors import Problem
 from rig.harness.conductors import PathLimit
 from rig.harness.continuity import ContinuityCheck, MeasurePort, orientation, run_continuity
 from rig.harness.isolation import IsolationResult, discover_groups
@@ -38,6 +39,28 @@ def capture_pins(fixture: FixtureMap, connectors: list[str] | None = None) -> li
         for pin in fixture.pins.values()
         if {Bus.DMM_HI, Bus.DMM_LO} <= set(pin.relays)
         and (connectors is None or _end(pin.name, pin.connector).connector in connectors)
+    ]
+
+
+def capture_connectors(fixture: FixtureMap) -> list[str]:
+    """The connectors a capture can scan: those with a pin on DMM HI and LO, in name order."""
+    pins = capture_pins(fixture)
+    return sorted({_end(name, fixture.pins[name].connector).connector for name in pins})
+
+
+def connector_problems(fixture: FixtureMap, connectors: list[str], key: str) -> list[Problem]:
+    """One problem per connector asked for that the fixture has no capturable pin on: a
+    misspelt or foreign connector would otherwise scan nothing and capture an empty list."""
+    known = capture_connectors(fixture)
+    return [
+        Problem(
+            key,
+            "",
+            f"fixture {fixture.name!r} ({fixture.path.name}) has no connector {name!r} on the "
+            f"DMM buses; it has {', '.join(known) or 'none'}",
+        )
+        for name in connectors
+        if name not in known
     ]
 
 

@@ -14,7 +14,7 @@ from pathlib import Path
 from drivers.base import MeterFunction
 from rig.config.reader import Section
 from rig.errors import ConfigError
-from rig.harness.capture import capture_harness, capture_pins
+from rig.harness.capture import capture_harness, capture_pins, connector_problems
 from rig.harness.conductors import Allowances
 from rig.harness.isolation import cut_count, cut_sides
 from rig.harness.scan import METHODS, HarnessReport, HarnessSettings, scan_harness
@@ -123,6 +123,11 @@ def report_outcome(report: HarnessReport, settings: HarnessSettings, unit: str) 
     )
 
 
+CAPTURE_LIMITS = Limits(1.0, None)
+"""A capture's value is the nets it found: none is a failure (a misplaced or unplugged harness,
+or connectors that hold no wire), and no reference wire list is written from it."""
+
+
 class HarnessProof(StepKind):
     """Prove a harness against its wire list (continuity, isolation, miswires)."""
 
@@ -135,7 +140,8 @@ class HarnessProof(StepKind):
     def parse(self, sec: Section, spec: StepSpec) -> None:
         read_harness_keys(sec, spec, sec.doc.path.parent)
         _temperature_source(sec, spec)
-        spec.limits = None if spec.params.get("capture_to") else Limits(None, 0.0)
+        # a capture must find at least one net: a golden harness connects something
+        spec.limits = CAPTURE_LIMITS if spec.params.get("capture_to") else Limits(None, 0.0)
 
     def routes(self, spec: StepSpec) -> list[Route]:
         """Continuity (as 2-wire pairs) and the first isolation cuts, for planning: pins and
@@ -166,34 +172,48 @@ class HarnessProof(StepKind):
         return report_outcome(report, settings, self.unit)
 
     def _capture(self, ctx: StepContext, spec: StepSpec) -> Outcome:
-        """Scan the fixture's pins, measure every join found and write them as a wire list."""
+        """Scan the fixture's pins, measure every join found and write them as a wire list;
+        write nothing where no join is found."""
+        connectors = spec.params.get("capture_connectors")
+        problems = connector_problems(
+            ctx.fixture, connectors or [], f"{spec.key}.capture_connectors"
+        )
+        if problems:
+            raise ConfigError(problems)
         ctx.power(None)
         temp_c, _ = _temperature(ctx, spec)
         settings = settings_from(spec, temp_c)
-        pins = capture_pins(ctx.fixture, spec.params.get("capture_connectors"))
+        pins = capture_pins(ctx.fixture, connectors)
         found = capture_harness(ctx, ctx.fixture, pins, settings)
         path: Path = spec.params["capture_to"]
-        write_wire_list(
-            path,
-            found.rows,
-            [
-                f"Captured by rig from a harness on fixture {ctx.fixture.name!r} at "
-                f"{temp_c:.1f} degC: {len(found.discovery.groups)} nets on {len(pins)} pins.",
-                "Rows are measured paths from each net's first pin; measured_ohm includes "
-                "the contacts.",
-            ],
-        )
-        nets = float(len(found.discovery.groups))
+        nets = len(found.discovery.groups)
+        if nets:
+            write_wire_list(
+                path,
+                found.rows,
+                [
+                    f"Captured by rig from a harness on fixture {ctx.fixture.name!r} at "
+                    f"{temp_c:.1f} degC: {nets} nets on {len(pins)} pins.",
+                    "Rows are measured paths from each net's first pin; measured_ohm includes "
+                    "the contacts.",
+                ],
+            )
+            note = f"wrote {len(found.rows)} rows of {nets} nets to {path}"
+        else:
+            note = (
+                f"no two of the {len(pins)} pins scanned are joined: no nets found, nothing "
+                f"written to {path} (is the harness on the fixture, on those connectors?)"
+            )
         return Outcome(
-            nets,
+            float(nets),
             "nets",
             0.0,
-            None,
+            CAPTURE_LIMITS,
             extras={
                 "pins": float(len(pins)),
                 "rows": float(len(found.rows)),
                 "discovery_readings": float(len(found.discovery.readings)),
                 "temperature_c": temp_c,
             },
-            note=f"wrote {len(found.rows)} rows of {int(nets)} nets to {path}",
+            note=note,
         )
