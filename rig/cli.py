@@ -224,6 +224,7 @@ def cmd_demo(args: argparse.Namespace, out: Output) -> int:
 
 
 def cmd_check(args: argparse.Namespace, out: Output) -> int:
+    from rig.harness.wire_list import WireList
     from rig.runner import load_plan
 
     plan = load_plan(args.sequence, args.station)
@@ -253,6 +254,10 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
         )
     headers = ["step", "kind", "pins", "relays", "interlocks", "limits", "range", "U (k=2)", "TUR"]
     out.table(headers, rows)
+    for step in plan.steps:
+        wires = step.spec.params.get("wires")
+        if isinstance(wires, WireList) and wires.ignored:
+            out.line(f"{step.spec.id}: {wires.ignored_note()}")
     _show_supply(plan, out)
     out.line()
     out.line(

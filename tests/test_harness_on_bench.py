@@ -206,6 +206,33 @@ def test_capture_refuses_connectors_the_fixture_lacks_and_fails_when_nothing_is_
     assert len(load_wire_list(captured, fixture).nets) == 4
 
 
+def test_a_wire_list_with_columns_rig_does_not_read_is_proved_and_says_so(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # the shipped list with a part number column, as a CAD export carries: proved as before,
+    # and the check's output and record name the column that was not read
+    lines = (SHIPPED / "wire-list.csv").read_text(encoding="utf-8").splitlines()
+    wide = [
+        line if line.startswith("#") else f"{line},{'part_number' if k == 2 else 'PN-' + str(k)}"
+        for k, line in enumerate(lines)
+    ]
+    folder = tmp_path / "list"
+    folder.mkdir()
+    (folder / "wire-list.csv").write_text("\n".join(wide) + "\n", encoding="utf-8")
+    sequence = folder / "harness-proof.toml"
+    sequence.write_bytes((SHIPPED / "harness-proof.toml").read_bytes())
+    fixture = load_fixture(SHIPPED / "fixture.toml")
+    wires = load_wire_list(folder / "wire-list.csv", fixture)
+    bench = harness_bench(wires, fixture, seed=4, ambient_c=23.0, probe=PROBE)
+    said = "wire list wire-list.csv: columns not read by rig, ignored: 'part_number'"
+    with served(bench, tmp_path / "a") as st:
+        assert main(["check", str(sequence), "--station", str(st)]) == EXIT_PASS
+        assert f"harness: {said}" in capsys.readouterr().out
+        args = ["harness", "check", str(folder / "wire-list.csv"), "--station", str(st)]
+        assert main([*args, "--serial", "H3", "--ambient", "23 degC", "--json"]) == EXIT_PASS
+    assert said in json.loads(capsys.readouterr().out)["notes"]
+
+
 def test_bad_wire_list_is_reported_by_row_column_and_value(tmp_path: Path, capsys) -> None:  # type: ignore[no-untyped-def]
     wires, fixture = write_invented(tmp_path / "list", 8, seed=1, spare=0)
     text = wires.path.read_text(encoding="utf-8").replace("B,3,", "B,99,")

@@ -64,6 +64,36 @@ def test_missing_and_unknown_columns_are_reported(tmp_path: Path) -> None:
     assert any("missing column 'to_pin'" in p for p in problems)
 
 
+def test_columns_rig_does_not_read_are_ignored_and_named(tmp_path: Path) -> None:
+    # CAD exports carry part numbers and notes beside the connection columns (common practice,
+    # no published source); rig reads what it needs and names what it left unread.
+    path = _write(
+        tmp_path,
+        "W1,A,J1,1,J2,1,18 AWG,2.0,red,123-456,spare loop\n",
+        header=HEADER.rstrip("\n") + ",part_number, note\n",
+    )
+    wires = load_wire_list(path, load_fixture(SHIPPED / "fixture.toml"))
+    assert wires.ignored == ("part_number", "note")
+    assert wires.rows[0].colour == "red" and wires.nets[0].pins == ("J1-1", "J2-1")
+    assert wires.ignored_note() == (
+        "wire list wires.csv: columns not read by rig, ignored: 'part_number', 'note'"
+    )
+
+
+def test_a_column_close_to_one_rig_reads_is_refused_as_a_misspelling(tmp_path: Path) -> None:
+    # ignored, `to_conector` would leave every wire's far end unread: one problem, naming the
+    # column it looks like (and not also a missing `to_connector`)
+    path = _write(
+        tmp_path,
+        "W1,A,J1,1,J2,1,18 AWG,2.0,red,x\n",
+        header="wire,net,from_connector,from_pin,to_conector,to_pin,gauge,length_m,colour,colour\n",
+    )
+    problems = _problems(path)
+    assert len(problems) == 2, problems
+    assert ":2 [header]: unknown column 'to_conector'; did you mean 'to_connector'?" in problems[0]
+    assert "column 'colour' is given 2 times" in problems[1]
+
+
 def test_rows_sharing_ends_must_agree_on_their_net(tmp_path: Path) -> None:
     path = _write(
         tmp_path,

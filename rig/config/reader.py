@@ -263,7 +263,7 @@ class Section:
         for name in self.data:
             if name in allowed:
                 continue
-            meant = _close_key(name, self._missing)
+            meant = close_key(name, self._missing)
             if meant:
                 missing, expected = self._missing.pop(meant)
                 self.doc.problems.remove(missing)
@@ -273,14 +273,14 @@ class Section:
                 )
                 continue
             known = ", ".join(sorted(allowed)) or "none"
-            meant = _close_key(name, allowed - set(self.data))  # not one written already
+            meant = close_key(name, allowed - set(self.data))  # not one written already
             if meant:
                 self.problem(name, f"unknown key; did you mean {meant!r}? Expected one of: {known}")
             else:
                 self.problem(name, f"unknown key; expected one of: {known}")
 
 
-def _close_key(name: str, keys: Iterable[str]) -> str | None:
+def close_key(name: str, keys: Iterable[str]) -> str | None:
     """The one key ``name`` looks like a misspelling of, if one is close enough to say so."""
     meant = difflib.get_close_matches(name, sorted(keys), n=1, cutoff=_CLOSE)
     return meant[0] if meant else None

@@ -3,6 +3,7 @@
 One row is one wire: from connector and pin, to connector and pin, gauge (``18 AWG`` or
 ``0.5 mm2``), ``length_m``; optionally ``wire`` (an id), ``colour``, ``net``, and the
 ``measured_ohm`` / ``measured_at_c`` of a captured harness (then gauge and length may be empty).
+Other columns (a CAD export's part number) are ignored and named, unless close to one of these.
 An end whose pin is empty is a splice, named by its connector column; a net with a splice is
 several rows that share it.  Lines starting with ``#`` are comments.  A fixture pin is joined by
 the name ``CONNECTOR-PIN``.  Every problem names the file, the row (its line in the file), the
@@ -11,16 +12,18 @@ column and the value found.
 
 from __future__ import annotations
 
+import csv
 import io
 import math
 import re
 from collections import deque
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 import pandas as pd
 
 from rig.config.fixture import FixtureMap
+from rig.config.reader import close_key
 from rig.config.text_file import read_text
 from rig.errors import ConfigError, Problem
 from rig.models._common import ModelInputError
@@ -108,6 +111,15 @@ class WireList:
     path: Path
     rows: list[WireRow] = field(default_factory=list)
     nets: list[Net] = field(default_factory=list)
+    ignored: tuple[str, ...] = ()
+    """Header columns rig does not read (a part number, a note): kept in the file, unused."""
+
+    def ignored_note(self) -> str:
+        """The columns rig does not read, in words for a check's output (empty where none)."""
+        if not self.ignored:
+            return ""
+        names = ", ".join(repr(c) for c in self.ignored)
+        return f"wire list {self.path.name}: columns not read by rig, ignored: {names}"
 
     def net_of_pin(self) -> dict[str, Net]:
         return {pin: net for net in self.nets for pin in net.pins}
@@ -151,29 +163,11 @@ def parse_wire_list(text: str, path: Path, fixture: FixtureMap | None = None) ->
     header_line = numbered[0][0]
     columns = [str(c).strip() for c in frame.columns]
     frame.columns = pd.Index(columns)
-    for column in columns:
-        if column not in COLUMNS:
-            problems.append(
-                Problem(
-                    name,
-                    "header",
-                    f"unknown column {column!r}; expected {_cols()}",
-                    line=header_line,
-                )
-            )
-    for column in REQUIRED:
-        if column not in columns:
-            problems.append(
-                Problem(
-                    name,
-                    "header",
-                    f"missing column {column!r}; expected {_cols()}",
-                    line=header_line,
-                )
-            )
+    written = [c.strip() for c in next(csv.reader([numbered[0][1]]))]
+    ignored = _header_problems(written, Problem(name, "header", "", line=header_line), problems)
     if problems:
         raise ConfigError(problems)
-    wires = WireList(path)
+    wires = WireList(path, ignored=tuple(ignored))
     for index, record in enumerate(frame.to_dict("records")):
         line = numbered[index + 1][0]
         row = _row(record, line, name, problems)
@@ -198,6 +192,37 @@ def _csv_error_line(message: str, numbers: list[int]) -> int:
         return numbers[0]
     index = int(found.group(2)) - (found.group(1) == "line")
     return numbers[min(max(index, 0), len(numbers) - 1)]
+
+
+def _header_problems(written: list[str], at: Problem, problems: list[Problem]) -> list[str]:
+    """Check the header's column names; return those rig does not use (in file order).  A CAD
+    export's part number or note column is ignored, but a name close to a column rig reads
+    (difflib, as for a file's keys) is taken for its misspelling and refused: ignored, it would
+    leave that column's values unread without a word."""
+
+    def problem(message: str) -> None:
+        problems.append(replace(at, message=message))
+
+    named = [c or f"(column {k}, no name)" for k, c in enumerate(written, start=1)]
+    ignored: list[str] = []
+    misspelt: set[str] = set()
+    for column in dict.fromkeys(named):
+        if column in COLUMNS:
+            if named.count(column) > 1:
+                problem(f"column {column!r} is given {named.count(column)} times")
+            continue
+        meant = close_key(column, [c for c in COLUMNS if c not in named])
+        if meant:
+            misspelt.add(meant)  # one mistake, one problem: not also a missing column
+            problem(
+                f"unknown column {column!r}; did you mean {meant!r}? Columns rig reads: {_cols()}"
+            )
+        else:
+            ignored.append(column)
+    for column in REQUIRED:
+        if column not in named and column not in misspelt:
+            problem(f"missing column {column!r}; expected {_cols()}")
+    return ignored
 
 
 def _cols() -> str:

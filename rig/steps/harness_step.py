@@ -169,7 +169,10 @@ class HarnessProof(StepKind):
         temp_c, _ = _temperature(ctx, spec)
         settings = settings_from(spec, temp_c)
         report = scan_harness(ctx, wires, ctx.fixture, settings)
-        return report_outcome(report, settings, self.unit)
+        outcome = report_outcome(report, settings, self.unit)
+        if wires.ignored:  # what the harness was proved against, in the record
+            outcome.note = "; ".join(filter(None, (outcome.note, wires.ignored_note())))
+        return outcome
 
     def _capture(self, ctx: StepContext, spec: StepSpec) -> Outcome:
         """Scan the fixture's pins, measure every join found and write them as a wire list;
