@@ -551,6 +551,18 @@ class ResultStore:
             params,
         )
 
+    def run_names(self, where: RunFilter) -> list[Any]:
+        """(sequence_name, station, runs, first started_at, last started_at) per sequence and
+        station of the runs the filter matches: what a filter that matches nothing could have
+        named instead."""
+        sql, params = _run_where(where)
+        return self._rows(
+            "SELECT r.sequence_name, r.station, COUNT(*), MIN(r.started_at), MAX(r.started_at)"
+            f" FROM runs r WHERE {sql} GROUP BY r.sequence_name, r.station"
+            " ORDER BY r.sequence_name, r.station",
+            params,
+        )
+
     def model_step_rows(self, where: RunFilter) -> list[Any]:
         """The steps judged around a prediction (``predicted`` set): sequence, step, unit,
         value, predicted, low, high, expanded U, position and verdict, one row a step run.  Their

@@ -203,6 +203,37 @@ def test_stats_json_and_tables(demo_store: Path, capsys: pytest.CaptureFixture[s
     assert "Cp and Cpk from fewer than 30 values are rough" in text  # 4 runs a step here
 
 
+def test_a_filter_that_matches_no_run_says_so_and_names_what_there_is(
+    demo_store: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # a misspelt sequence or station name is refused with the names the store holds, rather
+    # than reported as a shop with no production (0 runs and empty tables, exit 0)
+    store = ResultStore(demo_store)
+    try:
+        stations = sorted({r["station"] for r in store.runs(limit=1000)})
+    finally:
+        store.close()
+    base = ["stats", "--store", str(demo_store)]
+    assert main([*base, "--sequence", "nosuch"]) == 2
+    err = capsys.readouterr().err
+    assert "--sequence 'nosuch': no production run has that sequence name" in err
+    assert "known: ntc-sender-screen, pressure-circuit-check, temp-circuit-check" in err
+    assert main([*base, "--station-name", "bench-9", "--json"]) == 2
+    assert f"known: {', '.join(stations)}" in capsys.readouterr().err
+    # names the store holds, a day it holds none: said in words, with what each part shuts out
+    args = [*base, "--sequence", "temp-circuit-check", "--until", "2000-01-01"]
+    assert main(args) == 0
+    text = capsys.readouterr().out
+    assert text.startswith("no production run matches --sequence temp-circuit-check --until 2000")
+    assert "without --sequence: 0; without --until: 4; the store's 10 runs were started" in text
+    assert "Yield per sequence" not in text
+    assert main([*args, "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    assert data["runs"] == 0 and data["no_match"].startswith("no production run matches")
+    # the filter's study flag is a JSON boolean, not the text "False"
+    assert data["filter"]["study"] is False and data["filter"]["until"] == "2000-01-01"
+
+
 def test_stats_page_has_tables_and_charts(
     demo_store: Path, tmp_path: Path, capsys: pytest.CaptureFixture[str]
 ) -> None:

@@ -135,12 +135,20 @@ def _fault_finder(opened: OpenedStore) -> FaultFinder | None:
 
 
 def _shop(args: argparse.Namespace, out: Output) -> int:
+    from rig.stats.filters import FilterError
     from rig.stats.from_store import shop_stats
+    from rig.stats.no_match import no_match_text, unknown_names
 
     where = _filter(args)
     opened = _open(args)
     try:
         stats = shop_stats(opened.store, where, _fault_finder(opened))
+        no_match = ""
+        if stats.runs == 0:  # a misspelt name is an error; a valid one, said in words
+            unknown = unknown_names(where, opened.store.run_names)
+            if unknown:
+                raise FilterError(unknown)
+            no_match = no_match_text(where, opened.store.run_names, opened.store.where)
         page_path = None
         if args.html is not None:
             page_path = _write_page(opened, stats, args.html)
@@ -148,8 +156,16 @@ def _shop(args: argparse.Namespace, out: Output) -> int:
         opened.store.close()
     if args.json:
         data = stats.to_dict()
+        # a JSON boolean: to_dict gives text, which the statistics page's filter line reads
+        data["filter"]["study"] = where.study
+        data["no_match"] = no_match or None
         data["html"] = None if page_path is None else str(page_path)
         out.json(data)
+        return EXIT_OK
+    if no_match:
+        out.line(no_match)
+        if page_path is not None:
+            out.line(f"page (empty) written to {page_path}")
         return EXIT_OK
     _print_shop(stats, out)
     if page_path is not None:
