@@ -219,3 +219,37 @@ def test_a_run_started_with_a_relative_sequence_is_diagnosed_from_another_folder
         given = ["--sequence", str(work / "sequence.toml"), "--json"]
         assert main(["diagnose", "1", "--station", str(station.path), *given]) == 0
         assert json.loads(capsys.readouterr().out)["hypotheses"][0]["spec"] == "open:ground"
+
+
+def test_the_next_check_says_which_faults_it_tells_apart(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # The weak sequence reads the signal only: a series fault in the ground wire and one in the
+    # signal wire read alike, so entry 1 holds both and the next check splits them, not entry 1
+    # from entry 2.  With the full sequence an open ground wire stands alone in entry 1.
+    weak = Path(__file__).parent / "data" / "weak-temp-check.toml"
+    full = SEQUENCES / "temp-circuit-check.toml"
+    for folder, sequence, fault in (
+        ("weak", weak, "series:ground=30ohm"),
+        ("full", full, "open:ground"),
+    ):
+        with shipped_bench("temp-circuit", (fault,), folder=tmp_path / folder) as (_, station):
+            run = ["run", str(sequence), "--station", str(station.path), "--serial", "SN-N"]
+            # the weak sequence lets the series fault through (a pass): diagnosed all the same
+            assert main([*run, "--unit", str(UNIT)]) == (0 if folder == "weak" else 1)
+            capsys.readouterr()
+            assert main(["diagnose", "1", "--station", str(station.path), "--json"]) == 0
+            found = json.loads(capsys.readouterr().out)
+            assert main(["diagnose", "1", "--station", str(station.path)]) == 0
+            said = capsys.readouterr().out.splitlines()[-1]
+        first = found["hypotheses"][0]
+        assert found["next_check"] is not None and said.endswith(found["next_check"])
+        if folder == "weak":
+            assert first["same_as"], first
+            pair = f"{first['spec']} from {first['same_as'][0]}"
+            assert said.startswith(f"to tell {pair} (both in entry 1), measure DC volts")
+        else:
+            assert not first["same_as"] and first["spec"] == "open:ground"
+            assert said.startswith("to tell entry 1 from entry 2, measure DC volts")
+            second = found["hypotheses"][1]["spec"]
+            assert f"if {first['spec']}," in said and said.endswith(f"if {second}")

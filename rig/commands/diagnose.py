@@ -144,8 +144,15 @@ def cmd_diagnose(args: argparse.Namespace, out: Output) -> int:
     for h in hypotheses:
         if h.same_as:
             out.line(f"{h.spec} cannot be told apart by this sequence from: {', '.join(h.same_as)}")
+    # what the next check compares, in the table's words: the first two faults of entry 1 where
+    # the sequence cannot tell them apart (that is where a reading helps most), else entries 1, 2
+    compared = (
+        f"{hypotheses[0].spec} from {hypotheses[0].same_as[0]} (both in entry 1)"
+        if hypotheses[0].same_as
+        else "entry 1 from entry 2"
+    )
     if diagnosis.next_check:
-        out.line(f"to separate the top two, measure {diagnosis.next_check}")
+        out.line(f"to tell {compared}, measure {diagnosis.next_check}")
     elif len(hypotheses) > 1 or hypotheses[0].same_as:
-        out.line("no extra DC volts reading on the fixture's pins separates the top two")
+        out.line(f"no extra DC volts reading on the fixture's pins tells {compared}")
     return 0
