@@ -70,7 +70,7 @@ def _step_section(step: StepStats, series: Sequence[tuple[dt.datetime, float]]) 
 def render_stats(stats: ShopStats, series: SeriesLoader) -> str:
     """The statistics as a complete HTML page."""
     where = ", ".join(
-        f"{k} {v}" for k, v in stats.to_dict()["filter"].items() if v not in (None, "False")
+        f"{k} {v}" for k, v in stats.to_dict()["filter"].items() if v is not None and v is not False
     )
     sections = [
         "<h1>Shop statistics</h1>",

@@ -156,8 +156,6 @@ def _shop(args: argparse.Namespace, out: Output) -> int:
         opened.store.close()
     if args.json:
         data = stats.to_dict()
-        # a JSON boolean: to_dict gives text, which the statistics page's filter line reads
-        data["filter"]["study"] = where.study
         data["no_match"] = no_match or None
         data["html"] = None if page_path is None else str(page_path)
         out.json(data)

@@ -85,7 +85,10 @@ class ShopStats:
             return None if isinstance(value, float) and value != value else value
 
         return {
-            "filter": {k: (None if v is None else str(v)) for k, v in asdict(self.where).items()},
+            "filter": {
+                k: (v if v is None or isinstance(v, bool) else str(v))
+                for k, v in asdict(self.where).items()
+            },
             "runs": self.runs,
             "yield_by_sequence": records(self.by_sequence),
             "yield_by_day": records(self.by_day),
