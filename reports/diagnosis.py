@@ -48,6 +48,21 @@ def find_unit_file(run: Mapping[str, Any], unit_path: Path | None) -> Path | Non
     return None
 
 
+def sequence_not_found(run_id: object, recorded: str) -> str:
+    """Why the sequence file a run records cannot be read, in words naming the recorded path and
+    the command that takes another (empty when it is there).  Runs record it in full; older runs
+    recorded it as typed, so from another folder it is not found."""
+    path = Path(recorded)
+    if path.is_file():
+        return ""
+    where = (
+        "no longer there"
+        if path.is_absolute()
+        else f"relative to the folder rig run was started in; not found from {Path.cwd()}"
+    )
+    return f"run {run_id} records sequence file {recorded!r} ({where}); give --sequence FILE"
+
+
 _LOADED: dict[tuple[str, str, int], tuple[Any, Any]] = {}
 """Unit models and plans already loaded, so many runs of one sequence are diagnosed quickly
 (the analysis keeps its own work per plan object)."""
@@ -100,6 +115,9 @@ def diagnose_stored_run(
             f"no diagnosis is available: unit model {run.get('unit') or '(none)'!r} not found; "
             "give --unit"
         )
+    missing = sequence_not_found(run.get("id"), str(run["sequence_path"]))
+    if missing:
+        return unavailable(f"no diagnosis is available: {missing} to rig diagnose")
     try:
         unit, plan = _unit_and_plan(unit_file, str(run["sequence_path"]), station)
         found = module.diagnose_run(store, int(run["id"]), unit, plan)

@@ -219,6 +219,11 @@ def test_a_run_started_with_a_relative_sequence_is_diagnosed_from_another_folder
         given = ["--sequence", str(work / "sequence.toml"), "--json"]
         assert main(["diagnose", "1", "--station", str(station.path), *given]) == 0
         assert json.loads(capsys.readouterr().out)["hypotheses"][0]["spec"] == "open:ground"
+        # its report is still written, and says the same instead of a bare "file not found"
+        report = ["report", "1", "--station", str(station.path), "--format", "json", "--out", "-"]
+        assert main(report) == 0
+        message = json.loads(capsys.readouterr().out)["diagnosis"]["message"]
+        assert "'sequence.toml'" in message and "--sequence FILE to rig diagnose" in message
 
 
 def test_the_next_check_says_which_faults_it_tells_apart(

@@ -49,26 +49,13 @@ def _other_unit(recorded: str, given: Path, name: str) -> str:
 
 
 def recorded_sequence(run_id: int, recorded: str) -> Path:
-    """The sequence file a run records, where it is still found.  Runs record it in full; older
-    runs recorded it as typed, so from another folder it is not found: the error names the
-    recorded path and the option that gives the file, not a bare "file not found"."""
-    path = Path(recorded)
-    if path.is_file():
-        return path
-    where = (
-        "no longer there"
-        if path.is_absolute()
-        else f"relative to the folder rig run was started in; not found from {Path.cwd()}"
-    )
-    raise ConfigError(
-        [
-            Problem(
-                "--sequence",
-                "",
-                f"run {run_id} records sequence file {recorded!r} ({where}); give --sequence FILE",
-            )
-        ]
-    )
+    """The sequence file a run records, where it is still found (``sequence_not_found``)."""
+    from reports.diagnosis import sequence_not_found
+
+    missing = sequence_not_found(run_id, recorded)
+    if missing:
+        raise ConfigError([Problem("--sequence", "", missing)])
+    return Path(recorded)
 
 
 def cmd_diagnose(args: argparse.Namespace, out: Output) -> int:
