@@ -300,8 +300,8 @@ def _limits_text(spec: StepSpec) -> str:
     from rig.steps import KINDS
 
     unit = str(spec.params.get("unit", KINDS[spec.kind].unit))  # an NTC read as a voltage: V
-    if spec.kind == "prompt":
-        return "confirmed"
+    if spec.kind == "prompt":  # and what a no does where it ends the run
+        return "confirmed, or stop" if spec.params.get("declined") == "stop" else "confirmed"
     if spec.limits is not None:
         return show_limits(spec.limits, unit)
     tolerance = spec.params.get("tolerance")
@@ -490,8 +490,9 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
         if args.yes:
             out.line(f"  prompt: {text} (confirmed by --yes)")
             return True
+        stops = " (no stops the run)" if out.no_stops_run else ""
         try:
-            answer = input(f"  {text} [y/N] ")
+            answer = input(f"  {text}{stops} [y/N] ")
         except EOFError:  # input is not a terminal and has ended: nobody is there to answer
             raise StopRequested(
                 f"the prompt {text!r} got no answer: standard input ended; run rig at a "

@@ -14,6 +14,7 @@ from rig.events import (
     CUT_SHORT,
     NOT_RUN,
     Event,
+    PromptShown,
     ReadingTaken,
     RunFinished,
     RunStarted,
@@ -36,6 +37,9 @@ class Output:
         """Print each reading once the store has committed it (``rig run --readings``)."""
         self._total = 0
         self._gone: set[TextIO] = set()
+        self.no_stops_run = False
+        """A no to the prompt being asked ends the run (``PromptShown.stops_run``): said as it
+        is asked."""
 
     def line(self, text: str = "") -> None:
         if not self.quiet:
@@ -78,6 +82,8 @@ class Output:
             done = r.position
             bar = "#" * done + "." * max(0, self._total - done)
             self.line(f"  [{bar}] {r.step_id}: {r.verdict.value}")
+        elif isinstance(event, PromptShown):
+            self.no_stops_run = event.stops_run
         elif isinstance(event, ReadingTaken) and self.show_readings:
             self.line(f"    stored {event.step_id} {event.role} {event.value!r} {event.unit}")
         elif isinstance(event, RunFinished) and not event.safe:

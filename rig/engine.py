@@ -246,6 +246,8 @@ class Engine:
         self._routes_done = 0
         self._move_when_read: frozenset[int] | None = None
         """The relay change to send once the reading being taken is in (``_reading_in``)."""
+        self._ends_run = ""
+        """Why the run ends after the step just run (``Outcome.ends_run``); empty: it goes on."""
 
     # --- the run ------------------------------------------------------------------------------
 
@@ -345,6 +347,9 @@ class Engine:
                 begun = None
                 if result.verdict is Verdict.ERROR:
                     status, reason = "aborted", f"step {result.step_id}: {result.note}"
+                    break
+                if self._ends_run:  # the step's own word: nothing after it may run
+                    status, reason = "aborted", f"step {result.step_id}: {self._ends_run}"
                     break
         except StopRequested as exc:
             status, reason = "aborted", str(exc)
@@ -506,6 +511,7 @@ class Engine:
         self._step_settle_s = spec.settle_s
         self._position = position
         self._step_readings = 0
+        self._ends_run = ""
         self._step_routes = planned.relay_sets if KINDS[spec.kind].routes_in_order else None
         started = _now()
         kind = KINDS[spec.kind]
@@ -533,6 +539,7 @@ class Engine:
             self.listener(StepFinished(result))
             return result
         outcome.settle_s = self._step_settle
+        self._ends_run = outcome.ends_run
         box_retries = getattr(self.bench.relays, "retries", 0) - relay_retries
         for text in (
             f"transient fault cured by one retry of the step: {retried}" if retried else "",
@@ -1068,12 +1075,12 @@ class Engine:
             raise RigError(f"step {step_id!r} has no result in this run")
         return self._results[step_id]
 
-    def prompt(self, text: str) -> bool:
+    def prompt(self, text: str, *, stops_run: bool = False) -> bool:
         """Ask the operator.  A prompt is its step's last use of the bench, so once it is
         confirmed the next step's first route is sent at once: its contacts move while the
-        engine files the answer."""
+        engine files the answer.  A no sends nothing (with ``stops_run`` the run ends next)."""
         self._writes.flush()  # the operator sees every result before being asked
-        self.listener(PromptShown(self._step_id, text))
+        self.listener(PromptShown(self._step_id, text, stops_run))
         try:
             confirmed = self.ask(text)
         except RigError:

@@ -84,6 +84,8 @@ class StepFinished:
 class PromptShown:
     step_id: str
     text: str
+    stops_run: bool = False
+    """A no to this prompt ends the run (its ``declined = "stop"``): the front end says so."""
 
 
 @dataclass(frozen=True)

@@ -190,8 +190,35 @@ def test_a_declined_prompt_is_not_sent_to_diagnose(
         assert main(report) == 0
         diagnosis = json.loads(capsys.readouterr().out)["diagnosis"]
     assert code == 1 and "declined" in out  # the run went on and failed on the answer
+    assert "no stops the run" not in out  # a no that only fails its step is asked plainly
     assert "rig diagnose" not in out
     assert not diagnosis["available"] and "an operator's answer" in diagnosis["message"]
+
+
+def test_a_no_to_a_prompt_that_stops_the_run_ends_it_aborted_and_says_so_as_it_asks(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str], monkeypatch: pytest.MonkeyPatch
+) -> None:
+    text = SENSOR_SCREEN.read_text(encoding="utf-8")
+    asked = 'kind = "prompt"\n'
+    sequence = tmp_path / "stopping.toml"
+    sequence.write_text(text.replace(asked, asked + 'declined = "stop"\n', 1), encoding="utf-8")
+    monkeypatch.setattr(sys, "stdin", io.StringIO("n\n"))  # the operator answers no
+    with shipped_bench("ntc-sender", folder=tmp_path) as (bench, station):
+        code = main(["run", str(sequence), "--station", str(station.path), "--serial", "N5"])
+        assert bench.relay_box.closed() == frozenset()
+        assert bench.state()["outputs_on"] == []
+    out = capsys.readouterr().out
+    assert code == EXIT_ABORTED
+    assert "clip its two leads to T1 and T2. (no stops the run) [y/N]" in out
+    assert "reason: step place: the operator declined 'Place the sender" in out
+    assert "the sequence stops the run on a no" in out
+    assert "sender-4wire" in out and "NOT RUN" in out  # what was never measured is listed
+    with sqlite3.connect(station.store_path) as db:
+        status, reason = db.execute("SELECT status, reason FROM runs").fetchone()
+        readings = db.execute("SELECT COUNT(*) FROM readings").fetchone()[0]
+    assert status == "aborted" and "declined" in reason and readings == 0
+    assert main(["check", str(sequence), "--station", str(station.path)]) == 0
+    assert "confirmed, or stop" in capsys.readouterr().out  # the plan says what a no does
 
 
 def test_a_supply_setting_above_the_stations_caps_is_refused_before_anything_is_powered(

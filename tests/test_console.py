@@ -334,3 +334,36 @@ def test_an_aborted_run_shows_the_planned_steps_it_never_measured(tmp_path: Path
                 ] == rows
 
     asyncio.run(scenario())
+
+
+def test_a_no_to_a_prompt_that_stops_the_run_says_so_and_ends_the_run(tmp_path: Path) -> None:
+    # declined = "stop" on the question: the box tells the operator what n does, and n ends the
+    # run aborted with the question named; the steps after it are never begun
+    from bench_helpers import MIDWAY_STOP
+
+    sequence = tmp_path / "stops-on-no.toml"
+    asked = 'text = "Is the sender seated in the well?"\n'
+    sequence.write_text(MIDWAY_STOP.replace(asked, asked + 'declined = "stop"\n'), "utf-8")
+
+    async def scenario() -> None:
+        with console_on_bench("ntc-sender", tmp_path / "bench", sequence) as (app, bench):
+            async with app.run_test(size=SIZE) as pilot:
+                screen = await start_run(pilot, "NTC-1005")
+                await wait_for(pilot, lambda: isinstance(app.screen, PromptScreen), "the prompt")
+                keys = app.screen.query_one("#prompt-keys", Static)
+                assert "n = no (the run stops)" in str(keys.render())
+                await pilot.press("n")
+                await finish(pilot, screen)
+                summary = screen.summary
+                assert summary is not None and summary.status == "aborted"
+                assert summary.reason.startswith("step seated: the operator declined")
+                assert summary.not_run == ["lead-check-4w", "hold"]
+                run, steps = stored_run(app, summary.run_id)
+                assert run["status"] == "aborted" and run["reason"] == summary.reason
+                assert [(s["step_id"], s["verdict"]) for s in steps] == [
+                    ("lead-check", "pass"),
+                    ("seated", "fail"),
+                ]
+                assert bench.state()["closed_relays"] == [] and bench.state()["outputs_on"] == []
+
+    asyncio.run(scenario())

@@ -26,6 +26,7 @@ from rig.bench_open import close_bench, open_bench
 from rig.config.fixture import FixtureMap
 from rig.engine import Bench, Engine, RunSummary, make_safe
 from rig.events import Event, RunStarted, StepFinished, StepStarted
+from rig.judge.decision import Verdict
 from rig.plan import Plan
 from rig.routing import Route, plan_relays
 from rig.runner import load_plan
@@ -80,7 +81,7 @@ class RecordingContext:
         value = 23.0 if kind == "reference-temperature" else 5.0
         return Reading("earlier", "", value, None, 1.0, 0.0, 0.05)
 
-    def prompt(self, text: str) -> bool:
+    def prompt(self, text: str, *, stops_run: bool = False) -> bool:
         self.calls.append(("prompt", text))
         return True
 
@@ -271,6 +272,50 @@ def test_a_prompt_answered_no_sends_nothing_ahead(tmp_path: Path) -> None:
     filed = run.log.index(("StepFinished", prompt.spec.id))
     asked = run.log.index(("StepStarted", prompt.spec.id))
     assert not [e for e in run.log[asked:filed] if e[0] == "send" and e[1]]
+
+
+def _stopping_screen(folder: Path) -> Path:
+    """The shipped sensor screen with its opening prompt made to stop the run on a no."""
+    text = (SEQUENCES / "ntc-sender-screen.toml").read_text(encoding="utf-8")
+    asked = 'text = "Place the sender in the well and clip its two leads to T1 and T2."\n'
+    assert asked in text
+    path = folder / "stopping-screen.toml"
+    path.write_text(text.replace(asked, asked + 'declined = "stop"\n'), encoding="utf-8")
+    return path
+
+
+def test_a_prompt_that_stops_the_run_on_no_ends_it_there_sending_nothing(tmp_path: Path) -> None:
+    # A no to a prompt with declined = "stop": its step fails and is kept, no route goes out on
+    # that answer, the run ends aborted with the prompt named, the bench safe (logged_run reads
+    # it back from the box and the supply), and the three measuring steps are never begun.
+    run = logged_run(tmp_path, unit="ntc-sender", sequence=_stopping_screen(tmp_path), answer=False)
+    summary, prompt = run.summary, run.plan.steps[0]
+    assert summary.status == "aborted" and summary.verdict is Verdict.ERROR
+    assert summary.reason == (
+        f"step {prompt.spec.id}: the operator declined {prompt.spec.params['text']!r}; "
+        "the sequence stops the run on a no"
+    )
+    assert [(r.step_id, r.verdict) for r in summary.results] == [(prompt.spec.id, Verdict.FAIL)]
+    assert summary.cut_short is None
+    assert summary.not_run == [p.spec.id for p in run.plan.steps[1:]]
+    asked = run.log.index(("StepStarted", prompt.spec.id))
+    assert not [e for e in run.log[asked:] if e[0] == "send" and e[1]]
+    store = ResultStore(tmp_path / "r.sqlite")
+    try:
+        stored = store.run(summary.run_id)
+        steps = store.steps(summary.run_id)
+    finally:
+        store.close()
+    assert (stored["status"], stored["reason"]) == ("aborted", summary.reason)
+    assert [(s["step_id"], s["verdict"]) for s in steps] == [(prompt.spec.id, "fail")]
+
+
+def test_a_prompt_that_stops_the_run_on_no_goes_on_when_confirmed(tmp_path: Path) -> None:
+    run = logged_run(tmp_path, unit="ntc-sender", sequence=_stopping_screen(tmp_path), answer=True)
+    assert run.summary.status == "complete" and run.summary.verdict is Verdict.PASS
+    first = run.plan.steps[1]
+    sent = run.log.index(("send", first.relay_sets[0]))  # still sent ahead on a yes
+    assert sent < run.log.index(("StepFinished", run.plan.steps[0].spec.id))
 
 
 def test_the_supply_is_proven_off_before_the_relays_open(tmp_path: Path) -> None:

@@ -107,7 +107,7 @@ class _SolverContext(ConnectThenMeasure):
             raise RigError(f"step {step_id!r} has no result in this prediction")
         return self.results[step_id]
 
-    def prompt(self, text: str) -> bool:
+    def prompt(self, text: str, *, stops_run: bool = False) -> bool:
         return True
 
     def wait(self, seconds: float) -> None:

@@ -304,11 +304,15 @@ class PromptGate:
         self._show = show
         self._stop = stop
         self.step_id = ""
+        self.stops_run = False
+        """A no to the question being asked ends the run (``PromptShown.stops_run``)."""
 
     def listen(self, event: Event) -> None:
-        """Note which step is asking (the engine announces a prompt just before it asks)."""
+        """Note which step is asking, and whether a no ends the run (the engine announces a
+        prompt just before it asks)."""
         if isinstance(event, PromptShown):
             self.step_id = event.step_id
+            self.stops_run = event.stops_run
 
     def ask(self, text: str) -> bool:
         answered = threading.Event()

@@ -91,6 +91,9 @@ class Outcome:
     extras: dict[str, float] = field(default_factory=dict)
     settle_s: float = 0.0
     note: str = ""
+    ends_run: str = ""
+    """Why the run must end after this step, in words (a declined prompt the sequence says stops
+    the run); empty where the run goes on.  The step's result is stored first."""
 
 
 class StepKind(ABC):

@@ -49,9 +49,10 @@ class StepContext(Protocol):
     def earlier(self, step_id: str) -> EarlierResult:
         """The result of an earlier step of this run, by id."""
 
-    def prompt(self, text: str) -> bool:
+    def prompt(self, text: str, *, stops_run: bool = False) -> bool:
         """Ask the operator; True when confirmed.  It is the step's last use of the bench: once
-        confirmed, the engine may start the next step's first route."""
+        confirmed, the engine may start the next step's first route.  ``stops_run``: a no ends
+        the run (the front end says so as it asks)."""
 
     def wait(self, seconds: float) -> None:
         """A timed soak."""

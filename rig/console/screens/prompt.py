@@ -33,19 +33,22 @@ class PromptScreen(ModalScreen[bool]):
         Binding("s", "stop", "Stop & make safe"),
     ]
 
-    def __init__(self, step_id: str, text: str, on_stop: Callable[[], None]) -> None:
+    def __init__(
+        self, step_id: str, text: str, on_stop: Callable[[], None], *, stops_run: bool = False
+    ) -> None:
         super().__init__()
         self._on_stop = on_stop
         self.step_id = step_id
         self.text = text
+        self.stops_run = stops_run
+        """A no ends the run (the sequence's ``declined = "stop"``), not only the step."""
 
     def compose(self) -> ComposeResult:
         with Vertical():
             yield Static(f"OPERATOR ACTION ({self.step_id})", id="prompt-title")
             yield Static(self.text, id="prompt-text", markup=False)  # the file's words
-            yield Static(
-                "y = yes, done     n = no (the step fails)     s = stop the run", id="prompt-keys"
-            )
+            no = "n = no (the run stops)" if self.stops_run else "n = no (the step fails)"
+            yield Static(f"y = yes, done     {no}     s = stop the run", id="prompt-keys")
 
     def action_answer(self, yes: bool) -> None:
         self.dismiss(yes)

@@ -176,7 +176,8 @@ class RunScreen(Screen[str | None]):
     def _show_prompt_from_worker(
         self, step_id: str, text: str, answer: Callable[[bool], None]
     ) -> None:
-        self.app.call_from_thread(self._open_prompt, step_id, text, answer)
+        stops_run = self.gate.stops_run  # noted from the prompt's event, before it asked
+        self.app.call_from_thread(self._open_prompt, step_id, text, stops_run, answer)
 
     def _after_run(self, summary: RunSummary, store: ResultStore) -> None:
         """In the worker: diagnose a completed failed run (simulation is slow work)."""
@@ -190,12 +191,14 @@ class RunScreen(Screen[str | None]):
 
     # --- on the UI thread ---------------------------------------------------------------------
 
-    def _open_prompt(self, step_id: str, text: str, answer: Callable[[bool], None]) -> None:
+    def _open_prompt(
+        self, step_id: str, text: str, stops_run: bool, answer: Callable[[bool], None]
+    ) -> None:
         def answered(yes: bool | None) -> None:
             self._prompt = None
             answer(bool(yes))
 
-        self._prompt = PromptScreen(step_id, text, self.action_stop)
+        self._prompt = PromptScreen(step_id, text, self.action_stop, stops_run=stops_run)
         self.app.push_screen(self._prompt, answered)
 
     def drain(self) -> None:
