@@ -529,6 +529,8 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
                 "reason": summary.reason,
                 "failed_steps": summary.failed_steps,
                 "safe": summary.safe,
+                "warnings": summary.warnings,
+                "notes": summary.notes,
                 "store": str(plan.station.store_path),
                 "server": server,
                 "steps": [
@@ -557,6 +559,7 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
         out.line(f"verdict: {summary.verdict.value.upper()}  ({summary.status})")
         if summary.reason:
             out.line(f"reason: {summary.reason}")
+        out.warnings(summary.warnings)
         out.line(f"record: run {summary.run_id} in {plan.station.store_path}")
         if _diagnosable(summary):
             from rig.commands.diagnose import suggestion

@@ -89,6 +89,12 @@ class Output:
         elif isinstance(event, RunFinished) and not event.safe:
             self.error("WARNING: the bench could not be verified safe: " + "; ".join(event.notes))
 
+    def warnings(self, texts: Sequence[str]) -> None:
+        """A run's notes that a technician must act on (``RunSummary.warnings``), under its
+        verdict: otherwise they would reach only the record and ``rig check``."""
+        for text in texts:
+            self.line(f"warning: {text}")
+
     def results(
         self,
         results: Sequence[StepResult],

@@ -95,6 +95,10 @@ class RunSummary:
     results: list[StepResult] = field(default_factory=list)
     safe: bool = True
     notes: list[str] = field(default_factory=list)
+    warnings: list[str] = field(default_factory=list)
+    """The notes a technician must act on, in the order noted (each is in ``notes`` too):
+    calibration past due, relays near their rated life, a bench not made safe, a transient fault
+    or a relay-box command that needed a retry, a run left unfinished by a stopped controller."""
     cut_short: str | None = None
     """The planned step the run ended during, with no result (an aborted run), if any."""
     not_run: list[str] = field(default_factory=list)
@@ -234,6 +238,8 @@ class Engine:
         self._position = 0
         self._run_notes: list[str] = []
         """The running run's notes (for what a step finds that concerns the whole run)."""
+        self._warnings: list[str] = []
+        """Those of the running run's notes a technician must act on (``RunSummary.warnings``)."""
         self._done_ids: frozenset[str] = frozenset()
         self._ahead: deque[_AheadReading] = deque()
         """Readings already taken for the next steps (``rig.read_ahead``), with the state they
@@ -259,23 +265,27 @@ class Engine:
         unit: str = "",
         faults: tuple[str, ...] = (),
         notes: list[str] | None = None,
+        warnings: list[str] | None = None,
         resume: int | None = None,
         study_part: str = "",
         study_trial: int | None = None,
     ) -> RunSummary:
-        """Run the plan, or with ``resume`` continue that incomplete run from its next step."""
+        """Run the plan, or with ``resume`` continue that incomplete run from its next step.
+        ``notes`` and ``warnings``: what the caller found before (calibration allowed past due
+        is a warning), kept with the run's own."""
         kept, byte_notes = kept_entry_text({"serial": serial, "operator": operator})
         serial, operator = kept["serial"], kept["operator"]
         station = self.plan.station
         sequence = self.plan.sequence
-        notes = [*(notes or []), *byte_notes]
+        notes = [*(notes or []), *(warnings or []), *byte_notes]
         self._run_notes = notes
+        self._warnings = list(warnings or [])
         counts_before = self._relay_counts()  # the safe start's own openings are this run's
         # the store's writes at the start commit on its worker while the instruments are asked
         abandoned = self._writes.meanwhile("mark_incomplete", station.name, INCOMPLETE_REASON)
         try:
             identities = self._identities(notes)
-            notes.extend(abandoned_notes(abandoned.result()))
+            self._warn(*abandoned_notes(abandoned.result()))
             done: dict[str, StepResult] = {}
             if resume is None:
                 started = self._writes.meanwhile(
@@ -329,7 +339,7 @@ class Engine:
             self.listener(
                 RunStarted(run_id, serial, sequence.name, tuple(p.spec.id for p in self.plan.steps))
             )
-            notes.extend(wear_warnings(wear.result(), station.fixture))
+            self._warn(*wear_warnings(wear.result(), station.fixture))
             if start_problem is not None:  # raised here: the run ends as any other, recorded
                 raise start_problem
             for position, planned in enumerate(self.plan.steps, start=1):
@@ -341,7 +351,7 @@ class Engine:
                     self._results[result.step_id] = result
                     continue
                 begun = planned.spec.id
-                result = self._run_step(position, planned, notes)
+                result = self._run_step(position, planned)
                 results.append(result)
                 self._results[result.step_id] = result
                 begun = None
@@ -371,7 +381,7 @@ class Engine:
             operations = self._operations_since(counts_before)
         safe = not failures
         if failures:
-            notes.append("could not make safe: " + "; ".join(failures))
+            self._warn("could not make safe: " + "; ".join(failures))
             if status == "complete":  # every step done, but the bench needs a person first
                 status = "aborted"
                 reason = "the bench could not be made safe at the end: " + "; ".join(failures)
@@ -392,6 +402,7 @@ class Engine:
             results,
             safe,
             notes,
+            list(self._warnings),
             cut_short=begun,
             not_run=not_run,
         )
@@ -503,7 +514,12 @@ class Engine:
 
     # --- one step -----------------------------------------------------------------------------
 
-    def _run_step(self, position: int, planned: PlannedStep, notes: list[str]) -> StepResult:
+    def _warn(self, *texts: str) -> None:
+        """Note what a technician must act on: kept with the run's notes, and listed apart."""
+        self._run_notes.extend(texts)
+        self._warnings.extend(texts)
+
+    def _run_step(self, position: int, planned: PlannedStep) -> StepResult:
         spec = replace(planned.spec, range_=planned.range_)
         self.listener(StepStarted(position, spec.id, spec.title, spec.kind))
         self._step_id = spec.id
@@ -550,7 +566,7 @@ class Engine:
         ):
             if text:
                 outcome.note = f"{outcome.note}; {text}" if outcome.note else text
-                notes.append(f"step {spec.id}: {text}")
+                self._warn(f"step {spec.id}: {text}")
         result = self._judged(position, spec, outcome, error=False)
         self._store_step(result, started)
         self.listener(StepFinished(result))

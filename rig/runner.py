@@ -42,7 +42,7 @@ def run_plan(
 
     With its own store and a results server configured, runs waiting in the station's file are
     sent before the run and this one after it (``on_sync`` hears how that went)."""
-    notes = check_calibration(plan.station)
+    warnings = check_calibration(plan.station)
     own_store = store is None
     if own_store:
         send_waiting_runs(plan.station, on_sync)
@@ -56,7 +56,7 @@ def run_plan(
                 operator,
                 unit=unit,
                 faults=faults,
-                notes=notes,
+                warnings=warnings,
                 resume=resume,
                 study_part=study_part,
                 study_trial=study_trial,

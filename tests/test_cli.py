@@ -158,3 +158,34 @@ def test_sim_subprocess_serves_writes_state_and_stops_on_sigterm(tmp_path: Path)
         if proc.poll() is None:
             proc.kill()
             proc.wait()
+
+
+def test_run_prints_relay_wear_under_the_verdict_and_in_json(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # A fixture whose relays are rated for 4 operations (invented: a relay worn nearly out):
+    # after one run, the next run's record warns, and so must what the technician reads.
+    seq = str(SEQUENCES / "temp-circuit-check.toml")
+    fixture = tmp_path / "worn-fixture.toml"
+    text = (SEQUENCES / "demo-fixture.toml").read_text(encoding="utf-8")
+    worn = text.replace("rated_operations = 10000000", "rated_operations = 4")
+    assert worn != text
+    fixture.write_text(worn, encoding="utf-8")
+    with shipped_bench("temp-circuit", folder=tmp_path) as (_, station):
+        station_text = station.path.read_text(encoding="utf-8")
+        station.path.write_text(
+            station_text.replace(str(station.fixture.path), str(fixture)), encoding="utf-8"
+        )
+        run = ["run", seq, "--station", str(station.path), "--serial"]
+        assert main([*run, "W1"]) == 0
+        first = capsys.readouterr().out
+        assert main([*run, "W2"]) == 0
+        second = capsys.readouterr().out
+        assert main([*run, "W3", "--json"]) == 0
+        third = json.loads(capsys.readouterr().out)
+    assert "warning:" not in first  # no operations recorded before the first run
+    verdict, record = second.index("verdict: PASS"), second.index("record: run 2")
+    shown = [line for line in second[verdict:record].splitlines() if line.startswith("warning: ")]
+    assert shown and all("of its rated 4 operations; plan to replace it" in s for s in shown)
+    assert third["warnings"] and all("plan to replace it" in w for w in third["warnings"])
+    assert set(third["warnings"]) <= set(third["notes"])

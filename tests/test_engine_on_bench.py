@@ -173,6 +173,7 @@ def test_relay_wear_is_kept_across_runs_and_warned_near_rated_life(tmp_path: Pat
     assert not any("replace" in n for n in first.notes)
     assert wear_two == {r: 2 * n for r, n in wear_one.items()}
     assert any("plan to replace it" in n for n in second.notes)
+    assert [w for w in second.warnings if "plan to replace it" in w]  # listed to act on
 
 
 def test_past_due_calibration_is_refused_unless_allowed(tmp_path: Path) -> None:
@@ -266,4 +267,5 @@ def test_a_meter_silent_for_its_setup_while_relays_move_leaves_the_box_fed(
         assert bench.relay_box.closed() == frozenset()
     assert summary.status == "complete", summary.reason
     assert any("cured by one retry" in n for n in summary.notes), summary.notes
+    assert any("cured by one retry" in w for w in summary.warnings), summary.warnings
     assert not any("watchdog" in n for n in summary.notes), summary.notes

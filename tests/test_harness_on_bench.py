@@ -247,6 +247,24 @@ def test_bad_wire_list_is_reported_by_row_column_and_value(tmp_path: Path, capsy
     assert "Traceback" not in err
 
 
+def test_a_check_prints_relay_wear_under_its_verdict_and_in_json(tmp_path: Path, capsys) -> None:  # type: ignore[no-untyped-def]
+    # A harness check works its relays hard: relays rated for 4 operations (invented, a fixture
+    # worn nearly out) are warned about from the second check on, where the technician reads.
+    wires, fixture = write_invented(tmp_path / "list", 8, seed=1, spare=0)
+    text = fixture.path.read_text(encoding="utf-8")
+    fixture.path.write_text(text.replace("[fixture]\n", "[fixture]\nrated_operations = 4\n"))
+    with served(harness_bench(wires, fixture), tmp_path / "a") as st:
+        args = ["harness", "check", str(wires.path), "--station", str(st), "--ambient", "23 degC"]
+        assert main([*args, "--serial", "H1", "--json"]) == EXIT_PASS
+        first = json.loads(capsys.readouterr().out)
+        assert main([*args, "--serial", "H2"]) == EXIT_PASS
+        second = capsys.readouterr().out
+    assert first["warnings"] == []
+    verdict, record = second.index("verdict: PASS"), second.index("record: run 2")
+    shown = [line for line in second[verdict:record].splitlines() if line.startswith("warning: ")]
+    assert shown and all("of its rated 4 operations; plan to replace it" in s for s in shown)
+
+
 def test_spare_pins_are_the_unused_cavities_of_the_harness_connectors() -> None:
     fixture = load_fixture(SHIPPED / "fixture.toml")
     wires = load_wire_list(SHIPPED / "wire-list.csv", fixture)

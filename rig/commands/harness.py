@@ -124,6 +124,7 @@ def _run(
                 "verdict": summary.verdict.value,
                 "reason": summary.reason,
                 "notes": findings,
+                "warnings": summary.warnings,
                 "extras": {} if result is None else result.extras,
                 "store": str(station.store_path),
             }
@@ -135,6 +136,7 @@ def _run(
         out.line(f"verdict: {summary.verdict.value.upper()}  ({summary.status})")
         if summary.reason:
             out.line(f"reason: {summary.reason}")
+        out.warnings(summary.warnings)
         out.line(f"record: run {summary.run_id} in {station.store_path}")
     return _exit_code(summary.verdict, summary.status)
 

@@ -418,7 +418,7 @@ def _run(
             request.operator,
             unit=request.unit,
             faults=request.faults,
-            notes=notes,
+            warnings=notes,  # calibration allowed past due
         )
     finally:
         stop.detach()
