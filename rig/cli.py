@@ -104,7 +104,11 @@ def _parser() -> argparse.ArgumentParser:
     )
     run.add_argument("--yes", action="store_true", help="confirm operator prompts automatically")
     run.add_argument("--json", action="store_true", help="one machine-readable summary")
-    run.add_argument("--readings", action="store_true", help="print each reading once it is stored")
+    run.add_argument(
+        "--readings",
+        action="store_true",
+        help="print every reading once it is stored (settle-proof readings marked)",
+    )
     run.add_argument("--study-part", default="", help="gauge study: the part measured")
     run.add_argument("--study-trial", type=int, help="gauge study: this trial's number (1, 2, ...)")
     run.set_defaults(func=cmd_run)

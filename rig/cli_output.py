@@ -85,7 +85,8 @@ class Output:
         elif isinstance(event, PromptShown):
             self.no_stops_run = event.stops_run
         elif isinstance(event, ReadingTaken) and self.show_readings:
-            self.line(f"    stored {event.step_id} {event.role} {event.value!r} {event.unit}")
+            why = f" ({event.note})" if event.note else ""
+            self.line(f"    stored {event.step_id} {event.role} {event.value!r} {event.unit}{why}")
         elif isinstance(event, RunFinished) and not event.safe:
             self.error("WARNING: the bench could not be verified safe: " + "; ".join(event.notes))
 

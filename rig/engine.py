@@ -27,6 +27,8 @@ from rig.deadline import wait_until
 from rig.entry_text import kept_entry_text
 from rig.errors import InstrumentError, InterlockError, RigError
 from rig.events import (
+    AHEAD_UNUSED,
+    SETTLE_PROOF,
     Event,
     PromptShown,
     ReadingTaken,
@@ -880,8 +882,10 @@ class Engine:
             )
             for i, v in enumerate(values)
         ]
+        shown = self._show_proof(readings, 0)
         while not done:
             readings.append(self._record(function, role, dmm.read(), range_, nplc))
+            shown = self._show_proof(readings, shown)
             agreed = self._agree(readings)
             last = readings[-1].value
             done = agreed or len(readings) >= self.settle.max_readings or not math.isfinite(last)
@@ -891,6 +895,17 @@ class Engine:
         if proof and agreed:
             self._settled_state = state
         return readings[-1]
+
+    def _show_proof(self, readings: list[Reading], shown: int) -> int:
+        """Announce the readings from ``shown`` on that a later one followed: they only prove
+        settling (the last is the step's, announced by ``_measure`` once judged usable).
+        Returns how many are announced now."""
+        for reading in readings[shown:-1]:
+            unit = FUNCTIONS[reading.function]
+            self.listener(
+                ReadingTaken(self._step_id, reading.role, reading.value, unit, False, SETTLE_PROOF)
+            )
+        return max(shown, len(readings) - 1)
 
     def _sleep_until(self, deadline: float) -> None:
         """Wait for ``time.monotonic()`` to reach ``deadline`` (not later: a stated settle is
@@ -965,6 +980,10 @@ class Engine:
             return
         unused, self._ahead = list(self._ahead), deque()
         self._writes.mark_unsettled_later([a.row for a in unused])
+        for a in unused:
+            unit = FUNCTIONS[a.reading.function]
+            value = a.reading.value
+            self.listener(ReadingTaken(a.step_id, a.reading.role, value, unit, False, AHEAD_UNUSED))
         steps = ", ".join(a.step_id for a in unused)
         note = f"{len(unused)} reading(s) taken ahead were not used (for {steps}); kept"
         self._run_notes.append(note)

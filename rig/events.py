@@ -68,11 +68,22 @@ class StepStarted:
 
 @dataclass(frozen=True)
 class ReadingTaken:
+    """A raw reading, once it is stored: every one, the judged ones and those that are not."""
+
     step_id: str
     role: str
     value: float
     unit: str
     settled: bool
+    note: str = ""
+    """Why a reading that is not judged was taken (``SETTLE_PROOF``, ``AHEAD_UNUSED``)."""
+
+
+SETTLE_PROOF = "settle proof"
+"""A reading that only proved the input settled: a later one agreed with it and was judged."""
+AHEAD_UNUSED = "taken ahead, not used"
+"""A reading taken for a later step in one query with an earlier one, never used by that step
+(it failed or the run ended first); kept, flagged unsettled."""
 
 
 @dataclass(frozen=True)

@@ -7,6 +7,7 @@ import json
 import os
 import signal
 import socket
+import sqlite3
 import subprocess
 import sys
 import time
@@ -189,3 +190,28 @@ def test_run_prints_relay_wear_under_the_verdict_and_in_json(
     assert shown and all("of its rated 4 operations; plan to replace it" in s for s in shown)
     assert third["warnings"] and all("plan to replace it" in w for w in third["warnings"])
     assert set(third["warnings"]) <= set(third["notes"])
+
+
+def test_run_readings_prints_every_stored_reading_marking_the_settle_proof(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # With no stated settle, each route is proved settled by readings until two agree: those
+    # that only prove it are stored too (nothing measured is thrown away), and --readings must
+    # print each stored reading once, the proof marked, as the store flags it (settled = 0).
+    text = (SEQUENCES / "temp-circuit-check.toml").read_text(encoding="utf-8")
+    unsettled = "\n".join(t for t in text.splitlines() if not t.startswith("settle = "))
+    assert unsettled != text
+    sequence = tmp_path / "proved.toml"
+    sequence.write_text(unsettled, encoding="utf-8")
+    with shipped_bench("temp-circuit", folder=tmp_path) as (_, station):
+        run = ["run", str(sequence), "--station", str(station.path), "--serial", "P1"]
+        assert main([*run, "--readings"]) == 0
+    printed = []
+    for line in capsys.readouterr().out.splitlines():
+        if line.startswith("    stored "):
+            _, step, role, value, rest = line.split(maxsplit=4)
+            printed.append((step, role, float(value), 0 if rest.endswith("(settle proof)") else 1))
+    with sqlite3.connect(station.store_path) as db:
+        stored = db.execute("SELECT step_id, role, value, settled FROM readings").fetchall()
+    assert any(row[3] == 0 for row in stored)  # the proof was needed on this sequence
+    assert sorted(printed) == sorted(stored)

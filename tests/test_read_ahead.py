@@ -21,6 +21,7 @@ from rig.config.reader import TomlDoc
 from rig.config.sequence import parse_sequence
 from rig.config.station import Station
 from rig.engine import Engine
+from rig.events import AHEAD_UNUSED, Event, ReadingTaken
 from rig.plan import Plan, build_plan
 from rig.read_ahead import MAX_READINGS_AHEAD, steps_ahead
 from rig.store import ResultStore
@@ -125,9 +126,14 @@ def test_done_steps_and_the_caps_end_the_run(station: Station) -> None:
 
 
 def run_on_bench(
-    tmp_path: Path, steps: str, *, stop_on_batch: bool = False
+    tmp_path: Path,
+    steps: str,
+    *,
+    stop_on_batch: bool = False,
+    events: list[Event] | None = None,
 ) -> tuple[object, list[tuple[str, int, str]], int, int]:
-    """The summary, the stored readings (step, settled, role), meter messages handled, steps."""
+    """The summary, the stored readings (step, settled, role), meter messages handled, steps;
+    ``events``: where the run's events go, as a front end hears them."""
     with shipped_bench("temp-circuit", folder=tmp_path) as (bench, station):
         path = tmp_path / "ahead.toml"
         path.write_text(plan_text(steps), encoding="utf-8")
@@ -148,7 +154,8 @@ def run_on_bench(
         store = ResultStore(station.store_path)
         try:
             before = bench.dmm.lines_handled
-            summary = Engine(plan, instruments, store, stop=stop).run("AHEAD-1")
+            listener = None if events is None else events.append
+            summary = Engine(plan, instruments, store, stop=stop, listener=listener).run("AHEAD-1")
             messages = bench.dmm.lines_handled - before
         finally:
             close_bench(instruments)
@@ -176,7 +183,8 @@ def test_steps_in_a_row_share_one_query_and_each_keeps_its_own_reading(tmp_path:
 def test_readings_a_stopped_run_never_used_are_kept_unsettled(tmp_path: Path) -> None:
     ids = [f"s{i}" for i in range(5)]
     steps = "".join(volts(i, "S_SIG", "C_GND") for i in ids)
-    summary, rows, _, _ = run_on_bench(tmp_path, steps, stop_on_batch=True)
+    events: list[Event] = []
+    summary, rows, _, _ = run_on_bench(tmp_path, steps, stop_on_batch=True, events=events)
     # the stop lands while s0's shared query integrates: s0 ends there, nothing after it runs
     assert summary.status == "aborted"  # type: ignore[attr-defined]
     assert "operator" in summary.reason  # type: ignore[attr-defined]
@@ -184,3 +192,7 @@ def test_readings_a_stopped_run_never_used_are_kept_unsettled(tmp_path: Path) ->
     assert rows[1:] == [(i, 0, "hi-lo") for i in ids[1:]]  # taken, not used, still kept
     notes = summary.notes  # type: ignore[attr-defined]
     assert any("4 reading(s) taken ahead were not used" in n for n in notes), notes
+    # a front end hears of each stored reading, those never used marked as such (rig run
+    # --readings prints them)
+    heard = [(e.step_id, e.settled, e.note) for e in events if isinstance(e, ReadingTaken)]
+    assert heard[-4:] == [(i, False, AHEAD_UNUSED) for i in ids[1:]]

@@ -27,7 +27,9 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     parser.add_argument("--yes", action="store_true", help="confirm operator prompts automatically")
     parser.add_argument("--json", action="store_true", help="one machine-readable summary")
     parser.add_argument(
-        "--readings", action="store_true", help="print each reading once it is stored"
+        "--readings",
+        action="store_true",
+        help="print every reading once it is stored (settle-proof readings marked)",
     )
     parser.set_defaults(func=cmd_continue)
 
