@@ -55,14 +55,24 @@ def same_sequence(run: Mapping[str, Any], sequence: Sequence) -> bool:
     return str(run["sequence_hash"]) == sequence.content_hash
 
 
+ENDED = ("complete", "aborted")
+"""Statuses of a run that ended, recorded as such: nothing of it is left to continue."""
+
+
+def not_incomplete(run_id: int, status: str, where: object) -> str:
+    """Why a run of ``status`` (not ``incomplete``) cannot be continued, in words."""
+    again = "; test the unit again with a new run (rig run)" if status in ENDED else ""
+    return (
+        f"run {run_id} in {where} is {status}, not incomplete; only a run a stopped controller "
+        f"left unfinished can be continued{again}"
+    )
+
+
 def continuation(store: ResultStore, run_id: int, plan: Plan) -> Continuation:
     """Check that ``run_id`` can be continued with ``plan`` and load what it has done."""
     run = store.run(run_id)
     if run["status"] != "incomplete":
-        raise ResumeRefused(
-            f"run {run_id} in {store.path} is {run['status']}, not incomplete; only a run a "
-            "stopped controller left unfinished can be continued"
-        )
+        raise ResumeRefused(not_incomplete(run_id, str(run["status"]), store.path))
     if run["station"] != plan.station.name:
         raise ResumeRefused(
             f"run {run_id} ran on station {run['station']!r}; this station is {plan.station.name!r}"

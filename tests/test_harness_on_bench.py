@@ -265,6 +265,25 @@ def test_a_check_prints_relay_wear_under_its_verdict_and_in_json(tmp_path: Path,
     assert shown and all("of its rated 4 operations; plan to replace it" in s for s in shown)
 
 
+def test_continue_on_a_harness_run_says_it_cannot_be_and_how_to_check_again(
+    tmp_path: Path,
+    capsys,  # type: ignore[no-untyped-def]
+) -> None:
+    # A harness run keeps its wire list in its sequence's place, not a file to load: continuing
+    # it named that as a file not found.  It is refused as bad input, in words.
+    wires, fixture = write_invented(tmp_path / "list", 8, seed=1, spare=0)
+    with served(harness_bench(wires, fixture), tmp_path / "a") as st:
+        args = ["harness", "check", str(wires.path), "--station", str(st), "--serial", "H7"]
+        assert main([*args, "--ambient", "23 degC"]) == EXIT_PASS
+        capsys.readouterr()
+        code = main(["continue", "1", "--station", str(st)])
+    err = capsys.readouterr().err
+    assert code == EXIT_BAD_INPUT
+    assert f"run 1 in {tmp_path / 'a' / 'data' / 'results.sqlite'} is a rig harness check of" in err
+    assert "cannot be continued, by design" in err and "file not found" not in err
+    assert f"rig harness check {wires.path} --station {st} --serial H7 --ambient" in err
+
+
 def test_spare_pins_are_the_unused_cavities_of_the_harness_connectors() -> None:
     fixture = load_fixture(SHIPPED / "fixture.toml")
     wires = load_wire_list(SHIPPED / "wire-list.csv", fixture)

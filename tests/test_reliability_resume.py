@@ -104,13 +104,21 @@ def test_a_finished_or_changed_run_is_not_continued(bench_files: tuple[Path, Pat
 
 
 def test_the_continue_command_explains_a_refusal(bench_files: tuple[Path, Path]) -> None:
+    # A run id that cannot be continued is bad input (exit 2, README); 3 is kept for a run that
+    # was aborted or an instrument that failed.
     sequence, station = bench_files
     done = run_plan(load_plan(sequence, station), "SN-DONE")
-    for run_id, words in ((done.run_id, "not incomplete"), (999, "no run 999")):
+    dead = _dead_run(sequence, station, after="signal")
+    sequence.write_text(DRILL_SEQUENCE.replace('high = "6 V"', 'high = "5.5 V"'), "utf-8")
+    for run_id, words in (
+        (done.run_id, "is complete, not incomplete"),
+        (999, "no run 999"),
+        (dead, "changed since run"),
+    ):
         err = io.StringIO()
         with contextlib.redirect_stderr(err), contextlib.redirect_stdout(io.StringIO()):
             code = main(["continue", str(run_id), "--station", str(station)])
-        assert code == 3 and words in err.getvalue() and "Traceback" not in err.getvalue()
+        assert code == 2 and words in err.getvalue() and "Traceback" not in err.getvalue()
 
 
 def test_a_continued_run_keeps_the_steps_it_planned(bench_files: tuple[Path, Path]) -> None:

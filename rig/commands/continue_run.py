@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import argparse
 from pathlib import Path
+from typing import Any
 
 from rig.cli_output import Output
 
@@ -37,7 +38,8 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
 def cmd_continue(args: argparse.Namespace, out: Output) -> int:
     from rig.cli import EXIT_BAD_INPUT, _parser, cmd_run, operator_problem
     from rig.config.station import load_station
-    from rig.store import ResultStore
+    from rig.resume import ResumeRefused
+    from rig.store import ResultStore, StoreError
 
     station = load_station(args.station)
     problem = operator_problem(station, args.operator or "")  # who carries on, named anew
@@ -47,8 +49,15 @@ def cmd_continue(args: argparse.Namespace, out: Output) -> int:
     store = ResultStore(station.store_path)
     try:
         run = store.run(args.run_id)
+    except StoreError as exc:  # no such run: a wrong id is bad input
+        out.error(f"rig: {exc}")
+        return EXIT_BAD_INPUT
     finally:
         store.close()
+    problem = _refusal(args, run, station.store_path)
+    if problem:
+        out.error(f"rig: {problem}")
+        return EXIT_BAD_INPUT
     # the options of `rig run`, every default included, as if the run were started again
     flags = [f"--{name}" for name in ("yes", "json", "readings") if getattr(args, name)]
     run_args = _parser().parse_args(
@@ -65,4 +74,36 @@ def cmd_continue(args: argparse.Namespace, out: Output) -> int:
         ]
     )
     run_args.resume = args.run_id
-    return cmd_run(run_args, out)
+    try:
+        return cmd_run(run_args, out)
+    except ResumeRefused as exc:  # found once the run's own record is read: a changed sequence
+        out.error(f"rig: {exc}")
+        return EXIT_BAD_INPUT
+
+
+def _refusal(args: argparse.Namespace, run: dict[str, Any], store: Path) -> str:
+    """Why the run cannot be continued, before anything is opened (empty: it may be).  A run
+    still recorded as running is let through: its controller may have died, and the start of
+    the continuing run marks it incomplete first."""
+    from rig.commands.harness import harness_run_of
+    from rig.resume import ENDED, not_incomplete
+
+    run_id, status = args.run_id, str(run["status"])
+    harness = harness_run_of(str(run["sequence_path"]))
+    if harness is not None:
+        what, subject = harness
+        again = (
+            f"rig harness check {subject}"
+            if what == "check"
+            else f"rig harness capture --out {subject}"
+        )
+        return (
+            f"run {run_id} in {store} is a rig harness {what} of {subject} ({status}); a "
+            "harness run cannot be continued, by design: it is one step that proves the whole "
+            f"harness at once, so there is no next step to carry on from. {what.capitalize()} "
+            "the harness again: "
+            f"{again} --station {args.station} --serial {run['serial']} --ambient TEMPERATURE"
+        )
+    if status in ENDED:
+        return not_incomplete(run_id, status, store)
+    return ""

@@ -76,6 +76,25 @@ def _common(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--json", action="store_true", help="one machine-readable summary")
 
 
+def harness_source(what: str, subject: Path) -> Path:
+    """What a harness run records in its sequence's place (``runs.sequence_path``): the verb and
+    the wire list, for a reader of the record and for ``harness_run_of``."""
+    return Path(f"rig harness {what} of {subject} {_COMMAND_LINE}")
+
+
+_COMMAND_LINE = "(command line)"
+
+
+def harness_run_of(sequence_path: str) -> tuple[str, str] | None:
+    """The verb (check, capture) and wire list of a run ``rig harness`` made, from what its
+    record keeps as its sequence (``harness_source``); None for a run of a sequence file."""
+    head, tail = "rig harness ", f" {_COMMAND_LINE}"
+    if not (sequence_path.startswith(head) and sequence_path.endswith(tail)):
+        return None
+    what, of, subject = sequence_path[len(head) : -len(tail)].partition(" of ")
+    return (what, subject) if of and what in ("check", "capture") else None
+
+
 def _sequence_text(name: str, keys: dict[str, object]) -> str:
     lines = ["[sequence]", f"name = {json.dumps(name)}", "", "[[steps]]", 'id = "harness"']
     lines.append('kind = "harness-proof"')
@@ -102,7 +121,7 @@ def _run(
         out.error(f"rig: {problem}")
         return EXIT_BAD_INPUT
     keys = {**keys, "temperature": args.ambient}
-    source = Path(f"rig harness {what} of {subject} (command line)")
+    source = harness_source(what, subject)
     named = f"{subject.parent.name}/{subject.name}"  # two lists of one name in two folders differ
     doc = TomlDoc(source, _sequence_text(f"rig harness {what}: {named}", keys))
     sequence = parse_sequence(doc)
