@@ -50,6 +50,12 @@ _PATTERN = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(\S*)\
 class QuantityError(ValueError):
     """A value could not be read as a quantity of the expected unit."""
 
+    def __init__(self, message: str, *, reason: str = "") -> None:
+        super().__init__(message)
+        self.reason = reason or message
+        """What is wrong with the value, without what was expected: for a caller that says what
+        it expects in its own words (a command-line option)."""
+
 
 def _split_unit(text: str) -> tuple[float, str]:
     """Split a symbol into (prefix factor, canonical unit); the longest known unit wins."""
@@ -60,7 +66,7 @@ def _split_unit(text: str) -> tuple[float, str]:
             prefix = text[: -len(unit)]
             if prefix in _PREFIX and _UNITS[unit] not in ("%", "degC", "K", "mm2"):
                 return _PREFIX[prefix], _UNITS[unit]
-    raise QuantityError(f"unknown unit {text!r}")
+    raise QuantityError(f"unknown unit {text!r}")  # its own reason: nothing expected in it
 
 
 def parse_quantity(value: object, unit: str) -> float:
@@ -73,16 +79,24 @@ def parse_quantity(value: object, unit: str) -> float:
         raise QuantityError(f"expected a string with a unit such as '1.5 {unit}', found {value!r}")
     match = _PATTERN.match(value)
     if not match:
-        raise QuantityError(f"expected a number and a unit such as '1.5 {unit}', found {value!r}")
+        raise QuantityError(
+            f"expected a number and a unit such as '1.5 {unit}', found {value!r}",
+            reason=f"{value!r} is not a number with a unit",
+        )
     number = float(match.group(1))
     symbol = match.group(2)
     if not symbol:
-        raise QuantityError(f"{value!r} has no unit; expected a value in {unit}")
+        raise QuantityError(
+            f"{value!r} has no unit; expected a value in {unit}", reason=f"{value!r} has no unit"
+        )
     factor, found = _split_unit(symbol)
     if found == "bar" and unit == "Pa":
         factor, found = factor * 1e5, "Pa"
     if found != unit:
-        raise QuantityError(f"expected a value in {unit}, found {value!r} (a value in {found})")
+        raise QuantityError(
+            f"expected a value in {unit}, found {value!r} (a value in {found})",
+            reason=f"{value!r} is a value in {found}",
+        )
     result = number * factor
     if not math.isfinite(result):
         raise QuantityError(f"{value!r} is not a finite number")

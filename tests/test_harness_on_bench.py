@@ -284,6 +284,47 @@ def test_continue_on_a_harness_run_says_it_cannot_be_and_how_to_check_again(
     assert f"rig harness check {wires.path} --station {st} --serial H7 --ambient" in err
 
 
+@pytest.mark.parametrize(
+    ("options", "said"),
+    [
+        (
+            ["--ambient", "23"],
+            "--ambient: '23' has no unit; expected a temperature such as '23 degC'",
+        ),
+        (
+            ["--ambient", "-300 degC"],  # below -273.15 degC, the kelvin's zero (SI)
+            "--ambient: expected a temperature above absolute zero (-273.15 degC), "
+            "found '-300 degC'",
+        ),
+        (
+            ["--ambient", "23 degC", "--isolation", "1M"],
+            "--isolation: unknown unit 'M'; expected a resistance such as '1 Mohm'",
+        ),
+        (
+            ["--ambient", "23 degC", "--contact-allowance", "5 V"],
+            "--contact-allowance: '5 V' is a value in V; expected a resistance such as '5 mohm'",
+        ),
+    ],
+)
+def test_a_bad_option_is_named_as_the_option_before_anything_moves(
+    tmp_path: Path,
+    capsys,  # type: ignore[no-untyped-def]
+    options: list[str],
+    said: str,
+) -> None:
+    # The step is built from the command line: its problems are the options', not those of a
+    # sequence file the user never wrote.
+    wires, fixture = write_invented(tmp_path / "list", 8, seed=1, spare=0)
+    bench = harness_bench(wires, fixture)
+    with served(bench, tmp_path / "a") as st:
+        args = ["harness", "check", str(wires.path), "--station", str(st), "--serial", "H3"]
+        code = main([*args, *options])
+        assert sum(bench.relay_box.operation_counts().values()) == 0
+    err = capsys.readouterr().err
+    assert code == EXIT_BAD_INPUT
+    assert err.splitlines() == ["rig: the input has problems:", f"  {said}"]
+
+
 def test_spare_pins_are_the_unused_cavities_of_the_harness_connectors() -> None:
     fixture = load_fixture(SHIPPED / "fixture.toml")
     wires = load_wire_list(SHIPPED / "wire-list.csv", fixture)

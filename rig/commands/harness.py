@@ -12,6 +12,8 @@ import json
 from pathlib import Path
 
 from rig.cli_output import Output, serve_bench
+from rig.errors import Problem
+from rig.quantity import QuantityError, parse_quantity
 
 HARNESS_CAUTION = (
     "Caution: test harnesses off the vehicle or machine, never on live circuits: disconnect "
@@ -95,6 +97,35 @@ def harness_run_of(sequence_path: str) -> tuple[str, str] | None:
     return (what, subject) if of and what in ("check", "capture") else None
 
 
+_OPTIONS = {
+    "temperature": ("--ambient", "degC", "a temperature such as '23 degC'"),
+    "isolation": ("--isolation", "ohm", "a resistance such as '1 Mohm'"),
+    "contact_allowance": ("--contact-allowance", "ohm", "a resistance such as '5 mohm'"),
+}
+"""The step's keys that the command line's options fill: option, unit, what it takes."""
+
+
+def _option_problem(key: str, value: object) -> Problem | None:
+    """A problem with an option that fills one of the step's quantities, named by the option
+    (the step is built from the command line, not read from a file), or None."""
+    if key not in _OPTIONS:
+        return None
+    option, unit, expected = _OPTIONS[key]
+    try:
+        parse_quantity(value, unit)
+    except QuantityError as exc:
+        return Problem(option, "", f"{exc.reason}; expected {expected}")
+    return None
+
+
+def _as_option(problem: Problem) -> Problem:
+    """A problem the step found in a key an option filled, named by that option."""
+    key = problem.key.removeprefix("steps[0].")
+    if key not in _OPTIONS:
+        return problem
+    return Problem(_OPTIONS[key][0], "", problem.message)
+
+
 def _sequence_text(name: str, keys: dict[str, object]) -> str:
     lines = ["[sequence]", f"name = {json.dumps(name)}", "", "[[steps]]", 'id = "harness"']
     lines.append('kind = "harness-proof"')
@@ -112,6 +143,7 @@ def _run(
     from rig.config.reader import TomlDoc
     from rig.config.sequence import parse_sequence
     from rig.config.station import load_station
+    from rig.errors import ConfigError
     from rig.plan import build_plan
     from rig.runner import run_plan
 
@@ -121,11 +153,15 @@ def _run(
         out.error(f"rig: {problem}")
         return EXIT_BAD_INPUT
     keys = {**keys, "temperature": args.ambient}
+    unreadable = [p for p in (_option_problem(k, v) for k, v in keys.items()) if p is not None]
+    if unreadable:
+        raise ConfigError(unreadable)
     source = harness_source(what, subject)
     named = f"{subject.parent.name}/{subject.name}"  # two lists of one name in two folders differ
     doc = TomlDoc(source, _sequence_text(f"rig harness {what}: {named}", keys))
     sequence = parse_sequence(doc)
-    doc.raise_if_problems()
+    if doc.problems:  # a value the step refuses (below absolute zero): named by its option
+        raise ConfigError([_as_option(p) for p in doc.problems])
     plan = build_plan(sequence, station)
     if args.json:
         out.quiet = True
