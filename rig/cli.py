@@ -462,6 +462,19 @@ def operator_problem(station: Station, operator: str) -> str:
     )
 
 
+def _answer(question: str, *, to_stderr: bool) -> str:
+    """The operator's answer to ``question``.  With ``--json`` the question goes to standard
+    error, so that standard output stays one JSON document; ``EOFError`` when input has ended."""
+    if not to_stderr:
+        return input(question)
+    sys.stderr.write(question)
+    sys.stderr.flush()
+    line = sys.stdin.readline()
+    if not line:
+        raise EOFError
+    return line
+
+
 def cmd_run(args: argparse.Namespace, out: Output) -> int:
     from rig.engine import StopRequested
     from rig.runner import load_plan, run_plan
@@ -496,7 +509,7 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
             return True
         stops = " (no stops the run)" if out.no_stops_run else ""
         try:
-            answer = input(f"  {text}{stops} [y/N] ")
+            answer = _answer(f"  {text}{stops} [y/N] ", to_stderr=args.json)
         except EOFError:  # input is not a terminal and has ended: nobody is there to answer
             raise StopRequested(
                 f"the prompt {text!r} got no answer: standard input ended; run rig at a "

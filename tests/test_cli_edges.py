@@ -325,3 +325,18 @@ def test_an_aborted_run_lists_the_planned_steps_it_never_measured(
     assert [s["id"] for s in data["steps"]] == ["lead-check"]
     assert data["cut_short"] == "seated" and data["not_run"] == ["lead-check-4w", "hold"]
     assert stored == [(1, "lead-check"), (2, "lead-check")]
+
+
+def test_with_json_a_prompt_is_asked_on_stderr_and_stdout_stays_one_document(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str], monkeypatch: pytest.MonkeyPatch
+) -> None:
+    # A script reading `rig run --json` parses standard output: the question it answers on
+    # standard input must not land in the middle of the JSON.
+    monkeypatch.setattr(sys, "stdin", io.StringIO("y\n"))
+    with shipped_bench("ntc-sender", folder=tmp_path) as (_, station):
+        run = ["run", str(SENSOR_SCREEN), "--station", str(station.path), "--serial", "J1"]
+        code = main([*run, "--json"])
+    captured = capsys.readouterr()
+    summary = json.loads(captured.out)
+    assert code == 0 and summary["status"] == "complete"
+    assert "[y/N]" in captured.err and "[y/N]" not in captured.out
