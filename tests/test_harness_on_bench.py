@@ -304,6 +304,10 @@ def test_continue_on_a_harness_run_says_it_cannot_be_and_how_to_check_again(
             ["--ambient", "23 degC", "--contact-allowance", "5 V"],
             "--contact-allowance: '5 V' is a value in V; expected a resistance such as '5 mohm'",
         ),
+        (  # a negative allowance would quietly tighten every continuity limit
+            ["--ambient", "23 degC", "--contact-allowance", "-5 mohm"],
+            "--contact-allowance: expected zero or more in ohm, found '-5 mohm'",
+        ),
     ],
 )
 def test_a_bad_option_is_named_as_the_option_before_anything_moves(

@@ -172,9 +172,16 @@ class Section:
         return value
 
     def quantity(
-        self, name: str, unit: str, default: Any = _MISSING, *, positive: bool = False
+        self,
+        name: str,
+        unit: str,
+        default: Any = _MISSING,
+        *,
+        positive: bool = False,
+        not_negative: bool = False,
     ) -> Any:
-        """A value with its unit ("2.2 kohm"), returned in SI."""
+        """A value with its unit ("2.2 kohm"), returned in SI; ``positive`` refuses zero and
+        below, ``not_negative`` below zero only (an allowance of none is one)."""
         value = self._get(name, default, f"a value in {unit} such as '1.5 {unit}'")
         if value is _MISSING:
             return None
@@ -187,6 +194,9 @@ class Section:
             return default if default is not _MISSING else None
         if positive and result <= 0:
             self.problem(name, f"expected a positive value in {unit}, found {value!r}")
+            return default if default is not _MISSING else None
+        if not_negative and result < 0:
+            self.problem(name, f"expected zero or more in {unit}, found {value!r}")
             return default if default is not _MISSING else None
         return result
 

@@ -40,10 +40,11 @@ def read_harness_keys(sec: Section, spec: StepSpec, base: Path) -> None:
         except ConfigError as exc:
             sec.doc.problems.extend(exc.problems)
     spec.params["allowances"] = Allowances(
-        contact_ohm=sec.quantity("contact_allowance", "ohm", 0.005),
-        splice_ohm=sec.quantity("splice_allowance", "ohm", 0.002),
-        captured_pct=sec.quantity("captured_tolerance", "%", 10.0),
-        two_wire_ohm=sec.quantity("two_wire_allowance", "ohm", 0.2),
+        # a negative allowance would tighten a limit below what the wire itself may read
+        contact_ohm=sec.quantity("contact_allowance", "ohm", 0.005, not_negative=True),
+        splice_ohm=sec.quantity("splice_allowance", "ohm", 0.002, not_negative=True),
+        captured_pct=sec.quantity("captured_tolerance", "%", 10.0, not_negative=True),
+        two_wire_ohm=sec.quantity("two_wire_allowance", "ohm", 0.2, not_negative=True),
     )
     spec.params["isolation_ohm"] = sec.quantity("isolation", "ohm", 1e6, positive=True)
     spec.params["method"] = sec.string("isolation_method", "groups", choices=METHODS)
