@@ -367,3 +367,38 @@ def test_a_no_to_a_prompt_that_stops_the_run_says_so_and_ends_the_run(tmp_path: 
                 assert bench.state()["closed_relays"] == [] and bench.state()["outputs_on"] == []
 
     asyncio.run(scenario())
+
+
+def test_warnings_the_technician_must_act_on_are_shown_under_the_verdict(tmp_path: Path) -> None:
+    # A fixture whose relays are rated for 4 operations (invented: relays worn nearly out): after
+    # one run, the next run's record warns of wear, and the console's verdict must say so too.
+    from bench_helpers import shipped_bench
+    from console_helpers import console_setup
+
+    from rig.cli import main
+    from rig.config.station import load_station
+    from rig.console import ConsoleApp
+
+    sequence = SEQUENCES_DIR / "temp-circuit-check.toml"
+    fixture = tmp_path / "worn-fixture.toml"
+    text = (SEQUENCES_DIR / "demo-fixture.toml").read_text(encoding="utf-8")
+    fixture.write_text(text.replace("rated_operations = 10000000", "rated_operations = 4"))
+
+    async def scenario() -> None:
+        with shipped_bench("temp-circuit", folder=tmp_path) as (bench, station):
+            station_text = station.path.read_text(encoding="utf-8")
+            station.path.write_text(station_text.replace(str(station.fixture.path), str(fixture)))
+            args = ["run", str(sequence), "--station", str(station.path), "--serial", "W1"]
+            assert main(args) == 0  # wears the relays past their rating
+            app = ConsoleApp(console_setup(load_station(station.path), sequence, bench=bench))
+            async with app.run_test(size=SIZE) as pilot:
+                screen = await start_run(pilot, "W2")
+                await finish(pilot, screen)
+                assert screen.summary is not None and screen.summary.warnings
+                panel = screen.query_one(StatusPanel)
+                shown = str(panel.render())
+                assert "PASS" in shown and "of its rated 4 operations" in shown
+                run, _ = stored_run(app, screen.summary.run_id)
+                assert "of its rated 4 operations" in run["notes"]  # as the record says
+
+    asyncio.run(scenario())

@@ -24,17 +24,26 @@ class StatusPanel(Widget):
     StatusPanel.-other { border: heavy $warning; }
     """
 
+    MOST_WARNINGS = 3
+    """Warning lines shown under the verdict; more are counted, and all are in the run's record."""
+
     def __init__(self, **kwargs: Any) -> None:
         super().__init__(**kwargs)
         self._lines: list[str] = ["waiting for the bench"]
         self.verdict: RunVerdict | None = None
+        self.warnings: list[str] = []
 
     def progress(self, *lines: str) -> None:
         self._lines = list(lines)
         self.refresh()
 
-    def show_verdict(self, verdict: RunVerdict) -> None:
+    def show_verdict(self, verdict: RunVerdict, warnings: list[str] | None = None) -> None:
+        """The verdict, and under it what the technician must act on (relay wear, a bench not
+        made safe, a retried fault): the panel grows by those lines."""
         self.verdict = verdict
+        self.warnings = list(warnings or [])
+        shown = min(len(self.warnings), self.MOST_WARNINGS)
+        self.styles.height = 8 + shown + (len(self.warnings) > shown)
         word = verdict.word
         self.remove_class("-pass", "-fail", "-other")
         if word == "PASS":
@@ -57,6 +66,11 @@ class StatusPanel(Widget):
         else:
             text.append(f"RUN VERDICT: {word}\n", self.verdict.style)
         text.append(f"{word}: {self.verdict.line}", "bold")
+        for warning in self.warnings[: self.MOST_WARNINGS]:
+            text.append(f"\nwarning: {warning}", "bold yellow")
+        if len(self.warnings) > self.MOST_WARNINGS:
+            more = len(self.warnings) - self.MOST_WARNINGS
+            text.append(f"\n... and {more} more warning(s) in the run's record (F2)", "yellow")
         return text
 
 

@@ -284,7 +284,8 @@ class RunScreen(Screen[str | None]):
             self.app.exit()
             return
         status.show_verdict(
-            run_verdict(summary.status, summary.verdict, summary.reason, summary.safe)
+            run_verdict(summary.status, summary.verdict, summary.reason, summary.safe),
+            summary.warnings,
         )
         self._add_unjudged(summary)
         table = self.query_one("#steps", DataTable)
