@@ -618,7 +618,7 @@ def cmd_sim(args: argparse.Namespace, out: Output) -> int:
     control = ControlServer(bench, args.control_port)
     try:
         control.start()
-        station = bench.write_station(args.station_out)
+        station = bench.write_station(args.station_out, name=f"virtual-{unit.name}")
         rows = [
             ("DMM", endpoints.dmm_resource),
             ("supply", endpoints.supply_resource),

@@ -132,7 +132,9 @@ def run_demo(
             bench, unit = _bench_for(case, folder)
             with bench:
                 station_path = bench.write_station(
-                    data_dir / f"station-{case.unit}.toml", data_dir=str(data_dir)
+                    data_dir / f"station-{case.unit}.toml",
+                    data_dir=str(data_dir),
+                    name=f"demo-{case.unit}",  # one store, a bench (and its relay wear) per unit
                 )
                 station = load_station(station_path)
                 plan = load_plan(folder / f"{case.sequence}.toml", station)

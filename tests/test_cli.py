@@ -17,6 +17,7 @@ import pytest
 from bench_helpers import SEQUENCES, shipped_bench
 
 from rig.cli import main
+from rig.config.station import load_station
 
 
 def test_demo_json_lists_every_run_with_its_verdict(
@@ -42,6 +43,19 @@ def test_demo_json_lists_every_run_with_its_verdict(
         else:
             assert run["verdict"] in ("pass", "conditional pass"), run
             assert run["failed_steps"] == []
+    # one store, one bench per unit: each keeps its own station name (runs, relay wear)
+    with sqlite3.connect(data["store"]) as db:
+        names = dict(db.execute("SELECT DISTINCT unit, station FROM runs").fetchall())
+    db.close()
+    assert len(set(names.values())) == len(names) > 1, names
+
+
+def test_a_virtual_harness_bench_is_named_after_its_wire_list() -> None:
+    from rig.commands.harness import virtual_station_name
+
+    assert virtual_station_name(SEQUENCES / "harness" / "wire-list.csv") == (
+        "virtual-harness-wire-list"
+    )
 
 
 def test_check_shows_routes_and_physical_limit(
@@ -143,6 +157,9 @@ def test_sim_subprocess_serves_writes_state_and_stops_on_sigterm(tmp_path: Path)
                 break
         port = int(next(li for li in lines if "control" in li).rsplit(":", 1)[1])
         assert station.exists()
+        # named after the unit it serves: a second bench written into the same store (another
+        # unit, a harness) keeps its runs and relay wear apart (docs/reliability.md)
+        assert load_station(station).name == "virtual-temp-circuit"
         data = json.loads(state.read_text(encoding="utf-8"))
         assert data["faults"] == ["open:signal"] and data["closed_relays"] == []
         assert data["outputs_on"] == [] and data["watchdog_tripped"] is False

@@ -226,6 +226,12 @@ def cmd_capture(args: argparse.Namespace, out: Output) -> int:
     return _run(args, out, keys, "capture", args.out.resolve())
 
 
+def virtual_station_name(wire_list: Path) -> str:
+    """A virtual harness bench's station name, from its wire list's folder and file name: runs
+    and relay wear stay apart from other benches written into the same store."""
+    return f"virtual-{wire_list.resolve().parent.name}-{wire_list.stem}"
+
+
 def cmd_sim(args: argparse.Namespace, out: Output) -> int:
     from rig.config.fixture import load_fixture
     from rig.errors import ConfigError, Problem
@@ -249,7 +255,7 @@ def cmd_sim(args: argparse.Namespace, out: Output) -> int:
     )
     endpoints = bench.start()
     try:
-        station = bench.write_station(args.station_out)
+        station = bench.write_station(args.station_out, name=virtual_station_name(wires.path))
         out.line(HARNESS_CAUTION)
         rows = [
             ("DMM", endpoints.dmm_resource),

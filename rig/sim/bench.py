@@ -179,13 +179,17 @@ class VirtualBench:
             relays=ep.relay_port,
         )
 
-    def write_station(self, path: Path, *, data_dir: str | None = None) -> Path:
+    def write_station(
+        self, path: Path, *, data_dir: str | None = None, name: str = "virtual-bench"
+    ) -> Path:
+        """The station file that points at this bench.  ``name``: the station's name, kept with
+        every run and its relay wear, so two benches written into one store keep theirs apart."""
         path = Path(path)
         path.parent.mkdir(parents=True, exist_ok=True)
         # the results land beside the station file unless told otherwise (an absolute path in
         # the file, so it does not matter where later commands are started)
         folder = Path(data_dir) if data_dir else path.parent
-        text = self.station_toml(data_dir=str(folder.resolve()))
+        text = self.station_toml(name=name, data_dir=str(folder.resolve()))
         path.write_text(text, encoding="utf-8")
         return path
 
