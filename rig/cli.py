@@ -9,22 +9,27 @@ import math
 import signal
 import sys
 import threading
+from collections.abc import Callable
 from pathlib import Path
 from types import FrameType
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, TypeVar
 
 from rig import __version__
 from rig.cli_output import Output, serve_bench, show, show_limits
-from rig.errors import ConfigError, RigError
+from rig.errors import ConfigError, Problem, RigError
 from rig.events import NOT_READINGS
-from rig.judge.decision import Verdict
+from rig.judge.decision import Verdict, tur_text
 
 if TYPE_CHECKING:
+    from rig.analysis.settling import RouteSettling
     from rig.config.station import Station
+    from rig.config.unit_file import UnitModel
     from rig.engine import RunSummary
     from rig.plan import Plan, PlannedStep
     from rig.steps import StepSpec
     from rig.store_sync import SyncReport
+
+T = TypeVar("T")
 
 EXIT_PASS, EXIT_FAIL, EXIT_BAD_INPUT, EXIT_ABORTED = 0, 1, 2, 3
 RELAYS_SHOWN_CHARS = 40
@@ -82,13 +87,23 @@ def _parser() -> argparse.ArgumentParser:
     )
     demo.set_defaults(func=cmd_demo)
 
-    check = sub.add_parser("check", help="validate a sequence against a station and show its plan")
-    check.add_argument("sequence", type=Path, help="the sequence file to check")
-    check.add_argument("--station", type=Path, required=True, help="the station file")
+    check = sub.add_parser(
+        "check",
+        help="validate a sequence against a station and show its plan, or check a station, unit "
+        "or fixture file alone",
+        description="rig check SEQUENCE --station STATION [--unit UNIT] checks a sequence against "
+        "a station and shows its plan; without a sequence, each file given by --station, --unit "
+        "or --fixture is checked alone (a station with its fixture, a unit with its fixture).",
+    )
+    check.add_argument("sequence", type=Path, nargs="?", help="the sequence file to check")
+    check.add_argument("--station", type=Path, help="the station file")
     check.add_argument(
         "--unit",
         type=Path,
         help="a unit file: also show each route's settling time on its model against `settle`",
+    )
+    check.add_argument(
+        "--fixture", type=Path, help="a fixture file to check alone (without a sequence)"
     )
     check.set_defaults(func=cmd_check)
 
@@ -227,12 +242,103 @@ def cmd_demo(args: argparse.Namespace, out: Output) -> int:
 # --- rig check --------------------------------------------------------------------------------
 
 
-def cmd_check(args: argparse.Namespace, out: Output) -> int:
-    from rig.harness.wire_list import WireList
-    from rig.runner import load_plan
+def _check_arguments(args: argparse.Namespace) -> str:
+    """Why the files given to ``rig check`` do not make a check, or empty when they do."""
+    if args.sequence is None:
+        if args.station is None and args.unit is None and args.fixture is None:
+            return (
+                "rig check: give a sequence and --station STATION, or a file to check alone: "
+                "--station, --unit or --fixture"
+            )
+        return ""
+    if args.station is None:
+        return f"rig check: {args.sequence} is checked against a station; give --station STATION"
+    if args.fixture is not None:
+        return (
+            "rig check: --fixture checks a fixture file alone; with a sequence, the fixture is "
+            "the one its station names"
+        )
+    return ""
 
-    plan = load_plan(args.sequence, args.station)
+
+def _loaded(load: Callable[[Path], T], path: Path | None, problems: list[Problem]) -> T | None:
+    """``load(path)``, or None with its problems added to ``problems`` (None for no path): so
+    that every input is checked before anything is printed."""
+    if path is None:
+        return None
+    try:
+        return load(path)
+    except ConfigError as exc:
+        problems.extend(exc.problems)
+        return None
+
+
+def _check_alone(args: argparse.Namespace, out: Output) -> int:
+    """Each of a station, unit and fixture file checked by itself (a station and a unit with
+    the fixture each names): every problem of all of them, or one line each when valid."""
+    from rig.config.fixture import FixtureMap, load_fixture
+    from rig.config.station import load_station
+    from rig.config.unit_file import load_unit
+
+    def unit_and_fixture(path: Path) -> tuple[UnitModel, FixtureMap]:
+        unit = load_unit(path)
+        return unit, load_fixture(unit.fixture_path)  # the fixture `rig sim --unit` loads
+
+    problems: list[Problem] = []
+    station = _loaded(load_station, args.station, problems)
+    unit = _loaded(unit_and_fixture, args.unit, problems)
+    fixture = _loaded(load_fixture, args.fixture, problems)
+    if problems:
+        raise ConfigError(problems)
+    if station is not None:
+        out.line(
+            f"station {station.name} ({args.station}): valid, with fixture "
+            f"{station.fixture.name} ({station.fixture.path.name})"
+        )
+    if unit is not None:
+        model, on = unit
+        out.line(f"unit {model.name} ({args.unit}): valid, on fixture {on.name} ({on.path.name})")
+    if fixture is not None:
+        out.line(
+            f"fixture {fixture.name} ({args.fixture}): valid, {len(fixture.pins)} pins on "
+            f"{fixture.relay_count} relays"
+        )
+    return 0
+
+
+def _planned(
+    sequence_path: Path, station_path: Path, unit_path: Path | None
+) -> tuple[Plan, UnitModel | None]:
+    """The sequence planned on the station, and the unit file: every problem of all three files
+    at once (then of the plan), before a command prints anything."""
+    from rig.config.sequence import load_sequence
+    from rig.config.station import load_station
+    from rig.config.unit_file import load_unit
+    from rig.plan import build_plan
+
+    problems: list[Problem] = []
+    station = _loaded(load_station, station_path, problems)
+    sequence = _loaded(load_sequence, sequence_path, problems)
+    unit = _loaded(load_unit, unit_path, problems)
+    if problems:
+        raise ConfigError(problems)
+    assert station is not None and sequence is not None
+    return build_plan(sequence, station), unit
+
+
+def cmd_check(args: argparse.Namespace, out: Output) -> int:
+    from rig.analysis.settling import route_settling
+    from rig.harness.wire_list import WireList
+
+    problem = _check_arguments(args)
+    if problem:
+        out.error(problem)
+        return EXIT_BAD_INPUT
+    if args.sequence is None:
+        return _check_alone(args, out)
+    plan, unit = _planned(args.sequence, args.station, args.unit)
     station = plan.station
+    settling = None if unit is None else route_settling(plan, unit)
     out.line(f"sequence {plan.sequence.name} ({args.sequence}) on station {station.name}: valid")
     if station.operator_required:
         out.line("operator: required by the station (operator_required); run with --operator NAME")
@@ -242,7 +348,7 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
         relays = " | ".join(",".join(str(r) for r in sorted(rs)) for rs in step.relay_sets)
         if len(step.relay_sets) > 4 and len(relays) > RELAYS_SHOWN_CHARS:  # a harness proof
             relays = f"{len(step.relay_sets)} routes"
-        range_text, u_text, tur_text = _estimate(plan, step)
+        range_cell, u_cell, tur_cell = _estimate(plan, step)
         rows.append(
             [
                 spec.id,
@@ -251,9 +357,9 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
                 relays or "-",
                 "ok",
                 _limits_text(spec),
-                range_text,
-                u_text,
-                tur_text,
+                range_cell,
+                u_cell,
+                tur_cell,
             ]
         )
     headers = ["step", "kind", "pins", "relays", "interlocks", "limits", "range", "U (k=2)", "TUR"]
@@ -283,8 +389,10 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
             "  steps that state no settle time are proved settled by a second reading after "
             "each change of route; state `settle` where the circuit's time constant is known"
         )
-    if args.unit is not None:
-        _show_settling(plan, args.unit, out)
+    if settling is not None:
+        _show_settling(settling, args.unit, out)
+    for warning in plan.warnings:
+        out.line(f"warning: {warning}")
     if station.store_path.exists():
         from rig.engine import wear_warnings
         from rig.store import ResultStore
@@ -354,13 +462,11 @@ def _show_supply(plan: Plan, out: Output) -> None:
     out.table(["step", "+", "-", "voltage", "current limit"], rows)
 
 
-def _show_settling(plan: Plan, unit_path: Path, out: Output) -> None:
+def _show_settling(found: list[RouteSettling], unit_path: Path, out: Output) -> None:
     """Each route's time constant on the unit model, what settling to 1 ppm takes, and the
     settle the sequence states, so an engineer can state it from the circuit."""
-    from rig.analysis.settling import PPM_TIME_CONSTANTS, route_settling
-    from rig.config.unit_file import load_unit
+    from rig.analysis.settling import PPM_TIME_CONSTANTS
 
-    found = route_settling(plan, load_unit(unit_path))
     out.line()
     out.line(
         f"settling on the unit model {unit_path.name} (to 1 ppm: {PPM_TIME_CONSTANTS:.1f} time "
@@ -403,8 +509,7 @@ def _duration(seconds: float) -> str:
 def _estimate(plan: Plan, step: PlannedStep) -> tuple[str, str, str]:
     """The planned range, and the expanded uncertainty and TUR at the upper (or lower) limit."""
     from rig.config.station import FUNCTIONS
-    from rig.engine import COVERAGE_K
-    from rig.judge.decision import test_uncertainty_ratio, tur_is_low
+    from rig.engine import uncertainty_at_limit
     from rig.steps import KINDS
 
     spec = step.spec
@@ -415,21 +520,11 @@ def _estimate(plan: Plan, step: PlannedStep) -> tuple[str, str, str]:
     if step.range_ is None:
         return "auto", "-", "-"
     range_text = show(step.range_, FUNCTIONS[function.value])
-    at = (
-        None
-        if spec.limits is None
-        else (spec.limits.high if spec.limits.high is not None else spec.limits.low)
-    )
-    if spec.limits is None or at is None or not kind.limits_in_meter_units:
-        return range_text, "-", "-"  # a temperature or a fraction: the meter's U is not in its unit
-    try:
-        accuracy = plan.station.dmm_accuracy.spec_for(function.value, step.range_)
-    except ValueError:
+    found = uncertainty_at_limit(plan.station, spec, step.range_)
+    if found is None:  # a temperature or a fraction: the meter's U is not in its unit
         return range_text, "-", "-"
-    expanded = COVERAGE_K * accuracy.standard_uncertainty(at, step.range_)
-    tur = test_uncertainty_ratio(spec.limits, expanded)
-    tur_text = "-" if tur is None else f"{tur:.0f}:1" + (" LOW" if tur_is_low(tur) else "")
-    return range_text, show(expanded, kind.unit), tur_text
+    expanded, tur = found
+    return range_text, show(expanded, kind.unit), tur_text(tur)
 
 
 # --- rig run ----------------------------------------------------------------------------------
@@ -477,7 +572,7 @@ def _answer(question: str, *, to_stderr: bool) -> str:
 
 def cmd_run(args: argparse.Namespace, out: Output) -> int:
     from rig.engine import StopRequested
-    from rig.runner import load_plan, run_plan
+    from rig.runner import run_plan
     from rig.stats.study import study_problem
 
     continuing = getattr(args, "resume", None) is not None  # its serial is the record's own
@@ -487,17 +582,13 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
     if problem:
         out.error(f"rig: {problem}")
         return EXIT_BAD_INPUT
-    plan = load_plan(args.sequence, args.station)
+    # a unit file that does not load is named now, not at diagnosis
+    plan, _ = _planned(args.sequence, args.station, getattr(args, "unit", None))
     problem = operator_problem(plan.station, args.operator)
     if problem:
         out.error(f"rig: {problem}")
         return EXIT_BAD_INPUT
-    unit = ""
-    if getattr(args, "unit", None) is not None:
-        from rig.config.unit_file import load_unit
-
-        load_unit(args.unit)  # a unit file that does not load is named now, not at diagnosis
-        unit = str(args.unit.resolve())
+    unit = "" if getattr(args, "unit", None) is None else str(args.unit.resolve())
     if args.json:
         out.quiet = True
     else:
@@ -569,8 +660,8 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
     else:
         out.line()
         out.results(summary.results, summary.cut_short, summary.not_run)
-        for result in summary.results:
-            if result.step_id in summary.failed_steps and result.note:
+        for result in summary.results:  # what each step's record says beside its value
+            if result.note:
                 out.line(f"  {result.step_id}: " + "\n    ".join(result.note.split("; ")))
         out.line()
         out.line(f"verdict: {summary.verdict.value.upper()}  ({summary.status})")

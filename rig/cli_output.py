@@ -117,7 +117,7 @@ def _result_cells(r: StepResult) -> list[str]:
     if r.kind == "prompt" and not math.isnan(r.value):
         return [prompt_answer(r.value), "", "", ""]
     if r.kind == "harness-proof" and r.unit == "faults" and not math.isnan(r.value):
-        return [f"{r.value:g} fault(s) found", "none allowed", "", ""]
+        return [f"{r.value:g} fault(s) found", show_limits(r.limits, r.unit), "", ""]
     return [
         show(r.value, r.unit),
         show_limits(r.limits, r.unit),
@@ -150,8 +150,12 @@ def show(value: float | None, unit: str) -> str:
 
 
 def show_limits(limits: Limits | None, unit: str) -> str:
+    """Limits as ``rig check`` and ``rig run`` show them; a count of faults whose limit is 0
+    (a harness proof) reads ``none allowed``."""
     if limits is None:
         return "(none)"
+    if unit == "faults" and limits.high == 0 and not limits.low:
+        return "none allowed"
     low = "-inf" if limits.low is None else show(limits.low, unit)
     high = "+inf" if limits.high is None else show(limits.high, unit)
     return f"{low} .. {high}"

@@ -15,7 +15,7 @@ import math
 import threading
 import time
 from collections import deque
-from collections.abc import Callable
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field, replace
 from typing import Any, cast
 
@@ -39,8 +39,17 @@ from rig.events import (
     StepStarted,
 )
 from rig.instrument_faults import SupplyWentOff, is_transient, plain_reason
-from rig.judge.decision import Verdict, judge, test_uncertainty_ratio, tur_is_low, worst
+from rig.judge.decision import (
+    DecisionRule,
+    Verdict,
+    is_no_reading,
+    judge,
+    test_uncertainty_ratio,
+    tur_is_low,
+    worst,
+)
 from rig.plan import Plan, PlannedStep
+from rig.quantity import format_quantity
 from rig.read_ahead import steps_ahead
 from rig.reading_guard import guard_verdict, reading_problems
 from rig.resume import INCOMPLETE_REASON, abandoned_notes, continuation
@@ -248,6 +257,9 @@ class Engine:
         were taken in: served while nothing moves, stored unsettled if never used."""
         self._step_finals: list[Reading] = []
         self._step_problems: list[str] = []
+        self._step_notes: list[str] = []
+        """What the running step's record must say about how it was measured (a settle that
+        was never proved), beside what its kind notes."""
         self._step_routes: list[frozenset[int]] | None = None
         """The relay sets the running step measures on, in order, where its kind says so
         (``StepKind.routes_in_order``); None where not known."""
@@ -536,7 +548,7 @@ class Engine:
         retried = ""
         relay_retries = getattr(self.bench.relays, "retries", 0)
         while True:
-            self._step_finals, self._step_problems = [], []
+            self._step_finals, self._step_problems, self._step_notes = [], [], []
             self._routes_done = 0
             try:
                 outcome = kind.run(self, spec)
@@ -615,8 +627,9 @@ class Engine:
         if not error:
             finals = [] if KINDS[spec.kind].overload_is_a_result else self._step_finals
             verdict = guard_verdict(verdict, finals, self._step_problems)
-            if self._step_problems:
-                outcome.note = "; ".join([outcome.note, *self._step_problems]).strip("; ")
+            unknown_u = no_uncertainty_note(spec, outcome, self._results, self.plan.station)
+            notes = [outcome.note, *self._step_problems, *self._step_notes, unknown_u]
+            outcome.note = "; ".join(note for note in notes if note)
         return StepResult(
             position=position,
             step_id=spec.id,
@@ -894,6 +907,8 @@ class Engine:
                 self._writes.mark_last_settled()
         if proof and agreed:
             self._settled_state = state
+        elif proof and math.isfinite(readings[-1].value):  # read to the end without agreeing
+            self._step_notes.append(self._unproved_settle(readings[-1]))
         return readings[-1]
 
     def _show_proof(self, readings: list[Reading], shown: int) -> int:
@@ -906,6 +921,16 @@ class Engine:
                 ReadingTaken(self._step_id, reading.role, reading.value, unit, False, SETTLE_PROOF)
             )
         return max(shown, len(readings) - 1)
+
+    def _unproved_settle(self, last: Reading) -> str:
+        """The note of a reading whose settling the proof could not show: the step's value
+        rests on a reading that may still have been moving."""
+        why = "" if math.isfinite(last.u_std) else " (it has none to agree by)"
+        return (
+            f"settling not proved: {self.settle.max_readings} {last.function} readings "
+            f"({last.role}), no two in a row within {self.settle.agree_fraction:g} x the "
+            f"reading's standard uncertainty{why}, the last one used"
+        )
 
     def _sleep_until(self, deadline: float) -> None:
         """Wait for ``time.monotonic()`` to reach ``deadline`` (not later: a stated settle is
@@ -1163,6 +1188,66 @@ def judge_outcome(
         if math.isfinite(expanded) and expanded > 0:
             tur = test_uncertainty_ratio(outcome.limits, expanded)
     return verdict, expanded, tur
+
+
+def no_uncertainty_note(
+    spec: StepSpec, outcome: Outcome, earlier: Mapping[str, StepResult], station: Station
+) -> str:
+    """The note of a step judged against limits with no uncertainty, saying why (empty where
+    it has one, or nothing was read): such a verdict could not weigh the meter's error, so it
+    must not pass without a word."""
+    if outcome.limits is None or is_no_reading(outcome.value) or math.isfinite(outcome.u_std):
+        return ""
+    causes = [_why_no_u(r, station) for r in outcome.readings if not math.isfinite(r.u_std)]
+    causes += [
+        f"step {ref}'s value has none"
+        for ref in spec.depends_on
+        if ref in earlier and not math.isfinite(earlier[ref].u_std)
+    ]
+    text = "judged with no uncertainty"
+    if spec.rule is DecisionRule.GUARDED:
+        text += ", so without the guarded rule's guard band"
+    return f"{text}: {'; '.join(causes)}" if causes else text
+
+
+def _why_no_u(reading: Reading, station: Station) -> str:
+    """Why one reading has no uncertainty, in the station file's words."""
+    if reading.function == "supply-current":
+        return "the supply's current readback has none: the station states no accuracy for it"
+    if is_no_reading(reading.value):
+        return f"the {reading.function} reading is no reading"
+    unit = FUNCTIONS.get(reading.function, "")
+    value = format_quantity(reading.value, unit)
+    try:
+        top = station.dmm_accuracy.ranges(reading.function)[-1]
+    except ValueError:
+        return f"the {reading.function} reading {value} has none"
+    return (
+        f"the {reading.function} reading {value} is above the largest {reading.function} range "
+        f"of the station's accuracy table ({format_quantity(top, unit)})"
+    )
+
+
+def uncertainty_at_limit(
+    station: Station, spec: StepSpec, range_: float | None
+) -> tuple[float, float | None] | None:
+    """The expanded uncertainty (k = COVERAGE_K) of a reading at the step's upper limit (its
+    lower one where it has no upper) on ``range_``, and the test uncertainty ratio of its limits
+    (None for one-sided limits): what ``rig check`` shows for a step and ``rig limits`` for a
+    proposal.  None where no range is held, or the limits are not in the meter's unit."""
+    kind = KINDS[spec.kind]
+    function = kind.meter_function(spec)
+    limits = spec.limits
+    if function is None or range_ is None or limits is None or not kind.limits_in_meter_units:
+        return None
+    at = limits.high if limits.high is not None else limits.low
+    assert at is not None  # Limits has at least one side
+    try:
+        accuracy = station.dmm_accuracy.spec_for(function.value, range_)
+    except ValueError:
+        return None
+    expanded = COVERAGE_K * accuracy.standard_uncertainty(at, range_)
+    return expanded, test_uncertainty_ratio(limits, expanded)
 
 
 def autorange_estimate(station: Station, function: MeterFunction, value: float) -> float | None:

@@ -74,13 +74,13 @@ def parse_fault(spec: str, source: str = "fault spec") -> Fault:
         if kind == "series":
             if value_text is None:
                 raise fail("series needs the added resistance, e.g. series:gnd=15ohm")
-            value = parse_quantity(_spaced(value_text), "ohm")
+            value = parse_quantity(value_text, "ohm")
             if value <= 0:
                 raise fail("the added resistance must be positive")
         elif kind == "drift":
             if value_text is None:
                 raise fail("drift needs a percentage, e.g. drift:coolant=+8%")
-            value = parse_quantity(_spaced(value_text), "%")
+            value = parse_quantity(value_text, "%")
             if value <= -100:
                 raise fail("a drift must be above -100 %")
         elif kind == "intermittent":
@@ -94,12 +94,6 @@ def parse_fault(spec: str, source: str = "fault spec") -> Fault:
             raise
         raise fail(str(exc)) from None
     return Fault(kind, targets, value)
-
-
-def _spaced(text: str) -> str:
-    """'15ohm' -> '15 ohm' so the quantity reader sees a number and a unit."""
-    match = re.match(r"^\s*([-+]?[\d.eE+-]*\d)\s*(.*)$", text)
-    return f"{match.group(1)} {match.group(2)}" if match else text
 
 
 def check_faults(faults: list[Fault], unit: UnitModel, source: str = "fault spec") -> None:

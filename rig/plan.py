@@ -17,6 +17,7 @@ from rig.config.model_input import refused
 from rig.config.sequence import Sequence
 from rig.config.station import FUNCTIONS, Station
 from rig.errors import ConfigError, InterlockError, Problem
+from rig.judge.decision import DecisionRule
 from rig.models import ModelInputError
 from rig.quantity import format_quantity
 from rig.routing import interlock_violations, relay_operations, relays_for
@@ -88,6 +89,8 @@ class Plan:
     station: Station
     steps: list[PlannedStep] = field(default_factory=list)
     timing: InstrumentTiming = field(default_factory=InstrumentTiming)
+    warnings: list[str] = field(default_factory=list)
+    """What the plan allows but a run would regret (``rig check`` prints them)."""
 
     @property
     def relay_ops(self) -> int:
@@ -192,6 +195,7 @@ def build_plan(sequence: Sequence, station: Station) -> Plan:
     """Check every route against the fixture and the interlocks, then order the steps."""
     fixture = station.fixture
     problems: list[Problem] = []
+    warnings: list[str] = []
     planned: dict[str, PlannedStep] = {}
     bench_ground = next((p.name for p in fixture.pins.values() if p.bench_ground), None)
     by_id = {spec.id: spec for spec in sequence.steps}
@@ -240,14 +244,25 @@ def build_plan(sequence: Sequence, station: Station) -> Plan:
             problems.append(sequence.problem(f"{spec.key}.supply.{key}", message))
         try:
             with np.errstate(over="ignore", invalid="ignore"):  # what overflows is refused
-                held = _fixed_range(spec, by_id.get, station)
+                held = held_range(spec, by_id.get, station)
+                beyond = None if held is not None else _beyond_accuracy(spec, by_id.get, station)
         except ModelInputError as exc:  # the step's model, asked for its largest reading
             problems.append(sequence.problem(spec.key, refused(exc)))
             continue
+        if beyond is not None and spec.rule is DecisionRule.GUARDED:
+            problems.append(
+                sequence.problem(
+                    spec.key,
+                    f"{beyond[0]}, so the guarded rule cannot be applied to it; {beyond[1]}, or "
+                    'give the step decision_rule = "simple"',
+                )
+            )
+        elif beyond is not None:
+            warnings.append(f"step {spec.id}: {beyond[0]} (no U, no TUR); {beyond[1]}")
         planned[spec.id] = PlannedStep(spec, relay_sets, held)
     if problems:
         raise ConfigError(problems)
-    plan = Plan(sequence, station)
+    plan = Plan(sequence, station, warnings=warnings)
     in_file = list(planned.values())
     plan.steps = in_file
     if sequence.reorder:
@@ -303,8 +318,38 @@ def _unlisted_range(spec: StepSpec, station: Station) -> str | None:
     )
 
 
-def _fixed_range(spec: StepSpec, earlier: EarlierSteps, station: Station) -> float | None:
-    """Hold a fixed range where the file bounds the reading, so no reading pays for autorange."""
+def _beyond_accuracy(
+    spec: StepSpec, earlier: EarlierSteps, station: Station
+) -> tuple[str, str] | None:
+    """Where a passing unit may read beyond every range the station's accuracy table lists for
+    the step's function (a reading it cannot give an uncertainty), the finding and its remedy;
+    None where the file does not bound the reading or the table holds it."""
+    kind = KINDS[spec.kind]
+    function = kind.meter_function(spec)
+    if spec.range_ is not None or function is None:
+        return None
+    largest = kind.largest_reading(spec, earlier)
+    if largest is None or not math.isfinite(largest):
+        return None
+    try:
+        top = station.dmm_accuracy.ranges(function.value)[-1]
+    except ValueError:  # the station's loader requires every function; nothing to say here
+        return None
+    if largest <= top:
+        return None
+    unit = FUNCTIONS[function.value]
+    most = format_quantity(largest, unit)
+    return (
+        f"a passing unit may read up to {most}, above the largest {function.value} range of "
+        f"the accuracy table in {station.path.name} ({format_quantity(top, unit)}): such a "
+        "reading has no uncertainty",
+        f"add a [[dmm.accuracy.{function.value}]] row for the meter's range that holds {most}",
+    )
+
+
+def held_range(spec: StepSpec, earlier: EarlierSteps, station: Station) -> float | None:
+    """The range the planner holds for ``spec`` (its own, or the smallest listed one that holds
+    what the file bounds the reading to, so no reading pays for autorange); None: autorange."""
     if spec.range_ is not None:
         return spec.range_
     kind = KINDS[spec.kind]

@@ -69,6 +69,19 @@ def _split_unit(text: str) -> tuple[float, str]:
     raise QuantityError(f"unknown unit {text!r}")  # its own reason: nothing expected in it
 
 
+_MINUTES = ("min", "mins", "minute", "minutes", "m")
+_HOURS = ("h", "hr", "hrs", "hour", "hours")
+
+
+def _in_seconds(number: float, symbol: str, unit: str) -> str:
+    """Where a time is expected in minutes or hours, the same time in seconds, the only unit of
+    time rig reads (``"30 min"`` -> ``; write '1800 s'``); empty otherwise."""
+    if unit != "s" or symbol not in (*_MINUTES, *_HOURS):
+        return ""
+    seconds = number * (60.0 if symbol in _MINUTES else 3600.0)
+    return f"; times are in seconds: write '{seconds:g} s'"
+
+
 def parse_quantity(value: object, unit: str) -> float:
     """Read ``value`` ("2.2 kohm", "500 mV", "1.5e3 ohm") as a float in the SI unit ``unit``.
 
@@ -89,13 +102,17 @@ def parse_quantity(value: object, unit: str) -> float:
         raise QuantityError(
             f"{value!r} has no unit; expected a value in {unit}", reason=f"{value!r} has no unit"
         )
-    factor, found = _split_unit(symbol)
+    try:
+        factor, found = _split_unit(symbol)
+    except QuantityError as exc:
+        raise QuantityError(f"{exc}{_in_seconds(number, symbol, unit)}") from None
     if found == "bar" and unit == "Pa":
         factor, found = factor * 1e5, "Pa"
     if found != unit:
         raise QuantityError(
-            f"expected a value in {unit}, found {value!r} (a value in {found})",
-            reason=f"{value!r} is a value in {found}",
+            f"expected a value in {unit}, found {value!r} (a value in {found})"
+            f"{_in_seconds(number, symbol, unit)}",
+            reason=f"{value!r} is a value in {found}{_in_seconds(number, symbol, unit)}",
         )
     result = number * factor
     if not math.isfinite(result):

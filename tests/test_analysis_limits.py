@@ -5,12 +5,15 @@ from __future__ import annotations
 
 import json
 import math
+import re
 import tomllib
+from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
 import numpy as np
 import pytest
+from offline_station import offline_station_text
 from scipy import stats
 
 from rig.analysis.fault_set import DETECTING
@@ -18,6 +21,7 @@ from rig.analysis.limits import (
     EMPIRICAL,
     EXTRAPOLATED,
     NORMAL_FIT,
+    fault_figures,
     present_limits,
     propose,
     round_out,
@@ -373,3 +377,85 @@ def test_an_ambient_range_out_to_the_reference_curves_ends_is_studied(
     # every step has limits or a reason why not (an NTC at -200 degC is all but open)
     ids = [s.id for s in load_sequence(SEQUENCES / f"{sequence}.toml").steps]
     assert sorted(s["id"] for s in data["steps"] + data["skipped"]) == sorted(ids)
+
+
+# --- what the proposed limits leave to the meter and to the room --------------------------------
+
+
+def test_each_proposal_reports_the_tur_rig_check_shows_once_pasted(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    """The drop along the pressure circuit's signal wire carries almost no current: good units
+    read a few microvolts, and limits that hold 100 ppm are about as tight as the meter's own
+    uncertainty on its smallest range.  The study says so, with the TUR that ``rig check`` then
+    shows for the pasted limits (its LOW mark under 4:1 is common practice, no published
+    source)."""
+    plan, unit = shipped_plan("pressure-circuit-check", "pressure-circuit")
+    study = study_limits(plan, unit, samples=20_000, seed=1)
+    turs = {p.step_id: p.tur for p in study.proposals}
+    assert turs["output-fraction"] is None  # a tolerance around the prediction: no TUR
+    drop = turs["signal-wire-drop"]
+    assert drop is not None and drop < 4
+    low = f"TUR {drop:.0f}:1 LOW"
+    assert any(w.startswith(f"step signal-wire-drop: {low}") for w in study.warnings)
+    assert not any("TUR" in w and "signal-at-controller" in w for w in study.warnings)
+
+    pasted = tomllib.loads(toml_text(study, plan.sequence.name, unit.name))
+    sequence = paste_limits(SEQUENCES / "pressure-circuit-check.toml", pasted, tmp_path / "p.toml")
+    station = tmp_path / "station.toml"
+    station.write_text(
+        offline_station_text("virtual-bench", unit.fixture_path, tmp_path), encoding="utf-8"
+    )
+    assert main(["check", str(sequence), "--station", str(station)]) == 0
+    rows = {line.split()[0]: line for line in capsys.readouterr().out.splitlines() if line}
+    for step_id, tur in turs.items():
+        shown = rows[step_id].rstrip()
+        expected = "-" if tur is None else f"{tur:.0f}:1" + (" LOW" if tur < 4 else "")
+        assert shown.endswith(expected), (step_id, shown, expected)
+
+
+def test_the_toml_to_paste_carries_the_warnings(capsys: pytest.CaptureFixture[str]) -> None:
+    args = ["limits", str(SEQUENCES / "pressure-circuit-check.toml"), "--seed", "1", "--toml"]
+    unit = SEQUENCES / "units" / "pressure-circuit.toml"
+    assert main([*args, "--unit", str(unit), "--samples", "20000"]) == 0
+    text = capsys.readouterr().out
+    table = text.split("[signal-wire-drop]\n", 1)[1].splitlines()
+    assert re.fullmatch(r"# TUR [0-3]:1 LOW \(under 4:1\): see the warnings", table[0]), table[0]
+    assert re.search(r"# - step signal-wire-drop: TUR [0-3]:1 LOW with the proposed limits", text)
+    assert "max" in tomllib.loads(text)["signal-wire-drop"]
+
+
+def unit_at_one_ambient(tmp_path: Path) -> Path:
+    """The shipped temperature circuit without its ``temperature_range``."""
+    text = (SEQUENCES / "units" / "temp-circuit.toml").read_text(encoding="utf-8")
+    stated = 'temperature_range = ["15 degC", "35 degC"]\n'
+    assert text.count(stated) == 1
+    fixture = json.dumps(str(SEQUENCES / "demo-fixture.toml"))
+    text = text.replace(stated, "").replace('"../demo-fixture.toml"', fixture)
+    path = tmp_path / "one-ambient.toml"
+    path.write_text(text, encoding="utf-8")
+    return path
+
+
+def test_a_unit_at_one_ambient_is_warned_of(tmp_path: Path) -> None:
+    """Copper gains about 0.39 %/K (IEC 60028) and an NTC's divider voltage moves with its
+    temperature: limits drawn at 23 degC alone reject good units in a room 5 degC away."""
+    path = unit_at_one_ambient(tmp_path)
+    unit = load_unit(path)
+    ranged, _ = shipped_plan("temp-circuit-check", "temp-circuit")
+    plan = build_plan(load_sequence(SEQUENCES / "temp-circuit-check.toml"), ranged.station)
+    study = study_limits(plan, unit, samples=5000, seed=2)
+    warning = study.warnings[0]
+    assert warning.startswith(f"{path} states no temperature_range under [ambient]")
+    assert "drawn at 23 degC" in warning and f"under [ambient] in {path}" in warning
+    assert "signal-at-controller" in warning and "5 degC cooler or warmer" in warning
+    # the claim holds: the nominal unit in a room 5 degC cooler is outside those limits
+    cooler = SequencePredictor(plan, replace(unit, ambient_c=18.0)).predict()
+    figure = fault_figures(plan, cooler)["signal-at-controller"][0]
+    proposal = next(p for p in study.proposals if p.step_id == "signal-at-controller")
+    assert proposal.limits.outside(np.array([figure]))[0]
+
+    with_range = study_limits(
+        ranged, load_unit(SEQUENCES / "units" / "temp-circuit.toml"), samples=5000, seed=2
+    )
+    assert not any("temperature_range" in w for w in with_range.warnings)

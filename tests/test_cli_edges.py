@@ -153,6 +153,7 @@ def test_the_demo_names_each_run_by_the_id_rig_report_takes(
     assert main([*harness, "--station", str(tmp_path / "station-harness.toml")]) == 0
     row = next(line for line in capsys.readouterr().out.splitlines() if line.startswith("harness "))
     assert " routes " in row and len(row) < 160
+    assert " none allowed " in row and "-inf" not in row  # as rig run words it
 
 
 def test_a_prompt_that_cannot_be_put_ends_the_run_aborted_and_recorded(

@@ -19,29 +19,13 @@ from collections.abc import Callable
 from pathlib import Path
 
 import pytest
+from doc_blocks import ROOT, complete_example, fenced, section
 
 from rig.cli import main
-from rig.config.fixture import load_fixture
-from rig.config.unit_file import load_unit
-from rig.errors import ConfigError
 
-ROOT = Path(__file__).resolve().parent.parent
 DATA = ROOT / "tests" / "data" / "doc-examples"
 
 Run = Callable[[pytest.CaptureFixture[str]], list[str]]
-
-
-def _loader(load: Callable[[str], object], name: str) -> Run:
-    """A run of a loader on ``bad/NAME.toml``: the pages' "Check it with" command."""
-
-    def run(capsys: pytest.CaptureFixture[str]) -> list[str]:
-        try:
-            load(f"bad/{name}.toml")
-        except ConfigError as exc:
-            return [str(problem) for problem in exc.problems]
-        return []
-
-    return run
 
 
 def _cli(*args: str) -> Run:
@@ -62,7 +46,7 @@ def _check(station: str, sequence: str = "bad/sequence.toml") -> Run:
 
 # What each page runs, in the order its examples show the output.
 PAGES: dict[str, list[Run]] = {
-    "fixture-file.md": [_loader(load_fixture, name) for name in ("f1", "f2")],
+    "fixture-file.md": [_cli("check", "--fixture", f"bad/{name}.toml") for name in ("f1", "f2")],
     "station-file.md": [
         _check("st1"),
         _check("st2"),
@@ -72,7 +56,7 @@ PAGES: dict[str, list[Run]] = {
         _cli("run", "bad/sequence.toml", "--station", "bad/st7.toml", "--serial", "D1", "--yes"),
     ],
     "unit-file.md": [
-        _loader(load_unit, name)
+        _cli("check", "--unit", f"bad/{name}.toml")
         for name in ("u1", "u2", "u3", "u7", "u6", "u8", "u9", "u4", "nofile")
     ],
     "sequence-file.md": [
@@ -86,17 +70,10 @@ PAGES: dict[str, list[Run]] = {
 }
 
 
-def example_lines(page: Path) -> list[str]:
+def example_lines(page: str) -> list[str]:
     """The lines of the output blocks (fences without a language) under "## Error messages"."""
-    section = page.read_text(encoding="utf-8").split("\n## Error messages\n", 1)[1]
-    lines: list[str] = []
-    fence: str | None = None  # the info string of the open fence, None outside one
-    for line in section.split("\n## ", 1)[0].splitlines():
-        if line.startswith("```"):
-            fence = line[3:] if fence is None else None
-        elif fence == "":
-            lines.append(line)
-    return lines
+    blocks = fenced(section(page, "## Error messages"), "")
+    return [line for block in blocks for line in block.splitlines()]
 
 
 @pytest.mark.parametrize("page", sorted(PAGES))
@@ -112,4 +89,17 @@ def test_page_shows_what_rig_prints(
     monkeypatch.chdir(tmp_path)
     printed = [line for run in PAGES[page] for line in run(capsys)]
     shown = [line.replace(f"{tmp_path.resolve()}/", "") for line in printed]
-    assert example_lines(ROOT / "docs" / page) == shown
+    assert example_lines(page) == shown
+
+
+@pytest.mark.parametrize(
+    ("page", "name"),
+    [
+        ("station-file.md", "station.toml"),
+        ("fixture-file.md", "fixture.toml"),
+        ("sequence-file.md", "sequence.toml"),
+    ],
+)
+def test_the_kept_examples_are_the_pages_own(page: str, name: str) -> None:
+    """``bad/station.toml`` and the rest are the complete examples the pages show, as they are."""
+    assert (DATA / name).read_text(encoding="utf-8") == complete_example(page)

@@ -20,8 +20,9 @@ Pure computation: the caller loads the files and hands in the plan and the unit.
 from __future__ import annotations
 
 import math
+import textwrap
 from collections.abc import Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from statistics import NormalDist
 
 import numpy as np
@@ -38,10 +39,11 @@ from rig.analysis.montecarlo import (
 )
 from rig.analysis.predict import SequencePredictor, StepPrediction
 from rig.config.unit_file import UnitModel
+from rig.engine import uncertainty_at_limit
 from rig.faults import Fault
-from rig.judge.decision import Verdict
+from rig.judge.decision import TUR_MINIMUM, Limits, Verdict, tur_is_low, tur_text
 from rig.models._common import ModelInputError
-from rig.plan import Plan
+from rig.plan import Plan, held_range
 from rig.quantity import parse_quantity
 from rig.steps import StepSpec
 
@@ -51,6 +53,10 @@ FAR = 10.0
 """The second point of the tail line lies at this many times the first one's probability."""
 DIGITS = 4
 """Significant digits of a proposed limit, rounded outward (never tighter than computed)."""
+
+ROOM_SHIFT_C = 5.0
+"""How far from the unit file's ambient a room is taken to be when the file states no range:
+a few degrees, as between a morning and an afternoon on a shop floor (our own choice)."""
 
 EMPIRICAL = "empirical"
 EXTRAPOLATED = "normal-plot tail extrapolation"
@@ -159,6 +165,10 @@ class Proposal:
     proposed_rejects: int
     samples: int
     no_reading: int
+    tur: float | None = None
+    """The test uncertainty ratio of the proposed limits as ``rig check`` would show it once
+    they are pasted (None where it shows none: limits around a prediction, a one-sided limit,
+    or a reading no listed range holds)."""
 
     @property
     def present_ppm(self) -> float:
@@ -326,6 +336,8 @@ def study_limits(
         for dist in result.steps
         if dist.spec.kind not in NOT_PROPOSED and (only is None or dist.spec.id in only)
     ]
+    for proposal in proposals:
+        proposal.tur = proposed_tur(plan, proposal)
     fault_list = list(single_faults(unit, plan) if faults is None else faults)
     study = LimitsStudy(result, false_reject_ppm, proposals, fault_list)
     figures = [fault_figures(plan, predictor.predict([f])) for f in fault_list]
@@ -334,8 +346,52 @@ def study_limits(
             check_fault(proposal, *found[proposal.step_id], fault)
             for fault, found in zip(fault_list, figures, strict=True)
         ]
-    study.warnings = _warnings(study)
+    study.warnings = _ambient_warnings(plan, unit, proposals) + _warnings(study)
     return study
+
+
+def proposed_tur(plan: Plan, proposal: Proposal) -> float | None:
+    """The TUR ``rig check`` would show for the step with the proposed limits pasted: U at the
+    upper limit on the range the planner would then hold (``uncertainty_at_limit``)."""
+    if proposal.form == "tolerance":  # around the prediction: not in the meter's unit
+        return None
+    spec = next(p.spec for p in plan.steps if p.spec.id == proposal.step_id)
+    pasted = replace(spec, limits=Limits(proposal.limits.low, proposal.limits.high))
+    earlier = {p.spec.id: p.spec for p in plan.steps}.get
+    found = uncertainty_at_limit(plan.station, pasted, held_range(pasted, earlier, plan.station))
+    return None if found is None else found[1]
+
+
+def _ambient_warnings(plan: Plan, unit: UnitModel, proposals: Sequence[Proposal]) -> list[str]:
+    """A unit file with no ``temperature_range`` draws every good unit at one ambient, so limits
+    on readings that follow the ambient (copper, an NTC, the reference probe) come out as tight
+    as one room temperature allows: say so, and which proposals a room ``ROOM_SHIFT_C`` away
+    would fail on a good unit."""
+    if unit.ambient_range_c is not None:
+        return []
+    at = unit.ambient_c
+    failing: dict[str, None] = {}
+    for temp_c in (at - ROOM_SHIFT_C, at + ROOM_SHIFT_C):
+        figures = fault_figures(
+            plan, SequencePredictor(plan, replace(unit, ambient_c=temp_c)).predict()
+        )
+        for proposal in proposals:
+            figure = np.array([figures[proposal.step_id][0]])
+            if proposal.limits.outside(figure)[0]:
+                failing[proposal.step_id] = None
+    shift = f"{ROOM_SHIFT_C:g} degC"
+    found = (
+        f"the proposed limits of {', '.join(failing)} fail a good unit in a room {shift} "
+        f"cooler or warmer"
+        if failing
+        else "limits on readings that follow the ambient hold only at that temperature"
+    )
+    return [
+        f"{unit.path} states no temperature_range under [ambient], so every good unit was drawn "
+        f'at {at:g} degC: {found}; add temperature_range = ["LOW degC", "HIGH degC"] '
+        f'(the ambient the floor may have, e.g. ["15 degC", "35 degC"]) under [ambient] '
+        f"in {unit.path}"
+    ]
 
 
 def _warnings(study: LimitsStudy) -> list[str]:
@@ -346,6 +402,13 @@ def _warnings(study: LimitsStudy) -> list[str]:
         for reading in study.result.no_meter_error
     ]
     for proposal in study.proposals:
+        if proposal.tur is not None and tur_is_low(proposal.tur):
+            found.append(
+                f"step {proposal.step_id}: TUR {tur_text(proposal.tur)} with the proposed "
+                f"limits (rig check marks a TUR under {TUR_MINIMUM:g}:1 LOW): the meter's "
+                "uncertainty is about as wide as the limits, so it decides verdicts near them; "
+                "widen them where the faults allow, or measure with a smaller uncertainty"
+            )
         if proposal.no_reading:
             found.append(
                 f"step {proposal.step_id}: {proposal.no_reading} good units gave no reading; "
@@ -387,8 +450,19 @@ def toml_text(study: LimitsStudy, sequence_name: str, unit_name: str) -> str:
         "# Paste each table's keys into the [[steps]] table with that id, in place of its limit",
         "# keys (low/high, nominal + tolerance, max; tolerance for ntc and ratiometric steps).",
     ]
+    if study.warnings:
+        lines.append("#")
+        lines.append("# Warnings:")
+        for warning in study.warnings:
+            lines.extend(
+                textwrap.wrap(warning, 100, initial_indent="# - ", subsequent_indent="#   ")
+            )
     for proposal in study.proposals:
         lines.append("")
         lines.append(f"[{proposal.step_id}]")
+        if proposal.tur is not None and tur_is_low(proposal.tur):
+            lines.append(
+                f"# TUR {tur_text(proposal.tur)} (under {TUR_MINIMUM:g}:1): see the warnings"
+            )
         lines.extend(f'{key} = "{text}"' for key, text in proposal.toml.items())
     return "\n".join(lines) + "\n"

@@ -96,4 +96,4 @@ def _quantity(text: str, unit: str, option: str) -> float:
     try:
         return parse_quantity(text, unit)
     except QuantityError as exc:
-        raise ConfigError([Problem(option, text, f"expected a value in {unit}: {exc}")]) from None
+        raise ConfigError([Problem(option, text, str(exc))]) from None

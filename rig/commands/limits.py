@@ -157,6 +157,7 @@ def _print(
     seconds: float,
 ) -> None:
     from rig.analysis.good_units import UNIFORM, UNIFORM_METER
+    from rig.judge.decision import tur_text
 
     r = study.result
     out.line(f"Monte Carlo limits for {sequence} on unit {unit.name} (station {station.name})")
@@ -183,6 +184,7 @@ def _print(
                 f"{p.present_ppm:.0f}",
                 _limits_text(p.limits, p.figure_unit, p.form),
                 f"{p.proposed_ppm:.0f}",
+                tur_text(p.tur),
                 f"{sum(c.present for c in checks)} -> {sum(c.proposed for c in checks)}",
                 p.method,
             ]
@@ -195,6 +197,7 @@ def _print(
             "ppm",
             "proposed",
             "ppm",
+            "TUR",
             "faults caught",
             "tail quantile",
         ],
@@ -202,7 +205,10 @@ def _print(
     )
     for step_id, reason in r.skipped.items():
         out.line(f"skipped {step_id}: {reason}")
-    out.line("(tolerance steps show their deviation from the step's prediction)")
+    out.line(
+        "(tolerance steps show their deviation from the step's prediction; TUR is what rig check "
+        "shows once the proposed limits are pasted)"
+    )
     out.line()
     out.line(f"Faults of the fault set ({len(study.faults)}) caught by the proposed limits:")
     for p in study.proposals:
@@ -254,6 +260,7 @@ def study_dict(study: LimitsStudy, seconds: float) -> dict[str, Any]:
                 "present_reject_ppm": p.present_ppm,
                 "proposed": limits(p.limits),
                 "proposed_reject_ppm": p.proposed_ppm,
+                "tur": finite(p.tur),
                 "toml": p.toml,
                 "caught_present": [c.fault.spec for c in study.checks[p.step_id] if c.present],
                 "caught_proposed": [c.fault.spec for c in study.checks[p.step_id] if c.proposed],

@@ -186,6 +186,14 @@ def tur_is_low(tur: float) -> bool:
     return tur < TUR_MINIMUM
 
 
+def tur_text(tur: float | None) -> str:
+    """A test uncertainty ratio as ``rig check`` and ``rig limits`` show it, marked ``LOW``
+    under the usual minimum (``-`` where there is none: a one-sided limit)."""
+    if tur is None:
+        return "-"
+    return f"{tur:.0f}:1" + (" LOW" if tur_is_low(tur) else "")
+
+
 def false_accept_risk_at_limit(w: float, u: float) -> float:
     """Specific false-accept risk for a value measured exactly at the acceptance limit.
 
