@@ -9,10 +9,9 @@ import math
 import signal
 import sys
 import threading
-from collections.abc import Callable
 from pathlib import Path
 from types import FrameType
-from typing import TYPE_CHECKING, TypeVar
+from typing import TYPE_CHECKING
 
 from rig import __version__
 from rig.cli_output import Output, serve_bench, show, show_limits
@@ -28,8 +27,6 @@ if TYPE_CHECKING:
     from rig.plan import Plan, PlannedStep
     from rig.steps import StepSpec
     from rig.store_sync import SyncReport
-
-T = TypeVar("T")
 
 EXIT_PASS, EXIT_FAIL, EXIT_BAD_INPUT, EXIT_ABORTED = 0, 1, 2, 3
 RELAYS_SHOWN_CHARS = 40
@@ -261,21 +258,10 @@ def _check_arguments(args: argparse.Namespace) -> str:
     return ""
 
 
-def _loaded(load: Callable[[Path], T], path: Path | None, problems: list[Problem]) -> T | None:
-    """``load(path)``, or None with its problems added to ``problems`` (None for no path): so
-    that every input is checked before anything is printed."""
-    if path is None:
-        return None
-    try:
-        return load(path)
-    except ConfigError as exc:
-        problems.extend(exc.problems)
-        return None
-
-
 def _check_alone(args: argparse.Namespace, out: Output) -> int:
     """Each of a station, unit and fixture file checked by itself (a station and a unit with
     the fixture each names): every problem of all of them, or one line each when valid."""
+    from rig.config import load_collecting
     from rig.config.fixture import FixtureMap, load_fixture
     from rig.config.station import load_station
     from rig.config.unit_file import load_unit
@@ -285,9 +271,9 @@ def _check_alone(args: argparse.Namespace, out: Output) -> int:
         return unit, load_fixture(unit.fixture_path)  # the fixture `rig sim --unit` loads
 
     problems: list[Problem] = []
-    station = _loaded(load_station, args.station, problems)
-    unit = _loaded(unit_and_fixture, args.unit, problems)
-    fixture = _loaded(load_fixture, args.fixture, problems)
+    station = load_collecting(load_station, args.station, problems)
+    unit = load_collecting(unit_and_fixture, args.unit, problems)
+    fixture = load_collecting(load_fixture, args.fixture, problems)
     if problems:
         raise ConfigError(problems)
     if station is not None:
@@ -306,29 +292,10 @@ def _check_alone(args: argparse.Namespace, out: Output) -> int:
     return 0
 
 
-def _planned(
-    sequence_path: Path, station_path: Path, unit_path: Path | None
-) -> tuple[Plan, UnitModel | None]:
-    """The sequence planned on the station, and the unit file: every problem of all three files
-    at once (then of the plan), before a command prints anything."""
-    from rig.config.sequence import load_sequence
-    from rig.config.station import load_station
-    from rig.config.unit_file import load_unit
-    from rig.plan import build_plan
-
-    problems: list[Problem] = []
-    station = _loaded(load_station, station_path, problems)
-    sequence = _loaded(load_sequence, sequence_path, problems)
-    unit = _loaded(load_unit, unit_path, problems)
-    if problems:
-        raise ConfigError(problems)
-    assert station is not None and sequence is not None
-    return build_plan(sequence, station), unit
-
-
 def cmd_check(args: argparse.Namespace, out: Output) -> int:
     from rig.analysis.settling import route_settling
     from rig.harness.wire_list import WireList
+    from rig.runner import load_inputs
 
     problem = _check_arguments(args)
     if problem:
@@ -336,7 +303,7 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
         return EXIT_BAD_INPUT
     if args.sequence is None:
         return _check_alone(args, out)
-    plan, unit = _planned(args.sequence, args.station, args.unit)
+    plan, unit = load_inputs(args.sequence, args.station, args.unit)
     station = plan.station
     settling = None if unit is None else route_settling(plan, unit)
     out.line(f"sequence {plan.sequence.name} ({args.sequence}) on station {station.name}: valid")
@@ -572,7 +539,7 @@ def _answer(question: str, *, to_stderr: bool) -> str:
 
 def cmd_run(args: argparse.Namespace, out: Output) -> int:
     from rig.engine import StopRequested
-    from rig.runner import run_plan
+    from rig.runner import load_inputs, run_plan
     from rig.stats.study import study_problem
 
     continuing = getattr(args, "resume", None) is not None  # its serial is the record's own
@@ -583,7 +550,7 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
         out.error(f"rig: {problem}")
         return EXIT_BAD_INPUT
     # a unit file that does not load is named now, not at diagnosis
-    plan, _ = _planned(args.sequence, args.station, getattr(args, "unit", None))
+    plan, _ = load_inputs(args.sequence, args.station, getattr(args, "unit", None))
     problem = operator_problem(plan.station, args.operator)
     if problem:
         out.error(f"rig: {problem}")

@@ -6,9 +6,12 @@ from collections.abc import Callable
 from pathlib import Path
 
 from rig.bench_open import check_calibration, close_bench, open_bench
+from rig.config import load_collecting
 from rig.config.sequence import load_sequence
 from rig.config.station import Station, load_station
+from rig.config.unit_file import UnitModel, load_unit
 from rig.engine import Engine, RunSummary
+from rig.errors import ConfigError, Problem
 from rig.events import Event
 from rig.plan import Plan, build_plan
 from rig.store import ResultStore
@@ -17,10 +20,27 @@ from rig.store_sync import SyncReport, send_waiting_runs
 
 def load_plan(sequence_path: Path | str, station: Station | Path | str) -> Plan:
     """Validate both files and plan the run; raises ``ConfigError`` listing every problem."""
-    if not isinstance(station, Station):
-        station = load_station(station)
-    sequence = load_sequence(sequence_path)
-    return build_plan(sequence, station)
+    return load_inputs(sequence_path, station)[0]
+
+
+def load_inputs(
+    sequence_path: Path | str, station: Station | Path | str, unit_path: Path | None = None
+) -> tuple[Plan, UnitModel | None]:
+    """The sequence planned on the station, and the unit file where one is given; raises
+    ``ConfigError`` listing every problem of all the files at once (then of the plan), so a
+    command can check all its input before it prints anything."""
+    problems: list[Problem] = []
+    loaded = (
+        station
+        if isinstance(station, Station)
+        else load_collecting(load_station, Path(station), problems)
+    )
+    sequence = load_collecting(load_sequence, Path(sequence_path), problems)
+    unit = load_collecting(load_unit, unit_path, problems)
+    if problems:
+        raise ConfigError(problems)
+    assert loaded is not None and sequence is not None
+    return build_plan(sequence, loaded), unit
 
 
 def run_plan(

@@ -167,3 +167,19 @@ def test_rig_run_reports_every_input_before_the_caution(
     assert captured.out == ""
     assert "bad-sequence.toml [steps]: no steps" in captured.err
     assert "bad-unit.toml:9 [wires.a.length]" in captured.err
+
+
+def test_coverage_reports_its_station_sequence_and_unit_together(
+    example: dict[str, Path], tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    station = tmp_path / "bad-station.toml"
+    text = example["station.toml"].read_text(encoding="utf-8")
+    station.write_text(text.replace('watchdog = "2 s"', 'watchdog = "2"'), encoding="utf-8")
+    sequence = tmp_path / "bad-sequence.toml"
+    sequence.write_text('[sequence]\nname = "x"\n', encoding="utf-8")
+    args = ["coverage", str(sequence), "--station", str(station)]
+    assert main([*args, "--unit", str(example["bad-unit.toml"])]) == 2
+    err = capsys.readouterr().err
+    assert "bad-station.toml:8 [station.watchdog]" in err
+    assert "bad-sequence.toml [steps]: no steps" in err
+    assert "bad-unit.toml:9 [wires.a.length]" in err

@@ -41,12 +41,11 @@ def cmd_coverage(args: argparse.Namespace, out: Output) -> int:
     from rig.analysis.coverage import fault_coverage
     from rig.analysis.fault_set import single_faults
     from rig.analysis.predict import check_static
-    from rig.config.unit_file import load_unit
     from rig.faults import parse_faults
-    from rig.runner import load_plan
+    from rig.runner import load_inputs
 
-    plan = load_plan(args.sequence, args.station)
-    unit = load_unit(args.unit)
+    plan, unit = load_inputs(args.sequence, args.station, args.unit)
+    assert unit is not None  # --unit is required
     if args.fault:
         faults = parse_faults(args.fault, unit, source="--fault")
         check_static(faults)
