@@ -12,6 +12,7 @@ from typing import Any, TextIO
 
 from rig.events import (
     CUT_SHORT,
+    NONE_ALLOWED,
     NOT_RUN,
     Event,
     PromptShown,
@@ -20,6 +21,7 @@ from rig.events import (
     RunStarted,
     StepFinished,
     StepResult,
+    allows_none,
     prompt_answer,
 )
 from rig.judge.decision import Limits
@@ -154,8 +156,8 @@ def show_limits(limits: Limits | None, unit: str) -> str:
     (a harness proof) reads ``none allowed``."""
     if limits is None:
         return "(none)"
-    if unit == "faults" and limits.high == 0 and not limits.low:
-        return "none allowed"
+    if allows_none(limits, unit):
+        return NONE_ALLOWED
     low = "-inf" if limits.low is None else show(limits.low, unit)
     high = "+inf" if limits.high is None else show(limits.high, unit)
     return f"{low} .. {high}"

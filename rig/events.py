@@ -19,6 +19,15 @@ cut short by the run's end (its raw readings so far are stored; no step result i
 view, not verdicts: nothing is stored for such a step."""
 
 
+NONE_ALLOWED = "none allowed"
+
+
+def allows_none(limits: Limits | None, unit: str) -> bool:
+    """A count of faults whose limit is none (a harness proof): read as ``NONE_ALLOWED`` in
+    every table, not as ``-inf .. 0``."""
+    return unit == "faults" and limits is not None and limits.high == 0 and not limits.low
+
+
 def prompt_answer(value: float) -> str:
     """An operator prompt's value (1 or 0) as the answer it records, for tables and records."""
     return "confirmed" if value >= 0.5 else "declined"

@@ -94,6 +94,15 @@ def test_reading_limits_and_uncertainty_share_one_prefix() -> None:
     assert quantity_cells(math.nan, "V", None, None).reading == "no reading"
 
 
+def test_a_harness_proof_allows_no_fault_in_words_as_rig_check_and_rig_run_say() -> None:
+    from rig.cli_output import show_limits
+
+    none = Limits(None, 0.0)
+    assert quantity_cells(2.0, "faults", none, None).limits == show_limits(none, "faults")
+    assert show_limits(none, "faults") == "none allowed"
+    assert quantity_cells(0.02, "V", Limits(None, 0.0), None).limits != "none allowed"
+
+
 def test_pins_read_high_side_to_low_side() -> None:
     assert pins_text({"hi": "T1", "lo": "T2"}) == "T1-T2"
     four = {"force_hi": "A", "sense_hi": "B", "force_lo": "C", "sense_lo": "D"}

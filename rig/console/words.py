@@ -11,7 +11,7 @@ import math
 from collections.abc import Iterable
 from dataclasses import dataclass
 
-from rig.events import StepResult
+from rig.events import NONE_ALLOWED, StepResult, allows_none
 from rig.judge.decision import Limits, Verdict
 
 VERDICT_WORDS = {
@@ -131,6 +131,8 @@ def quantity_cells(
     factor, symbol = _scale(max(sizes) if sizes else math.nan, unit)
     if limits is None:
         limit_text = "-"
+    elif allows_none(limits, unit):
+        limit_text = NONE_ALLOWED
     else:
         low = "-inf" if limits.low is None else _number(limits.low, factor)
         high = "+inf" if limits.high is None else _number(limits.high, factor)
