@@ -115,10 +115,21 @@ def test_the_continue_command_explains_a_refusal(bench_files: tuple[Path, Path])
         (999, "no run 999"),
         (dead, "changed since run"),
     ):
-        err = io.StringIO()
-        with contextlib.redirect_stderr(err), contextlib.redirect_stdout(io.StringIO()):
+        err, out = io.StringIO(), io.StringIO()
+        with contextlib.redirect_stderr(err), contextlib.redirect_stdout(out):
             code = main(["continue", str(run_id), "--station", str(station)])
         assert code == 2 and words in err.getvalue() and "Traceback" not in err.getvalue()
+        assert "Caution" not in out.getvalue()  # refused from the record: no bench opened
+    # another station's file (a copy under another name): refused from the record as well
+    other = station.with_name("other-station.toml")
+    text = station.read_text(encoding="utf-8")
+    other.write_text(text.replace('name = "virtual-bench"', 'name = "bench-b"'), "utf-8")
+    assert other.read_text(encoding="utf-8") != text
+    err, out = io.StringIO(), io.StringIO()
+    with contextlib.redirect_stderr(err), contextlib.redirect_stdout(out):
+        code = main(["continue", str(dead), "--station", str(other)])
+    assert code == 2 and "ran on station 'virtual-bench'" in err.getvalue()
+    assert "Caution" not in out.getvalue()
 
 
 def test_a_continued_run_keeps_the_steps_it_planned(bench_files: tuple[Path, Path]) -> None:

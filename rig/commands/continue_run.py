@@ -8,9 +8,12 @@ from __future__ import annotations
 
 import argparse
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from rig.cli_output import Output
+
+if TYPE_CHECKING:
+    from rig.config.station import Station
 
 
 def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
@@ -54,7 +57,7 @@ def cmd_continue(args: argparse.Namespace, out: Output) -> int:
         return EXIT_BAD_INPUT
     finally:
         store.close()
-    problem = _refusal(args, run, station.store_path)
+    problem = _refusal(args, run, station.store_path) or _mismatch(args.run_id, run, station)
     if problem:
         out.error(f"rig: {problem}")
         return EXIT_BAD_INPUT
@@ -79,6 +82,26 @@ def cmd_continue(args: argparse.Namespace, out: Output) -> int:
     except ResumeRefused as exc:  # found once the run's own record is read: a changed sequence
         out.error(f"rig: {exc}")
         return EXIT_BAD_INPUT
+
+
+def _mismatch(run_id: int, run: dict[str, Any], station: Station) -> str:
+    """Why this station or the sequence file as it is now cannot carry the run on (empty: they
+    can), found from the record before the bench is opened; the engine checks again."""
+    from rig.config.sequence import load_sequence
+    from rig.resume import same_sequence
+
+    if run["station"] != station.name:
+        return (
+            f"run {run_id} ran on station {run['station']!r}; {station.path} is station "
+            f"{station.name!r}: continue it with its own station file"
+        )
+    path = Path(str(run["sequence_path"]))
+    if path.is_file() and not same_sequence(run, load_sequence(path)):
+        return (
+            f"the sequence {path} changed since run {run_id} began (its content hash differs); "
+            "start a new run instead"
+        )
+    return ""
 
 
 def _refusal(args: argparse.Namespace, run: dict[str, Any], store: Path) -> str:
