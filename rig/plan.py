@@ -242,6 +242,8 @@ def build_plan(sequence: Sequence, station: Station) -> Plan:
             problems.append(sequence.problem(f"{spec.key}.range", unlisted))
         for key, message in _over_supply_caps(spec, station):
             problems.append(sequence.problem(f"{spec.key}.supply.{key}", message))
+        for key, message in kind.fixture_problems(spec, fixture):
+            problems.append(sequence.problem(f"{spec.key}.{key}", message))
         try:
             with np.errstate(over="ignore", invalid="ignore"):  # what overflows is refused
                 held = held_range(spec, by_id.get, station)

@@ -206,6 +206,25 @@ def test_capture_refuses_connectors_the_fixture_lacks_and_fails_when_nothing_is_
     assert len(load_wire_list(captured, fixture).nets) == 4
 
 
+def test_a_sequence_s_capture_connectors_are_checked_when_the_plan_is_built(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # In a sequence file, a connector the fixture lacks is refused by rig check (and so before
+    # rig run opens anything), at its line and key; it used to stop the run once started.
+    wires, fixture = write_invented(tmp_path / "list", 4, seed=3, splices=0, spare=0)
+    sequence = tmp_path / "capture.toml"
+    sequence.write_text(
+        '[sequence]\nname = "capture-two"\n\n[[steps]]\nid = "golden"\nkind = "harness-proof"\n'
+        'capture_to = "golden.csv"\ntemperature = "20 degC"\ncapture_connectors = ["A", "J9"]\n',
+        encoding="utf-8",
+    )
+    with served(harness_bench(wires, fixture, seed=3), tmp_path / "a") as st:
+        assert main(["check", str(sequence), "--station", str(st)]) == EXIT_BAD_INPUT
+    err = capsys.readouterr().err
+    assert f"{sequence}:9 [steps[0].capture_connectors]" in err, err
+    assert "no connector 'J9'" in err and "Traceback" not in err
+
+
 def test_a_wire_list_with_columns_rig_does_not_read_is_proved_and_says_so(
     tmp_path: Path, capsys: pytest.CaptureFixture[str]
 ) -> None:

@@ -20,6 +20,7 @@ from rig.judge.decision import DecisionRule, Limits
 from rig.routing import Route
 
 if TYPE_CHECKING:
+    from rig.config.fixture import FixtureMap
     from rig.steps.context import StepContext
 
 
@@ -147,6 +148,12 @@ class StepKind(ABC):
     def references(self, spec: StepSpec) -> tuple[str, ...]:
         """Ids of earlier steps this one reads (checked at load time)."""
         return spec.depends_on
+
+    def fixture_problems(self, spec: StepSpec, fixture: FixtureMap) -> list[tuple[str, str]]:
+        """What the step asks of the station's fixture beyond its pins and routes that the
+        fixture cannot give, as (key under the step, message): found when the plan is built,
+        before anything moves.  Here: nothing."""
+        return []
 
     def autoranged_readings(self, spec: StepSpec, held: float | None) -> int:
         """How many of the step's readings pay for autorange (the meter pays it on a change of

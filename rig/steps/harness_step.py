@@ -12,6 +12,7 @@ import math
 from pathlib import Path
 
 from drivers.base import MeterFunction
+from rig.config.fixture import FixtureMap
 from rig.config.reader import Section
 from rig.errors import ConfigError
 from rig.harness.capture import capture_harness, capture_pins, connector_problems
@@ -137,6 +138,14 @@ class HarnessProof(StepKind):
     function = MeterFunction.RES_4W
     limits_in_meter_units = False
     overload_is_a_result = True
+
+    def fixture_problems(self, spec: StepSpec, fixture: FixtureMap) -> list[tuple[str, str]]:
+        """A capture's connectors must be ones the fixture can scan: a misspelt or foreign one
+        is refused when the plan is built, not once the operator has started the run."""
+        connectors = spec.params.get("capture_connectors") or []
+        return [
+            ("capture_connectors", p.message) for p in connector_problems(fixture, connectors, "")
+        ]
 
     def parse(self, sec: Section, spec: StepSpec) -> None:
         read_harness_keys(sec, spec, sec.doc.path.parent)
