@@ -447,10 +447,7 @@ class Engine:
             ("relay_box", self.bench.relays),
         ):
             config = self.plan.station.instruments[role]
-            try:
-                ident = str(inst.identity())
-            except RigError as exc:
-                ident = f"unknown ({exc})"
+            ident = self._identity(role, inst)
             due = config.calibration_due.isoformat() if config.calibration_due else ""
             found.append(
                 {
@@ -461,6 +458,23 @@ class Engine:
                 }
             )
         return found
+
+    def _identity(self, role: str, inst: Dmm | Supply | RelayBox) -> str:
+        """The instrument's identity for the run's record, asked again once after a transient
+        fault (a garbled or lost reply, as any query is); where it still cannot be read the
+        record says so and the run warns: a record that does not name its instrument cannot
+        back a decision."""
+        try:
+            return str(inst.identity())
+        except RigError as first:
+            log.warning("%s: identity not read, asking once more: %s", role, first)
+        try:
+            return str(inst.identity())
+        except RigError as exc:
+            self._warn(
+                f"the {role}'s identity could not be read ({exc}); the record does not name it"
+            )
+            return f"unknown ({exc})"
 
     def _relay_counts(self) -> dict[int, int]:
         try:

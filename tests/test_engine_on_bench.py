@@ -269,3 +269,28 @@ def test_a_meter_silent_for_its_setup_while_relays_move_leaves_the_box_fed(
     assert any("cured by one retry" in n for n in summary.notes), summary.notes
     assert any("cured by one retry" in w for w in summary.warnings), summary.warnings
     assert not any("watchdog" in n for n in summary.notes), summary.notes
+
+
+@pytest.mark.parametrize("fault", ["garble", "drop"])
+def test_a_transient_fault_on_the_identity_query_is_asked_again(tmp_path: Path, fault: str) -> None:
+    # The meter's *IDN? reply garbled or its connection dropped once: asked again, as any query
+    # is, and the record names the meter (IEEE 488.2 *IDN?: maker, model, serial, firmware).
+    with shipped_bench("ntc-sender", folder=tmp_path) as (bench, station):
+        bench.dmm.inject_fault(fault, 1)
+        summary = run_plan(shipped_plan("ntc-sender-screen", station), "IDN-1", ask=lambda t: True)
+        store = ResultStore(station.store_path)
+        try:
+            instruments = store.run(summary.run_id)["instruments"]
+        finally:
+            store.close()
+    assert summary.status == "complete", summary.reason
+    assert "unknown" not in str(instruments) and "virtual-dmm" in str(instruments)
+    assert not summary.warnings
+
+
+def test_an_identity_that_cannot_be_read_is_a_warning_not_a_silent_gap(tmp_path: Path) -> None:
+    with shipped_bench("ntc-sender", folder=tmp_path) as (bench, station):
+        bench.dmm.inject_fault("garble", 2)  # the first ask and the second
+        summary = run_plan(shipped_plan("ntc-sender-screen", station), "IDN-2", ask=lambda t: True)
+    assert summary.status == "complete", summary.reason
+    assert any("dmm's identity could not be read" in w for w in summary.warnings), summary
