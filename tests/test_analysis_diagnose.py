@@ -258,3 +258,22 @@ def test_the_next_check_says_which_faults_it_tells_apart(
             assert said.startswith("to tell entry 1 from entry 2, measure DC volts")
             second = found["hypotheses"][1]["spec"]
             assert f"if {first['spec']}," in said and said.endswith(f"if {second}")
+
+
+def test_an_overload_where_no_overload_level_is_known_costs_the_mismatch_without_a_warning() -> (
+    None
+):
+    # A reading with no meter range behind it (its overload level unknown, infinite) read over
+    # while a hypothesis predicts a finite value: the misfit is the stated mismatch, not NaN
+    # (which numpy warned about on the terminal and which rejected the hypothesis outright).
+    import math
+    import warnings
+
+    import numpy as np
+
+    from rig.analysis.diagnose import MISMATCH_CHI2, _chi2
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        chi2 = _chi2(np.array([math.inf]), np.array([1.0]), [math.inf], np.array([[2.0]]))
+    assert chi2.tolist() == [MISMATCH_CHI2]

@@ -441,7 +441,9 @@ def _chi2(
     finite = np.where(meas_over, 0.0, values[None, :])
     z2 = ((finite - predicted) / u) ** 2
     to_limit_meas = ((limit - np.abs(finite)) / u) ** 2
-    to_limit_pred = ((limit - np.abs(predicted)) / (U_FALLBACK_REL * limit)) ** 2
+    with np.errstate(divide="ignore", invalid="ignore"):  # a level of 0 or none known
+        to_limit_pred = ((limit - np.abs(predicted)) / (U_FALLBACK_REL * limit)) ** 2
+    to_limit_pred = np.where(np.isfinite(to_limit_pred), to_limit_pred, MISMATCH_CHI2)
     z2 = np.where(pred_over & ~meas_over, np.maximum(MISMATCH_CHI2, to_limit_meas), z2)
     z2 = np.where(meas_over & ~pred_over, np.maximum(MISMATCH_CHI2, to_limit_pred), z2)
     z2 = np.where(meas_over & pred_over, 0.0, z2)
