@@ -87,6 +87,8 @@ def run_record(
         run["planned_steps"] = list(planned)
     for step in steps:
         step["extras"] = json.loads(step["extras"])
+        if step["value"] is None:  # the store keeps no number for an overload or a NaN
+            step["value_text"] = no_number_text(step["step_id"], readings)
     record: dict[str, Any] = {
         "run": run,
         "steps": steps,
@@ -131,11 +133,18 @@ def diagnosis_text(diagnosis: Mapping[str, Any] | None) -> str:
     if not diagnosis.get("hypotheses"):
         return str(diagnosis.get("message", ""))
     text = "; ".join(
-        f"{h['spec']} {100 * float(h['probability']):.0f} %" for h in diagnosis["hypotheses"]
+        f"{h['spec']}{_alike(h)} {100 * float(h['probability']):.0f} %"
+        for h in diagnosis["hypotheses"]
     )
     if diagnosis.get("next_check"):
         text += f"; next check: {diagnosis['next_check']}"
     return text
+
+
+def _alike(hypothesis: Mapping[str, Any]) -> str:
+    """The faults the sequence cannot tell from this one (they share its probability)."""
+    same = hypothesis.get("same_as") or []
+    return f" (or {', '.join(same)})" if same else ""
 
 
 def record_csv(record: Mapping[str, Any]) -> str:
@@ -167,7 +176,12 @@ def record_csv(record: Mapping[str, Any]) -> str:
     for r in record["readings"]:
         readings.setdefault(r["step_id"], []).append(_reading_text(r))
     rows = [
-        {**header, **step, "readings": " ".join(readings.get(step["step_id"], []))}
+        {
+            **header,
+            **step,
+            "value": step.get("value_text", step["value"]),  # a word where there is no number
+            "readings": " ".join(readings.get(step["step_id"], [])),
+        }
         for step in record["steps"]
     ]
     rows += [
@@ -182,6 +196,15 @@ def record_csv(record: Mapping[str, Any]) -> str:
     ]
     columns = (*RUN_COLUMNS, *STEP_COLUMNS, NOT_MEASURED_COLUMN, "readings")
     return _safe_rows(rows or [header], columns)
+
+
+def no_number_text(step_id: str, readings: Iterable[Mapping[str, Any]]) -> str:
+    """Why a step has no value, in the words a reading gives: ``overload`` where one of its
+    settled readings read over (an open circuit on a resistance range), else ``no reading``."""
+    over = any(
+        r["step_id"] == step_id and r.get("settled") and r.get("overload") == 1 for r in readings
+    )
+    return "overload" if over else "no reading"
 
 
 def _reading_text(reading: Mapping[str, Any]) -> str:

@@ -89,7 +89,7 @@ def _steps(steps: list[Mapping[str, Any]]) -> str:
             s["position"],
             s["step_id"],
             s["title"],
-            prompt_answer(s["value"]) if _answered(s) else num(s["value"]),
+            prompt_answer(s["value"]) if _answered(s) else s.get("value_text") or num(s["value"]),
             s["unit"],
             "" if _answered(s) else num(s["low"]),
             num(s["high"]),

@@ -230,3 +230,44 @@ def test_a_net_with_no_reading_is_listed_over_its_limit() -> None:
     rows = html.split("<tr")[2:]
     assert len(rows) == 2
     assert ">within<" in rows[0] and "no reading" in rows[1] and ">OVER<" in rows[1]
+
+
+def test_an_open_sender_reads_overload_in_every_format_not_a_blank(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # A broken lead: the resistance range reads over (SCPI-1999: 9.9E37 is no number) and the
+    # store keeps no number for it; the report must say overload where the value goes, as the
+    # terminal does, not leave the most common confirmed failure's value blank.
+    with shipped_bench("ntc-sender", ("open:lead_b",), folder=tmp_path) as (_, station):
+        summary = run_plan(shipped_plan("ntc-sender-screen", station), "OPEN-1", ask=lambda t: True)
+    run_id = summary.run_id
+    assert summary.verdict.value == "fail"
+    step = next(r for r in summary.results if r.kind == "ntc")
+    args = ("--station", str(station.path))
+    rows = list(csv.DictReader(io.StringIO(printed(capsys, run_id, *args, "--format", "csv"))))
+    assert next(r for r in rows if r["step_id"] == step.step_id)["value"] == "overload"
+    data = json.loads(printed(capsys, run_id, *args, "--format", "json"))
+    in_json = next(s for s in data["steps"] if s["step_id"] == step.step_id)
+    assert in_json["value"] is None and in_json["value_text"] == "overload"
+    html = printed(capsys, run_id, *args, "--format", "html")
+    row = html[html.index(f"<td>{step.step_id}</td>") :]
+    assert "overload" in row[: row.index("</tr>")]
+
+
+def test_the_csv_diagnosis_names_the_faults_the_sequence_cannot_tell_apart() -> None:
+    # as the terminal and the HTML do: a spreadsheet reader must not take the first for proved
+    from reports.run_export import diagnosis_text
+
+    text = diagnosis_text(
+        {
+            "hypotheses": [
+                {
+                    "spec": "drift:sender=+8%",
+                    "probability": 0.9,
+                    "same_as": ["series:lead_a=288ohm"],
+                },
+                {"spec": "none", "probability": 0.1, "same_as": []},
+            ]
+        }
+    )
+    assert text == "drift:sender=+8% (or series:lead_a=288ohm) 90 %; none 10 %"
