@@ -80,6 +80,17 @@ def _unit_and_plan(unit_file: Path, sequence_path: str, station: Station) -> tup
     return _LOADED[key]
 
 
+def not_diagnosed(run: Mapping[str, Any]) -> str:
+    """Why a run that did not end complete gets no diagnosis (empty for one that did): its
+    faults would be guessed from the steps it never measured."""
+    status = str(run.get("status") or "")
+    if status in ("aborted", "incomplete"):
+        return f"no diagnosis is made of an {status} run: it ended before every step was measured"
+    if status == "running":
+        return "no diagnosis yet: the run has not ended"
+    return ""
+
+
 def diagnose_stored_run(
     store: ResultStore,
     run: Mapping[str, Any],
@@ -88,13 +99,9 @@ def diagnose_stored_run(
     unit_path: Path | None = None,
 ) -> dict[str, Any]:
     """The diagnosis of one stored run as plain data, or the reason there is none."""
-    status = str(run.get("status") or "")
-    if status in ("aborted", "incomplete"):  # its faults would be guessed from missing steps
-        return unavailable(
-            f"no diagnosis is made of an {status} run: it ended before every step was measured"
-        )
-    if status == "running":
-        return unavailable("no diagnosis yet: the run has not ended")
+    unfinished = not_diagnosed(run)
+    if unfinished:
+        return unavailable(unfinished)
     if run.get("verdict") not in FAILED_VERDICTS:
         return unavailable("the run did not fail: no diagnosis needed")
     try:

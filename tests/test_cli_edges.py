@@ -39,6 +39,10 @@ def test_a_prompt_with_no_one_to_answer_ends_the_run_aborted_and_recorded(
     with sqlite3.connect(station.store_path) as db:
         status, reason = db.execute("SELECT status, reason FROM runs").fetchone()
     assert status == "aborted" and "got no answer" in reason
+    # its diagnosis says what its report says, not that it found nothing to diagnose
+    assert main(["diagnose", "1", "--station", str(station.path)]) == 0
+    said = capsys.readouterr().out
+    assert "no diagnosis is made of an aborted run" in said, said
 
 
 @pytest.mark.parametrize("serial", ["", "   "])

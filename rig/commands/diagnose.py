@@ -59,7 +59,7 @@ def recorded_sequence(run_id: int, recorded: str) -> Path:
 
 
 def cmd_diagnose(args: argparse.Namespace, out: Output) -> int:
-    from reports.diagnosis import find_unit_file
+    from reports.diagnosis import find_unit_file, not_diagnosed
     from rig.analysis.diagnose import diagnose_run
     from rig.config.station import load_station
     from rig.config.unit_file import load_unit
@@ -75,6 +75,13 @@ def cmd_diagnose(args: argparse.Namespace, out: Output) -> int:
         except StoreError as exc:
             out.error(f"rig: RUN_ID {args.run_id}: {exc}")
             return EXIT_BAD_INPUT
+        unfinished = not_diagnosed(run)
+        if unfinished:  # the same words as the run's report
+            if args.json:
+                out.json({"run_id": args.run_id, "hypotheses": [], "message": unfinished})
+            else:
+                out.line(f"run {args.run_id} (serial {run['serial']}): {unfinished}")
+            return 0
         sequence = args.sequence or recorded_sequence(args.run_id, str(run["sequence_path"]))
         unit_path = find_unit_file(run, args.unit)
         if unit_path is None:
