@@ -14,6 +14,7 @@ from collections.abc import Iterable, Mapping
 from typing import Any
 
 from rig.config.station import Station
+from rig.events import prompt_answer
 from rig.planned_steps import recorded_steps, unmeasured_steps
 from rig.store import ResultStore
 
@@ -141,6 +142,17 @@ def diagnosis_text(diagnosis: Mapping[str, Any] | None) -> str:
     return text
 
 
+_MEASUREMENT_CELLS = ("low", "high", "predicted", "u_std", "expanded_u", "coverage_k", "tur")
+
+
+def _answer_cells(step: Mapping[str, Any]) -> dict[str, Any]:
+    """An operator prompt's row: its answer in words, and no limits, uncertainty or rule, so
+    that a spreadsheet's columns of measurements hold measurements only."""
+    value = step["value"]
+    answer = prompt_answer(value) if value is not None else step.get("value_text", "")
+    return {"value": answer, "decision_rule": "", **dict.fromkeys(_MEASUREMENT_CELLS, "")}
+
+
 def _alike(hypothesis: Mapping[str, Any]) -> str:
     """The faults the sequence cannot tell from this one (they share its probability)."""
     same = hypothesis.get("same_as") or []
@@ -180,6 +192,7 @@ def record_csv(record: Mapping[str, Any]) -> str:
             **header,
             **step,
             "value": step.get("value_text", step["value"]),  # a word where there is no number
+            **(_answer_cells(step) if step.get("kind") == "prompt" else {}),
             "readings": " ".join(readings.get(step["step_id"], [])),
         }
         for step in record["steps"]

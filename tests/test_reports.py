@@ -271,3 +271,18 @@ def test_the_csv_diagnosis_names_the_faults_the_sequence_cannot_tell_apart() -> 
         }
     )
     assert text == "drift:sender=+8% (or series:lead_a=288ohm) 90 %; none 10 %"
+
+
+def test_a_prompt_s_csv_row_holds_its_answer_and_no_measurement_columns(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    with shipped_bench("ntc-sender", folder=tmp_path) as (_, station):
+        summary = run_plan(shipped_plan("ntc-sender-screen", station), "ASK-1", ask=lambda t: True)
+    args = ("--station", str(station.path), "--format", "csv")
+    rows = list(csv.DictReader(io.StringIO(printed(capsys, summary.run_id, *args))))
+    prompt = next(r for r in rows if r["kind"] == "prompt")
+    assert prompt["value"] == "confirmed" and prompt["verdict"] == "pass"
+    assert all(prompt[c] == "" for c in ("low", "high", "u_std", "expanded_u", "coverage_k"))
+    assert prompt["decision_rule"] == ""
+    measured = next(r for r in rows if r["kind"] == "ntc")
+    assert measured["coverage_k"] and measured["decision_rule"]  # measurements keep theirs
