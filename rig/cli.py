@@ -102,6 +102,11 @@ def _parser() -> argparse.ArgumentParser:
     check.add_argument(
         "--fixture", type=Path, help="a fixture file to check alone (without a sequence)"
     )
+    check.add_argument(
+        "--wire-list",
+        type=Path,
+        help="a wire list (CSV) to check alone, joined to the fixture given with --fixture",
+    )
     check.set_defaults(func=cmd_check)
 
     run = sub.add_parser("run", help="run a sequence on a station")
@@ -241,11 +246,21 @@ def cmd_demo(args: argparse.Namespace, out: Output) -> int:
 
 def _check_arguments(args: argparse.Namespace) -> str:
     """Why the files given to ``rig check`` do not make a check, or empty when they do."""
+    if args.sequence is not None and args.sequence.suffix.lower() == ".csv":
+        return (
+            f"rig check: {args.sequence} is a wire list, not a sequence: check it with "
+            f"--wire-list {args.sequence} --fixture FIXTURE"
+        )
+    if args.wire_list is not None and (args.sequence is not None or args.fixture is None):
+        return (
+            "rig check: --wire-list is checked alone, joined to its fixture: give --fixture "
+            "FIXTURE and no sequence"
+        )
     if args.sequence is None:
         if args.station is None and args.unit is None and args.fixture is None:
             return (
                 "rig check: give a sequence and --station STATION, or a file to check alone: "
-                "--station, --unit or --fixture"
+                "--station, --unit, --fixture or --wire-list with --fixture"
             )
         return ""
     if args.station is None:
@@ -265,6 +280,7 @@ def _check_alone(args: argparse.Namespace, out: Output) -> int:
     from rig.config.fixture import FixtureMap, load_fixture
     from rig.config.station import load_station
     from rig.config.unit_file import load_unit
+    from rig.harness.wire_list import load_wire_list
 
     def unit_and_fixture(path: Path) -> tuple[UnitModel, FixtureMap]:
         unit = load_unit(path)
@@ -274,6 +290,11 @@ def _check_alone(args: argparse.Namespace, out: Output) -> int:
     station = load_collecting(load_station, args.station, problems)
     unit = load_collecting(unit_and_fixture, args.unit, problems)
     fixture = load_collecting(load_fixture, args.fixture, problems)
+    wires = None
+    if args.wire_list is not None and fixture is not None:  # joined to a fixture that loads
+        wires = load_collecting(
+            lambda path: load_wire_list(path, fixture), args.wire_list, problems
+        )
     if problems:
         raise ConfigError(problems)
     if station is not None:
@@ -289,6 +310,13 @@ def _check_alone(args: argparse.Namespace, out: Output) -> int:
             f"fixture {fixture.name} ({args.fixture}): valid, {len(fixture.pins)} pins on "
             f"{fixture.relay_count} relays"
         )
+    if wires is not None:
+        out.line(
+            f"wire list {args.wire_list}: valid, {len(wires.rows)} rows in {len(wires.nets)} nets, "
+            f"every fixture end on fixture {args.fixture.name}"
+        )
+        if wires.ignored:
+            out.line(wires.ignored_note())
     return 0
 
 

@@ -345,3 +345,22 @@ def test_with_json_a_prompt_is_asked_on_stderr_and_stdout_stays_one_document(
     summary = json.loads(captured.out)
     assert code == 0 and summary["status"] == "complete"
     assert "[y/N]" in captured.err and "[y/N]" not in captured.out
+
+
+def test_a_wire_list_is_checked_alone_against_its_fixture(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # a harness shop checks the list it was given before any bench is set up; a list given
+    # where a sequence goes is named for what it is
+    harness = SEQUENCES / "harness"
+    wires, fixture = harness / "wire-list.csv", harness / "fixture.toml"
+    assert main(["check", "--wire-list", str(wires), "--fixture", str(fixture)]) == 0
+    assert "valid, 12 rows in 10 nets" in capsys.readouterr().out
+    assert main(["check", str(wires), "--station", str(fixture)]) == EXIT_BAD_INPUT
+    assert "is a wire list, not a sequence" in capsys.readouterr().err
+    bad = tmp_path / "bad.csv"
+    lines = wires.read_text(encoding="utf-8").splitlines()
+    bad.write_text("\n".join(line.replace("J1", "J9") for line in lines) + "\n", encoding="utf-8")
+    assert main(["check", "--wire-list", str(bad), "--fixture", str(fixture)]) == EXIT_BAD_INPUT
+    err = capsys.readouterr().err
+    assert f"{bad}:" in err and "Traceback" not in err
