@@ -7,6 +7,7 @@ import math
 from drivers.base import MeterFunction
 from rig.config.reader import Section
 from rig.judge.propagate import u_difference
+from rig.quantity import format_quantity
 from rig.routing import Route
 from rig.steps.base import Outcome, StepKind, StepSpec
 from rig.steps.context import StepContext
@@ -113,8 +114,29 @@ class WireDrop(StepKind):
             direct.u_std,
             spec.limits,
             [direct, at_from, at_to],
+            note=drop_disagreement(direct.value, direct.u_std, computed, u_computed),
             extras={"computed_drop_v": computed, "computed_drop_u_v": u_computed},
         )
+
+
+def drop_disagreement(direct: float, u_direct: float, computed: float, u_computed: float) -> str:
+    """A note where the direct drop and the one computed from the reference differ by more than
+    their expanded uncertainty (k = 2, GUM 6.2): one of the routes has a bad contact, or the
+    reference pin carries current; the step is still judged on the direct reading."""
+    values = (direct, u_direct, computed, u_computed)
+    if not all(math.isfinite(v) for v in values):
+        return ""
+    expanded = 2.0 * math.hypot(u_direct, u_computed)
+    if abs(direct - computed) <= expanded:
+        return ""
+    shown = ", ".join(
+        f"{name} {format_quantity(v, 'V')}"
+        for name, v in (("direct", direct), ("computed", computed), ("U", expanded))
+    )
+    return (
+        f"direct and computed drops disagree ({shown}): a contact on one route, or current in "
+        "the reference pin"
+    )
 
 
 class Resistance(StepKind):
