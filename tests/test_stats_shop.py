@@ -279,23 +279,28 @@ def test_fault_kind_pareto_names_the_faults_the_bench_injected(
     assert found == dict(injected)
 
 
+def _screen_senders_at(ambients: tuple[float, ...], folder: Path, store: ResultStore) -> None:
+    """A good NTC sender screened once at each bench temperature, as units ``T-0``, ``T-1``..."""
+    unit = load_unit(SEQUENCES / "units" / "ntc-sender.toml")
+    for n, ambient in enumerate(ambients):
+        bench_unit = dataclasses.replace(unit, ambient_c=ambient)
+        with VirtualBench(bench_unit, load_fixture(unit.fixture_path)) as bench:
+            station = load_station(bench.write_station(folder / f"s{n}" / "station.toml"))
+            run_plan(
+                shipped_plan("ntc-sender-screen", station),
+                f"T-{n}",
+                ask=lambda t: True,
+                store=store,
+            )
+
+
 def test_an_ntc_step_at_several_temperatures_is_one_capability_row(tmp_path: Path) -> None:
     # An NTC's limits follow its curve at the measured temperature (Beta model, SOURCES.md), so
     # every bench temperature gives other limits; its capability is that of the deviation from
     # the curve, against the 5 % tolerance that does not move (docs/reports-and-stats.md).
-    unit = load_unit(SEQUENCES / "units" / "ntc-sender.toml")
     store = ResultStore(tmp_path / "runs.sqlite")
     try:
-        for n, ambient in enumerate((18.0, 23.0, 28.0)):
-            bench_unit = dataclasses.replace(unit, ambient_c=ambient)
-            with VirtualBench(bench_unit, load_fixture(unit.fixture_path)) as bench:
-                station = load_station(bench.write_station(tmp_path / f"s{n}" / "station.toml"))
-                run_plan(
-                    shipped_plan("ntc-sender-screen", station),
-                    f"T-{n}",
-                    ask=lambda t: True,
-                    store=store,
-                )
+        _screen_senders_at((18.0, 23.0, 28.0), tmp_path, store)
         limits = {
             (s["low"], s["high"])
             for r in store.runs(limit=10)
@@ -350,3 +355,43 @@ def test_a_model_step_whose_tolerance_changed_keeps_its_failures() -> None:
     (one,) = model_step_stats(same)
     assert one.unit == "% of prediction" and (one.low, one.high) == pytest.approx((-5.0, 5.0))
     assert one.failures == 2
+
+
+def test_a_model_steps_guard_band_is_in_the_unit_of_its_limits(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # The guard band of a step judged as a deviation in % of its prediction is drawn against
+    # limits in % of the prediction: each run's stored U (ohm) is turned into % of that run's
+    # own prediction before the mean (a relative uncertainty U / |y| x 100, as the GUM writes
+    # relative uncertainties; the clause, 5.1.6, from memory).
+    # Two bench temperatures give two predictions, so the mean of U/prediction differs from
+    # the mean U over the mean prediction.  Recomputed here from the stored step rows.
+    store_path = tmp_path / "runs.sqlite"
+    store = ResultStore(store_path)
+    try:
+        _screen_senders_at((15.0, 30.0), tmp_path, store)
+        stored = [
+            s
+            for r in store.runs(limit=10)
+            for s in store.steps(r["id"])
+            if s["step_id"] == "sender-resistance"
+        ]
+    finally:
+        store.close()
+    assert len(stored) == 2 and stored[0]["predicted"] != stored[1]["predicted"]
+    expected = float(np.mean([s["expanded_u"] / abs(s["predicted"]) * 100 for s in stored]))
+    assert expected < 5.0  # inside the 5 % tolerance: a guard band the limits can hold
+    args = ["stats", "--store", str(store_path)]
+    assert main([*args, "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    (row,) = [s for s in data["steps"] if s["step_id"] == "sender-resistance"]
+    assert row["unit"] == "% of prediction"
+    assert row["mean_expanded_u"] == pytest.approx(expected, rel=1e-9)
+    page = tmp_path / "stats.html"
+    assert main([*args, "--html", str(page)]) == 0
+    text = capsys.readouterr().out
+    assert re.search(r"sender-resistance\s+% of prediction\s+-5\s+5\s", text)
+    html = page.read_text(encoding="utf-8")
+    section = html.split("/ sender-resistance (limits")[1].split("<h3>")[0]
+    assert "-5 .. 5 % of prediction" in section
+    assert f"<td>{expected:.4g}</td>" in section.replace(' class="num"', "")

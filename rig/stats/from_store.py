@@ -200,7 +200,13 @@ def _model_row(
 ) -> StepStats:
     """One row of ``model_step_stats``: the figures' capability and the runs' failures."""
     cap = capability(figures, *limits)
-    us = [float(r[7]) for r in runs if r[7] is not None and math.isfinite(float(r[7]))]
+    # each run's U in the unit of the figures (a % deviation scales by its own prediction)
+    us = [
+        spread_of(float(r[7]), float(r[4]), unit)
+        for r in runs
+        if r[7] is not None and math.isfinite(float(r[7]))
+    ]
+    us = [u for u in us if math.isfinite(u)]
     mean_u = sum(us) / len(us) if us else None
     position, failures = min(int(r[8]) for r in runs), sum(str(r[9]) in FAILED for r in runs)
     return _stats(sequence, step_id, unit, limits, cap, mean_u, position, failures)
@@ -241,6 +247,12 @@ def deviation_of(value: float, predicted: float, unit: str) -> float:
     step (``RELATIVE``, or the step's unit "off prediction")."""
     scale = abs(predicted) / 100.0 if unit == RELATIVE else 1.0
     return (value - predicted) / scale
+
+
+def spread_of(width: float, predicted: float, unit: str) -> float:
+    """A width in the reading's unit (its expanded uncertainty) in the unit of its deviation
+    (``deviation_of``): a guard band drawn against % limits must be in % of the same prediction."""
+    return width / (abs(predicted) / 100.0) if unit == RELATIVE else width
 
 
 def _points(unit: str) -> str:
