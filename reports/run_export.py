@@ -16,6 +16,7 @@ from typing import Any
 from rig.config.station import Station
 from rig.events import prompt_answer
 from rig.planned_steps import recorded_steps, unmeasured_steps
+from rig.screening import is_screen, screen_decision
 from rig.store import ResultStore
 
 STEP_COLUMNS = (
@@ -53,6 +54,8 @@ RUN_COLUMNS = (
     "run_verdict",
     "run_reason",
     "instruments",
+    "screen_decision",
+    "screen_decision_meaning",
     "diagnosis",
     "not_measured_notes",
 )
@@ -99,9 +102,23 @@ def run_record(
         ],
         "not_measured_notes": list(missing.notes),
     }
+    record["screen_decision"] = run_screen_decision(store, run, steps)
     if diagnosis is not None:
         record["diagnosis"] = dict(diagnosis)
     return record
+
+
+def run_screen_decision(
+    store: ResultStore, run: Mapping[str, Any], steps: Iterable[Mapping[str, Any]]
+) -> dict[str, str] | None:
+    """The screen's decision on the unit from this run (``rig.screening``, as ``rig stats``
+    counts it), or None where the sequence proves a harness: derived, never stored.  The
+    sequence's other runs count too, so a proof ended before its proof step is still one."""
+    units = {str(s["unit"]) for s in steps} | store.sequence_units(str(run["sequence_name"]))
+    if not is_screen(units):
+        return None
+    found = screen_decision(str(run["status"]), run["verdict"])
+    return {"decision": found.word, "meaning": found.meaning}
 
 
 def _safe_rows(rows: Iterable[Mapping[str, Any]], columns: tuple[str, ...]) -> str:
@@ -181,6 +198,8 @@ def record_csv(record: Mapping[str, Any]) -> str:
         "run_verdict": run["verdict"],
         "run_reason": run["reason"],
         "instruments": instruments_text(run["instruments"]),
+        "screen_decision": (record.get("screen_decision") or {}).get("decision", ""),
+        "screen_decision_meaning": (record.get("screen_decision") or {}).get("meaning", ""),
         "diagnosis": diagnosis_text(record.get("diagnosis")),
         "not_measured_notes": " ".join(record.get("not_measured_notes", [])),
     }

@@ -235,6 +235,16 @@ def _readings(readings: list[Mapping[str, Any]]) -> str:
     return "<h2>Raw readings</h2>" + table(headers, rows, numeric=(3, 4, 5, 6), table_id="readings")
 
 
+def _screen_decision(found: Mapping[str, str] | None) -> str:
+    """The screen's decision on the unit and what it means; nothing for a harness proof."""
+    if not found:
+        return ""
+    return (
+        f'<p>Screen decision: <strong id="screen-decision">{esc(found["decision"])}</strong>'
+        f" ({esc(found['meaning'])})</p>"
+    )
+
+
 def render_run(record: Mapping[str, Any]) -> str:
     """The record (``reports.run_export.run_record``) as a complete HTML page."""
     run = record["run"]
@@ -245,6 +255,7 @@ def render_run(record: Mapping[str, Any]) -> str:
     sections = [
         f"<h1>{esc(title)}</h1>",
         f'<p>Verdict: <strong id="verdict">{esc(verdict.upper())}</strong></p>',
+        _screen_decision(record.get("screen_decision")),
         _header(run),
         _instruments(run),
         _steps(record["steps"]),

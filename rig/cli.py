@@ -25,6 +25,7 @@ if TYPE_CHECKING:
     from rig.config.unit_file import UnitModel
     from rig.engine import RunSummary
     from rig.plan import Plan, PlannedStep
+    from rig.screening import ScreenDecision
     from rig.steps import StepSpec
     from rig.store_sync import SyncReport
 
@@ -535,6 +536,19 @@ def _diagnosable(summary: RunSummary) -> bool:
     )
 
 
+def _screen_decision(plan: Plan, summary: RunSummary) -> ScreenDecision | None:
+    """The screen's decision on the unit from this run (``rig.screening``, the rule of
+    ``rig stats``), or None where the sequence proves a harness; from its planned steps too, so
+    a proof ended before its proof step is still one."""
+    from rig.screening import is_screen, screen_decision
+    from rig.steps import KINDS
+
+    units = {r.unit for r in summary.results} | {KINDS[p.spec.kind].unit for p in plan.steps}
+    if not is_screen(units):
+        return None
+    return screen_decision(summary.status, summary.verdict.value)
+
+
 def serial_problem(serial: str) -> str:
     """Why ``--serial`` cannot name the unit in a record, or empty when it can: a run filed under
     a blank serial cannot be found again."""
@@ -620,6 +634,7 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
         on_sync=synced.append,
     )
     server = synced[-1].describe() if synced else None  # after the run, when a server is set
+    decision = _screen_decision(plan, summary)
     if args.json:
         out.quiet = False
         out.json(
@@ -631,6 +646,9 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
                 "verdict": summary.verdict.value,
                 "reason": summary.reason,
                 "failed_steps": summary.failed_steps,
+                "screen_decision": None
+                if decision is None
+                else {"decision": decision.word, "meaning": decision.meaning},
                 "safe": summary.safe,
                 "warnings": summary.warnings,
                 "notes": summary.notes,
@@ -660,6 +678,8 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
                 out.line(f"  {result.step_id}: " + "\n    ".join(result.note.split("; ")))
         out.line()
         out.line(f"verdict: {summary.verdict.value.upper()}  ({summary.status})")
+        if decision is not None:
+            out.line(f"screen decision: {decision.word} ({decision.meaning})")
         if summary.reason:
             out.line(f"reason: {summary.reason}")
         out.warnings(summary.warnings)

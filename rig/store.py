@@ -563,6 +563,16 @@ class ResultStore:
             params,
         )
 
+    def sequence_units(self, sequence_name: str) -> set[str]:
+        """The units the steps of a sequence's runs recorded: what ``rig stats`` tells a screen
+        from a harness proof by (``rig.screening.is_screen``), for one run's record."""
+        rows = self._rows(
+            "SELECT DISTINCT s.unit FROM steps s JOIN runs r ON r.id = s.run_id"
+            " WHERE r.sequence_name = ?",
+            [sequence_name],
+        )
+        return {str(row[0]) for row in rows}
+
     def model_step_rows(self, where: RunFilter) -> list[Any]:
         """The steps judged around a prediction (``predicted`` set): sequence, step, unit,
         value, predicted, low, high, expanded U, position and verdict, one row a step run.  Their

@@ -17,6 +17,7 @@ from typing import Any
 import pandas as pd
 
 from rig.events import NOT_READINGS
+from rig.screening import is_screen
 from rig.stats.capability import (
     Capability,
     capability,
@@ -291,7 +292,10 @@ def shop_stats(
     groups = step_stats_from(moments.result()) + model_step_stats(store.model_step_rows(where))
     groups.sort(key=lambda g: (g.sequence, g.position, g.step_id))
     # a harness proof decides ship or reject, not a returned unit's fault: no screen of it
-    harness_proofs = {g.sequence for g in groups if g.unit == "faults"}
+    units_of: dict[str, set[str]] = {}
+    for group in groups:
+        units_of.setdefault(group.sequence, set()).add(group.unit)
+    harness_proofs = {sequence for sequence, units in units_of.items() if not is_screen(units)}
     by_step = Counter[str]()
     for group in groups:
         by_step[f"{group.sequence} / {group.step_id}"] += group.failures

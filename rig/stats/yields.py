@@ -13,6 +13,8 @@ from collections.abc import Sequence
 import numpy as np
 import pandas as pd
 
+from rig.screening import CONFIRMED, INCONCLUSIVE, NO_FAULT, decision_word
+
 RUN_COLUMNS = ("id", "serial", "sequence_name", "started_at", "status", "verdict")
 PASSING = ("pass", "conditional pass")
 FAILING = ("fail", "conditional fail")
@@ -44,9 +46,12 @@ def units_frame(runs: pd.DataFrame) -> pd.DataFrame:
             "first_passed": runs["passed"].to_numpy()[first],
             "last_passed": runs["passed"].to_numpy()[last],
             "last_failed": runs["failed"].to_numpy()[last],
-            "last_verdict": np.where(
-                runs["status"].to_numpy() == "complete", runs["verdict"].to_numpy(), ""
-            )[last],
+            "last_decision": [
+                decision_word(str(status), None if verdict is None else str(verdict))
+                for status, verdict in zip(
+                    runs["status"].to_numpy()[last], runs["verdict"].to_numpy()[last], strict=True
+                )
+            ],
         }
     )
 
@@ -80,20 +85,15 @@ def yield_by_day(units: pd.DataFrame) -> pd.DataFrame:
 
 
 def screen_outcomes(units: pd.DataFrame) -> pd.DataFrame:
-    """Per sequence, the last verdict on each unit: confirmed failure, no fault found,
-    inconclusive, undecided.
-
-    For a screen of returned units a fail confirms the fault and a pass finds none: each lies
-    beyond the measurement's uncertainty from its limit.  A conditional pass or fail lies within
-    it (ILAC-G8): neither can be defended to a customer as a decision, so the unit is
-    inconclusive (retest, or measure with a smaller uncertainty).  A last run that did not
-    complete leaves the unit undecided.  The confirmed share is over the units decided.
+    """Per sequence, the decision of each unit's last run: confirmed failure, no fault found,
+    inconclusive, undecided (``rig.screening``, the rule a run's own record states).  The
+    confirmed share is over the units decided.
     """
-    last = units["last_verdict"]
+    last = units["last_decision"]
     frame = units.assign(
-        confirmed=last == "fail",
-        no_fault=last == "pass",
-        inconclusive=last.isin(("conditional pass", "conditional fail")),
+        confirmed=last == CONFIRMED,
+        no_fault=last == NO_FAULT,
+        inconclusive=last == INCONCLUSIVE,
     )
     grouped = frame.groupby("sequence")
     confirmed = grouped["confirmed"].sum().astype(int)

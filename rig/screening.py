@@ -1,0 +1,64 @@
+"""The decision a returned-unit screen reaches on a unit: one rule for one run's record
+(``rig run``, ``rig report``) and for the shop's tally over the last runs (``rig stats``).
+
+For a screen a fail confirms the fault and a pass finds none: each lies beyond the
+measurement's uncertainty from its limit.  A conditional pass or fail lies within it
+(ILAC-G8:09/2019): neither can be defended to a customer as a decision, so the unit is
+inconclusive.  A run that did not complete, or could not measure, decides nothing.  Pure.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable
+from dataclasses import dataclass
+
+CONFIRMED = "confirmed failure"
+NO_FAULT = "no fault found"
+INCONCLUSIVE = "inconclusive"
+UNDECIDED = "undecided"
+
+MEANINGS = {
+    CONFIRMED: "a fail beyond the uncertainty of the reading: the unit's fault is confirmed",
+    NO_FAULT: "a pass beyond the uncertainty of the reading: the unit shows no fault",
+    INCONCLUSIVE: (
+        "a reading within the uncertainty of a limit (a conditional verdict): retest, or "
+        "measure with a smaller uncertainty"
+    ),
+    UNDECIDED: "the run did not complete, or a step could not measure: run the unit again",
+}
+
+_BY_VERDICT = {
+    "fail": CONFIRMED,
+    "pass": NO_FAULT,
+    "conditional pass": INCONCLUSIVE,
+    "conditional fail": INCONCLUSIVE,
+}
+
+HARNESS_FINDINGS = "faults"
+"""The unit of a harness proof's step (the faults it found): a sequence with one proves a
+harness before it ships, it screens no returned unit."""
+
+
+@dataclass(frozen=True)
+class ScreenDecision:
+    word: str
+    meaning: str
+
+
+def decision_word(status: str, verdict: str | None) -> str:
+    """The screen's decision on a unit from the status and verdict of its run."""
+    if status != "complete":
+        return UNDECIDED
+    return _BY_VERDICT.get(verdict or "", UNDECIDED)
+
+
+def screen_decision(status: str, verdict: str | None) -> ScreenDecision:
+    """``decision_word`` with its one-line meaning, for a run's record."""
+    word = decision_word(status, verdict)
+    return ScreenDecision(word, MEANINGS[word])
+
+
+def is_screen(step_units: Iterable[str]) -> bool:
+    """Whether a sequence whose steps record these units screens returned units: every
+    sequence does but a harness proof."""
+    return HARNESS_FINDINGS not in set(step_units)
