@@ -79,6 +79,9 @@ def test_shipped_sequence_passes_a_good_harness_with_limits_at_the_measured_ambi
     assert extras["isolation_readings"] == 4  # ceil(log2 13): 10 nets and 3 spare pins
     assert extras["isolation_proven_ohm"] >= 1e6
     assert "isolation proved per pair" in harness.note
+    # the figure asked for stands beside the one proved, in the record
+    assert extras["isolation_required_ohm"] == 1e6
+    assert re.search(r"at least [\d.]+ [kM]?ohm, required 1 Mohm \(4 readings", harness.note)
     rows = _readings(plan.station.store_path, summary.run_id)
     settled = [r for r in rows if r[2]]
     assert len(settled) == extras["continuity_readings"] + extras["isolation_readings"]
@@ -323,6 +326,14 @@ def test_continue_on_a_harness_run_says_it_cannot_be_and_how_to_check_again(
             ["--ambient", "23 degC", "--contact-allowance", "5 V"],
             "--contact-allowance: '5 V' is a value in V; expected a resistance such as '5 mohm'",
         ),
+        (  # an overload on the default 10 Mohm range proves only its full scale: a false pass
+            ["--ambient", "23 degC", "--isolation", "20 Mohm"],
+            "--isolation: 20 Mohm is more than the isolation range (isolation_range) of 10 Mohm "
+            "can prove: an overload there says only that a reading is beyond the meter's "
+            "overrange (about 12 Mohm, 120% of range, typical, from memory), so rig credits it "
+            "with the range's full scale, 10 Mohm; ask for at most 10 Mohm, or give a "
+            "harness-proof step a higher isolation_range",
+        ),
         (  # a negative allowance would quietly tighten every continuity limit
             ["--ambient", "23 degC", "--contact-allowance", "-5 mohm"],
             "--contact-allowance: expected zero or more in ohm, found '-5 mohm'",
@@ -346,6 +357,29 @@ def test_a_bad_option_is_named_as_the_option_before_anything_moves(
     err = capsys.readouterr().err
     assert code == EXIT_BAD_INPUT
     assert err.splitlines() == ["rig: the input has problems:", f"  {said}"]
+
+
+def test_a_step_asking_more_isolation_than_its_range_proves_is_refused_by_rig_check(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # the same limit in a sequence file: refused when the plan is built, at the key's line; a
+    # range that can prove the figure makes the same requirement acceptable
+    wires, fixture = write_invented(tmp_path / "list", 4, seed=3, spare=0)
+    head = (
+        '[sequence]\nname = "iso"\n\n[[steps]]\nid = "harness"\nkind = "harness-proof"\n'
+        f'wire_list = {json.dumps(str(wires.path))}\ntemperature = "23 degC"\n'
+        'isolation = "50 Mohm"\n'
+    )
+    refused, proved = tmp_path / "refused.toml", tmp_path / "proved.toml"
+    refused.write_text(head, encoding="utf-8")
+    proved.write_text(head + 'isolation_range = "100 Mohm"\n', encoding="utf-8")
+    with served(harness_bench(wires, fixture, seed=3), tmp_path / "a") as st:
+        assert main(["check", str(refused), "--station", str(st)]) == EXIT_BAD_INPUT
+        err = capsys.readouterr().err
+        assert f"{refused}:9 [steps[0].isolation]" in err, err
+        assert "50 Mohm is more than the isolation range (isolation_range) of 10 Mohm" in err
+        assert "Traceback" not in err
+        assert main(["check", str(proved), "--station", str(st)]) == EXIT_PASS
 
 
 def test_spare_pins_are_the_unused_cavities_of_the_harness_connectors() -> None:

@@ -22,6 +22,7 @@ from rig.harness.scan import METHODS, HarnessReport, HarnessSettings, scan_harne
 from rig.harness.wire_list import WireList, join_problems, load_wire_list, write_wire_list
 from rig.judge.decision import Limits
 from rig.quantity import format_quantity
+from rig.reading_guard import OVERRANGE_FACTOR
 from rig.routing import Route
 from rig.steps.base import Outcome, StepKind, StepSpec
 from rig.steps.context import StepContext
@@ -51,6 +52,9 @@ def read_harness_keys(sec: Section, spec: StepSpec, base: Path) -> None:
     spec.params["method"] = sec.string("isolation_method", "groups", choices=METHODS)
     spec.params["continuity_range"] = sec.quantity("continuity_range", "ohm", 100.0, positive=True)
     spec.params["isolation_range"] = sec.quantity("isolation_range", "ohm", 1e7, positive=True)
+    beyond = isolation_beyond_range(spec.params["isolation_ohm"], spec.params["isolation_range"])
+    if beyond:  # a pass would claim more than any overload on that range proves
+        sec.problem("isolation", beyond)
     limits: dict[str, float] = {}
     table = sec.table("net_limits")
     if table is not None:
@@ -65,6 +69,26 @@ def read_harness_keys(sec: Section, spec: StepSpec, base: Path) -> None:
                 if net not in known:
                     table.problem(net, f"no net {net!r} in the wire list; nets: {_few(known)}")
     spec.params["net_limits"] = limits
+
+
+def isolation_beyond_range(required_ohm: float, range_ohm: float) -> str:
+    """Why ``required_ohm`` cannot be proved on the isolation range ``range_ohm``, or "".
+
+    An overload says only that a reading is beyond the meter's overrange (``OVERRANGE_FACTOR`` of
+    the range, a figure from memory, not a figure of the meter on the bench), and the scan credits
+    it with the range's full scale (``ceiling_ohm``): a requirement above that would pass on an
+    overload while the step states less than was asked for."""
+    if required_ohm <= range_ohm:
+        return ""
+    over = format_quantity(range_ohm * OVERRANGE_FACTOR, "ohm", 3)
+    full = format_quantity(range_ohm, "ohm", 3)
+    return (
+        f"{format_quantity(required_ohm, 'ohm', 3)} is more than the isolation range "
+        f"(isolation_range) of {full} can prove: an overload there says only that a reading is "
+        f"beyond the meter's overrange (about {over}, {OVERRANGE_FACTOR:.0%} of range, typical, "
+        f"from memory), so rig credits it with the range's full scale, {full}; ask for at most "
+        f"{full}, or give a harness-proof step a higher isolation_range"
+    )
 
 
 def _few(names: set[str]) -> str:
@@ -103,6 +127,7 @@ def report_outcome(report: HarnessReport, settings: HarnessSettings, unit: str) 
         extras[f"{key} max_ohm"] = r.check.limit.max_ohm
     if report.isolation is not None:
         extras["isolation_proven_ohm"] = report.isolation.proven_ohm
+        extras["isolation_required_ohm"] = settings.isolation_ohm
     for finding in report.findings:  # by kind, for the failure Pareto of rig stats
         key = f"found {finding.kind}"
         extras[key] = extras.get(key, 0.0) + 1.0
@@ -111,7 +136,8 @@ def report_outcome(report: HarnessReport, settings: HarnessSettings, unit: str) 
         which = "nets not named above" if words else "nets"
         words.append(
             f"isolation proved per pair of {which}: at least "
-            f"{format_quantity(report.isolation.proven_ohm, 'ohm', 3)} "
+            f"{format_quantity(report.isolation.proven_ohm, 'ohm', 3)}, required "
+            f"{format_quantity(settings.isolation_ohm, 'ohm', 3)} "
             f"({report.isolation_readings} readings, pair by pair "
             f"{int(extras['pairwise_readings'])})"
         )
