@@ -318,6 +318,16 @@ def test_continue_on_a_harness_run_says_it_cannot_be_and_how_to_check_again(
             "--ambient: expected a temperature above absolute zero (-273.15 degC), "
             "found '-300 degC'",
         ),
+        (  # a mistyped 23.0: copper limits at 230 degC would pass a poor crimp
+            ["--ambient", "230 degC"],
+            "--ambient: expected an indoor ambient from 0 degC to 50 degC for a harness test, "
+            "found '230 degC'",
+        ),
+        (  # and at -60 degC they would fail good wires
+            ["--ambient", "-60 degC"],
+            "--ambient: expected an indoor ambient from 0 degC to 50 degC for a harness test, "
+            "found '-60 degC'",
+        ),
         (
             ["--ambient", "23 degC", "--isolation", "1M"],
             "--isolation: unknown unit 'M'; expected a resistance such as '1 Mohm'",
@@ -359,7 +369,7 @@ def test_a_bad_option_is_named_as_the_option_before_anything_moves(
     assert err.splitlines() == ["rig: the input has problems:", f"  {said}"]
 
 
-def test_a_step_asking_more_isolation_than_its_range_proves_is_refused_by_rig_check(
+def test_more_isolation_than_the_range_proves_or_an_implausible_ambient_is_refused_by_rig_check(
     tmp_path: Path, capsys: pytest.CaptureFixture[str]
 ) -> None:
     # the same limit in a sequence file: refused when the plan is built, at the key's line; a
@@ -372,6 +382,8 @@ def test_a_step_asking_more_isolation_than_its_range_proves_is_refused_by_rig_ch
     )
     refused, proved = tmp_path / "refused.toml", tmp_path / "proved.toml"
     refused.write_text(head, encoding="utf-8")
+    hot = tmp_path / "hot.toml"  # the bounds of a stated ambient hold in a file as on the line
+    hot.write_text(head.replace("23 degC", "230 degC").replace("50 Mohm", "1 Mohm"), "utf-8")
     proved.write_text(head + 'isolation_range = "100 Mohm"\n', encoding="utf-8")
     with served(harness_bench(wires, fixture, seed=3), tmp_path / "a") as st:
         assert main(["check", str(refused), "--station", str(st)]) == EXIT_BAD_INPUT
@@ -380,6 +392,9 @@ def test_a_step_asking_more_isolation_than_its_range_proves_is_refused_by_rig_ch
         assert "50 Mohm is more than the isolation range (isolation_range) of 10 Mohm" in err
         assert "Traceback" not in err
         assert main(["check", str(proved), "--station", str(st)]) == EXIT_PASS
+        assert main(["check", str(hot), "--station", str(st)]) == EXIT_BAD_INPUT
+        err = capsys.readouterr().err
+        assert f"{hot}:8 [steps[0].temperature]: expected an indoor ambient from 0 degC" in err
 
 
 def test_spare_pins_are_the_unused_cavities_of_the_harness_connectors() -> None:

@@ -151,6 +151,12 @@ def report_outcome(report: HarnessReport, settings: HarnessSettings, unit: str) 
     )
 
 
+AMBIENT_LOW_C, AMBIENT_HIGH_C = 0.0, 50.0
+"""A stated ambient a harness is plausibly tested at indoors: a cold unheated shop to a hot one
+(common practice, no published source).  Outside it the figure is a slip (230 for 23.0), and the
+copper limits moved to it would pass a poor crimp or fail good wires."""
+
+
 CAPTURE_LIMITS = Limits(1.0, None)
 """A capture's value is the nets it found: none is a failure (a misplaced or unplugged harness,
 or connectors that hold no wire), and no reference wire list is written from it."""
@@ -176,6 +182,13 @@ class HarnessProof(StepKind):
     def parse(self, sec: Section, spec: StepSpec) -> None:
         read_harness_keys(sec, spec, sec.doc.path.parent)
         _temperature_source(sec, spec)
+        stated = spec.params.get("temperature_c")
+        if stated is not None and not AMBIENT_LOW_C <= stated <= AMBIENT_HIGH_C:
+            sec.problem(  # every copper limit is moved to it: a wrong one passes or fails all
+                "temperature",
+                f"expected an indoor ambient from {AMBIENT_LOW_C:g} degC to {AMBIENT_HIGH_C:g} "
+                f"degC for a harness test, found {sec.raw('temperature')!r}",
+            )
         # a capture must find at least one net: a golden harness connects something
         spec.limits = CAPTURE_LIMITS if spec.params.get("capture_to") else Limits(None, 0.0)
 
