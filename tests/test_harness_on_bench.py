@@ -397,6 +397,21 @@ def test_more_isolation_than_the_range_proves_or_an_implausible_ambient_is_refus
         assert f"{hot}:8 [steps[0].temperature]: expected an indoor ambient from 0 degC" in err
 
 
+def test_a_check_without_isolation_says_so_in_its_output_and_record(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # a pass with isolation off proves continuity only: the words must say what was not tested
+    wires, fixture = write_invented(tmp_path / "list", 4, seed=3, spare=0)
+    with served(harness_bench(wires, fixture, seed=3), tmp_path / "a") as st:
+        args = ["harness", "check", str(wires.path), "--station", str(st), "--serial", "H8"]
+        args += ["--ambient", "23 degC", "--isolation-method", "off"]
+        assert main(args) == EXIT_PASS
+        assert "  isolation not tested (isolation_method off)\n" in capsys.readouterr().out
+    with sqlite3.connect(tmp_path / "a" / "data" / "results.sqlite") as db:
+        (note,) = db.execute("SELECT note FROM steps WHERE step_id='harness'").fetchone()
+    assert note == "isolation not tested (isolation_method off)"
+
+
 def test_spare_pins_are_the_unused_cavities_of_the_harness_connectors() -> None:
     fixture = load_fixture(SHIPPED / "fixture.toml")
     wires = load_wire_list(SHIPPED / "wire-list.csv", fixture)

@@ -141,6 +141,8 @@ def report_outcome(report: HarnessReport, settings: HarnessSettings, unit: str) 
             f"({report.isolation_readings} readings, pair by pair "
             f"{int(extras['pairwise_readings'])})"
         )
+    if report.isolation is None:  # a pass must not read as if the nets were proved apart
+        words.append(f"isolation not tested (isolation_method {settings.method})")
     return Outcome(
         float(len(report.findings)),
         unit,
