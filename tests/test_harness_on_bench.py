@@ -412,6 +412,30 @@ def test_a_check_without_isolation_says_so_in_its_output_and_record(
     assert note == "isolation not tested (isolation_method off)"
 
 
+@pytest.mark.parametrize(
+    ("fault", "said"),
+    [
+        ("open:W99", "no wire 'W99' in wire-list.csv; its wires: W1, W10a, W10b, W10c, W2,"),
+        ("misplaced:W7=P9-1", "the fixture has no pin 'P9-1' to land the wire on"),
+        ("short:W3,W3", "short names wire 'W3' twice"),
+        ("swap:W4,W10a", "wire W10a's to-end is splice SP1"),  # would build no swap at all
+        ("missing-splice:W4", "wire W4 has no splice end"),
+    ],
+)
+def test_a_build_fault_the_harness_cannot_have_is_refused_before_a_bench_is_served(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str], fault: str, said: str
+) -> None:
+    # these were a ValueError traceback (an unknown wire) or a bench served without the fault
+    station = tmp_path / "station.toml"
+    args = ["harness", "sim", str(SHIPPED / "wire-list.csv")]
+    args += ["--fixture", str(SHIPPED / "fixture.toml"), "--station-out", str(station)]
+    assert main([*args, "--fault", "open:W1", "--fault", fault]) == EXIT_BAD_INPUT
+    err = capsys.readouterr().err
+    assert err.splitlines()[0] == "rig: the input has problems:"
+    assert err.splitlines()[1].startswith(f"  --fault [{fault}]: {said}"), err
+    assert len(err.splitlines()) == 2 and not station.exists()
+
+
 def test_spare_pins_are_the_unused_cavities_of_the_harness_connectors() -> None:
     fixture = load_fixture(SHIPPED / "fixture.toml")
     wires = load_wire_list(SHIPPED / "wire-list.csv", fixture)

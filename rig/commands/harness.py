@@ -235,13 +235,23 @@ def virtual_station_name(wire_list: Path) -> str:
 def cmd_sim(args: argparse.Namespace, out: Output) -> int:
     from rig.config.fixture import load_fixture
     from rig.errors import ConfigError, Problem
-    from rig.harness.as_built import parse_build_fault
+    from rig.harness.as_built import build_fault_problems, parse_build_fault
     from rig.harness.wire_list import load_wire_list
     from rig.sim.harness_bench import harness_bench
 
     fixture = load_fixture(args.fixture)
     wires = load_wire_list(args.wire_list, fixture)
-    faults = [parse_build_fault(spec) for spec in args.fault]
+    faults, problems = [], []
+    for spec in args.fault:  # every bad spec named at once, none as a traceback
+        try:
+            fault = parse_build_fault(spec)
+        except ConfigError as exc:
+            problems += exc.problems
+            continue
+        problems += build_fault_problems(fault, spec, wires, fixture.pins)
+        faults.append(fault)
+    if problems:
+        raise ConfigError(problems)
     probe = None
     if args.probe:
         pins = [p.strip() for p in args.probe.split(",")]

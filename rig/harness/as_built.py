@@ -11,7 +11,7 @@ touching) becomes its ``Fault``.
 from __future__ import annotations
 
 import re
-from collections.abc import Sequence
+from collections.abc import Collection, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -154,3 +154,37 @@ def parse_build_fault(spec: str, source: str = "--fault") -> BuildFault:
     if value:
         raise fail(f"{kind} takes no value")
     return BuildFault(kind, wires[0])
+
+
+def build_fault_problems(
+    fault: BuildFault, spec: str, wires: WireList, pins: Collection[str], source: str = "--fault"
+) -> list[Problem]:
+    """Why ``fault`` cannot be built on this harness and fixture (``pins``), in the words of
+    ``spec``; empty when it can.  A fault that would change nothing (a wire shorted to itself, a
+    swap of a splice end) is refused too: a bench said to be faulty must be."""
+    rows = {row.wire: row for row in wires.rows}
+    names = [fault.wire] + ([fault.other] if fault.other else [])
+    unknown = [w for w in names if w not in rows]
+    if unknown:
+        listed = sorted(rows)
+        few = ", ".join(listed[:8]) + (" ..." if len(listed) > 8 else "")
+        return [
+            Problem(source, spec, f"no wire {w!r} in {wires.path.name}; its wires: {few}")
+            for w in unknown
+        ]
+    problems = []
+    if fault.other and fault.other == fault.wire:
+        problems.append(Problem(source, spec, f"{fault.kind} names wire {fault.wire!r} twice"))
+    if fault.kind == "misplaced" and fault.pin not in pins:
+        problems.append(
+            Problem(source, spec, f"the fixture has no pin {fault.pin!r} to land the wire on")
+        )
+    if fault.kind in ("misplaced", "swap"):
+        for name in names:
+            if rows[name].end.is_splice:
+                problems.append(
+                    Problem(source, spec, f"wire {name}'s to-end is splice {rows[name].end.name}")
+                )
+    if fault.kind == "missing-splice" and not any(e.is_splice for e in rows[fault.wire].ends):
+        problems.append(Problem(source, spec, f"wire {fault.wire} has no splice end"))
+    return problems
