@@ -34,9 +34,9 @@ _BY_VERDICT = {
     "conditional fail": INCONCLUSIVE,
 }
 
-HARNESS_FINDINGS = "faults"
-"""The unit of a harness proof's step (the faults it found): a sequence with one proves a
-harness before it ships, it screens no returned unit."""
+HARNESS_UNITS = frozenset({"faults", "nets"})
+"""The units of a harness proof's step (the faults it found) and of a capture's (the nets it
+found): a sequence with one proves or records a harness, it screens no returned unit."""
 
 
 @dataclass(frozen=True)
@@ -60,5 +60,5 @@ def screen_decision(status: str, verdict: str | None) -> ScreenDecision:
 
 def is_screen(step_units: Iterable[str]) -> bool:
     """Whether a sequence whose steps record these units screens returned units: every
-    sequence does but a harness proof."""
-    return HARNESS_FINDINGS not in set(step_units)
+    sequence does but a harness proof or capture."""
+    return HARNESS_UNITS.isdisjoint(step_units)

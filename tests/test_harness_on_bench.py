@@ -171,6 +171,10 @@ def test_capture_a_good_harness_then_check_others_against_it(tmp_path: Path, cap
         assert code == EXIT_PASS
     report = json.loads(capsys.readouterr().out)
     assert report["extras"]["discovery_readings"] < 19 * 18 // 2  # pins: 8 + 8 + 1 + 1 spare
+    # a capture screens no returned unit either (docs/reports-and-stats.md): no screen row
+    assert main(["stats", "--station", str(st), "--json"]) == EXIT_PASS
+    stats = json.loads(capsys.readouterr().out)
+    assert stats["runs"] == 1 and stats["screen_outcomes"] == []
     found = load_wire_list(captured, fixture)
     assert sorted(n.pins for n in found.nets) == sorted(n.pins for n in wires.nets)
     row = next(r for r in found.rows if r.start.name == "A-2")

@@ -291,7 +291,8 @@ def shop_stats(
     units = units_frame(runs)
     groups = step_stats_from(moments.result()) + model_step_stats(store.model_step_rows(where))
     groups.sort(key=lambda g: (g.sequence, g.position, g.step_id))
-    # a harness proof decides ship or reject, not a returned unit's fault: no screen of it
+    # a harness proof or capture ships, rejects or records a harness, not a returned unit's
+    # fault: no screen of it
     units_of: dict[str, set[str]] = {}
     for group in groups:
         units_of.setdefault(group.sequence, set()).add(group.unit)
