@@ -65,7 +65,9 @@ def plant_faults(nets: int, splices: int, spare_pins: list[str], seed: int) -> l
         elif kind == "short":
             j = order.pop()
             fault = BuildFault("short", f"W{i}", other=f"W{j}")
-            words = (f"N{min(i, j)} and N{max(i, j)}",) if i < j else (f"N{j} and N{i}",)
+            # each net by its pins and its wire (the invented lists' two-pin nets are blue)
+            words = tuple(f"N{k} (A-{k}, B-{k}: wire W{k}, blue)" for k in sorted((i, j)))
+            words += (f"N{min(i, j)} (", ") and N", "are joined")
             planted.append(Planted(fault, "short", words))
         elif kind == "swap":
             j = order.pop()

@@ -96,8 +96,27 @@ def test_shipped_sequence_names_a_swap_and_a_missing_splice(tmp_path: Path) -> N
     harness = summary.results[-1]
     assert harness.verdict is Verdict.FAIL
     assert harness.value == 2
-    assert "J2-4 and J2-5 are swapped (J1-4 reaches J2-5, expected J2-4" in harness.note
+    # a finding along wires names them (docs/harness.md): each swapped end with its wire and
+    # colour as the shipped wire list gives them (W4 white, W5 blue)
+    assert (
+        "J2-4 and J2-5 are swapped (wire W4, white: J1-4 reaches J2-5, expected J2-4, and "
+        "wire W5, blue: J1-5 reaches J2-4, expected J2-5)"
+    ) in harness.note.split("; ")
     assert "J3-4 does not reach J1-10, J2-8 of net GROUND" in harness.note
+
+
+def test_a_misplaced_wire_and_a_short_name_their_wires_and_pins(tmp_path: Path) -> None:
+    # the shipped list: W7 violet J1-7 to J3-1, W3 red J1-3 to J2-3, W4 white J1-4 to J2-4
+    faults = [BuildFault("misplaced", "W7", pin="J3-4"), BuildFault("short", "W3", other="W4")]
+    _, bench = _shipped(faults)
+    with served(bench, tmp_path) as station_path:
+        summary = run_plan(load_plan(SHIPPED / "harness-proof.toml", station_path), "H-MIS")
+    findings = summary.results[-1].note.split("; ")
+    assert "J1-7 reaches J3-4, expected J3-1 (net SENSOR_SIG, wire W7, violet)" in findings
+    short = next(f for f in findings if "short" in f)
+    assert short.startswith(
+        "nets STOP (J1-3, J2-3: wire W3, red) and REVERSE (J1-4, J2-4: wire W4, white) are joined ("
+    ), short
 
 
 def test_group_isolation_through_the_real_stack_agrees_with_pair_by_pair(tmp_path: Path) -> None:
@@ -138,7 +157,8 @@ def test_group_isolation_through_the_real_stack_agrees_with_pair_by_pair(tmp_pat
     shorts = [
         sorted(t.split(" are joined")[0] for t in n.split("; ") if "short" in t) for n in notes
     ]
-    assert shorts[0] == shorts[1] == ["nets N3 and N11", "nets N6 and N7"]
+    assert shorts[0] == shorts[1]
+    assert [re.findall(r"N\d+", t) for t in shorts[0]] == [["N3", "N11"], ["N6", "N7"]]
     # the record names the wire list the harness was proved against, not only its hash
     assert named == [
         (

@@ -14,7 +14,7 @@ from dataclasses import dataclass
 
 from rig.harness.continuity import ContinuityResult
 from rig.harness.isolation import Join
-from rig.harness.wire_list import Net, WireList
+from rig.harness.wire_list import Net, WireList, WireRow
 from rig.judge.decision import Verdict
 from rig.quantity import format_quantity
 
@@ -79,24 +79,40 @@ def name_findings(
     misplaced: list[tuple[str, str, str, str]] = []
     for net in wires.nets:
         findings += _split(net, measured, misplaced)
-    findings += _swaps_and_miswires(misplaced)
+    findings += _swaps_and_miswires(misplaced, {net.name: net for net in wires.nets})
     findings += _shorts(wires, measured, joins)
     return findings
 
 
-def _along(net: Net | None, a: str, b: str) -> str:
+def _wires(net: Net | None, a: str, b: str) -> str:
     """The wires between two pins of a net, as a technician finds them on the bench: by id, and
-    colour where the list gives one (`` (wire W7, violet)``); empty where the list cannot say."""
+    colour where the list gives one (``wire W7, violet``); empty where the list cannot say."""
     if net is None:
         return ""
     try:
         rows = net.path(a, b)
     except (KeyError, ValueError):
         return ""
+    return _named(rows)
+
+
+def _named(rows: Sequence[WireRow]) -> str:
     if len(rows) == 1:
         row = rows[0]
-        return f" (wire {row.wire}, {row.colour})" if row.colour else f" (wire {row.wire})"
-    return f" (wires {', '.join(r.wire for r in rows)})" if rows else ""
+        return f"wire {row.wire}, {row.colour}" if row.colour else f"wire {row.wire}"
+    return f"wires {', '.join(r.wire for r in rows)}" if rows else ""
+
+
+def _along(net: Net | None, a: str, b: str) -> str:
+    """``_wires`` in brackets after a pin pair (`` (wire W7, violet)``), or empty."""
+    found = _wires(net, a, b)
+    return f" ({found})" if found else ""
+
+
+def _net_words(net: Net) -> str:
+    """A whole net by its pins and wires (``CAN_H (J1-3, J2-3: wire W3, red)``)."""
+    wires = _named(net.rows)
+    return f"{net.name} ({', '.join(net.pins)}{': ' + wires if wires else ''})"
 
 
 def _over_limit(continuity: Sequence[ContinuityResult], wires: WireList) -> list[Finding]:
@@ -186,8 +202,16 @@ def _split(
     return found
 
 
-def _swaps_and_miswires(misplaced: list[tuple[str, str, str, str]]) -> list[Finding]:
-    """Pair up 'a reaches d, expected b' with 'c reaches b, expected d': a swap."""
+def _swaps_and_miswires(
+    misplaced: list[tuple[str, str, str, str]], nets: dict[str, Net]
+) -> list[Finding]:
+    """Pair up 'a reaches d, expected b' with 'c reaches b, expected d': a swap.  Each end is
+    named with the wire that should run from ``a`` to ``b``."""
+
+    def wire(a: str, b: str, net: str, after: str) -> str:
+        found = _wires(nets.get(net), a, b)
+        return f"{found}{after}" if found else ""
+
     found = []
     used: set[int] = set()
     for i, (a, q, b, net) in enumerate(misplaced):
@@ -207,16 +231,22 @@ def _swaps_and_miswires(misplaced: list[tuple[str, str, str, str]]) -> list[Find
             found.append(
                 Finding(
                     "swap",
-                    f"{b} and {d} are swapped ({a} reaches {d}, expected {b}, and "
-                    f"{c} reaches {b}, expected {d})",
+                    f"{b} and {d} are swapped ({wire(a, b, net, ': ')}{a} reaches {d}, "
+                    f"expected {b}, and {wire(c, d, other, ': ')}{c} reaches {b}, expected {d})",
                     (a, b, c, d),
                     (net, other),
                 )
             )
         else:
             used.add(i)
+            along = ", ".join(filter(None, (f"net {net}", wire(a, b, net, ""))))
             found.append(
-                Finding("miswire", f"{a} reaches {q}, expected {b} (net {net})", (a, q, b), (net,))
+                Finding(
+                    "miswire",
+                    f"{a} reaches {q}, expected {b} ({along})",
+                    (a, q, b),
+                    (net,),
+                )
             )
     return found
 
@@ -230,7 +260,7 @@ def _shorts(wires: WireList, measured: _Harness, joins: Sequence[Join]) -> list[
         spare = sorted(p for p in pins if p not in wires.net_of_pin())
         r = _join_r(measured, joins, group)
         if len(whole) >= 2:
-            names = " and ".join(n.name for n in whole)
+            names = " and ".join(_net_words(n) for n in whole)
             found.append(
                 Finding(
                     "short",
