@@ -9,6 +9,7 @@ from drivers.registry import open_instrument
 from rig.config.station import Station
 from rig.engine import Bench
 from rig.errors import RigError
+from rig.judge.reference_probe import PROBE_ROLE
 
 
 class CalibrationPastDue(RigError):
@@ -16,16 +17,23 @@ class CalibrationPastDue(RigError):
 
 
 def check_calibration(station: Station, today: dt.date | None = None) -> list[str]:
-    """Refuse a past-due instrument unless the station allows it by name; returns notes."""
+    """Refuse a past-due instrument or reference probe unless the station allows it by name;
+    returns notes."""
     today = today or dt.date.today()
+    dated = [
+        (role, config.resource, config.calibration_due, config.allow_past_due)
+        for role, config in station.instruments.items()
+    ]
+    probe = station.reference_probe
+    if probe is not None:
+        dated.append((PROBE_ROLE, probe.identity, probe.calibration_due, probe.allow_past_due))
     notes = []
-    for role, config in station.instruments.items():
-        due = config.calibration_due
+    for role, name, due, allowed in dated:
         if due is None or due >= today:
             continue
-        if not config.allow_past_due:
+        if not allowed:
             raise CalibrationPastDue(
-                f"{role} ({config.resource}) was due for calibration on {due.isoformat()}; "
+                f"{role} ({name}) was due for calibration on {due.isoformat()}; "
                 f"recalibrate it, or set allow_past_due = true under [{role}] in {station.path}"
             )
         notes.append(f"{role} calibration past due since {due.isoformat()} (allowed by station)")

@@ -3,7 +3,8 @@
 A station names its fixture map, its DMM, supply and relay box (driver name from the ``rig.drivers``
 entry points, VISA resource or serial port, settings, calibration due date), the DMM's accuracy as
 its data sheet states it (per function and range, % of reading + % of range, or ppm), the mains
-frequency, and whether every run must name its operator.  See ``docs/station-file.md``.
+frequency, whether every run must name its operator, and the reference thermometer's identity,
+calibration due date and accuracy.  See ``docs/station-file.md``.
 """
 
 from __future__ import annotations
@@ -14,11 +15,14 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+from rig.config.calibration import read_calibration
 from rig.config.fixture import FixtureMap, parse_fixture
+from rig.config.probe_section import parse_reference_probe
 from rig.config.reader import Section, TomlDoc
 from rig.config.store_section import StoreSettings, parse_store
 from rig.errors import ConfigError
 from rig.judge.accuracy import AccuracySpec, AccuracyTable
+from rig.judge.reference_probe import ReferenceProbe
 from rig.quantity import format_quantity
 
 FUNCTIONS = {"dcv": "V", "res2w": "ohm", "res4w": "ohm", "dci": "A"}
@@ -63,6 +67,9 @@ class Station:
     """Where results go besides the station's own file (``[store]``, docs/postgresql.md)."""
     operator_required: bool = False
     """A run is refused without an operator's name, for a shop that must record who tested."""
+    reference_probe: ReferenceProbe | None = None
+    """The thermometer reference-temperature steps read (``[reference_probe]``); None: not
+    stated, and those steps carry the meter's uncertainty alone."""
 
     @property
     def store_path(self) -> Path:
@@ -132,6 +139,7 @@ def load_station(path: Path | str) -> Station:
                 zeros[pair] = value
         zero_sec.reject_unknown()
     store = parse_store(root.table("store"))
+    probe = parse_reference_probe(root.table("reference_probe"))
     root.reject_unknown()
 
     problems = doc.problems + fixture_problems
@@ -152,6 +160,7 @@ def load_station(path: Path | str) -> Station:
         supply_caps=supply_caps,
         store=store,
         operator_required=operator_required,
+        reference_probe=probe,
     )
 
 
@@ -174,12 +183,7 @@ def _pair_problem(pair: str, fixture: FixtureMap | None) -> str:
 def _instrument(role: str, sec: Section) -> InstrumentConfig:
     driver = sec.string("driver") or ""
     resource = sec.string("resource") or ""
-    due = sec.raw("calibration_due")
-    if due is not None and not isinstance(due, dt.date):
-        sec.problem("calibration_due", f"expected a TOML date such as 2027-06-30, found {due!r}")
-        due = None
-    if isinstance(due, dt.datetime):
-        due = due.date()
+    due, allow_past_due = read_calibration(sec)
     settings_sec = sec.table("settings")
     settings = dict(settings_sec.data) if settings_sec else {}
     return InstrumentConfig(
@@ -188,7 +192,7 @@ def _instrument(role: str, sec: Section) -> InstrumentConfig:
         resource=resource,
         settings=settings,
         calibration_due=due,
-        allow_past_due=sec.boolean("allow_past_due", False),
+        allow_past_due=allow_past_due,
     )
 
 
