@@ -303,6 +303,7 @@ def _check_alone(args: argparse.Namespace, out: Output) -> int:
             f"station {station.name} ({args.station}): valid, with fixture "
             f"{station.fixture.name} ({station.fixture.path.name})"
         )
+        _show_probe(station, out)
     if unit is not None:
         model, on = unit
         out.line(f"unit {model.name} ({args.unit}): valid, on fixture {on.name} ({on.path.name})")
@@ -338,6 +339,7 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
     out.line(f"sequence {plan.sequence.name} ({args.sequence}) on station {station.name}: valid")
     if station.operator_required:
         out.line("operator: required by the station (operator_required); run with --operator NAME")
+    _show_probe(station, out)
     rows = []
     for step in plan.steps:
         spec = step.spec
@@ -400,6 +402,16 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
         finally:
             store.close()
     return 0
+
+
+def _show_probe(station: Station, out: Output) -> None:
+    """The reference thermometer the station states, as a run's record will name it."""
+    probe = station.reference_probe
+    if probe is not None:
+        due = probe.calibration_due.isoformat() if probe.calibration_due else "not given"
+        out.line(
+            f"reference probe: {probe.identity}, {probe.accuracy_text()}, calibration due {due}"
+        )
 
 
 def _limits_text(spec: StepSpec) -> str:

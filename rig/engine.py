@@ -48,6 +48,7 @@ from rig.judge.decision import (
     tur_is_low,
     worst,
 )
+from rig.judge.reference_probe import ReferenceProbe
 from rig.plan import Plan, PlannedStep
 from rig.quantity import format_quantity
 from rig.read_ahead import steps_ahead
@@ -457,6 +458,9 @@ class Engine:
                     "calibration_due": due,
                 }
             )
+        probe = self.plan.station.reference_probe
+        if probe is not None:  # the standard a reference temperature rests on
+            found.append(probe.record())
         return found
 
     def _identity(self, role: str, inst: Dmm | Supply | RelayBox) -> str:
@@ -1168,6 +1172,10 @@ class Engine:
     @property
     def fixture(self) -> FixtureMap:
         return self.plan.station.fixture
+
+    @property
+    def reference_probe(self) -> ReferenceProbe | None:
+        return self.plan.station.reference_probe
 
     def lead_zero(self, hi: str, lo: str) -> float:
         return lead_zero_ohm(self.plan.station, hi, lo)

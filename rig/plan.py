@@ -191,6 +191,13 @@ def _switching_cost(
     return relay_operations(path, start), seconds
 
 
+NO_PROBE_WARNING = (
+    "the station states no [reference_probe]: reference-temperature steps carry only the "
+    "meter's uncertainty, not the probe's own, and the record names no reference thermometer"
+)
+"""Once per sequence, however many reference-temperature steps it has."""
+
+
 def build_plan(sequence: Sequence, station: Station) -> Plan:
     """Check every route against the fixture and the interlocks, then order the steps."""
     fixture = station.fixture
@@ -264,6 +271,10 @@ def build_plan(sequence: Sequence, station: Station) -> Plan:
         planned[spec.id] = PlannedStep(spec, relay_sets, held)
     if problems:
         raise ConfigError(problems)
+    if station.reference_probe is None and any(
+        spec.kind == "reference-temperature" for spec in sequence.steps
+    ):
+        warnings.append(NO_PROBE_WARNING)
     plan = Plan(sequence, station, warnings=warnings)
     in_file = list(planned.values())
     plan.steps = in_file

@@ -21,6 +21,7 @@ from rig.engine import autorange_estimate, judge_outcome, lead_zero_ohm, reading
 from rig.errors import ConfigError, Problem, RigError
 from rig.faults import Fault
 from rig.judge.decision import Verdict
+from rig.judge.reference_probe import ReferenceProbe
 from rig.plan import Plan
 from rig.routing import Route, plan_relays
 from rig.steps import KINDS, Outcome, Reading, SupplyRequest
@@ -116,6 +117,10 @@ class _SolverContext(ConnectThenMeasure):
     @property
     def fixture(self) -> FixtureMap:
         return self.plan.station.fixture
+
+    @property
+    def reference_probe(self) -> ReferenceProbe | None:
+        return self.plan.station.reference_probe
 
     def lead_zero(self, hi: str, lo: str) -> float:
         return lead_zero_ohm(self.plan.station, hi, lo)

@@ -322,4 +322,11 @@ resource = "{relays}"
 calibration_due = 2099-12-31
 [relay_box.settings]
 timeout_ms = 500
+
+# The thermometer in the well that reference-temperature steps read 4-wire.  Identity and date
+# are invented for the virtual bench; class A is IEC 60751's +-(0.15 + 0.002 |t|) degC.
+[reference_probe]
+identity = "virtual Pt100 in the well, no. VB-0001 (invented)"
+calibration_due = 2099-12-31
+tolerance_class = "A"
 """

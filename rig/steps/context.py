@@ -7,6 +7,7 @@ from typing import Protocol
 
 from drivers.base import MeterFunction
 from rig.config.fixture import FixtureMap
+from rig.judge.reference_probe import ReferenceProbe
 from rig.routing import Route
 from rig.steps.base import Reading, SupplyRequest
 
@@ -63,6 +64,11 @@ class StepContext(Protocol):
     @property
     def fixture(self) -> FixtureMap:
         """The station's fixture map (a harness step joins its wire list to it)."""
+
+    @property
+    def reference_probe(self) -> ReferenceProbe | None:
+        """The station's reference thermometer (None: not stated): its own uncertainty is part
+        of a reference temperature's."""
 
 
 class ConnectThenMeasure(ABC):

@@ -15,6 +15,7 @@ from rig.config.model_input import above_absolute_zero, read_ratiometric, read_s
 from rig.config.reader import Section
 from rig.judge.decision import Limits
 from rig.judge.propagate import u_quotient
+from rig.judge.reference_probe import combined_u_c
 from rig.models.divider import divider_voltage, dv_dr_sensor
 from rig.models.ntc import BetaNtc, NtcModel
 from rig.models.ratiometric import Ratiometric
@@ -27,7 +28,9 @@ from rig.steps.pins import read_pins, read_supply
 
 
 class ReferenceTemperature(StepKind):
-    """Ambient from the bench Pt100 (IEC 60751), measured 4-wire on its own pins."""
+    """Ambient from the bench Pt100 (IEC 60751), measured 4-wire on its own pins.  Its
+    uncertainty is the meter's and, where the station states its ``[reference_probe]``, the
+    probe's own, combined."""
 
     name = "reference-temperature"
     unit = "degC"
@@ -70,8 +73,13 @@ class ReferenceTemperature(StepKind):
         if not math.isfinite(r.value) or r.value <= 0:
             return Outcome(math.nan, self.unit, math.nan, spec.limits, [r], note="no Pt100 reading")
         temp = float(rtd.t_at(r.value))
-        u_temp = r.u_std / float(rtd.dr_dt(temp))
-        return Outcome(temp, self.unit, u_temp, spec.limits, [r], extras={"r_ohm": r.value})
+        u_meter = r.u_std / float(rtd.dr_dt(temp))
+        probe = ctx.reference_probe
+        extras = {"r_ohm": r.value}
+        if probe is not None:  # each part kept, so the record shows what U is made of
+            extras |= {"u_meter_c": u_meter, "u_probe_c": probe.u_std_c(temp)}
+        u_temp = combined_u_c(u_meter, probe, temp)
+        return Outcome(temp, self.unit, u_temp, spec.limits, [r], extras=extras)
 
 
 def _read_ntc_model(sec: Section) -> NtcModel | None:
