@@ -54,6 +54,7 @@ PAGES: dict[str, list[Run]] = {
         _cli("run", "bad/sequence.toml", "--station", "bad/st5.toml", "--serial", "D1", "--yes"),
         _check("st6"),
         _cli("run", "bad/sequence.toml", "--station", "bad/st7.toml", "--serial", "D1", "--yes"),
+        _check("st8"),
     ],
     "unit-file.md": [
         _cli("check", "--unit", f"bad/{name}.toml")
