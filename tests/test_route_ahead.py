@@ -27,6 +27,7 @@ from rig.config.fixture import FixtureMap
 from rig.engine import Bench, Engine, RunSummary, make_safe
 from rig.events import Event, RunStarted, StepFinished, StepStarted
 from rig.judge.decision import Verdict
+from rig.judge.reference_probe import ReferenceProbe
 from rig.plan import Plan
 from rig.routing import Route, plan_relays
 from rig.runner import load_plan
@@ -94,6 +95,10 @@ class RecordingContext:
     @property
     def fixture(self) -> FixtureMap:
         return self.plan.station.fixture
+
+    @property
+    def reference_probe(self) -> ReferenceProbe | None:
+        return self.plan.station.reference_probe
 
 
 @pytest.mark.parametrize("sequence", SHIPPED)
