@@ -3,6 +3,7 @@ pty to the relay box, a real SQLite store; through ``rig run`` and ``rig harness
 
 from __future__ import annotations
 
+import hashlib
 import json
 import re
 import sqlite3
@@ -162,7 +163,8 @@ def test_group_isolation_through_the_real_stack_agrees_with_pair_by_pair(tmp_pat
     # the record names the wire list the harness was proved against, not only its hash
     assert named == [
         (
-            f"rig harness check: {wires.path.parent.name}/{wires.path.name}",
+            f"rig harness check: {wires.path.parent.name}/{wires.path.name} (list "
+            f"{hashlib.sha256(wires.path.read_bytes()).hexdigest()[:8]})",
             f"rig harness check of {wires.path} (command line)",
         )
     ]
@@ -465,3 +467,19 @@ def test_spare_pins_are_the_unused_cavities_of_the_harness_connectors() -> None:
     wires = load_wire_list(SHIPPED / "wire-list.csv", fixture)
     assert spare_pins(wires, fixture) == ["J1-11", "J1-12", "J2-7"]
     assert plant_faults(10, 0, [], 0)  # the helper plants at least one fault
+
+
+def test_two_lists_of_one_folder_and_file_name_are_kept_apart_and_one_list_is_one(
+    tmp_path: Path,
+) -> None:
+    # rig stats groups harness runs by this name: another list that happens to be called
+    # h/wires.csv (or an edited revision) must not share a row; a copy of one list does
+    from rig.commands.harness import harness_sequence_name
+
+    first, other, copy = (tmp_path / d / "h" / "wires.csv" for d in ("a", "b", "c"))
+    for path, text in ((first, "W1\n"), (other, "W2\n"), (copy, "W1\n")):
+        path.parent.mkdir(parents=True)
+        path.write_text(text, encoding="utf-8")
+    names = [harness_sequence_name("check", p) for p in (first, other, copy)]
+    assert names[0] != names[1] and names[0] == names[2]
+    assert names[0].startswith("rig harness check: h/wires.csv (list ")

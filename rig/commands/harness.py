@@ -8,6 +8,7 @@ stored and the bench ends in the safe state exactly as with ``rig run``.
 from __future__ import annotations
 
 import argparse
+import hashlib
 import json
 from pathlib import Path
 
@@ -87,6 +88,21 @@ def harness_source(what: str, subject: Path) -> Path:
 _COMMAND_LINE = "(command line)"
 
 
+def harness_sequence_name(what: str, subject: Path) -> str:
+    """The sequence name a harness run is recorded under, which ``rig stats`` groups by: the
+    list's folder and file name, and for a check the start of the list's SHA-256, so two
+    different lists of one name (another folder of that name, an edited revision) never share
+    a row, and one list stays one row wherever it is kept."""
+    named = f"rig harness {what}: {subject.parent.name}/{subject.name}"
+    if what != "check":  # a capture's subject is the file it is about to write
+        return named
+    try:
+        digest = hashlib.sha256(subject.read_bytes()).hexdigest()[:8]
+    except OSError:  # unreadable: the list's own loading says why
+        return named
+    return f"{named} (list {digest})"
+
+
 def harness_run_of(sequence_path: str) -> tuple[str, str] | None:
     """The verb (check, capture) and wire list of a run ``rig harness`` made, from what its
     record keeps as its sequence (``harness_source``); None for a run of a sequence file."""
@@ -157,8 +173,8 @@ def _run(
     if unreadable:
         raise ConfigError(unreadable)
     source = harness_source(what, subject)
-    named = f"{subject.parent.name}/{subject.name}"  # two lists of one name in two folders differ
-    doc = TomlDoc(source, _sequence_text(f"rig harness {what}: {named}", keys))
+    named = harness_sequence_name(what, subject)
+    doc = TomlDoc(source, _sequence_text(named, keys))
     sequence = parse_sequence(doc)
     if doc.problems:  # a value the step refuses (below absolute zero): named by its option
         raise ConfigError([_as_option(p) for p in doc.problems])
