@@ -555,7 +555,7 @@ def _screen_decision(plan: Plan, summary: RunSummary) -> ScreenDecision | None:
     from rig.screening import is_screen, screen_decision
     from rig.steps import KINDS
 
-    units = {r.unit for r in summary.results} | {KINDS[p.spec.kind].unit for p in plan.steps}
+    units = {KINDS[p.spec.kind].unit for p in plan.steps}
     if not is_screen(units):
         return None
     return screen_decision(summary.status, summary.verdict.value)

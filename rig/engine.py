@@ -296,10 +296,11 @@ class Engine:
         self._run_notes = notes
         self._warnings = list(warnings or [])
         counts_before = self._relay_counts()  # the safe start's own openings are this run's
+        step_ids = tuple(p.spec.id for p in self.plan.steps)  # in run order
         # the store's writes at the start commit on its worker while the instruments are asked
         abandoned = self._writes.meanwhile("mark_incomplete", station.name, INCOMPLETE_REASON)
         try:
-            identities = self._identities(notes)
+            identities = self._identities()
             self._warn(*abandoned_notes(abandoned.result()))
             done: dict[str, StepResult] = {}
             if resume is None:
@@ -317,7 +318,7 @@ class Engine:
                         instruments=tuple(identities),
                         study_part=study_part,
                         study_trial=study_trial,
-                        planned_steps=tuple(p.spec.id for p in self.plan.steps),
+                        planned_steps=step_ids,
                     ),
                 )
                 wear = self._writes.meanwhile("relay_wear", station.name)
@@ -327,7 +328,7 @@ class Engine:
                 cont = continuation(self.store, resume, self.plan)
                 run_id, serial, done = cont.run_id, cont.serial, cont.done
                 self._done_ids = frozenset(done)
-                self.store.reopen_run(run_id, [p.spec.id for p in self.plan.steps])
+                self.store.reopen_run(run_id, step_ids)
                 notes.append(
                     f"continued after an interruption; {len(done)} of {len(self.plan.steps)} steps "
                     "were already done"
@@ -351,9 +352,7 @@ class Engine:
         begun: str | None = None  # the step under way, until its result is in
         interrupted: BaseException | None = None
         try:  # from here on, however the run ends, it ends safe and recorded
-            self.listener(
-                RunStarted(run_id, serial, sequence.name, tuple(p.spec.id for p in self.plan.steps))
-            )
+            self.listener(RunStarted(run_id, serial, sequence.name, step_ids))
             self._warn(*wear_warnings(wear.result(), station.fixture))
             if start_problem is not None:  # raised here: the run ends as any other, recorded
                 raise start_problem
@@ -440,7 +439,7 @@ class Engine:
             raise interrupted
         return summary
 
-    def _identities(self, notes: list[str]) -> list[dict[str, str]]:
+    def _identities(self) -> list[dict[str, str]]:
         found = []
         for role, inst in (
             ("dmm", self.bench.dmm),

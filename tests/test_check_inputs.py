@@ -101,12 +101,18 @@ def test_a_file_alone_is_one_line_when_valid(
     assert out.splitlines() == [line.replace(option[2:].upper(), str(example[name]))]
 
 
-def test_several_files_alone_are_checked_together(
-    example: dict[str, Path], tmp_path: Path, capsys: pytest.CaptureFixture[str]
-) -> None:
+def _bad_station(example: dict[str, Path], tmp_path: Path) -> Path:
+    """The docs' example station with one mistake: a watchdog time with no unit."""
     station = tmp_path / "bad-station.toml"
     text = example["station.toml"].read_text(encoding="utf-8")
     station.write_text(text.replace('watchdog = "2 s"', 'watchdog = "2"'), encoding="utf-8")
+    return station
+
+
+def test_several_files_alone_are_checked_together(
+    example: dict[str, Path], tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    station = _bad_station(example, tmp_path)
     args = ["--station", station, "--unit", example["bad-unit.toml"]]
     code, out, err = check(capsys, *args, "--fixture", example["fixture.toml"])
     assert code == 2 and out == ""
@@ -172,9 +178,7 @@ def test_rig_run_reports_every_input_before_the_caution(
 def test_coverage_reports_its_station_sequence_and_unit_together(
     example: dict[str, Path], tmp_path: Path, capsys: pytest.CaptureFixture[str]
 ) -> None:
-    station = tmp_path / "bad-station.toml"
-    text = example["station.toml"].read_text(encoding="utf-8")
-    station.write_text(text.replace('watchdog = "2 s"', 'watchdog = "2"'), encoding="utf-8")
+    station = _bad_station(example, tmp_path)
     sequence = tmp_path / "bad-sequence.toml"
     sequence.write_text('[sequence]\nname = "x"\n', encoding="utf-8")
     args = ["coverage", str(sequence), "--station", str(station)]
