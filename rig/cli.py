@@ -517,7 +517,7 @@ def _duration(seconds: float) -> str:
 def _estimate(plan: Plan, step: PlannedStep) -> tuple[str, str, str]:
     """The planned range, and the expanded uncertainty and TUR at the upper (or lower) limit."""
     from rig.config.station import FUNCTIONS
-    from rig.engine import uncertainty_at_limit
+    from rig.step_judging import uncertainty_at_limit
     from rig.steps import KINDS
 
     spec = step.spec
@@ -561,21 +561,12 @@ def _screen_decision(plan: Plan, summary: RunSummary) -> ScreenDecision | None:
     return screen_decision(summary.status, summary.verdict.value)
 
 
-def serial_problem(serial: str) -> str:
-    """Why ``--serial`` cannot name the unit in a record, or empty when it can: a run filed under
-    a blank serial cannot be found again."""
-    return "" if serial.strip() else "--serial: the unit's serial number is blank; give it"
+def serial_option_problem(serial: str) -> str:
+    """``serial_problem`` in the words of the option that gave the serial."""
+    from rig.run_admission import serial_problem
 
-
-def operator_problem(station: Station, operator: str) -> str:
-    """Why a run may not start under ``operator``, or empty when it may: a station that must
-    record who tested each unit refuses a run with no name, before any instrument is opened."""
-    if not station.operator_required or operator.strip():
-        return ""
-    return (
-        f"{station.path} sets operator_required = true under [station]: give --operator NAME "
-        "(who tests; it is recorded with the run)"
-    )
+    problem = serial_problem(serial)
+    return f"--serial: {problem}" if problem else ""
 
 
 def _answer(question: str, *, to_stderr: bool) -> str:
@@ -593,11 +584,12 @@ def _answer(question: str, *, to_stderr: bool) -> str:
 
 def cmd_run(args: argparse.Namespace, out: Output) -> int:
     from rig.engine import StopRequested
+    from rig.run_admission import operator_problem
     from rig.runner import load_inputs, run_plan
     from rig.stats.study import study_problem
 
     continuing = getattr(args, "resume", None) is not None  # its serial is the record's own
-    problem = ("" if continuing else serial_problem(args.serial)) or study_problem(
+    problem = ("" if continuing else serial_option_problem(args.serial)) or study_problem(
         args.study_part, args.study_trial, args.operator
     )
     if problem:

@@ -15,14 +15,14 @@ import math
 import threading
 import time
 from collections import deque
-from collections.abc import Callable, Mapping
+from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 from typing import Any, cast
 
 from drivers.base import Dmm, MeterFunction, RelayBox, Supply
 from rig.commit_ahead import CommitAhead, Pending, RowTicket
 from rig.config.fixture import Bus, FixtureMap
-from rig.config.station import FUNCTIONS, Station
+from rig.config.station import FUNCTIONS
 from rig.deadline import wait_until
 from rig.entry_text import kept_entry_text
 from rig.errors import InstrumentError, InterlockError, RigError
@@ -40,28 +40,29 @@ from rig.events import (
 )
 from rig.instrument_faults import SupplyWentOff, is_transient, plain_reason
 from rig.judge.decision import (
-    DecisionRule,
+    COVERAGE_K,
     Verdict,
-    is_no_reading,
-    judge,
-    test_uncertainty_ratio,
     tur_is_low,
     worst,
 )
 from rig.judge.reference_probe import ReferenceProbe
 from rig.plan import Plan, PlannedStep
-from rig.quantity import format_quantity
 from rig.read_ahead import steps_ahead
 from rig.reading_guard import guard_verdict, reading_problems
 from rig.resume import INCOMPLETE_REASON, abandoned_notes, continuation
 from rig.routing import Route, plan_relays
+from rig.run_admission import refuse_unfiled
+from rig.step_judging import (
+    autorange_estimate,
+    judge_outcome,
+    lead_zero_ohm,
+    no_uncertainty_note,
+    reading_u,
+)
 from rig.steps import KINDS, Outcome, Reading, StepSpec, SupplyRequest
 from rig.store import ResultStore, RunHeader, StoreError
 
 log = logging.getLogger(__name__)
-
-COVERAGE_K = 2.0
-"""Coverage factor for expanded uncertainty: about 95 % (JCGM 100:2008, 6.2)."""
 
 
 @dataclass
@@ -291,6 +292,8 @@ class Engine:
         kept, byte_notes = kept_entry_text({"serial": serial, "operator": operator})
         serial, operator = kept["serial"], kept["operator"]
         station = self.plan.station
+        # the commands ask first; this holds for every other caller
+        refuse_unfiled(station, serial, operator, continuing=resume is not None)
         sequence = self.plan.sequence
         notes = [*(notes or []), *(warnings or []), *byte_notes]
         self._run_notes = notes
@@ -1188,99 +1191,6 @@ class Engine:
             time.sleep(min(0.05, max(0.0, end - time.monotonic())))
 
 
-def judge_outcome(
-    spec: StepSpec, outcome: Outcome, *, error: bool
-) -> tuple[Verdict, float, float | None]:
-    """Verdict, expanded uncertainty (k = COVERAGE_K) and TUR of one step's outcome; shared with
-    the analysis tools so that a prediction is judged exactly as a run is."""
-    expanded = COVERAGE_K * outcome.u_std if math.isfinite(outcome.u_std) else math.nan
-    tur = None
-    if error:
-        verdict = Verdict.ERROR
-    elif outcome.limits is None:
-        verdict = Verdict.PASS if math.isfinite(outcome.value) else Verdict.FAIL
-    else:
-        verdict = judge(
-            outcome.value,
-            outcome.limits,
-            expanded if math.isfinite(expanded) else 0.0,
-            spec.rule,
-        )
-        if math.isfinite(expanded) and expanded > 0:
-            tur = test_uncertainty_ratio(outcome.limits, expanded)
-    return verdict, expanded, tur
-
-
-def no_uncertainty_note(
-    spec: StepSpec, outcome: Outcome, earlier: Mapping[str, StepResult], station: Station
-) -> str:
-    """The note of a step judged against limits with no uncertainty, saying why (empty where
-    it has one, or nothing was read): such a verdict could not weigh the meter's error, so it
-    must not pass without a word."""
-    if outcome.limits is None or is_no_reading(outcome.value) or math.isfinite(outcome.u_std):
-        return ""
-    causes = [_why_no_u(r, station) for r in outcome.readings if not math.isfinite(r.u_std)]
-    causes += [
-        f"step {ref}'s value has none"
-        for ref in spec.depends_on
-        if ref in earlier and not math.isfinite(earlier[ref].u_std)
-    ]
-    text = "judged with no uncertainty"
-    if spec.rule is DecisionRule.GUARDED:
-        text += ", so without the guarded rule's guard band"
-    return f"{text}: {'; '.join(causes)}" if causes else text
-
-
-def _why_no_u(reading: Reading, station: Station) -> str:
-    """Why one reading has no uncertainty, in the station file's words."""
-    if reading.function == "supply-current":
-        return "the supply's current readback has none: the station states no accuracy for it"
-    if is_no_reading(reading.value):
-        return f"the {reading.function} reading is no reading"
-    unit = FUNCTIONS.get(reading.function, "")
-    value = format_quantity(reading.value, unit)
-    try:
-        top = station.dmm_accuracy.ranges(reading.function)[-1]
-    except ValueError:
-        return f"the {reading.function} reading {value} has none"
-    return (
-        f"the {reading.function} reading {value} is above the largest {reading.function} range "
-        f"of the station's accuracy table ({format_quantity(top, unit)})"
-    )
-
-
-def uncertainty_at_limit(
-    station: Station, spec: StepSpec, range_: float | None
-) -> tuple[float, float | None] | None:
-    """The expanded uncertainty (k = COVERAGE_K) of a reading at the step's upper limit (its
-    lower one where it has no upper) on ``range_``, and the test uncertainty ratio of its limits
-    (None for one-sided limits): what ``rig check`` shows for a step and ``rig limits`` for a
-    proposal.  None where no range is held, or the limits are not in the meter's unit."""
-    kind = KINDS[spec.kind]
-    function = kind.meter_function(spec)
-    limits = spec.limits
-    if function is None or range_ is None or limits is None or not kind.limits_in_meter_units:
-        return None
-    at = limits.high if limits.high is not None else limits.low
-    assert at is not None  # Limits has at least one side
-    try:
-        accuracy = station.dmm_accuracy.spec_for(function.value, range_)
-    except ValueError:
-        return None
-    expanded = COVERAGE_K * accuracy.standard_uncertainty(at, range_)
-    return expanded, test_uncertainty_ratio(limits, expanded)
-
-
-def autorange_estimate(station: Station, function: MeterFunction, value: float) -> float | None:
-    """The range autorange would pick for ``value`` (None for no reading)."""
-    if not math.isfinite(value):
-        return None
-    try:
-        return float(station.dmm_accuracy.range_for(function.value, abs(value)))
-    except ValueError:
-        return None
-
-
 def _row_fields(reading: Reading, settled: bool) -> dict[str, Any]:
     """A reading as the store's ``add_reading`` takes it."""
     return {
@@ -1293,25 +1203,6 @@ def _row_fields(reading: Reading, settled: bool) -> dict[str, Any]:
         "taken_at": reading.taken_at,
         "settled": settled,
     }
-
-
-def lead_zero_ohm(station: Station, hi: str, lo: str) -> float:
-    """The station's stored fixture lead resistance for a pin pair, either way round (0: none)."""
-    zeros = station.lead_zero_ohm
-    return zeros.get(f"{hi}:{lo}", zeros.get(f"{lo}:{hi}", 0.0))
-
-
-def reading_u(
-    station: Station, function: MeterFunction, value: float, range_: float | None
-) -> float:
-    """Standard uncertainty of one reading from the station's accuracy table (GUM 4.3.7)."""
-    if not math.isfinite(value) or range_ is None:
-        return math.nan
-    try:
-        spec = station.dmm_accuracy.spec_for(function.value, range_)
-    except ValueError:
-        return math.nan
-    return float(spec.standard_uncertainty(value, range_))
 
 
 def _now() -> str:

@@ -14,6 +14,7 @@ from rig.engine import Engine, RunSummary
 from rig.errors import ConfigError, Problem
 from rig.events import Event
 from rig.plan import Plan, build_plan
+from rig.run_admission import refuse_unfiled
 from rig.store import ResultStore
 from rig.store_sync import SyncReport, send_waiting_runs
 
@@ -62,6 +63,7 @@ def run_plan(
 
     With its own store and a results server configured, runs waiting in the station's file are
     sent before the run and this one after it (``on_sync`` hears how that went)."""
+    refuse_unfiled(plan.station, serial, operator, continuing=resume is not None)  # before opening
     warnings = check_calibration(plan.station)
     own_store = store is None
     if own_store:

@@ -654,7 +654,7 @@ class ResultStore:
 
 def _run_where(where: RunFilter) -> tuple[str, list[Any]]:
     """A WHERE clause on runs (alias ``r``) with ``?`` placeholders, and its parameters."""
-    parts = ["r.study_part <> ''" if where.study else "r.study_part = ''"]
+    parts = [{None: "1 = 1", True: "r.study_part <> ''", False: "r.study_part = ''"}[where.study]]
     params: list[Any] = []
     for column, value in (("sequence_name", where.sequence), ("station", where.station)):
         if value is not None:

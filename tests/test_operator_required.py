@@ -16,15 +16,19 @@ from pathlib import Path
 import pytest
 from bench_helpers import SEQUENCES, shipped_bench
 
+from rig.bench_open import close_bench, open_bench
 from rig.cli import EXIT_BAD_INPUT, EXIT_PASS, main
 from rig.config.fixture import load_fixture
 from rig.config.station import load_station
 from rig.config.unit_file import load_unit
+from rig.engine import Engine
 from rig.errors import ConfigError
+from rig.run_admission import RunRefused
 from rig.runner import load_plan, run_plan
 from rig.sim.bench import VirtualBench
 from rig.sim.fault_drill import DRILL_SEQUENCE, UNIT_FILE
 from rig.sim.harness_bench import harness_bench, write_invented
+from rig.store import ResultStore
 
 SEQUENCE = SEQUENCES / "temp-circuit-check.toml"
 SETTING = "operator_required = true"
@@ -82,6 +86,28 @@ def test_run_refuses_without_an_operator_and_records_the_one_given(
         assert bench.relay_box.lines_handled == 0 and _runs(station) == []
         assert main([*base, "--operator", "kim"]) == EXIT_PASS
     assert [run[0] for run in _runs(station)] == ["kim"]
+
+
+def test_the_engine_itself_refuses_a_run_with_no_name_or_no_serial(tmp_path: Path) -> None:
+    """Callers other than the commands (a script, the console's worker) go through the engine:
+    it refuses too, before any relay moves and before anything is recorded."""
+    with shipped_bench("temp-circuit", folder=tmp_path) as (bench, st):
+        plan = load_plan(SEQUENCE, _require_operator(st.path))
+        with pytest.raises(RunRefused, match="operator_required = true"):
+            run_plan(plan, "A1", operator=" ")
+        with pytest.raises(RunRefused, match="serial number is blank"):
+            run_plan(plan, "  ", operator="kim")
+        assert bench.relay_box.lines_handled == 0 and _runs(st.path) == []
+        opened, store = open_bench(plan.station), ResultStore(plan.station.store_path)
+        try:
+            with pytest.raises(RunRefused, match="operator_required = true"):
+                Engine(plan, opened, store).run("A1", operator="")
+        finally:
+            close_bench(opened)
+            store.close()
+        assert _runs(st.path) == []
+        assert run_plan(plan, "A1", operator="kim").verdict.value == "pass"
+    assert [run[0] for run in _runs(st.path)] == ["kim"]
 
 
 def test_harness_check_and_capture_refuse_without_an_operator(

@@ -11,9 +11,9 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from rig.engine import judge_outcome
 from rig.judge.decision import DecisionRule, Limits, Verdict
 from rig.reading_guard import OVERRANGE_FACTOR, guard_verdict, reading_problems
+from rig.step_judging import judge_outcome
 from rig.steps.base import Outcome, Reading, StepSpec
 
 # SCPI-1999: 9.9E37 is overload (+infinity), -9.9E37 negative infinity, 9.91E37 not a number;

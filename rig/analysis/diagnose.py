@@ -26,12 +26,12 @@ from rig.analysis.fault_set import drifting_sensors, single_faults, where
 from rig.analysis.predict import SequencePredictor
 from rig.config.station import Station
 from rig.config.unit_file import UnitModel
-from rig.engine import autorange_estimate, reading_u
 from rig.errors import InterlockError
 from rig.faults import Fault
 from rig.plan import Plan
 from rig.routing import Route, interlock_violations, relays_for
 from rig.sim.sim_dmm import OVERRANGE_FACTOR, SPECS
+from rig.step_judging import autorange_estimate, reading_u
 from rig.store import ResultStore
 
 PRIOR = {

@@ -39,12 +39,12 @@ from rig.analysis.montecarlo import (
 )
 from rig.analysis.predict import SequencePredictor, StepPrediction
 from rig.config.unit_file import UnitModel
-from rig.engine import uncertainty_at_limit
 from rig.faults import Fault
 from rig.judge.decision import TUR_MINIMUM, Limits, Verdict, tur_is_low, tur_text
 from rig.models._common import ModelInputError
 from rig.plan import Plan, held_range
 from rig.quantity import parse_quantity
+from rig.step_judging import uncertainty_at_limit
 from rig.steps import StepSpec
 
 MIN_TAIL = 200

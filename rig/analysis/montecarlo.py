@@ -36,6 +36,7 @@ from rig.models._common import ModelInputError
 from rig.models.divider import divider_voltage
 from rig.models.rtd import Rtd
 from rig.plan import Plan
+from rig.step_judging import lead_zero_ohm
 from rig.steps import KINDS, StepSpec
 
 PRUNE_FRACTION = 1e-4
@@ -154,9 +155,7 @@ def step_value(spec: StepSpec, readings: Mapping[str, FloatArray], station: Stat
             return raw - float(spec.params["zero_ohm"])
         if spec.params.get("wires") == 4:
             return raw
-        zeros = station.lead_zero_ohm
-        hi, lo = spec.pins["hi"], spec.pins["lo"]
-        return raw - zeros.get(f"{hi}:{lo}", zeros.get(f"{lo}:{hi}", 0.0))
+        return raw - lead_zero_ohm(station, spec.pins["hi"], spec.pins["lo"])
     if spec.kind == "reference-temperature":
         r0 = float(spec.params["r0_ohm"])
         return model_or_nan(Rtd(r0_ohm=r0).t_at, readings["pt-4w"], r0)

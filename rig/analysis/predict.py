@@ -17,13 +17,13 @@ from drivers.base import MeterFunction
 from rig.analysis.bench_model import Condition, StaticBench
 from rig.config.fixture import FixtureMap
 from rig.config.unit_file import UnitModel
-from rig.engine import autorange_estimate, judge_outcome, lead_zero_ohm, reading_u
 from rig.errors import ConfigError, Problem, RigError
 from rig.faults import Fault
 from rig.judge.decision import Verdict
 from rig.judge.reference_probe import ReferenceProbe
 from rig.plan import Plan
 from rig.routing import Route, plan_relays
+from rig.step_judging import autorange_estimate, judge_outcome, lead_zero_ohm, reading_u
 from rig.steps import KINDS, Outcome, Reading, SupplyRequest
 from rig.steps.context import ConnectThenMeasure
 

@@ -63,8 +63,9 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
 
 
 def cmd_console(args: argparse.Namespace, out: Output) -> int:
-    from rig.cli import EXIT_BAD_INPUT, operator_problem
+    from rig.cli import EXIT_BAD_INPUT
     from rig.console import ConsoleApp
+    from rig.run_admission import operator_problem
 
     problem = _argument_problem(args)
     if problem:

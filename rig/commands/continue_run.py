@@ -39,9 +39,10 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
 
 
 def cmd_continue(args: argparse.Namespace, out: Output) -> int:
-    from rig.cli import EXIT_BAD_INPUT, _parser, cmd_run, operator_problem
+    from rig.cli import EXIT_BAD_INPUT, _parser, cmd_run
     from rig.config.station import load_station
     from rig.resume import ResumeRefused
+    from rig.run_admission import operator_problem
     from rig.store import ResultStore, StoreError
 
     station = load_station(args.station)

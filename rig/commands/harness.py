@@ -155,16 +155,17 @@ def _run(
     """One harness-proof step through the engine.  Its record names ``subject`` (the wire list
     checked against, or the one a capture writes): in the sequence's name, so that statistics
     keep each wire list's harnesses apart, and in the sequence's place."""
-    from rig.cli import EXIT_BAD_INPUT, _exit_code, operator_problem, serial_problem
+    from rig.cli import EXIT_BAD_INPUT, _exit_code, serial_option_problem
     from rig.config.reader import TomlDoc
     from rig.config.sequence import parse_sequence
     from rig.config.station import load_station
     from rig.errors import ConfigError
     from rig.plan import build_plan
+    from rig.run_admission import operator_problem
     from rig.runner import run_plan
 
     station = load_station(args.station)
-    problem = serial_problem(args.serial) or operator_problem(station, args.operator)
+    problem = serial_option_problem(args.serial) or operator_problem(station, args.operator)
     if problem:
         out.error(f"rig: {problem}")
         return EXIT_BAD_INPUT

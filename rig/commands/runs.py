@@ -50,13 +50,10 @@ def cmd_runs(args: argparse.Namespace, out: Output) -> int:
         out.error(f"rig: {exc}")
         return EXIT_BAD_INPUT
     try:
-        rows = [*store.run_rows(where), *store.run_rows(replace(where, study=True))]
+        rows = store.run_rows(replace(where, study=None))
     finally:
         store.close()
-    found = sorted(
-        (_row(r) for r in rows if args.serial is None or r[1] == args.serial),
-        key=lambda r: (r["started"], r["run"]),
-    )
+    found = [_row(r) for r in rows if args.serial is None or r[1] == args.serial]  # oldest first
     if args.json:
         out.json({"runs": found})
         return EXIT_OK

@@ -17,14 +17,11 @@ from drivers.base import MeterFunction
 from rig.config.fixture import Bus, FixtureMap
 from rig.harness.conductors import Allowances, PathLimit, path_limit
 from rig.harness.wire_list import Net, WireList
-from rig.judge.decision import DecisionRule, Limits, Verdict, judge
+from rig.judge.decision import COVERAGE_K, DecisionRule, Limits, Verdict, judge
 from rig.routing import Route
 
 if TYPE_CHECKING:
     from rig.steps.base import Reading
-
-COVERAGE_K = 2.0
-"""Coverage factor for the expanded uncertainty of a reading (JCGM 100:2008, 6.2)."""
 
 
 class MeasurePort(Protocol):

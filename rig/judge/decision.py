@@ -23,6 +23,9 @@ from rig.models._common import ModelInputError, require_finite
 SCPI_OVERLOAD = 9.9e37
 """SCPI's overload / infinity value; anything at or beyond it is no reading at all."""
 
+COVERAGE_K = 2.0
+"""Coverage factor for expanded uncertainty: about 95 % (JCGM 100:2008, 6.2)."""
+
 TUR_MINIMUM = 4.0
 """Usual minimum test uncertainty ratio (common practice in calibration, no published source)."""
 

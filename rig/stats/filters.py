@@ -21,8 +21,8 @@ class RunFilter:
     since: dt.date | None = None
     until: dt.date | None = None
     serial_prefix: str | None = None
-    study: bool = False
-    """False: production runs only (no gauge-study runs); True: study runs only."""
+    study: bool | None = False
+    """False: production runs only (no gauge-study runs); True: study runs only; None: both."""
 
     def started_from(self) -> str | None:
         """The earliest ``started_at`` included, as the ISO text the store keeps."""
