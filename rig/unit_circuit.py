@@ -3,7 +3,8 @@
 The same builder serves the virtual bench, fault coverage and Monte Carlo, so that every tool sees
 the same physics.  Every wire is built as two halves around a midpoint node: a short "along the
 wire" joins that midpoint, a series fault adds to the first half, an open makes the first half a
-leakage-sized resistance.  Element names follow a fixed scheme (``wire:NAME:a``, ``ntc:NAME`` ...)
+leakage-sized resistance.  Element names follow a fixed scheme (``wire:NAME:a``, ``ntc:NAME``,
+``rtd:NAME`` ...)
 so that faults and parameter sweeps can address them.
 """
 
@@ -18,6 +19,7 @@ from rig.config.unit_file import (
     NtcSensor,
     Potentiometer,
     RatiometricSensor,
+    RtdSensor,
     SwitchSensor,
     UnitModel,
     Wire,
@@ -99,6 +101,10 @@ def build_unit_circuit(unit: UnitModel, faults: list[Fault] | None = None) -> Un
             temp = ambient if sensor.temp_c is None else sensor.temp_c
             r = float(ntc_model(sensor).r_at(temp)) * factor
             c.resistor(f"ntc:{sensor.name}", sensor.a, sensor.b, r)
+        elif isinstance(sensor, RtdSensor):
+            temp = ambient if sensor.temp_c is None else sensor.temp_c
+            r = float(Rtd(r0_ohm=sensor.r0_ohm).r_at(temp)) * factor
+            c.resistor(f"rtd:{sensor.name}", sensor.a, sensor.b, r)
         elif isinstance(sensor, RatiometricSensor):
             _add_ratiometric(c, sensor, unit.pressure_pa, factor)
         elif isinstance(sensor, Potentiometer):

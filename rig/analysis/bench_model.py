@@ -16,7 +16,13 @@ import numpy.typing as npt
 from drivers.base import MeterFunction
 from rig.circuit import BatchSolution, Kind, solve_batch
 from rig.config.fixture import Bus, FixtureMap
-from rig.config.unit_file import NtcSensor, Potentiometer, RatiometricSensor, UnitModel
+from rig.config.unit_file import (
+    NtcSensor,
+    Potentiometer,
+    RatiometricSensor,
+    RtdSensor,
+    UnitModel,
+)
 from rig.faults import Fault
 from rig.sim.circuit_probe import (
     DCI_SHUNT_OHM,
@@ -298,6 +304,8 @@ def drift_element(unit: UnitModel, sensor: str) -> str:
     part = unit.sensors[sensor]
     if isinstance(part, NtcSensor):
         return f"ntc:{sensor}"
+    if isinstance(part, RtdSensor):
+        return f"rtd:{sensor}"
     if isinstance(part, RatiometricSensor):
         return f"rat:{sensor}:gain"
     if isinstance(part, Potentiometer):

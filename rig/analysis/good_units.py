@@ -12,7 +12,7 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
-from rig.config.unit_file import NtcSensor, RatiometricSensor, UnitModel
+from rig.config.unit_file import NtcSensor, RatiometricSensor, RtdSensor, UnitModel
 from rig.models.copper import wire_resistance_ohm
 from rig.models.ratiometric import Ratiometric
 from rig.models.rtd import TOLERANCE_CLASSES, Rtd
@@ -86,10 +86,18 @@ class GoodUnitSampler:
                 self.draws.append(
                     Draw(f"sensors.{sensor.name}.fraction", spread, UNIFORM, UNIFORM_PART)
                 )
-        if u.probe is not None and u.probe.tolerance_class:
-            a, b = TOLERANCE_CLASSES[u.probe.tolerance_class]
-            spread = f"class {u.probe.tolerance_class}: ±({a:g} + {b:g}|t|) degC (IEC 60751)"
-            self.draws.append(Draw("reference_probe", spread, UNIFORM, UNIFORM_PART))
+        classes = [
+            (f"sensors.{s.name}", s.tolerance_class)
+            for s in u.sensors.values()
+            if isinstance(s, RtdSensor)
+        ]
+        if u.probe is not None:
+            classes.append(("reference_probe", u.probe.tolerance_class))
+        for what, cls in classes:
+            if cls:
+                a, b = TOLERANCE_CLASSES[cls]
+                spread = f"class {cls}: ±({a:g} + {b:g}|t|) degC (IEC 60751)"
+                self.draws.append(Draw(what, spread, UNIFORM, UNIFORM_PART))
 
     def sample(self, rng: np.random.Generator, n: int) -> Samples:
         u = self.unit
@@ -121,14 +129,30 @@ class GoodUnitSampler:
                 t = sensor.fraction_tolerance_pct
                 nominal = _fraction(sensor, u.pressure_pa)
                 values[f"rat:{sensor.name}:gain"] = nominal + rng.uniform(-t, t, size=n) / 100.0
+        for sensor in u.sensors.values():
+            if isinstance(sensor, RtdSensor):
+                temp = ambient if sensor.temp_c is None else np.full(n, sensor.temp_c)
+                values[f"rtd:{sensor.name}"] = _rtd_element(
+                    rng, sensor.r0_ohm, sensor.tolerance_class, temp
+                )
         if u.probe is not None:
-            # the class tolerance is a deviation from the curve at the element's temperature
-            deviation = np.zeros(n)
-            if u.probe.tolerance_class:
-                a, b = TOLERANCE_CLASSES[u.probe.tolerance_class]
-                deviation = (a + b * np.abs(ambient)) * rng.uniform(-1.0, 1.0, size=n)
-            values["probe:element"] = Rtd(r0_ohm=u.probe.r0_ohm).r_of_element(ambient, deviation)
+            values["probe:element"] = _rtd_element(
+                rng, u.probe.r0_ohm, u.probe.tolerance_class, ambient
+            )
         return Samples(n, values, ambient)
+
+
+def _rtd_element(
+    rng: np.random.Generator, r0_ohm: float, cls: str | None, temp: FloatArray
+) -> FloatArray:
+    """R of drawn platinum elements at ``temp``: the class tolerance is a deviation from the
+    curve at the element's temperature (IEC 60751), drawn uniform over it; none without a
+    class."""
+    deviation = np.zeros(len(temp))
+    if cls:
+        a, b = TOLERANCE_CLASSES[cls]
+        deviation = (a + b * np.abs(temp)) * rng.uniform(-1.0, 1.0, size=len(temp))
+    return Rtd(r0_ohm=r0_ohm).r_of_element(temp, deviation)
 
 
 def _fraction(sensor: RatiometricSensor, ambient_pa: float) -> float:

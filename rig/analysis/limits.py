@@ -114,7 +114,7 @@ class FigureLimits:
 
 def present_limits(spec: StepSpec) -> FigureLimits | None:
     """The sequence's own limits, on the step's figure."""
-    if spec.kind == "ntc":
+    if spec.kind in ("ntc", "rtd"):  # an rtd step's class moves with T: no one figure
         tolerance = spec.params.get("tolerance")
         return None if tolerance is None else FigureLimits(-tolerance[1], tolerance[1])
     if spec.kind == "ratiometric":
@@ -258,7 +258,7 @@ def fault_figures(
         value = np.array([prediction.value], dtype=np.float64)
         values[spec.id] = value
         centre = None
-        if spec.kind in ("ntc", "ratiometric"):
+        if spec.kind in ("ntc", "rtd", "ratiometric"):
             try:
                 with np.errstate(all="ignore"):
                     centre = prediction_centre(spec, values)
@@ -448,7 +448,8 @@ def toml_text(study: LimitsStudy, sequence_name: str, unit_name: str) -> str:
         f"# {r.samples} good units drawn (seed {r.seed}), false-reject target "
         f"{study.false_reject_ppm:g} ppm per step.",
         "# Paste each table's keys into the [[steps]] table with that id, in place of its limit",
-        "# keys (low/high, nominal + tolerance, max; tolerance for ntc and ratiometric steps).",
+        "# keys (low/high, nominal + tolerance, max; tolerance for ntc, rtd and ratiometric\n"
+        "# steps).",
     ]
     if study.warnings:
         lines.append("#")

@@ -60,6 +60,7 @@ READING_ROLES: dict[str, tuple[str, ...]] = {
     "wire-drop": ("direct",),
     "resistance": ("hi-lo",),
     "reference-temperature": ("pt-4w",),
+    "rtd": ("rtd",),
     "ratiometric": ("output", "supply"),
 }
 """The readings each kind's judged value is computed from (ntc: by its mode)."""
@@ -124,17 +125,19 @@ def _one(model: Callable[[FloatArray], object], value: float) -> float:
 
 
 def prediction_centre(spec: StepSpec, earlier: Mapping[str, FloatArray]) -> FloatArray | None:
-    """What an ``ntc`` or ``ratiometric`` step predicts, per sample (as ``rig.steps.model_steps``
+    """What an ``ntc``, ``rtd`` or ``ratiometric`` step predicts, per sample (as the step kind
     computes it from the earlier steps it names); None for other kinds."""
     p = spec.params
     if spec.kind == "ratiometric":
         fraction = float(p["model"].fraction_at(float(p["pressure_pa"]))) * 100.0
         n = len(next(iter(earlier.values()))) if earlier else 1
         return np.full(n, fraction)
-    if spec.kind != "ntc":
+    if spec.kind not in ("ntc", "rtd"):
         return None
     source = p.get("temperature_from")
     temp = earlier[source] if source else np.array([float(p["temperature_c"])])
+    if spec.kind == "rtd":
+        return model_or_nan(Rtd(r0_ohm=float(p["r0_ohm"])).r_at, temp, 25.0)
     r_pred = model_or_nan(p["model"].r_at, temp, 25.0)
     if p["mode"] == "resistance":
         return r_pred
@@ -149,8 +152,8 @@ def prediction_centre(spec: StepSpec, earlier: Mapping[str, FloatArray]) -> Floa
 
 def step_value(spec: StepSpec, readings: Mapping[str, FloatArray], station: Station) -> FloatArray:
     """The step's judged value from its readings, as its step kind computes it."""
-    if spec.kind == "resistance":
-        raw = readings["hi-lo"]
+    if spec.kind in ("resistance", "rtd"):
+        raw = readings["hi-lo" if spec.kind == "resistance" else "rtd"]
         if spec.params.get("zero_ohm") is not None:
             return raw - float(spec.params["zero_ohm"])
         if spec.params.get("wires") == 4:
@@ -168,9 +171,10 @@ def step_value(spec: StepSpec, readings: Mapping[str, FloatArray], station: Stat
 
 def figure_form(spec: StepSpec) -> tuple[str, str]:
     """(unit of the figure, form of the limits) of a step."""
-    if spec.kind == "ntc":
-        kind, _ = spec.params["tolerance"]
-        return ("%" if kind == "pct" else str(spec.params["unit"])), "tolerance"
+    if spec.kind in ("ntc", "rtd"):
+        tolerance = spec.params.get("tolerance")  # None: an rtd step's class, in ohm
+        kind = "abs" if tolerance is None else tolerance[0]
+        return ("%" if kind == "pct" else step_unit(spec)), "tolerance"
     if spec.kind == "ratiometric":
         return "%", "tolerance"
     if KINDS[spec.kind].small_is_good:
@@ -182,7 +186,8 @@ def figure_of(spec: StepSpec, value: FloatArray, centre: FloatArray | None) -> F
     """What a step's limits apply to: the value, or its deviation from the prediction."""
     if centre is None:
         return value
-    if spec.kind == "ntc" and spec.params["tolerance"][0] == "pct":
+    tolerance = spec.params.get("tolerance") if spec.kind in ("ntc", "rtd") else None
+    if tolerance is not None and tolerance[0] == "pct":
         return np.asarray((value - centre) / np.abs(centre) * 100.0, dtype=np.float64)
     return np.asarray(value - centre, dtype=np.float64)
 

@@ -19,7 +19,7 @@ from rig.models.ratiometric import Ratiometric
 from rig.models.rtd import T_MAX_C, T_MIN_C
 from rig.quantity import QuantityError, parse_quantity
 
-SENSOR_KINDS = ("ntc", "ratiometric", "potentiometer", "switch")
+SENSOR_KINDS = ("ntc", "rtd", "ratiometric", "potentiometer", "switch")
 PROBE_CLASSES = ("AA", "A", "B")
 _PART_GROUPS = ("wires", "resistors", "sensors", "capacitors")
 """The tables of named parts, whose names must not repeat from one to another."""
@@ -79,6 +79,19 @@ class NtcSensor:
 
 
 @dataclass(frozen=True)
+class RtdSensor:
+    """A platinum RTD under test (IEC 60751 curve), at ambient unless ``temp_c`` says."""
+
+    name: str
+    a: str
+    b: str
+    r0_ohm: float = 100.0
+    temp_c: float | None = None
+    tolerance_class: str | None = None
+    """IEC 60751 class ("AA", "A", "B"), drawn by ``rig limits``; None: on the curve."""
+
+
+@dataclass(frozen=True)
 class RatiometricSensor:
     name: str
     supply: str
@@ -114,7 +127,7 @@ class SwitchSensor:
     r_on_ohm: float = 0.05
 
 
-Sensor = NtcSensor | RatiometricSensor | Potentiometer | SwitchSensor
+Sensor = NtcSensor | RtdSensor | RatiometricSensor | Potentiometer | SwitchSensor
 
 
 @dataclass(frozen=True)
@@ -355,7 +368,7 @@ def parse_unit(doc: TomlDoc) -> UnitModel:
 
 def _parse_sensor(name: str, sec: Section) -> Sensor | None:
     kind = sec.string("kind", choices=SENSOR_KINDS)
-    if kind == "ntc":  # only an NTC's value depends on its own temperature; elsewhere it is unknown
+    if kind == "ntc":  # only thermometers' values depend on their own temperature
         temperature = _temperature(sec)
         a, b = _between(sec)
         if sec.has("steinhart_hart"):
@@ -376,6 +389,23 @@ def _parse_sensor(name: str, sec: Section) -> Sensor | None:
             temp_c=temperature,
             r25_tolerance_pct=_percent(sec, "r25_tolerance"),
             beta_tolerance_pct=_percent(sec, "beta_tolerance"),
+        )
+    if kind == "rtd":
+        a, b = _between(sec)
+        temp = _temperature(sec)
+        if temp is not None and not T_MIN_C <= temp <= T_MAX_C:
+            sec.problem(
+                "temperature",
+                f"expected a temperature on the RTD's curve, {T_MIN_C:g} to {T_MAX_C:g} degC "
+                f"(IEC 60751), found {sec.raw('temperature')!r}",
+            )
+        return RtdSensor(
+            name,
+            a,
+            b,
+            r0_ohm=sec.quantity("r0", "ohm", 100.0, positive=True),
+            temp_c=temp,
+            tolerance_class=sec.string("tolerance_class", None, choices=PROBE_CLASSES),
         )
     if kind == "ratiometric":
         transfer = read_ratiometric(sec) or Ratiometric(0.0, 1.0)  # the default: problems stop it

@@ -5,6 +5,7 @@ from rig.steps.harness_step import HarnessProof
 from rig.steps.meter_steps import GroundDrop, Resistance, SupplyCurrent, Volts, WireDrop
 from rig.steps.model_steps import NtcCheck, RatiometricCheck, ReferenceTemperature
 from rig.steps.operator_steps import Prompt, Soak
+from rig.steps.rtd_step import RtdCheck
 
 KINDS: dict[str, StepKind] = {
     kind.name: kind
@@ -16,6 +17,7 @@ KINDS: dict[str, StepKind] = {
         SupplyCurrent(),
         ReferenceTemperature(),
         NtcCheck(),
+        RtdCheck(),
         RatiometricCheck(),
         Prompt(),
         Soak(),

@@ -26,7 +26,7 @@ from rig.reading_guard import OVERRANGE_FACTOR
 from rig.routing import Route
 from rig.steps.base import Outcome, StepKind, StepSpec
 from rig.steps.context import StepContext
-from rig.steps.model_steps import _temperature, _temperature_source
+from rig.steps.model_steps import temperature_at, temperature_source
 
 
 def read_harness_keys(sec: Section, spec: StepSpec, base: Path) -> None:
@@ -183,7 +183,7 @@ class HarnessProof(StepKind):
 
     def parse(self, sec: Section, spec: StepSpec) -> None:
         read_harness_keys(sec, spec, sec.doc.path.parent)
-        _temperature_source(sec, spec)
+        temperature_source(sec, spec)
         stated = spec.params.get("temperature_c")
         if stated is not None and not AMBIENT_LOW_C <= stated <= AMBIENT_HIGH_C:
             sec.problem(  # every copper limit is moved to it: a wrong one passes or fails all
@@ -217,7 +217,7 @@ class HarnessProof(StepKind):
         if problems:
             raise ConfigError(problems)
         ctx.power(None)
-        temp_c, _ = _temperature(ctx, spec)
+        temp_c, _ = temperature_at(ctx, spec)
         settings = settings_from(spec, temp_c)
         report = scan_harness(ctx, wires, ctx.fixture, settings)
         outcome = report_outcome(report, settings, self.unit)
@@ -235,7 +235,7 @@ class HarnessProof(StepKind):
         if problems:
             raise ConfigError(problems)
         ctx.power(None)
-        temp_c, _ = _temperature(ctx, spec)
+        temp_c, _ = temperature_at(ctx, spec)
         settings = settings_from(spec, temp_c)
         pins = capture_pins(ctx.fixture, connectors)
         found = capture_harness(ctx, ctx.fixture, pins, settings)

@@ -150,37 +150,56 @@ class Resistance(StepKind):
         return "hi-lo"
 
     def parse(self, sec: Section, spec: StepSpec) -> None:
-        read_pins(sec, spec, "hi", "lo")
-        wires = sec.integer("wires", 2)
-        if wires not in (2, 4):
-            sec.problem("wires", f"expected 2 or 4, found {wires!r}")
-        spec.params["wires"] = wires
-        spec.params["zero_ohm"] = sec.quantity("lead_zero", "ohm", None)
+        read_two_or_four_wire(sec, spec)
         spec.limits = read_limits(sec, self.unit)
 
     def meter_function(self, spec: StepSpec) -> MeterFunction:
-        return MeterFunction.RES_4W if spec.params.get("wires") == 4 else MeterFunction.RES_2W
+        return ohms_function(spec)
 
     def routes(self, spec: StepSpec) -> list[Route]:
-        hi, lo = spec.pins["hi"], spec.pins["lo"]
-        if spec.params.get("wires") == 4:
-            return [Route.four_wire(hi, hi, lo, lo)]
-        return [Route.dmm(hi, lo)]
+        return [ohms_route(spec)]
 
     def run(self, ctx: StepContext, spec: StepSpec) -> Outcome:
         ctx.power(None)
-        fn = self.meter_function(spec)
-        route = self.routes(spec)[0]
-        r = ctx.measure_on(route, fn, role="hi-lo", range_=spec.range_, nplc=spec.nplc)
-        stated = spec.params.get("zero_ohm")
-        if stated is not None:
-            zero = float(stated)
-        elif fn is MeterFunction.RES_4W:
-            zero = 0.0  # 4-wire sensing already leaves the leads out
-        else:
-            zero = ctx.lead_zero(spec.pins["hi"], spec.pins["lo"])
+        r = ctx.measure_on(
+            ohms_route(spec), ohms_function(spec), role="hi-lo", range_=spec.range_, nplc=spec.nplc
+        )
+        zero = lead_zero_of(ctx, spec)
         note = f"lead zero {zero:g} ohm subtracted" if zero else ""
         return Outcome(r.value - zero, self.unit, r.u_std, spec.limits, [r], note=note)
+
+
+def read_two_or_four_wire(sec: Section, spec: StepSpec) -> None:
+    """``hi``, ``lo``, ``wires`` (2 or 4) and ``lead_zero``: a resistance read between two pins."""
+    read_pins(sec, spec, "hi", "lo")
+    wires = sec.integer("wires", 2)
+    if wires not in (2, 4):
+        sec.problem("wires", f"expected 2 or 4, found {wires!r}")
+    spec.params["wires"] = wires
+    spec.params["zero_ohm"] = sec.quantity("lead_zero", "ohm", None)
+
+
+def ohms_function(spec: StepSpec) -> MeterFunction:
+    return MeterFunction.RES_4W if spec.params.get("wires") == 4 else MeterFunction.RES_2W
+
+
+def ohms_route(spec: StepSpec) -> Route:
+    """Both pins on DMM HI/LO; 4-wire also on the sense buses, so the leads drop out."""
+    hi, lo = spec.pins["hi"], spec.pins["lo"]
+    if spec.params.get("wires") == 4:
+        return Route.four_wire(hi, hi, lo, lo)
+    return Route.dmm(hi, lo)
+
+
+def lead_zero_of(ctx: StepContext, spec: StepSpec) -> float:
+    """The lead resistance to take off a reading: the stated one, none 4-wire (sensing leaves the
+    leads out), else the station's stored zero for the pin pair."""
+    stated = spec.params.get("zero_ohm")
+    if stated is not None:
+        return float(stated)
+    if spec.params.get("wires") == 4:
+        return 0.0
+    return ctx.lead_zero(spec.pins["hi"], spec.pins["lo"])
 
 
 class SupplyCurrent(StepKind):

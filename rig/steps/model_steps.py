@@ -118,7 +118,8 @@ def _earlier_or_stated(
     return from_key, source
 
 
-def _temperature_source(sec: Section, spec: StepSpec) -> None:
+def temperature_source(sec: Section, spec: StepSpec) -> None:
+    """``temperature_from`` (an earlier step's reading) or a stated ``temperature`` in degC."""
     key, value = _earlier_or_stated(sec, spec, "temperature_from", "temperature", "degC")
     if key == "temperature":
         value = above_absolute_zero(sec, key, value)
@@ -132,17 +133,18 @@ def _pt100_ohm_at_most(spec: StepSpec) -> float | None:
     return float(Rtd(r0_ohm=float(spec.params["r0_ohm"])).r_at(spec.limits.high))
 
 
-def _coldest_c(spec: StepSpec, earlier: EarlierSteps) -> float | None:
-    """The lowest temperature the step can be judged at: its stated one, or the low limit of the
-    reference-temperature step it reads (a colder reference fails that step)."""
+def temperature_bounds(spec: StepSpec, earlier: EarlierSteps) -> tuple[float | None, float | None]:
+    """The coldest and hottest temperatures a model step can be judged at: its stated one, or
+    the limits of the reference-temperature step it reads (a reference outside them fails that
+    step).  None on a side the file leaves open."""
     source = spec.params.get("temperature_from")
     if not source:
         stated = spec.params.get("temperature_c")
-        return None if stated is None else float(stated)
+        return (None, None) if stated is None else (float(stated), float(stated))
     reference = earlier(str(source))
     if reference is None or reference.kind != "reference-temperature" or reference.limits is None:
-        return None
-    return reference.limits.low
+        return None, None
+    return reference.limits.low, reference.limits.high
 
 
 def _reference_v_at_most(spec: StepSpec, earlier: EarlierSteps) -> float | None:
@@ -158,7 +160,8 @@ def _reference_v_at_most(spec: StepSpec, earlier: EarlierSteps) -> float | None:
     return reference.limits.high
 
 
-def _temperature(ctx: StepContext, spec: StepSpec) -> tuple[float, float]:
+def temperature_at(ctx: StepContext, spec: StepSpec) -> tuple[float, float]:
+    """The temperature a model step is judged at, and its standard uncertainty."""
     source = spec.params.get("temperature_from")
     if source:
         earlier = ctx.earlier(source)
@@ -204,7 +207,7 @@ class NtcCheck(StepKind):
         mode = _ntc_measure(sec)
         spec.params["mode"] = mode
         spec.params["model"] = _read_ntc_model(sec)
-        _temperature_source(sec, spec)
+        temperature_source(sec, spec)
         unit = _NTC_MEASURES.get(mode) if mode else None
         spec.params["unit"] = unit
         if unit is None:  # ``measure`` is wrong (reported): what the keys it rules must hold is not
@@ -235,7 +238,7 @@ class NtcCheck(StepKind):
         the temperature or the divider's reference unbounded."""
         model: NtcModel | None = spec.params.get("model")
         tolerance = spec.params.get("tolerance")
-        coldest = _coldest_c(spec, earlier)
+        coldest, _ = temperature_bounds(spec, earlier)
         if model is None or tolerance is None or coldest is None:
             return None
         r_most = float(model.r_at(coldest))
@@ -260,7 +263,7 @@ class NtcCheck(StepKind):
             nplc=spec.nplc,
         )
         model: NtcModel = spec.params["model"]
-        temp, u_temp = _temperature(ctx, spec)
+        temp, u_temp = temperature_at(ctx, spec)
         r_pred = float(model.r_at(temp))
         u_r_pred = abs(float(model.dr_dt(temp))) * u_temp
         if not voltage:

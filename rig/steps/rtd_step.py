@@ -1,0 +1,109 @@
+"""A platinum RTD sensor (a Pt100 or Pt1000 oil or coolant sender, say) against its curve.
+
+The step predicts the element's resistance R(T) from the Callendar-Van Dusen equation of
+IEC 60751 at the temperature given (the bench reference's reading, or a stated one) and judges
+the measured resistance against it.  The tolerance is an IEC 60751 class, a deviation in degC
+that the step turns into ohms through the curve's slope at T, or a stated one in % or ohm.
+"""
+
+from __future__ import annotations
+
+import math
+
+from drivers.base import MeterFunction
+from rig.config.reader import Section
+from rig.judge.decision import Limits
+from rig.models.rtd import T_MAX_C, T_MIN_C, TOLERANCE_CLASSES, Rtd, tolerance_c
+from rig.routing import Route
+from rig.steps.base import EarlierSteps, Outcome, StepKind, StepSpec
+from rig.steps.context import StepContext
+from rig.steps.limits import apply_tolerance, read_tolerance
+from rig.steps.meter_steps import lead_zero_of, ohms_function, ohms_route, read_two_or_four_wire
+from rig.steps.model_steps import temperature_at, temperature_bounds, temperature_source
+
+
+def rtd_limits(spec: StepSpec, temp_c: float, predicted_ohm: float) -> Limits:
+    """The step's limits around ``predicted_ohm`` at ``temp_c``: its class's deviation through
+    the curve's slope there (IEC 60751, 5.1.2), or its stated tolerance."""
+    cls = spec.params.get("tolerance_class")
+    if cls is None:
+        return apply_tolerance(predicted_ohm, spec.params["tolerance"])
+    rtd = Rtd(r0_ohm=float(spec.params["r0_ohm"]))
+    allowed = float(tolerance_c(temp_c, cls)) * float(rtd.dr_dt(temp_c))
+    return Limits.nominal_tol(predicted_ohm, allowed)
+
+
+class RtdCheck(StepKind):
+    """A platinum RTD's resistance (2-wire with the stored lead zero taken off, or 4-wire)
+    against R(T) at the reference temperature."""
+
+    name = "rtd"
+    unit = "ohm"
+    limits_in_meter_units = False
+    routes_in_order = True  # its supply is always off (``spec.supply`` is None)
+
+    def one_reading(self, spec: StepSpec) -> str | None:
+        return "rtd"
+
+    def meter_function(self, spec: StepSpec) -> MeterFunction:
+        return ohms_function(spec)
+
+    def parse(self, sec: Section, spec: StepSpec) -> None:
+        read_two_or_four_wire(sec, spec)
+        spec.params["r0_ohm"] = sec.quantity("r0", "ohm", 100.0, positive=True)
+        temperature_source(sec, spec)
+        stated = spec.params.get("temperature_c")
+        if stated is not None and not T_MIN_C <= stated <= T_MAX_C:
+            sec.problem(
+                "temperature",
+                f"expected a temperature where IEC 60751 defines the curve, {T_MIN_C:g} to "
+                f"{T_MAX_C:g} degC, found {stated:g} degC",
+            )
+        classes = tuple(TOLERANCE_CLASSES)
+        spec.params["tolerance_class"] = sec.string("tolerance_class", None, choices=classes)
+        spec.params["tolerance"] = read_tolerance(sec, self.unit)
+        given = [key for key in ("tolerance_class", "tolerance") if sec.has(key)]
+        if len(given) == 2:
+            sec.problem("tolerance", "give either tolerance_class or tolerance, not both")
+        elif not given:
+            sec.missing(
+                "tolerance_class",
+                f"an IEC 60751 class ({', '.join(classes)}), or tolerance in % or ohm",
+            )
+
+    def routes(self, spec: StepSpec) -> list[Route]:
+        return [ohms_route(spec)]
+
+    def largest_reading(self, spec: StepSpec, earlier: EarlierSteps) -> float | None:
+        """The upper limit at the hottest temperature the step can be judged at (R rises with
+        T); None where the file leaves that temperature unbounded."""
+        _, hottest = temperature_bounds(spec, earlier)
+        if hottest is None or not T_MIN_C <= hottest <= T_MAX_C:
+            return None
+        predicted = float(Rtd(r0_ohm=float(spec.params["r0_ohm"])).r_at(hottest))
+        tolerance_known = spec.params.get("tolerance_class") or spec.params.get("tolerance")
+        if not tolerance_known:
+            return None
+        high = rtd_limits(spec, hottest, predicted).high
+        return None if high is None else high + float(spec.params.get("zero_ohm") or 0.0)
+
+    def run(self, ctx: StepContext, spec: StepSpec) -> Outcome:
+        ctx.power(None)
+        reading = ctx.measure_on(
+            ohms_route(spec), ohms_function(spec), role="rtd", range_=spec.range_, nplc=spec.nplc
+        )
+        zero = lead_zero_of(ctx, spec)
+        temp, u_temp = temperature_at(ctx, spec)
+        rtd = Rtd(r0_ohm=float(spec.params["r0_ohm"]))
+        predicted = float(rtd.r_at(temp))  # a temperature off the curve: the step's error
+        u_predicted = float(rtd.dr_dt(temp)) * u_temp
+        return Outcome(
+            reading.value - zero,
+            self.unit,
+            math.hypot(reading.u_std, u_predicted),
+            rtd_limits(spec, temp, predicted),
+            [reading],
+            predicted=predicted,
+            extras={"temperature_c": temp},
+            note=f"lead zero {zero:g} ohm subtracted" if zero else "",
+        )

@@ -1,0 +1,227 @@
+"""A platinum RTD as the sensor under test: the ``rtd`` step kind and the unit file's ``rtd``
+sensor, on the virtual bench (pyvisa-py over TCP to the DMM, pyserial on a pty to the relay
+box, a real SQLite store) and in ``rig limits``.
+
+Outside references:
+- IEC 60751:2008, the Callendar-Van Dusen equation R(t) = R0 (1 + A t + B t^2) for t >= 0 degC
+  with A = 3.9083e-3, B = -5.775e-7, computed by hand in each test;
+- its table of reference values: a Pt100 reads 138.51 ohm at 100 degC (so a Pt1000 1385.1 ohm;
+  the table value from memory, and the equation gives 138.5055 ohm);
+- its class tolerances: class B +-(0.30 + 0.005 |t|) degC, class A +-(0.15 + 0.002 |t|) degC.
+The unit is invented for the test: a Pt1000 oil sender on the demo screening fixture.
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import pytest
+from bench_helpers import SEQUENCES
+
+from rig.cli import EXIT_BAD_INPUT, main
+from rig.config.fixture import load_fixture
+from rig.config.sequence import load_sequence
+from rig.config.unit_file import load_unit
+from rig.errors import ConfigError
+from rig.faults import parse_faults
+from rig.runner import load_plan, run_plan
+from rig.sim.bench import VirtualBench
+
+A, B = 3.9083e-3, -5.775e-7  # IEC 60751
+
+
+def pt_r(r0: float, t: float) -> float:
+    """R(t) by hand, t >= 0 degC (IEC 60751)."""
+    return r0 * (1 + A * t + B * t * t)
+
+
+def pt_slope(r0: float, t: float) -> float:
+    return r0 * (A + 2 * B * t)
+
+
+UNIT = """\
+# An oil-temperature sender with a Pt1000 element, invented for this test.
+[unit]
+name = "pt1000-sender"
+fixture = "{fixture}"
+
+[ambient]
+temperature = "23 degC"
+temperature_range = ["15 degC", "35 degC"]
+
+[sensors.element]
+kind = "rtd"
+between = ["T1x", "T2x"]
+r0 = "1000 ohm"
+tolerance_class = "B"
+
+[wires.lead_a]
+between = ["T1", "T1x"]
+gauge = "20 AWG"
+length = "0.25 m"
+
+[wires.lead_b]
+between = ["T2x", "T2"]
+gauge = "20 AWG"
+length = "0.25 m"
+
+[reference_probe]
+force_hi = "PT_FH"
+sense_hi = "PT_SH"
+force_lo = "PT_FL"
+sense_lo = "PT_SL"
+r0 = "100 ohm"
+lead_resistance = "0.15 ohm"
+tolerance_class = "A"
+"""
+
+SEQUENCE = """\
+# A screen for the invented Pt1000 sender; limits are the element's own class.
+[sequence]
+name = "pt1000-screen"
+decision_rule = "simple"
+
+[[steps]]
+id = "well"
+kind = "reference-temperature"
+force_hi = "PT_FH"
+sense_hi = "PT_SH"
+force_lo = "PT_FL"
+sense_lo = "PT_SL"
+low = "10 degC"
+high = "40 degC"
+
+[[steps]]
+id = "element"
+kind = "rtd"
+hi = "T1"
+lo = "T2"
+wires = 4
+r0 = "1000 ohm"
+temperature_from = "well"
+{tolerance}
+"""
+
+
+def _files(folder: Path, tolerance: str = 'tolerance_class = "B"') -> tuple[Path, Path]:
+    fixture = (SEQUENCES / "demo-fixture.toml").resolve()
+    unit = folder / "unit.toml"
+    unit.write_text(UNIT.format(fixture=fixture), encoding="utf-8")
+    sequence = folder / "sequence.toml"
+    sequence.write_text(SEQUENCE.format(tolerance=tolerance), encoding="utf-8")
+    return unit, sequence
+
+
+def _run(folder: Path, faults: tuple[str, ...] = ()) -> dict[str, object]:
+    unit_path, sequence = _files(folder)
+    unit = load_unit(unit_path)
+    fixture = load_fixture(unit.fixture_path)
+    with VirtualBench(unit, fixture, faults=parse_faults(list(faults), unit)) as bench:
+        station = bench.write_station(folder / "station.toml", data_dir=str(folder / "data"))
+        summary = run_plan(load_plan(sequence, station), "PT-1")
+    [result] = [r for r in summary.results if r.step_id == "element"]
+    [well] = [r for r in summary.results if r.step_id == "well"]
+    return {"summary": summary, "result": result, "well": well}
+
+
+def test_a_good_pt1000_passes_against_its_curve_and_class_at_the_measured_temperature(
+    tmp_path: Path,
+) -> None:
+    found = _run(tmp_path)
+    result, well = found["result"], found["well"]
+    t = well.value  # type: ignore[attr-defined]
+    assert abs(t - 23.0) < 0.2  # the bench's probe at ambient
+    predicted = pt_r(1000.0, t)
+    assert result.predicted == pytest.approx(predicted, rel=1e-9)  # type: ignore[attr-defined]
+    half = (0.30 + 0.005 * abs(t)) * pt_slope(1000.0, t)  # class B through the slope
+    assert result.limits.low == pytest.approx(predicted - half, rel=1e-9)  # type: ignore[attr-defined]
+    assert result.limits.high == pytest.approx(predicted + half, rel=1e-9)  # type: ignore[attr-defined]
+    # the element sits on its curve at 23 degC; the meter reads it 4-wire
+    assert result.value == pytest.approx(pt_r(1000.0, 23.0), abs=0.2)  # type: ignore[attr-defined]
+    assert result.verdict.value == "pass"  # type: ignore[attr-defined]
+
+
+def test_a_drifted_element_fails(tmp_path: Path) -> None:
+    # +0.5 % is 5.4 ohm at 23 degC; class B allows (0.30 + 0.115) degC x 3.88 ohm/degC = 1.6 ohm
+    found = _run(tmp_path, ("drift:element=+0.5%",))
+    assert found["result"].verdict.value == "fail"  # type: ignore[attr-defined]
+
+
+def test_the_curve_at_100_degc_matches_the_standards_table(tmp_path: Path) -> None:
+    _, sequence = _files(tmp_path, 'tolerance = "0.1 %"')
+    text = sequence.read_text().replace('temperature_from = "well"', 'temperature = "100 degC"')
+    sequence.write_text(text, encoding="utf-8")
+    from rig.steps.rtd_step import rtd_limits
+
+    [spec] = [s for s in load_sequence(sequence).steps if s.id == "element"]
+    limits = rtd_limits(spec, 100.0, pt_r(1000.0, 100.0))
+    assert (limits.low + limits.high) / 2 == pytest.approx(1385.1, abs=0.05)  # IEC 60751 table
+    assert limits.high - limits.low == pytest.approx(2 * 1.385055, rel=1e-6)
+
+
+@pytest.mark.parametrize(
+    ("tolerance", "expected"),
+    [
+        (
+            "",
+            "[steps[1].tolerance_class]: missing; expected an IEC 60751 class (AA, A, B), "
+            "or tolerance in % or ohm",
+        ),
+        (
+            'tolerance_class = "B"\ntolerance = "1 ohm"',
+            "give either tolerance_class or tolerance, not both",
+        ),
+        ('tolerance_class = "C"', "tolerance_class"),
+        ('tolerance = "1 V"', "expected a tolerance in % or in ohm"),
+    ],
+)
+def test_a_step_without_one_clear_tolerance_is_refused_naming_the_key(
+    tmp_path: Path, tolerance: str, expected: str
+) -> None:
+    _, sequence = _files(tmp_path, tolerance)
+    with pytest.raises(ConfigError) as caught:
+        load_sequence(sequence)
+    text = "\n".join(str(p) for p in caught.value.problems)
+    assert str(sequence) in text and expected in text
+
+
+def test_a_stated_temperature_off_the_curve_is_refused(tmp_path: Path) -> None:
+    _, sequence = _files(tmp_path)
+    text = sequence.read_text().replace('temperature_from = "well"', 'temperature = "900 degC"')
+    sequence.write_text(text, encoding="utf-8")
+    with pytest.raises(ConfigError, match=r"-200 to 850 degC, found 900 degC"):
+        load_sequence(sequence)
+
+
+def test_limits_draws_the_element_class_and_proposes_a_tolerance_in_ohm(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    """The deviation of good elements from the curve spreads over their class: the proposed
+    +- tolerance (at 100 ppm) must at least reach class B at the coldest ambient (15 degC), and
+    not exceed it at the hottest (35 degC) by more than the reference probe's class A and the
+    meter can add."""
+    unit, sequence = _files(tmp_path)
+    code = main(["limits", str(sequence), "--unit", str(unit), "--samples", "20000", "--json"])
+    assert code == 0
+    found = json.loads(capsys.readouterr().out)
+    [step] = [s for s in found["steps"] if s["id"] == "element"]
+    assert (step["figure_unit"], step["form"], step["present"]) == ("ohm", "tolerance", None)
+    proposed = step["proposed"]["high"]
+    assert proposed == pytest.approx(-step["proposed"]["low"], rel=1e-6)
+    class_b_cold = (0.30 + 0.005 * 15) * pt_slope(1000.0, 15.0)
+    class_b_hot = (0.30 + 0.005 * 35) * pt_slope(1000.0, 35.0)
+    probe_a_hot = (0.15 + 0.002 * 35) * pt_slope(1000.0, 35.0)  # the probe's error moves R(T)
+    meter = 0.5  # well above the virtual bench's 4-wire error at 1 kohm (its accuracy table)
+    assert class_b_cold < proposed < class_b_hot + probe_a_hot + meter
+    assert step["toml"] == {"tolerance": f"{proposed:g} ohm"}
+    assert any("sensors.element" in d["what"] and "class B" in d["spread"] for d in found["draws"])
+
+
+def test_a_unit_rtd_sensor_off_its_curve_is_refused(tmp_path: Path) -> None:
+    unit, _ = _files(tmp_path)
+    unit.write_text(
+        unit.read_text().replace('tolerance_class = "B"', 'temperature = "900 degC"'), "utf-8"
+    )
+    code = main(["check", "--unit", str(unit)])
+    assert code == EXIT_BAD_INPUT
