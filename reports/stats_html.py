@@ -82,6 +82,8 @@ def render_stats(stats: ShopStats, series: SeriesLoader) -> str:
         "<h2>Returned-unit screens: confirmed failure or no fault found</h2>",
         frame_table(stats.screens, ("confirmed_share",), "screens"),
         "<h2>Failure Pareto by step</h2>",
+        '<p class="note">Part failures only: fail or conditional fail in a run that completed. '
+        "Runs stopped or ended by an instrument fault are counted apart, below.</p>",
         frame_table(stats.pareto_steps, ("share", "cumulative"), "pareto-steps"),
     ]
     if len(stats.pareto_steps):
@@ -94,6 +96,11 @@ def render_stats(stats: ShopStats, series: SeriesLoader) -> str:
                 "Failed steps, most frequent first, with the cumulative share.",
             )
         )
+    sections.append("<h2>Runs not decided (not counted as part failures)</h2>")
+    if len(stats.undecided):
+        sections.append(frame_table(stats.undecided, (), "not-decided"))
+    else:
+        sections.append('<p class="note">none: every run completed and measured every step</p>')
     sections.append("<h2>Failure Pareto by diagnosed fault kind</h2>")
     if stats.pareto_faults is None:
         sections.append(f'<p class="note">{esc(stats.fault_note)}</p>')

@@ -62,3 +62,31 @@ def is_screen(step_units: Iterable[str]) -> bool:
     """Whether a sequence whose steps record these units screens returned units: every
     sequence does but a harness proof or capture."""
     return HARNESS_UNITS.isdisjoint(step_units)
+
+
+STOPPED = "stopped by the operator"
+NO_ANSWER = "a question got no answer"
+INSTRUMENT = "instrument fault"
+STEP_ENDED = "a step could not measure, or ended the run"
+CONTROLLER_STOPPED = "the controller stopped mid-run"
+UNDER_WAY = "still running, or its controller stopped"
+OTHER = "other (see the run's reason)"
+
+_CAUSE_BY_REASON = (
+    ("stopped by the operator", STOPPED),
+    ("interrupted", STOPPED),
+    ("the prompt ", NO_ANSWER),
+    ("instrument fault", INSTRUMENT),
+    ("step ", STEP_ENDED),
+)
+"""The start of a run's recorded reason (as ``rig.engine`` words it) -> why it decided nothing."""
+
+
+def undecided_cause(status: str, reason: str) -> str:
+    """Why an undecided run decided nothing, in a few words: a QA tally keeps these runs apart
+    from the part failures, since they say nothing about the part."""
+    if status == "incomplete":
+        return CONTROLLER_STOPPED
+    if status == "running":
+        return UNDER_WAY
+    return next((cause for start, cause in _CAUSE_BY_REASON if reason.startswith(start)), OTHER)

@@ -542,11 +542,11 @@ class ResultStore:
     # --- bulk reads for statistics (rig.stats.from_store); plain rows, portable SQL ----------
 
     def run_rows(self, where: RunFilter) -> list[Any]:
-        """(id, serial, sequence_name, started_at, status, verdict) of every run the filter
-        matches, oldest first."""
+        """(id, serial, sequence_name, started_at, status, verdict, reason) of every run the
+        filter matches, oldest first."""
         sql, params = _run_where(where)
         return self._rows(
-            "SELECT r.id, r.serial, r.sequence_name, r.started_at, r.status, r.verdict"
+            "SELECT r.id, r.serial, r.sequence_name, r.started_at, r.status, r.verdict, r.reason"
             f" FROM runs r WHERE {sql} ORDER BY r.started_at, r.id",
             params,
         )
@@ -575,13 +575,15 @@ class ResultStore:
 
     def model_step_rows(self, where: RunFilter) -> list[Any]:
         """The steps judged around a prediction (``predicted`` set): sequence, step, unit,
-        value, predicted, low, high, expanded U, position and verdict, one row a step run.  Their
+        value, predicted, low, high, expanded U, position, verdict and the run's status, one row
+        a step run.  Their
         limits move with the prediction, so they are not summed by limits as the others are
         (``rig.stats.from_store.model_step_stats``)."""
         sql, params = _run_where(where)
         return self._rows(
             "SELECT r.sequence_name, s.step_id, s.unit, s.value, s.predicted, s.low, s.high,"
-            " s.expanded_u, s.position, s.verdict FROM steps s JOIN runs r ON r.id = s.run_id"
+            " s.expanded_u, s.position, s.verdict, r.status"
+            " FROM steps s JOIN runs r ON r.id = s.run_id"
             f" WHERE {sql} AND s.predicted IS NOT NULL ORDER BY r.id, s.position",
             params,
         )
@@ -589,7 +591,9 @@ class ResultStore:
     def step_moments(self, where: RunFilter) -> list[Any]:
         """Per (sequence, step, unit, low, high): values, sums of d and d^2 with d = value minus
         the step's limit (its low, else its high, else 0), mean expanded uncertainty, first
-        position, and how many times the step failed or could not measure.
+        position, and how many times the step failed in a run that completed (a part failure:
+        a step that could not measure, or failed in a run stopped before its end, decides
+        nothing about the part; ``rig.screening``).
 
         The database adds up, so a million values never pass through Python; the shift keeps the
         variance computed from the sums accurate (rig.stats.capability.moments_from_sums).  The
@@ -599,7 +603,8 @@ class ResultStore:
         d = "(s.value - COALESCE(s.low, s.high, 0))"
         sums = (
             f"COUNT(s.value), SUM({d}), SUM({d} * {d}), AVG(s.expanded_u), MIN(s.position),"
-            " SUM(CASE WHEN s.verdict IN ('fail', 'conditional fail', 'error') THEN 1 ELSE 0 END)"
+            " SUM(CASE WHEN s.verdict IN ('fail', 'conditional fail') AND r.status = 'complete'"
+            " THEN 1 ELSE 0 END)"
         )
         # steps judged around a prediction have limits that move from run to run: they are
         # summed apart, as deviations (``model_step_rows``)

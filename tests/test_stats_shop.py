@@ -4,14 +4,16 @@ each figure recomputed independently from the stored rows (plain Python and nump
 from __future__ import annotations
 
 import dataclasses
+import io
 import json
 import re
+import sys
 from collections import Counter
 from pathlib import Path
 
 import numpy as np
 import pytest
-from bench_helpers import SEQUENCES, shipped_bench, shipped_plan
+from bench_helpers import MIDWAY_STOP, SEQUENCES, shipped_bench, shipped_plan
 
 from rig.cli import main
 from rig.config.fixture import load_fixture
@@ -71,12 +73,12 @@ def test_a_screen_confirms_only_beyond_the_uncertainty_and_calls_conditional_inc
     # measurement's uncertainty of a limit, so it decides neither way; a returned unit whose last
     # verdict is conditional is inconclusive, not a confirmed failure or no fault found.
     rows = [
-        (1, "A", "screen", "2026-12-01", "complete", "fail"),
-        (2, "B", "screen", "2026-12-01", "complete", "conditional fail"),
-        (3, "C", "screen", "2026-12-01", "complete", "conditional pass"),
-        (4, "D", "screen", "2026-12-01", "complete", "pass"),
-        (5, "E", "screen", "2026-12-01", "aborted", "error"),
-        (6, "B", "screen", "2026-12-02", "complete", "fail"),  # B retested: confirmed now
+        (1, "A", "screen", "2026-12-01", "complete", "fail", ""),
+        (2, "B", "screen", "2026-12-01", "complete", "conditional fail", ""),
+        (3, "C", "screen", "2026-12-01", "complete", "conditional pass", ""),
+        (4, "D", "screen", "2026-12-01", "complete", "pass", ""),
+        (5, "E", "screen", "2026-12-01", "aborted", "error", "instrument fault: DMM gone"),
+        (6, "B", "screen", "2026-12-02", "complete", "fail", ""),  # B retested: confirmed now
     ]
     screen = screen_outcomes(units_frame(runs_frame(rows))).iloc[0]
     assert (screen["units"], screen["confirmed_failure"], screen["no_fault_found"]) == (5, 2, 1)
@@ -93,10 +95,11 @@ def test_pareto_and_capability_match_the_stored_steps(demo_store: Path) -> None:
         stats = shop_stats(store, RunFilter())
     finally:
         store.close()
+    complete = {r["id"] for r in runs if r["status"] == "complete"}
     failed = Counter(
         f"{seq} / {s['step_id']}"
         for seq, s in steps
-        if s["verdict"] in ("fail", "conditional fail", "error")
+        if s["verdict"] in ("fail", "conditional fail") and s["run_id"] in complete
     )
     assert dict(zip(stats.pareto_steps["step"], stats.pareto_steps["count"], strict=True)) == failed
     assert stats.pareto_steps["cumulative"].iloc[-1] == pytest.approx(1.0)
@@ -339,9 +342,9 @@ def test_a_model_step_whose_tolerance_changed_keeps_its_failures() -> None:
     # prediction between runs, so no one offset or ratio holds; the step falls back to one row
     # per set of limits, on the values, and both failures still count (for the Pareto)
     rows = [
-        ("s", "ntc", "ohm", 2100.0, 2000.0, 1900.0, 2100.0, 5.0, 3, "pass"),
-        ("s", "ntc", "ohm", 2300.0, 2100.0, 1995.0, 2205.0, 5.0, 3, "fail"),
-        ("s", "ntc", "ohm", 2600.0, 2200.0, 1980.0, 2420.0, 5.0, 3, "fail"),
+        ("s", "ntc", "ohm", 2100.0, 2000.0, 1900.0, 2100.0, 5.0, 3, "pass", "complete"),
+        ("s", "ntc", "ohm", 2300.0, 2100.0, 1995.0, 2205.0, 5.0, 3, "fail", "complete"),
+        ("s", "ntc", "ohm", 2600.0, 2200.0, 1980.0, 2420.0, 5.0, 3, "fail", "complete"),
     ]
     found = model_step_stats(rows)
     assert sum(s.failures for s in found) == 2
@@ -395,3 +398,45 @@ def test_a_model_steps_guard_band_is_in_the_unit_of_its_limits(
     section = html.split("/ sender-resistance (limits")[1].split("<h3>")[0]
     assert "-5 .. 5 % of prediction" in section
     assert f"<td>{expected:.4g}</td>" in section.replace(' class="num"', "")
+
+
+FAILS_THEN_ASKS = MIDWAY_STOP.replace('high = "4 kohm"', 'high = "2 kohm"', 1)
+"""The sequence of ``MIDWAY_STOP`` with a first step whose limits a good sender (about 2.2 kohm
+at the bench's ambient) fails: then its question."""
+
+
+def test_the_pareto_counts_part_failures_and_keeps_stopped_runs_apart(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str], monkeypatch: pytest.MonkeyPatch
+) -> None:
+    # the screen rule (rig.screening; ILAC-G8 vocabulary): a run that did not complete decides
+    # nothing about the part, so its failed step is no failure cause of the part
+    sequence = tmp_path / "sequence.toml"
+    sequence.write_text(FAILS_THEN_ASKS, encoding="utf-8")
+    with shipped_bench("ntc-sender", folder=tmp_path / "bench") as (_, station):
+        run = ["run", str(sequence), "--station", str(station.path)]
+        assert main([*run, "--serial", "Q-1", "--yes"]) == 1  # complete: a part failure
+        monkeypatch.setattr(sys, "stdin", io.StringIO(""))  # nobody answers the question
+        assert main([*run, "--serial", "Q-2"]) == 3  # aborted after the same failure
+        store = ResultStore(station.store_path)
+        try:
+            verdicts = [
+                (r["status"], [s["verdict"] for s in store.steps(r["id"])][:1])
+                for r in sorted(store.runs(), key=lambda r: r["id"])
+            ]
+            stats = shop_stats(store, RunFilter())
+        finally:
+            store.close()
+        assert verdicts == [("complete", ["fail"]), ("aborted", ["fail"])]
+        pareto = dict(zip(stats.pareto_steps["step"], stats.pareto_steps["count"], strict=True))
+        assert pareto == {"stops-midway / lead-check": 1}
+        (step,) = [g for g in stats.steps if g.step_id == "lead-check"]
+        assert step.failures == 1 and step.n == 2  # both readings still in the capability
+        assert stats.undecided.to_dict(orient="records") == [
+            {"cause": "a question got no answer", "runs": 1}
+        ]
+        capsys.readouterr()
+        assert main(["stats", "--store", str(station.store_path)]) == 0
+        text = capsys.readouterr().out
+        assert "Runs not decided (not counted as part failures)" in text
+        assert re.search(r"a question got no answer\s+1", text)
+        assert re.search(r"stops-midway / lead-check\s+1\s+100.0 %", text)

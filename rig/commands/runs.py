@@ -77,8 +77,8 @@ def _own_store(args: argparse.Namespace) -> ResultStore:
 
 
 def _row(row: Any) -> dict[str, Any]:
-    """One run as a line: (id, serial, sequence_name, started_at, status, verdict)."""
-    run_id, serial, sequence, started, status, verdict = row
+    """One run as a line, from (id, serial, sequence_name, started_at, status, verdict, ...)."""
+    run_id, serial, sequence, started, status, verdict = row[:6]
     return {
         "run": int(run_id),
         "serial": serial,

@@ -241,8 +241,16 @@ def _print_shop(stats: Any, out: Output) -> None:
         "it; inconclusive: a conditional verdict, within it (retest)"
     )
     out.line()
-    out.line("Failure Pareto by step")
+    out.line(
+        "Failure Pareto by step (part failures: fail or conditional fail in a run that completed)"
+    )
     _pareto(out, stats.pareto_steps, ["step", "failures"])
+    out.line()
+    out.line("Runs not decided (not counted as part failures)")
+    if len(stats.undecided):
+        out.table(["cause", "runs"], [[r.cause, str(r.runs)] for r in stats.undecided.itertuples()])
+    else:
+        out.line("  none: every run completed and measured every step")
     out.line()
     out.line("Failure Pareto by diagnosed fault kind")
     if stats.pareto_faults is None:

@@ -17,7 +17,7 @@ from typing import Any
 import pandas as pd
 
 from rig.events import NOT_READINGS
-from rig.screening import is_screen
+from rig.screening import UNDECIDED, decision_word, is_screen, undecided_cause
 from rig.stats.capability import (
     Capability,
     capability,
@@ -40,8 +40,10 @@ FaultFinder = Callable[[int], str | None]
 """Given a failed run's id, the spec of its most likely fault, or None if none is known."""
 
 
-FAILED = frozenset({"fail", "conditional fail", "error"})
-"""Verdicts counted as failures in the Pareto (as ``ResultStore.step_moments`` counts them)."""
+FAILED = frozenset({"fail", "conditional fail"})
+"""Verdicts counted as part failures in the Pareto, in runs that completed (as
+``ResultStore.step_moments`` counts them): a step that could not measure (``error``), and any step
+of a run stopped before its end, decide nothing about the part (``rig.screening``)."""
 
 
 @dataclass(frozen=True)
@@ -71,6 +73,9 @@ class ShopStats:
     pareto_steps: pd.DataFrame
     pareto_faults: pd.DataFrame | None
     fault_note: str
+    undecided: pd.DataFrame
+    """Runs that decided nothing (stopped, instrument fault, ...), by cause: kept out of the
+    Pareto, whose counts are part failures only."""
     steps: list[StepStats]
 
     def to_dict(self) -> dict[str, Any]:
@@ -97,6 +102,7 @@ class ShopStats:
             "pareto_by_step": records(self.pareto_steps),
             "pareto_by_fault_kind": records(self.pareto_faults),
             "fault_kind_note": self.fault_note,
+            "not_decided": records(self.undecided),
             "steps": [{k: clean(v) for k, v in asdict(s).items()} for s in self.steps],
         }
 
@@ -209,7 +215,8 @@ def _model_row(
     ]
     us = [u for u in us if math.isfinite(u)]
     mean_u = sum(us) / len(us) if us else None
-    position, failures = min(int(r[8]) for r in runs), sum(str(r[9]) in FAILED for r in runs)
+    position = min(int(r[8]) for r in runs)
+    failures = sum(str(r[9]) in FAILED and r[10] == "complete" for r in runs)
     return _stats(sequence, step_id, unit, limits, cap, mean_u, position, failures)
 
 
@@ -317,7 +324,24 @@ def shop_stats(
         pareto_steps=pareto(by_step, "step"),
         pareto_faults=faults,
         fault_note=note,
+        undecided=undecided_causes(runs),
         steps=[g for g in groups if g.n > 0 and g.unit not in NOT_READINGS],  # in the Pareto still,
+    )
+
+
+def undecided_causes(runs: pd.DataFrame) -> pd.DataFrame:
+    """(cause, runs) of the runs that decided nothing, most first: as the screen rule has it,
+    a run that did not complete or could not measure (``rig.screening``)."""
+    causes = Counter(
+        undecided_cause(str(status), str(reason or ""))
+        for status, verdict, reason in zip(
+            runs["status"], runs["verdict"], runs["reason"], strict=True
+        )
+        if decision_word(str(status), None if verdict is None else str(verdict)) == UNDECIDED
+    )
+    items = sorted(causes.items(), key=lambda kv: (-kv[1], kv[0]))
+    return pd.DataFrame(
+        {"cause": [k for k, _ in items], "runs": pd.Series([v for _, v in items], dtype="int64")}
     )
 
 

@@ -15,7 +15,7 @@ import pandas as pd
 
 from rig.screening import CONFIRMED, INCONCLUSIVE, NO_FAULT, decision_word
 
-RUN_COLUMNS = ("id", "serial", "sequence_name", "started_at", "status", "verdict")
+RUN_COLUMNS = ("id", "serial", "sequence_name", "started_at", "status", "verdict", "reason")
 PASSING = ("pass", "conditional pass")
 FAILING = ("fail", "conditional fail")
 
