@@ -9,6 +9,7 @@ import sqlite3
 from dataclasses import replace
 from pathlib import Path
 
+import numpy as np
 import pytest
 from bench_helpers import SEQUENCES, shipped_bench, shipped_plan
 
@@ -277,3 +278,39 @@ def test_an_overload_where_no_overload_level_is_known_costs_the_mismatch_without
         warnings.simplefilter("error")
         chi2 = _chi2(np.array([math.inf]), np.array([1.0]), [math.inf], np.array([[2.0]]))
     assert chi2.tolist() == [MISMATCH_CHI2]
+
+
+def test_a_passing_unit_with_a_drift_inside_its_tolerance_reads_as_a_good_unit(
+    tmp_path: Path,
+) -> None:
+    # the sender's R25 tolerance is 2 % (the demo unit file, invented): a sender 1.5 % off its
+    # curve is a good part, and its run passes; the good unit must lead, not a fitted drift
+    unit = load_unit(SEQUENCES / "units" / "ntc-sender.toml")
+    with shipped_bench("ntc-sender", ("drift:sender=+1.5%",), folder=tmp_path) as (_, station):
+        plan = shipped_plan("ntc-sender-screen", station)
+        store = ResultStore(tmp_path / "runs.sqlite")
+        run = run_plan(plan, "SN-G", ask=lambda t: True, store=store)
+        assert run.verdict.value == "pass"
+        found = diagnose_run(store, run.run_id, unit, plan)
+        store.close()
+    top = found.hypotheses[0]
+    assert top.spec == "none" and top.probability > 0.5, found.hypotheses[:2]
+
+
+def test_the_good_units_score_is_its_marginal_likelihood() -> None:
+    # source: scipy.stats.multivariate_normal (independent of rig): scored against diag(u^2),
+    # the good unit's -chi2/2 + log Occam is log N(r; 0, D + J J^T) - log N(0; 0, D), the
+    # normalisation a hypothesis scored as -chi2/2 on D alone leaves out
+    from scipy.stats import multivariate_normal
+
+    from rig.analysis.good_spread import good_unit_misfit
+
+    rng = np.random.default_rng(7)
+    u = rng.uniform(0.5, 2.0, size=6)
+    spread = rng.normal(size=(6, 3)) * 3.0
+    residual = rng.normal(size=6) * 4.0
+    chi2, occam = good_unit_misfit(residual, u, spread)
+    d = np.diag(u**2)
+    expected = multivariate_normal(np.zeros(6), d + spread @ spread.T).logpdf(residual)
+    expected -= multivariate_normal(np.zeros(6), d).logpdf(np.zeros(6))
+    assert -chi2 / 2 + occam == pytest.approx(expected, rel=1e-9)

@@ -140,7 +140,7 @@ class HypothesisBench:
                 circuit.set_value(f"fault:{index}", R_INACTIVE_OHM)
         self.circuit = circuit
 
-    def _element_values(self, h: Hypothesis) -> dict[str, float]:
+    def element_values(self, h: Hypothesis) -> dict[str, float]:
         """The element values that put hypothesis ``h`` into the circuit."""
         c = self.circuit
         if h.kind == "none":
@@ -161,15 +161,22 @@ class HypothesisBench:
 
     def readings(self, hypotheses: list[Hypothesis], conditions: list[Condition]) -> FloatArray:
         """Noiseless readings, shape (hypotheses, conditions); overload is not applied here."""
-        n = len(hypotheses) * len(conditions)
+        return self.readings_of([self.element_values(h) for h in hypotheses], conditions)
+
+    def readings_of(
+        self, states: list[dict[str, float]], conditions: list[Condition]
+    ) -> FloatArray:
+        """Noiseless readings with the elements of each row set as ``states`` says (the others
+        as built), shape (states, conditions)."""
+        n = len(states) * len(conditions)
         c = self.circuit
         overrides: dict[str, FloatArray] = {}
-        for row, h in enumerate(hypotheses):
-            for element, value in self._element_values(h).items():
+        for row, state in enumerate(states):
+            for element, value in state.items():
                 if element not in overrides:
                     overrides[element] = np.full(n, c.elements[element].value)
                 overrides[element][row * len(conditions) : (row + 1) * len(conditions)] = value
-        return self._batch(overrides, len(hypotheses), conditions)[0]
+        return self._batch(overrides, len(states), conditions)[0]
 
     def parametric_element(self, h: Hypothesis) -> str:
         """The one element a series or drift hypothesis changes."""
@@ -200,8 +207,8 @@ class HypothesisBench:
                 np.array(
                     [
                         base,
-                        self._element_values(first)[element],
-                        self._element_values(second)[element],
+                        self.element_values(first)[element],
+                        self.element_values(second)[element],
                     ]
                 ),
             )

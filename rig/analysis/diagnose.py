@@ -8,7 +8,10 @@ u each reading's own stated standard uncertainty.  Series resistance and sensor 
 (Laplace approximation over a log-uniform prior).  With a prior per fault kind,
 this gives a probability per hypothesis.  Hypotheses whose predictions no reading of the sequence
 tells apart (every difference under one standard uncertainty) are reported as one group.
-Limitation: component tolerances of the unit are not in u; on a real bench they widen it.
+Every hypothesis is of a unit whose other parts lie anywhere inside their stated tolerances,
+at the ambient within its measured uncertainty (``rig.analysis.good_spread``): the no-fault
+hypothesis is a good unit, not the nominal one, so a unit that reads within tolerance is not put
+down to a fitted drift, and a fault that reads as a good unit does not outrank it.
 """
 
 from __future__ import annotations
@@ -23,6 +26,13 @@ from drivers.base import MeterFunction
 from rig.analysis.bench_model import Condition, FloatArray, HypothesisBench, OneParameter
 from rig.analysis.bench_model import Hypothesis as Candidate
 from rig.analysis.fault_set import drifting_sensors, single_faults, where
+from rig.analysis.good_spread import (
+    Move,
+    ambient_move,
+    good_unit_misfit,
+    tolerance_moves,
+    widening,
+)
 from rig.analysis.predict import SequencePredictor
 from rig.config.station import Station
 from rig.config.unit_file import UnitModel
@@ -56,6 +66,8 @@ ZOOM_LEVELS = 5
 MISMATCH_CHI2 = 400.0
 """Squared residual when one side reads overload and the other does not (20 standard
 uncertainties)."""
+SLOPE_STEP = 1e-3
+"""Step in a fitted fault's log-magnitude for the slope of the readings (central difference)."""
 U_FALLBACK_REL = 1e-3
 """Relative uncertainty for a reading the station's table gives none."""
 
@@ -119,6 +131,9 @@ class Diagnoser:
         ]
         self._template = self.predictor.run().readings
         self._extra_readings = _volts_routes(unit, plan)
+        nominal = {name: e.value for name, e in self.bench.circuit.elements.items()}
+        self._moves = tolerance_moves(unit, nominal)
+        self._ambient_move = ambient_move(unit, nominal)
 
     # --- measurements -------------------------------------------------------------------------
 
@@ -148,7 +163,11 @@ class Diagnoser:
 
     # --- diagnosis ----------------------------------------------------------------------------
 
-    def diagnose(self, measured: Sequence[Measurement], top: int = 5) -> Diagnosis:
+    def diagnose(
+        self, measured: Sequence[Measurement], top: int = 5, ambient_u_c: float = 0.0
+    ) -> Diagnosis:
+        """The hypotheses, most likely first; ``ambient_u_c`` is the standard uncertainty of the
+        ambient the model assumes (the measured one's, widened by any difference left)."""
         if not measured:
             return Diagnosis([], None)
         conditions = [m.condition for m in measured]
@@ -167,12 +186,32 @@ class Diagnoser:
         occam = [0.0] * len(self.discrete) + [penalty for _, penalty in fits]
         priors = [PRIOR[c.kind] for c in self.discrete] + [f.prior() for f in self.families]
         pred = self.bench.readings(candidates, conditions)  # exact, in one batch
-        scored = [
-            _Scored(candidate, float(c2), -c2 / 2 + math.log(prior) + extra, row)
-            for candidate, row, c2, prior, extra in zip(
-                candidates, pred, chi2(pred), priors, occam, strict=True
+        # every hypothesis is of a unit whose other parts lie anywhere inside their tolerances:
+        # scored on the good unit's spread (misfit and Occam factor), so none of them, the good
+        # unit least of all, is judged against a nominal unit no bench ever sees
+        spreads = self._good_spreads(candidates, conditions, ambient_u_c)
+        # a fitted fault's likelihood is wider where a tolerance can take up part of its effect
+        # (an NTC drift of a few % against its R25 tolerance): its Occam factor with it
+        start = len(self.discrete)
+        for j, (family, (x, _)) in enumerate(zip(self.families, fits, strict=True)):
+            ends = self.bench.readings(
+                [family.at(x - SLOPE_STEP), family.at(x + SLOPE_STEP)], conditions
             )
-        ]
+            slope = (ends[1] - ends[0]) / (2 * SLOPE_STEP)
+            inside = (
+                np.isfinite(values)
+                & np.isfinite(slope)
+                & (np.abs(ends).max(axis=0) <= np.array(ranges))
+            )
+            wider = widening(slope[inside], u[inside], spreads[start + j][inside])
+            occam[start + j] = min(0.0, occam[start + j] + wider)
+        scored = []
+        for candidate, row, prior, extra, spread in zip(
+            candidates, pred, priors, occam, spreads, strict=True
+        ):
+            c2, spread_occam = _good_unit_chi2(values, u, ranges, row, spread)
+            weight = -c2 / 2 + math.log(prior) + extra + spread_occam
+            scored.append(_Scored(candidate, c2, weight, row))
         scored.sort(key=lambda s: -s.log_weight)
         logs = np.array([s.log_weight for s in scored])
         probs = np.exp(logs - logs.max())
@@ -187,6 +226,35 @@ class Diagnoser:
         if leaders:
             next_check = self._separating_reading(leaders[0], leaders[1], conditions)
         return Diagnosis(hypotheses, next_check)
+
+    def _good_spreads(
+        self, candidates: list[Candidate], conditions: list[Condition], ambient_u_c: float
+    ) -> FloatArray:
+        """J per hypothesis: each reading's change over one standard uncertainty of each
+        tolerance, and of the ambient, with the hypothesis in place (candidates x readings x
+        moves), by central differences in one batched solve.  A move of an element the
+        hypothesis changes scales the hypothesis's value by the same ratio."""
+        moves: list[tuple[Move, float]] = [(m, 1.0) for m in self._moves]
+        if ambient_u_c > 0 and self._ambient_move:
+            moves.append((self._ambient_move, ambient_u_c))  # per kelvin, times u
+        if not moves:
+            return np.zeros((len(candidates), len(conditions), 0))
+        nominal = self.bench.circuit.elements
+        states = []
+        for candidate in candidates:
+            base = self.bench.element_values(candidate)
+            for move, _ in moves:
+                for side in (0, 1):
+                    state = dict(base)
+                    for e, pair in move.items():
+                        at = nominal[e].value
+                        state[e] = base.get(e, at) * pair[side] / at if at else pair[side]
+                    states.append(state)
+        y = self.bench.readings_of(states, conditions)
+        y = y.reshape(len(candidates), len(moves), 2, len(conditions))
+        scale = np.array([s for _, s in moves])[None, :, None]
+        found = ((y[:, :, 1] - y[:, :, 0]) / 2 * scale).transpose(0, 2, 1)
+        return np.asarray(np.where(np.isfinite(found), found, 0.0), dtype=np.float64)
 
     def _fit(
         self, curves: list[OneParameter], chi2: Callable[[FloatArray], FloatArray]
@@ -341,7 +409,8 @@ def diagnose_run(store: ResultStore, run_id: int, unit: UnitModel, plan: Plan) -
         diagnoser = Diagnoser(plan, model)
         _RECENT.insert(0, (plan, unit, ambient_c, diagnoser))
         del _RECENT[RECENT_KEPT:]
-    return diagnoser.diagnose(diagnoser.measurements(store.readings(run_id)))
+    ambient_u = 0.0 if ambient is None else math.hypot(ambient[1], ambient[0] - ambient_c)
+    return diagnoser.diagnose(diagnoser.measurements(store.readings(run_id)), ambient_u_c=ambient_u)
 
 
 def measured_ambient(plan: Plan, steps: Sequence[dict[str, object]]) -> tuple[float, float] | None:
@@ -429,10 +498,35 @@ def _range(station: Station, value: float) -> float | None:
     return autorange_estimate(station, MeterFunction.DC_VOLTS, value)
 
 
+def _good_unit_chi2(
+    values: FloatArray,
+    u: FloatArray,
+    overload: list[float],
+    predicted: FloatArray,
+    spread: FloatArray,
+) -> tuple[float, float]:
+    """The good unit's misfit and log Occam factor (``good_unit_misfit``) over the readings
+    that both it and the meter give a number for; the others as ``_chi2`` scores them."""
+    z2 = _z2(values, u, overload, predicted[None, :])[0]
+    inside = np.isfinite(values) & (np.abs(predicted) <= np.array(overload))
+    chi2, occam = good_unit_misfit((values - predicted)[inside], u[inside], spread[inside])
+    total = chi2 + float(z2[~inside].sum())
+    return (total if math.isfinite(total) else math.inf), occam
+
+
 def _chi2(
     values: FloatArray, u: FloatArray, overload: list[float], predicted: FloatArray
 ) -> FloatArray:
-    """Sum of squared normalised residuals per hypothesis row.  Overload is a state: both over
+    """Sum of squared normalised residuals per hypothesis row (``_z2``), inf where not a
+    number."""
+    total = _z2(values, u, overload, predicted).sum(axis=1)
+    return np.asarray(np.where(np.isnan(total), np.inf, total), dtype=np.float64)
+
+
+def _z2(
+    values: FloatArray, u: FloatArray, overload: list[float], predicted: FloatArray
+) -> FloatArray:
+    """Squared normalised residual per hypothesis row and reading.  Overload is a state: both over
     agree; one over and one not costs at least ``MISMATCH_CHI2`` and at least the distance of the
     finite side to the overload level, so a fit never escapes into overload."""
     limit = np.array(overload)[None, :]
@@ -446,9 +540,7 @@ def _chi2(
     to_limit_pred = np.where(np.isfinite(to_limit_pred), to_limit_pred, MISMATCH_CHI2)
     z2 = np.where(pred_over & ~meas_over, np.maximum(MISMATCH_CHI2, to_limit_meas), z2)
     z2 = np.where(meas_over & ~pred_over, np.maximum(MISMATCH_CHI2, to_limit_pred), z2)
-    z2 = np.where(meas_over & pred_over, 0.0, z2)
-    total = z2.sum(axis=1)
-    return np.asarray(np.where(np.isnan(total), np.inf, total), dtype=np.float64)
+    return np.asarray(np.where(meas_over & pred_over, 0.0, z2), dtype=np.float64)
 
 
 def _curvature(values: FloatArray, k: int, step: float) -> float:
