@@ -225,3 +225,24 @@ def test_a_unit_rtd_sensor_off_its_curve_is_refused(tmp_path: Path) -> None:
     )
     code = main(["check", "--unit", str(unit)])
     assert code == EXIT_BAD_INPUT
+
+
+def test_diagnosis_reads_an_element_inside_its_class_as_a_good_unit(tmp_path: Path) -> None:
+    # +0.12 % is 1.3 ohm at 23 degC, inside class B's 1.61 ohm (computed above from IEC 60751):
+    # a good part, whose run passes; the good unit must lead, not a fitted drift
+    from rig.analysis.diagnose import diagnose_run
+    from rig.store import ResultStore
+
+    unit_path, sequence = _files(tmp_path)
+    unit = load_unit(unit_path)
+    faults = parse_faults(["drift:element=+0.12%"], unit)
+    with VirtualBench(unit, load_fixture(unit.fixture_path), faults=faults) as bench:
+        station = bench.write_station(tmp_path / "station.toml", data_dir=str(tmp_path / "data"))
+        plan = load_plan(sequence, station)
+        store = ResultStore(tmp_path / "runs.sqlite")
+        run = run_plan(plan, "PT-2", store=store)
+        assert run.verdict.value == "pass"
+        found = diagnose_run(store, run.run_id, unit, plan)
+        store.close()
+    top = found.hypotheses[0]
+    assert top.spec == "none" and top.probability > 0.5, found.hypotheses[:2]

@@ -19,7 +19,7 @@ from dataclasses import replace
 import numpy as np
 
 from rig.analysis.bench_model import FloatArray
-from rig.config.unit_file import NtcSensor, RatiometricSensor, UnitModel
+from rig.config.unit_file import NtcSensor, RatiometricSensor, RtdSensor, UnitModel
 from rig.models.rtd import TOLERANCE_CLASSES, Rtd
 from rig.unit_circuit import build_unit_circuit
 
@@ -60,13 +60,21 @@ def tolerance_moves(unit: UnitModel, values: dict[str, float]) -> list[Move]:
             if element in values:  # percentage points of the supply, not a share of the gain
                 step = sensor.fraction_tolerance_pct / 100.0 / RECTANGULAR
                 moves.append({element: (values[element] - step, values[element] + step)})
-    if unit.probe is not None and unit.probe.tolerance_class and "probe:element" in values:
-        a, b = TOLERANCE_CLASSES[unit.probe.tolerance_class]
-        dev = (a + b * abs(unit.ambient_c)) / RECTANGULAR
-        rtd = Rtd(r0_ohm=unit.probe.r0_ohm)
-        t = np.array([unit.ambient_c])
-        low, high = (float(rtd.r_of_element(t, np.array([d]))[0]) for d in (-dev, dev))
-        moves.append({"probe:element": (low, high)})
+    elements = [
+        (f"rtd:{s.name}", s.r0_ohm, s.tolerance_class, s.temp_c)
+        for s in unit.sensors.values()
+        if isinstance(s, RtdSensor)
+    ]
+    if unit.probe is not None:
+        elements.append(("probe:element", unit.probe.r0_ohm, unit.probe.tolerance_class, None))
+    for element, r0_ohm, cls, temp_c in elements:
+        if cls and element in values:  # a class is a deviation in degC from the curve
+            t = unit.ambient_c if temp_c is None else temp_c
+            a, b = TOLERANCE_CLASSES[cls]
+            dev = (a + b * abs(t)) / RECTANGULAR
+            rtd, at = Rtd(r0_ohm=r0_ohm), np.array([t])
+            low, high = (float(rtd.r_of_element(at, np.array([d]))[0]) for d in (-dev, dev))
+            moves.append({element: (low, high)})
     return moves
 
 
