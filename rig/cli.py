@@ -18,6 +18,7 @@ from rig.cli_output import Output, serve_bench, show, show_limits
 from rig.errors import ConfigError, Problem, RigError
 from rig.events import NOT_READINGS
 from rig.judge.decision import Verdict, tur_text
+from rig.signed_values import join_signed_values, value_options
 
 if TYPE_CHECKING:
     from rig.analysis.settling import RouteSettling
@@ -42,7 +43,8 @@ CAUTION = (
 
 def main(argv: list[str] | None = None) -> int:
     parser = _parser()
-    args = parser.parse_args(argv)
+    words = sys.argv[1:] if argv is None else argv
+    args = parser.parse_args(join_signed_values(words, value_options(parser)))
     logging.basicConfig(level=logging.WARNING if not args.verbose else logging.DEBUG)
     out = Output()
     _sigterm_as_interrupt()

@@ -364,3 +364,28 @@ def test_a_wire_list_is_checked_alone_against_its_fixture(
     assert main(["check", "--wire-list", str(bad), "--fixture", str(fixture)]) == EXIT_BAD_INPUT
     err = capsys.readouterr().err
     assert f"{bad}:" in err and "Traceback" not in err
+
+
+def test_a_value_written_like_a_negative_number_stays_with_its_option() -> None:
+    # argparse reads '-1mohm' as an option (it is not a plain number); joined to the option
+    # that takes it, only where that option takes a value and never after '--'
+    from rig.signed_values import join_signed_values
+
+    options = {"--contact-allowance", "--ambient"}
+    assert join_signed_values(["--contact-allowance", "-1mohm", "--json", "-5"], options) == [
+        "--contact-allowance=-1mohm",
+        "--json",
+        "-5",
+    ]
+    assert join_signed_values(["--ambient", "-.5degC"], options) == ["--ambient=-.5degC"]
+    assert join_signed_values(["--ambient", "--json"], options) == ["--ambient", "--json"]
+    assert join_signed_values(["--", "--ambient", "-1"], options) == ["--", "--ambient", "-1"]
+
+
+def test_every_option_that_takes_a_value_is_known_to_the_joining() -> None:
+    from rig.cli import _parser
+    from rig.signed_values import value_options
+
+    found = value_options(_parser())
+    assert {"--contact-allowance", "--ambient", "--isolation", "--station"} <= found
+    assert "--json" not in found and "--verbose" not in found

@@ -374,6 +374,15 @@ def test_continue_on_a_harness_run_says_it_cannot_be_and_how_to_check_again(
             ["--ambient", "23 degC", "--contact-allowance", "-5 mohm"],
             "--contact-allowance: expected zero or more in ohm, found '-5 mohm'",
         ),
+        (  # written without a space, argparse took it for an option: "expected one argument"
+            ["--ambient", "23 degC", "--contact-allowance", "-1mohm"],
+            "--contact-allowance: expected zero or more in ohm, found '-1mohm'",
+        ),
+        (
+            ["--ambient", "-5degC"],
+            "--ambient: expected an indoor ambient from 0 degC to 50 degC for a harness test, "
+            "found '-5degC'",
+        ),
     ],
 )
 def test_a_bad_option_is_named_as_the_option_before_anything_moves(
