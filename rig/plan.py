@@ -218,6 +218,10 @@ def build_plan(sequence: Sequence, station: Station) -> Plan:
                 )
                 continue
             spec.pins["lo"] = bench_ground
+        in_files = kind.data_file_problems(spec, fixture)
+        problems.extend(p for p in in_files if p not in problems)  # one file, many steps: once
+        if in_files:
+            continue
         unknown = {  # by the key it was written under: a pin in two roles is one mistake
             f"{spec.key}.{spec.pin_keys.get(role, role)}": pin
             for role, pin in spec.pins.items()

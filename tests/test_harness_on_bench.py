@@ -295,6 +295,42 @@ def test_bad_wire_list_is_reported_by_row_column_and_value(tmp_path: Path, capsy
     assert "Traceback" not in err
 
 
+@pytest.mark.parametrize(
+    ("wrong", "right", "said"),
+    [
+        (",B,3,", ",B,99,", "[row {line}, column to_pin]: B-99 is not a pin of fixture"),
+        (",20 AWG,", ",20 furlongs,", "[row {line}, column gauge]: wire gauge '20 furlongs'"),
+    ],
+)
+def test_a_wire_list_problem_seen_through_a_sequence_is_named_once_at_its_own_line(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str], wrong: str, right: str, said: str
+) -> None:
+    # Two steps read one bad list: the problem was given at each step's line of the sequence
+    # (a pin the fixture lacks, as a route it cannot make) or twice at the list's line.
+    wires, fixture = write_invented(tmp_path / "list", 4, seed=1, spare=0)
+    lines = wires.path.read_text(encoding="utf-8").splitlines(keepends=True)
+    line = next(k for k, text in enumerate(lines, start=1) if wrong in text)
+    bad = tmp_path / "bad.csv"
+    bad.write_text("".join(lines).replace(wrong, right, 1), encoding="utf-8")
+    step = '[[steps]]\nid = "{0}"\nkind = "harness-proof"\nwire_list = "bad.csv"\n'
+    sequence = tmp_path / "twice.toml"
+    sequence.write_text(
+        '[sequence]\nname = "twice"\n\n'
+        + step.format("first")
+        + 'temperature = "20 degC"\n\n'
+        + step.format("again")
+        + 'temperature = "20 degC"\n',
+        encoding="utf-8",
+    )
+    with served(harness_bench(wires, fixture), tmp_path / "a") as st:
+        assert main(["check", str(sequence), "--station", str(st)]) == EXIT_BAD_INPUT
+    err = capsys.readouterr().err
+    problems = err.splitlines()[1:]
+    assert len(problems) == 1, err
+    assert problems[0].startswith(f"  {bad}:{line} " + said.format(line=line)), err
+    assert str(sequence) not in err
+
+
 def test_a_check_prints_relay_wear_under_its_verdict_and_in_json(tmp_path: Path, capsys) -> None:  # type: ignore[no-untyped-def]
     # A harness check works its relays hard: relays rated for 4 operations (invented, a fixture
     # worn nearly out) are warned about from the second check on, where the technician reads.

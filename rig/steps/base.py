@@ -21,6 +21,7 @@ from rig.routing import Route
 
 if TYPE_CHECKING:
     from rig.config.fixture import FixtureMap
+    from rig.errors import Problem
     from rig.steps.context import StepContext
 
 
@@ -153,6 +154,12 @@ class StepKind(ABC):
         """What the step asks of the station's fixture beyond its pins and routes that the
         fixture cannot give, as (key under the step, message): found when the plan is built,
         before anything moves.  Here: nothing."""
+        return []
+
+    def data_file_problems(self, spec: StepSpec, fixture: FixtureMap) -> list[Problem]:
+        """Problems of a data file the step reads besides the sequence (a wire list) once
+        joined to the fixture, each at that file's own line: reported once however many steps
+        read the file, and the step's routes are then not checked.  Here: none."""
         return []
 
     def autoranged_readings(self, spec: StepSpec, held: float | None) -> int:

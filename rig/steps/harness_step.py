@@ -14,7 +14,7 @@ from pathlib import Path
 from drivers.base import MeterFunction
 from rig.config.fixture import FixtureMap
 from rig.config.reader import Section
-from rig.errors import ConfigError
+from rig.errors import ConfigError, Problem
 from rig.harness.capture import capture_harness, capture_pins, connector_problems
 from rig.harness.conductors import Allowances
 from rig.harness.isolation import cut_count, cut_sides
@@ -39,8 +39,8 @@ def read_harness_keys(sec: Section, spec: StepSpec, base: Path) -> None:
     if text:
         try:
             spec.params["wires"] = load_wire_list((base / text).resolve())
-        except ConfigError as exc:
-            sec.doc.problems.extend(exc.problems)
+        except ConfigError as exc:  # the list's own lines; once, however many steps read it
+            sec.doc.problems.extend(p for p in exc.problems if p not in sec.doc.problems)
     spec.params["allowances"] = Allowances(
         # a negative allowance would tighten a limit below what the wire itself may read
         contact_ohm=sec.quantity("contact_allowance", "ohm", 0.005, not_negative=True),
@@ -180,6 +180,12 @@ class HarnessProof(StepKind):
         return [
             ("capture_connectors", p.message) for p in connector_problems(fixture, connectors, "")
         ]
+
+    def data_file_problems(self, spec: StepSpec, fixture: FixtureMap) -> list[Problem]:
+        """The wire list joined to the station's fixture: a pin the fixture lacks is named at
+        the list's row, not at the step's line as a route the fixture cannot make."""
+        wires = spec.params.get("wires")
+        return join_problems(wires, fixture) if isinstance(wires, WireList) else []
 
     def parse(self, sec: Section, spec: StepSpec) -> None:
         read_harness_keys(sec, spec, sec.doc.path.parent)
