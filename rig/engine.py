@@ -56,6 +56,7 @@ from rig.step_judging import (
     autorange_estimate,
     judge_outcome,
     lead_zero_ohm,
+    meter_ranges,
     no_uncertainty_note,
     reading_u,
 )
@@ -1181,6 +1182,9 @@ class Engine:
 
     def lead_zero(self, hi: str, lo: str) -> float:
         return lead_zero_ohm(self.plan.station, hi, lo)
+
+    def meter_ranges(self, function: MeterFunction) -> list[float]:
+        return meter_ranges(self.plan.station, function)
 
     def wait(self, seconds: float) -> None:
         self._writes.flush()

@@ -115,6 +115,14 @@ def autorange_estimate(station: Station, function: MeterFunction, value: float) 
         return None
 
 
+def meter_ranges(station: Station, function: MeterFunction) -> list[float]:
+    """The ranges the station's accuracy table lists for ``function`` (empty: none listed)."""
+    try:
+        return station.dmm_accuracy.ranges(function.value)
+    except ValueError:  # no row for the function
+        return []
+
+
 def lead_zero_ohm(station: Station, hi: str, lo: str) -> float:
     """The station's stored fixture lead resistance for a pin pair, either way round (0: none)."""
     zeros = station.lead_zero_ohm

@@ -22,6 +22,7 @@ from rig.harness.conductors import Allowances, path_limit
 from rig.harness.scan import spare_pins
 from rig.harness.wire_list import WireList, load_wire_list
 from rig.judge.decision import Verdict
+from rig.quantity import format_quantity
 from rig.runner import load_plan, run_plan
 from rig.sim.bench import VirtualBench
 from rig.sim.harness_bench import harness_bench, write_invented
@@ -104,6 +105,73 @@ def test_shipped_sequence_names_a_swap_and_a_missing_splice(tmp_path: Path) -> N
         "wire W5, blue: J1-5 reaches J2-4, expected J2-5)"
     ) in harness.note.split("; ")
     assert "J3-4 does not reach J1-10, J2-8 of net GROUND" in harness.note
+
+
+@pytest.mark.parametrize(
+    ("fault", "named", "not_named"),
+    [
+        (  # the trunk from J1-10 to the splice: both branches beyond it read good
+            BuildFault("open", "W10a"),
+            "J1-10 does not reach J2-8, J3-4 of net GROUND: open between J1-10 and splice SP1, "
+            "or at the splice (wire W10a, black)",
+            ("W10b", "W10c"),
+        ),
+        (  # one branch off the splice: that branch alone, not the trunk it was read through
+            BuildFault("missing-splice", "W10c"),
+            "J3-4 does not reach J1-10, J2-8 of net GROUND: open between J3-4 and splice SP1, "
+            "or at the splice (wire W10c, black)",
+            ("W10a", "W10b"),
+        ),
+    ],
+)
+def test_an_open_at_a_splice_names_the_one_segment_that_explains_it(
+    tmp_path: Path, fault: BuildFault, named: str, not_named: tuple[str, ...]
+) -> None:
+    # The shipped GROUND: W10a J1-10 to SP1, W10b SP1 to J2-8, W10c SP1 to J3-4.  Where one
+    # side reaches none of the rest, the segment common to its paths is the likely open
+    # (a single fault explains it; common practice, no published source).  The trunk open was
+    # named as the branches W10b and W10a, and the branches' own join (34 mohm, well within
+    # their limit) as "above the continuity range".
+    _, bench = _shipped([fault])
+    with served(bench, tmp_path) as station_path:
+        summary = run_plan(load_plan(SHIPPED / "harness-proof.toml", station_path), "H-SPL")
+    harness = summary.results[-1]
+    findings = harness.note.split("; ")
+    assert harness.value == 1, findings
+    assert findings[0] == named
+    assert not any(w in findings[0] for w in not_named)
+
+
+@pytest.mark.parametrize(("added_ohm", "range_ohm"), [(300.0, 1e3), (1500.0, 1e4)])
+def test_a_join_above_the_continuity_range_is_quoted_from_the_smallest_range_that_holds_it(
+    tmp_path: Path, added_ohm: float, range_ohm: float
+) -> None:
+    # A broken strand on W9 (J1-9 to J3-3): over the 100 ohm range, so isolation finds the join
+    # on its 10 Mohm range.  It was quoted from there (290 ohm for 300, with that range's U);
+    # now it is read again on the smallest range of the station's accuracy table that holds it.
+    _, bench = _shipped([BuildFault("high", "W9", ohm=added_ohm)])
+    with served(bench, tmp_path) as station_path:
+        station = load_station(station_path)
+        summary = run_plan(load_plan(SHIPPED / "harness-proof.toml", station), "H-HI")
+    listed = station.dmm_accuracy.ranges("res4w")
+    assert range_ohm == min(r for r in listed if r >= added_ohm)  # the table's smallest holding
+    with sqlite3.connect(station.store_path) as db:
+        rows = db.execute(
+            "SELECT value, range, u_std FROM readings WHERE role LIKE 'join %J1-9%' "
+            "AND settled=1 AND value IS NOT NULL"
+        ).fetchall()
+    assert rows, "no join reading with a value"
+    value, used, u_std = rows[-1]
+    assert used == range_ohm
+    # u = a/sqrt(3) of the table's +-(% of reading + % of range) on that range (JCGM 100:2008,
+    # 4.3.7): a few hundredths of an ohm, not the tens of ohms of the 10 Mohm range
+    spec = station.dmm_accuracy.spec_for("res4w", range_ohm)
+    assert u_std == pytest.approx(spec.standard_uncertainty(value, range_ohm), rel=1e-6)
+    assert value == pytest.approx(added_ohm, abs=1.0)  # plus about 0.07 ohm of copper
+    quoted = format_quantity(value, "ohm", 3)
+    words = f"J1-9 reaches J3-3 (wire W9, orange) only through {quoted}, above the continuity"
+    note = summary.results[-1].note
+    assert any(words in f for f in note.split("; ")), note
 
 
 def test_a_misplaced_wire_and_a_short_name_their_wires_and_pins(tmp_path: Path) -> None:

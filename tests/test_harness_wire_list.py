@@ -9,7 +9,7 @@ import pytest
 
 from rig.config.fixture import load_fixture
 from rig.errors import ConfigError
-from rig.harness.wire_list import load_wire_list, write_wire_list
+from rig.harness.wire_list import Net, load_wire_list, write_wire_list
 
 SHIPPED = Path(__file__).resolve().parent.parent / "sequences" / "harness"
 HEADER = "wire,net,from_connector,from_pin,to_connector,to_pin,gauge,length_m,colour\n"
@@ -157,3 +157,26 @@ def test_a_harness_step_names_an_unknown_net(tmp_path: Path) -> None:
     assert any(
         "net_limits.NOPE" in p.key and "no net 'NOPE'" in p.message for p in caught.value.problems
     )
+
+
+def test_the_rows_that_alone_cut_a_part_off_a_net_with_two_splices(tmp_path: Path) -> None:
+    # An invented net: a trunk T from J1-1 to splice S1, a branch B1 to J2-1, a link L from S1
+    # to splice S2, and branches B2, B3 to J3-1 and J3-2; plus a two-pin net in a chain of two
+    # rows through a splice (either row open cuts J4-1 from J5-1).
+    path = _write(
+        tmp_path,
+        "T,,J1,1,S1,,1.0 mm2,1.0,\nB1,,S1,,J2,1,1.0 mm2,1.0,\nL,,S1,,S2,,1.0 mm2,1.0,\n"
+        "B2,,S2,,J3,1,1.0 mm2,1.0,\nB3,,S2,,J3,2,1.0 mm2,1.0,\n"
+        "C1,,J4,1,S3,,1.0 mm2,1.0,\nC2,,S3,,J5,1,1.0 mm2,1.0,\n",
+    )
+    star, chain = load_wire_list(path).nets
+
+    def cut(net: Net, part: list[str]) -> list[str]:
+        return [row.wire for row in net.separating_rows(part)]
+
+    assert cut(star, ["J1-1"]) == ["T"]  # the trunk: every branch beyond it reads good
+    assert cut(star, ["J2-1", "J3-1", "J3-2"]) == ["T"]  # the same cut, seen from the rest
+    assert cut(star, ["J3-1", "J3-2"]) == ["L"]  # the link between the splices
+    assert cut(star, ["J3-1"]) == ["B2"]  # one branch
+    assert cut(star, ["J2-1", "J3-1"]) == []  # no single open cuts off these two
+    assert cut(chain, ["J5-1"]) == ["C1", "C2"]

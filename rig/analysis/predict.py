@@ -23,7 +23,13 @@ from rig.judge.decision import Verdict
 from rig.judge.reference_probe import ReferenceProbe
 from rig.plan import Plan
 from rig.routing import Route, plan_relays
-from rig.step_judging import autorange_estimate, judge_outcome, lead_zero_ohm, reading_u
+from rig.step_judging import (
+    autorange_estimate,
+    judge_outcome,
+    lead_zero_ohm,
+    meter_ranges,
+    reading_u,
+)
 from rig.steps import KINDS, Outcome, Reading, SupplyRequest
 from rig.steps.context import ConnectThenMeasure
 
@@ -124,6 +130,9 @@ class _SolverContext(ConnectThenMeasure):
 
     def lead_zero(self, hi: str, lo: str) -> float:
         return lead_zero_ohm(self.plan.station, hi, lo)
+
+    def meter_ranges(self, function: MeterFunction) -> list[float]:
+        return meter_ranges(self.plan.station, function)
 
     def _keep(
         self, role: str, value: float, u: float, range_: float | None, condition: Condition

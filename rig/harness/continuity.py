@@ -39,6 +39,8 @@ class MeasurePort(Protocol):
 
     def lead_zero(self, hi: str, lo: str) -> float: ...
 
+    def meter_ranges(self, function: MeterFunction) -> list[float]: ...
+
 
 @dataclass(frozen=True)
 class ContinuityCheck:
@@ -86,6 +88,24 @@ def orientation(fixture: FixtureMap, a: str, b: str) -> tuple[str, str, bool]:
     return a, b, False
 
 
+def plan_pair(
+    net: Net,
+    fixture: FixtureMap,
+    a: str,
+    b: str,
+    temp_c: float,
+    allowances: Allowances,
+    max_ohm: float | None = None,
+) -> ContinuityCheck:
+    """The reading from pin ``a`` to pin ``b`` of ``net``, against the limit of the wire-list
+    path between them; ``max_ohm`` overrides the computed limit."""
+    hi, lo, four = orientation(fixture, a, b)
+    limit = path_limit(net.path(a, b), temp_c, allowances, four_wire=four)
+    if max_ohm is not None:
+        limit = PathLimit(max_ohm, 0.0)
+    return ContinuityCheck(net.name, hi, lo, four, limit)
+
+
 def plan_net(
     net: Net,
     fixture: FixtureMap,
@@ -94,16 +114,10 @@ def plan_net(
     max_ohm: float | None = None,
 ) -> list[ContinuityCheck]:
     """The star of readings for one net; ``max_ohm`` overrides the computed limit."""
-    checks = []
     first = net.pins[0]
-    for other in net.pins[1:]:
-        rows = net.path(first, other)
-        hi, lo, four = orientation(fixture, first, other)
-        limit = path_limit(rows, temp_c, allowances, four_wire=four)
-        if max_ohm is not None:
-            limit = PathLimit(max_ohm, 0.0)
-        checks.append(ContinuityCheck(net.name, hi, lo, four, limit))
-    return checks
+    return [
+        plan_pair(net, fixture, first, other, temp_c, allowances, max_ohm) for other in net.pins[1:]
+    ]
 
 
 def plan_continuity(
@@ -129,22 +143,36 @@ def run_continuity(
     nplc: float,
     rule: DecisionRule = DecisionRule.SIMPLE,
 ) -> list[ContinuityResult]:
-    results = []
-    for check in checks:
-        reading = port.measure_on(
-            check.route,
-            check.function,
-            role=f"continuity {check.hi}>{check.lo}",
-            range_=range_ohm,
-            nplc=nplc,
-        )
-        value = reading.value
-        if not check.four_wire and math.isfinite(value):
-            value -= port.lead_zero(check.hi, check.lo)
-        expanded = COVERAGE_K * reading.u_std if math.isfinite(reading.u_std) else 0.0
-        if math.isfinite(check.limit.max_ohm):
-            verdict = judge(value, Limits(None, check.limit.max_ohm), expanded, rule)
-        else:  # capturing: no limit yet, only whether there is a reading
-            verdict = Verdict.PASS if math.isfinite(value) else Verdict.FAIL
-        results.append(ContinuityResult(check, reading, value, verdict))
-    return results
+    return [
+        read_check(port, check, role="continuity", range_ohm=range_ohm, nplc=nplc, rule=rule)
+        for check in checks
+    ]
+
+
+def read_check(
+    port: MeasurePort,
+    check: ContinuityCheck,
+    *,
+    role: str,
+    range_ohm: float,
+    nplc: float,
+    rule: DecisionRule = DecisionRule.SIMPLE,
+) -> ContinuityResult:
+    """One reading of ``check`` on ``range_ohm`` (role ``"<role> HI>LO"``), less the lead zero
+    where 2-wire, judged against the check's limit."""
+    reading = port.measure_on(
+        check.route,
+        check.function,
+        role=f"{role} {check.hi}>{check.lo}",
+        range_=range_ohm,
+        nplc=nplc,
+    )
+    value = reading.value
+    if not check.four_wire and math.isfinite(value):
+        value -= port.lead_zero(check.hi, check.lo)
+    expanded = COVERAGE_K * reading.u_std if math.isfinite(reading.u_std) else 0.0
+    if math.isfinite(check.limit.max_ohm):
+        verdict = judge(value, Limits(None, check.limit.max_ohm), expanded, rule)
+    else:  # capturing, or a join between nets: no limit, only whether there is a reading
+        verdict = Verdict.PASS if math.isfinite(value) else Verdict.FAIL
+    return ContinuityResult(check, reading, value, verdict)

@@ -75,7 +75,8 @@ def name_findings(
     measured = _Harness(islands, joins)
     net_of_pin = wires.net_of_pin()
     findings = _over_limit(continuity, wires)
-    findings += _weak_joins(measured, joins, net_of_pin)
+    reached = {frozenset((r.check.hi, r.check.lo)) for r in continuity if r.reached}
+    findings += _weak_joins(measured, joins, net_of_pin, reached)
     misplaced: list[tuple[str, str, str, str]] = []
     for net in wires.nets:
         findings += _split(net, measured, misplaced)
@@ -133,14 +134,18 @@ def _over_limit(continuity: Sequence[ContinuityResult], wires: WireList) -> list
 
 
 def _weak_joins(
-    measured: _Harness, joins: Sequence[Join], net_of_pin: dict[str, Net]
+    measured: _Harness,
+    joins: Sequence[Join],
+    net_of_pin: dict[str, Net],
+    reached: set[frozenset[str]],
 ) -> list[Finding]:
-    """Two islands of one net joined only above the continuity range."""
+    """Two islands of one net joined only above the continuity range (a join read within it,
+    in ``reached``, is judged against its limit as any continuity reading)."""
     found = []
     for join in joins:
         a, b = measured.islands[join.a][0], measured.islands[join.b][0]
         net_a, net_b = net_of_pin.get(a), net_of_pin.get(b)
-        if net_a is not None and net_a is net_b:
+        if net_a is not None and net_a is net_b and frozenset((a, b)) not in reached:
             a, b = sorted((a, b), key=net_a.pins.index)
             found.append(
                 Finding(
@@ -177,29 +182,41 @@ def _split(
         elif foreign_part:
             misplaced.append((b, _pick(foreign_part, a), a, net.name))
         else:
-            splices = net.splices_between(a, b)
-            cut_off = ", ".join(pins)
-            rest = ", ".join(parts[main])
-            if splices:
-                found.append(
-                    Finding(
-                        "splice",
-                        f"{cut_off} does not reach {rest} of net {net.name}: missing splice or "
-                        f"broken branch at splice {splices[-1]}{_along(net, a, b)}",
-                        (*pins, *parts[main]),
-                        (net.name,),
-                    )
-                )
-            else:
-                found.append(
-                    Finding(
-                        "open",
-                        f"net {net.name} open: {a} does not reach {b}{_along(net, a, b)}",
-                        (a, b),
-                        (net.name,),
-                    )
-                )
+            found.append(_cut_off(net, pins, parts[main], a, b))
     return found
+
+
+def _cut_off(net: Net, pins: list[str], rest: list[str], a: str, b: str) -> Finding:
+    """``pins`` of ``net`` reach none of ``rest`` (``a`` of the rest is nearest ``b`` of them):
+    named by the segment whose open alone explains it, so that a trunk open between a connector
+    and its splice is named as the trunk, not as the good branches beyond the splice."""
+    rows = net.separating_rows(pins)
+    along = f" ({_named(rows)})" if rows else _along(net, a, b)
+    cut_off = f"{', '.join(pins)} does not reach {', '.join(rest)} of net {net.name}"
+    if len(rows) == 1 and any(end.is_splice for end in rows[0].ends):
+        return Finding(
+            "splice", f"{cut_off}: {_segment(rows[0])}{along}", (*pins, *rest), (net.name,)
+        )
+    splices = net.splices_between(a, b)
+    if splices:
+        return Finding(
+            "splice",
+            f"{cut_off}: missing splice or broken branch at splice {splices[-1]}{along}",
+            (*pins, *rest),
+            (net.name,),
+        )
+    return Finding(
+        "open", f"net {net.name} open: {a} does not reach {b}{along}", (a, b), (net.name,)
+    )
+
+
+def _segment(row: WireRow) -> str:
+    """Where a row with a splice end is open, in the words of its ends."""
+    splices = [end.name for end in row.ends if end.is_splice]
+    if len(splices) == 2:
+        return f"open between splices {splices[0]} and {splices[1]}, or at either splice"
+    pin = next(end.name for end in row.ends if not end.is_splice)
+    return f"open between {pin} and splice {splices[0]}, or at the splice"
 
 
 def _swaps_and_miswires(

@@ -15,12 +15,15 @@ from dataclasses import dataclass, field, replace
 from drivers.base import MeterFunction
 from rig.config.fixture import Bus, FixtureMap
 from rig.errors import InterlockError
-from rig.harness.conductors import Allowances
+from rig.harness.conductors import Allowances, PathLimit
 from rig.harness.continuity import (
+    ContinuityCheck,
     ContinuityResult,
     MeasurePort,
     orientation,
     plan_continuity,
+    plan_pair,
+    read_check,
     run_continuity,
 )
 from rig.harness.isolation import (
@@ -58,6 +61,10 @@ class HarnessReport:
     islands: list[tuple[str, ...]]
     isolation: IsolationResult | None
     findings: list[Finding]
+    rejoined: list[ContinuityResult] = field(default_factory=list)
+    """Pairs of one net that the star of readings left apart and isolation found joined, read
+    again on the continuity range and judged against the path between them (the branches
+    beyond an open trunk, say)."""
 
     @property
     def passed(self) -> bool:
@@ -160,32 +167,63 @@ def scan_harness(
             settings.isolation_ohm,
             ceiling_ohm=settings.isolation_range_ohm,
         )
-    joins = (
-        []
-        if isolation is None
-        else [_refine(port, fixture, islands, j, settings) for j in isolation.joins]
-    )
-    findings = name_findings(wires, islands, joins, continuity)
-    return HarnessReport(continuity, islands, isolation, findings)
+    joins: list[Join] = []
+    rejoined: list[ContinuityResult] = []
+    for join in [] if isolation is None else isolation.joins:
+        found, judged = _refine(port, wires, fixture, islands, join, settings)
+        joins.append(found)
+        rejoined += [judged] if judged is not None else []
+    findings = name_findings(wires, islands, joins, continuity + rejoined)
+    return HarnessReport(continuity, islands, isolation, findings, rejoined)
 
 
 def _refine(
     port: MeasurePort,
+    wires: WireList,
     fixture: FixtureMap,
     islands: list[tuple[str, ...]],
     join: Join,
     settings: HarnessSettings,
-) -> Join:
-    """Read a located join again on the continuity range (4-wire where possible), so that a
-    short is reported with a resistance worth quoting; kept as found if that reads over range."""
-    hi, lo, four = orientation(fixture, islands[join.a][0], islands[join.b][0])
-    route = Route.four_wire(hi, hi, lo, lo) if four else Route.dmm(hi, lo)
-    function = MeterFunction.RES_4W if four else MeterFunction.RES_2W
-    reading = port.measure_on(
-        route,
-        function,
-        role=f"join {hi}>{lo}",
-        range_=settings.continuity_range_ohm,
-        nplc=settings.nplc,
-    )
-    return replace(join, r_ohm=reading.value) if math.isfinite(reading.value) else join
+) -> tuple[Join, ContinuityResult | None]:
+    """Read a located join again on the continuity range (4-wire where possible), so that it is
+    quoted with a resistance worth quoting.  Two islands of one net are judged against the limit
+    of the wire-list path between them (the result is returned).  A join over the continuity
+    range (a broken strand, a near-open) is read again on the smallest range of the station's
+    accuracy table that holds the isolation reading, a range up while that reads over: quoted
+    from the isolation range, its uncertainty would be that of a 10 Mohm range.  Kept as found
+    where every range below the isolation range reads over."""
+    a, b = islands[join.a][0], islands[join.b][0]
+    net = next((n for n in wires.nets if a in n.pins and b in n.pins), None)
+    if net is not None:
+        limit = settings.net_limits.get(net.name)
+        check = plan_pair(net, fixture, a, b, settings.temp_c, settings.allowances, limit)
+    else:
+        check = ContinuityCheck("", *orientation(fixture, a, b), PathLimit(math.inf, 0.0))
+
+    def read(range_ohm: float) -> ContinuityResult:
+        return read_check(
+            port, check, role="join", range_ohm=range_ohm, nplc=settings.nplc, rule=settings.rule
+        )
+
+    result = read(settings.continuity_range_ohm)
+    if result.reached:
+        return replace(join, r_ohm=result.value_ohm), (result if net is not None else None)
+    for range_ohm in ranges_to_try(
+        port.meter_ranges(check.function),
+        join.r_ohm,
+        above=settings.continuity_range_ohm,
+        below=settings.isolation_range_ohm,
+    ):
+        again = read(range_ohm)
+        if again.reached:
+            return replace(join, r_ohm=again.value_ohm), None
+    return join, None
+
+
+def ranges_to_try(
+    ranges: list[float], estimate_ohm: float, *, above: float, below: float
+) -> list[float]:
+    """The listed ranges, smallest first, between ``above`` and ``below`` (both left out) that
+    hold ``estimate_ohm``: the first is the smallest that holds the value, the rest are the
+    steps up should it read over."""
+    return [r for r in sorted(ranges) if above < r < below and r >= abs(estimate_ohm)]

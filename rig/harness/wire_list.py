@@ -17,6 +17,7 @@ import io
 import math
 import re
 from collections import deque
+from collections.abc import Iterable
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 
@@ -77,10 +78,15 @@ class Net:
     pins: tuple[str, ...]
     splices: tuple[str, ...]
 
-    def path(self, a: str, b: str) -> tuple[WireRow, ...]:
-        """The rows from end ``a`` to end ``b`` (breadth first: the fewest rows)."""
+    def _reach(
+        self, a: str, without: WireRow | None = None
+    ) -> dict[str, tuple[str, WireRow] | None]:
+        """Every end reachable from end ``a`` (leaving out the row ``without``), each with the
+        end and row it was first reached by (breadth first)."""
         links: dict[str, list[tuple[str, WireRow]]] = {}
         for row in self.rows:
+            if row is without:
+                continue
             s, e = row.start.name, row.end.name
             links.setdefault(s, []).append((e, row))
             links.setdefault(e, []).append((s, row))
@@ -92,6 +98,11 @@ class Net:
                 if there not in came:
                     came[there] = (here, row)
                     queue.append(there)
+        return came
+
+    def path(self, a: str, b: str) -> tuple[WireRow, ...]:
+        """The rows from end ``a`` to end ``b`` (breadth first: the fewest rows)."""
+        came = self._reach(a)
         if b not in came:
             return ()
         rows: list[WireRow] = []
@@ -100,6 +111,23 @@ class Net:
             rows.append(step[1])
             step = came[step[0]]
         return tuple(reversed(rows))
+
+    def separating_rows(self, part: Iterable[str]) -> tuple[WireRow, ...]:
+        """The rows each of which, open alone, cuts exactly the pins ``part`` off from the net's
+        other pins: where ``part`` reaches none of the rest, the likely open is one of these
+        (one row where the part hangs off a splice by its own segment; several in a chain with
+        no branch between).  Empty where no single row does (the part is cut off in more than
+        one place, or rows run in a loop)."""
+        want = set(part)
+        pins = set(self.pins)
+        found = []
+        for row in self.rows:
+            side = self._reach(row.start.name, without=row)
+            if row.end.name in side:
+                continue  # a loop: this row alone cuts nothing off
+            if pins & set(side) in (want, pins - want):
+                found.append(row)
+        return tuple(found)
 
     def splices_between(self, a: str, b: str) -> list[str]:
         ends = [e for row in self.path(a, b) for e in row.ends if e.is_splice]

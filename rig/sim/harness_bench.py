@@ -166,3 +166,6 @@ class ProbePort(ConnectThenMeasure):
 
     def lead_zero(self, hi: str, lo: str) -> float:
         return 0.0
+
+    def meter_ranges(self, function: MeterFunction) -> list[float]:
+        return list(SPECS[function].ranges)

@@ -61,6 +61,11 @@ class StepContext(Protocol):
     def lead_zero(self, hi: str, lo: str) -> float:
         """The station's stored fixture lead resistance for this pin pair (0 when none)."""
 
+    def meter_ranges(self, function: MeterFunction) -> list[float]:
+        """The ranges the station's accuracy table lists for ``function``, smallest first
+        (empty where it lists none): a step that must pick a range for a value it has only
+        estimated picks from these."""
+
     @property
     def fixture(self) -> FixtureMap:
         """The station's fixture map (a harness step joins its wire list to it)."""

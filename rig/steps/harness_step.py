@@ -121,7 +121,7 @@ def report_outcome(report: HarnessReport, settings: HarnessSettings, unit: str) 
         "isolation_readings": float(report.isolation_readings),
         "pairwise_readings": float(len(report.islands) * (len(report.islands) - 1) // 2),
     }
-    for r in report.continuity:
+    for r in report.continuity + report.rejoined:
         key = f"net {r.check.net} {r.check.hi}>{r.check.lo}"
         extras[f"{key} ohm"] = r.value_ohm
         extras[f"{key} max_ohm"] = r.check.limit.max_ohm
