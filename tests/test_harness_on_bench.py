@@ -174,6 +174,37 @@ def test_a_join_above_the_continuity_range_is_quoted_from_the_smallest_range_tha
     assert any(words in f for f in note.split("; ")), note
 
 
+def test_a_wire_built_a_size_smaller_than_listed_is_hinted_beside_the_crimp(
+    tmp_path: Path,
+) -> None:
+    # Built with W4 (J1-4 to J2-4, 2.5 m) of 0.5 mm2 where the list says 0.75 mm2, and a poor
+    # crimp of 0.4 ohm on W5: both fail as before (the verdict is not touched), and only W4's
+    # finding says it reads like the smaller size (R = rho L / A: 1.5 times the copper).
+    listed = (SHIPPED / "wire-list.csv").read_text(encoding="utf-8")
+    built = tmp_path / "built" / "wire-list.csv"
+    built.parent.mkdir()
+    built.write_text(
+        listed.replace("W4,REVERSE,J1,4,J2,4,0.75 mm2", "W4,REVERSE,J1,4,J2,4,0.5 mm2")
+    )
+    fixture = load_fixture(SHIPPED / "fixture.toml")
+    as_built = load_wire_list(built, fixture)
+    bench = harness_bench(as_built, fixture, [BuildFault("high", "W5", ohm=0.4)], seed=4)
+    with served(bench, tmp_path / "a") as st:
+        args = ["harness", "check", str(SHIPPED / "wire-list.csv"), "--station", str(st)]
+        assert main([*args, "--serial", "H-G", "--ambient", "23 degC"]) == EXIT_FAIL
+    with sqlite3.connect(load_station(st).store_path) as db:
+        value, note = db.execute("SELECT value, note FROM steps WHERE step_id='harness'").fetchone()
+    findings = note.split("; ")
+    assert value == 2, findings
+    w4 = next(f for f in findings if "(wire W4, white)" in f)
+    assert w4.endswith(
+        ": a poor crimp or joint, or a wire smaller than listed (0.5 mm2 for 0.75 mm2): check "
+        "the wire's size too"
+    ), w4
+    w5 = next(f for f in findings if "(wire W5, blue)" in f)
+    assert "smaller than listed" not in w5, w5
+
+
 def test_a_misplaced_wire_and_a_short_name_their_wires_and_pins(tmp_path: Path) -> None:
     # the shipped list: W7 violet J1-7 to J3-1, W3 red J1-3 to J2-3, W4 white J1-4 to J2-4
     faults = [BuildFault("misplaced", "W7", pin="J3-4"), BuildFault("short", "W3", other="W4")]

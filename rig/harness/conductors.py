@@ -31,9 +31,13 @@ class Allowances:
 class PathLimit:
     conductor_ohm: float
     allowance_ohm: float
+    stated_ohm: float | None = None
+    """A limit the sequence states for the net (``net_limits``), in place of the sum."""
 
     @property
     def max_ohm(self) -> float:
+        if self.stated_ohm is not None:
+            return self.stated_ohm
         return self.conductor_ohm + self.allowance_ohm
 
 

@@ -10,7 +10,7 @@ lead zero removed and the stated 2-wire allowance added to the limit) when neith
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import TYPE_CHECKING, Protocol
 
 from drivers.base import MeterFunction
@@ -101,8 +101,8 @@ def plan_pair(
     path between them; ``max_ohm`` overrides the computed limit."""
     hi, lo, four = orientation(fixture, a, b)
     limit = path_limit(net.path(a, b), temp_c, allowances, four_wire=four)
-    if max_ohm is not None:
-        limit = PathLimit(max_ohm, 0.0)
+    if max_ohm is not None:  # the copper and allowances stay known, for the findings' words
+        limit = replace(limit, stated_ohm=max_ohm)
     return ContinuityCheck(net.name, hi, lo, four, limit)
 
 

@@ -9,10 +9,12 @@ resistance limit.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
 
-from rig.harness.continuity import ContinuityResult
+from rig.harness.continuity import COVERAGE_K, ContinuityResult
+from rig.harness.gauge_hint import gauge_hint
 from rig.harness.isolation import Join
 from rig.harness.wire_list import Net, WireList, WireRow
 from rig.judge.decision import Verdict
@@ -70,11 +72,13 @@ def name_findings(
     islands: Sequence[tuple[str, ...]],
     joins: Sequence[Join],
     continuity: Sequence[ContinuityResult],
+    temp_c: float | None = None,
 ) -> list[Finding]:
-    """Every fault the measurements show, in wire-list words."""
+    """Every fault the measurements show, in wire-list words; ``temp_c``, the ambient the
+    limits were moved to, lets a reading over its limit be compared with smaller wire sizes."""
     measured = _Harness(islands, joins)
     net_of_pin = wires.net_of_pin()
-    findings = _over_limit(continuity, wires)
+    findings = _over_limit(continuity, wires, temp_c)
     reached = {frozenset((r.check.hi, r.check.lo)) for r in continuity if r.reached}
     findings += _weak_joins(measured, joins, net_of_pin, reached)
     misplaced: list[tuple[str, str, str, str]] = []
@@ -116,21 +120,26 @@ def _net_words(net: Net) -> str:
     return f"{net.name} ({', '.join(net.pins)}{': ' + wires if wires else ''})"
 
 
-def _over_limit(continuity: Sequence[ContinuityResult], wires: WireList) -> list[Finding]:
+def _over_limit(
+    continuity: Sequence[ContinuityResult], wires: WireList, temp_c: float | None
+) -> list[Finding]:
     bad = (Verdict.FAIL, Verdict.CONDITIONAL_FAIL)
     nets = {net.name: net for net in wires.nets}
-    return [
-        Finding(
-            "high-resistance",
-            f"net {r.check.net}: {r.check.hi} to {r.check.lo}"
-            f"{_along(nets.get(r.check.net), r.check.hi, r.check.lo)} reads "
-            f"{_ohm(r.value_ohm)}, limit {_ohm(r.check.limit.max_ohm)}",
-            (r.check.hi, r.check.lo),
-            (r.check.net,),
+    found = []
+    for r in continuity:
+        if not (r.reached and r.verdict in bad):
+            continue
+        net, hi, lo = nets.get(r.check.net), r.check.hi, r.check.lo
+        text = (
+            f"net {r.check.net}: {hi} to {lo}{_along(net, hi, lo)} reads {_ohm(r.value_ohm)}, "
+            f"limit {_ohm(r.check.limit.max_ohm)}"
         )
-        for r in continuity
-        if r.reached and r.verdict in bad
-    ]
+        if net is not None and temp_c is not None:
+            u = COVERAGE_K * r.reading.u_std if math.isfinite(r.reading.u_std) else 0.0
+            hint = gauge_hint(net.path(hi, lo), r.value_ohm, u, temp_c, r.check.limit.allowance_ohm)
+            text += f": {hint}" if hint else ""
+        found.append(Finding("high-resistance", text, (hi, lo), (r.check.net,)))
+    return found
 
 
 def _weak_joins(

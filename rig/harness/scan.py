@@ -173,7 +173,7 @@ def scan_harness(
         found, judged = _refine(port, wires, fixture, islands, join, settings)
         joins.append(found)
         rejoined += [judged] if judged is not None else []
-    findings = name_findings(wires, islands, joins, continuity + rejoined)
+    findings = name_findings(wires, islands, joins, continuity + rejoined, settings.temp_c)
     return HarnessReport(continuity, islands, isolation, findings, rejoined)
 
 
