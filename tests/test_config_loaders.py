@@ -369,6 +369,95 @@ def test_temperature_from_an_earlier_step_is_accepted(tmp_path: Path) -> None:
     assert sequence.step("curve").depends_on == ("ambient",)
 
 
+WIRE_DROP_STEP = """
+[[steps]]
+id = "drop"
+kind = "wire-drop"
+from = "S_SIG"
+to = "C_SIG"
+reference = "S_GND"
+max = "10 mV"
+"""
+
+DIVIDER_STEP = """
+[[steps]]
+id = "divider"
+kind = "ntc"
+hi = "C_SIG"
+lo = "C_GND"
+measure = "voltage"
+r25 = "10 kohm"
+beta = "3977 K"
+temperature = "25 degC"
+pullup = "4.7 kohm"
+reference_from = "{source}"
+tolerance = "3 %"
+"""
+
+
+# A value in V is not a value in degC, and a voltage drop along a wire is not the level of a
+# reference (quantities of different kinds: SI Brochure, 9th edition, BIPM 2019, 2.3.3); taken
+# as one, the step is judged at the wrong temperature or reference.
+@pytest.mark.parametrize(
+    ("steps", "key", "found"),
+    [
+        (
+            volts_step("ref") + NTC_STEP.format(source="ref"),
+            "steps[1].temperature_from",
+            "'ref', a step of kind volts, which gives a voltage in V",
+        ),
+        (
+            PT_STEP
+            + NTC_STEP.format(source="ambient")
+            + NTC_STEP.replace('"curve"', '"again"').format(source="curve"),
+            "steps[2].temperature_from",
+            "'curve', a step of kind ntc, whose value (unit: ohm) no other step can take",
+        ),
+        (
+            volts_step("ref") + WIRE_DROP_STEP + DIVIDER_STEP.format(source="drop"),
+            "steps[2].reference_from",
+            "'drop', a step of kind wire-drop, which gives a voltage drop, not a level",
+        ),
+        (
+            PT_STEP + DIVIDER_STEP.format(source="ambient"),
+            "steps[1].reference_from",
+            "'ambient', a step of kind reference-temperature, which gives a temperature in degC",
+        ),
+    ],
+    ids=["temperature-from-volts", "temperature-from-ntc", "reference-from-drop", "reference-degc"],
+)
+def test_an_input_from_a_step_of_the_wrong_kind_is_refused(
+    tmp_path: Path, steps: str, key: str, found: str
+) -> None:
+    text = SEQUENCE_HEAD + steps
+    path = write(tmp_path, "seq.toml", text)
+    problem = only(problems_of(load_sequence, path), key)
+    needed = "temperature in degC (kind reference-temperature)"
+    if key.endswith("reference_from"):
+        needed = "voltage in V (kind volts)"
+    assert f"expected the id of a step that gives a {needed}, found {found}" in problem.message
+    written = key.rsplit(".", 1)[1]
+    lines = [n for n, line in enumerate(text.splitlines(), 1) if line.startswith(written)]
+    assert problem.line == lines[-1]
+
+
+def test_a_harness_proofs_temperature_from_a_volts_step_is_refused(tmp_path: Path) -> None:
+    harness = (
+        '\n[[steps]]\nid = "harness"\nkind = "harness-proof"\ncapture_to = "w.csv"\n'
+        'temperature_from = "ref"\n'
+    )
+    path = write(tmp_path, "seq.toml", SEQUENCE_HEAD + volts_step("ref") + harness)
+    problem = only(problems_of(load_sequence, path), "steps[1].temperature_from")
+    assert "gives a temperature in degC" in problem.message
+    assert "'ref', a step of kind volts" in problem.message
+
+
+def test_a_reference_from_a_volts_step_is_accepted(tmp_path: Path) -> None:
+    text = SEQUENCE_HEAD + volts_step("ref") + DIVIDER_STEP.format(source="ref")
+    sequence = load_sequence(write(tmp_path, "seq.toml", text))
+    assert sequence.step("divider").inputs == {"reference_from": ("ref", "V")}
+
+
 def test_pin_not_in_fixture_is_found_by_the_planner(tmp_path: Path, station: Station) -> None:
     text = SEQUENCE_HEAD + volts_step("first", hi="S_SIGG") + volts_step("second", lo="C_GNDD")
     path = write(tmp_path, "seq.toml", text)

@@ -78,12 +78,12 @@ def parse_sequence(doc: TomlDoc) -> Sequence:
         sequence.reorder = head.boolean("reorder", True)
         sequence.settle_s = _settle(head, None)
         head.reject_unknown()
-    seen: set[str] = set()
+    seen: dict[str, StepSpec] = {}
     for sec in root.table_list("steps"):
         spec = _parse_step(sec, sequence.rule, seen, sequence.settle_s)
         if spec is not None:
             sequence.steps.append(spec)
-            seen.add(spec.id)
+            seen[spec.id] = spec
     if not sequence.steps and not doc.problems:
         root.problem("steps", "no steps; expected one or more [[steps]] tables")
     root.reject_unknown()
@@ -100,7 +100,10 @@ def _settle(sec: Section, default: float | None) -> float | None:
 
 
 def _parse_step(
-    sec: Section, default_rule: DecisionRule, seen: set[str], default_settle: float | None
+    sec: Section,
+    default_rule: DecisionRule,
+    seen: dict[str, StepSpec],
+    default_settle: float | None,
 ) -> StepSpec | None:
     step_id = sec.string("id")
     kind_name = sec.string("kind", choices=tuple(KINDS))
@@ -131,12 +134,10 @@ def _parse_step(
     meter_unit = _meter_unit(kind.unit, spec)
     if sec.raw("range") not in (None, "auto") and meter_unit is not None:
         spec.range_ = sec.quantity("range", meter_unit)
-    for ref in spec.depends_on:
-        if ref not in seen:
-            sec.problem(
-                _ref_key(sec, ref),
-                f"names step {ref!r}, which is not an earlier step of this sequence",
-            )
+    for key, (ref, unit) in spec.inputs.items():
+        wrong = input_problem(seen.get(ref), ref, unit)
+        if wrong:
+            sec.problem(key, wrong)
     sec.reject_unknown()
     return spec if step_id else None
 
@@ -149,9 +150,29 @@ def _meter_unit(kind_unit: str, spec: StepSpec) -> str | None:
     return {"degC": "ohm", "%": "V"}.get(kind_unit, kind_unit)
 
 
-def _ref_key(sec: Section, ref: str) -> str:
-    """The key that names step ``ref``."""
-    for key in ("temperature_from", "reference_from"):
-        if sec.raw(key) == ref:
-            return key
-    return "id"
+_GIVEN = {"degC": "a temperature in degC", "V": "a voltage in V"}
+"""What a step that another takes its input from must give, in words, by unit."""
+
+
+def input_problem(source: StepSpec | None, ref: str, unit: str) -> str:
+    """Why step ``ref`` cannot give a value in ``unit`` to a later step, or "": it must be an
+    earlier step whose kind gives that unit.  A volts step taken as a temperature would judge
+    the sensor at 5 degC for a 5 V reading, a wire drop taken as the divider's reference at a
+    few microvolts: a false verdict either way, refused before anything moves."""
+    if source is None:
+        return f"names step {ref!r}, which is not an earlier step of this sequence"
+    kind = KINDS[source.kind]
+    if kind.gives == unit:
+        return ""
+    givers = ", ".join(k.name for k in KINDS.values() if k.gives == unit) or "none"
+    if kind.gives is not None:
+        found = f"which gives {_GIVEN.get(kind.gives, 'a value in ' + kind.gives)}"
+    elif kind.small_is_good:
+        found = "which gives a voltage drop, not a level another step can take"
+    else:
+        own = source.params.get("unit") or kind.unit or "none"
+        found = f"whose value (unit: {own}) no other step can take"
+    return (
+        f"expected the id of a step that gives {_GIVEN.get(unit, 'a value in ' + unit)} "
+        f"(kind {givers}), found {ref!r}, a step of kind {source.kind}, {found}"
+    )

@@ -55,6 +55,9 @@ class StepSpec:
     supply: SupplyRequest | None = None
     params: dict[str, Any] = field(default_factory=dict)
     depends_on: tuple[str, ...] = ()
+    inputs: dict[str, tuple[str, str]] = field(default_factory=dict)
+    """Earlier steps whose value this one takes, by the key that names them
+    (``temperature_from``): the step's id and the unit the value must be in."""
     barrier: bool = False
     """Operator prompts and soaks: nothing is moved across them when reordering."""
     settle_s: float | None = None
@@ -121,6 +124,11 @@ class StepKind(ABC):
     engine then knows a step's last reading when it comes and the next step's first route
     before it starts, and sends that route's relay change at once: the contacts move while the
     step is computed, judged and filed."""
+    gives: str | None = None
+    """The unit of the value this kind measures that another step may take as an input (a
+    temperature in degC for ``temperature_from``, a voltage for ``reference_from``); None
+    where the value is no level another step can use (a drop, a count of faults, a reading
+    judged against a model, an answer, a wait)."""
     small_is_good: bool = False
     """True for kinds whose good value is near zero and only its size matters (a voltage drop
     along a wire or to ground): limits proposed for them bound the size alone (``max``), since

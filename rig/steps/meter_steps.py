@@ -26,6 +26,7 @@ class Volts(StepKind):
 
     name = "volts"
     unit = "V"
+    gives: str | None = "V"
     routes_in_order = True
 
     def one_reading(self, spec: StepSpec) -> str | None:
@@ -51,6 +52,7 @@ class GroundDrop(Volts):
     """Voltage drop from a ground pin of the unit to bench ground (default: the fixture's)."""
 
     name = "ground-drop"
+    gives = None  # a drop, not the level of a reference
     small_is_good = True
 
     def parse(self, sec: Section, spec: StepSpec) -> None:
@@ -144,6 +146,7 @@ class Resistance(StepKind):
 
     name = "resistance"
     unit = "ohm"
+    gives = "ohm"
     routes_in_order = True  # its supply is always off (``spec.supply`` is None)
 
     def one_reading(self, spec: StepSpec) -> str | None:
@@ -207,6 +210,7 @@ class SupplyCurrent(StepKind):
 
     name = "supply-current"
     unit = "A"
+    gives = "A"
     function = None
 
     def parse(self, sec: Section, spec: StepSpec) -> None:

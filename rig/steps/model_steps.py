@@ -34,6 +34,7 @@ class ReferenceTemperature(StepKind):
 
     name = "reference-temperature"
     unit = "degC"
+    gives = "degC"
     function = MeterFunction.RES_4W
     limits_in_meter_units = False
     routes_in_order = True  # its supply is always off (``spec.supply`` is None)
@@ -115,6 +116,7 @@ def _earlier_or_stated(
     source = sec.string(from_key)
     if source is not None:
         spec.depends_on = (*spec.depends_on, source)
+        spec.inputs[from_key] = (source, unit)
     return from_key, source
 
 
