@@ -22,6 +22,7 @@ from rig.signed_values import join_signed_values, value_options
 
 if TYPE_CHECKING:
     from rig.analysis.settling import RouteSettling
+    from rig.config.fixture import FixtureMap
     from rig.config.station import Station
     from rig.config.unit_file import UnitModel
     from rig.engine import RunSummary
@@ -280,7 +281,7 @@ def _check_alone(args: argparse.Namespace, out: Output) -> int:
     """Each of a station, unit and fixture file checked by itself (a station and a unit with
     the fixture each names): every problem of all of them, or one line each when valid."""
     from rig.config import load_collecting
-    from rig.config.fixture import FixtureMap, load_fixture
+    from rig.config.fixture import load_fixture
     from rig.config.station import load_station
     from rig.config.unit_file import load_unit
     from rig.harness.wire_list import load_wire_list
@@ -309,6 +310,7 @@ def _check_alone(args: argparse.Namespace, out: Output) -> int:
     if unit is not None:
         model, on = unit
         out.line(f"unit {model.name} ({args.unit}): valid, on fixture {on.name} ({on.path.name})")
+        _show_unit_warnings(model, on, out)
     if fixture is not None:
         out.line(
             f"fixture {fixture.name} ({args.fixture}): valid, {len(fixture.pins)} pins on "
@@ -322,6 +324,14 @@ def _check_alone(args: argparse.Namespace, out: Output) -> int:
         if wires.ignored:
             out.line(wires.ignored_note())
     return 0
+
+
+def _show_unit_warnings(unit: UnitModel, fixture: FixtureMap, out: Output) -> None:
+    """What a unit file allows but likely does not mean: a node that misses its fixture pin."""
+    from rig.config.unit_nodes import node_warnings
+
+    for key, message in node_warnings(unit, fixture.pins):
+        out.line(f"warning: {unit.problem(key, message)}")
 
 
 def cmd_check(args: argparse.Namespace, out: Output) -> int:
@@ -391,6 +401,8 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
         )
     if settling is not None:
         _show_settling(settling, args.unit, out)
+    if unit is not None:
+        _show_unit_warnings(unit, station.fixture, out)
     for warning in plan.warnings:
         out.line(f"warning: {warning}")
     if station.store_path.exists():

@@ -14,6 +14,7 @@ from pathlib import Path
 
 from rig.config.model_input import above_absolute_zero, read_ratiometric, read_steinhart_hart
 from rig.config.reader import Section, TomlDoc
+from rig.errors import Problem
 from rig.models.copper import area_from_gauge
 from rig.models.ratiometric import Ratiometric
 from rig.models.rtd import T_MAX_C, T_MIN_C
@@ -169,6 +170,13 @@ class UnitModel:
     sensors: dict[str, Sensor] = field(default_factory=dict)
     capacitors: dict[str, Capacitor] = field(default_factory=dict)
     probe: ReferenceProbe | None = None
+    source: TomlDoc | None = field(default=None, repr=False, compare=False)
+    """The file as read: where its keys are, for what is found after loading."""
+
+    def problem(self, key: str, message: str) -> Problem:
+        """A finding about this file made after loading, at the line of ``key``."""
+        line = self.source.line_of(key) if self.source is not None else None
+        return Problem(str(self.path), key, message, line=line)
 
     def nodes(self) -> set[str]:
         """Every node the unit file names (fixture pins among them)."""
@@ -270,7 +278,9 @@ def parse_unit(doc: TomlDoc) -> UnitModel:
         if fixture_text:
             fixture_path = (doc.path.parent / fixture_text).resolve()
         head.reject_unknown()
-    unit = UnitModel(name=name, path=doc.path, fixture_path=fixture_path, description=description)
+    unit = UnitModel(
+        name=name, path=doc.path, fixture_path=fixture_path, description=description, source=doc
+    )
 
     ambient = root.table("ambient")
     if ambient:
