@@ -326,12 +326,18 @@ def _check_alone(args: argparse.Namespace, out: Output) -> int:
     return 0
 
 
-def _show_unit_warnings(unit: UnitModel, fixture: FixtureMap, out: Output) -> None:
-    """What a unit file allows but likely does not mean: a node that misses its fixture pin."""
+def _show_unit_warnings(
+    unit: UnitModel, fixture: FixtureMap, out: Output, plan: Plan | None = None
+) -> None:
+    """What a unit file allows but likely does not mean (a node that misses its fixture pin),
+    and where the sequence checked with it reads its reference probe with another r0."""
     from rig.config.unit_nodes import node_warnings
+    from rig.probe_match import probe_r0_warnings
 
     for key, message in node_warnings(unit, fixture.pins):
         out.line(f"warning: {unit.problem(key, message)}")
+    for problem in [] if plan is None else probe_r0_warnings(plan.sequence, unit):
+        out.line(f"warning: {problem}")
 
 
 def cmd_check(args: argparse.Namespace, out: Output) -> int:
@@ -402,7 +408,7 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
     if settling is not None:
         _show_settling(settling, args.unit, out)
     if unit is not None:
-        _show_unit_warnings(unit, station.fixture, out)
+        _show_unit_warnings(unit, station.fixture, out, plan)
     for warning in plan.warnings:
         out.line(f"warning: {warning}")
     if station.store_path.exists():

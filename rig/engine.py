@@ -386,8 +386,8 @@ class Engine:
         except KeyboardInterrupt as exc:
             status, reason = "aborted", "interrupted (Ctrl-C or SIGTERM)"
             interrupted = exc
-        except RigError as exc:
-            status, reason = "aborted", str(exc)
+        except RigError as exc:  # named by the step under way, where there is one
+            status, reason = "aborted", f"step {begun}: {exc}" if begun else str(exc)
         finally:
             failures = self._end_safe()  # first: the last rows commit while the bench goes safe
             self._drop_ahead()

@@ -8,6 +8,7 @@ The standard defines the curve from -200 degC to 850 degC; values outside are re
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from typing import Literal
 
@@ -94,12 +95,16 @@ class Rtd:
         check_range(t, "temp_c", T_MIN_C, T_MAX_C, "degC")
         return like(self._slope(t), temp_c)
 
+    def r_span(self) -> tuple[float, float]:
+        """The resistances at the ends of the curve (-200 and 850 degC): all it can read."""
+        r_lo = float(self.r0_ohm * self._ratio(np.array(T_MIN_C)))
+        r_hi = float(self.r0_ohm * self._ratio(np.array(T_MAX_C)))
+        return r_lo, r_hi
+
     def t_at(self, r_ohm: F) -> F:
         """Temperature in degC at ``r_ohm``, valid on both sides of 0 degC."""
         r = as_array(r_ohm, "r_ohm")
-        r_lo = float(self.r0_ohm * self._ratio(np.array(T_MIN_C)))
-        r_hi = float(self.r0_ohm * self._ratio(np.array(T_MAX_C)))
-        check_range(r, "r_ohm", r_lo, r_hi, "ohm")
+        check_range(r, "r_ohm", *self.r_span(), "ohm")
         ratio = r / self.r0_ohm
         # closed form of 1 + A t + B t^2 = ratio, the root that is near A t for small t
         t = (-self.a + np.sqrt(self.a**2 - 4.0 * self.b * (1.0 - ratio))) / (2.0 * self.b)
@@ -140,3 +145,23 @@ PT1000 = Rtd(r0_ohm=1000.0)
 """The two common IEC 60751 elements."""
 
 __all__ = ["IEC_A", "IEC_B", "IEC_C", "PT100", "PT1000", "Rtd", "ToleranceClass", "tolerance_c"]
+
+
+R0_STEP = 10.0
+"""The ratio between the usual nominal resistances, 100 and 1000 ohm (IEC 60751 names both)."""
+
+
+def r0_it_fits(r_ohm: float, r0_ohm: float) -> float | None:
+    """The R0 a reading outside the curve of ``r0_ohm`` fits instead, ten times more or less
+    (a Pt1000 read as a Pt100, or the reverse), or None: such a reading is a mix-up of probes
+    in the sequence, not a fault of the meter."""
+    if not math.isfinite(r_ohm):
+        return None
+    low, high = Rtd(r0_ohm).r_span()
+    if low <= r_ohm <= high:
+        return None
+    for other in (r0_ohm * R0_STEP, r0_ohm / R0_STEP):
+        low, high = Rtd(other).r_span()
+        if low <= r_ohm <= high:
+            return other
+    return None

@@ -16,10 +16,12 @@ from rig.config.reader import Section
 from rig.judge.decision import Limits
 from rig.judge.propagate import u_quotient
 from rig.judge.reference_probe import combined_u_c
+from rig.models import ModelInputError
 from rig.models.divider import divider_voltage, dv_dr_sensor
 from rig.models.ntc import BetaNtc, NtcModel
 from rig.models.ratiometric import Ratiometric
-from rig.models.rtd import T_MAX_C, T_MIN_C, Rtd
+from rig.models.rtd import T_MAX_C, T_MIN_C, Rtd, r0_it_fits
+from rig.quantity import format_quantity
 from rig.routing import Route
 from rig.steps.base import EarlierSteps, Outcome, StepKind, StepSpec
 from rig.steps.context import StepContext
@@ -73,6 +75,9 @@ class ReferenceTemperature(StepKind):
         rtd = Rtd(r0_ohm=float(spec.params["r0_ohm"]))
         if not math.isfinite(r.value) or r.value <= 0:
             return Outcome(math.nan, self.unit, math.nan, spec.limits, [r], note="no Pt100 reading")
+        low, high = rtd.r_span()
+        if not low <= r.value <= high:
+            raise ModelInputError(off_the_curve(spec, r.value, rtd))
         temp = float(rtd.t_at(r.value))
         u_meter = r.u_std / float(rtd.dr_dt(temp))
         probe = ctx.reference_probe
@@ -81,6 +86,28 @@ class ReferenceTemperature(StepKind):
             extras |= {"u_meter_c": u_meter, "u_probe_c": probe.u_std_c(temp)}
         u_temp = combined_u_c(u_meter, probe, temp)
         return Outcome(temp, self.unit, u_temp, spec.limits, [r], extras=extras)
+
+
+def off_the_curve(spec: StepSpec, r_ohm: float, rtd: Rtd) -> str:
+    """Why a reference-temperature reading has no temperature, and what to look at: a reading
+    the curve of ten times (or a tenth of) the step's r0 holds is a Pt1000 read as a Pt100, or
+    the reverse, so the sequence's r0 is checked before the probe or the meter."""
+    low, high = rtd.r_span()
+    r0 = rtd.r0_ohm
+    said = (
+        f"the reading {format_quantity(r_ohm, 'ohm', 6)} is outside what a platinum probe with "
+        f"r0 = {r0:g} ohm reads, {format_quantity(low, 'ohm')} to {format_quantity(high, 'ohm')}"
+        f" ({T_MIN_C:g} to {T_MAX_C:g} degC, IEC 60751)"
+    )
+    fits = r0_it_fits(r_ohm, r0)
+    key = f"{spec.key}.r0"
+    if fits is None:
+        return f"{said}: check the probe and its wiring, and the sequence's r0 ({key})"
+    return (
+        f"{said}, and inside what one with r0 = {fits:g} ohm reads: the probe looks like a "
+        f"Pt{fits:g} where the sequence says Pt{r0:g}; check the sequence's r0 ({key}, "
+        f"{r0:g} ohm when it is not written)"
+    )
 
 
 def _read_ntc_model(sec: Section) -> NtcModel | None:
