@@ -458,6 +458,50 @@ def test_a_reference_from_a_volts_step_is_accepted(tmp_path: Path) -> None:
     assert sequence.step("divider").inputs == {"reference_from": ("ref", "V")}
 
 
+# The meter's range, its integration time (NPLC) and the settle before a reading belong to a
+# step that reads the meter; a decision rule to one judged against an uncertainty (common
+# practice, no published source).  On a step without them the key did nothing, silently.
+@pytest.mark.parametrize(
+    ("step", "key", "says"),
+    [
+        (
+            'kind = "prompt"\ntext = "ok?"\nrange = "10 V"\n',
+            "range",
+            "a prompt step takes no range: it asks the operator; no meter is read",
+        ),
+        ('kind = "soak"\nduration = "1 s"\nnplc = 10\n', "nplc", "a soak step takes no nplc"),
+        ('kind = "soak"\nduration = "1 s"\nrange = "auto"\n', "range", "takes no range"),
+        ('kind = "prompt"\ntext = "ok?"\nsettle = "1 s"\n', "settle", "takes no settle"),
+        (
+            'kind = "prompt"\ntext = "ok?"\ndecision_rule = "guarded"\n',
+            "decision_rule",
+            "a prompt step takes no decision_rule: it asks the operator; nothing is measured",
+        ),
+        (
+            'kind = "supply-current"\nmax = "1 A"\nrange = "1 A"\n'
+            'supply = { pos = "S_SIG", neg = "S_GND", voltage = "5 V", limit = "0.1 A" }\n',
+            "range",
+            "a supply-current step takes no range: it reads the supply's own readback",
+        ),
+    ],
+    ids=["prompt-range", "soak-nplc", "soak-range-auto", "prompt-settle", "prompt-rule", "current"],
+)
+def test_a_key_the_step_kind_has_no_use_for_is_refused(
+    tmp_path: Path, step: str, key: str, says: str
+) -> None:
+    text = SEQUENCE_HEAD + '\n[[steps]]\nid = "a"\n' + step
+    path = write(tmp_path, "seq.toml", text)
+    problem = only(problems_of(load_sequence, path), f"steps[0].{key}")
+    assert says in problem.message
+    assert problem.line == line_of(text, f"{key} =")
+
+
+def test_a_prompts_unknown_key_lists_only_the_keys_it_takes(tmp_path: Path) -> None:
+    text = SEQUENCE_HEAD + '\n[[steps]]\nid = "a"\nkind = "prompt"\ntext = "ok?"\ncolour = 1\n'
+    problem = only(problems_of(load_sequence, write(tmp_path, "s.toml", text)), "steps[0].colour")
+    assert problem.message.endswith("expected one of: declined, id, kind, text, title")
+
+
 def test_pin_not_in_fixture_is_found_by_the_planner(tmp_path: Path, station: Station) -> None:
     text = SEQUENCE_HEAD + volts_step("first", hi="S_SIGG") + volts_step("second", lo="C_GNDD")
     path = write(tmp_path, "seq.toml", text)

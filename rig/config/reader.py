@@ -96,6 +96,8 @@ class Section:
         self._seen: set[str] = set()
         self._missing: dict[str, tuple[Problem, str]] = {}
         """Required keys found missing: their problem and what was expected."""
+        self._refused: set[str] = set()
+        """Keys reported as not belonging here: not unknown, and not among the keys expected."""
 
     def key(self, name: str) -> str:
         return f"{self.prefix}.{name}" if self.prefix else name
@@ -105,6 +107,11 @@ class Section:
 
     def problem(self, name: str, message: str) -> Problem:
         return self.doc.problem(self.key(name) if name else self.prefix, message)
+
+    def refuse(self, name: str, message: str) -> None:
+        """A key that is known to rig but does not belong in this table, with why."""
+        self._refused.add(name)
+        self.problem(name, message)
 
     def missing(self, name: str, expected: str) -> None:
         """A required key is not there.  Where a key that is there looks like a misspelling of
@@ -271,7 +278,7 @@ class Section:
         """Every key not read is reported: a typo must not be silently ignored."""
         allowed = self._seen | set(also_allowed)
         for name in self.data:
-            if name in allowed:
+            if name in allowed or name in self._refused:
                 continue
             meant = close_key(name, self._missing)
             if meant:

@@ -18,7 +18,7 @@ from rig.config.reader import Section, TomlDoc
 from rig.errors import Problem
 from rig.judge.decision import DecisionRule
 from rig.models import ModelInputError
-from rig.steps import KINDS, StepSpec
+from rig.steps import KINDS, StepKind, StepSpec
 
 _ID = re.compile(r"^[a-z][a-z0-9_-]{0,47}$")
 RULES = {"simple": DecisionRule.SIMPLE, "guarded": DecisionRule.GUARDED}
@@ -115,15 +115,16 @@ def _parse_step(
         return None
     step_id = step_id or ""  # a step without an id is still read, for its other problems
     kind = KINDS[kind_name]
-    rule_name = sec.string("decision_rule", None, choices=tuple(RULES))
+    rule_name = sec.string("decision_rule", None, choices=tuple(RULES)) if kind.judged else None
     spec = StepSpec(
         id=step_id,
         kind=kind_name,
         title=sec.string("title", step_id),
         key=sec.prefix,
-        nplc=sec.number("nplc", 1.0, minimum=0.001),
         rule=RULES[rule_name] if rule_name else default_rule,
     )
+    if kind.function is not None:  # a kind that reads the meter, whatever its parameters
+        spec.nplc = sec.number("nplc", 1.0, minimum=0.001)
     try:
         kind.parse(sec, spec)
     except ModelInputError as exc:  # a model refused what no check of the kind's caught
@@ -131,15 +132,35 @@ def _parse_step(
         return None
     if kind.meter_function(spec) is not None:  # a supply step's own settle is read by its kind
         spec.settle_s = _settle(sec, default_settle)
-    meter_unit = _meter_unit(kind.unit, spec)
-    if sec.raw("range") not in (None, "auto") and meter_unit is not None:
-        spec.range_ = sec.quantity("range", meter_unit)
+        meter_unit = _meter_unit(kind.unit, spec)
+        if sec.raw("range") not in (None, "auto") and meter_unit is not None:
+            spec.range_ = sec.quantity("range", meter_unit)
+    _refuse_unread(sec, kind, spec)
     for key, (ref, unit) in spec.inputs.items():
         wrong = input_problem(seen.get(ref), ref, unit)
         if wrong:
             sec.problem(key, wrong)
     sec.reject_unknown()
     return spec if step_id else None
+
+
+_DOES = {"prompt": "asks the operator", "soak": "waits"}
+"""What a step that reads no meter does instead, by kind (else: the supply's readback)."""
+
+
+def _refuse_unread(sec: Section, kind: StepKind, spec: StepSpec) -> None:
+    """The meter's keys on a step that reads no meter, and a decision rule on one that judges
+    no reading against an uncertainty, each named with why: a key that does nothing must not
+    look as if it did (``range = "10 V"`` on a prompt)."""
+    what = _DOES.get(kind.name, "reads the supply's own readback")
+    unread = []
+    if kind.meter_function(spec) is None:
+        unread = [(key, "no meter is read") for key in ("range", "nplc")]
+    if not kind.judged:  # a supply-current step reads its own settle (before its readback)
+        unread += [("settle", "no meter is read"), ("decision_rule", "nothing is measured")]
+    for key, why in unread:
+        if sec.has(key):
+            sec.refuse(key, f"a {kind.name} step takes no {key}: it {what}; {why}")
 
 
 def _meter_unit(kind_unit: str, spec: StepSpec) -> str | None:

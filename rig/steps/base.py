@@ -124,6 +124,8 @@ class StepKind(ABC):
     engine then knows a step's last reading when it comes and the next step's first route
     before it starts, and sends that route's relay change at once: the contacts move while the
     step is computed, judged and filed."""
+    judged: bool = True
+    """False for kinds that measure nothing (a prompt, a soak): no decision rule applies."""
     gives: str | None = None
     """The unit of the value this kind measures that another step may take as an input (a
     temperature in degC for ``temperature_from``, a voltage for ``reference_from``); None

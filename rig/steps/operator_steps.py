@@ -20,6 +20,7 @@ class Prompt(StepKind):
     name = "prompt"
     unit = ""
     function = None
+    judged = False
 
     def parse(self, sec: Section, spec: StepSpec) -> None:
         spec.params["text"] = sec.string("text") or ""
@@ -46,6 +47,7 @@ class Soak(StepKind):
     name = "soak"
     unit = "s"
     function = None
+    judged = False
 
     def parse(self, sec: Section, spec: StepSpec) -> None:
         spec.params["duration_s"] = sec.quantity("duration", "s", positive=True)
