@@ -106,6 +106,38 @@ def test_coverage_json(station: Station, capsys: pytest.CaptureFixture[str]) -> 
     assert "drift:coolant=+10%" in data["undetected"]
 
 
+def test_no_coverage_figure_when_the_unit_with_no_fault_fails(
+    station: Station, tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # A window the healthy divider never reaches (it sits between 0.6 V and 4.8 V, common
+    # practice for 5 V sensor circuits, no published source) fails the unit with no fault, so
+    # that step "detects" every fault: a share of detected faults would count the sequence's own
+    # error as coverage.
+    failing = tmp_path / "fails-good-unit.toml"
+    failing.write_text(
+        WEAK.read_text(encoding="utf-8")
+        + '\n[[steps]]\nid = "never-in-window"\nkind = "volts"\nhi = "C_SIG"\nlo = "C_GND"\n'
+        'low = "4.95 V"\nhigh = "5.0 V"\n',
+        encoding="utf-8",
+    )
+    args = ["coverage", str(failing), "--station", str(station.path), "--unit", str(UNIT)]
+    assert main(args) == 1
+    lines = capsys.readouterr().out.strip().splitlines()
+    assert lines[-1] == (
+        "coverage: not meaningful: the unit with no fault fails step never-in-window; fix the "
+        "sequence or the unit model first"
+    )
+    assert "%" not in lines[-1]
+    assert main([*args, "--json"]) == 1
+    data = json.loads(capsys.readouterr().out)
+    assert data["coverage_pct"] is None
+    assert "fails step never-in-window" in data["coverage_reason"]
+    # the sequence the unit passes still gives its figure, with no reason
+    assert main([*args[:1], str(WEAK), *args[2:], "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    assert data["coverage_pct"] > 0 and data["coverage_reason"] is None
+
+
 def test_coverage_bad_option_is_a_clear_error(
     station: Station, capsys: pytest.CaptureFixture[str]
 ) -> None:

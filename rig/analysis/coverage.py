@@ -64,18 +64,41 @@ class CoverageReport:
         return [r.fault for r in self.rows if not r.detected]
 
     @property
-    def coverage_pct(self) -> float:
+    def coverage_pct(self) -> float | None:
+        """The detected share in %; None where the unit with no fault fails: a step that fails
+        it "detects" every fault, so a share would count the sequence's error as coverage."""
+        if not self.good_unit_passes:
+            return None
         return 100.0 * len(self.detected) / len(self.rows) if self.rows else 0.0
 
     @property
     def good_unit_passes(self) -> bool:
-        return not any(v in DETECTING for v in self.good_unit)
+        return not self.good_unit_fails
+
+    @property
+    def good_unit_fails(self) -> list[str]:
+        """The steps that fail, conditionally fail or cannot measure the unit with no fault."""
+        return [s for s, v in zip(self.steps, self.good_unit, strict=True) if v in DETECTING]
+
+    @property
+    def no_coverage_reason(self) -> str:
+        """Why no coverage figure is given (empty where one is)."""
+        failing = self.good_unit_fails
+        if not failing:
+            return ""
+        which = "step" if len(failing) == 1 else "steps"
+        return (
+            f"the unit with no fault fails {which} {', '.join(failing)}; fix the sequence or the "
+            "unit model first"
+        )
 
     def as_dict(self) -> dict[str, object]:
+        pct = self.coverage_pct
         return {
             "faults": len(self.rows),
             "detected": len(self.detected),
-            "coverage_pct": round(self.coverage_pct, 2),
+            "coverage_pct": None if pct is None else round(pct, 2),
+            "coverage_reason": self.no_coverage_reason or None,
             "undetected": [f.spec for f in self.undetected],
             "unseen": [r.fault.spec for r in self.rows if r.unseen and not r.detected],
             "steps": list(self.steps),

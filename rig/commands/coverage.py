@@ -41,6 +41,7 @@ def cmd_coverage(args: argparse.Namespace, out: Output) -> int:
     from rig.analysis.coverage import fault_coverage
     from rig.analysis.fault_set import single_faults
     from rig.analysis.predict import check_static
+    from rig.cli import EXIT_FAIL, EXIT_PASS
     from rig.faults import parse_faults
     from rig.runner import load_inputs
 
@@ -54,12 +55,14 @@ def cmd_coverage(args: argparse.Namespace, out: Output) -> int:
         drift = _quantity(args.drift, "%", "--drift")
         faults = single_faults(unit, plan, series_ohm=series, drift_pct=drift)
     report = fault_coverage(plan, unit, faults)
+    # a sequence that fails the unit with no fault "detects" every fault: no figure, exit 1
+    code = EXIT_FAIL if report.coverage_pct is None else EXIT_PASS
     if args.json:
         out.json(report.as_dict())
-        return 0
+        return code
     out.line(f"fault coverage of {plan.sequence.name} on unit {unit.name} (solver, no bench)")
-    if not report.good_unit_passes:
-        out.line("warning: the unit with no fault does not pass; coverage proves little")
+    if report.coverage_pct is None:
+        out.line(f"warning: {report.no_coverage_reason}: every fault below counts as detected")
     rows = [
         [
             row.fault.spec,
@@ -81,11 +84,14 @@ def cmd_coverage(args: argparse.Namespace, out: Output) -> int:
                     else " (moves a reading by more than its uncertainty, but within its limits)"
                 )
                 out.line(f"  {row.fault.spec}{why}")
-    out.line(
-        f"coverage: {len(report.detected)} of {len(report.rows)} single faults "
-        f"({report.coverage_pct:.1f} %)"
-    )
-    return 0
+    if report.coverage_pct is None:
+        out.line(f"coverage: not meaningful: {report.no_coverage_reason}")
+    else:
+        out.line(
+            f"coverage: {len(report.detected)} of {len(report.rows)} single faults "
+            f"({report.coverage_pct:.1f} %)"
+        )
+    return code
 
 
 def _quantity(text: str, unit: str, option: str) -> float:

@@ -45,16 +45,18 @@ def main() -> None:
         report = fault_coverage(plan, unit)
         times.append(time.perf_counter() - started)
     assert report is not None
+    pct = report.coverage_pct
+    assert pct is not None, report.no_coverage_reason
     for row in report.rows:
         print(f"{row.fault.spec:<26}", " ".join(f"{v.value:<5}" for v in row.verdicts))
     seconds = statistics.median(times)
-    print(f"{len(report.rows)} faults, {report.coverage_pct:.1f} % detected, {seconds:.3f} s")
+    print(f"{len(report.rows)} faults, {pct:.1f} % detected, {seconds:.3f} s")
     print(
         json.dumps(
             {
                 "faults": len(report.rows),
                 "detected": len(report.detected),
-                "coverage_pct": round(report.coverage_pct, 2),
+                "coverage_pct": round(pct, 2),
                 "seconds": round(seconds, 4),
             }
         )
