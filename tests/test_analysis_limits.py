@@ -287,6 +287,30 @@ def test_cli_unknown_step_names_the_file_and_option(capsys: pytest.CaptureFixtur
     assert "--samples [10]: expected at least 1000 samples" in capsys.readouterr().err
 
 
+def test_a_study_narrowed_by_step_says_which_steps_it_left_out(
+    capsys: pytest.CaptureFixture[str],
+) -> None:
+    # --step ambient studies only the bench's reference probe, which takes no proposed limits:
+    # the faults it does not catch must not read as faults the whole sequence lets through.
+    sequence = SEQUENCES / "temp-circuit-check.toml"
+    unit = SEQUENCES / "units" / "temp-circuit.toml"
+    args = ["limits", str(sequence), "--unit", str(unit), "--samples", "1000", "--step", "ambient"]
+    assert main([*args, "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    ids = {s.id for s in load_sequence(sequence).steps}
+    assert set(data["not_studied"]) == ids - {"ambient"}  # in the order the plan runs them
+    assert data["caught_by_none"] == data["faults"]
+    left_out = ", ".join(data["not_studied"])
+    assert main(args) == 0
+    text = capsys.readouterr().out
+    assert f"not studied (--step leaves them out): {left_out}" in text
+    assert "no limits proposed: no studied step takes limits from this study" in text
+    assert "  faults no studied step catches (other steps not studied): open:signal," in text
+    assert "  by no step:" not in text
+    assert main([*args, "--toml"]) == 0
+    assert f"# Not studied (--step leaves them out): {left_out}." in capsys.readouterr().out
+
+
 @pytest.mark.parametrize(
     ("old", "new", "expected"),
     [

@@ -296,6 +296,14 @@ class LimitsStudy:
     checks: dict[str, list[FaultCheck]] = field(default_factory=dict)
     """step id -> one check per fault, in fault-set order"""
     warnings: list[str] = field(default_factory=list)
+    not_studied: list[str] = field(default_factory=list)
+    """The plan's steps that ``--step`` left out, in plan order: a fault no studied step catches
+    may well be caught by one of them."""
+
+    @property
+    def no_step(self) -> str:
+        """Who catches none of the faults listed against it: every step, or the studied ones."""
+        return "no studied step" if self.not_studied else "no step"
 
     def caught_by_any(self, which: str) -> set[Fault]:
         """Faults that some step rejects with the ``present`` or ``proposed`` limits."""
@@ -340,6 +348,8 @@ def study_limits(
         proposal.tur = proposed_tur(plan, proposal)
     fault_list = list(single_faults(unit, plan) if faults is None else faults)
     study = LimitsStudy(result, false_reject_ppm, proposals, fault_list)
+    if only is not None:
+        study.not_studied = [p.spec.id for p in plan.steps if p.spec.id not in only]
     figures = [fault_figures(plan, predictor.predict([f])) for f in fault_list]
     for proposal in proposals:
         study.checks[proposal.step_id] = [
@@ -430,7 +440,9 @@ def _warnings(study: LimitsStudy) -> list[str]:
     lost = study.caught_by_any("present") - study.caught_by_any("proposed")
     for fault in study.faults:
         if fault in lost:
-            found.append(f"fault {fault.spec}: caught now, but by no step with the proposed limits")
+            found.append(
+                f"fault {fault.spec}: caught now, but by {study.no_step} with the proposed limits"
+            )
     return found
 
 
@@ -451,6 +463,8 @@ def toml_text(study: LimitsStudy, sequence_name: str, unit_name: str) -> str:
         "# keys (low/high, nominal + tolerance, max; tolerance for ntc, rtd and ratiometric\n"
         "# steps).",
     ]
+    if study.not_studied:
+        lines.append(f"# Not studied (--step leaves them out): {', '.join(study.not_studied)}.")
     if study.warnings:
         lines.append("#")
         lines.append("# Warnings:")

@@ -204,18 +204,29 @@ def _print(
         rows,
     )
     for step_id, reason in r.skipped.items():
-        out.line(f"skipped {step_id}: {reason}")
+        if step_id not in study.not_studied:
+            out.line(f"skipped {step_id}: {reason}")
+    if study.not_studied:
+        out.line(f"not studied (--step leaves them out): {', '.join(study.not_studied)}")
+    if not study.proposals:
+        out.line("no limits proposed: no studied step takes limits from this study")
     out.line(
         "(tolerance steps show their deviation from the step's prediction; TUR is what rig check "
         "shows once the proposed limits are pasted)"
     )
     out.line()
-    out.line(f"Faults of the fault set ({len(study.faults)}) caught by the proposed limits:")
+    studied = " of the studied steps" if study.not_studied else ""
+    out.line(
+        f"Faults of the fault set ({len(study.faults)}) caught by the proposed limits{studied}:"
+    )
     for p in study.proposals:
         caught = [c.fault.spec for c in study.checks[p.step_id] if c.proposed]
         out.line(f"  {p.step_id}: {', '.join(caught) or 'none'}")
-    missed = [f.spec for f in study.faults if f not in study.caught_by_any("proposed")]
-    out.line(f"  by no step: {', '.join(missed) or 'none'}")
+    missed = ", ".join(f.spec for f in study.faults if f not in study.caught_by_any("proposed"))
+    if study.not_studied:
+        out.line(f"  faults no studied step catches (other steps not studied): {missed or 'none'}")
+    else:
+        out.line(f"  by no step: {missed or 'none'}")
     if study.warnings:
         out.line()
         out.line("Warnings:")
@@ -267,7 +278,13 @@ def study_dict(study: LimitsStudy, seconds: float) -> dict[str, Any]:
             }
             for p in study.proposals
         ],
-        "skipped": [{"id": k, "reason": v} for k, v in r.skipped.items()],
+        "skipped": [
+            {"id": k, "reason": v} for k, v in r.skipped.items() if k not in study.not_studied
+        ],
+        "not_studied": study.not_studied,
         "faults": [f.spec for f in study.faults],
+        "caught_by_none": [
+            f.spec for f in study.faults if f not in study.caught_by_any("proposed")
+        ],
         "warnings": study.warnings,
     }
