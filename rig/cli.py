@@ -21,6 +21,7 @@ from rig.judge.decision import Verdict, tur_text
 from rig.signed_values import join_signed_values, value_options
 
 if TYPE_CHECKING:
+    from rig.analysis.model_tur import ModelTur
     from rig.analysis.settling import RouteSettling
     from rig.config.fixture import FixtureMap
     from rig.config.station import Station
@@ -341,6 +342,7 @@ def _show_unit_warnings(
 
 
 def cmd_check(args: argparse.Namespace, out: Output) -> int:
+    from rig.analysis.model_tur import model_step_turs
     from rig.analysis.settling import route_settling
     from rig.harness.wire_list import WireList
     from rig.runner import load_inputs
@@ -354,6 +356,7 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
     plan, unit = load_inputs(args.sequence, args.station, args.unit)
     station = plan.station
     settling = None if unit is None else route_settling(plan, unit)
+    turs = {} if unit is None else model_step_turs(plan, unit)
     out.line(f"sequence {plan.sequence.name} ({args.sequence}) on station {station.name}: valid")
     if station.operator_required:
         out.line("operator: required by the station (operator_required); run with --operator NAME")
@@ -364,7 +367,7 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
         relays = " | ".join(",".join(str(r) for r in sorted(rs)) for rs in step.relay_sets)
         if len(step.relay_sets) > 4 and len(relays) > RELAYS_SHOWN_CHARS:  # a harness proof
             relays = f"{len(step.relay_sets)} routes"
-        range_cell, u_cell, tur_cell = _estimate(plan, step)
+        range_cell, u_cell, tur_cell = _estimate(plan, step, turs.get(spec.id))
         rows.append(
             [
                 spec.id,
@@ -380,6 +383,8 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
         )
     headers = ["step", "kind", "pins", "relays", "interlocks", "limits", "range", "U (k=2)", "TUR"]
     out.table(headers, rows)
+    for found in turs.values():
+        out.line(model_tur_note(found, args.unit.name))
     for step in plan.steps:
         wires = step.spec.params.get("wires")
         if isinstance(wires, WireList) and wires.ignored:
@@ -534,8 +539,26 @@ def _duration(seconds: float) -> str:
     return f"{seconds / 1e-9:.3g} ns"
 
 
-def _estimate(plan: Plan, step: PlannedStep) -> tuple[str, str, str]:
-    """The planned range, and the expanded uncertainty and TUR at the upper (or lower) limit."""
+def model_tur_note(found: ModelTur, unit_file: str) -> str:
+    """Where a model step's U and TUR come from, and the TUR at the other end of the range."""
+    worst = found.worst
+    others = [
+        f"{at.temp_c:g} degC: {tur_text(at.tur)}" for at in found.at if at.temp_c != worst.temp_c
+    ]
+    where = (
+        f"at {worst.temp_c:g} degC, the worst end of {unit_file}'s temperature_range"
+        if others
+        else f"at {worst.temp_c:g} degC, the ambient of {unit_file}"
+    )
+    tail = f" ({'; '.join(others)})" if others else ""
+    return f"{found.step_id}: limits around the prediction: U and TUR {where}{tail}"
+
+
+def _estimate(
+    plan: Plan, step: PlannedStep, model_tur: ModelTur | None = None
+) -> tuple[str, str, str]:
+    """The planned range, and the expanded uncertainty and TUR at the upper (or lower) limit;
+    for limits around a prediction, at the worst temperature the unit file allows."""
     from rig.config.station import FUNCTIONS
     from rig.step_judging import uncertainty_at_limit
     from rig.steps import KINDS
@@ -545,9 +568,12 @@ def _estimate(plan: Plan, step: PlannedStep) -> tuple[str, str, str]:
     function = kind.meter_function(spec)
     if function is None:
         return "-", "-", "-"  # nothing measured with the meter (a prompt, a soak)
+    range_text = "auto" if step.range_ is None else show(step.range_, FUNCTIONS[function.value])
+    if model_tur is not None:
+        worst = model_tur.worst
+        return range_text, show(worst.expanded, model_tur.unit), tur_text(worst.tur)
     if step.range_ is None:
-        return "auto", "-", "-"
-    range_text = show(step.range_, FUNCTIONS[function.value])
+        return range_text, "-", "-"
     found = uncertainty_at_limit(plan.station, spec, step.range_)
     if found is None:  # a temperature or a fraction: the meter's U is not in its unit
         return range_text, "-", "-"

@@ -420,7 +420,7 @@ def test_each_proposal_reports_the_tur_rig_check_shows_once_pasted(
     assert turs["output-fraction"] is None  # a tolerance around the prediction: no TUR
     drop = turs["signal-wire-drop"]
     assert drop is not None and drop < 4
-    low = f"TUR {drop:.0f}:1 LOW"
+    low = f"TUR {drop:.1f}:1 LOW"  # one decimal under 10:1
     assert any(w.startswith(f"step signal-wire-drop: {low}") for w in study.warnings)
     assert not any("TUR" in w and "signal-at-controller" in w for w in study.warnings)
 
@@ -434,7 +434,8 @@ def test_each_proposal_reports_the_tur_rig_check_shows_once_pasted(
     rows = {line.split()[0]: line for line in capsys.readouterr().out.splitlines() if line}
     for step_id, tur in turs.items():
         shown = rows[step_id].rstrip()
-        expected = "-" if tur is None else f"{tur:.0f}:1" + (" LOW" if tur < 4 else "")
+        shown_tur = "-" if tur is None else f"{tur:.1f}" if tur < 10 else f"{tur:.0f}"
+        expected = "-" if tur is None else f"{shown_tur}:1" + (" LOW" if tur < 4 else "")
         assert shown.endswith(expected), (step_id, shown, expected)
 
 
@@ -444,8 +445,12 @@ def test_the_toml_to_paste_carries_the_warnings(capsys: pytest.CaptureFixture[st
     assert main([*args, "--unit", str(unit), "--samples", "20000"]) == 0
     text = capsys.readouterr().out
     table = text.split("[signal-wire-drop]\n", 1)[1].splitlines()
-    assert re.fullmatch(r"# TUR [0-3]:1 LOW \(under 4:1\): see the warnings", table[0]), table[0]
-    assert re.search(r"# - step signal-wire-drop: TUR [0-3]:1 LOW with the proposed limits", text)
+    assert re.fullmatch(r"# TUR [0-3]\.\d:1 LOW \(under 4:1\): see the warnings", table[0]), table[
+        0
+    ]
+    assert re.search(
+        r"# - step signal-wire-drop: TUR [0-3]\.\d:1 LOW with the proposed limits", text
+    )
     assert "max" in tomllib.loads(text)["signal-wire-drop"]
 
 

@@ -111,6 +111,18 @@ def test_test_uncertainty_ratio() -> None:
     assert not tur_is_low(10.0)
 
 
+def test_a_low_tur_near_the_minimum_is_not_shown_as_the_minimum() -> None:
+    # 3.6:1 is under the 4:1 minimum (common practice, no published source): shown rounded to a
+    # whole number it read "4:1 LOW", a ratio at the minimum marked as under it
+    from rig.judge.decision import tur_text
+
+    assert tur_text(3.6) == "3.6:1 LOW"
+    assert tur_text(2.586) == "2.6:1 LOW"
+    assert tur_text(4.0) == "4.0:1"
+    assert tur_text(12.4) == "12:1"
+    assert tur_text(None) == "-"
+
+
 def test_worst_rolls_up_a_run() -> None:
     p, cp, cf, f, e, s = (
         Verdict.PASS,

@@ -29,6 +29,7 @@ import numpy as np
 import numpy.typing as npt
 
 from rig.analysis.fault_set import DETECTING, single_faults
+from rig.analysis.model_tur import model_step_turs
 from rig.analysis.montecarlo import (
     FloatArray,
     MonteCarloResult,
@@ -167,8 +168,11 @@ class Proposal:
     no_reading: int
     tur: float | None = None
     """The test uncertainty ratio of the proposed limits as ``rig check`` would show it once
-    they are pasted (None where it shows none: limits around a prediction, a one-sided limit,
-    or a reading no listed range holds)."""
+    they are pasted (None where it shows none: a one-sided limit, a reading no listed range
+    holds, or limits around a prediction other than an ntc step's)."""
+    tur_at_c: float | None = None
+    """For limits around an ntc step's prediction, the ambient the TUR is taken at: the worst
+    end of the unit file's temperature range (``rig.analysis.model_tur``)."""
 
     @property
     def present_ppm(self) -> float:
@@ -346,6 +350,7 @@ def study_limits(
     ]
     for proposal in proposals:
         proposal.tur = proposed_tur(plan, proposal)
+    _model_turs(plan, unit, proposals)
     fault_list = list(single_faults(unit, plan) if faults is None else faults)
     study = LimitsStudy(result, false_reject_ppm, proposals, fault_list)
     if only is not None:
@@ -370,6 +375,23 @@ def proposed_tur(plan: Plan, proposal: Proposal) -> float | None:
     earlier = {p.spec.id: p.spec for p in plan.steps}.get
     found = uncertainty_at_limit(plan.station, pasted, held_range(pasted, earlier, plan.station))
     return None if found is None else found[1]
+
+
+def _model_turs(plan: Plan, unit: UnitModel, proposals: Sequence[Proposal]) -> None:
+    """The TUR of each proposed tolerance around an ntc step's prediction, at the worst end of
+    the unit's temperature range, as ``rig check --unit`` shows it once pasted."""
+    tolerances = {
+        p.step_id: ("pct" if p.figure_unit == "%" else "abs", float(p.limits.high or 0.0))
+        for p in proposals
+        if p.form == "tolerance" and p.kind == "ntc"
+    }
+    if not tolerances:
+        return
+    found = model_step_turs(plan, unit, tolerances)
+    for proposal in proposals:
+        if proposal.step_id in tolerances and proposal.step_id in found:
+            worst = found[proposal.step_id].worst
+            proposal.tur, proposal.tur_at_c = worst.tur, worst.temp_c
 
 
 def _ambient_warnings(plan: Plan, unit: UnitModel, proposals: Sequence[Proposal]) -> list[str]:
@@ -414,8 +436,8 @@ def _warnings(study: LimitsStudy) -> list[str]:
     for proposal in study.proposals:
         if proposal.tur is not None and tur_is_low(proposal.tur):
             found.append(
-                f"step {proposal.step_id}: TUR {tur_text(proposal.tur)} with the proposed "
-                f"limits (rig check marks a TUR under {TUR_MINIMUM:g}:1 LOW): the meter's "
+                f"step {proposal.step_id}: TUR {tur_text(proposal.tur)}{_at(proposal)} with the "
+                f"proposed limits (rig check marks a TUR under {TUR_MINIMUM:g}:1 LOW): the meter's "
                 "uncertainty is about as wide as the limits, so it decides verdicts near them; "
                 "widen them where the faults allow, or measure with a smaller uncertainty"
             )
@@ -444,6 +466,11 @@ def _warnings(study: LimitsStudy) -> list[str]:
                 f"fault {fault.spec}: caught now, but by {study.no_step} with the proposed limits"
             )
     return found
+
+
+def _at(proposal: Proposal) -> str:
+    """Where a TUR around a prediction is taken (empty for fixed limits)."""
+    return "" if proposal.tur_at_c is None else f" at {proposal.tur_at_c:g} degC"
 
 
 def _ppm(count: int, samples: int) -> str:
@@ -477,7 +504,8 @@ def toml_text(study: LimitsStudy, sequence_name: str, unit_name: str) -> str:
         lines.append(f"[{proposal.step_id}]")
         if proposal.tur is not None and tur_is_low(proposal.tur):
             lines.append(
-                f"# TUR {tur_text(proposal.tur)} (under {TUR_MINIMUM:g}:1): see the warnings"
+                f"# TUR {tur_text(proposal.tur)}{_at(proposal)} (under {TUR_MINIMUM:g}:1): "
+                "see the warnings"
             )
         lines.extend(f'{key} = "{text}"' for key, text in proposal.toml.items())
     return "\n".join(lines) + "\n"

@@ -184,7 +184,7 @@ def _print(
                 f"{p.present_ppm:.0f}",
                 _limits_text(p.limits, p.figure_unit, p.form),
                 f"{p.proposed_ppm:.0f}",
-                tur_text(p.tur),
+                tur_text(p.tur) + ("" if p.tur_at_c is None else f" ({p.tur_at_c:g} degC)"),
                 f"{sum(c.present for c in checks)} -> {sum(c.proposed for c in checks)}",
                 p.method,
             ]
@@ -212,7 +212,8 @@ def _print(
         out.line("no limits proposed: no studied step takes limits from this study")
     out.line(
         "(tolerance steps show their deviation from the step's prediction; TUR is what rig check "
-        "shows once the proposed limits are pasted)"
+        "shows once the proposed limits are pasted, for an ntc step at the worst end of the "
+        "unit's temperature range)"
     )
     out.line()
     studied = " of the studied steps" if study.not_studied else ""
@@ -272,6 +273,7 @@ def study_dict(study: LimitsStudy, seconds: float) -> dict[str, Any]:
                 "proposed": limits(p.limits),
                 "proposed_reject_ppm": p.proposed_ppm,
                 "tur": finite(p.tur),
+                "tur_at_c": p.tur_at_c,
                 "toml": p.toml,
                 "caught_present": [c.fault.spec for c in study.checks[p.step_id] if c.present],
                 "caught_proposed": [c.fault.spec for c in study.checks[p.step_id] if c.proposed],

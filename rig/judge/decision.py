@@ -191,10 +191,12 @@ def tur_is_low(tur: float) -> bool:
 
 def tur_text(tur: float | None) -> str:
     """A test uncertainty ratio as ``rig check`` and ``rig limits`` show it, marked ``LOW``
-    under the usual minimum (``-`` where there is none: a one-sided limit)."""
+    under the usual minimum (``-`` where there is none: a one-sided limit).  Under 10:1 with one
+    decimal, as a run shows it, so that 3.6:1 does not read as a 4:1 marked LOW."""
     if tur is None:
         return "-"
-    return f"{tur:.0f}:1" + (" LOW" if tur_is_low(tur) else "")
+    shown = f"{tur:.1f}" if tur < 10 else f"{tur:.0f}"
+    return f"{shown}:1" + (" LOW" if tur_is_low(tur) else "")
 
 
 def false_accept_risk_at_limit(w: float, u: float) -> float:

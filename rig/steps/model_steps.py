@@ -8,6 +8,7 @@ ratiometric sensor's output is judged as a fraction of its measured supply.
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 from typing import Any
 
 from drivers.base import MeterFunction
@@ -291,20 +292,16 @@ class NtcCheck(StepKind):
             range_=spec.range_,
             nplc=spec.nplc,
         )
-        model: NtcModel = spec.params["model"]
         temp, u_temp = temperature_at(ctx, spec)
-        r_pred = float(model.r_at(temp))
-        u_r_pred = abs(float(model.dr_dt(temp))) * u_temp
         if not voltage:
-            limits = apply_tolerance(r_pred, spec.params["tolerance"])
-            u = math.hypot(reading.u_std, u_r_pred)
+            window = ntc_window(spec, (temp, u_temp))
             return Outcome(
                 reading.value,
                 "ohm",
-                u,
-                limits,
+                math.hypot(reading.u_std, window.u_std),
+                window.limits,
                 [reading],
-                predicted=r_pred,
+                predicted=window.predicted,
                 extras={"temperature_c": temp},
             )
         if spec.params.get("reference_from"):
@@ -312,21 +309,56 @@ class NtcCheck(StepKind):
             v_ref, u_ref = ref.value, ref.u_std
         else:
             v_ref, u_ref = float(spec.params["reference_v"]), 0.0
-        pull = float(spec.params["pullup_ohm"])
-        v_pred = float(divider_voltage(v_ref, pull, r_pred))
-        u_v_pred = math.hypot(
-            float(dv_dr_sensor(v_ref, pull, r_pred)) * u_r_pred, v_pred / v_ref * u_ref
-        )
-        limits = apply_tolerance(v_pred, spec.params["tolerance"])
+        window = ntc_window(spec, (temp, u_temp), (v_ref, u_ref))
         return Outcome(
             reading.value,
             "V",
-            math.hypot(reading.u_std, u_v_pred),
-            limits,
+            math.hypot(reading.u_std, window.u_std),
+            window.limits,
             [reading],
-            predicted=v_pred,
-            extras={"temperature_c": temp, "reference_v": v_ref, "predicted_r_ohm": r_pred},
+            predicted=window.predicted,
+            extras={
+                "temperature_c": temp,
+                "reference_v": v_ref,
+                "predicted_r_ohm": float(spec.params["model"].r_at(temp)),
+            },
         )
+
+
+@dataclass(frozen=True)
+class NtcWindow:
+    """What an ntc step judges a reading against at one reference temperature."""
+
+    predicted: float
+    """R(T), or the divider voltage it gives, in the step's unit."""
+    u_std: float
+    """The prediction's standard uncertainty, from the temperature's and the reference's."""
+    limits: Limits
+    """The prediction ± the step's tolerance."""
+
+
+def ntc_window(
+    spec: StepSpec,
+    temperature: tuple[float, float],
+    reference: tuple[float, float] | None = None,
+) -> NtcWindow:
+    """An ntc step's prediction, its uncertainty and its limits at a temperature (value, standard
+    uncertainty in degC) and, measuring voltage, the divider's reference (value, standard
+    uncertainty in V): the one computation a run judges by and ``rig check`` and ``rig limits``
+    weigh the meter against (GUM 5.1.2: uncorrelated inputs, sensitivities from the model)."""
+    model: NtcModel = spec.params["model"]
+    temp, u_temp = temperature
+    r_pred = float(model.r_at(temp))
+    u_r_pred = abs(float(model.dr_dt(temp))) * u_temp
+    if reference is None:
+        return NtcWindow(r_pred, u_r_pred, apply_tolerance(r_pred, spec.params["tolerance"]))
+    v_ref, u_ref = reference
+    pull = float(spec.params["pullup_ohm"])
+    v_pred = float(divider_voltage(v_ref, pull, r_pred))
+    u_v_pred = math.hypot(
+        float(dv_dr_sensor(v_ref, pull, r_pred)) * u_r_pred, v_pred / v_ref * u_ref
+    )
+    return NtcWindow(v_pred, u_v_pred, apply_tolerance(v_pred, spec.params["tolerance"]))
 
 
 class RatiometricCheck(StepKind):
