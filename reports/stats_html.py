@@ -13,7 +13,7 @@ import pandas as pd
 from reports.html_page import esc, figure, page, table
 from reports.run_html import num
 from reports.svg_plots import histogram_chart, pareto_chart, trend_chart
-from rig.stats.from_store import RELATIVE, ShopStats, StepStats, deviation_of
+from rig.stats.from_store import RELATIVE, ShopStats, StepStats, deviation_of, judged_as
 
 SeriesLoader = Callable[[StepStats], Sequence[tuple[dt.datetime, float]]]
 """The (start time, value) series of one step group, in time order."""
@@ -125,8 +125,8 @@ def series_from_rows(
         if value is None or not math.isfinite(value):
             continue
         if model:
-            if predicted is None:
-                continue
+            if predicted is None or not judged_as(step, low, high, float(predicted)):
+                continue  # another tolerance's row
             value = deviation_of(float(value), float(predicted), step.unit)
         elif low != step.low or high != step.high:
             continue

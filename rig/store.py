@@ -563,6 +563,18 @@ class ResultStore:
             params,
         )
 
+    def sequence_versions(self, where: RunFilter) -> list[Any]:
+        """(sequence_name, sequence_hash, runs, first started_at) per version of each sequence
+        the filter's runs used, oldest first: an edited sequence keeps its name, and its runs
+        then merge in the yield and Pareto."""
+        sql, params = _run_where(where)
+        return self._rows(
+            "SELECT r.sequence_name, r.sequence_hash, COUNT(*), MIN(r.started_at)"
+            f" FROM runs r WHERE {sql} GROUP BY r.sequence_name, r.sequence_hash"
+            " ORDER BY r.sequence_name, MIN(r.started_at)",
+            params,
+        )
+
     def sequence_units(self, sequence_name: str) -> set[str]:
         """The units the steps of a sequence's runs recorded: what ``rig stats`` tells a screen
         from a harness proof by (``rig.screening.is_screen``), for one run's record."""
@@ -671,9 +683,10 @@ def _run_where(where: RunFilter) -> tuple[str, list[Any]]:
     if where.started_before() is not None:
         parts.append("r.started_at < ?")
         params.append(where.started_before())
-    if where.serial_prefix:
-        parts.append("substr(r.serial, 1, CAST(? AS INTEGER)) = ?")
-        params.extend([len(where.serial_prefix), where.serial_prefix])
+    for column, prefix in (("serial", where.serial_prefix), ("sequence_hash", where.sequence_hash)):
+        if prefix:
+            parts.append(f"substr(r.{column}, 1, CAST(? AS INTEGER)) = ?")
+            params.extend([len(prefix), prefix])
     return " AND ".join(parts), params
 
 

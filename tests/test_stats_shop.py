@@ -4,6 +4,7 @@ each figure recomputed independently from the stored rows (plain Python and nump
 from __future__ import annotations
 
 import dataclasses
+import datetime as dt
 import io
 import json
 import re
@@ -20,7 +21,7 @@ from rig.config.fixture import load_fixture
 from rig.config.station import load_station
 from rig.config.unit_file import load_unit
 from rig.demo import CASES, HARNESS_CASES, run_demo
-from rig.runner import run_plan
+from rig.runner import load_plan, run_plan
 from rig.sim.bench import VirtualBench
 from rig.stats.filters import FilterError, RunFilter, make_filter
 from rig.stats.from_store import model_step_stats, shop_stats
@@ -282,19 +283,21 @@ def test_fault_kind_pareto_names_the_faults_the_bench_injected(
     assert found == dict(injected)
 
 
-def _screen_senders_at(ambients: tuple[float, ...], folder: Path, store: ResultStore) -> None:
-    """A good NTC sender screened once at each bench temperature, as units ``T-0``, ``T-1``..."""
+def _screen_senders_at(
+    ambients: tuple[float, ...],
+    folder: Path,
+    store: ResultStore,
+    sequence: Path = SEQUENCES / "ntc-sender-screen.toml",
+    first: int = 0,
+) -> None:
+    """A good NTC sender screened once at each bench temperature, as units ``T-0``, ``T-1``...
+    (numbered from ``first``), with the shipped screen or ``sequence``."""
     unit = load_unit(SEQUENCES / "units" / "ntc-sender.toml")
-    for n, ambient in enumerate(ambients):
+    for n, ambient in enumerate(ambients, start=first):
         bench_unit = dataclasses.replace(unit, ambient_c=ambient)
         with VirtualBench(bench_unit, load_fixture(unit.fixture_path)) as bench:
             station = load_station(bench.write_station(folder / f"s{n}" / "station.toml"))
-            run_plan(
-                shipped_plan("ntc-sender-screen", station),
-                f"T-{n}",
-                ask=lambda t: True,
-                store=store,
-            )
+            run_plan(load_plan(sequence, station), f"T-{n}", ask=lambda t: True, store=store)
 
 
 def test_an_ntc_step_at_several_temperatures_is_one_capability_row(tmp_path: Path) -> None:
@@ -337,10 +340,12 @@ def test_a_harness_proofs_own_findings_fill_the_fault_kind_pareto(
     assert data["screen_outcomes"] == []
 
 
-def test_a_model_step_whose_tolerance_changed_keeps_its_failures() -> None:
+def test_a_model_step_whose_tolerance_changed_gets_a_row_per_tolerance() -> None:
     # rows as ResultStore.model_step_rows gives them: the tolerance went from 5 % to 10 % of the
-    # prediction between runs, so no one offset or ratio holds; the step falls back to one row
-    # per set of limits, on the values, and both failures still count (for the Pareto)
+    # prediction between runs, so no one offset or ratio holds for all; a row per tolerance, each
+    # in % of the prediction (never one row in ohm per run), and both failures still count (for
+    # the Pareto).  Deviations by hand: (2100 - 2000) / 20 = 5 %, (2300 - 2100) / 21 = 9.52 %,
+    # (2600 - 2200) / 22 = 18.18 %.
     rows = [
         ("s", "ntc", "ohm", 2100.0, 2000.0, 1900.0, 2100.0, 5.0, 3, "pass", "complete"),
         ("s", "ntc", "ohm", 2300.0, 2100.0, 1995.0, 2205.0, 5.0, 3, "fail", "complete"),
@@ -348,10 +353,21 @@ def test_a_model_step_whose_tolerance_changed_keeps_its_failures() -> None:
     ]
     found = model_step_stats(rows)
     assert sum(s.failures for s in found) == 2
-    assert sorted((s.low, s.high, s.n) for s in found) == [
-        (1900.0, 2100.0, 1),
-        (1980.0, 2420.0, 1),
-        (1995.0, 2205.0, 1),
+    assert [s.unit for s in found] == ["% of prediction"] * 2
+    assert [(s.low, s.high, s.n) for s in found] == [
+        pytest.approx((-5.0, 5.0, 2)),
+        pytest.approx((-10.0, 10.0, 1)),
+    ]
+    assert found[0].mean == pytest.approx((5.0 + 200 / 21) / 2)
+    assert found[1].mean == pytest.approx(400 / 22)
+    # a tolerance in ohm that changed: grouped by offset, a row per tolerance in ohm off the
+    # prediction (offsets 100, 100 and 150 ohm: two groups; ratios give three)
+    offsets = [
+        (*r[:5], r[4] - t, r[4] + t, *r[7:]) for r, t in zip(rows, (100, 100, 150), strict=True)
+    ]
+    assert [(s.unit, s.low, s.high, s.n) for s in model_step_stats(offsets)] == [
+        ("ohm off prediction", -100.0, 100.0, 2),
+        ("ohm off prediction", -150.0, 150.0, 1),
     ]
     # and where they do hold (5 % each time), one row in % of the prediction
     same = [(*r[:5], r[4] * 0.95, r[4] * 1.05, *r[7:]) for r in rows]
@@ -440,3 +456,54 @@ def test_the_pareto_counts_part_failures_and_keeps_stopped_runs_apart(
         assert "Runs not decided (not counted as part failures)" in text
         assert re.search(r"a question got no answer\s+1", text)
         assert re.search(r"stops-midway / lead-check\s+1\s+100.0 %", text)
+
+
+def test_an_edited_sequence_shows_its_versions_and_each_tolerance_keeps_its_row(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # The same screen, then an edited copy of it (same name, tolerance 5 % -> 8 %): the records
+    # keep each version's content hash, so the statistics say two versions merged, give the
+    # NTC step a row per tolerance in % of its prediction, and --sequence-hash picks one.
+    edited = tmp_path / "edited.toml"
+    text = (SEQUENCES / "ntc-sender-screen.toml").read_text(encoding="utf-8")
+    assert text.count('tolerance = "5 %"') == 1
+    edited.write_text(text.replace('tolerance = "5 %"', 'tolerance = "8 %"'), encoding="utf-8")
+    store_path = tmp_path / "runs.sqlite"
+    store = ResultStore(store_path)
+    try:
+        _screen_senders_at((18.0, 28.0), tmp_path, store)
+        _screen_senders_at((20.0, 26.0), tmp_path, store, sequence=edited, first=2)
+        hashes = [r["sequence_hash"] for r in reversed(store.runs(limit=10))]
+    finally:
+        store.close()
+    assert len(set(hashes)) == 2 and hashes[0] == hashes[1] != hashes[2] == hashes[3]
+    old, new = hashes[0][:12], hashes[2][:12]
+    args = ["stats", "--store", str(store_path)]
+    assert main(args) == 0
+    out = capsys.readouterr().out
+    day = dt.datetime.now(dt.UTC).date().isoformat()
+    assert (
+        f"  ntc-sender-screen: 2 versions of this sequence: {old} (2 runs, from {day}), "
+        f"{new} (2 runs, from {day})"
+    ) in out
+    rows = re.findall(r"sender-resistance\s+% of prediction\s+(-?\d+)\s+(\d+)\s+(\d+)\s", out)
+    assert rows == [("-5", "5", "2"), ("-8", "8", "2")]
+    assert main([*args, "--sequence-hash", new[:7], "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    assert data["runs"] == 2
+    assert [v["sequence_hash"] for v in data["sequence_versions"]] == [hashes[2]]
+    (row,) = [s for s in data["steps"] if s["step_id"] == "sender-resistance"]
+    assert (row["low"], row["high"], row["n"]) == (pytest.approx(-8.0), pytest.approx(8.0), 2)
+    assert main([*args, "--sequence-hash", "not-hex"]) == 2
+    assert "--sequence-hash: expected the start of a version's hash" in capsys.readouterr().err
+    # the page's charts of each row draw that row's runs only
+    from reports.stats_html import series_from_rows
+
+    store = ResultStore(store_path)
+    try:
+        stats = shop_stats(store, RunFilter())
+        for step in (s for s in stats.steps if s.step_id == "sender-resistance"):
+            found = store.step_series(RunFilter(), step.sequence, step.step_id)
+            assert len(series_from_rows(found, step)) == step.n == 2
+    finally:
+        store.close()

@@ -40,6 +40,11 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     stats.add_argument("--since", metavar="YYYY-MM-DD", help="only runs started on or after")
     stats.add_argument("--until", metavar="YYYY-MM-DD", help="only runs started on or before")
     stats.add_argument("--serial-prefix", help="only units whose serial starts with this")
+    stats.add_argument(
+        "--sequence-hash",
+        metavar="PREFIX",
+        help="only runs of the sequence version whose hash starts with this (as the output names)",
+    )
     stats.add_argument("--json", action="store_true", help="one machine-readable document")
     stats.add_argument(
         "--html",
@@ -80,6 +85,7 @@ def _filter(args: argparse.Namespace) -> RunFilter:
         since=args.since,
         until=args.until,
         serial_prefix=args.serial_prefix,
+        sequence_hash=args.sequence_hash,
     )
 
 
@@ -192,6 +198,8 @@ def _write_page(opened: OpenedStore, stats: Any, html_arg: str) -> Path:
 
 
 def _print_shop(stats: Any, out: Output) -> None:
+    from rig.stats.from_store import versions_text
+
     out.line(f"{stats.runs} production runs")
     out.line()
     out.line("Yield per sequence")
@@ -202,6 +210,12 @@ def _print_shop(stats: Any, out: Output) -> None:
             for r in stats.by_sequence.itertuples()
         ],
     )
+    for line in versions_text(stats.versions):
+        out.line(f"  {line}")
+    if versions_text(stats.versions):
+        out.line(
+            "  their runs count together above and below; one version alone: --sequence-hash PREFIX"
+        )
     out.line()
     out.line("Yield per day (day of each unit's first run)")
     out.table(

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import datetime as dt
+import re
 from dataclasses import dataclass
 
 from rig.errors import RigError
@@ -23,6 +24,8 @@ class RunFilter:
     serial_prefix: str | None = None
     study: bool | None = False
     """False: production runs only (no gauge-study runs); True: study runs only; None: both."""
+    sequence_hash: str | None = None
+    """The start of a sequence version's content hash (``rig stats`` names the versions)."""
 
     def started_from(self) -> str | None:
         """The earliest ``started_at`` included, as the ISO text the store keeps."""
@@ -51,10 +54,19 @@ def make_filter(
     until: str | None = None,
     serial_prefix: str | None = None,
     study: bool = False,
+    sequence_hash: str | None = None,
 ) -> RunFilter:
     """A filter from command-line text, with the date range checked."""
     since_day = None if since is None else parse_day(since, "--since")
     until_day = None if until is None else parse_day(until, "--until")
     if since_day and until_day and until_day < since_day:
         raise FilterError(f"--until {until_day} is before --since {since_day}")
-    return RunFilter(sequence, station, since_day, until_day, serial_prefix or None, study)
+    version = None if sequence_hash is None else sequence_hash.strip().lower()
+    if version is not None and not re.fullmatch(r"[0-9a-f]{1,64}", version):
+        raise FilterError(
+            f"--sequence-hash: expected the start of a version's hash in hex digits, as rig "
+            f"stats names the versions (for example 54badb1e5), got {sequence_hash!r}"
+        )
+    return RunFilter(
+        sequence, station, since_day, until_day, serial_prefix or None, study, version or None
+    )

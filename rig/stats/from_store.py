@@ -11,7 +11,7 @@ import threading
 from collections import Counter
 from collections.abc import Callable
 from concurrent.futures import Future
-from dataclasses import asdict, dataclass, replace
+from dataclasses import asdict, dataclass, field, replace
 from typing import Any
 
 import pandas as pd
@@ -63,6 +63,38 @@ class StepStats:
     failures: int
 
 
+@dataclass(frozen=True)
+class SequenceVersion:
+    """One version (content hash) of a sequence that runs of the statistics used."""
+
+    sequence: str
+    sequence_hash: str
+    runs: int
+    first_started: str
+
+
+HASH_SHOWN = 12
+"""Hex digits of a version's hash shown: enough to tell versions apart, short to type back."""
+
+
+def versions_text(versions: list[SequenceVersion]) -> list[str]:
+    """A line per sequence that more than one version contributed to: its runs merge in one
+    yield and Pareto, so say which versions and since when."""
+    by_name: dict[str, list[SequenceVersion]] = {}
+    for version in versions:
+        by_name.setdefault(version.sequence, []).append(version)
+    return [
+        f"{name}: {len(found)} versions of this sequence: "
+        + ", ".join(
+            f"{v.sequence_hash[:HASH_SHOWN]} ({v.runs} run{'s' if v.runs != 1 else ''}, "
+            f"from {v.first_started[:10]})"
+            for v in found
+        )
+        for name, found in by_name.items()
+        if len(found) > 1
+    ]
+
+
 @dataclass
 class ShopStats:
     where: RunFilter
@@ -77,6 +109,7 @@ class ShopStats:
     """Runs that decided nothing (stopped, instrument fault, ...), by cause: kept out of the
     Pareto, whose counts are part failures only."""
     steps: list[StepStats]
+    versions: list[SequenceVersion] = field(default_factory=list)
 
     def to_dict(self) -> dict[str, Any]:
         """Plain data for ``--json`` (NaN becomes null)."""
@@ -104,6 +137,7 @@ class ShopStats:
             "fault_kind_note": self.fault_note,
             "not_decided": records(self.undecided),
             "steps": [{k: clean(v) for k, v in asdict(s).items()} for s in self.steps],
+            "sequence_versions": [asdict(v) for v in self.versions],
         }
 
 
@@ -173,28 +207,66 @@ def model_step_stats(rows: list[Any]) -> list[StepStats]:
     of each reading's deviation from its prediction, against the tolerance, which stays put
     while the limits move with the prediction (an NTC's with the measured temperature).  The
     deviation is in the step's unit where the limits keep their offset from the prediction, else
-    in % of the prediction where they keep their ratio to it (a tolerance in %); a step whose
+    in % of the prediction where they keep their ratio to it (a tolerance in %).  Where the
+    tolerance changed between runs (an edited sequence), a row per tolerance: the runs are
+    grouped by the limits' ratio to the prediction, or by their offset from it where that makes
+    fewer groups, so a step keeps its % rows rather than one row in V per run.  A group whose
     limits keep neither gets a row per set of limits, on its values, as a fixed-limit step."""
     by_step: dict[tuple[str, str], list[Any]] = {}
     for row in rows:
         by_step.setdefault((str(row[0]), str(row[1])), []).append(row)
     found = []
     for (sequence, step_id), runs in by_step.items():
-        form = _deviation_form(runs)
-        if form is not None:
-            unit, low, high, figures = form
-            found.append(_model_row(sequence, step_id, unit, (low, high), figures, runs))
-            continue
-        # limits that keep no one offset nor ratio (the tolerance changed between runs): per
-        # set of limits, on the values, as fixed-limit steps; its failures count all the same
-        by_limits: dict[tuple[Any, Any], list[Any]] = {}
-        for row in runs:
-            by_limits.setdefault((row[5], row[6]), []).append(row)
-        for (low, high), same in by_limits.items():
-            values = [float(r[3]) for r in same if r[3] is not None]
-            unit = str(same[0][2])
-            found.append(_model_row(sequence, step_id, unit, (low, high), values, same))
+        relative, groups = _by_tolerance(runs)
+        for group in groups:
+            form = _deviation_form(group, relative)
+            if form is not None:
+                unit, low, high, figures = form
+                found.append(_model_row(sequence, step_id, unit, (low, high), figures, group))
+                continue
+            # limits that keep no one offset nor ratio: per set of limits, on the values, as
+            # fixed-limit steps; its failures count all the same
+            by_limits: dict[tuple[Any, Any], list[Any]] = {}
+            for row in group:
+                by_limits.setdefault((row[5], row[6]), []).append(row)
+            for (low, high), same in by_limits.items():
+                values = [float(r[3]) for r in same if r[3] is not None]
+                unit = str(same[0][2])
+                found.append(_model_row(sequence, step_id, unit, (low, high), values, same))
     return found
+
+
+def _by_tolerance(runs: list[Any]) -> tuple[bool | None, list[list[Any]]]:
+    """A model step's runs grouped by where their limits lie against the prediction: by ratio
+    (a tolerance in %: True) or by offset (a tolerance in the step's unit: False), whichever
+    makes fewer groups (offset on a tie: where the prediction never moved, both hold), in the
+    order of each group's first run; (None, all runs) where neither applies."""
+    best: tuple[bool | None, list[list[Any]]] = (None, [runs])
+    for relative in (False, True):
+        groups: list[tuple[tuple[float | None, float | None], list[Any]]] = []
+        for row in runs:
+            sides = _sides(row, relative)
+            if sides is None:  # no prediction to scale by: this grouping does not apply
+                break
+            for first, members in groups:
+                if _all_close([first, sides]):
+                    members.append(row)
+                    break
+            else:
+                groups.append((sides, [row]))
+        else:
+            if best[0] is None or len(groups) < len(best[1]):
+                best = relative, [members for _, members in groups]
+    return best
+
+
+def _sides(row: Any, relative: bool) -> tuple[float | None, float | None] | None:
+    """A stored run's limits against its prediction: offsets, or in % of it (None: no scale)."""
+    predicted = row[4]
+    scale = abs(float(predicted)) / 100.0 if relative else 1.0
+    if scale == 0.0 or not math.isfinite(scale):
+        return None
+    return _offset(row[5], predicted, scale), _offset(row[6], predicted, scale)
 
 
 def _model_row(
@@ -221,13 +293,14 @@ def _model_row(
 
 
 def _deviation_form(
-    runs: list[Any],
+    runs: list[Any], relative_only: bool | None = None
 ) -> tuple[str, float | None, float | None, list[float]] | None:
     """(unit, low, high, deviations) of a model step's runs, or None where the limits keep no
-    fixed offset nor ratio to the prediction."""
+    fixed offset nor ratio to the prediction; ``relative_only`` tries the one form only."""
     unit = str(runs[0][2])
     # a fixed offset first: where the prediction never moves, a ratio would be fixed too
-    for relative in (False, True):
+    forms = (False, True) if relative_only is None else (relative_only,)
+    for relative in forms:
         sides: list[tuple[float | None, float | None]] = []
         figures: list[float] = []
         for _, _, _, value, predicted, low, high, *_ in runs:
@@ -255,6 +328,17 @@ def deviation_of(value: float, predicted: float, unit: str) -> float:
     step (``RELATIVE``, or the step's unit "off prediction")."""
     scale = abs(predicted) / 100.0 if unit == RELATIVE else 1.0
     return (value - predicted) / scale
+
+
+def judged_as(step: StepStats, low: Any, high: Any, predicted: float) -> bool:
+    """Whether a stored step run with these limits and prediction belongs to the row ``step``
+    of a model step: its limits lie where the row's do against the prediction (a row per
+    tolerance, ``model_step_stats``)."""
+    scale = abs(predicted) / 100.0 if step.unit == RELATIVE else 1.0
+    if scale == 0.0 or not math.isfinite(scale):
+        return False
+    sides = (_offset(low, predicted, scale), _offset(high, predicted, scale))
+    return _all_close([(step.low, step.high), sides])
 
 
 def spread_of(width: float, predicted: float, unit: str) -> float:
@@ -326,6 +410,10 @@ def shop_stats(
         fault_note=note,
         undecided=undecided_causes(runs),
         steps=[g for g in groups if g.n > 0 and g.unit not in NOT_READINGS],  # in the Pareto still,
+        versions=[
+            SequenceVersion(str(name), str(digest), int(runs), str(first))
+            for name, digest, runs, first in store.sequence_versions(where)
+        ],
     )
 
 

@@ -13,7 +13,12 @@ from rig.stats.filters import RunFilter
 
 NAMES = (("sequence", "--sequence"), ("station", "--station-name"))
 """The name filters, in the order ``ResultStore.run_names`` gives their columns."""
-OTHERS = (("since", "--since"), ("until", "--until"), ("serial_prefix", "--serial-prefix"))
+OTHERS = (
+    ("since", "--since"),
+    ("until", "--until"),
+    ("serial_prefix", "--serial-prefix"),
+    ("sequence_hash", "--sequence-hash"),
+)
 
 HeldNames = Callable[[RunFilter], Sequence[Sequence[Any]]]
 """``ResultStore.run_names``: (sequence, station, runs, first start, last start) per pair."""
