@@ -13,7 +13,14 @@ import pandas as pd
 from reports.html_page import esc, figure, page, table
 from reports.run_html import num
 from reports.svg_plots import histogram_chart, pareto_chart, trend_chart
-from rig.stats.from_store import RELATIVE, ShopStats, StepStats, deviation_of, judged_as
+from rig.stats.from_store import (
+    RELATIVE,
+    SHARE,
+    ShopStats,
+    StepStats,
+    deviation_of,
+    judged_as,
+)
 
 SeriesLoader = Callable[[StepStats], Sequence[tuple[dt.datetime, float]]]
 """The (start time, value) series of one step group, in time order."""
@@ -118,7 +125,7 @@ def series_from_rows(
     """(time, value) pairs of ``ResultStore.step_series`` rows that share the step's limits; for
     a step judged around a prediction, each reading's deviation from it (``model_step_stats``)."""
     found = []
-    model = step.unit == RELATIVE or step.unit.endswith(" off prediction")
+    model = step.unit in (RELATIVE, SHARE) or step.unit.endswith(" off prediction")
     for row in rows:
         _, started, value, low, high = row[:5]
         predicted = row[9]
@@ -127,7 +134,7 @@ def series_from_rows(
         if model:
             if predicted is None or not judged_as(step, low, high, float(predicted)):
                 continue  # another tolerance's row
-            value = deviation_of(float(value), float(predicted), step.unit)
+            value = deviation_of(float(value), float(predicted), step.unit, low, high)
         elif low != step.low or high != step.high:
             continue
         stamp = dt.datetime.fromisoformat(str(started)).astimezone(dt.UTC).replace(tzinfo=None)

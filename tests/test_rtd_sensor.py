@@ -246,3 +246,41 @@ def test_diagnosis_reads_an_element_inside_its_class_as_a_good_unit(tmp_path: Pa
         store.close()
     top = found.hypotheses[0]
     assert top.spec == "none" and top.probability > 0.5, found.hypotheses[:2]
+
+
+def test_stats_sums_a_class_judged_step_in_percent_of_its_tolerance() -> None:
+    """Class B limits at 15, 23 and 35 degC (IEC 60751, by hand above): their width in ohm moves
+    with T, so no offset or ratio holds; the runs make one row, in % of each run's own tolerance,
+    with limits at -100 and 100, and each deviation over its own half-width."""
+    from rig.stats.from_store import SHARE, model_step_stats
+
+    rows = []
+    for temp, off in ((15.0, 0.4), (23.0, -0.8), (35.0, 1.2)):
+        predicted = pt_r(1000.0, temp)
+        half = (0.30 + 0.005 * temp) * pt_slope(1000.0, temp)
+        row = (predicted + off, predicted, predicted - half, predicted + half, 0.9, 1, "pass")
+        rows.append(("pt1000-screen", "element", "ohm", *row, "complete"))
+    [found] = model_step_stats(rows)
+    assert (found.unit, found.low, found.high, found.n) == (SHARE, -100.0, 100.0, 3)
+    shares = [
+        off / ((0.30 + 0.005 * t) * pt_slope(1000.0, t)) * 100
+        for t, off in ((15.0, 0.4), (23.0, -0.8), (35.0, 1.2))
+    ]
+    assert found.mean == pytest.approx(sum(shares) / 3, rel=1e-9)
+
+
+def test_stats_of_runs_on_the_bench_give_one_row_for_the_class_judged_step(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    unit_path, sequence = _files(tmp_path)
+    unit = load_unit(unit_path)
+    with VirtualBench(unit, load_fixture(unit.fixture_path)) as bench:
+        station = bench.write_station(tmp_path / "station.toml", data_dir=str(tmp_path / "data"))
+        for serial in ("PT-1", "PT-2", "PT-3"):
+            assert main(["run", str(sequence), "--station", str(station), "--serial", serial,
+                         "--yes", "--json"]) == 0  # fmt: skip
+    capsys.readouterr()
+    assert main(["stats", "--station", str(station), "--json"]) == 0
+    found = json.loads(capsys.readouterr().out)
+    rows = [s for s in found["steps"] if s["step_id"] == "element"]
+    assert [(r["unit"], r["n"]) for r in rows] == [("% of tolerance", 3)]

@@ -210,19 +210,23 @@ def model_step_stats(rows: list[Any]) -> list[StepStats]:
     in % of the prediction where they keep their ratio to it (a tolerance in %).  Where the
     tolerance changed between runs (an edited sequence), a row per tolerance: the runs are
     grouped by the limits' ratio to the prediction, or by their offset from it where that makes
-    fewer groups, so a step keeps its % rows rather than one row in V per run.  A group whose
-    limits keep neither gets a row per set of limits, on its values, as a fixed-limit step."""
+    fewer groups, so a step keeps its % rows rather than one row in V per run.  Limits that keep
+    neither but stay centred on the prediction with a width that moves a little from run to run
+    (an RTD's IEC 60751 class, wider as the temperature moves from 0 degC) give one row in % of
+    the tolerance.  A group whose limits keep none of these gets a row per set of limits, on its
+    values, as a fixed-limit step."""
     by_step: dict[tuple[str, str], list[Any]] = {}
     for row in rows:
         by_step.setdefault((str(row[0]), str(row[1])), []).append(row)
     found = []
     for (sequence, step_id), runs in by_step.items():
-        relative, groups = _by_tolerance(runs)
+        figure, groups = _by_tolerance(runs)
         for group in groups:
-            form = _deviation_form(group, relative)
+            form = None if figure is None else _deviation_form(group, figure)
             if form is not None:
-                unit, low, high, figures = form
-                found.append(_model_row(sequence, step_id, unit, (low, high), figures, group))
+                low, high, figures = form
+                assert figure is not None
+                found.append(_model_row(sequence, step_id, figure, (low, high), figures, group))
                 continue
             # limits that keep no one offset nor ratio: per set of limits, on the values, as
             # fixed-limit steps; its failures count all the same
@@ -236,16 +240,19 @@ def model_step_stats(rows: list[Any]) -> list[StepStats]:
     return found
 
 
-def _by_tolerance(runs: list[Any]) -> tuple[bool | None, list[list[Any]]]:
-    """A model step's runs grouped by where their limits lie against the prediction: by ratio
-    (a tolerance in %: True) or by offset (a tolerance in the step's unit: False), whichever
-    makes fewer groups (offset on a tie: where the prediction never moved, both hold), in the
-    order of each group's first run; (None, all runs) where neither applies."""
-    best: tuple[bool | None, list[list[Any]]] = (None, [runs])
-    for relative in (False, True):
+def _by_tolerance(runs: list[Any]) -> tuple[str | None, list[list[Any]]]:
+    """A model step's runs grouped by where their limits lie against the prediction: by offset
+    (a tolerance in the step's unit), by ratio (a tolerance in %), whichever makes fewer groups
+    (offset on a tie: where the prediction never moved, both hold), in the order of each group's
+    first run; where each run is its own group under both, all in one group in % of a tolerance
+    that stays centred and near one width (``SHARE``); (None, all runs) where none applies.
+    Returns the figure's unit (``figure_scale``) with the groups."""
+    offset = f"{_points(str(runs[0][2]))} off prediction"
+    best: tuple[str | None, list[list[Any]]] = (None, [runs])
+    for figure in (offset, RELATIVE):
         groups: list[tuple[tuple[float | None, float | None], list[Any]]] = []
         for row in runs:
-            sides = _sides(row, relative)
+            sides = _sides(row, figure)
             if sides is None:  # no prediction to scale by: this grouping does not apply
                 break
             for first, members in groups:
@@ -256,15 +263,29 @@ def _by_tolerance(runs: list[Any]) -> tuple[bool | None, list[list[Any]]]:
                 groups.append((sides, [row]))
         else:
             if best[0] is None or len(groups) < len(best[1]):
-                best = relative, [members for _, members in groups]
+                best = figure, [members for _, members in groups]
+    if len(runs) > 1 and len(best[1]) == len(runs) and _one_share(runs):
+        return SHARE, [runs]
     return best
 
 
-def _sides(row: Any, relative: bool) -> tuple[float | None, float | None] | None:
-    """A stored run's limits against its prediction: offsets, or in % of it (None: no scale)."""
+def _one_share(runs: list[Any]) -> bool:
+    """Whether the runs' limits all sit centred on their predictions with widths within
+    ``SHARE_SPREAD`` of each other: one tolerance that moves with the conditions, not several."""
+    halves = []
+    for row in runs:
+        scale = figure_scale(SHARE, row[4], row[5], row[6])
+        if scale is None:
+            return False
+        halves.append(scale)
+    return max(halves) <= SHARE_SPREAD * min(halves)
+
+
+def _sides(row: Any, figure: str) -> tuple[float | None, float | None] | None:
+    """A stored run's limits against its prediction, in the figure's unit (None: no scale)."""
     predicted = row[4]
-    scale = abs(float(predicted)) / 100.0 if relative else 1.0
-    if scale == 0.0 or not math.isfinite(scale):
+    scale = figure_scale(figure, predicted, row[5], row[6])
+    if scale is None:
         return None
     return _offset(row[5], predicted, scale), _offset(row[6], predicted, scale)
 
@@ -281,7 +302,7 @@ def _model_row(
     cap = capability(figures, *limits)
     # each run's U in the unit of the figures (a % deviation scales by its own prediction)
     us = [
-        spread_of(float(r[7]), float(r[4]), unit)
+        spread_of(float(r[7]), float(r[4]), unit, r[5], r[6])
         for r in runs
         if r[7] is not None and math.isfinite(float(r[7]))
     ]
@@ -293,58 +314,80 @@ def _model_row(
 
 
 def _deviation_form(
-    runs: list[Any], relative_only: bool | None = None
-) -> tuple[str, float | None, float | None, list[float]] | None:
-    """(unit, low, high, deviations) of a model step's runs, or None where the limits keep no
-    fixed offset nor ratio to the prediction; ``relative_only`` tries the one form only."""
-    unit = str(runs[0][2])
-    # a fixed offset first: where the prediction never moves, a ratio would be fixed too
-    forms = (False, True) if relative_only is None else (relative_only,)
-    for relative in forms:
-        sides: list[tuple[float | None, float | None]] = []
-        figures: list[float] = []
-        for _, _, _, value, predicted, low, high, *_ in runs:
-            scale = abs(float(predicted)) / 100.0 if relative else 1.0
-            if scale == 0.0 or not math.isfinite(scale):
-                break
-            sides.append((_offset(low, predicted, scale), _offset(high, predicted, scale)))
-            if value is not None and math.isfinite(float(value)):
-                named = RELATIVE if relative else unit
-                figures.append(deviation_of(float(value), float(predicted), named))
-        else:
-            if _all_close(sides):
-                low, high = sides[0]
-                named = RELATIVE if relative else f"{_points(unit)} off prediction"
-                return named, low, high, figures
-    return None
+    runs: list[Any], figure: str
+) -> tuple[float | None, float | None, list[float]] | None:
+    """(low, high, deviations) of a model step's runs in the ``figure`` unit, or None where
+    their limits do not keep one place in it."""
+    sides: list[tuple[float | None, float | None]] = []
+    figures: list[float] = []
+    for _, _, _, value, predicted, low, high, *_ in runs:
+        scale = figure_scale(figure, predicted, low, high)
+        if scale is None:
+            return None
+        sides.append((_offset(low, predicted, scale), _offset(high, predicted, scale)))
+        if value is not None and math.isfinite(float(value)):
+            figures.append((float(value) - float(predicted)) / scale)
+    if not _all_close(sides):
+        return None
+    low, high = sides[0]
+    return low, high, figures
 
 
 RELATIVE = "% of prediction"
 """The unit of a model step's deviation where its limits keep a ratio to the prediction."""
+SHARE = "% of tolerance"
+"""The unit of a model step's deviation where its limits stay centred on the prediction with a
+width that moves with the conditions (an RTD's class): -100 and 100 are the limits."""
+SHARE_SPREAD = 1.5
+"""How far the widths of one moving tolerance may differ, largest over smallest, before the
+runs are taken as judged by different tolerances (our own choice, no published source: an RTD
+class B's width in ohm changes by some 10 % over a 15 to 35 degC room)."""
 
 
-def deviation_of(value: float, predicted: float, unit: str) -> float:
+def figure_scale(figure: str, predicted: Any, low: Any, high: Any) -> float | None:
+    """What a deviation from ``predicted`` is divided by to give it in the ``figure`` unit: 1 off
+    the prediction in the step's unit, 1 % of the prediction, or 1 % of the half-width of limits
+    centred on it; None where that scale does not exist for these limits."""
+    if predicted is None or not math.isfinite(float(predicted)):
+        return None
+    if figure == RELATIVE:
+        scale = abs(float(predicted)) / 100.0
+    elif figure == SHARE:
+        if low is None or high is None:
+            return None
+        half = (float(high) - float(low)) / 2.0
+        centre = (float(high) + float(low)) / 2.0
+        if not half > 0 or not math.isclose(centre, float(predicted), abs_tol=1e-6 * half):
+            return None
+        scale = half / 100.0
+    else:
+        scale = 1.0
+    return scale if scale > 0 and math.isfinite(scale) else None
+
+
+def deviation_of(value: float, predicted: float, figure: str, low: Any, high: Any) -> float:
     """A reading's deviation from its prediction, in the unit ``model_step_stats`` gave its
-    step (``RELATIVE``, or the step's unit "off prediction")."""
-    scale = abs(predicted) / 100.0 if unit == RELATIVE else 1.0
-    return (value - predicted) / scale
+    step (``RELATIVE``, ``SHARE``, or the step's unit "off prediction"); NaN without a scale."""
+    scale = figure_scale(figure, predicted, low, high)
+    return math.nan if scale is None else (value - predicted) / scale
 
 
 def judged_as(step: StepStats, low: Any, high: Any, predicted: float) -> bool:
     """Whether a stored step run with these limits and prediction belongs to the row ``step``
     of a model step: its limits lie where the row's do against the prediction (a row per
     tolerance, ``model_step_stats``)."""
-    scale = abs(predicted) / 100.0 if step.unit == RELATIVE else 1.0
-    if scale == 0.0 or not math.isfinite(scale):
+    scale = figure_scale(step.unit, predicted, low, high)
+    if scale is None:
         return False
     sides = (_offset(low, predicted, scale), _offset(high, predicted, scale))
     return _all_close([(step.low, step.high), sides])
 
 
-def spread_of(width: float, predicted: float, unit: str) -> float:
+def spread_of(width: float, predicted: float, figure: str, low: Any, high: Any) -> float:
     """A width in the reading's unit (its expanded uncertainty) in the unit of its deviation
-    (``deviation_of``): a guard band drawn against % limits must be in % of the same prediction."""
-    return width / (abs(predicted) / 100.0) if unit == RELATIVE else width
+    (``deviation_of``): a guard band drawn against % limits must be in % of the same scale."""
+    scale = figure_scale(figure, predicted, low, high)
+    return math.nan if scale is None else width / scale
 
 
 def _points(unit: str) -> str:
