@@ -4,13 +4,14 @@ reading, limits, uncertainty and verdict, a plot of the margins, the diagnosis, 
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from typing import Any
 
 from reports.html_page import esc, figure, page, table
 from reports.svg_plots import margin_chart
 from rig import __version__
 from rig.events import CUT_SHORT, NOT_RUN, prompt_answer
+from rig.judge.decision import COVERAGE_K, DecisionRule, Limits, judge
 
 
 def num(value: object, digits: int = 7) -> str:
@@ -150,15 +151,18 @@ def _not_measured(record: Mapping[str, Any]) -> str:
     return text
 
 
-def _nets(steps: list[Mapping[str, Any]]) -> str:
+def _nets(steps: list[Mapping[str, Any]], readings: Sequence[Mapping[str, Any]] = ()) -> str:
     """A harness proof's continuity net by net: each reading against its limit, the figures a
-    shop ships or rejects a harness on (kept in the step's extras as ``net N A>B ohm`` and
-    ``... max_ohm``)."""
+    shop ships or rejects a harness on (kept in the step's extras as ``net N A>B ohm``,
+    ``... max_ohm`` and ``... u_ohm``).  Each is judged as the run judged it: with the step's
+    decision rule and the reading's expanded U, so that a net within U of its limit under the
+    guarded rule reads conditional here too, not within or over by a plain comparison."""
     rows = []
     for s in steps:
         extras = s.get("extras") or {}
         if s.get("kind") != "harness-proof" or not isinstance(extras, Mapping):
             continue
+        rule = _rule(s.get("decision_rule"))
         for key, limit in extras.items():
             if not (key.startswith("net ") and key.endswith(" max_ohm")):
                 continue
@@ -166,14 +170,54 @@ def _nets(steps: list[Mapping[str, Any]]) -> str:
             net, _, ends = name.removeprefix("net ").rpartition(" ")
             hi, _, lo = ends.partition(">")
             value = extras.get(f"{name} ohm")  # absent: no reading (an open net reads overload)
-            within = value is not None and math.isfinite(value) and value <= limit
+            u = extras.get(f"{name} u_ohm")
+            if u is None:  # a record from before U was kept: that of the pair's raw reading
+                u = _raw_expanded_u(readings, str(s["step_id"]), ends)
+            verdict = (
+                judge(math.nan if value is None else value, Limits(None, limit), u, rule).value
+                if math.isfinite(limit)
+                else "no limit"
+            )
             reading = "no reading" if value is None else num(value)
-            verdict = "within" if within else "OVER"
-            rows.append([s["step_id"], net, hi, lo, reading, num(limit), verdict])
+            rows.append([s["step_id"], net, hi, lo, reading, num(limit), num(u, 3), verdict])
     if not rows:
         return ""
-    headers = ["step", "net", "from", "to", "reading (ohm)", "limit (ohm)", "against limit"]
-    return "<h2>Continuity, net by net</h2>" + table(headers, rows, numeric=(4, 5), table_id="nets")
+    headers = ["step", "net", "from", "to", "reading (ohm)", "limit (ohm)", "U (ohm)", "verdict"]
+    return (
+        "<h2>Continuity, net by net</h2>"
+        + table(headers, rows, numeric=(4, 5, 6), verdict_column=7, table_id="nets")
+        + f'<p class="note">{esc(NETS_NOTE)}</p>'
+    )
+
+
+NETS_NOTE = (
+    "Each net is judged as the run judged it: its reading against its limit with the reading's "
+    "expanded uncertainty U (k = 2) under the step's decision rule (ILAC-G8:09/2019)."
+)
+
+
+def _rule(text: object) -> DecisionRule:
+    """The step's stored decision rule; simple where the record names none it knows."""
+    try:
+        return DecisionRule(text)
+    except ValueError:
+        return DecisionRule.SIMPLE
+
+
+def _raw_expanded_u(readings: Sequence[Mapping[str, Any]], step_id: str, ends: str) -> float:
+    """U (k = 2) of the last raw reading of the pair ``HI>LO`` in the step, 0 where none has
+    one: the figure the run judged the net with (``rig.harness.continuity.read_check``)."""
+    roles = {f"continuity {ends}", f"join {ends}"}
+    found = [
+        r["u_std"]
+        for r in readings
+        if r.get("step_id") == step_id
+        and r.get("role") in roles
+        and r.get("value") is not None
+        and isinstance(r.get("u_std"), float)
+        and math.isfinite(r["u_std"])
+    ]
+    return COVERAGE_K * found[-1] if found else 0.0
 
 
 def _margins(steps: list[Mapping[str, Any]]) -> str:
@@ -260,7 +304,7 @@ def render_run(record: Mapping[str, Any]) -> str:
         _instruments(run),
         _steps(record["steps"]),
         _not_measured(record),
-        _nets(record["steps"]),
+        _nets(record["steps"], record["readings"]),
         _margins(record["steps"]),
         _diagnosis(record.get("diagnosis")),
         _readings(record["readings"]),

@@ -627,3 +627,46 @@ def test_two_lists_of_one_folder_and_file_name_are_kept_apart_and_one_list_is_on
     names = [harness_sequence_name("check", p) for p in (first, other, copy)]
     assert names[0] != names[1] and names[0] == names[2]
     assert names[0].startswith("rig harness check: h/wires.csv (list ")
+
+
+def test_the_records_net_table_judges_each_net_as_the_run_did_under_the_guarded_rule(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # ILAC-G8:09/2019 (guarded acceptance, w = U, k = 2): a value inside its limit by less than
+    # U is a conditional pass, outside by less than U a conditional fail.  The record's table of
+    # nets compared the reading with the limit (within / OVER), so a net the run judged
+    # conditional read plainly good or bad there.  Limits are set a third of U either side of
+    # what a first check read (the bench's noise is well under that).
+    _, bench = _shipped([], ambient_c=23.0)
+    with served(bench, tmp_path) as station_path:
+        args = ["harness", "check", str(SHIPPED / "wire-list.csv"), "--station", str(station_path)]
+        assert main([*args, "--serial", "H-0", "--ambient", "23 degC", "--json"]) == EXIT_PASS
+        first = json.loads(capsys.readouterr().out)["extras"]
+        inside = {}
+        for net, side in (("LAMP_L J1-1>J2-1", 1), ("LAMP_R J1-2>J2-2", -1)):
+            u = first[f"net {net} u_ohm"]
+            assert u > 0.0
+            inside[net.split()[0]] = first[f"net {net} ohm"] + side * u / 3
+        sequence = tmp_path / "guarded.toml"
+        limits = ", ".join(f'{n} = "{v * 1000:.4f} mohm"' for n, v in inside.items())
+        sequence.write_text(
+            '[sequence]\nname = "guarded"\n\n[[steps]]\nid = "harness"\nkind = "harness-proof"\n'
+            f"wire_list = {json.dumps(str(SHIPPED / 'wire-list.csv'))}\n"
+            'temperature = "23 degC"\ndecision_rule = "guarded"\n'
+            f"net_limits = {{ {limits} }}\n",
+            encoding="utf-8",
+        )
+        summary = run_plan(load_plan(sequence, load_station(station_path)), "H-1")
+        out = tmp_path / "record.html"
+        run = str(summary.run_id)
+        assert main(["report", run, "--station", str(station_path), "--out", str(out)]) == 0
+        page = out.read_text(encoding="utf-8")
+    findings = summary.results[-1].note.split("; ")
+    # the run: LAMP_R over its limit by less than U is a finding, LAMP_L inside by less is not
+    assert any(f.startswith("net LAMP_R: J1-2 to J2-2") for f in findings), findings
+    assert not any("LAMP_L" in f for f in findings), findings
+    nets = page.split('id="nets"')[1].split("</table>")[0]
+    row = {r.split("</td>")[1].removeprefix("<td>"): r for r in nets.split("<tr>")[2:]}
+    assert ">conditional pass</td>" in row["LAMP_L"], row["LAMP_L"]
+    assert ">conditional fail</td>" in row["LAMP_R"], row["LAMP_R"]
+    assert ">pass</td>" in row["STOP"]  # well inside its computed limit

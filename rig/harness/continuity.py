@@ -69,6 +69,12 @@ class ContinuityResult:
     verdict: Verdict
 
     @property
+    def expanded_u_ohm(self) -> float:
+        """U (k = 2) of the reading, 0 where the meter gave none: what the verdict used."""
+        u = self.reading.u_std
+        return COVERAGE_K * u if math.isfinite(u) else 0.0
+
+    @property
     def reached(self) -> bool:
         """A finite reading on the continuity range: the two pins are joined by a conductor."""
         return math.isfinite(self.value_ohm)
@@ -170,9 +176,9 @@ def read_check(
     value = reading.value
     if not check.four_wire and math.isfinite(value):
         value -= port.lead_zero(check.hi, check.lo)
-    expanded = COVERAGE_K * reading.u_std if math.isfinite(reading.u_std) else 0.0
+    result = ContinuityResult(check, reading, value, Verdict.FAIL)
     if math.isfinite(check.limit.max_ohm):
-        verdict = judge(value, Limits(None, check.limit.max_ohm), expanded, rule)
+        verdict = judge(value, Limits(None, check.limit.max_ohm), result.expanded_u_ohm, rule)
     else:  # capturing, or a join between nets: no limit, only whether there is a reading
         verdict = Verdict.PASS if math.isfinite(value) else Verdict.FAIL
-    return ContinuityResult(check, reading, value, verdict)
+    return replace(result, verdict=verdict)

@@ -9,11 +9,10 @@ resistance limit.
 
 from __future__ import annotations
 
-import math
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
 
-from rig.harness.continuity import COVERAGE_K, ContinuityResult
+from rig.harness.continuity import ContinuityResult
 from rig.harness.gauge_hint import gauge_hint
 from rig.harness.isolation import Join
 from rig.harness.wire_list import Net, WireList, WireRow
@@ -135,8 +134,9 @@ def _over_limit(
             f"limit {_ohm(r.check.limit.max_ohm)}"
         )
         if net is not None and temp_c is not None:
-            u = COVERAGE_K * r.reading.u_std if math.isfinite(r.reading.u_std) else 0.0
-            hint = gauge_hint(net.path(hi, lo), r.value_ohm, u, temp_c, r.check.limit.allowance_ohm)
+            hint = gauge_hint(
+                net.path(hi, lo), r.value_ohm, r.expanded_u_ohm, temp_c, r.check.limit.allowance_ohm
+            )
             text += f": {hint}" if hint else ""
         found.append(Finding("high-resistance", text, (hi, lo), (r.check.net,)))
     return found

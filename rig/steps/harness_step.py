@@ -3,7 +3,8 @@
 Continuity of every net against its copper limit at the measured ambient, isolation by group
 testing (or pair by pair), and the findings named in wire-list words.  The step's value is the
 number of findings (limit 0); every reading is stored by the engine as it is taken, and the
-per-net resistances, limits and the isolation proved per pair are kept in the step's extras.
+per-net resistances, limits and expanded uncertainties and the isolation proved per pair are
+kept in the step's extras.
 """
 
 from __future__ import annotations
@@ -125,6 +126,7 @@ def report_outcome(report: HarnessReport, settings: HarnessSettings, unit: str) 
         key = f"net {r.check.net} {r.check.hi}>{r.check.lo}"
         extras[f"{key} ohm"] = r.value_ohm
         extras[f"{key} max_ohm"] = r.check.limit.max_ohm
+        extras[f"{key} u_ohm"] = r.expanded_u_ohm  # the report judges the table by it, as here
     if report.isolation is not None:
         extras["isolation_proven_ohm"] = report.isolation.proven_ohm
         extras["isolation_required_ohm"] = settings.isolation_ohm
