@@ -142,6 +142,53 @@ def test_an_open_at_a_splice_names_the_one_segment_that_explains_it(
     assert not any(w in findings[0] for w in not_named)
 
 
+@pytest.mark.parametrize(
+    ("faults", "named"),
+    [
+        (  # a broken strand on the trunk: both paths from J1-10 read high by the same excess
+            [BuildFault("high", "W10a", ohm=0.3)],
+            ["high resistance between J1-10 and splice SP1, or at the splice (wire W10a, black)"],
+        ),
+        (  # on one branch: the other path through the trunk reads good, so the branch alone
+            [BuildFault("high", "W10b", ohm=0.3)],
+            ["high resistance between J2-8 and splice SP1, or at the splice (wire W10b, black)"],
+        ),
+        (  # the trunk above the continuity range: found by isolation, named as the trunk
+            [BuildFault("high", "W10a", ohm=300.0)],
+            [
+                "J1-10 reaches J2-8 only through 300 ohm, above the continuity range: high "
+                "resistance between J1-10 and splice SP1, or at the splice (wire W10a, black)"
+            ],
+        ),
+        (  # both branches, by different excesses: no one segment explains them, each path
+            [BuildFault("high", "W10b", ohm=0.3), BuildFault("high", "W10c", ohm=0.1)],
+            ["J1-10 to J2-8 (wires W10a, W10b) reads", "J1-10 to J3-4 (wires W10a, W10c) reads"],
+        ),
+    ],
+)
+def test_a_high_resistance_on_a_splice_segment_names_the_one_segment_that_explains_it(
+    tmp_path: Path, faults: list[BuildFault], named: list[str]
+) -> None:
+    # The shipped GROUND: W10a J1-10 to SP1, W10b SP1 to J2-8, W10c SP1 to J3-4.  Where every
+    # reading through one segment reads high by about the same excess and every other reading
+    # of the net is good, that segment is the likely fault (a single fault explains it; common
+    # practice, no published source), as for an open.  A high trunk was named as two joins of
+    # two wires each (W10a, W10b and W10a, W10c).
+    _, bench = _shipped(faults, ambient_c=23.0)
+    with served(bench, tmp_path) as station_path:
+        args = ["harness", "check", str(SHIPPED / "wire-list.csv"), "--station", str(station_path)]
+        assert main([*args, "--serial", "H-HR", "--ambient", "23 degC"]) == EXIT_FAIL
+    with sqlite3.connect(load_station(station_path).store_path) as db:
+        value, note = db.execute("SELECT value, note FROM steps WHERE step_id='harness'").fetchone()
+    findings = [f for f in note.split("; ") if f.startswith("net GROUND")]
+    assert value == len(findings) == (2 if len(faults) > 1 else 1), findings
+    text = " | ".join(findings)
+    assert all(words in text for words in named), findings
+    if len(faults) == 1:  # the segment alone, no wire of a path that read good
+        others = {"W10a", "W10b", "W10c"} - {faults[0].wire}
+        assert not any(w in text for w in others), findings
+
+
 @pytest.mark.parametrize(("added_ohm", "range_ohm"), [(300.0, 1e3), (1500.0, 1e4)])
 def test_a_join_above_the_continuity_range_is_quoted_from_the_smallest_range_that_holds_it(
     tmp_path: Path, added_ohm: float, range_ohm: float

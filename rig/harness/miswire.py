@@ -122,24 +122,93 @@ def _net_words(net: Net) -> str:
 def _over_limit(
     continuity: Sequence[ContinuityResult], wires: WireList, temp_c: float | None
 ) -> list[Finding]:
+    """A finding per reading over its limit; or one for a net whose high readings all pass
+    through one segment that no good reading passes through, high by about the same excess
+    (``_high_segment``): a broken strand on a splice trunk is named as the trunk."""
     bad = (Verdict.FAIL, Verdict.CONDITIONAL_FAIL)
     nets = {net.name: net for net in wires.nets}
+    high = [r for r in continuity if r.reached and r.verdict in bad]
     found = []
-    for r in continuity:
-        if not (r.reached and r.verdict in bad):
-            continue
-        net, hi, lo = nets.get(r.check.net), r.check.hi, r.check.lo
-        text = (
-            f"net {r.check.net}: {hi} to {lo}{_along(net, hi, lo)} reads {_ohm(r.value_ohm)}, "
-            f"limit {_ohm(r.check.limit.max_ohm)}"
-        )
-        if net is not None and temp_c is not None:
-            hint = gauge_hint(
-                net.path(hi, lo), r.value_ohm, r.expanded_u_ohm, temp_c, r.check.limit.allowance_ohm
-            )
-            text += f": {hint}" if hint else ""
-        found.append(Finding("high-resistance", text, (hi, lo), (r.check.net,)))
+    for name in dict.fromkeys(r.check.net for r in high):
+        net = nets.get(name)
+        over = [r for r in high if r.check.net == name]
+        good = [r for r in continuity if r.check.net == name and r.reached and r.verdict not in bad]
+        segment = _high_segment(net, over, good) if net is not None else None
+        if net is not None and segment is not None:
+            found.append(_segment_finding(net, segment, over, temp_c))
+        else:
+            found += [_reading_finding(r, net, temp_c) for r in over]
     return found
+
+
+def _reading_finding(r: ContinuityResult, net: Net | None, temp_c: float | None) -> Finding:
+    hi, lo = r.check.hi, r.check.lo
+    text = f"net {r.check.net}: {_reads(r, _along(net, hi, lo))}"
+    return Finding("high-resistance", text + _hint(r, net, temp_c), (hi, lo), (r.check.net,))
+
+
+def _reads(r: ContinuityResult, along: str = "") -> str:
+    limit = _ohm(r.check.limit.max_ohm)
+    return f"{r.check.hi} to {r.check.lo}{along} reads {_ohm(r.value_ohm)}, limit {limit}"
+
+
+def _hint(r: ContinuityResult, net: Net | None, temp_c: float | None) -> str:
+    """``: <gauge hint>`` where the reading fits a wire of the path a size smaller, else ""."""
+    if net is None or temp_c is None:
+        return ""
+    hint = gauge_hint(
+        net.path(r.check.hi, r.check.lo),
+        r.value_ohm,
+        r.expanded_u_ohm,
+        temp_c,
+        r.check.limit.allowance_ohm,
+    )
+    return f": {hint}" if hint else ""
+
+
+def _high_segment(
+    net: Net, over: Sequence[ContinuityResult], good: Sequence[ContinuityResult]
+) -> WireRow | None:
+    """The one row of a multi-row path that every high reading passes through and no good one
+    does, where the high readings exceed their copper by about the same (each excess within
+    the other's by both readings' U and the larger headroom of a good path over its copper,
+    its contacts and splices); None where no single row explains them."""
+    paths = [net.path(r.check.hi, r.check.lo) for r in over]
+    if any(len(p) < 2 for p in paths):
+        return None  # a single wire names itself already
+    cleared = {row for r in good for row in net.path(r.check.hi, r.check.lo)}
+    shared = [row for row in paths[0] if all(row in p for p in paths) and row not in cleared]
+    if len(shared) != 1:
+        return None
+    for a in over:
+        for b in over:
+            excess = abs(
+                (a.value_ohm - a.check.limit.conductor_ohm)
+                - (b.value_ohm - b.check.limit.conductor_ohm)
+            )
+            headroom = max(_headroom(a), _headroom(b))
+            if excess > a.expanded_u_ohm + b.expanded_u_ohm + headroom:
+                return None
+    return shared[0]
+
+
+def _headroom(r: ContinuityResult) -> float:
+    return max(r.check.limit.max_ohm - r.check.limit.conductor_ohm, 0.0)
+
+
+def _segment_finding(
+    net: Net, row: WireRow, over: Sequence[ContinuityResult], temp_c: float | None
+) -> Finding:
+    """One finding for the high readings one segment explains, named by that segment."""
+    reads = ", ".join(_reads(r) for r in over)
+    excess = max(r.value_ohm - r.check.limit.conductor_ohm for r in over)
+    each = "" if len(over) < 2 else " on each path"
+    text = (
+        f"net {net.name}: {reads}: {_segment(row, 'high resistance')} ({_named([row])}), "
+        f"about {_ohm(excess)} over the copper{each}"
+    )
+    pins = tuple(dict.fromkeys(p for r in over for p in (r.check.hi, r.check.lo)))
+    return Finding("high-resistance", text + _hint(over[0], net, temp_c), pins, (net.name,))
 
 
 def _weak_joins(
@@ -156,15 +225,39 @@ def _weak_joins(
         net_a, net_b = net_of_pin.get(a), net_of_pin.get(b)
         if net_a is not None and net_a is net_b and frozenset((a, b)) not in reached:
             a, b = sorted((a, b), key=net_a.pins.index)
-            found.append(
-                Finding(
-                    "high-resistance",
-                    f"net {net_a.name}: {a} reaches {b}{_along(net_a, a, b)} only through "
-                    f"{_ohm(join.r_ohm)}, above the continuity range",
-                    (a, b),
-                    (net_a.name,),
-                )
-            )
+            text = f"net {net_a.name}: {a} reaches {b}"
+            weak = f"only through {_ohm(join.r_ohm)}, above the continuity range"
+            row = _weak_segment(net_a, a, b, reached)
+            if row is None:
+                text += f"{_along(net_a, a, b)} {weak}"
+            else:
+                text += f" {weak}: {_segment(row, 'high resistance')} ({_named([row])})"
+            found.append(Finding("high-resistance", text, (a, b), (net_a.name,)))
+    return found
+
+
+def _weak_segment(net: Net, a: str, b: str, reached: set[frozenset[str]]) -> WireRow | None:
+    """The one row that explains a weak join from ``a`` to ``b`` along several rows: the pins
+    joined to ``a`` within the continuity range and those joined to ``b`` make up the net, and
+    one row alone separates them (a broken strand on a splice trunk is named as the trunk, as
+    an open one is); None where that does not hold."""
+    if len(net.path(a, b)) < 2:
+        return None
+    sides = [_joined(net, pin, reached) for pin in (a, b)]
+    if sides[0] & sides[1] or sides[0] | sides[1] != set(net.pins):
+        return None
+    rows = net.separating_rows(sides[0])
+    return rows[0] if len(rows) == 1 else None
+
+
+def _joined(net: Net, pin: str, reached: set[frozenset[str]]) -> set[str]:
+    """The pins of ``net`` that readings within the continuity range join to ``pin``."""
+    found = {pin}
+    grew = True
+    while grew:
+        more = {p for p in net.pins if any(frozenset((p, q)) in reached for q in found)}
+        grew = not more <= found
+        found |= more
     return found
 
 
@@ -219,13 +312,16 @@ def _cut_off(net: Net, pins: list[str], rest: list[str], a: str, b: str) -> Find
     )
 
 
-def _segment(row: WireRow) -> str:
-    """Where a row with a splice end is open, in the words of its ends."""
+def _segment(row: WireRow, what: str = "open") -> str:
+    """Where a row with a splice end is ``what`` (open, high resistance), in the words of its
+    ends."""
     splices = [end.name for end in row.ends if end.is_splice]
     if len(splices) == 2:
-        return f"open between splices {splices[0]} and {splices[1]}, or at either splice"
+        return f"{what} between splices {splices[0]} and {splices[1]}, or at either splice"
+    if not splices:
+        return f"{what} between {row.start.name} and {row.end.name}, or at either end"
     pin = next(end.name for end in row.ends if not end.is_splice)
-    return f"open between {pin} and splice {splices[0]}, or at the splice"
+    return f"{what} between {pin} and splice {splices[0]}, or at the splice"
 
 
 def _swaps_and_miswires(
