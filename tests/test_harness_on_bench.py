@@ -25,12 +25,13 @@ from rig.judge.decision import Verdict
 from rig.quantity import format_quantity
 from rig.runner import load_plan, run_plan
 from rig.sim.bench import VirtualBench
-from rig.sim.harness_bench import harness_bench, write_invented
+from rig.sim.harness_bench import fixture_for, harness_bench, write_invented
 
 one_blas_thread()
 
 SHIPPED = Path(__file__).resolve().parent.parent / "sequences" / "harness"
 PROBE = ("PT_FH", "PT_SH", "PT_FL", "PT_SL")
+HEADER_ROW = "wire,net,from_connector,from_pin,to_connector,to_pin,gauge,length_m,colour\n"
 
 
 @contextmanager
@@ -717,3 +718,43 @@ def test_the_records_net_table_judges_each_net_as_the_run_did_under_the_guarded_
     assert ">conditional pass</td>" in row["LAMP_L"], row["LAMP_L"]
     assert ">conditional fail</td>" in row["LAMP_R"], row["LAMP_R"]
     assert ">pass</td>" in row["STOP"]  # well inside its computed limit
+
+
+def test_a_long_flexible_wire_within_its_standard_passes_and_a_poor_crimp_still_fails(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # Invented list: 8 m of 1.5 mm2 and 8 m of 18 AWG.  Built 1 % under the most each may
+    # resist: 1.5 mm2 IEC 60228 class 5, 13.3 ohm/km at 20 degC (IEC 60228 table 3, plain
+    # copper; from memory), 15.7 % over nominal copper (1/58 / 1.5, IEC 60028); 18 AWG the
+    # ASTM B258 nominal plus 10 % (our margin: common practice, no published source).  The bench
+    # copper is nominal, so the as-built lengths carry the excess.  Judged against nominal
+    # copper they failed; a 0.4 ohm crimp (the docs' example fault) must still fail.
+    listed = tmp_path / "list" / "wires.csv"
+    listed.parent.mkdir()
+    head = "# Invented wire list for a test.\n" + HEADER_ROW
+    listed.write_text(
+        head + "W1,N1,A,1,B,1,1.5 mm2,8,red\nW2,N2,A,2,B,2,18 AWG,8,blue\n", encoding="utf-8"
+    )
+    fixture_path = tmp_path / "list" / "fixture.toml"
+    fixture_path.write_text(fixture_for(load_wire_list(listed)), encoding="utf-8")
+    fixture = load_fixture(fixture_path)
+    iec = 13.3 / (1000 / 58 / 1.5)
+    built = tmp_path / "built" / "wires.csv"
+    built.parent.mkdir()
+    built.write_text(
+        head
+        + f"W1,N1,A,1,B,1,1.5 mm2,{8 * iec * 0.99:.4f},red\n"
+        + f"W2,N2,A,2,B,2,18 AWG,{8 * 1.10 * 0.99:.4f},blue\n",
+        encoding="utf-8",
+    )
+    as_built = load_wire_list(built, fixture)
+    for faults, expected in (([], EXIT_PASS), ([BuildFault("high", "W1", ohm=0.4)], EXIT_FAIL)):
+        bench = harness_bench(as_built, fixture, faults, ambient_c=20.0, seed=1)
+        with served(bench, tmp_path / f"b{len(faults)}") as st:
+            args = ["harness", "check", str(listed), "--station", str(st), "--serial", "L-1"]
+            code = main([*args, "--ambient", "20 degC", "--json"])
+        notes = json.loads(capsys.readouterr().out)["notes"]
+        assert code == expected, notes
+    assert [n for n in notes if n.startswith("net ")] == [
+        next(n for n in notes if n.startswith("net N1: A-1 to B-1 (wire W1, red) reads"))
+    ]
