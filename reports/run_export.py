@@ -37,6 +37,7 @@ STEP_COLUMNS = (
     "tur",
     "settle_s",
     "note",
+    "model_params",
 )
 RUN_COLUMNS = (
     "run_id",
@@ -45,6 +46,8 @@ RUN_COLUMNS = (
     "sequence_hash",
     "station",
     "operator",
+    "claim",
+    "remark",
     "unit_model",
     "study_part",
     "study_trial",
@@ -53,6 +56,7 @@ RUN_COLUMNS = (
     "run_status",
     "run_verdict",
     "run_reason",
+    "run_end_cause",
     "instruments",
     "screen_decision",
     "screen_decision_meaning",
@@ -91,6 +95,9 @@ def run_record(
         run["planned_steps"] = list(planned)
     for step in steps:
         step["extras"] = json.loads(step["extras"])
+        # what a model step's reading was compared with; None: stored before schema 6
+        params = step.get("model_params")
+        step["model_params"] = None if params is None else json.loads(params)
         if step["value"] is None:  # the store keeps no number for an overload or a NaN
             step["value_text"] = no_number_text(step["step_id"], readings)
     record: dict[str, Any] = {
@@ -189,6 +196,8 @@ def record_csv(record: Mapping[str, Any]) -> str:
         "sequence_hash": run["sequence_hash"],
         "station": run["station"],
         "operator": run["operator"],
+        "claim": run.get("claim", ""),
+        "remark": run.get("remark", ""),
         "unit_model": run.get("unit", ""),
         "study_part": run.get("study_part", ""),
         "study_trial": run.get("study_trial"),
@@ -197,6 +206,7 @@ def record_csv(record: Mapping[str, Any]) -> str:
         "run_status": run["status"],
         "run_verdict": run["verdict"],
         "run_reason": run["reason"],
+        "run_end_cause": run.get("end_cause"),
         "instruments": instruments_text(run["instruments"]),
         "screen_decision": (record.get("screen_decision") or {}).get("decision", ""),
         "screen_decision_meaning": (record.get("screen_decision") or {}).get("meaning", ""),
@@ -211,6 +221,7 @@ def record_csv(record: Mapping[str, Any]) -> str:
             **header,
             **step,
             "value": step.get("value_text", step["value"]),  # a word where there is no number
+            "model_params": model_params_text(step.get("model_params")),
             **(_answer_cells(step) if step.get("kind") == "prompt" else {}),
             "readings": " ".join(readings.get(step["step_id"], [])),
         }
@@ -228,6 +239,11 @@ def record_csv(record: Mapping[str, Any]) -> str:
     ]
     columns = (*RUN_COLUMNS, *STEP_COLUMNS, NOT_MEASURED_COLUMN, "readings")
     return _safe_rows(rows or [header], columns)
+
+
+def model_params_text(params: Mapping[str, str] | None) -> str:
+    """A step's model parameters on one line: ``r25 = 2 kohm; beta = 3450 K``."""
+    return "; ".join(f"{key} = {value}" for key, value in (params or {}).items())
 
 
 def no_number_text(step_id: str, readings: Iterable[Mapping[str, Any]]) -> str:

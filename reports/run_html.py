@@ -43,6 +43,8 @@ def _header(run: Mapping[str, Any]) -> str:
         ("sequence file", run["sequence_path"]),
         ("station", run["station"]),
         ("operator", run["operator"] or "(not given)"),
+        ("claim / return number", run.get("claim") or "(not given)"),
+        ("remark", run.get("remark") or "(none)"),
         ("unit model", run.get("unit") or "(not given)"),
         ("gauge study", study),
         ("started (UTC)", run["started_at"]),
@@ -51,6 +53,8 @@ def _header(run: Mapping[str, Any]) -> str:
         ("verdict", run["verdict"] or ""),
         ("reason", run["reason"] or ""),
     ]
+    if run.get("end_cause"):  # a run ended short of its end, recorded since schema 6
+        rows.append(("end cause", run["end_cause"]))
     rows += [("note", note) for note in run["notes"]]
     return "<h2>Run</h2>" + table(["field", "value"], rows, table_id="run-header")
 
@@ -134,6 +138,30 @@ NOT_MEASURED_NOTE = (
     f"{CUT_SHORT} is the step under way when the run ended (any raw readings it took are listed "
     f"below), {NOT_RUN} a step never begun."
 )
+
+
+MODEL_NOTE = (
+    "Each reading of these steps was judged against what the sensor model predicts at the "
+    "step's temperature (or pressure) with these parameters, as the sequence file gave them "
+    "when the run was made."
+)
+
+
+def _model_parameters(steps: list[Mapping[str, Any]]) -> str:
+    """What each model step's reading was compared with, under the steps: a reviewer of the
+    record must see it without the sequence file (which may since have changed)."""
+    rows = [
+        [s["step_id"], key, value]
+        for s in steps
+        for key, value in (s.get("model_params") or {}).items()
+    ]
+    if not rows:
+        return ""
+    return (
+        "<h2>Model parameters</h2>"
+        + table(["step", "parameter", "value"], rows, table_id="model-parameters")
+        + f'<p class="note">{esc(MODEL_NOTE)}</p>'
+    )
 
 
 def _not_measured(record: Mapping[str, Any]) -> str:
@@ -303,6 +331,7 @@ def render_run(record: Mapping[str, Any]) -> str:
         _header(run),
         _instruments(run),
         _steps(record["steps"]),
+        _model_parameters(record["steps"]),
         _not_measured(record),
         _nets(record["steps"], record["readings"]),
         _margins(record["steps"]),

@@ -15,6 +15,7 @@ from typing import TYPE_CHECKING
 
 from rig import __version__
 from rig.cli_output import Output, serve_bench, show, show_limits
+from rig.commands._record_text import add_record_text_args, record_text_problem
 from rig.errors import ConfigError, Problem, RigError
 from rig.events import NOT_READINGS
 from rig.judge.decision import Verdict, tur_text
@@ -133,6 +134,7 @@ def _parser() -> argparse.ArgumentParser:
     )
     run.add_argument("--study-part", default="", help="gauge study: the part measured")
     run.add_argument("--study-trial", type=int, help="gauge study: this trial's number (1, 2, ...)")
+    add_record_text_args(run)
     run.set_defaults(func=cmd_run)
 
     sim = sub.add_parser("sim", help="serve a virtual bench for a unit file")
@@ -629,14 +631,17 @@ def _answer(question: str, *, to_stderr: bool) -> str:
 
 
 def cmd_run(args: argparse.Namespace, out: Output) -> int:
+    from rig.end_cause import EndCause
     from rig.engine import StopRequested
     from rig.run_admission import operator_problem
     from rig.runner import load_inputs, run_plan
     from rig.stats.study import study_problem
 
     continuing = getattr(args, "resume", None) is not None  # its serial is the record's own
-    problem = ("" if continuing else serial_option_problem(args.serial)) or study_problem(
-        args.study_part, args.study_trial, args.operator
+    problem = (
+        ("" if continuing else serial_option_problem(args.serial))
+        or study_problem(args.study_part, args.study_trial, args.operator)
+        or record_text_problem(args)
     )
     if problem:
         out.error(f"rig: {problem}")
@@ -663,10 +668,13 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
         except EOFError:  # input is not a terminal and has ended: nobody is there to answer
             raise StopRequested(
                 f"the prompt {text!r} got no answer: standard input ended; run rig at a "
-                "terminal, or confirm prompts with --yes"
+                "terminal, or confirm prompts with --yes",
+                EndCause.NO_ANSWER,
             ) from None
         except OSError as exc:  # the terminal hung up, or the prompt's reader went away
-            raise StopRequested(f"the prompt {text!r} could not be put: {exc}") from None
+            raise StopRequested(
+                f"the prompt {text!r} could not be put: {exc}", EndCause.NO_ANSWER
+            ) from None
         return answer.strip().lower() in ("y", "yes")
 
     out.show_readings = bool(getattr(args, "readings", False))
@@ -682,6 +690,8 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
         study_part=args.study_part,
         study_trial=args.study_trial,
         on_sync=synced.append,
+        claim=getattr(args, "claim", ""),
+        remark=getattr(args, "remark", ""),
     )
     server = synced[-1].describe() if synced else None  # after the run, when a server is set
     decision = _screen_decision(plan, summary)
@@ -695,6 +705,9 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
                 "status": summary.status,
                 "verdict": summary.verdict.value,
                 "reason": summary.reason,
+                "end_cause": summary.end_cause.value,
+                "claim": summary.claim,
+                "remark": summary.remark,
                 "failed_steps": summary.failed_steps,
                 "screen_decision": None
                 if decision is None

@@ -24,8 +24,9 @@ from rig.commit_ahead import CommitAhead, Pending, RowTicket
 from rig.config.fixture import Bus, FixtureMap
 from rig.config.station import FUNCTIONS
 from rig.deadline import wait_until
+from rig.end_cause import EndCause
 from rig.entry_text import kept_entry_text
-from rig.errors import InstrumentError, InterlockError, RigError
+from rig.errors import InstrumentError, InterlockError, RigError, SettingMismatch
 from rig.events import (
     AHEAD_UNUSED,
     SETTLE_PROOF,
@@ -117,6 +118,12 @@ class RunSummary:
     """The planned step the run ended during, with no result (an aborted run), if any."""
     not_run: list[str] = field(default_factory=list)
     """Planned steps the run ended before beginning, in plan order; nothing is stored for them."""
+    claim: str = ""
+    """The claim or return number given at the start, as kept (``rig.entry_text``)."""
+    remark: str = ""
+    """The remark given at the start, as kept."""
+    end_cause: EndCause = EndCause.NONE
+    """Why the run ended short of its end, as stored with it; NONE where it went to its end."""
 
     @property
     def failed_steps(self) -> list[str]:
@@ -139,7 +146,12 @@ def wear_warnings(wear: dict[int, int], fixture: FixtureMap) -> list[str]:
 
 
 class StopRequested(RigError):
-    """The operator asked to stop the run."""
+    """The operator asked to stop the run, or a question to the operator got no answer
+    (``cause`` says which, for the run's record)."""
+
+    def __init__(self, message: str, cause: EndCause = EndCause.OPERATOR_STOP) -> None:
+        super().__init__(message)
+        self.cause = cause
 
 
 def supply_bus_relays(fixture: FixtureMap) -> frozenset[int]:
@@ -286,15 +298,21 @@ class Engine:
         resume: int | None = None,
         study_part: str = "",
         study_trial: int | None = None,
+        claim: str = "",
+        remark: str = "",
     ) -> RunSummary:
         """Run the plan, or with ``resume`` continue that incomplete run from its next step.
         ``notes`` and ``warnings``: what the caller found before (calibration allowed past due
-        is a warning), kept with the run's own."""
-        kept, byte_notes = kept_entry_text({"serial": serial, "operator": operator})
-        serial, operator = kept["serial"], kept["operator"]
+        is a warning), kept with the run's own.  ``claim`` and ``remark``: the claim or return
+        number and the inspector's remark, kept with a new run (a continued run keeps its own)."""
         station = self.plan.station
         # the commands ask first; this holds for every other caller
-        refuse_unfiled(station, serial, operator, continuing=resume is not None)
+        refuse_unfiled(
+            station, serial, operator, continuing=resume is not None, claim=claim, remark=remark
+        )
+        entered = {"serial": serial, "operator": operator, "claim": claim, "remark": remark}
+        kept, byte_notes = kept_entry_text(entered)
+        serial, operator, claim, remark = (kept[k] for k in entered)
         sequence = self.plan.sequence
         notes = [*(notes or []), *(warnings or []), *byte_notes]
         self._run_notes = notes
@@ -323,6 +341,8 @@ class Engine:
                         study_part=study_part,
                         study_trial=study_trial,
                         planned_steps=step_ids,
+                        claim=claim,
+                        remark=remark,
                     ),
                 )
                 wear = self._writes.meanwhile("relay_wear", station.name)
@@ -331,6 +351,8 @@ class Engine:
             else:
                 cont = continuation(self.store, resume, self.plan)
                 run_id, serial, done = cont.run_id, cont.serial, cont.done
+                header = self.store.run(run_id)  # the claim and remark given at its start
+                claim, remark = str(header["claim"]), str(header["remark"])
                 self._done_ids = frozenset(done)
                 self.store.reopen_run(run_id, step_ids)
                 notes.append(
@@ -351,7 +373,7 @@ class Engine:
                 self._writes.close()  # the worker ends before the caller may close the store
             raise
         self._run_id = run_id
-        status, reason = "complete", ""
+        status, reason, cause = "complete", "", EndCause.NONE
         results: list[StepResult] = []
         begun: str | None = None  # the step under way, until its result is in
         interrupted: BaseException | None = None
@@ -375,19 +397,23 @@ class Engine:
                 begun = None
                 if result.verdict is Verdict.ERROR:
                     status, reason = "aborted", f"step {result.step_id}: {result.note}"
+                    cause = EndCause.STEP_ERROR
                     break
                 if self._ends_run:  # the step's own word: nothing after it may run
                     status, reason = "aborted", f"step {result.step_id}: {self._ends_run}"
+                    cause = EndCause.DECLINED
                     break
         except StopRequested as exc:
-            status, reason = "aborted", str(exc)
+            status, reason, cause = "aborted", str(exc), exc.cause
         except InstrumentError as exc:
             status, reason = "aborted", f"instrument fault: {plain_reason(exc)}"
+            cause = EndCause.INSTRUMENT
         except KeyboardInterrupt as exc:
             status, reason = "aborted", "interrupted (Ctrl-C or SIGTERM)"
-            interrupted = exc
+            cause, interrupted = EndCause.OPERATOR_STOP, exc
         except RigError as exc:  # named by the step under way, where there is one
             status, reason = "aborted", f"step {begun}: {exc}" if begun else str(exc)
+            cause = _cause_of(exc, begun)
         finally:
             failures = self._end_safe()  # first: the last rows commit while the bench goes safe
             self._drop_ahead()
@@ -395,13 +421,13 @@ class Engine:
                 self._writes.flush()
             except RigError as exc:
                 if status == "complete":
-                    status, reason = "aborted", str(exc)
+                    status, reason, cause = "aborted", str(exc), _cause_of(exc, None)
             operations = self._operations_since(counts_before)
         safe = not failures
         if failures:
             self._warn("could not make safe: " + "; ".join(failures))
             if status == "complete":  # every step done, but the bench needs a person first
-                status = "aborted"
+                status, cause = "aborted", EndCause.INSTRUMENT
                 reason = "the bench could not be made safe at the end: " + "; ".join(failures)
         verdict = worst(r.verdict for r in results)
         if status == "aborted":
@@ -423,6 +449,9 @@ class Engine:
             list(self._warnings),
             cut_short=begun,
             not_run=not_run,
+            claim=claim,
+            remark=remark,
+            end_cause=cause,
         )
         self.store.finish_run(
             run_id,
@@ -432,6 +461,7 @@ class Engine:
             notes=notes,
             relay_operations=operations,
             cut_short=begun,
+            end_cause=cause.value,
         )
         self.listener(
             RunFinished(
@@ -586,7 +616,7 @@ class Engine:
             note = error if not retried else f"{error}; a retry did not cure it"
             outcome = Outcome(math.nan, kind.unit, math.nan, spec.limits, note=note)
             result = self._judged(position, spec, outcome, error=True)
-            self._store_step(result, started)
+            self._store_step(result, started, spec)
             self.listener(StepFinished(result))
             return result
         outcome.settle_s = self._step_settle
@@ -603,7 +633,7 @@ class Engine:
                 outcome.note = f"{outcome.note}; {text}" if outcome.note else text
                 self._warn(f"step {spec.id}: {text}")
         result = self._judged(position, spec, outcome, error=False)
-        self._store_step(result, started)
+        self._store_step(result, started, spec)
         self.listener(StepFinished(result))
         return result
 
@@ -674,7 +704,9 @@ class Engine:
             extras=dict(outcome.extras),
         )
 
-    def _store_step(self, result: StepResult, started: str) -> None:
+    def _store_step(self, result: StepResult, started: str, spec: StepSpec) -> None:
+        """File the step's result with what it was judged against: its model's parameters as
+        text with units (a reviewer of the record must see them; ``model_parameters``)."""
         limits = result.limits
         self.store.add_step(
             self._run_id,
@@ -699,6 +731,7 @@ class Engine:
                 "settle_s": result.settle_s,
                 "note": result.note,
                 "extras": result.extras,
+                "model_params": KINDS[spec.kind].model_parameters(spec),
             },
         )
 
@@ -1167,7 +1200,9 @@ class Engine:
         except RigError:
             raise
         except Exception as exc:  # a front end that cannot ask (its terminal or window gone)
-            raise StopRequested(f"the prompt {text!r} could not be put: {exc!r}") from exc
+            raise StopRequested(
+                f"the prompt {text!r} could not be put: {exc!r}", EndCause.NO_ANSWER
+            ) from exc
         if confirmed:
             self._move_ahead(self._opening_relays(self._position))
         return confirmed
@@ -1193,6 +1228,16 @@ class Engine:
             if self.stop.is_set():
                 raise StopRequested("stopped by the operator")
             time.sleep(min(0.05, max(0.0, end - time.monotonic())))
+
+
+def _cause_of(exc: RigError, begun: str | None) -> EndCause:
+    """The cause stored for a run ended by ``exc`` (no instrument fault, no stop), with
+    ``begun`` the step under way (None: none was)."""
+    if isinstance(exc, SettingMismatch):
+        return EndCause.CONFIGURATION
+    if isinstance(exc, StoreError):
+        return EndCause.STORE
+    return EndCause.STEP_ERROR if begun else EndCause.OTHER
 
 
 def _row_fields(reading: Reading, settled: bool) -> dict[str, Any]:

@@ -45,6 +45,11 @@ class CircuitError(RigError):
         super().__init__(message)
 
 
+class SettingMismatch(RigError):
+    """A setting of the sequence or station does not fit what the bench found (a Pt1000 read
+    with a Pt100's r0): the run ends on a file to correct, not on a fault of the unit or bench."""
+
+
 class InterlockError(RigError):
     """A requested relay state would break an interlock; nothing was moved."""
 

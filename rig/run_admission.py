@@ -4,6 +4,8 @@ run that cannot be found again, or one with no name where the station requires w
 
 from __future__ import annotations
 
+import unicodedata
+
 from rig.config.station import Station
 from rig.errors import RigError
 
@@ -29,9 +31,60 @@ def operator_problem(station: Station, operator: str) -> str:
     )
 
 
-def refuse_unfiled(station: Station, serial: str, operator: str, *, continuing: bool) -> None:
+CLAIM_MAX_CHARS = 200
+"""The longest claim or return number kept with a run: room for any such reference (common
+practice, no published source), short enough for a column of ``rig runs``."""
+REMARK_MAX_CHARS = 2000
+"""The longest remark kept with a run: a paragraph, not a report."""
+
+
+def _free_text_problem(what: str, text: str, most: int, *, lines: bool) -> str:
+    """Why ``text`` cannot be kept as the run's ``what``, or empty when it can: printable text
+    (line breaks and tabs too where ``lines``) of at most ``most`` characters.  Bytes that are
+    not UTF-8 are kept as the serial's are (``rig.entry_text``)."""
+    if len(text) > most:
+        return f"the {what} is {len(text)} characters long; at most {most} are kept"
+    allowed = "\n\r\t" if lines else ""
+    for position, char in enumerate(text, start=1):
+        if unicodedata.category(char) == "Cc" and char not in allowed:
+            expected = (
+                "printable text (line breaks allowed)" if lines else "printable text on one line"
+            )
+            return (
+                f"the {what} holds a control character (U+{ord(char):04X}) at character "
+                f"{position}; expected {expected}"
+            )
+    if text and not text.strip():
+        return f"the {what} is blank; give its text, or leave it out"
+    return ""
+
+
+def claim_problem(claim: str) -> str:
+    """Why ``claim`` cannot be kept as the run's claim or return number, or empty."""
+    return _free_text_problem("claim or return number", claim, CLAIM_MAX_CHARS, lines=False)
+
+
+def remark_problem(remark: str) -> str:
+    """Why ``remark`` cannot be kept as the run's remark, or empty."""
+    return _free_text_problem("remark", remark, REMARK_MAX_CHARS, lines=True)
+
+
+def refuse_unfiled(
+    station: Station,
+    serial: str,
+    operator: str,
+    *,
+    continuing: bool,
+    claim: str = "",
+    remark: str = "",
+) -> None:
     """Raise ``RunRefused`` where the run could not be filed (a continued run keeps the serial
-    of its record, so only its operator is asked about)."""
-    problem = ("" if continuing else serial_problem(serial)) or operator_problem(station, operator)
+    of its record, so only its operator is asked about), or its claim or remark not kept."""
+    problem = (
+        ("" if continuing else serial_problem(serial))
+        or operator_problem(station, operator)
+        or claim_problem(claim)
+        or remark_problem(remark)
+    )
     if problem:
         raise RunRefused(problem)

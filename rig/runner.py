@@ -58,12 +58,16 @@ def run_plan(
     study_part: str = "",
     study_trial: int | None = None,
     on_sync: Callable[[SyncReport], None] | None = None,
+    claim: str = "",
+    remark: str = "",
 ) -> RunSummary:
     """Run ``plan`` for ``serial``; with ``resume``, continue that incomplete run instead.
 
     With its own store and a results server configured, runs waiting in the station's file are
     sent before the run and this one after it (``on_sync`` hears how that went)."""
-    refuse_unfiled(plan.station, serial, operator, continuing=resume is not None)  # before opening
+    refuse_unfiled(  # before anything is opened
+        plan.station, serial, operator, continuing=resume is not None, claim=claim, remark=remark
+    )
     warnings = check_calibration(plan.station)
     own_store = store is None
     if own_store:
@@ -82,6 +86,8 @@ def run_plan(
                 resume=resume,
                 study_part=study_part,
                 study_trial=study_trial,
+                claim=claim,
+                remark=remark,
             )
         finally:
             close_bench(bench)

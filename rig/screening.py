@@ -12,6 +12,8 @@ from __future__ import annotations
 from collections.abc import Iterable
 from dataclasses import dataclass
 
+from rig.end_cause import EndCause
+
 CONFIRMED = "confirmed failure"
 NO_FAULT = "no fault found"
 INCONCLUSIVE = "inconclusive"
@@ -68,9 +70,21 @@ STOPPED = "stopped by the operator"
 NO_ANSWER = "a question got no answer"
 INSTRUMENT = "instrument fault"
 STEP_ENDED = "a step could not measure, or ended the run"
+CONFIGURATION = "a sequence or station setting to correct"
 CONTROLLER_STOPPED = "the controller stopped mid-run"
 UNDER_WAY = "still running, or its controller stopped"
 OTHER = "other (see the run's reason)"
+
+_CAUSE_BY_CODE: dict[str, str] = {
+    EndCause.OPERATOR_STOP: STOPPED,
+    EndCause.NO_ANSWER: NO_ANSWER,
+    EndCause.DECLINED: STEP_ENDED,
+    EndCause.INSTRUMENT: INSTRUMENT,
+    EndCause.STEP_ERROR: STEP_ENDED,
+    EndCause.CONFIGURATION: CONFIGURATION,
+    EndCause.CONTROLLER_STOPPED: CONTROLLER_STOPPED,
+}
+"""The cause stored with a run (schema 6) -> why it decided nothing; any other code is OTHER."""
 
 _CAUSE_BY_REASON = (
     ("stopped by the operator", STOPPED),
@@ -79,14 +93,19 @@ _CAUSE_BY_REASON = (
     ("instrument fault", INSTRUMENT),
     ("step ", STEP_ENDED),
 )
-"""The start of a run's recorded reason (as ``rig.engine`` words it) -> why it decided nothing."""
+"""The start of a run's recorded reason (as ``rig.engine`` words it) -> why it decided nothing:
+for runs recorded before schema 6, which stored no cause."""
 
 
-def undecided_cause(status: str, reason: str) -> str:
+def undecided_cause(status: str, reason: str, code: str | None = None) -> str:
     """Why an undecided run decided nothing, in a few words: a QA tally keeps these runs apart
-    from the part failures, since they say nothing about the part."""
+    from the part failures, since they say nothing about the part.  ``code`` is the cause stored
+    with the run (``rig.end_cause``); None for a run recorded before schema 6, read from the
+    start of its reason instead."""
     if status == "incomplete":
         return CONTROLLER_STOPPED
     if status == "running":
         return UNDER_WAY
+    if code is not None:
+        return _CAUSE_BY_CODE.get(code, OTHER)
     return next((cause for start, cause in _CAUSE_BY_REASON if reason.startswith(start)), OTHER)

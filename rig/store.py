@@ -23,6 +23,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Protocol
 
+from rig.end_cause import EndCause
 from rig.errors import RigError
 from rig.stats.filters import RunFilter
 
@@ -142,6 +143,18 @@ MIGRATIONS: list[str] = [
     ALTER TABLE runs ADD COLUMN planned_steps TEXT;
     ALTER TABLE runs ADD COLUMN cut_short_step TEXT;
     """,
+    # 5 -> 6: what a QA record of a returned unit needs: the claim or return number and the
+    # inspector's remark, given at the start ('' none); why a run ended short of a decision, as
+    # a code (rig.end_cause; NULL while running, or a run ended before schema 6); and each
+    # step's model parameters as text with units (JSON object; '{}' a step judged against no
+    # model, NULL a step stored before schema 6)
+    """
+    ALTER TABLE runs ADD COLUMN claim TEXT NOT NULL DEFAULT '';
+    ALTER TABLE runs ADD COLUMN remark TEXT NOT NULL DEFAULT '';
+    ALTER TABLE runs ADD COLUMN end_cause TEXT;
+    ALTER TABLE steps ADD COLUMN model_params TEXT;
+    CREATE INDEX runs_by_claim ON runs (claim);
+    """,
 ]
 
 SCHEMA_VERSION = len(MIGRATIONS)
@@ -258,6 +271,10 @@ class RunHeader:
     study_trial: int | None = None
     planned_steps: tuple[str, ...] | None = None
     """The step ids in the order the run will take them (after reordering); None: not known."""
+    claim: str = ""
+    """The claim or return number a returned unit came in under; empty: none given."""
+    remark: str = ""
+    """The inspector's remark, given at the start; empty: none."""
 
 
 class ResultStore:
@@ -338,8 +355,8 @@ class ResultStore:
             cur = db.execute(
                 "INSERT INTO runs (run_uid, serial, sequence_name, sequence_hash, sequence_path,"
                 " station, operator, unit, faults, instruments, started_at, status,"
-                " study_part, study_trial, planned_steps)"
-                " VALUES (?,?,?,?,?,?,?,?,?,?,?, 'running', ?, ?, ?) RETURNING id",
+                " study_part, study_trial, planned_steps, claim, remark)"
+                " VALUES (?,?,?,?,?,?,?,?,?,?,?, 'running', ?, ?, ?, ?, ?) RETURNING id",
                 (
                     uuid.uuid4().hex,
                     header.serial,
@@ -355,6 +372,8 @@ class ResultStore:
                     header.study_part,
                     header.study_trial,
                     None if header.planned_steps is None else json.dumps(header.planned_steps),
+                    header.claim,
+                    header.remark,
                 ),
             )
             return int(cur.fetchone()[0])
@@ -414,6 +433,9 @@ class ResultStore:
         extras = fields.get("extras")
         if isinstance(extras, dict):
             fields["extras"] = json.dumps({k: v for k, v in extras.items() if not _bad_float(v)})
+        params = fields.get("model_params")
+        if isinstance(params, dict):
+            fields["model_params"] = json.dumps(params)
         names = ", ".join(fields)
         marks = ", ".join("?" for _ in fields)
         with self._tx() as db:
@@ -429,17 +451,27 @@ class ResultStore:
         notes: Sequence[str] = (),
         relay_operations: Mapping[int, int] | None = None,
         cut_short: str | None = None,
+        end_cause: str = "",
     ) -> None:
         """Record the run's end.  ``relay_operations`` (the run's own, by relay) are added to its
         station's lifetime counts in the same commit: one commit less at the end of every run, and
         wear is never counted without the run that caused it.  ``cut_short`` is the step under
         way when the run ended (None: none was), so the record can tell it from those never
-        begun."""
+        begun.  ``end_cause``: why it ended short (``rig.end_cause``; empty: it did not)."""
         with self._tx() as db:
             db.execute(
                 "UPDATE runs SET ended_at=?, status=?, verdict=?, reason=?, notes=?,"
-                " cut_short_step=? WHERE id=?",
-                (_now(), status, verdict, reason, json.dumps(list(notes)), cut_short or "", run_id),
+                " cut_short_step=?, end_cause=? WHERE id=?",
+                (
+                    _now(),
+                    status,
+                    verdict,
+                    reason,
+                    json.dumps(list(notes)),
+                    cut_short or "",
+                    end_cause,
+                    run_id,
+                ),
             )
             if relay_operations:
                 row = db.execute("SELECT station FROM runs WHERE id=?", (run_id,)).fetchone()
@@ -483,8 +515,9 @@ class ResultStore:
             ids = [int(r[0]) for r in rows]
             for run_id in ids:
                 db.execute(
-                    "UPDATE runs SET status='incomplete', reason=?, ended_at=? WHERE id=?",
-                    (reason, _now(), run_id),
+                    "UPDATE runs SET status='incomplete', reason=?, ended_at=?, end_cause=?"
+                    " WHERE id=?",
+                    (reason, _now(), EndCause.CONTROLLER_STOPPED.value, run_id),
                 )
                 # a step cut short has no value, so none of its readings is the one its value
                 # came from (readings taken ahead go in flagged for the step they are for)
@@ -503,6 +536,7 @@ class ResultStore:
         with self._tx() as db:
             db.execute(
                 "UPDATE runs SET status='running', ended_at=NULL, cut_short_step=NULL,"
+                " end_cause=NULL,"
                 " planned_steps=COALESCE(planned_steps, ?) WHERE id=? AND status='incomplete'",
                 (planned, run_id),
             )
@@ -542,12 +576,12 @@ class ResultStore:
     # --- bulk reads for statistics (rig.stats.from_store); plain rows, portable SQL ----------
 
     def run_rows(self, where: RunFilter) -> list[Any]:
-        """(id, serial, sequence_name, started_at, status, verdict, reason) of every run the
-        filter matches, oldest first."""
+        """(id, serial, sequence_name, started_at, status, verdict, reason, end_cause, claim) of
+        every run the filter matches, oldest first."""
         sql, params = _run_where(where)
         return self._rows(
-            "SELECT r.id, r.serial, r.sequence_name, r.started_at, r.status, r.verdict, r.reason"
-            f" FROM runs r WHERE {sql} ORDER BY r.started_at, r.id",
+            "SELECT r.id, r.serial, r.sequence_name, r.started_at, r.status, r.verdict, r.reason,"
+            f" r.end_cause, r.claim FROM runs r WHERE {sql} ORDER BY r.started_at, r.id",
             params,
         )
 

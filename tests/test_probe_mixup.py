@@ -10,6 +10,7 @@ complete unit example (an invented circuit) at 20 degC and its probe's r0 change
 from __future__ import annotations
 
 import re
+import sqlite3
 from pathlib import Path
 
 import pytest
@@ -17,6 +18,7 @@ from doc_blocks import write_complete_examples
 
 from rig.cli import main
 from rig.config.fixture import load_fixture
+from rig.config.station import load_station
 from rig.config.unit_file import load_unit
 from rig.models.rtd import r0_it_fits
 from rig.runner import load_plan, run_plan
@@ -107,6 +109,11 @@ def test_a_run_names_the_mixed_up_r0(
     assert shown is not None
     value = float(shown.group(1)) * (1000.0 if shown.group(2) else 1.0)
     assert value == pytest.approx(reading_ohm, rel=1e-4)  # IEC 60751 at 20 degC, 4-wire
+    # a setting of the sequence to correct, stored as such with the run (rig.end_cause): a QA
+    # tally keeps it apart from steps that could not measure
+    assert summary.end_cause == "configuration"
+    with sqlite3.connect(load_station(station).store_path) as db:
+        assert db.execute("SELECT end_cause FROM runs").fetchall() == [("configuration",)]
 
 
 def _checked(paths: dict[str, Path], capsys: pytest.CaptureFixture[str]) -> str:

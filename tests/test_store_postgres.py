@@ -25,7 +25,7 @@ KEYS_ADDED = next(i for i, m in enumerate(MIGRATIONS) if "ADD COLUMN reading_uid
 
 HEADER = RunHeader(
     "SN", "seq", "abc", "/x.toml", "bench", "op", unit="u", faults=("open:w",),
-    planned_steps=("s1", "s2"),
+    planned_steps=("s1", "s2"), claim="RMA 2026/0042", remark='seen "hot";\nline two',
 )  # fmt: skip
 STEP: dict[str, Any] = {
     "step_id": "s1",
@@ -47,6 +47,7 @@ STEP: dict[str, Any] = {
     "settle_s": 0.0,
     "note": "",
     "extras": {"bias": 1.5, "lost": math.nan},
+    "model_params": {"r25": "2 kohm", "beta": "3450 K", "tolerance": "5 %"},
 }
 
 
@@ -70,7 +71,12 @@ def record_one_run(store: ResultStore) -> int:
     store.add_relay_operations("bench", {3: 2, 4: 0})
     # the run's own operations go in with its end, under its station ("bench")
     store.finish_run(
-        run_id, status="complete", verdict="pass", notes=("n1",), relay_operations={3: 5}
+        run_id,
+        status="aborted",
+        verdict="error",
+        notes=("n1",),
+        relay_operations={3: 5},
+        end_cause="configuration",
     )
     return run_id
 
@@ -104,6 +110,11 @@ def test_the_interface_gives_the_same_record_on_both_engines(
         # "not recorded"): the record of steps it never measured rests on both
         assert json.loads(on_server["run"]["planned_steps"]) == ["s1", "s2"]
         assert on_server["run"]["cut_short_step"] == ""
+        # schema 6: the claim and remark, the cause of its end, and the step's model parameters
+        run = on_server["run"]
+        assert (run["claim"], run["remark"]) == (HEADER.claim, HEADER.remark)
+        assert run["end_cause"] == "configuration"
+        assert json.loads(on_server["steps"][0]["model_params"]) == STEP["model_params"]
         # source: PostgreSQL manual, 8.1.4 "Floating-Point Types": real is 4 bytes with about 6
         # decimal digits, double precision 8 bytes with 15; 0.1 + 1e-12 survives only the latter
         assert on_server["steps"][0]["value"] == 0.1 + 1e-12
@@ -158,6 +169,21 @@ def build_old_database(db: Any, version: int, run_statements: bool) -> None:
             "INSERT INTO readings (run_id, step_id, role, function, value, taken_at)"
             " VALUES (1, 's1', 'hi-lo', 'dcv', 2.5, 1.0)"
         )
+        db.execute(
+            "INSERT INTO steps (run_id, position, step_id, kind, title, value, unit, coverage_k,"
+            " decision_rule, verdict, started_at, ended_at) VALUES"
+            " (1, 1, 's1', 'ntc', 't', 2010.5, 'ohm', 2.0, 'simple', 'pass', 'a', 'b')"
+        )
+
+
+def assert_schema_6_fields_empty(store: ResultStore, run_id: int) -> None:
+    """A run and step recorded before schema 6 read back whole, the new fields empty: no claim
+    or remark given, no cause stored (read from the reason), no model parameters recorded."""
+    run = store.run(run_id)
+    assert (run["serial"], run["status"]) == ("SN-OLD", "complete")
+    assert (run["claim"], run["remark"], run["end_cause"]) == ("", "", None)
+    (step,) = store.steps(run_id)
+    assert (step["step_id"], step["value"], step["model_params"]) == ("s1", 2010.5, None)
 
 
 @pytest.mark.parametrize("version", range(SCHEMA_VERSION))
@@ -178,9 +204,11 @@ def test_a_server_made_by_an_earlier_schema_migrates_and_keeps_its_runs(
             assert reading["value"] == 2.5
             assert reading["reading_uid"] == ("old-run:1" if version <= KEYS_ADDED else None)
             assert run["planned_steps"] is None  # not known: not made up
+            assert_schema_6_fields_empty(store, int(run["id"]))
         new = store.start_run(HEADER)  # and the migrated database takes new runs
         assert store.run(new)["status"] == "running"
         assert json.loads(store.run(new)["planned_steps"]) == ["s1", "s2"]
+        assert store.run(new)["claim"] == HEADER.claim
     finally:
         store.close()
 
@@ -204,6 +232,7 @@ def test_a_sqlite_file_made_by_an_earlier_schema_migrates_and_keeps_its_runs(
             assert reading["reading_uid"] == ("old-run:1" if version <= KEYS_ADDED else None)
             assert store.run(1)["planned_steps"] is None
             assert store.run(1)["cut_short_step"] is None
+            assert_schema_6_fields_empty(store, 1)
     finally:
         store.close()
 

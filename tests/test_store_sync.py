@@ -9,6 +9,8 @@ import shutil
 import subprocess
 import sys
 import threading
+from collections.abc import Iterator
+from contextlib import contextmanager
 from pathlib import Path
 from typing import Any
 
@@ -333,6 +335,31 @@ def test_a_report_by_station_finds_the_run_that_station_printed(
     assert malformed.returncode == 2 and "expected a run id" in malformed.stderr
 
 
+@contextmanager
+def sender_bench_with_server(
+    tmp_path: Path, pg_cluster: Cluster, pg_database: str
+) -> Iterator[tuple[Station, Path, dict[str, str]]]:
+    """The NTC sender's virtual bench, its station file naming the server (the password in a
+    password file), and the environment of a `rig` process that finds it."""
+    dbname = str(psycopg.conninfo.conninfo_to_dict(pg_database)["dbname"])
+    env, mp = password_file_env(tmp_path, pg_cluster)
+    try:
+        with shipped_bench("ntc-sender", folder=tmp_path / "bench") as (_, station):
+            yield station, with_server_section(station, pg_cluster, dbname), env
+    finally:
+        mp.undo()
+
+
+def record_from_server(station_file: Path, env: dict[str, str]) -> dict[str, Any]:
+    """``rig report 1 --format json`` of the station, as read from its results server."""
+    done = rig_cli(
+        ["report", "1", "--station", str(station_file), "--format", "json", "--out", "-"], env
+    )
+    assert done.returncode == 0, done.stderr
+    assert "has not reached the results server" not in done.stderr  # read from the server
+    return dict(json.loads(done.stdout))
+
+
 def test_an_aborted_runs_plan_reaches_the_server_and_its_report_there(
     tmp_path: Path,
     pg_cluster: Cluster,
@@ -347,31 +374,60 @@ def test_an_aborted_runs_plan_reaches_the_server_and_its_report_there(
 
     from rig.cli import EXIT_ABORTED, main
 
-    dbname = str(psycopg.conninfo.conninfo_to_dict(pg_database)["dbname"])
     sequence = tmp_path / "stops-midway.toml"
     sequence.write_text(MIDWAY_STOP, encoding="utf-8")
-    env, mp = password_file_env(tmp_path, pg_cluster)
-    try:
-        with shipped_bench("ntc-sender", folder=tmp_path / "bench") as (_, station):
-            station_file = with_server_section(station, pg_cluster, dbname)
-            monkeypatch.setattr(sys, "stdin", io.StringIO(""))  # the question gets no answer
-            args = ["run", str(sequence), "--station", str(station_file), "--serial", "P-1"]
-            assert main(args) == EXIT_ABORTED
-    finally:
-        mp.undo()
+    with sender_bench_with_server(tmp_path, pg_cluster, pg_database) as (_, station_file, env):
+        monkeypatch.setattr(sys, "stdin", io.StringIO(""))  # the question gets no answer
+        args = ["run", str(sequence), "--station", str(station_file), "--serial", "P-1"]
+        assert main(args) == EXIT_ABORTED
     with psycopg.connect(pg_database) as conn:
         on_server = conn.execute("SELECT planned_steps, cut_short_step FROM runs").fetchall()
     assert [(json.loads(p), c) for p, c in on_server] == [
         (["lead-check", "seated", "lead-check-4w", "hold"], "seated")
     ]
-    done = rig_cli(
-        ["report", "1", "--station", str(station_file), "--format", "json", "--out", "-"], env
-    )
-    assert done.returncode == 0, done.stderr
-    assert "has not reached the results server" not in done.stderr  # read from the server
-    record = json.loads(done.stdout)
+    record = record_from_server(station_file, env)
     assert [(m["step_id"], m["state"]) for m in record["not_measured"]] == [
         ("seated", "not finished"),
         ("lead-check-4w", "not run"),
         ("hold", "not run"),
     ]
+
+
+def test_the_claim_remark_cause_and_model_parameters_reach_the_server(
+    tmp_path: Path,
+    pg_cluster: Cluster,
+    pg_database: str,
+    monkeypatch: pytest.MonkeyPatch,
+) -> None:
+    # schema 6: what a QA record keeps beyond its readings travels with the run (rig sync sends
+    # every column of a run and its steps), and the report read from the server shows it
+    import io
+
+    from rig.cli import EXIT_ABORTED, main
+
+    claim, remark = "RMA 2026/0042", "customer: reads high\nwhen warm (invented scenario)"
+    bench = sender_bench_with_server(tmp_path, pg_cluster, pg_database)
+    with bench as (station, station_file, env):
+        monkeypatch.setattr(sys, "stdin", io.StringIO("y\n"))  # placed; then every step
+        sequence = str(SEQUENCES / "ntc-sender-screen.toml")
+        args = ["run", sequence, "--station", str(station_file), "--serial", "NTC-1"]
+        assert main([*args, "--claim", claim, "--remark", remark]) == 0
+        monkeypatch.setattr(sys, "stdin", io.StringIO(""))  # nobody answers this time
+        assert main([*args[:-1], "NTC-2"]) == EXIT_ABORTED
+    columns = "r.serial, r.claim, r.remark, r.end_cause, s.step_id, s.model_params"
+    query = f"SELECT {columns} FROM runs r LEFT JOIN steps s ON s.run_id = r.id ORDER BY r.id, s.id"
+    local_db = __import__("sqlite3").connect(station.store_path)
+    try:
+        on_station = local_db.execute(query).fetchall()
+    finally:
+        local_db.close()
+    with psycopg.connect(pg_database) as conn:
+        on_server = [tuple(row) for row in conn.execute(query).fetchall()]
+    assert on_server == on_station
+    first = [row for row in on_server if row[0] == "NTC-1"]
+    assert {row[1:4] for row in first} == {(claim, remark, "")}
+    params = {row[4]: json.loads(row[5]) for row in first}
+    assert params["sender-resistance"]["r25"] == "2 kohm"  # the sequence's "2.0 kohm"
+    assert {row[1:4] for row in on_server if row[0] == "NTC-2"} == {("", "", "no-answer")}
+    record = record_from_server(station_file, env)
+    assert (record["run"]["claim"], record["run"]["remark"]) == (claim, remark)

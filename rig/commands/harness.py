@@ -13,6 +13,7 @@ import json
 from pathlib import Path
 
 from rig.cli_output import Output, serve_bench
+from rig.commands._record_text import add_record_text_args, record_text_problem
 from rig.errors import Problem
 from rig.quantity import QuantityError, parse_quantity
 
@@ -77,6 +78,7 @@ def _common(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--operator", default="", help="who runs the test, for the record")
     parser.add_argument("--ambient", required=True, help="ambient temperature, e.g. '23 degC'")
     parser.add_argument("--json", action="store_true", help="one machine-readable summary")
+    add_record_text_args(parser)
 
 
 def harness_source(what: str, subject: Path) -> Path:
@@ -165,7 +167,11 @@ def _run(
     from rig.runner import run_plan
 
     station = load_station(args.station)
-    problem = serial_option_problem(args.serial) or operator_problem(station, args.operator)
+    problem = (
+        serial_option_problem(args.serial)
+        or record_text_problem(args)
+        or operator_problem(station, args.operator)
+    )
     if problem:
         out.error(f"rig: {problem}")
         return EXIT_BAD_INPUT
@@ -184,7 +190,14 @@ def _run(
         out.quiet = True
     else:
         out.line(HARNESS_CAUTION)
-    summary = run_plan(plan, args.serial, operator=args.operator, listener=out.on_event)
+    summary = run_plan(
+        plan,
+        args.serial,
+        operator=args.operator,
+        listener=out.on_event,
+        claim=args.claim,
+        remark=args.remark,
+    )
     result = next((r for r in summary.results if r.step_id == "harness"), None)
     findings = [] if result is None or not result.note else result.note.split("; ")
     if args.json:
@@ -195,6 +208,9 @@ def _run(
                 "status": summary.status,
                 "verdict": summary.verdict.value,
                 "reason": summary.reason,
+                "end_cause": summary.end_cause.value,
+                "claim": summary.claim,
+                "remark": summary.remark,
                 "notes": findings,
                 "warnings": summary.warnings,
                 "extras": {} if result is None else result.extras,

@@ -18,7 +18,7 @@ from rig.commands._store_args import ArgumentProblem, add_store_args, open_from_
 from rig.store import ResultStore
 
 EXIT_OK, EXIT_BAD_INPUT = 0, 2
-COLUMNS = ("run", "serial", "sequence", "started", "status", "verdict")
+COLUMNS = ("run", "serial", "sequence", "started", "status", "verdict", "claim")
 
 
 def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
@@ -26,6 +26,9 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     add_store_args(runs)
     runs.add_argument("--serial", help="only this unit's runs (the exact serial)")
     runs.add_argument("--serial-prefix", help="only units whose serial starts with this")
+    runs.add_argument(
+        "--claim", metavar="TEXT", help="only runs given this claim or return number (exact)"
+    )
     runs.add_argument("--sequence", help="only runs of this sequence (name)")
     runs.add_argument("--station-name", help="only runs made on this station (name)")
     runs.add_argument("--since", metavar="YYYY-MM-DD", help="only runs started on or after")
@@ -53,7 +56,12 @@ def cmd_runs(args: argparse.Namespace, out: Output) -> int:
         rows = store.run_rows(replace(where, study=None))
     finally:
         store.close()
-    found = [_row(r) for r in rows if args.serial is None or r[1] == args.serial]  # oldest first
+    found = [  # oldest first
+        _row(r)
+        for r in rows
+        if (args.serial is None or r[1] == args.serial)
+        and (args.claim is None or r[8] == args.claim)
+    ]
     if args.json:
         out.json({"runs": found})
         return EXIT_OK
@@ -77,8 +85,8 @@ def _own_store(args: argparse.Namespace) -> ResultStore:
 
 
 def _row(row: Any) -> dict[str, Any]:
-    """One run as a line, from (id, serial, sequence_name, started_at, status, verdict, ...)."""
-    run_id, serial, sequence, started, status, verdict = row[:6]
+    """One run as a line, from ``ResultStore.run_rows``."""
+    run_id, serial, sequence, started, status, verdict, _, _, claim = row[:9]
     return {
         "run": int(run_id),
         "serial": serial,
@@ -86,4 +94,5 @@ def _row(row: Any) -> dict[str, Any]:
         "started": str(started),
         "status": status,
         "verdict": verdict,
+        "claim": claim,
     }

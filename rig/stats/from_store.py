@@ -464,9 +464,9 @@ def undecided_causes(runs: pd.DataFrame) -> pd.DataFrame:
     """(cause, runs) of the runs that decided nothing, most first: as the screen rule has it,
     a run that did not complete or could not measure (``rig.screening``)."""
     causes = Counter(
-        undecided_cause(str(status), str(reason or ""))
-        for status, verdict, reason in zip(
-            runs["status"], runs["verdict"], runs["reason"], strict=True
+        undecided_cause(str(status), str(reason or ""), code if isinstance(code, str) else None)
+        for status, verdict, reason, code in zip(
+            runs["status"], runs["verdict"], runs["reason"], runs["end_cause"], strict=True
         )
         if decision_word(str(status), None if verdict is None else str(verdict)) == UNDECIDED
     )

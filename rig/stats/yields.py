@@ -15,7 +15,17 @@ import pandas as pd
 
 from rig.screening import CONFIRMED, INCONCLUSIVE, NO_FAULT, decision_word
 
-RUN_COLUMNS = ("id", "serial", "sequence_name", "started_at", "status", "verdict", "reason")
+RUN_COLUMNS = (
+    "id",
+    "serial",
+    "sequence_name",
+    "started_at",
+    "status",
+    "verdict",
+    "reason",
+    "end_cause",
+    "claim",
+)
 PASSING = ("pass", "conditional pass")
 FAILING = ("fail", "conditional fail")
 

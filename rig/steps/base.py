@@ -156,6 +156,13 @@ class StepKind(ABC):
     def run(self, ctx: StepContext, spec: StepSpec) -> Outcome:
         """Measure and compute; raise ``InstrumentError`` when the bench fails."""
 
+    def model_parameters(self, spec: StepSpec) -> dict[str, str]:
+        """What the step's reading is compared with besides its limits: the parameters of the
+        sensor model it predicts from, by the key the sequence file gives each, as text with
+        units.  Stored with the step's result, since a reviewer of the record must see them
+        (the file itself is kept only as a path and a hash).  Here: none."""
+        return {}
+
     def references(self, spec: StepSpec) -> tuple[str, ...]:
         """Ids of earlier steps this one reads (checked at load time)."""
         return spec.depends_on

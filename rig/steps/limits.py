@@ -5,7 +5,10 @@ from __future__ import annotations
 from rig.config.model_input import built
 from rig.config.reader import Section
 from rig.judge.decision import Limits
-from rig.quantity import QuantityError, parse_quantity
+from rig.quantity import QuantityError, format_quantity, parse_quantity
+
+RECORD_DIGITS = 10
+"""Significant digits of a parameter written into a run's record: as many as a file holds."""
 
 
 def read_tolerance(sec: Section, unit: str, key: str = "tolerance") -> tuple[str, float] | None:
@@ -25,6 +28,12 @@ def read_tolerance(sec: Section, unit: str, key: str = "tolerance") -> tuple[str
         sec.problem(key, f"expected a positive tolerance, found {raw!r}")
         return None
     return found
+
+
+def tolerance_text(tolerance: tuple[str, float], unit: str) -> str:
+    """A tolerance as ``read_tolerance`` gives it, as text: ("pct", 5.0) -> ``5 %``."""
+    kind, amount = tolerance
+    return format_quantity(amount, "%" if kind == "pct" else unit, RECORD_DIGITS)
 
 
 def apply_tolerance(nominal: float, tolerance: tuple[str, float]) -> Limits:

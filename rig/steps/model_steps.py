@@ -14,19 +14,26 @@ from typing import Any
 from drivers.base import MeterFunction
 from rig.config.model_input import above_absolute_zero, read_ratiometric, read_steinhart_hart
 from rig.config.reader import Section
+from rig.errors import SettingMismatch
 from rig.judge.decision import Limits
 from rig.judge.propagate import u_quotient
 from rig.judge.reference_probe import combined_u_c
 from rig.models import ModelInputError
 from rig.models.divider import divider_voltage, dv_dr_sensor
-from rig.models.ntc import BetaNtc, NtcModel
+from rig.models.ntc import BetaNtc, NtcModel, SteinhartHart
 from rig.models.ratiometric import Ratiometric
 from rig.models.rtd import T_MAX_C, T_MIN_C, Rtd, r0_it_fits
 from rig.quantity import format_quantity
 from rig.routing import Route
 from rig.steps.base import EarlierSteps, Outcome, StepKind, StepSpec
 from rig.steps.context import StepContext
-from rig.steps.limits import apply_tolerance, read_limits, read_tolerance
+from rig.steps.limits import (
+    RECORD_DIGITS,
+    apply_tolerance,
+    read_limits,
+    read_tolerance,
+    tolerance_text,
+)
 from rig.steps.pins import read_pins, read_supply
 
 
@@ -60,6 +67,10 @@ class ReferenceTemperature(StepKind):
         p = spec.pins
         return [Route.four_wire(p["force_hi"], p["sense_hi"], p["force_lo"], p["sense_lo"])]
 
+    def model_parameters(self, spec: StepSpec) -> dict[str, str]:
+        """The probe's curve: R0 on the IEC 60751 curve it turns resistance into degC by."""
+        return {"curve": IEC_60751, "r0": recorded(float(spec.params["r0_ohm"]), "ohm")}
+
     def largest_reading(self, spec: StepSpec, earlier: EarlierSteps) -> float | None:
         """The Pt100's resistance at the high temperature limit (R rises with T)."""
         return _pt100_ohm_at_most(spec)
@@ -78,7 +89,10 @@ class ReferenceTemperature(StepKind):
             return Outcome(math.nan, self.unit, math.nan, spec.limits, [r], note="no Pt100 reading")
         low, high = rtd.r_span()
         if not low <= r.value <= high:
-            raise ModelInputError(off_the_curve(spec, r.value, rtd))
+            mixed_up = r0_it_fits(r.value, rtd.r0_ohm) is not None
+            raise (SettingMismatch if mixed_up else ModelInputError)(
+                off_the_curve(spec, r.value, rtd)
+            )
         temp = float(rtd.t_at(r.value))
         u_meter = r.u_std / float(rtd.dr_dt(temp))
         probe = ctx.reference_probe
@@ -87,6 +101,37 @@ class ReferenceTemperature(StepKind):
             extras |= {"u_meter_c": u_meter, "u_probe_c": probe.u_std_c(temp)}
         u_temp = combined_u_c(u_meter, probe, temp)
         return Outcome(temp, self.unit, u_temp, spec.limits, [r], extras=extras)
+
+
+IEC_60751 = "IEC 60751 (Callendar-Van Dusen)"
+"""The curve a platinum resistance thermometer's R0 scales, as a run's record names it."""
+
+
+def recorded(value: float, unit: str) -> str:
+    """A model parameter as the run's record keeps it: ``2 kohm``, ``3450 K``."""
+    return format_quantity(value, unit, RECORD_DIGITS)
+
+
+def temperature_parameters(spec: StepSpec) -> dict[str, str]:
+    """Where a model step's temperature comes from, by its file key: an earlier step's id,
+    or the stated temperature."""
+    source = spec.params.get("temperature_from")
+    if source:
+        return {"temperature_from": str(source)}
+    return {"temperature": recorded(float(spec.params["temperature_c"]), "degC")}
+
+
+def ntc_model_parameters(model: NtcModel) -> dict[str, str]:
+    """An NTC's curve by the keys a file gives it: R25 and beta, or the three Steinhart-Hart
+    coefficients (each as Python writes the number, with every digit it holds)."""
+    if isinstance(model, SteinhartHart):
+        return {"steinhart_hart": f"[{model.a!r}, {model.b!r}, {model.c!r}]"}
+    if isinstance(model, BetaNtc):
+        found = {"r25": recorded(model.r25_ohm, "ohm"), "beta": recorded(model.beta_k, "K")}
+        if model.t0_c != 25.0:
+            found["t0"] = recorded(model.t0_c, "degC")
+        return found
+    return {"model": repr(model)}
 
 
 def off_the_curve(spec: StepSpec, r_ohm: float, rtd: Rtd) -> str:
@@ -256,6 +301,25 @@ class NtcCheck(StepKind):
             spec.params["reference_from" if key == "reference_from" else "reference_v"] = value
             read_supply(sec, spec)
 
+    def model_parameters(self, spec: StepSpec) -> dict[str, str]:
+        """Its curve, what it measures, its tolerance and temperature, and measuring voltage
+        the divider's pull-up and reference."""
+        unit = str(spec.params["unit"])
+        found = {
+            "measure": str(spec.params["mode"]),
+            **ntc_model_parameters(spec.params["model"]),
+            "tolerance": tolerance_text(spec.params["tolerance"], unit),
+            **temperature_parameters(spec),
+        }
+        if spec.params["mode"] == "voltage":
+            found["pullup"] = recorded(float(spec.params["pullup_ohm"]), "ohm")
+            source = spec.params.get("reference_from")
+            if source:
+                found["reference_from"] = str(source)
+            else:
+                found["reference"] = recorded(float(spec.params["reference_v"]), "V")
+        return found
+
     def routes(self, spec: StepSpec) -> list[Route]:
         route = Route.dmm(spec.pins["hi"], spec.pins["lo"])
         if spec.supply is not None:
@@ -385,6 +449,19 @@ class RatiometricCheck(StepKind):
             Route.dmm(p["output"], p["ground"]) + extra,
             Route.dmm(p["power"], p["ground"]) + extra,
         ]
+
+    def model_parameters(self, spec: StepSpec) -> dict[str, str]:
+        """Its transfer (fraction of supply at each end of its range), the pressure it is
+        judged at, and its tolerance in percentage points of supply."""
+        model: Ratiometric = spec.params["model"]
+        return {
+            "range_low": recorded(model.p_min, "Pa"),
+            "range_high": recorded(model.p_max, "Pa"),
+            "fraction_low": f"{model.frac_min:.{RECORD_DIGITS}g}",
+            "fraction_high": f"{model.frac_max:.{RECORD_DIGITS}g}",
+            "pressure": recorded(float(spec.params["pressure_pa"]), "Pa"),
+            "tolerance": recorded(float(spec.params["tolerance_pct"]), "%"),
+        }
 
     def autoranged_readings(self, spec: StepSpec, held: float | None) -> int:
         """The supply reading autoranges (nothing in the file bounds the sensor's supply), also

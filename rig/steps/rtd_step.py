@@ -17,9 +17,16 @@ from rig.models.rtd import T_MAX_C, T_MIN_C, TOLERANCE_CLASSES, Rtd, tolerance_c
 from rig.routing import Route
 from rig.steps.base import EarlierSteps, Outcome, StepKind, StepSpec
 from rig.steps.context import StepContext
-from rig.steps.limits import apply_tolerance, read_tolerance
+from rig.steps.limits import apply_tolerance, read_tolerance, tolerance_text
 from rig.steps.meter_steps import lead_zero_of, ohms_function, ohms_route, read_two_or_four_wire
-from rig.steps.model_steps import temperature_at, temperature_bounds, temperature_source
+from rig.steps.model_steps import (
+    IEC_60751,
+    recorded,
+    temperature_at,
+    temperature_bounds,
+    temperature_parameters,
+    temperature_source,
+)
 
 
 def rtd_limits(spec: StepSpec, temp_c: float, predicted_ohm: float) -> Limits:
@@ -70,6 +77,21 @@ class RtdCheck(StepKind):
                 "tolerance_class",
                 f"an IEC 60751 class ({', '.join(classes)}), or tolerance in % or ohm",
             )
+
+    def model_parameters(self, spec: StepSpec) -> dict[str, str]:
+        """Its curve and R0, its tolerance (an IEC 60751 class, or stated) and temperature."""
+        cls = spec.params.get("tolerance_class")
+        tolerance = (
+            {"tolerance_class": str(cls)}
+            if cls is not None
+            else {"tolerance": tolerance_text(spec.params["tolerance"], self.unit)}
+        )
+        return {
+            "curve": IEC_60751,
+            "r0": recorded(float(spec.params["r0_ohm"]), "ohm"),
+            **tolerance,
+            **temperature_parameters(spec),
+        }
 
     def routes(self, spec: StepSpec) -> list[Route]:
         return [ohms_route(spec)]
