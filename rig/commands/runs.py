@@ -1,10 +1,11 @@
-"""``rig runs``: the stored runs, one line each, found by serial, sequence, station or date.
+"""``rig runs``: the stored runs, one line each, found by serial, claim or return number,
+sequence, station or date.
 
-A QA station looks a returned unit up by its serial and a week's screening by its dates; the ids
-it lists are those ``rig report`` and ``rig diagnose`` take.  With ``--station`` it reads the
-station's own file, whose ids those commands take with ``--station`` (a results server numbers
-the same runs otherwise); with ``--store``, that file.  It filters as ``rig stats`` does,
-production runs and gauge-study runs alike.
+A QA station looks a returned unit up by its serial or claim and a week's screening by its
+dates; the ids it lists are those ``rig report`` and ``rig diagnose`` take.  With ``--station``
+it reads the station's own file, whose ids those commands take with ``--station`` (a results
+server numbers the same runs otherwise); with ``--store``, that file.  It filters as
+``rig stats`` does, production runs and gauge-study runs alike.
 """
 
 from __future__ import annotations
