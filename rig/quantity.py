@@ -64,9 +64,49 @@ def _split_unit(text: str) -> tuple[float, str]:
     for unit in sorted(_UNITS, key=len, reverse=True):
         if text.endswith(unit):
             prefix = text[: -len(unit)]
-            if prefix in _PREFIX and _UNITS[unit] not in ("%", "degC", "K", "mm2"):
+            if prefix in _PREFIX and _UNITS[unit] not in _NOT_PREFIXED:
                 return _PREFIX[prefix], _UNITS[unit]
     raise QuantityError(f"unknown unit {text!r}")  # its own reason: nothing expected in it
+
+
+_NOT_PREFIXED = ("%", "degC", "K", "mm2")
+_PREFIX_NAMES = {"p": "pico", "n": "nano", "u": "micro", "m": "milli", "k": "kilo", "M": "mega"}
+_PREFIX_NAMES |= {"G": "giga"}
+
+
+def _meant_units(text: str, unit: str) -> list[str]:
+    """The spellings in ``unit`` that ``text`` is a slip of letter case of ("mv" -> "mV",
+    "KOhm" -> "kohm"), as the SI Brochure (BIPM, 9th edition, 2019, tables 3 and 7) writes the
+    prefixes and symbols.  A prefix valid as typed is kept ("mv" is "mV", not "MV"), except in
+    text typed all in capitals, where its case says nothing ("MOHM": "Mohm" or "mohm")."""
+    found: list[str] = []
+    for symbol, name in _UNITS.items():
+        if name == "bar" and unit == "Pa":
+            name = "Pa" if symbol == "bar" else name
+        if name != unit or not text.lower().endswith(symbol.lower()):
+            continue
+        typed = text[: len(text) - len(symbol)]
+        if typed and _UNITS[symbol] in _NOT_PREFIXED:
+            continue
+        if typed in _PREFIX and not (text.isupper() and typed.isalpha()):
+            prefixes = [typed]
+        else:
+            same = [p for p in _PREFIX if p.lower() == typed.lower() and p.isascii()]
+            prefixes = sorted(same, key=lambda p: p != typed)  # the case as typed first
+        spelt = "ohm" if _UNITS[symbol] == "ohm" else symbol
+        found += [p + spelt for p in prefixes if p + spelt != text and p + spelt not in found]
+    return found
+
+
+def _hint(text: str, unit: str) -> str:
+    """``; did you mean ...?`` for a unit typed in the wrong letter case; empty otherwise."""
+    meant = _meant_units(text, unit)
+    if len(meant) == 1:
+        return f"; did you mean {meant[0]!r}?"
+    if meant:
+        named = " or ".join(f"{m!r} ({_PREFIX_NAMES.get(m[0], '')})" for m in meant)
+        return f"; did you mean {named}? Prefixes are case-sensitive"
+    return ""
 
 
 _MINUTES = ("min", "mins", "minute", "minutes", "m")
@@ -105,7 +145,8 @@ def parse_quantity(value: object, unit: str) -> float:
     try:
         factor, found = _split_unit(symbol)
     except QuantityError as exc:
-        raise QuantityError(f"{exc}{_in_seconds(number, symbol, unit)}") from None
+        hint = _in_seconds(number, symbol, unit) or _hint(symbol, unit)
+        raise QuantityError(f"{exc}{hint}") from None
     if found == "bar" and unit == "Pa":
         factor, found = factor * 1e5, "Pa"
     if found != unit:

@@ -104,6 +104,63 @@ def test_a_settle_in_minutes_names_the_key_and_the_seconds(tmp_path: Path) -> No
     ]
 
 
+@pytest.mark.parametrize(
+    ("text", "unit", "hint"),
+    [
+        ("10 mv", "V", "did you mean 'mV'?"),  # a valid prefix kept as typed: not 'MV'
+        ("4.7 KOhm", "ohm", "did you mean 'kohm'?"),  # kilo is k (table 7); no prefix K
+        ("4.7 Kohm", "ohm", "did you mean 'kohm'?"),
+        ("1 KV", "V", "did you mean 'kV'?"),
+        ("50 hz", "Hz", "did you mean 'Hz'?"),  # hertz is Hz (table 4)
+        ("47 NF", "F", "did you mean 'nF'?"),
+        ("2 MOHM", "ohm", "did you mean 'Mohm' (mega) or 'mohm' (milli)? Prefixes are "
+                          "case-sensitive"),  # in capitals the prefix's case says nothing
+    ],
+)  # fmt: skip
+def test_a_unit_in_the_wrong_letter_case_gets_the_spelling_meant(
+    text: str, unit: str, hint: str
+) -> None:
+    # Source: the SI Brochure (BIPM, 9th edition, 2019), table 7 (prefixes: k kilo, M mega,
+    # m milli, n nano ...) and table 3 (base units: A, s, m ...), with table 4 for V, Hz and F;
+    # ohm is rig's own spelling of the symbol Ω
+    with pytest.raises(QuantityError) as caught:
+        parse_quantity(text, unit)
+    symbol = text.split()[1]
+    assert str(caught.value) == f"unknown unit {symbol!r}; {hint}"
+    meant = re.findall(r"'([^']+)'", hint)
+    number = float(text.split()[0])
+    factor = {"m": 1e-3, "k": 1e3, "M": 1e6, "n": 1e-9}
+    for spelling in meant:  # each spelling offered is one rig reads, with its prefix's factor
+        prefix = spelling[: -len(unit)] if spelling.lower().endswith(unit.lower()) else ""
+        assert parse_quantity(f"{number} {spelling}", unit) == pytest.approx(
+            number * factor.get(prefix, 1.0)
+        )
+
+
+def test_no_spelling_is_offered_in_a_unit_other_than_the_one_expected() -> None:
+    # 'M' read in another case is 'm' (metre), no resistance; 'k' is 'K' (kelvin)
+    for text in ("1 M", "1 k", "1 mv"):
+        with pytest.raises(QuantityError) as caught:
+            parse_quantity(text, "ohm")
+        assert str(caught.value) == f"unknown unit {text.split()[1]!r}"
+
+
+def test_a_miscased_unit_in_a_unit_file_names_its_key_line_and_the_spelling(
+    tmp_path: Path,
+) -> None:
+    write_complete_examples(tmp_path)
+    path = tmp_path / "unit.toml"
+    text = path.read_text(encoding="utf-8")
+    assert '"2.49 kohm"' in text
+    path.write_text(text.replace('"2.49 kohm"', '"2.49 KOhm"', 1), encoding="utf-8")
+    with pytest.raises(ConfigError) as caught:
+        load_unit(path)
+    line = next(n for n, row in enumerate(path.read_text().splitlines(), 1) if "KOhm" in row)
+    assert [str(p) for p in caught.value.problems] == [
+        f"{path}:{line} [resistors.pullup.value]: unknown unit 'KOhm'; did you mean 'kohm'?"
+    ]
+
+
 def test_the_value_messages_the_sequence_page_lists() -> None:
     shown = fenced(section("sequence-file.md", "## Values with units"), "")[0].splitlines()
     # the values the page names before the block, with the unit each is read as
@@ -115,6 +172,8 @@ def test_the_value_messages_the_sequence_page_lists() -> None:
         ("10 V", "ohm"),
         ("1,5 V", "V"),
         ("30 min", "s"),
+        ("10 mv", "V"),
+        ("2 MOHM", "ohm"),
     ]
     printed = []
     for value, unit in tried:
