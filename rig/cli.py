@@ -16,6 +16,7 @@ from typing import TYPE_CHECKING
 from rig import __version__
 from rig.cli_output import Output, serve_bench, show, show_limits
 from rig.commands._record_text import add_record_text_args, record_text_problem
+from rig.commands._store_args import ArgumentProblem
 from rig.errors import ConfigError, Problem, RigError
 from rig.events import NOT_READINGS
 from rig.judge.decision import Verdict, tur_text
@@ -57,6 +58,9 @@ def main(argv: list[str] | None = None) -> int:
         out.error("rig: the input has problems:")
         for problem in exc.problems:
             out.error(f"  {problem}")
+        return EXIT_BAD_INPUT
+    except ArgumentProblem as exc:  # an option naming no usable file or place: bad input too
+        out.error(f"rig: {exc}")
         return EXIT_BAD_INPUT
     except RigError as exc:
         out.error(f"rig: {exc}")
@@ -284,14 +288,14 @@ def _check_alone(args: argparse.Namespace, out: Output) -> int:
     """Each of a station, unit and fixture file checked by itself (a station and a unit with
     the fixture each names): every problem of all of them, or one line each when valid."""
     from rig.config import load_collecting
-    from rig.config.fixture import load_fixture
+    from rig.config.fixture import fixture_of, load_fixture
     from rig.config.station import load_station
     from rig.config.unit_file import load_unit
     from rig.harness.wire_list import load_wire_list
 
     def unit_and_fixture(path: Path) -> tuple[UnitModel, FixtureMap]:
         unit = load_unit(path)
-        return unit, load_fixture(unit.fixture_path)  # the fixture `rig sim --unit` loads
+        return unit, fixture_of(unit)  # the fixture `rig sim --unit` loads
 
     problems: list[Problem] = []
     station = load_collecting(load_station, args.station, problems)
@@ -763,7 +767,8 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
 
 
 def cmd_sim(args: argparse.Namespace, out: Output) -> int:
-    from rig.config.fixture import load_fixture
+    from rig.commands._store_args import file_to_write
+    from rig.config.fixture import fixture_of
     from rig.config.unit_file import load_unit
     from rig.faults import parse_faults
     from rig.sim.bench import VirtualBench
@@ -771,8 +776,11 @@ def cmd_sim(args: argparse.Namespace, out: Output) -> int:
     from rig.sim.timing import Timing
 
     unit = load_unit(args.unit)
-    fixture = load_fixture(unit.fixture_path)
+    fixture = fixture_of(unit)
     faults = parse_faults(args.fault, unit, source="--fault")
+    station_out = file_to_write(args.station_out, "--station-out", name="virtual-station.toml")
+    if args.state_file is not None:
+        file_to_write(args.state_file, "--state-file", kind="a JSON file to write")
     bench = VirtualBench(
         unit,
         fixture,
@@ -787,7 +795,7 @@ def cmd_sim(args: argparse.Namespace, out: Output) -> int:
     control = ControlServer(bench, args.control_port)
     try:
         control.start()
-        station = bench.write_station(args.station_out, name=f"virtual-{unit.name}")
+        station = bench.write_station(station_out, name=f"virtual-{unit.name}")
         rows = [
             ("DMM", endpoints.dmm_resource),
             ("supply", endpoints.supply_resource),

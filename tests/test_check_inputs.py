@@ -128,7 +128,8 @@ def test_a_unit_alone_is_checked_with_its_fixture(
     unit.write_text(text.replace('fixture = "fixture.toml"', 'fixture = "gone.toml"'))
     code, out, err = check(capsys, "--unit", unit)
     assert code == 2 and out == ""
-    assert f"{tmp_path / 'gone.toml'}: file not found" in err
+    # the problem is put at the key that named the missing file (tests/test_named_files.py)
+    assert f"[unit.fixture]: 'gone.toml' ({tmp_path / 'gone.toml'}): file not found" in err
 
 
 @pytest.mark.parametrize(

@@ -605,8 +605,10 @@ def test_station_with_a_missing_fixture(tmp_path: Path) -> None:
     with pytest.raises(ConfigError) as caught:
         load_station(path)
     (problem,) = caught.value.problems
-    assert problem.file.endswith("no-such-fixture.toml")
-    assert "not found" in problem.message
+    # put at the key that named it, the fixture's own path in the message
+    assert problem.file == str(path) and problem.key == "station.fixture"
+    assert problem.line is not None
+    assert "no-such-fixture.toml" in problem.message and "not found" in problem.message
 
 
 @pytest.mark.parametrize("loader", [load_unit, load_fixture, load_sequence, load_station])
@@ -628,4 +630,4 @@ def test_file_that_is_not_utf8(tmp_path: Path, loader: Callable[[Path], Any]) ->
 
 def test_a_directory_is_not_a_file(tmp_path: Path) -> None:
     (problem,) = problems_of(load_unit, tmp_path)
-    assert "cannot read" in problem.message
+    assert problem.message == "is a folder; expected a unit file (.toml)"

@@ -73,6 +73,10 @@ def open_from_args(
             return OpenedStore(open_local_store(station), station, own.parent, note)
         return OpenedStore(server or open_local_store(station), station, own.parent)
     path: Path = args.store
+    if path.is_dir():
+        raise ArgumentProblem(
+            f"--store {path}: is a folder; expected a results store file (SQLite)"
+        )
     if not path.is_file():
         raise ArgumentProblem(f"--store {path}: no such results store file")
     return OpenedStore(ResultStore(path), None, path.resolve().parent)
@@ -88,3 +92,14 @@ def checked_output(path: Path) -> Path:
                 f"({_SOURCE_ROOT / folder}); choose another --out"
             )
     return resolved
+
+
+def file_to_write(path: Path, option: str, *, name: str = "", kind: str = "") -> Path:
+    """Where ``option`` writes its file: ``path``; where that is a folder, the file ``name`` in
+    it (the name the command gives the file by default), or with no ``name`` a refusal saying
+    what was expected (``kind``), before anything is started or written."""
+    if not path.is_dir():
+        return path
+    if name:
+        return path / name
+    raise ArgumentProblem(f"{option} {path}: is a folder; expected {kind}")

@@ -244,10 +244,12 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
 
 
 def cmd_capture(args: argparse.Namespace, out: Output) -> int:
+    from rig.commands._store_args import file_to_write
     from rig.config.station import load_station
     from rig.errors import ConfigError
     from rig.harness.capture import connector_problems
 
+    file_to_write(args.out, "--out", kind="a wire list (.csv) to write")  # before anything opens
     keys: dict[str, object] = {"capture_to": str(args.out.resolve())}
     connectors = [c.strip() for c in args.connectors.split(",") if c.strip()]
     if connectors:
@@ -266,6 +268,7 @@ def virtual_station_name(wire_list: Path) -> str:
 
 
 def cmd_sim(args: argparse.Namespace, out: Output) -> int:
+    from rig.commands._store_args import file_to_write
     from rig.config.fixture import load_fixture
     from rig.errors import ConfigError, Problem
     from rig.harness.as_built import build_fault_problems, parse_build_fault
@@ -293,12 +296,13 @@ def cmd_sim(args: argparse.Namespace, out: Output) -> int:
                 [Problem("--probe", args.probe, "expected four fixture pins FH,SH,FL,SL")]
             )
         probe = (pins[0], pins[1], pins[2], pins[3])
+    station_out = file_to_write(args.station_out, "--station-out", name="harness-station.toml")
     bench = harness_bench(
         wires, fixture, faults, ambient_c=args.ambient, seed=args.seed, probe=probe
     )
     endpoints = bench.start()
     try:
-        station = bench.write_station(args.station_out, name=virtual_station_name(wires.path))
+        station = bench.write_station(station_out, name=virtual_station_name(wires.path))
         out.line(HARNESS_CAUTION)
         rows = [
             ("DMM", endpoints.dmm_resource),

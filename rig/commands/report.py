@@ -8,7 +8,13 @@ from pathlib import Path
 
 from rig.cli_output import Output
 from rig.commands._run_ref import find_run, run_ref
-from rig.commands._store_args import ArgumentProblem, add_store_args, checked_output, open_from_args
+from rig.commands._store_args import (
+    ArgumentProblem,
+    add_store_args,
+    checked_output,
+    file_to_write,
+    open_from_args,
+)
 
 EXIT_WRITTEN, EXIT_BAD_INPUT = 0, 2
 
@@ -82,10 +88,9 @@ def cmd_report(args: argparse.Namespace, out: Output) -> int:
         out.line(text.rstrip("\n"))
         return EXIT_WRITTEN
     try:
-        target = checked_output(
-            args.out
-            or opened.data_dir / "reports" / default_name(label, run["serial"], args.format)
-        )
+        name = default_name(label, run["serial"], args.format)
+        where = args.out or opened.data_dir / "reports" / name
+        target = checked_output(file_to_write(where, "--out", name=name))
         target.parent.mkdir(parents=True, exist_ok=True)
         target.write_text(text, encoding="utf-8")
     except ArgumentProblem as exc:

@@ -15,6 +15,7 @@ from rig.commands._store_args import (
     OpenedStore,
     ServerUnreachable,
     checked_output,
+    file_to_write,
     open_from_args,
 )
 from rig.stats.filters import RunFilter
@@ -180,9 +181,8 @@ def _shop(args: argparse.Namespace, out: Output) -> int:
 def _write_page(opened: OpenedStore, stats: Any, html_arg: str) -> Path:
     from reports.stats_html import render_stats, series_from_rows
 
-    target = checked_output(
-        Path(html_arg) if html_arg else opened.data_dir / "reports" / "stats.html"
-    )
+    where = Path(html_arg) if html_arg else opened.data_dir / "reports" / "stats.html"
+    target = checked_output(file_to_write(where, "--html", name="stats.html"))
 
     def series(step: Any) -> Any:
         rows = opened.store.step_series(stats.where, step.sequence, step.step_id)

@@ -13,8 +13,12 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 from functools import cached_property
 from pathlib import Path
+from typing import TYPE_CHECKING
 
-from rig.config.reader import TomlDoc
+from rig.config.reader import TomlDoc, load_named
+
+if TYPE_CHECKING:
+    from rig.config.unit_file import UnitModel
 
 
 class Bus(enum.Enum):
@@ -75,10 +79,21 @@ class FixtureMap:
 
 def load_fixture(path: Path | str) -> FixtureMap:
     """Read and validate a fixture map; raises ``ConfigError`` listing every problem."""
-    doc = TomlDoc(Path(path))
+    doc = TomlDoc(Path(path), kind="a fixture file (.toml)")
     fixture = parse_fixture(doc)
     doc.raise_if_problems()
     return fixture
+
+
+def fixture_of(unit: UnitModel) -> FixtureMap:
+    """The fixture map a unit file names; where that file cannot be read (not there, a folder),
+    the problem is put at ``[unit].fixture`` in the unit file, the key to fix."""
+    return load_named(
+        load_fixture,
+        unit.fixture_path,
+        unit.fixture_written,
+        lambda message: unit.problem("unit.fixture", message),
+    )
 
 
 def parse_fixture(doc: TomlDoc) -> FixtureMap:

@@ -10,16 +10,17 @@ from __future__ import annotations
 import difflib
 import re
 import tomllib
-from collections.abc import Iterable, Iterator
+from collections.abc import Callable, Iterable, Iterator
 from pathlib import Path
-from typing import Any
+from typing import Any, TypeVar
 
 from rig.config.key_lines import key_lines, parent_path
-from rig.config.text_file import read_text
+from rig.config.text_file import FileUnreadable, read_text
 from rig.errors import ConfigError, Problem
 from rig.quantity import QuantityError, parse_quantity
 
 _MISSING: Any = object()
+T = TypeVar("T")
 _CLOSE = 0.75
 """How alike (difflib's ratio) an unknown key and a known one must be to name it as meant:
 "guage" and "gauge" are 0.8 alike, "tolerence" and "tolerance" 0.89, "colour" and "value" 0.36."""
@@ -28,12 +29,12 @@ _CLOSE = 0.75
 class TomlDoc:
     """One TOML file: its text, its data and the problems found while reading it."""
 
-    def __init__(self, path: Path, text: str | None = None) -> None:
+    def __init__(self, path: Path, text: str | None = None, *, kind: str = "a TOML file") -> None:
         self.path = Path(path)
         self.name = str(path)
         self.problems: list[Problem] = []
         if text is None:
-            text = read_text(self.path)
+            text = read_text(self.path, kind)
         self.text = text
         self._key_lines: dict[str, int] | None = None
         """Where each key is written, read from the text when a problem first needs it."""
@@ -301,3 +302,23 @@ def close_key(name: str, keys: Iterable[str]) -> str | None:
     """The one key ``name`` looks like a misspelling of, if one is close enough to say so."""
     meant = difflib.get_close_matches(name, sorted(keys), n=1, cutoff=_CLOSE)
     return meant[0] if meant else None
+
+
+def load_named(
+    load: Callable[[Path], T], path: Path, written: str, problem: Callable[[str], Problem]
+) -> T:
+    """``load(path)`` for a file another file names (a unit file's ``[unit].fixture``): where
+    ``path`` cannot be read at all, the one problem is put at the key that named it (through
+    ``problem``, which gives its file and line), since that key is what to fix."""
+    try:
+        return load(path)
+    except FileUnreadable as exc:
+        if exc.path != path:
+            raise
+        raise ConfigError([problem(named_unreadable(written, exc))]) from None
+
+
+def named_unreadable(written: str, exc: FileUnreadable) -> str:
+    """What to say at the key that named a file that cannot be read: the name as written there,
+    the file it was taken as (relative names are beside the naming file) and why."""
+    return f"{written!r} ({exc.path}): {exc.reason}"

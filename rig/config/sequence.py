@@ -55,7 +55,7 @@ class Sequence:
 
 def load_sequence(path: Path | str) -> Sequence:
     """Read and validate a sequence; raises ``ConfigError`` listing every problem."""
-    doc = TomlDoc(Path(path))
+    doc = TomlDoc(Path(path), kind="a sequence file (.toml)")
     sequence = parse_sequence(doc)
     doc.raise_if_problems()
     return sequence

@@ -18,8 +18,9 @@ from typing import Any
 from rig.config.calibration import read_calibration
 from rig.config.fixture import FixtureMap, parse_fixture
 from rig.config.probe_section import parse_reference_probe
-from rig.config.reader import Section, TomlDoc
+from rig.config.reader import Section, TomlDoc, named_unreadable
 from rig.config.store_section import StoreSettings, parse_store
+from rig.config.text_file import FileUnreadable
 from rig.errors import ConfigError
 from rig.judge.accuracy import AccuracySpec, AccuracyTable
 from rig.judge.reference_probe import ReferenceProbe
@@ -78,7 +79,7 @@ class Station:
 
 def load_station(path: Path | str) -> Station:
     """Read and validate a station file and its fixture map; lists every problem of both."""
-    doc = TomlDoc(Path(path))
+    doc = TomlDoc(Path(path), kind="a station file (.toml)")
     root = doc.root
     head = root.table("station", required=True)
     name = "station"
@@ -101,9 +102,11 @@ def load_station(path: Path | str) -> Station:
         if fixture_text:
             fixture_path = (doc.path.parent / fixture_text).resolve()
             try:
-                fixture_doc = TomlDoc(fixture_path)
+                fixture_doc = TomlDoc(fixture_path, kind="a fixture file (.toml)")
                 fixture = parse_fixture(fixture_doc)
                 fixture_problems = fixture_doc.problems
+            except FileUnreadable as exc:  # the key that names it is what to fix
+                head.problem("fixture", named_unreadable(fixture_text, exc))
             except ConfigError as exc:
                 fixture_problems = exc.problems
         head.reject_unknown()

@@ -18,16 +18,29 @@ from rig.errors import ConfigError, Problem
 _UTF16_MARKS = (codecs.BOM_UTF16_LE, codecs.BOM_UTF16_BE)
 
 
-def read_text(path: Path) -> str:
-    """The text of ``path``; raises ``ConfigError`` with one problem when it cannot be read."""
-    name = str(path)
+class FileUnreadable(ConfigError):
+    """A file could not be read at all (not there, a folder, not allowed): nothing in it is
+    wrong, so a file that named it can put the problem at the key that did (``named_at``)."""
+
+    def __init__(self, path: Path, reason: str) -> None:
+        self.path = path
+        self.reason = reason
+        super().__init__([Problem(str(path), "", reason)])
+
+
+def read_text(path: Path, kind: str = "a text file") -> str:
+    """The text of ``path``; raises ``FileUnreadable`` when it cannot be read, or ``ConfigError``
+    when it is not UTF-8.  ``kind`` is what was expected there, for a folder given in its place
+    ("a unit file (.toml)")."""
     try:
         data = path.read_bytes()
     except FileNotFoundError:
-        raise ConfigError([Problem(name, "", "file not found")]) from None
+        raise FileUnreadable(path, "file not found") from None
+    except IsADirectoryError:
+        raise FileUnreadable(path, f"is a folder; expected {kind}") from None
     except OSError as exc:
-        raise ConfigError([Problem(name, "", f"cannot read the file: {exc}")]) from None
-    return decode_text(data, name)
+        raise FileUnreadable(path, f"cannot read the file: {exc}") from None
+    return decode_text(data, str(path))
 
 
 def decode_text(data: bytes, name: str) -> str:

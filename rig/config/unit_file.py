@@ -160,6 +160,8 @@ class UnitModel:
     path: Path
     fixture_path: Path
     description: str = ""
+    fixture_written: str = ""
+    """``[unit].fixture`` as written, for a problem put at that key (``fixture_of``)."""
     ambient_c: float = 23.0
     ambient_range_c: tuple[float, float] | None = None
     """Where the ambient may lie on the floor (Monte Carlo limits); None: exactly ``ambient_c``."""
@@ -208,7 +210,7 @@ def _sensor_nodes(sensor: Sensor) -> set[str]:
 
 def load_unit(path: Path | str) -> UnitModel:
     """Read and validate a unit file; raises ``ConfigError`` listing every problem."""
-    doc = TomlDoc(Path(path))
+    doc = TomlDoc(Path(path), kind="a unit file (.toml)")
     unit = parse_unit(doc)
     doc.raise_if_problems()
     return unit
@@ -270,6 +272,7 @@ def parse_unit(doc: TomlDoc) -> UnitModel:
     root = doc.root
     head = root.table("unit", required=True)
     name = description = ""
+    fixture_text = None
     fixture_path = doc.path
     if head:
         name = head.string("name") or ""
@@ -279,7 +282,12 @@ def parse_unit(doc: TomlDoc) -> UnitModel:
             fixture_path = (doc.path.parent / fixture_text).resolve()
         head.reject_unknown()
     unit = UnitModel(
-        name=name, path=doc.path, fixture_path=fixture_path, description=description, source=doc
+        name=name,
+        path=doc.path,
+        fixture_path=fixture_path,
+        description=description,
+        fixture_written=fixture_text or "",
+        source=doc,
     )
 
     ambient = root.table("ambient")

@@ -165,7 +165,7 @@ class WireList:
 def load_wire_list(path: Path | str, fixture: FixtureMap | None = None) -> WireList:
     """Read and validate a wire list (and its join to ``fixture``); raises ``ConfigError``."""
     path = Path(path)
-    return parse_wire_list(read_text(path), path, fixture)
+    return parse_wire_list(read_text(path, "a wire list (.csv)"), path, fixture)
 
 
 def parse_wire_list(text: str, path: Path, fixture: FixtureMap | None = None) -> WireList:

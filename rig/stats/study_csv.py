@@ -21,7 +21,7 @@ COLUMNS = ("part", "operator", "trial", "value")
 def read_study_csv(path: Path) -> list[Observation]:
     """The study's measurements; raises ``GaugeStudyError`` listing every bad row."""
     try:
-        text = read_text(path)
+        text = read_text(path, "a gauge study (.csv)")
     except ConfigError as exc:
         raise GaugeStudyError(str(exc)) from None
     reader = csv.DictReader(text.splitlines())

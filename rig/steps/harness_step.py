@@ -14,7 +14,8 @@ from pathlib import Path
 
 from drivers.base import MeterFunction
 from rig.config.fixture import FixtureMap
-from rig.config.reader import Section
+from rig.config.reader import Section, named_unreadable
+from rig.config.text_file import FileUnreadable
 from rig.errors import ConfigError, Problem
 from rig.harness.capture import capture_harness, capture_pins, connector_problems
 from rig.harness.conductors import Allowances
@@ -35,11 +36,16 @@ def read_harness_keys(sec: Section, spec: StepSpec, base: Path) -> None:
     capture = sec.string("capture_to", "")
     if capture:
         spec.params["capture_to"] = (base / capture).resolve()
+        if spec.params["capture_to"].is_dir():
+            where = f"{capture!r} ({spec.params['capture_to']})"
+            sec.problem("capture_to", f"{where}: is a folder; expected a wire list (.csv) to write")
         spec.params["capture_connectors"] = sec.string_list("capture_connectors", None)
     text = sec.string("wire_list", "" if capture else None)
     if text:
         try:
             spec.params["wires"] = load_wire_list((base / text).resolve())
+        except FileUnreadable as exc:  # the key that names it is what to fix
+            sec.problem("wire_list", named_unreadable(text, exc))
         except ConfigError as exc:  # the list's own lines; once, however many steps read it
             sec.doc.problems.extend(p for p in exc.problems if p not in sec.doc.problems)
     spec.params["allowances"] = Allowances(
