@@ -9,9 +9,11 @@ from typing import Any
 
 from reports.html_page import esc, figure, page, table
 from reports.svg_plots import margin_chart
+from reports.value_digits import value_and_u
 from rig import __version__
 from rig.events import CUT_SHORT, NOT_RUN, prompt_answer
 from rig.judge.decision import COVERAGE_K, DecisionRule, Limits, judge
+from rig.steps import KINDS
 
 
 def num(value: object, digits: int = 7) -> str:
@@ -76,7 +78,10 @@ def _instruments(run: Mapping[str, Any]) -> str:
 
 DECISION_NOTE = (
     "Each value is judged against its limits with its expanded uncertainty U (k = 2, about 95 %, "
-    "GUM) under the step's decision rule (ILAC-G8:09/2019). Under the guarded rule a value within "
+    "GUM) under the step's decision rule (ILAC-G8:09/2019). Values and U are shown to the digits "
+    "U supports: U to two significant digits, rounded up, the value to the same decimal place "
+    "(GUM 7.2.6); the verdicts were reached with the unrounded values, kept in the CSV and JSON "
+    "records. Under the guarded rule a value within "
     "U of a limit is conditional: a conditional pass lies inside the limits and a conditional fail "
     "outside, but this measurement cannot rule out the other side. Retest, or measure with a "
     "smaller U, before deciding on such a unit."
@@ -88,26 +93,50 @@ def _answered(s: Mapping[str, Any]) -> bool:
     return s.get("kind") == "prompt" and s["value"] is not None and math.isfinite(s["value"])
 
 
-def _steps(steps: list[Mapping[str, Any]]) -> str:
-    rows = [
-        [
-            s["position"],
-            s["step_id"],
-            s["title"],
-            prompt_answer(s["value"]) if _answered(s) else s.get("value_text") or num(s["value"]),
-            s["unit"],
-            "" if _answered(s) else num(s["low"]),
-            num(s["high"]),
-            num(s["predicted"]),
-            num(s["expanded_u"], 3),
-            num(s["coverage_k"], 3),
-            s["decision_rule"],
-            _ratio(s["tur"]),
-            s["verdict"],
-            s["note"],
-        ]
-        for s in steps
+def _value_cells(s: Mapping[str, Any]) -> tuple[str, str]:
+    """The value and U cells: an answer or a word where there is no number; a reading to the
+    digits its U supports (``value_and_u``, GUM 7.2.6); for a step with no reading to judge (a
+    prompt, a soak) no U, since none was stated."""
+    value, u = s["value"], s["expanded_u"]
+    if _answered(s):
+        return prompt_answer(value), ""
+    if s.get("value_text") or value is None or not math.isfinite(value):
+        return s.get("value_text") or num(value), num(u, 3)
+    if not _judged(s) or u is None:
+        return num(value), ""
+    return value_and_u(value, u)
+
+
+def _judged(s: Mapping[str, Any]) -> bool:
+    """Whether the step's value is a reading judged against limits with an uncertainty (not an
+    operator's answer or a time waited); a kind rig no longer knows is shown as judged."""
+    kind = KINDS.get(str(s.get("kind")))
+    return kind is None or kind.judged
+
+
+def _step_row(s: Mapping[str, Any]) -> list[object]:
+    value, u = _value_cells(s)
+    judged = _judged(s)
+    return [
+        s["position"],
+        s["step_id"],
+        s["title"],
+        value,
+        s["unit"],
+        "" if _answered(s) else num(s["low"]),
+        num(s["high"]),
+        num(s["predicted"]),
+        u,
+        num(s["coverage_k"], 3) if judged else "",
+        s["decision_rule"] if judged else "",
+        _ratio(s["tur"]),
+        s["verdict"],
+        s["note"],
     ]
+
+
+def _steps(steps: list[Mapping[str, Any]]) -> str:
+    rows = [_step_row(s) for s in steps]
     headers = [
         "#",
         "step",
@@ -249,20 +278,34 @@ def _raw_expanded_u(readings: Sequence[Mapping[str, Any]], step_id: str, ends: s
 
 
 def _margins(steps: list[Mapping[str, Any]]) -> str:
-    labels, positions, half = [], [], []
+    """Each step with both limits where its value lies between them; a reading that overloaded
+    the meter (a failed step, often the one that matters) at the plot's edge, marked so, and a
+    step with no reading at all named under the plot with its verdict."""
+    labels, positions, half, unplotted = [], [], [], []
     for s in steps:
         low, high, value = s["low"], s["high"], s["value"]
-        if low is None or high is None or value is None or high <= low:
+        if low is None or high is None or high <= low:
             continue
         width = high - low
+        if value is None or not math.isfinite(value):
+            if s.get("value_text") != "overload":
+                unplotted.append(f"{s['step_id']} ({s.get('value_text') or 'no reading'}, "
+                                 f"{s['verdict']})")  # fmt: skip
+                continue
+            value = math.inf  # over the meter's range: no number, beyond any limit shown
         labels.append(str(s["step_id"]))
         positions.append((value - low) / width)
         half.append((s["expanded_u"] or 0.0) / width)
+    missing = f"Not drawn, no value: {', '.join(unplotted)}." if unplotted else ""
     if not labels:
-        return '<p class="note">No step has both limits and a value: no margin plot.</p>'
+        none = f"No step has both limits and a value: no margin plot. {missing}".strip()
+        return f'<p class="note">{esc(none)}</p>'
+    caption = (
+        "Each step's value within its limits (green band), with its expanded uncertainty; a "
+        "reading over the meter's range at the right edge, marked overload."
+    )
     return "<h2>Margins</h2>" + figure(
-        margin_chart(labels, positions, half),
-        "Each step's value within its limits (green band), with its expanded uncertainty.",
+        margin_chart(labels, positions, half), f"{caption} {missing}".strip()
     )
 
 

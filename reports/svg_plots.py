@@ -37,9 +37,14 @@ def _figure(width_in: float = 7.0, height_in: float = 3.0) -> Figure:
     return Figure(figsize=(width_in, height_in), dpi=96, layout="constrained")
 
 
+OVERLOAD_X = 1.55
+"""Where a margin chart draws a reading over the meter's range: its right edge."""
+
+
 def margin_chart(labels: Sequence[str], positions: Sequence[float], half_u: Sequence[float]) -> str:
     """Each step's value as a fraction of its limit band (0 = low limit, 1 = high limit), with
-    its expanded uncertainty as an error bar; outside 0..1 is outside the limits."""
+    its expanded uncertainty as an error bar; outside 0..1 is outside the limits.  A position
+    that is not finite (an overload: no number) is drawn at the right edge, marked overload."""
     n = max(1, len(labels))
     fig = _figure(7.0, 0.6 + 0.3 * n)
     ax = fig.add_subplot()
@@ -47,8 +52,16 @@ def margin_chart(labels: Sequence[str], positions: Sequence[float], half_u: Sequ
     ax.axvspan(0.0, 1.0, color="#d7f0d7", zorder=0)
     ax.axvline(0.0, color=LIMIT_COLOUR)
     ax.axvline(1.0, color=LIMIT_COLOUR)
-    shown = [max(-0.5, min(1.5, p)) for p in positions]
-    ax.errorbar(shown, ys, xerr=list(half_u), fmt="o", color=DATA_COLOUR, capsize=3)
+    drawn = [(y, p, u) for y, p, u in zip(ys, positions, half_u, strict=True) if math.isfinite(p)]
+    if drawn:
+        shown = [max(-0.5, min(1.5, p)) for _, p, _ in drawn]
+        ax.errorbar(shown, [y for y, _, _ in drawn], xerr=[u for _, _, u in drawn], fmt="o",
+                    color=DATA_COLOUR, capsize=3)  # fmt: skip
+    over = [y for y, p in zip(ys, positions, strict=True) if not math.isfinite(p)]
+    for y in over:  # no number to place: at the edge, beyond every limit, and said so
+        ax.plot([OVERLOAD_X], [y], marker=">", ms=9, color=LIMIT_COLOUR, clip_on=False)
+        ax.annotate("overload", (OVERLOAD_X, y), xytext=(-8, 0), textcoords="offset points",
+                    ha="right", va="center", color=LIMIT_COLOUR)  # fmt: skip
     ax.set_yticks(ys, list(labels))
     ax.set_xlim(-0.55, 1.55)
     ax.set_xlabel("position in the limit band (0 low limit, 1 high limit; clipped at -0.5, 1.5)")
