@@ -20,6 +20,7 @@ from rig.commands._store_args import ArgumentProblem
 from rig.errors import ConfigError, Problem, RigError
 from rig.events import NOT_READINGS
 from rig.judge.decision import Verdict, tur_text
+from rig.quantity import format_quantity
 from rig.signed_values import join_signed_values, value_options
 
 if TYPE_CHECKING:
@@ -557,7 +558,12 @@ def model_tur_note(found: ModelTur, unit_file: str) -> str:
         else f"at {worst.temp_c:g} degC, the ambient of {unit_file}"
     )
     tail = f" ({'; '.join(others)})" if others else ""
-    return f"{found.step_id}: limits around the prediction: U and TUR {where}{tail}"
+    stated = (
+        ""
+        if found.pressure_pa is None
+        else f" at its stated pressure, {format_quantity(found.pressure_pa, 'Pa')}"
+    )
+    return f"{found.step_id}: limits around the prediction{stated}: U and TUR {where}{tail}"
 
 
 def _estimate(

@@ -129,3 +129,72 @@ def test_rig_limits_gives_the_proposed_ntc_tolerance_its_tur_and_warns_when_low(
             if low
             else []
         )
+
+
+# --- a ratiometric step, judged around its transfer at the pressure it states -----------------
+
+PRESSURE_SEQUENCE = SEQUENCES / "pressure-circuit-check.toml"
+PRESSURE_UNIT = SEQUENCES / "units" / "pressure-circuit.toml"
+FRACTION_STEP = "output-fraction"
+
+
+def hand_ratiometric(tol_pts: float, v_sup: float = 5.0) -> tuple[float, float]:
+    """(U in % of supply, TUR) of the shipped pressure check's output-fraction step, by hand.
+
+    - the transfer: fraction = 0.1 + 0.8 p / 500 kPa (the step's fraction_low/high over its
+      range), at the stated 101.3 kPa: 26.208 % of supply; the window that ± ``tol_pts``;
+    - the supply read at the controller's stated 5.0 V (the sensor's few mA drop microvolts in
+      the harness: well inside the 1e-4 the check allows), the output at the window's upper
+      limit of it, both on the 10 V range (over 1.2 V, the 1 V range's top);
+    - the meter's u of each: (0.0035 % of reading + 0.0005 % of range) / sqrt(3), the virtual
+      station's DCV figures read as a rectangular distribution (GUM 4.3.7);
+    - u of the ratio r = Vout / Vsup: sqrt((u_out / Vsup)^2 + (Vout u_sup / Vsup^2)^2), the law
+      of propagation with the two readings uncorrelated (JCGM 100:2008, 5.1.2), in % x 100;
+    - U = 2 u; TUR = span / (2 U) (common practice, no published source).
+    """
+    predicted = (0.1 + 0.8 * 101.3 / 500.0) * 100.0
+    v_out = (predicted + tol_pts) / 100.0 * v_sup
+    u_out = (0.0035e-2 * v_out + 0.0005e-2 * 10.0) / math.sqrt(3)
+    u_sup = (0.0035e-2 * v_sup + 0.0005e-2 * 10.0) / math.sqrt(3)
+    u_ratio = math.hypot(u_out / v_sup, v_out * u_sup / v_sup**2) * 100.0
+    expanded = 2.0 * u_ratio
+    return expanded, (2.0 * tol_pts) / (2.0 * expanded)
+
+
+@pytest.mark.parametrize("tol_pts", [2.0, 0.25])
+def test_ratiometric_tur_at_its_stated_pressure_matches_the_hand_calculation(
+    tmp_path: Path, tol_pts: float
+) -> None:
+    unit = load_unit(PRESSURE_UNIT)
+    plan = build_plan(load_sequence(PRESSURE_SEQUENCE), offline_demo_station("tur", tmp_path))
+    found = model_step_turs(plan, unit, {FRACTION_STEP: ("abs", tol_pts)})[FRACTION_STEP]
+    assert found.pressure_pa == pytest.approx(101_300.0)
+    assert [at.temp_c for at in found.at] == [15.0, 35.0]
+    expanded, tur = hand_ratiometric(tol_pts)
+    for at in found.at:
+        assert at.expanded == pytest.approx(expanded, rel=1e-4)
+        assert at.tur == pytest.approx(tur, rel=1e-4)
+
+
+def test_rig_check_with_a_unit_shows_a_ratiometric_steps_tur_at_its_stated_pressure(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    station = offline_demo_station("tur", tmp_path)
+    args = ["check", str(PRESSURE_SEQUENCE), "--station", str(station.path)]
+    assert main([*args, "--unit", str(PRESSURE_UNIT)]) == 0
+    out = capsys.readouterr().out
+    row = next(line for line in out.splitlines() if line.startswith(FRACTION_STEP))
+    expanded, tur = hand_ratiometric(2.0)  # the step's own 2 %: 734.5:1 by hand
+    u_cell, unit_cell, tur_cell = row.split()[-3:]
+    assert (float(u_cell), unit_cell) == (pytest.approx(expanded, rel=1e-3), "%")
+    assert tur_cell.endswith(":1") and float(tur_cell[:-2]) == pytest.approx(tur, abs=1.0)
+    assert (
+        f"{FRACTION_STEP}: limits around the prediction at its stated pressure, 101.3 kPa: U and "
+        f"TUR at "
+    ) in out
+    # without a unit file the supply is unknown: no TUR, as before
+    assert main(args) == 0
+    row = next(
+        line for line in capsys.readouterr().out.splitlines() if line.startswith(FRACTION_STEP)
+    )
+    assert row.split()[-2:] == ["-", "-"]

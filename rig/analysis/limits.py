@@ -29,7 +29,7 @@ import numpy as np
 import numpy.typing as npt
 
 from rig.analysis.fault_set import DETECTING, single_faults
-from rig.analysis.model_tur import model_step_turs
+from rig.analysis.model_tur import MODEL_KINDS, model_step_turs
 from rig.analysis.montecarlo import (
     FloatArray,
     MonteCarloResult,
@@ -378,12 +378,13 @@ def proposed_tur(plan: Plan, proposal: Proposal) -> float | None:
 
 
 def _model_turs(plan: Plan, unit: UnitModel, proposals: Sequence[Proposal]) -> None:
-    """The TUR of each proposed tolerance around an ntc step's prediction, at the worst end of
-    the unit's temperature range, as ``rig check --unit`` shows it once pasted."""
+    """The TUR of each proposed tolerance around an ntc or ratiometric step's prediction, at the
+    worst end of the unit's temperature range, as ``rig check --unit`` shows it once pasted (a
+    ratiometric tolerance is in percentage points of its supply, whatever its tag)."""
     tolerances = {
         p.step_id: ("pct" if p.figure_unit == "%" else "abs", float(p.limits.high or 0.0))
         for p in proposals
-        if p.form == "tolerance" and p.kind == "ntc"
+        if p.form == "tolerance" and p.kind in MODEL_KINDS
     }
     if not tolerances:
         return

@@ -1,4 +1,4 @@
-"""The test uncertainty ratio of an ntc step, whose limits move with the prediction.
+"""The test uncertainty ratio of an ntc or ratiometric step, whose limits move with the prediction.
 
 An ntc step's limits are its prediction ± its tolerance, and the prediction follows the measured
 temperature, so the file alone gives no TUR (``rig check`` shows ``-``).  With a unit file the
@@ -9,6 +9,12 @@ and meter's part of the temperature, the divider reference's).  The meter's part
 upper limit on the range the plan holds, as ``rig check`` does for fixed limits
 (``uncertainty_at_limit``).  The worst end is the one to quote.
 
+A ratiometric step is judged around the transfer at the pressure it states, in % of its supply:
+its window is that prediction ± its tolerance, and its U is the meter's uncertainty of both its
+readings, output and supply, propagated into the ratio as the step does (``u_quotient``).  The
+supply reading is predicted on the solver at each end of the range, and the output is taken at
+the window's upper limit of that supply, as for an ntc step.
+
 Pure computation: the caller hands in the plan and the unit.
 """
 
@@ -18,13 +24,19 @@ import math
 from collections.abc import Mapping
 from dataclasses import dataclass, replace
 
-from rig.analysis.predict import SequencePredictor, StepPrediction
+from drivers.base import MeterFunction
+from rig.analysis.predict import PredictedReading, SequencePredictor, StepPrediction
 from rig.config.unit_file import UnitModel
-from rig.judge.decision import COVERAGE_K, test_uncertainty_ratio
+from rig.judge.decision import COVERAGE_K, Limits, test_uncertainty_ratio
+from rig.judge.propagate import u_quotient
+from rig.models.ratiometric import Ratiometric
 from rig.plan import Plan, PlannedStep
 from rig.step_judging import autorange_estimate, reading_u
 from rig.steps import KINDS
 from rig.steps.model_steps import ntc_window
+
+MODEL_KINDS = ("ntc", "ratiometric")
+"""The step kinds judged around a prediction that a unit file makes known before a run."""
 
 Tolerance = tuple[str, float]
 """A step's tolerance as the sequence reader keeps it: ("pct", 5.0) or ("abs", 0.1)."""
@@ -46,6 +58,8 @@ class ModelTur:
     step_id: str
     unit: str
     at: tuple[TurAt, ...]
+    pressure_pa: float | None = None
+    """The pressure a ratiometric step states, its prediction's input; None for an ntc step."""
 
     @property
     def worst(self) -> TurAt:
@@ -55,26 +69,68 @@ class ModelTur:
 def model_step_turs(
     plan: Plan, unit: UnitModel, tolerances: Mapping[str, Tolerance] | None = None
 ) -> dict[str, ModelTur]:
-    """The TUR of every ntc step of ``plan`` at the ends of ``unit``'s temperature range, with
-    its own tolerance or the one ``tolerances`` gives for its id (a proposal, before it is
-    pasted); a step the prediction gives no usable value for is left out."""
-    ntc = [p for p in plan.steps if p.spec.kind == "ntc" and p.spec.params.get("model")]
-    if not ntc:
+    """The TUR of every ntc and ratiometric step of ``plan`` at the ends of ``unit``'s
+    temperature range, with its own tolerance or the one ``tolerances`` gives for its id (a
+    proposal, before it is pasted); a step the prediction gives no usable value for is left
+    out."""
+    model = [p for p in plan.steps if p.spec.kind in MODEL_KINDS and p.spec.params.get("model")]
+    if not model:
         return {}
     temps = unit.ambient_range_c or (unit.ambient_c,)
-    found: dict[str, list[TurAt]] = {p.spec.id: [] for p in ntc}
+    found: dict[str, list[TurAt]] = {p.spec.id: [] for p in model}
     for temp_c in temps:
-        predicted = SequencePredictor(plan, replace(unit, ambient_c=temp_c)).predict()
-        by_id = {p.step_id: p for p in predicted}
-        for planned in ntc:
+        predicted = SequencePredictor(plan, replace(unit, ambient_c=temp_c)).run()
+        by_id = {p.step_id: p for p in predicted.steps}
+        supply = {r.step_id: r for r in predicted.readings if r.role == "supply"}
+        for planned in model:
             tolerance = (tolerances or {}).get(planned.spec.id)
-            at = _tur_at(plan, planned, by_id, temp_c, tolerance)
+            if planned.spec.kind == "ratiometric":
+                at = _ratiometric_tur_at(
+                    plan, planned, supply.get(planned.spec.id), temp_c, tolerance
+                )
+            else:
+                at = _tur_at(plan, planned, by_id, temp_c, tolerance)
             if at is not None:
                 found[planned.spec.id].append(at)
-    units = {p.spec.id: str(p.spec.params["unit"]) for p in ntc}
-    return {
-        step_id: ModelTur(step_id, units[step_id], tuple(at)) for step_id, at in found.items() if at
+    units = {p.spec.id: str(p.spec.params.get("unit", KINDS[p.spec.kind].unit)) for p in model}
+    pressures = {
+        p.spec.id: float(p.spec.params["pressure_pa"])
+        for p in model
+        if p.spec.kind == "ratiometric"
     }
+    return {
+        step_id: ModelTur(step_id, units[step_id], tuple(at), pressures.get(step_id))
+        for step_id, at in found.items()
+        if at
+    }
+
+
+def _ratiometric_tur_at(
+    plan: Plan,
+    planned: PlannedStep,
+    supply: PredictedReading | None,
+    temp_c: float,
+    tolerance: Tolerance | None,
+) -> TurAt | None:
+    """A ratiometric step's U and TUR with the supply its reading is predicted at: the window
+    is the transfer at the stated pressure ± the tolerance (percentage points), the output is
+    read at its upper limit on the range the plan holds, the supply autoranged, as a run does."""
+    spec = planned.spec
+    tol = tolerance[1] if tolerance is not None else spec.params.get("tolerance_pct")
+    if tol is None or supply is None or not (math.isfinite(supply.value) and supply.value > 0):
+        return None
+    model: Ratiometric = spec.params["model"]
+    predicted = float(model.fraction_at(float(spec.params["pressure_pa"]))) * 100.0
+    limits = Limits(predicted - float(tol), predicted + float(tol))
+    assert limits.high is not None
+    v_out = limits.high / 100.0 * supply.value
+    station, function = plan.station, MeterFunction.DC_VOLTS
+    u_out = reading_u(
+        station, function, v_out, planned.range_ or autorange_estimate(station, function, v_out)
+    )
+    expanded = COVERAGE_K * 100.0 * u_quotient(v_out, supply.value, u_out, supply.u_std)
+    tur = test_uncertainty_ratio(limits, expanded) if math.isfinite(expanded) else None
+    return None if tur is None else TurAt(temp_c, expanded, tur)
 
 
 def _tur_at(

@@ -212,8 +212,8 @@ def _print(
         out.line("no limits proposed: no studied step takes limits from this study")
     out.line(
         "(tolerance steps show their deviation from the step's prediction; TUR is what rig check "
-        "shows once the proposed limits are pasted, for an ntc step at the worst end of the "
-        "unit's temperature range)"
+        "shows once the proposed limits are pasted, for an ntc or ratiometric step at the worst "
+        "end of the unit's temperature range)"
     )
     out.line()
     studied = " of the studied steps" if study.not_studied else ""
