@@ -16,7 +16,7 @@ from typing import Any
 from rig.config.station import Station
 from rig.events import prompt_answer
 from rig.planned_steps import recorded_steps, unmeasured_steps
-from rig.screening import is_screen, screen_decision
+from rig.screening import answered_no, is_screen, screen_decision
 from rig.store import ResultStore
 
 STEP_COLUMNS = (
@@ -121,10 +121,12 @@ def run_screen_decision(
     """The screen's decision on the unit from this run (``rig.screening``, as ``rig stats``
     counts it), or None where the sequence proves a harness: derived, never stored.  The
     sequence's other runs count too, so a proof ended before its proof step is still one."""
+    steps = list(steps)
     units = {str(s["unit"]) for s in steps} | store.sequence_units(str(run["sequence_name"]))
     if not is_screen(units):
         return None
-    found = screen_decision(str(run["status"]), run["verdict"])
+    no = answered_no((str(s["unit"]), str(s["verdict"])) for s in steps)
+    found = screen_decision(str(run["status"]), run["verdict"], answered_no=no)
     return {"decision": found.word, "meaning": found.meaning}
 
 

@@ -610,13 +610,14 @@ def _screen_decision(plan: Plan, summary: RunSummary) -> ScreenDecision | None:
     """The screen's decision on the unit from this run (``rig.screening``, the rule of
     ``rig stats``), or None where the sequence proves a harness; from its planned steps too, so
     a proof ended before its proof step is still one."""
-    from rig.screening import is_screen, screen_decision
+    from rig.screening import answered_no, is_screen, screen_decision
     from rig.steps import KINDS
 
     units = {KINDS[p.spec.kind].unit for p in plan.steps}
     if not is_screen(units):
         return None
-    return screen_decision(summary.status, summary.verdict.value)
+    no = answered_no((r.unit, r.verdict.value) for r in summary.results)
+    return screen_decision(summary.status, summary.verdict.value, answered_no=no)
 
 
 def serial_option_problem(serial: str) -> str:

@@ -28,6 +28,13 @@ MEANINGS = {
     ),
     UNDECIDED: "the run did not complete, or a step could not measure: run the unit again",
 }
+ANSWERED_NO_MEANING = (
+    "an operator answered no to a question of the sequence: the readings do not decide; settle "
+    "what it asked, and run the unit again"
+)
+"""The meaning of ``UNDECIDED`` for a run that went to its end with a question answered no."""
+ANSWER_UNIT = ""
+"""The unit a prompt's step records (its answer, 1 or 0): a failed one is an operator's no."""
 
 _BY_VERDICT = {
     "fail": CONFIRMED,
@@ -47,17 +54,29 @@ class ScreenDecision:
     meaning: str
 
 
-def decision_word(status: str, verdict: str | None) -> str:
-    """The screen's decision on a unit from the status and verdict of its run."""
-    if status != "complete":
+def decision_word(status: str, verdict: str | None, *, answered_no: bool = False) -> str:
+    """The screen's decision on a unit from the status and verdict of its run.  A run in which
+    an operator answered no (``answered_no``: a prompt's step failed) decides nothing: the
+    question set the unit up or asked what the bench cannot see, and a no may have failed the
+    run, or left its readings meaningless."""
+    if status != "complete" or answered_no:
         return UNDECIDED
     return _BY_VERDICT.get(verdict or "", UNDECIDED)
 
 
-def screen_decision(status: str, verdict: str | None) -> ScreenDecision:
+def screen_decision(
+    status: str, verdict: str | None, *, answered_no: bool = False
+) -> ScreenDecision:
     """``decision_word`` with its one-line meaning, for a run's record."""
-    word = decision_word(status, verdict)
+    word = decision_word(status, verdict, answered_no=answered_no)
+    if word == UNDECIDED and answered_no and status == "complete":
+        return ScreenDecision(word, ANSWERED_NO_MEANING)
     return ScreenDecision(word, MEANINGS[word])
+
+
+def answered_no(steps: Iterable[tuple[str, str]]) -> bool:
+    """Whether an operator answered no in a run, from its steps' (unit, verdict)."""
+    return any(unit == ANSWER_UNIT and verdict == "fail" for unit, verdict in steps)
 
 
 def is_screen(step_units: Iterable[str]) -> bool:
@@ -70,6 +89,7 @@ STOPPED = "stopped by the operator"
 NO_ANSWER = "a question got no answer"
 INSTRUMENT = "instrument fault"
 STEP_ENDED = "a step could not measure, or ended the run"
+ANSWERED_NO = "an operator answered no"
 CONFIGURATION = "a sequence or station setting to correct"
 CONTROLLER_STOPPED = "the controller stopped mid-run"
 UNDER_WAY = "still running, or its controller stopped"
@@ -78,7 +98,7 @@ OTHER = "other (see the run's reason)"
 _CAUSE_BY_CODE: dict[str, str] = {
     EndCause.OPERATOR_STOP: STOPPED,
     EndCause.NO_ANSWER: NO_ANSWER,
-    EndCause.DECLINED: STEP_ENDED,
+    EndCause.DECLINED: ANSWERED_NO,
     EndCause.INSTRUMENT: INSTRUMENT,
     EndCause.STEP_ERROR: STEP_ENDED,
     EndCause.CONFIGURATION: CONFIGURATION,
@@ -97,11 +117,15 @@ _CAUSE_BY_REASON = (
 for runs recorded before schema 6, which stored no cause."""
 
 
-def undecided_cause(status: str, reason: str, code: str | None = None) -> str:
+def undecided_cause(
+    status: str, reason: str, code: str | None = None, *, answered_no: bool = False
+) -> str:
     """Why an undecided run decided nothing, in a few words: a QA tally keeps these runs apart
     from the part failures, since they say nothing about the part.  ``code`` is the cause stored
     with the run (``rig.end_cause``); None for a run recorded before schema 6, read from the
-    start of its reason instead."""
+    start of its reason instead.  ``answered_no``: an operator answered a question no."""
+    if status == "complete" and answered_no:
+        return ANSWERED_NO
     if status == "incomplete":
         return CONTROLLER_STOPPED
     if status == "running":

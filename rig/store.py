@@ -576,12 +576,18 @@ class ResultStore:
     # --- bulk reads for statistics (rig.stats.from_store); plain rows, portable SQL ----------
 
     def run_rows(self, where: RunFilter) -> list[Any]:
-        """(id, serial, sequence_name, started_at, status, verdict, reason, end_cause, claim) of
-        every run the filter matches, oldest first."""
+        """(id, serial, sequence_name, started_at, status, verdict, reason, end_cause, claim,
+        answered_no) of every run the filter matches, oldest first; ``answered_no`` is 1 where an
+        operator answered a question no (a prompt's step failed), else 0."""
         sql, params = _run_where(where)
+        answered = (
+            "CASE WHEN EXISTS (SELECT 1 FROM steps s WHERE s.run_id = r.id AND s.unit = ''"
+            " AND s.verdict = 'fail') THEN 1 ELSE 0 END"
+        )
         return self._rows(
             "SELECT r.id, r.serial, r.sequence_name, r.started_at, r.status, r.verdict, r.reason,"
-            f" r.end_cause, r.claim FROM runs r WHERE {sql} ORDER BY r.started_at, r.id",
+            f" r.end_cause, r.claim, {answered} FROM runs r WHERE {sql}"
+            " ORDER BY r.started_at, r.id",
             params,
         )
 

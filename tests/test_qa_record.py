@@ -269,7 +269,7 @@ def test_a_run_that_decided_nothing_stores_why_and_the_tally_reads_it(
         store.close()
     assert sorted(undecided, key=lambda row: row["cause"]) == [
         {"cause": "a question got no answer", "runs": 1},
-        {"cause": "a step could not measure, or ended the run", "runs": 1},
+        {"cause": "an operator answered no", "runs": 1},  # no step failed to measure
     ]
 
 

@@ -127,3 +127,34 @@ def test_a_harness_proof_states_no_screen_decision(
     assert json.loads(capsys.readouterr().out)["screen_decision"] is None
     assert main(base) == 0
     assert "Screen decision" not in capsys.readouterr().out
+
+
+def test_a_no_to_the_set_up_question_decides_nothing_and_fails_no_part(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str], monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """A good sender whose placing question was answered no: the prompt's step fails (its
+    default), every reading passes.  An operator's answer is no reading beyond any uncertainty
+    (ILAC-G8:09/2019 decides on measurements), so the screen decides nothing, and the tally
+    counts no part failure: the run is listed apart, as an operator's no."""
+    with shipped_bench("ntc-sender", (), folder=tmp_path) as (_, station):
+        monkeypatch.setattr("sys.stdin", io.StringIO("n\n"))
+        args = ["run", SCREEN, "--station", str(station.path), "--serial", "N-1"]
+        assert main(args) == 1  # the run's verdict is the prompt's fail, as before
+        printed = capsys.readouterr().out
+        (line,) = [x for x in printed.splitlines() if x.startswith("screen decision:")]
+        assert line.startswith("screen decision: undecided (an operator answered no")
+        report = ["report", "1", "--station", str(station.path), "--format", "json", "--out", "-"]
+        assert main(report) == 0
+        record = json.loads(capsys.readouterr().out)
+        assert record["screen_decision"]["decision"] == "undecided"
+        store = ResultStore(station.store_path)
+        try:
+            stats = shop_stats(store, RunFilter())
+        finally:
+            store.close()
+    screen = stats.screens.iloc[0]
+    assert (screen["confirmed_failure"], screen["undecided"]) == (0, 1)
+    assert stats.pareto_steps.empty or "place" not in " ".join(stats.pareto_steps["step"])
+    assert stats.undecided.to_dict(orient="records") == [
+        {"cause": "an operator answered no", "runs": 1}
+    ]

@@ -81,7 +81,7 @@ def test_a_screen_confirms_only_beyond_the_uncertainty_and_calls_conditional_inc
         (5, "E", "screen", "2026-12-01", "aborted", "error", "instrument fault: DMM gone"),
         (6, "B", "screen", "2026-12-02", "complete", "fail", ""),  # B retested: confirmed now
     ]
-    rows = [(*row, None, "") for row in rows]  # no end cause stored, no claim
+    rows = [(*row, None, "", 0) for row in rows]  # no end cause stored, no claim, no "no" answer
     screen = screen_outcomes(units_frame(runs_frame(rows))).iloc[0]
     assert (screen["units"], screen["confirmed_failure"], screen["no_fault_found"]) == (5, 2, 1)
     assert (screen["inconclusive"], screen["undecided"]) == (1, 1)

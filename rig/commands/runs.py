@@ -87,7 +87,7 @@ def _own_store(args: argparse.Namespace) -> ResultStore:
 
 def _row(row: Any) -> dict[str, Any]:
     """One run as a line, from ``ResultStore.run_rows``."""
-    run_id, serial, sequence, started, status, verdict, _, _, claim = row[:9]
+    run_id, serial, sequence, started, status, verdict, _, _, claim, _ = row[:10]
     return {
         "run": int(run_id),
         "serial": serial,

@@ -17,7 +17,7 @@ from typing import Any
 import pandas as pd
 
 from rig.events import NOT_READINGS
-from rig.screening import UNDECIDED, decision_word, is_screen, undecided_cause
+from rig.screening import ANSWER_UNIT, UNDECIDED, decision_word, is_screen, undecided_cause
 from rig.stats.capability import (
     Capability,
     capability,
@@ -432,8 +432,9 @@ def shop_stats(
         units_of.setdefault(group.sequence, set()).add(group.unit)
     harness_proofs = {sequence for sequence, units in units_of.items() if not is_screen(units)}
     by_step = Counter[str]()
-    for group in groups:
-        by_step[f"{group.sequence} / {group.step_id}"] += group.failures
+    for group in groups:  # an operator's no is no failure of the part
+        if group.unit != ANSWER_UNIT:
+            by_step[f"{group.sequence} / {group.step_id}"] += group.failures
     if find_fault is None:
         faults, note = None, "no diagnosis is available (give --station, with the unit files)"
     else:
@@ -464,11 +465,24 @@ def undecided_causes(runs: pd.DataFrame) -> pd.DataFrame:
     """(cause, runs) of the runs that decided nothing, most first: as the screen rule has it,
     a run that did not complete or could not measure (``rig.screening``)."""
     causes = Counter(
-        undecided_cause(str(status), str(reason or ""), code if isinstance(code, str) else None)
-        for status, verdict, reason, code in zip(
-            runs["status"], runs["verdict"], runs["reason"], runs["end_cause"], strict=True
+        undecided_cause(
+            str(status),
+            str(reason or ""),
+            code if isinstance(code, str) else None,
+            answered_no=bool(no),
         )
-        if decision_word(str(status), None if verdict is None else str(verdict)) == UNDECIDED
+        for status, verdict, reason, code, no in zip(
+            runs["status"],
+            runs["verdict"],
+            runs["reason"],
+            runs["end_cause"],
+            runs["answered_no"],
+            strict=True,
+        )
+        if decision_word(
+            str(status), None if verdict is None else str(verdict), answered_no=bool(no)
+        )
+        == UNDECIDED
     )
     items = sorted(causes.items(), key=lambda kv: (-kv[1], kv[0]))
     return pd.DataFrame(

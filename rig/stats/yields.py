@@ -25,6 +25,7 @@ RUN_COLUMNS = (
     "reason",
     "end_cause",
     "claim",
+    "answered_no",
 )
 PASSING = ("pass", "conditional pass")
 FAILING = ("fail", "conditional fail")
@@ -35,7 +36,11 @@ def runs_frame(rows: Sequence[Sequence[object]]) -> pd.DataFrame:
     frame = pd.DataFrame.from_records([tuple(r) for r in rows], columns=list(RUN_COLUMNS))
     complete = frame["status"].to_numpy() == "complete"
     frame["passed"] = complete & frame["verdict"].isin(PASSING).to_numpy()
-    frame["failed"] = complete & frame["verdict"].isin(FAILING).to_numpy()
+    frame["answered_no"] = frame["answered_no"].astype(bool)
+    # a run with a question answered no decides nothing about the part (``rig.screening``)
+    frame["failed"] = (
+        complete & frame["verdict"].isin(FAILING).to_numpy() & ~frame["answered_no"].to_numpy()
+    )
     frame["day"] = frame["started_at"].astype(str).str.slice(0, 10)
     return frame
 
@@ -57,9 +62,14 @@ def units_frame(runs: pd.DataFrame) -> pd.DataFrame:
             "last_passed": runs["passed"].to_numpy()[last],
             "last_failed": runs["failed"].to_numpy()[last],
             "last_decision": [
-                decision_word(str(status), None if verdict is None else str(verdict))
-                for status, verdict in zip(
-                    runs["status"].to_numpy()[last], runs["verdict"].to_numpy()[last], strict=True
+                decision_word(
+                    str(status), None if verdict is None else str(verdict), answered_no=bool(no)
+                )
+                for status, verdict, no in zip(
+                    runs["status"].to_numpy()[last],
+                    runs["verdict"].to_numpy()[last],
+                    runs["answered_no"].to_numpy()[last],
+                    strict=True,
                 )
             ],
         }
