@@ -314,3 +314,19 @@ def test_the_good_units_score_is_its_marginal_likelihood() -> None:
     expected = multivariate_normal(np.zeros(6), d + spread @ spread.T).logpdf(residual)
     expected -= multivariate_normal(np.zeros(6), d).logpdf(np.zeros(6))
     assert -chi2 / 2 + occam == pytest.approx(expected, rel=1e-9)
+
+
+def test_hypotheses_are_ranked_by_their_groups_summed_probability(tmp_path: Path) -> None:
+    # a passing sender 3.5 % off its curve: a drift and a group of faults the readings cannot
+    # tell apart compete; whatever leads, the list must be in order of probability (a ranking,
+    # common practice, no published source)
+    unit = load_unit(SEQUENCES / "units" / "ntc-sender.toml")
+    with shipped_bench("ntc-sender", ("drift:sender=-3.5%",), folder=tmp_path) as (_, station):
+        plan = shipped_plan("ntc-sender-screen", station)
+        store = ResultStore(tmp_path / "runs.sqlite")
+        run = run_plan(plan, "SN-R", ask=lambda t: True, store=store)
+        found = diagnose_run(store, run.run_id, unit, plan)
+        store.close()
+    probabilities = [h.probability for h in found.hypotheses]
+    assert len(probabilities) >= 2
+    assert probabilities == sorted(probabilities, reverse=True), found.hypotheses[:3]

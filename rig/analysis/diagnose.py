@@ -217,6 +217,9 @@ class Diagnoser:
         probs = np.exp(logs - logs.max())
         probs /= probs.sum()
         groups = _group(scored, list(probs), u, np.array(ranges))
+        # ranked by each group's summed probability: a group of faults the readings cannot
+        # tell apart may outweigh a likelier single hypothesis
+        groups.sort(key=lambda g: -sum(p for _, p in g))
         hypotheses = [self._hypothesis(g) for g in groups[:top]]
         # the top two: within the leading group when this sequence cannot split it
         leaders = [item for item, _ in groups[0][:2]] if len(groups[0]) > 1 else []
