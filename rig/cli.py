@@ -799,7 +799,11 @@ def cmd_sim(args: argparse.Namespace, out: Output) -> int:
         supply_port=args.supply_port,
     )
     endpoints = bench.start()
-    control = ControlServer(bench, args.control_port)
+    try:
+        control = ControlServer(bench, args.control_port)
+    except RigError:
+        bench.stop()  # nothing may stay listening after a refusal
+        raise
     try:
         control.start()
         station = bench.write_station(station_out, name=f"virtual-{unit.name}")

@@ -389,3 +389,19 @@ def test_every_option_that_takes_a_value_is_known_to_the_joining() -> None:
     found = value_options(_parser())
     assert {"--contact-allowance", "--ambient", "--isolation", "--station"} <= found
     assert "--json" not in found and "--verbose" not in found
+
+
+@pytest.mark.parametrize("option", ["--control-port", "--dmm-port"])
+def test_sim_on_a_port_in_use_says_so_and_leaves_nothing_listening(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str], option: str
+) -> None:
+    import socket
+
+    with socket.create_server(("127.0.0.1", 0)) as taken:
+        port = taken.getsockname()[1]
+        unit = str(SEQUENCES / "units" / "ntc-sender.toml")
+        args = ["sim", "--unit", unit, "--station-out", str(tmp_path / "s.toml"), option, str(port)]
+        code = main(args)
+    err = capsys.readouterr().err
+    assert code == EXIT_ABORTED and "Traceback" not in err
+    assert f"cannot listen on 127.0.0.1:{port}" in err

@@ -71,7 +71,10 @@ class ControlServer:
 
     def __init__(self, bench: VirtualBench, port: int = 0) -> None:
         self.bench = bench
-        self._sock = socket.create_server(("127.0.0.1", port))
+        try:
+            self._sock = socket.create_server(("127.0.0.1", port))
+        except OSError as error:
+            raise RigError(f"--control-port: cannot listen on 127.0.0.1:{port}: {error}") from None
         self.port = int(self._sock.getsockname()[1])
         self._stop = threading.Event()
         self._thread = threading.Thread(target=self._serve, name="bench-control", daemon=True)
