@@ -249,13 +249,14 @@ def test_diagnosis_reads_an_element_inside_its_class_as_a_good_unit(tmp_path: Pa
 
 
 def test_stats_sums_a_class_judged_step_in_percent_of_its_tolerance() -> None:
-    """Class B limits at 15, 23 and 35 degC (IEC 60751, by hand above): their width in ohm moves
-    with T, so no offset or ratio holds; the runs make one row, in % of each run's own tolerance,
-    with limits at -100 and 100, and each deviation over its own half-width."""
+    """Class B limits at 15, 23 and 71.5 degC (IEC 60751, by hand above; a room and a hot well):
+    their width in ohm moves with T, 1.7 times over these, so no offset or ratio holds; the runs
+    make one row, in % of each run's own tolerance, with limits at -100 and 100, and each
+    deviation over its own half-width."""
     from rig.stats.from_store import SHARE, model_step_stats
 
     rows = []
-    for temp, off in ((15.0, 0.4), (23.0, -0.8), (35.0, 1.2)):
+    for temp, off in ((15.0, 0.4), (23.0, -0.8), (71.5, 1.2)):
         predicted = pt_r(1000.0, temp)
         half = (0.30 + 0.005 * temp) * pt_slope(1000.0, temp)
         row = (predicted + off, predicted, predicted - half, predicted + half, 0.9, 1, "pass")
@@ -264,7 +265,7 @@ def test_stats_sums_a_class_judged_step_in_percent_of_its_tolerance() -> None:
     assert (found.unit, found.low, found.high, found.n) == (SHARE, -100.0, 100.0, 3)
     shares = [
         off / ((0.30 + 0.005 * t) * pt_slope(1000.0, t)) * 100
-        for t, off in ((15.0, 0.4), (23.0, -0.8), (35.0, 1.2))
+        for t, off in ((15.0, 0.4), (23.0, -0.8), (71.5, 1.2))
     ]
     assert found.mean == pytest.approx(sum(shares) / 3, rel=1e-9)
 

@@ -338,10 +338,11 @@ RELATIVE = "% of prediction"
 SHARE = "% of tolerance"
 """The unit of a model step's deviation where its limits stay centred on the prediction with a
 width that moves with the conditions (an RTD's class): -100 and 100 are the limits."""
-SHARE_SPREAD = 1.5
+SHARE_SPREAD = 4.0
 """How far the widths of one moving tolerance may differ, largest over smallest, before the
-runs are taken as judged by different tolerances (our own choice, no published source: an RTD
-class B's width in ohm changes by some 10 % over a 15 to 35 degC room)."""
+runs are taken as judged by different tolerances (our own choice, no published source): an RTD
+class B's width in ohm (IEC 60751, through the curve's slope) grows some 1.7 times from a 15 degC
+room to a 70 degC well, and 3 times from 0 to 150 degC."""
 
 
 def figure_scale(figure: str, predicted: Any, low: Any, high: Any) -> float | None:
