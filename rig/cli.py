@@ -338,13 +338,16 @@ def _show_unit_warnings(
     unit: UnitModel, fixture: FixtureMap, out: Output, plan: Plan | None = None
 ) -> None:
     """What a unit file allows but likely does not mean (a node that misses its fixture pin),
-    and where the sequence checked with it reads its reference probe with another r0."""
+    and where the sequence checked with it reads its reference probe or an RTD sensor with
+    another r0."""
     from rig.config.unit_nodes import node_warnings
-    from rig.probe_match import probe_r0_warnings
+    from rig.probe_match import probe_r0_warnings, rtd_r0_warnings
 
     for key, message in node_warnings(unit, fixture.pins):
         out.line(f"warning: {unit.problem(key, message)}")
-    for problem in [] if plan is None else probe_r0_warnings(plan.sequence, unit):
+    if plan is None:
+        return
+    for problem in [*probe_r0_warnings(plan.sequence, unit), *rtd_r0_warnings(plan.sequence, unit)]:
         out.line(f"warning: {problem}")
 
 

@@ -285,3 +285,23 @@ def test_stats_of_runs_on_the_bench_give_one_row_for_the_class_judged_step(
     found = json.loads(capsys.readouterr().out)
     rows = [s for s in found["steps"] if s["step_id"] == "element"]
     assert [(r["unit"], r["n"]) for r in rows] == [("% of tolerance", 3)]
+
+
+def test_check_warns_of_an_rtd_step_whose_r0_is_none_of_the_units_sensors(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    """A Pt1000 judged with a Pt100's r0 (the step's default): the range held for R(T) of a
+    Pt100 overloads on the Pt1000, and a good unit fails.  rig check with the unit says so."""
+    unit_path, sequence = _files(tmp_path)
+    unit = load_unit(unit_path)
+    with VirtualBench(unit, load_fixture(unit.fixture_path)) as bench:
+        station = bench.write_station(tmp_path / "station.toml", data_dir=str(tmp_path / "data"))
+        check = ["check", str(sequence), "--station", str(station), "--unit", str(unit_path)]
+        assert main(check) == 0
+        assert "warning" not in capsys.readouterr().out
+        sequence.write_text(sequence.read_text().replace('r0 = "1000 ohm"\n', ""), "utf-8")
+        assert main(check) == 0
+    out = capsys.readouterr().out
+    line = f"{unit_path}:"
+    assert "step element judges an RTD with r0 = 100 ohm" in out
+    assert "[sensors.element] r0 = 1000 ohm at " + line in out
