@@ -305,3 +305,27 @@ def test_check_warns_of_an_rtd_step_whose_r0_is_none_of_the_units_sensors(
     line = f"{unit_path}:"
     assert "step element judges an RTD with r0 = 100 ohm" in out
     assert "[sensors.element] r0 = 1000 ohm at " + line in out
+
+
+@pytest.mark.parametrize("drift", ["-0.5%", "+0.3%"])
+def test_diagnosis_fits_an_rtd_drift_well_under_one_percent(tmp_path: Path, drift: str) -> None:
+    """0.3 % on a Pt1000 at 23 degC is 3.3 ohm, twice class B's 1.61 ohm (by hand above): the run
+    fails, and the diagnosis must offer the drift, not a good unit.  Read 4-wire at the fixture,
+    a lead's series resistance reads as an upward drift, so upward it may share the lead."""
+    from rig.analysis.diagnose import diagnose_run
+    from rig.store import ResultStore
+
+    unit_path, sequence = _files(tmp_path)
+    unit = load_unit(unit_path)
+    faults = parse_faults([f"drift:element={drift}"], unit)
+    with VirtualBench(unit, load_fixture(unit.fixture_path), faults=faults) as bench:
+        station = bench.write_station(tmp_path / "station.toml", data_dir=str(tmp_path / "data"))
+        plan = load_plan(sequence, station)
+        store = ResultStore(tmp_path / "runs.sqlite")
+        run = run_plan(plan, "PT-3", store=store)
+        assert run.verdict.value == "fail"
+        found = diagnose_run(store, run.run_id, unit, plan)
+        store.close()
+    top = found.hypotheses[0]
+    named = [top.spec.split("=")[0], *(s.split("=")[0] for s in top.same_as)]
+    assert top.spec != "none" and "drift:element" in named, found.hypotheses[:3]

@@ -35,7 +35,7 @@ from rig.analysis.good_spread import (
 )
 from rig.analysis.predict import SequencePredictor
 from rig.config.station import Station
-from rig.config.unit_file import UnitModel
+from rig.config.unit_file import RtdSensor, UnitModel
 from rig.errors import InterlockError
 from rig.faults import Fault
 from rig.plan import Plan
@@ -60,6 +60,10 @@ SERIES_RANGE_OHM = (0.05, 1e5)
 """Fitted series resistance: below, a good wire; above, as good as open."""
 DRIFT_RANGE_PCT = (1.0, 90.0)
 """Fitted drift magnitude, either way."""
+RTD_DRIFT_FLOOR_PCT = 0.1
+"""The smallest drift fitted on a platinum RTD: one 0.3 % off its curve (0.8 degC) is well
+outside its IEC 60751 class B tolerance at room temperature (0.415 degC at 23 degC), while a few
+% is the scale of an NTC's tolerance."""
 GRID_POINTS = 41
 ZOOM_POINTS = 9
 ZOOM_LEVELS = 5
@@ -125,7 +129,7 @@ class Diagnoser:
             Candidate(f.kind, f.targets) for f in self.faults if f.kind not in ("series", "drift")
         ]
         self.families = [_Family(Candidate("series", (w,)), 1.0) for w in unit.wires] + [
-            _Family(Candidate("drift", (s,)), sign)
+            _Family(Candidate("drift", (s,)), sign, _drift_floor(unit, s))
             for s in drifting_sensors(unit)
             for sign in (1.0, -1.0)
         ]
@@ -358,10 +362,12 @@ class _Family:
 
     base: Candidate
     sign: float
+    floor: float | None = None
+    """The smallest magnitude fitted, where not the kind's own (``_drift_floor``)."""
 
     def bounds(self) -> tuple[float, float]:
         low, high = SERIES_RANGE_OHM if self.base.kind == "series" else DRIFT_RANGE_PCT
-        return math.log(low), math.log(high)
+        return math.log(low if self.floor is None else self.floor), math.log(high)
 
     def at(self, x: float) -> Candidate:
         return replace(self.base, value=self.sign * math.exp(x))
@@ -382,6 +388,12 @@ class _Family:
     def prior(self) -> float:
         share = 0.5 if self.base.kind == "drift" else 1.0  # drift: half each way
         return PRIOR[self.base.kind] * share
+
+
+def _drift_floor(unit: UnitModel, sensor: str) -> float | None:
+    """``RTD_DRIFT_FLOOR_PCT`` for a platinum RTD, whose class is a fraction of a %; None (the
+    kind's own floor) for other sensors."""
+    return RTD_DRIFT_FLOOR_PCT if isinstance(unit.sensors[sensor], RtdSensor) else None
 
 
 _RECENT: list[tuple[Plan, UnitModel, float, Diagnoser]] = []
