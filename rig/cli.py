@@ -646,7 +646,7 @@ def _answer(question: str, *, to_stderr: bool) -> str:
 
 def cmd_run(args: argparse.Namespace, out: Output) -> int:
     from rig.end_cause import EndCause
-    from rig.engine import StopRequested
+    from rig.engine import RunInterrupted, StopRequested
     from rig.run_admission import operator_problem
     from rig.runner import load_inputs, run_plan
     from rig.stats.study import study_problem
@@ -693,20 +693,24 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
 
     out.show_readings = bool(getattr(args, "readings", False))
     synced: list[SyncReport] = []
-    summary = run_plan(
-        plan,
-        args.serial,
-        operator=args.operator,
-        unit=unit,
-        listener=out.on_event,
-        ask=ask,
-        resume=getattr(args, "resume", None),
-        study_part=args.study_part,
-        study_trial=args.study_trial,
-        on_sync=synced.append,
-        claim=getattr(args, "claim", ""),
-        remark=getattr(args, "remark", ""),
-    )
+    try:
+        summary = run_plan(
+            plan,
+            args.serial,
+            operator=args.operator,
+            unit=unit,
+            listener=out.on_event,
+            ask=ask,
+            resume=getattr(args, "resume", None),
+            study_part=args.study_part,
+            study_trial=args.study_trial,
+            on_sync=synced.append,
+            claim=getattr(args, "claim", ""),
+            remark=getattr(args, "remark", ""),
+        )
+    except RunInterrupted as stopped:  # recorded and safe: said as any other run's end
+        summary = stopped.summary
+        out.error(f"rig: interrupted; run {summary.run_id} is recorded as aborted")
     server = synced[-1].describe() if synced else None  # after the run, when a server is set
     decision = _screen_decision(plan, summary)
     if args.json:

@@ -145,6 +145,15 @@ def wear_warnings(wear: dict[int, int], fixture: FixtureMap) -> list[str]:
     ]
 
 
+class RunInterrupted(KeyboardInterrupt):
+    """Ctrl-C or SIGTERM ended a run, which is recorded (aborted) and left safe: raised on once
+    it is, with the run's ``summary``, so that a caller can still say how it ended."""
+
+    def __init__(self, summary: RunSummary) -> None:
+        super().__init__(f"run {summary.run_id} interrupted")
+        self.summary = summary
+
+
 class StopRequested(RigError):
     """The operator asked to stop the run, or a question to the operator got no answer
     (``cause`` says which, for the run's record)."""
@@ -470,7 +479,7 @@ class Engine:
         )
         self._writes.close()  # every write committed, every event delivered, the worker gone
         if interrupted is not None:
-            raise interrupted
+            raise RunInterrupted(summary) from interrupted
         return summary
 
     def _identities(self) -> list[dict[str, str]]:

@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import json
 import os
+import re
 import signal
 import sqlite3
 import subprocess
@@ -70,7 +71,8 @@ def test_sigterm_mid_run_leaves_bench_safe_and_run_aborted(tmp_path: Path) -> No
             assert data["closed_relays"], "the run never closed a relay"
             time.sleep(0.3)
             proc.send_signal(signal.SIGTERM)
-            code = proc.wait(timeout=15)
+            printed, errors = proc.communicate(timeout=15)
+            code = proc.returncode
         finally:
             if proc.poll() is None:
                 proc.kill()
@@ -85,3 +87,7 @@ def test_sigterm_mid_run_leaves_bench_safe_and_run_aborted(tmp_path: Path) -> No
     db.close()
     assert status == "aborted" and "SIGTERM" in reason
     assert readings >= 1  # the reading taken before the signal is kept
+    # said as any other run's end: its steps, its decision, where it is recorded
+    assert "rig: interrupted; run 1 is recorded as aborted" in errors
+    assert re.search(r"^verdict: \w+  \(aborted\)$", printed, re.MULTILINE)
+    assert "screen decision: undecided" in printed and "record: run 1 in " in printed
