@@ -78,7 +78,11 @@ def test_shipped_sequence_passes_a_good_harness_with_limits_at_the_measured_ambi
     net = next(n for n in wires.nets if n.name == "LAMP_L")
     expected = path_limit(net.rows, ambient.value, Allowances(contact_ohm=0.005)).max_ohm
     assert extras["net LAMP_L J1-1>J2-1 max_ohm"] == pytest.approx(expected)
-    assert extras["net GROUND J1-10>J2-8 max_ohm"] == pytest.approx(0.060)
+    # the spliced ground too: its trunk and branch with two contacts and one splice (2 mohm)
+    ground = next(n for n in wires.nets if n.name == "GROUND")
+    allowances = Allowances(contact_ohm=0.005, splice_ohm=0.002)
+    expected = path_limit(ground.path("J1-10", "J2-8"), ambient.value, allowances).max_ohm
+    assert extras["net GROUND J1-10>J2-8 max_ohm"] == pytest.approx(expected)
     assert extras["isolation_readings"] == 4  # ceil(log2 13): 10 nets and 3 spare pins
     assert extras["isolation_proven_ohm"] >= 1e6
     assert "isolation proved per pair" in harness.note
@@ -89,6 +93,19 @@ def test_shipped_sequence_passes_a_good_harness_with_limits_at_the_measured_ambi
     settled = [r for r in rows if r[2]]
     assert len(settled) == extras["continuity_readings"] + extras["isolation_readings"]
     assert len(rows) >= len(settled)
+
+
+def test_shipped_sequence_and_the_wire_list_alone_agree_on_a_small_ground_crimp(
+    tmp_path: Path,
+) -> None:
+    """20 mohm in the ground trunk: over the copper-and-allowance limit of its paths (about 40
+    mohm at 27 degC, the test above), so the shipped sequence fails it as `rig harness check`
+    with the list alone does; the example once loosened that net to 60 mohm and passed it."""
+    _, bench = _shipped([BuildFault("high", "W10a", ohm=0.02)], ambient_c=27.0)
+    with served(bench, tmp_path) as station_path:
+        summary = run_plan(load_plan(SHIPPED / "harness-proof.toml", station_path), "H-CRIMP")
+    harness = summary.results[-1]
+    assert harness.verdict is Verdict.FAIL and "W10a" in harness.note, harness.note
 
 
 def test_shipped_sequence_names_a_swap_and_a_missing_splice(tmp_path: Path) -> None:
