@@ -44,6 +44,11 @@ CAUTION = (
     "Disconnect batteries and supplies before changing connections, keep supply current limits "
     "low, never probe mains, and follow local codes and licensed practice."
 )
+WELL_CAUTION = (
+    "Caution: a heated well or liquid bath burns: let the sensor cool, or lift it with tongs and "
+    "heat-resistant gloves; keep water away from hot oil and the bath's own cut-out working."
+)
+"""Said too before a screen that reads a temperature reference (a sensor in a well or bath)."""
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -609,6 +614,17 @@ def _diagnosable(summary: RunSummary) -> bool:
     )
 
 
+def _reads_a_well(plan: Plan) -> bool:
+    """Whether a screen judges a sensor at a temperature its reference reads: the sensor may
+    sit in a heated well or bath (a harness proof reads only the room's)."""
+    from rig.screening import is_screen
+    from rig.steps import KINDS
+
+    kinds = {p.spec.kind for p in plan.steps}
+    units = {KINDS[k].unit for k in kinds}
+    return is_screen(units) and "reference-temperature" in kinds and bool(kinds & {"ntc", "rtd"})
+
+
 def _screen_decision(plan: Plan, summary: RunSummary) -> ScreenDecision | None:
     """The screen's decision on the unit from this run (``rig.screening``, the rule of
     ``rig stats``), or None where the sequence proves a harness; from its planned steps too, so
@@ -671,6 +687,8 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
         out.quiet = True
     else:
         out.line(CAUTION)
+        if _reads_a_well(plan):
+            out.line(WELL_CAUTION)
 
     def ask(text: str) -> bool:
         if args.yes:

@@ -77,6 +77,9 @@ def test_rig_run_prints_the_decision_and_what_it_means(
         assert line.startswith(f"screen decision: {decision} (")
     edge = found["S-EDGE"][1]
     assert "within the uncertainty of a limit" in edge and "retest" in edge
+    # the sender sits in a well the bench Pt100 reads: its caution comes before the run (the
+    # usual cautions for hot liquids, common practice, no published source)
+    assert "Caution: a heated well or liquid bath burns" in edge
 
 
 def test_rig_run_json_carries_the_decision(
