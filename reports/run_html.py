@@ -68,11 +68,14 @@ def _instruments(run: Mapping[str, Any]) -> str:
             i.get("identity", ""),
             i.get("resource", ""),
             i.get("calibration_due") or "not given",
+            i.get("accuracy", ""),
         ]
         for i in run["instruments"]
     ]
     return "<h2>Instruments</h2>" + table(
-        ["role", "identity", "resource", "calibration due"], rows, table_id="instruments"
+        ["role", "identity", "resource", "calibration due", "accuracy"],
+        rows,
+        table_id="instruments",
     )
 
 
@@ -182,7 +185,7 @@ def _model_parameters(steps: list[Mapping[str, Any]]) -> str:
     rows = [
         [s["step_id"], key, value]
         for s in steps
-        for key, value in (s.get("model_params") or {}).items()
+        for key, value in [*(s.get("model_params") or {}).items(), *_conditions(s)]
     ]
     if not rows:
         return ""
@@ -191,6 +194,30 @@ def _model_parameters(steps: list[Mapping[str, Any]]) -> str:
         + table(["step", "parameter", "value"], rows, table_id="model-parameters")
         + f'<p class="note">{esc(MODEL_NOTE)}</p>'
     )
+
+
+CONDITIONS = (
+    ("temperature_c", "judged at", "degC"),
+    ("reference_v", "reference measured", "V"),
+    ("predicted_r_ohm", "predicted resistance", "ohm"),
+    ("u_meter_c", "u(T) from the meter", "degC"),
+    ("u_probe_c", "u(T) from the probe", "degC"),
+)
+"""A model step's extras that say where its prediction came from and what its U is made of:
+(key, row name, unit)."""
+
+
+def _conditions(step: Mapping[str, Any]) -> list[tuple[str, str]]:
+    """The conditions a model step was judged at, from its extras, as rows under its parameters
+    (none for a step with no model): a reviewer can rebuild its prediction and its U."""
+    extras = step.get("extras") or {}
+    if not step.get("model_params") or not isinstance(extras, Mapping):
+        return []
+    return [
+        (name, f"{float(extras[key]):.6g} {unit}")
+        for key, name, unit in CONDITIONS
+        if isinstance(extras.get(key), int | float)
+    ]
 
 
 def _not_measured(record: Mapping[str, Any]) -> str:

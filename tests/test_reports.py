@@ -307,3 +307,24 @@ def test_a_prompt_s_csv_row_holds_its_answer_and_no_measurement_columns(
     assert prompt["decision_rule"] == ""
     measured = next(r for r in rows if r["kind"] == "ntc")
     assert measured["coverage_k"] and measured["decision_rule"]  # measurements keep theirs
+
+
+def test_the_html_record_lets_a_reviewer_rebuild_a_model_steps_prediction_and_u(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    """The sender was judged at the well's measured temperature, with a U made of the meter's
+    and the reference probe's parts (GUM 5.1.2): the page names the probe's accuracy and, under
+    the model parameters, the temperature judged at and both parts of u(T)."""
+    with shipped_bench("ntc-sender", (), folder=tmp_path) as (_, station):
+        summary = run_plan(shipped_plan("ntc-sender-screen", station), "REV-1", ask=lambda t: True)
+    well = next(r for r in summary.results if r.kind == "reference-temperature")
+    html = printed(capsys, summary.run_id, "--station", str(station.path), "--format", "html")
+    instruments = html[html.index('id="instruments"') :]
+    assert "class A (IEC 60751)" in instruments[: instruments.index("</table>")]
+    parameters = html[html.index('id="model-parameters"') :]
+    parameters = parameters[: parameters.index("</table>")]
+    assert f"<td>judged at</td><td>{well.value:.6g} degC</td>" in parameters.replace(
+        ' class="num"', ""
+    )
+    for part in ("u_meter_c", "u_probe_c"):
+        assert f"{well.extras[part]:.6g} degC" in parameters

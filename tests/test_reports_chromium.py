@@ -24,7 +24,7 @@ from reports.svg_plots import DATA_COLOUR
 from rig.runner import run_plan
 from rig.store import ResultStore
 
-WIDTH, HEIGHT = 1200, 1800
+WIDTH, HEIGHT = 1200, 2600  # the whole page down to its margin plot
 FAIL_CELL = "#f6c6c6"  # reports.html_page: background of a failed step's verdict cell
 
 
