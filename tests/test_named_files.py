@@ -182,3 +182,34 @@ def test_a_folder_for_a_report_gets_the_report_under_its_usual_name(
     assert f"written to {written[0]}" in capsys.readouterr().out
     assert main(["stats", "--store", str(store), "--html", str(folder)]) == 0
     assert (folder / "stats.html").is_file()
+
+
+BLANK_FIXTURE = "names no file; expected the path of {what} (relative to this file), found {text!r}"
+"""A blank ``fixture`` used to be taken as the naming file's own folder: a unit file was read as
+its own fixture map (four problems about keys it never had), a station ended in a traceback.
+Source: docs/unit-file.md and docs/station-file.md (``fixture`` is required) and the project's
+conventions (a clear problem at the key, exit code 2, never a traceback)."""
+
+
+@pytest.mark.parametrize("text", ["", "  "])
+@pytest.mark.parametrize("command", ["check", "sim"])
+def test_a_unit_file_naming_no_fixture_says_so_at_its_key(
+    command: str, text: str, example: dict[str, Path], capsys: pytest.CaptureFixture[str]
+) -> None:
+    unit = renamed(example["unit.toml"], 'fixture = "fixture.toml"', f'fixture = "{text}"')
+    what = "the fixture map the unit sits on"
+    assert errors(capsys, command, "--unit", unit)[1:] == [
+        f"{unit}:{line_of(unit, 'fixture =')} [unit.fixture]: "
+        + BLANK_FIXTURE.format(what=what, text=text)
+    ]
+
+
+def test_a_station_file_naming_no_fixture_says_so_at_its_key(
+    example: dict[str, Path], capsys: pytest.CaptureFixture[str]
+) -> None:
+    station = renamed(example["station.toml"], 'fixture = "fixture.toml"', 'fixture = ""')
+    what = "the station's fixture map"
+    assert errors(capsys, "check", "--station", station)[1:] == [
+        f"{station}:{line_of(station, 'fixture =')} [station.fixture]: "
+        + BLANK_FIXTURE.format(what=what, text="")
+    ]

@@ -140,6 +140,21 @@ class Section:
             return default if default is not _MISSING else None
         return value
 
+    def named_file(self, name: str, what: str) -> tuple[str, Path] | None:
+        """A required file name, as written and as a path beside this file; a blank name is a
+        problem here (taken as it is, it would name this file's own folder)."""
+        text = self.string(name)
+        if text is None:
+            return None
+        if not text.strip():
+            self.problem(
+                name,
+                f"names no file; expected the path of {what} (relative to this file), "
+                f"found {text!r}",
+            )
+            return None
+        return text, (self.doc.path.parent / text).resolve()
+
     def number(self, name: str, default: Any = _MISSING, *, minimum: float | None = None) -> Any:
         value = self._get(name, default, "a number")
         if value is _MISSING:

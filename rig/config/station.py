@@ -98,9 +98,9 @@ def load_station(path: Path | str) -> Station:
         data_dir = (doc.path.parent / data_text).resolve()
         watchdog_s = head.quantity("watchdog", "s", 2.0, positive=True)
         operator_required = head.boolean("operator_required", False)
-        fixture_text = head.string("fixture")
-        if fixture_text:
-            fixture_path = (doc.path.parent / fixture_text).resolve()
+        named = head.named_file("fixture", "the station's fixture map")
+        if named is not None:
+            fixture_text, fixture_path = named
             try:
                 fixture_doc = TomlDoc(fixture_path, kind="a fixture file (.toml)")
                 fixture = parse_fixture(fixture_doc)

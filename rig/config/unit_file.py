@@ -277,9 +277,9 @@ def parse_unit(doc: TomlDoc) -> UnitModel:
     if head:
         name = head.string("name") or ""
         description = head.string("description", "")
-        fixture_text = head.string("fixture")
-        if fixture_text:
-            fixture_path = (doc.path.parent / fixture_text).resolve()
+        named = head.named_file("fixture", "the fixture map the unit sits on")
+        if named is not None:
+            fixture_text, fixture_path = named
         head.reject_unknown()
     unit = UnitModel(
         name=name,
