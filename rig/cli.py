@@ -361,6 +361,7 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
     from rig.analysis.settling import route_settling
     from rig.harness.wire_list import WireList
     from rig.runner import load_inputs
+    from rig.supply_wires import supply_wire_warnings
 
     problem = _check_arguments(args)
     if problem:
@@ -400,11 +401,16 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
     out.table(headers, rows)
     for found in turs.values():
         out.line(model_tur_note(found, args.unit.name))
+    wire_lists = []
     for step in plan.steps:
         wires = step.spec.params.get("wires")
-        if isinstance(wires, WireList) and wires.ignored:
-            out.line(f"{step.spec.id}: {wires.ignored_note()}")
+        if isinstance(wires, WireList):
+            wire_lists.append(wires)
+            if wires.ignored:
+                out.line(f"{step.spec.id}: {wires.ignored_note()}")
     _show_supply(plan, out)
+    for warning in supply_wire_warnings(plan.sequence, unit, wire_lists):
+        out.line(f"warning: {warning}")
     out.line()
     out.line(
         f"relay operations: {plan.relay_ops} as planned "
