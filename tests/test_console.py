@@ -14,8 +14,10 @@ from pathlib import Path
 
 from bench_helpers import SEQUENCES as SEQUENCES_DIR
 from console_helpers import console_on_bench, finish, start_run, stored_run, wait_for
-from textual.widgets import DataTable, Static
+from textual.pilot import Pilot
+from textual.widgets import DataTable, Input, Static
 
+from rig.console import ConsoleApp
 from rig.console.screens.history import HistoryScreen, RecordScreen
 from rig.console.screens.prompt import PromptScreen
 from rig.console.widgets import RunList, StatusPanel
@@ -400,5 +402,75 @@ def test_warnings_the_technician_must_act_on_are_shown_under_the_verdict(tmp_pat
                 assert "PASS" in shown and "of its rated 4 operations" in shown
                 run, _ = stored_run(app, screen.summary.run_id)
                 assert "of its rated 4 operations" in run["notes"]  # as the record says
+
+    asyncio.run(scenario())
+
+
+async def acknowledge_cautions(pilot: Pilot[None], app: ConsoleApp) -> None:
+    await wait_for(pilot, lambda: len(app.screen_stack) > 1, "the cautions")
+    await pilot.press("enter")
+    await wait_for(pilot, lambda: app.cautions_acknowledged, "the cautions to be acknowledged")
+
+
+def test_a_claim_and_remark_typed_on_the_start_view_are_kept_and_shown_with_the_verdict(
+    tmp_path: Path,
+) -> None:
+    # the same record `rig run --claim --remark` keeps (schema 6, docs/console.md); the claim
+    # and remark are our own invented example
+    async def scenario() -> None:
+        with console_on_bench("ntc-sender", tmp_path, "ntc-sender-screen") as (app, _bench):
+            async with app.run_test(size=SIZE) as pilot:
+                await acknowledge_cautions(pilot, app)
+                await pilot.click("#claim")
+                await pilot.press(*"RMA-0042")
+                await pilot.click("#remark")
+                await pilot.press(*"gauge reads cold (invented)")
+                await pilot.click("#serial")
+                await pilot.press(*"NTC-2001", "enter")
+                await wait_for(pilot, lambda: app.run_screen is not None, "the run view")
+                screen = app.run_screen
+                assert screen is not None
+                await wait_for(pilot, lambda: isinstance(app.screen, PromptScreen), "the prompt")
+                await pilot.press("y")
+                await finish(pilot, screen)
+                assert screen.summary is not None
+                run, _steps = stored_run(app, screen.summary.run_id)
+                assert (run["claim"], run["remark"]) == ("RMA-0042", "gauge reads cold (invented)")
+                shown = str(screen.query_one(StatusPanel).render())
+                assert "claim: RMA-0042 · remark: gauge reads cold (invented)" in shown
+                # the next unit scanned in the run view is another unit: no claim of its own
+                await pilot.press(*"NTC-2002", "enter")
+                await wait_for(
+                    pilot, lambda: app.run_screen not in (None, screen), "the next unit's run"
+                )
+                second = app.run_screen
+                assert second is not None
+                assert (second.request.claim, second.request.remark) == ("", "")
+                await wait_for(pilot, lambda: isinstance(app.screen, PromptScreen), "a prompt")
+                await pilot.press("y")
+                await finish(pilot, second)
+                await pilot.press("escape")
+                await wait_for(pilot, lambda: app.run_screen is None, "the start view")
+                assert app.screen.query_one("#claim", Input).value == ""
+
+    asyncio.run(scenario())
+
+
+def test_a_claim_the_cli_would_refuse_starts_nothing_and_says_why(tmp_path: Path) -> None:
+    # the same check as rig run --claim (rig.run_admission.claim_problem): at most 200 characters
+    async def scenario() -> None:
+        with console_on_bench("ntc-sender", tmp_path, "ntc-sender-screen") as (app, _bench):
+            async with app.run_test(size=SIZE) as pilot:
+                await acknowledge_cautions(pilot, app)
+                app.screen.query_one("#claim", Input).value = "C" * 201
+                await pilot.click("#serial")
+                await pilot.press(*"NTC-2003", "enter")
+                await pilot.pause()
+                assert app.run_screen is None
+                problem = str(app.screen.query_one("#serial-problem", Static).render())
+                assert problem == (
+                    "the claim or return number is 201 characters long; at most 200 are kept"
+                )
+                assert app.screen.focused is app.screen.query_one("#claim", Input)
 
     asyncio.run(scenario())

@@ -56,12 +56,16 @@ class ConsoleApp(App[None]):
         runs = [r for r in self.store.runs(limit=RECENT_RUNS * 4) if r["station"] == station]
         return runs[:RECENT_RUNS]
 
-    def start_run(self, plan: Plan, serial: str) -> None:
+    def start_run(self, plan: Plan, serial: str, claim: str = "", remark: str = "") -> None:
+        """A run of ``plan`` on unit ``serial``; the next unit scanned in its view runs the same
+        plan with no claim or remark (they belong to this unit)."""
         if self.setup.unit_file is not None:
             unit = str(self.setup.unit_file)
         else:
             unit = self.setup.unit.name if self.setup.unit is not None else ""
-        request = RunRequest(plan, serial, self.setup.operator, unit, self.setup.faults)
+        request = RunRequest(
+            plan, serial, self.setup.operator, unit, self.setup.faults, claim=claim, remark=remark
+        )
 
         def next_unit(serial: str | None) -> None:
             if serial:

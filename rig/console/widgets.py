@@ -32,18 +32,23 @@ class StatusPanel(Widget):
         self._lines: list[str] = ["waiting for the bench"]
         self.verdict: RunVerdict | None = None
         self.warnings: list[str] = []
+        self.record_text = ""
 
     def progress(self, *lines: str) -> None:
         self._lines = list(lines)
         self.refresh()
 
-    def show_verdict(self, verdict: RunVerdict, warnings: list[str] | None = None) -> None:
-        """The verdict, and under it what the technician must act on (relay wear, a bench not
-        made safe, a retried fault): the panel grows by those lines."""
+    def show_verdict(
+        self, verdict: RunVerdict, warnings: list[str] | None = None, record_text: str = ""
+    ) -> None:
+        """The verdict, and under it the claim and remark the run was filed with and what the
+        technician must act on (relay wear, a bench not made safe, a retried fault): the panel
+        grows by those lines."""
         self.verdict = verdict
         self.warnings = list(warnings or [])
+        self.record_text = record_text
         shown = min(len(self.warnings), self.MOST_WARNINGS)
-        self.styles.height = 8 + shown + (len(self.warnings) > shown)
+        self.styles.height = 8 + bool(record_text) + shown + (len(self.warnings) > shown)
         word = verdict.word
         self.remove_class("-pass", "-fail", "-other")
         if word == "PASS":
@@ -66,6 +71,8 @@ class StatusPanel(Widget):
         else:
             text.append(f"RUN VERDICT: {word}\n", self.verdict.style)
         text.append(f"{word}: {self.verdict.line}", "bold")
+        if self.record_text:
+            text.append(f"\n{self.record_text}")
         for warning in self.warnings[: self.MOST_WARNINGS]:
             text.append(f"\nwarning: {warning}", "bold yellow")
         if len(self.warnings) > self.MOST_WARNINGS:

@@ -165,6 +165,21 @@ def _unique(pins: Iterable[str]) -> list[str]:
     return list(dict.fromkeys(pins))
 
 
+RECORD_TEXT_SHOWN = 60
+"""Characters of a remark shown under the verdict; the whole of it is in the run's record."""
+
+
+def record_text_line(claim: str, remark: str) -> str:
+    """The claim and remark a run was started with, on one line under its verdict (the remark's
+    first line, shortened), so the inspector sees what the record was filed with; empty if none."""
+    parts = [f"claim: {claim}"] if claim else []
+    if remark:
+        first = remark.strip().splitlines()[0]
+        more = len(first) > RECORD_TEXT_SHOWN or first != remark.strip()
+        parts.append(f"remark: {first[:RECORD_TEXT_SHOWN]}" + (" ..." if more else ""))
+    return " · ".join(parts)
+
+
 def live_text(value: float, unit: str) -> str:
     cells = quantity_cells(value, unit, None, None)
     return f"{cells.reading} {cells.unit}".strip()

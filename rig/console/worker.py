@@ -340,6 +340,9 @@ class RunRequest:
     operator: str = ""
     unit: str = ""
     faults: tuple[str, ...] = ()
+    claim: str = ""
+    """The claim or return number typed on the start view, kept with the run."""
+    remark: str = ""
 
 
 def run_in_worker(
@@ -419,6 +422,8 @@ def _run(
             unit=request.unit,
             faults=request.faults,
             warnings=notes,  # calibration allowed past due
+            claim=request.claim,
+            remark=request.remark,
         )
     finally:
         stop.detach()

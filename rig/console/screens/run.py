@@ -30,6 +30,7 @@ from rig.console.words import (
     VERDICT_STYLES,
     live_text,
     pins_text,
+    record_text_line,
     run_verdict,
     step_cells,
     verdict_word,
@@ -286,6 +287,7 @@ class RunScreen(Screen[str | None]):
         status.show_verdict(
             run_verdict(summary.status, summary.verdict, summary.reason, summary.safe),
             summary.warnings,
+            record_text_line(summary.claim, summary.remark),
         )
         self._add_unjudged(summary)
         table = self.query_one("#steps", DataTable)

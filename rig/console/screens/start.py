@@ -2,6 +2,8 @@
 
 A barcode scanner types the serial and presses Enter, so Enter in the serial field starts the run
 with the highlighted sequence.  The arrow keys move the sequence choice without leaving the field.
+A returned unit's claim or return number and a remark may be typed first (Tab), checked as
+``rig run --claim/--remark`` checks them; Enter in either starts the run too.
 """
 
 from __future__ import annotations
@@ -20,6 +22,7 @@ from textual.widgets.option_list import Option
 from rig.console.setup import ConsoleSetup
 from rig.console.widgets import RunList
 from rig.plan import Plan
+from rig.run_admission import claim_problem, remark_problem
 
 RECENT_RUNS = 15
 
@@ -67,7 +70,7 @@ class StartScreen(Screen[None]):
     def __init__(
         self,
         setup: ConsoleSetup,
-        on_start: Callable[[Plan, str], None],
+        on_start: Callable[[Plan, str, str, str], None],
         on_open_run: Callable[[int], None],
         recent: Callable[[], list[dict[str, object]]],
     ) -> None:
@@ -88,6 +91,10 @@ class StartScreen(Screen[None]):
                 yield Static("Serial number (scan, or type and press Enter)", classes="label")
                 yield Input(placeholder="serial number", id="serial")
                 yield Static("", id="serial-problem")
+                yield Static("Claim or return number", classes="label")
+                yield Input(placeholder="optional, kept with the run", id="claim")
+                yield Static("Remark", classes="label")
+                yield Input(placeholder="optional, e.g. what the customer reported", id="remark")
                 yield Static("Sequence (up/down to choose)", classes="label")
                 yield OptionList(
                     *[
@@ -114,6 +121,8 @@ class StartScreen(Screen[None]):
         self.action_refresh_runs()
 
     def on_screen_resume(self) -> None:
+        for field in ("#claim", "#remark"):  # they belong to the unit just run
+            self.query_one(field, Input).value = ""
         serial = self.query_one("#serial", Input)
         serial.value = ""
         serial.focus()
@@ -136,15 +145,27 @@ class StartScreen(Screen[None]):
         return self.setup.plan_named(option_id or "")
 
     def on_input_submitted(self, event: Input.Submitted) -> None:
-        serial = event.value.strip()
-        problem = serial_problem(serial)
+        """Enter in any field: start with the serial, claim and remark as typed, or say what
+        stops it (and put the cursor where it is fixed)."""
+        fields = {name: self.query_one(f"#{name}", Input) for name in ("serial", "claim", "remark")}
+        serial, claim, remark = (fields[name].value.strip() for name in fields)
         plan = self.chosen_plan()
+        problem, where = "", "serial"
+        for name, found in (
+            ("serial", serial_problem(serial)),
+            ("claim", claim_problem(claim)),
+            ("remark", remark_problem(remark)),
+        ):
+            if found:
+                problem, where = found, name
+                break
         if not problem and plan is None:
             problem = "choose a sequence first"
         self.query_one("#serial-problem", Static).update(problem)
         if problem or plan is None:
+            fields[where].focus()
             return
-        self._on_start(plan, serial)
+        self._on_start(plan, serial, claim, remark)
 
     def on_option_list_option_selected(self, event: OptionList.OptionSelected) -> None:
         # Enter on a sequence: go back to the serial field, which starts the run
