@@ -304,35 +304,65 @@ def _raw_expanded_u(readings: Sequence[Mapping[str, Any]], step_id: str, ends: s
     return COVERAGE_K * found[-1] if found else 0.0
 
 
+def margin_scale(low: float | None, high: float | None) -> tuple[float, float] | None:
+    """Where a step's limits put 0 and what one unit of the margin plot is, in the step's unit:
+    the low limit and the band's width for two limits; for one limit alone, its own size, with
+    the limit at 0 (a low limit) or 1 (a high one; 0 is then zero for a positive limit).  None
+    where there is no band to scale by (no limit, an empty band, one limit at zero)."""
+    if low is not None and high is not None:
+        return (low, high - low) if high > low else None
+    limit = low if low is not None else high
+    if limit is None or limit == 0.0:
+        return None
+    size = abs(limit)
+    return (limit, size) if low is not None else (limit - size, size)
+
+
 def _margins(steps: list[Mapping[str, Any]]) -> str:
-    """Each step with both limits where its value lies between them; a reading that overloaded
-    the meter (a failed step, often the one that matters) at the plot's edge, marked so, and a
-    step with no reading at all named under the plot with its verdict."""
-    labels, positions, half, unplotted = [], [], [], []
+    """Each step with limits where its value lies against them (one limit alone: scaled by its
+    size, the other side open); a reading that overloaded the meter (a failed step, often the
+    one that matters) at the plot's edge, marked so, and a step with no reading at all, or one
+    limit at zero, named under the plot."""
+    labels, positions, half, sides, unplotted, unscaled = [], [], [], [], [], []
     for s in steps:
-        low, high, value = s["low"], s["high"], s["value"]
-        if low is None or high is None or high <= low:
+        if not _judged(s):  # a prompt's answer or a wait: no reading to place against limits
             continue
-        width = high - low
+        low, high, value = s["low"], s["high"], s["value"]
+        scale = margin_scale(low, high)
+        if scale is None:
+            if (low is None) != (high is None):  # one limit at zero: nothing to scale by
+                unscaled.append(str(s["step_id"]))
+            continue
+        zero, width = scale
         if value is None or not math.isfinite(value):
             if s.get("value_text") != "overload":
                 unplotted.append(f"{s['step_id']} ({s.get('value_text') or 'no reading'}, "
                                  f"{s['verdict']})")  # fmt: skip
                 continue
-            value = math.inf  # over the meter's range: no number, beyond any limit shown
+            value = math.inf  # over the meter's range: no number, at the right edge
         labels.append(str(s["step_id"]))
-        positions.append((value - low) / width)
+        positions.append((value - zero) / width)
         half.append((s["expanded_u"] or 0.0) / width)
-    missing = f"Not drawn, no value: {', '.join(unplotted)}." if unplotted else ""
+        sides.append((low is not None, high is not None))
+    missing = " ".join(
+        f"Not drawn, {why}: {', '.join(names)}."
+        for why, names in (
+            ("no value", unplotted),
+            ("one limit, at zero (no size to scale by)", unscaled),
+        )
+        if names
+    )
     if not labels:
-        none = f"No step has both limits and a value: no margin plot. {missing}".strip()
+        none = f"No step has limits and a value: no margin plot. {missing}".strip()
         return f'<p class="note">{esc(none)}</p>'
     caption = (
         "Each step's value within its limits (green band), with its expanded uncertainty; a "
-        "reading over the meter's range at the right edge, marked overload."
+        "step with only a low or only a high limit against that limit, scaled by the limit's "
+        "size, its band open on the other side; a reading over the meter's range at the right "
+        "edge, marked overload."
     )
     return "<h2>Margins</h2>" + figure(
-        margin_chart(labels, positions, half), f"{caption} {missing}".strip()
+        margin_chart(labels, positions, half, sides), f"{caption} {missing}".strip()
     )
 
 

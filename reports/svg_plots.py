@@ -39,19 +39,34 @@ def _figure(width_in: float = 7.0, height_in: float = 3.0) -> Figure:
 
 OVERLOAD_X = 1.55
 """Where a margin chart draws a reading over the meter's range: its right edge."""
+MARGIN_EDGES = (-0.55, 1.55)
+"""The margin chart's x span: an open side of a one-limit band runs to its edge."""
+BAND_COLOUR = "#d7f0d7"
 
 
-def margin_chart(labels: Sequence[str], positions: Sequence[float], half_u: Sequence[float]) -> str:
+def margin_chart(
+    labels: Sequence[str],
+    positions: Sequence[float],
+    half_u: Sequence[float],
+    sides: Sequence[tuple[bool, bool]] | None = None,
+) -> str:
     """Each step's value as a fraction of its limit band (0 = low limit, 1 = high limit), with
-    its expanded uncertainty as an error bar; outside 0..1 is outside the limits.  A position
-    that is not finite (an overload: no number) is drawn at the right edge, marked overload."""
+    its expanded uncertainty as an error bar; outside 0..1 is outside the limits.  ``sides``
+    says which limits each step has (low, high; both where not given): a step with one limit
+    has that limit's line only and its band open to the chart's edge on the other side.  A
+    position that is not finite (an overload: no number) is drawn at the right edge, marked
+    overload."""
     n = max(1, len(labels))
     fig = _figure(7.0, 0.6 + 0.3 * n)
     ax = fig.add_subplot()
     ys = list(range(len(labels)))[::-1]
-    ax.axvspan(0.0, 1.0, color="#d7f0d7", zorder=0)
-    ax.axvline(0.0, color=LIMIT_COLOUR)
-    ax.axvline(1.0, color=LIMIT_COLOUR)
+    for y, (has_low, has_high) in zip(ys, sides or [(True, True)] * len(labels), strict=True):
+        left = 0.0 if has_low else MARGIN_EDGES[0]
+        right = 1.0 if has_high else MARGIN_EDGES[1]
+        ax.barh(y, right - left, left=left, height=0.9, color=BAND_COLOUR, zorder=0)
+        for x, limit_here in ((0.0, has_low), (1.0, has_high)):
+            if limit_here:
+                ax.vlines(x, y - 0.45, y + 0.45, color=LIMIT_COLOUR)
     drawn = [(y, p, u) for y, p, u in zip(ys, positions, half_u, strict=True) if math.isfinite(p)]
     if drawn:
         shown = [max(-0.5, min(1.5, p)) for _, p, _ in drawn]
@@ -63,8 +78,11 @@ def margin_chart(labels: Sequence[str], positions: Sequence[float], half_u: Sequ
         ax.annotate("overload", (OVERLOAD_X, y), xytext=(-8, 0), textcoords="offset points",
                     ha="right", va="center", color=LIMIT_COLOUR)  # fmt: skip
     ax.set_yticks(ys, list(labels))
-    ax.set_xlim(-0.55, 1.55)
-    ax.set_xlabel("position in the limit band (0 low limit, 1 high limit; clipped at -0.5, 1.5)")
+    ax.set_xlim(*MARGIN_EDGES)
+    ax.set_xlabel(
+        "position in the limit band (0 low limit, 1 high limit; clipped at -0.5, 1.5)\n"
+        "a step with one limit: scaled by that limit's size, the other side open"
+    )
     return to_svg(fig)
 
 

@@ -18,7 +18,7 @@ from typing import Any
 import pytest
 
 from reports.run_export import record_csv, run_record
-from reports.run_html import render_run
+from reports.run_html import margin_scale, render_run
 from reports.value_digits import value_and_u
 from rig.demo import CASES, run_demo
 from rig.store import ResultStore
@@ -161,3 +161,49 @@ def test_margins_name_a_step_with_no_reading_under_the_plot(
     lost = {**step, "step_id": "lost", "value_text": "no reading", "verdict": "error"}
     html = render_run({**record, "steps": [*record["steps"], lost]})
     assert "Not drawn, no value: lost (no reading, error)." in html
+
+
+@pytest.mark.parametrize(
+    ("low", "high", "value", "position"),
+    [
+        # worked by hand from the plot's scale: two limits, 0 at the low and 1 at the high
+        (0.6, 4.8, 2.7, 0.5),
+        # a max alone (a voltage drop under 0.02 V): 0 V at 0, the limit at 1
+        (None, 0.02, 0.005, 0.25),
+        (None, 0.02, 0.03, 1.5),
+        # a max below zero: the limit at 1, twice as far below at 0
+        (None, -0.1, -0.2, 0.0),
+        # a min alone (isolation of at least 1 Mohm): the limit at 0, twice it at 1
+        (1e6, None, 2e6, 1.0),
+        (1e6, None, 0.5e6, -0.5),
+    ],
+)
+def test_a_step_with_one_limit_is_placed_against_that_limit_scaled_by_its_size(
+    low: float | None, high: float | None, value: float, position: float
+) -> None:
+    scale = margin_scale(low, high)
+    assert scale is not None
+    zero, width = scale
+    assert (value - zero) / width == pytest.approx(position)
+
+
+def test_steps_with_one_limit_are_drawn_in_the_margins_and_a_prompt_is_not(
+    records: dict[str, dict[str, Any]],
+) -> None:
+    # the report used to leave out every step with a max alone or a min alone
+    record = records["HAR-0102"]
+    step = next(s for s in record["steps"] if s["step_id"] == "sensor-ground-drop")
+    only_max = {**step, "step_id": "drop-max-only", "low": None, "high": 0.02}
+    only_min = {**step, "step_id": "iso-min-only", "low": 1e6, "high": None, "value": 5e7}
+    at_zero = {**step, "step_id": "max-at-zero", "low": None, "high": 0.0}
+    html = render_run({**record, "steps": [*record["steps"], only_max, only_min, at_zero]})
+    svg = html[html.index("<h2>Margins</h2>") :]
+    svg = svg[: svg.index("</figure>")]
+    drawn = re.findall(r"<!-- (.*?) -->", svg)
+    assert "drop-max-only" in drawn and "iso-min-only" in drawn
+    assert "max-at-zero" not in drawn
+    assert "Not drawn, one limit, at zero (no size to scale by): max-at-zero." in svg
+    # the demo's prompt (a one-sided low of 0.5 on its answer) is not a reading to draw
+    prompt_html = render_run(records["NTC-0003"])
+    prompt_svg = prompt_html[prompt_html.index("<h2>Margins</h2>") :]
+    assert "place" not in re.findall(r"<!-- (.*?) -->", prompt_svg[: prompt_svg.index("</figure>")])
