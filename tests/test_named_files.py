@@ -184,11 +184,12 @@ def test_a_folder_for_a_report_gets_the_report_under_its_usual_name(
     assert (folder / "stats.html").is_file()
 
 
-BLANK_FIXTURE = "names no file; expected the path of {what} (relative to this file), found {text!r}"
+BLANK_NAME = "names no file; expected the path of {what} (relative to this file), found {text!r}"
 """A blank ``fixture`` used to be taken as the naming file's own folder: a unit file was read as
-its own fixture map (four problems about keys it never had), a station ended in a traceback.
-Source: docs/unit-file.md and docs/station-file.md (``fixture`` is required) and the project's
-conventions (a clear problem at the key, exit code 2, never a traceback)."""
+its own fixture map (four problems about keys it never had), a station ended in a traceback; a
+blank ``wire_list`` left its harness step out of the plan.  Source: docs/unit-file.md,
+docs/station-file.md and docs/harness.md (each key is required) and the project's conventions
+(a clear problem at the key, exit code 2, never a traceback)."""
 
 
 @pytest.mark.parametrize("text", ["", "  "])
@@ -200,7 +201,7 @@ def test_a_unit_file_naming_no_fixture_says_so_at_its_key(
     what = "the fixture map the unit sits on"
     assert errors(capsys, command, "--unit", unit)[1:] == [
         f"{unit}:{line_of(unit, 'fixture =')} [unit.fixture]: "
-        + BLANK_FIXTURE.format(what=what, text=text)
+        + BLANK_NAME.format(what=what, text=text)
     ]
 
 
@@ -211,5 +212,18 @@ def test_a_station_file_naming_no_fixture_says_so_at_its_key(
     what = "the station's fixture map"
     assert errors(capsys, "check", "--station", station)[1:] == [
         f"{station}:{line_of(station, 'fixture =')} [station.fixture]: "
-        + BLANK_FIXTURE.format(what=what, text="")
+        + BLANK_NAME.format(what=what, text="")
+    ]
+
+
+def test_a_harness_step_naming_no_wire_list_says_so_at_its_key(tmp_path: Path) -> None:
+    # it used to load as valid and the step was left out of the plan, proving nothing
+    shutil.copy(SEQUENCES / "harness" / "harness-proof.toml", tmp_path / "proof.toml")
+    sequence = renamed(tmp_path / "proof.toml", '"wire-list.csv"', '""')
+    with pytest.raises(ConfigError) as caught:
+        load_sequence(sequence)
+    what = "the harness's wire list (.csv)"
+    assert [str(p) for p in caught.value.problems] == [
+        f"{sequence}:{line_of(sequence, 'wire_list =')} [steps[1].wire_list]: "
+        + BLANK_NAME.format(what=what, text="")
     ]

@@ -40,7 +40,11 @@ def read_harness_keys(sec: Section, spec: StepSpec, base: Path) -> None:
             where = f"{capture!r} ({spec.params['capture_to']})"
             sec.problem("capture_to", f"{where}: is a folder; expected a wire list (.csv) to write")
         spec.params["capture_connectors"] = sec.string_list("capture_connectors", None)
-    text = sec.string("wire_list", "" if capture else None)
+    if capture:  # a list to compare the capture with is optional
+        text = sec.string("wire_list", "")
+    else:  # required, and a blank name is no list at all
+        named = sec.named_file("wire_list", "the harness's wire list (.csv)")
+        text = named[0] if named else ""
     if text:
         try:
             spec.params["wires"] = load_wire_list((base / text).resolve())
