@@ -79,7 +79,11 @@ def test_verdicts_read_as_distinct_words() -> None:
     aborted = run_verdict("aborted", Verdict.ERROR, "stopped by the operator", True)
     assert aborted.word == "ABORTED" and "stopped by the operator" in aborted.line
     unsafe = run_verdict("complete", Verdict.FAIL, "", False)
-    assert unsafe.word == "FAIL" and "NOT SAFE" in unsafe.line
+    assert unsafe.word == "FAIL"
+    # a bench left live is said first: a long reason after it may be cut by the panel
+    assert unsafe.line.startswith("bench NOT made safe: check relays and supply by hand")
+    live = run_verdict("aborted", Verdict.ERROR, "relay box lost " * 20, False)
+    assert live.line.startswith("bench NOT made safe") and "relay box lost" in live.line
 
 
 def test_reading_limits_and_uncertainty_share_one_prefix() -> None:

@@ -18,7 +18,7 @@ class StatusPanel(Widget):
     """Progress while the run goes on; the whole run's verdict in block letters when it ends."""
 
     DEFAULT_CSS = """
-    StatusPanel { height: 8; border: heavy $secondary; padding: 0 1; }
+    StatusPanel { height: 8; max-height: 16; border: heavy $secondary; padding: 0 1; }
     StatusPanel.-pass { border: heavy $success; }
     StatusPanel.-fail { border: heavy $error; }
     StatusPanel.-other { border: heavy $warning; }
@@ -43,12 +43,12 @@ class StatusPanel(Widget):
     ) -> None:
         """The verdict, and under it the claim and remark the run was filed with and what the
         technician must act on (relay wear, a bench not made safe, a retried fault): the panel
-        grows by those lines."""
+        grows to the wrapped lines (up to its max-height), so a long reason does not push the
+        warnings out of sight."""
         self.verdict = verdict
         self.warnings = list(warnings or [])
         self.record_text = record_text
-        shown = min(len(self.warnings), self.MOST_WARNINGS)
-        self.styles.height = 8 + bool(record_text) + shown + (len(self.warnings) > shown)
+        self.styles.height = "auto"
         word = verdict.word
         self.remove_class("-pass", "-fail", "-other")
         if word == "PASS":

@@ -60,13 +60,17 @@ class RunVerdict:
     style: str
 
 
+NOT_SAFE = "bench NOT made safe: check relays and supply by hand"
+"""Said first whenever a run ended with the bench not proven safe (relays open, supply off)."""
+
+
 def run_verdict(status: str, verdict: Verdict, reason: str, safe: bool) -> RunVerdict:
     """``complete`` runs show their worst step verdict; anything else is ABORTED with its reason."""
-    safety = "bench made safe" if safe else "BENCH NOT SAFE: check relays and supply by hand"
     if status != "complete":
-        return RunVerdict(
-            "ABORTED", f"run aborted: {reason or 'no reason given'}; {safety}", "bold magenta"
-        )
+        why = f"run aborted: {reason or 'no reason given'}"
+        # a bench left live comes first: the reason may be long, and the panel cuts what is long
+        line = f"{NOT_SAFE}; {why}" if not safe else f"{why}; bench made safe"
+        return RunVerdict("ABORTED", line, "bold magenta")
     words = {
         Verdict.PASS: "every step within its limits",
         Verdict.CONDITIONAL_PASS: "within limits, but inside the uncertainty of a limit",
@@ -75,9 +79,8 @@ def run_verdict(status: str, verdict: Verdict, reason: str, safe: bool) -> RunVe
         Verdict.ERROR: "at least one step could not measure",
         Verdict.SKIPPED: "no step was measured",
     }
-    return RunVerdict(
-        VERDICT_WORDS[verdict], f"{words[verdict]}; {safety}", VERDICT_STYLES[verdict]
-    )
+    line = f"{NOT_SAFE}; {words[verdict]}" if not safe else f"{words[verdict]}; bench made safe"
+    return RunVerdict(VERDICT_WORDS[verdict], line, VERDICT_STYLES[verdict])
 
 
 def _scale(magnitude: float, unit: str) -> tuple[float, str]:
