@@ -97,7 +97,8 @@ async def start_run(pilot: Pilot[None], serial: str) -> RunScreen:
 
 
 async def finish(pilot: Pilot[None], screen: RunScreen) -> None:
-    """Wait until the worker is done (verdict, diagnosis) and the run view has shown it all."""
+    """Wait until the worker is done (verdict, diagnosis), the run view has shown it all and its
+    next-serial field takes keys (it drops those typed just as the run ends)."""
     await wait_for(
         pilot,
         lambda: (
@@ -105,6 +106,7 @@ async def finish(pilot: Pilot[None], screen: RunScreen) -> None:
             and screen.worker.is_finished
             and not screen.running
             and not len(screen.inbox)
+            and screen.takes_keys()
         ),
         "the run's end",
     )

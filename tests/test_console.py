@@ -42,7 +42,7 @@ def test_a_scanned_serial_runs_the_sequence_the_prompt_is_answered_and_the_verdi
                 assert "Place the sender in the well" in prompt.text
                 # the prompt step opened everything before asking (read back from the bench)
                 assert bench.state()["closed_relays"] == []
-                await pilot.press("y")
+                await pilot.press("f6")
                 await finish(pilot, screen)
 
                 assert screen.summary is not None
@@ -76,7 +76,7 @@ def test_a_scanned_serial_runs_the_sequence_the_prompt_is_answered_and_the_verdi
                 second = app.run_screen
                 assert second is not None and second.request.serial == "NTC-1004"
                 await wait_for(pilot, lambda: isinstance(app.screen, PromptScreen), "a prompt")
-                await pilot.press("y")
+                await pilot.press("f6")
                 await finish(pilot, second)
                 assert second.summary is not None and second.summary.run_id == 2
                 # Escape goes back to the start view, to choose another sequence
@@ -93,7 +93,7 @@ def test_answering_no_fails_the_run_and_says_why_no_diagnosis_is_shown(tmp_path:
             async with app.run_test(size=SIZE) as pilot:
                 screen = await start_run(pilot, "NTC-1002")
                 await wait_for(pilot, lambda: isinstance(app.screen, PromptScreen), "the prompt")
-                await pilot.press("n")
+                await pilot.press("f7")
                 await finish(pilot, screen)
                 panel = screen.query_one(StatusPanel)
                 assert panel.verdict is not None and panel.verdict.word == "FAIL"
@@ -145,7 +145,7 @@ def test_faults_the_sequence_cannot_tell_apart_are_shown_together(tmp_path: Path
             async with app.run_test(size=SIZE) as pilot:
                 screen = await start_run(pilot, "NTC-1002")
                 await wait_for(pilot, lambda: isinstance(app.screen, PromptScreen), "the prompt")
-                await pilot.press("y")
+                await pilot.press("f6")
                 await finish(pilot, screen)
                 view = screen.diagnosis
                 assert view is not None
@@ -183,7 +183,7 @@ def test_history_lists_the_station_runs_and_opens_a_record(tmp_path: Path) -> No
             async with app.run_test(size=SIZE) as pilot:
                 screen = await start_run(pilot, "NTC-1003")
                 await wait_for(pilot, lambda: isinstance(app.screen, PromptScreen), "the prompt")
-                await pilot.press("y")
+                await pilot.press("f6")
                 await finish(pilot, screen)
                 assert screen.summary is not None
                 await pilot.press("f2")
@@ -256,7 +256,7 @@ def test_a_prompt_text_with_brackets_is_shown_as_written(tmp_path: Path) -> None
                 await wait_for(pilot, lambda: isinstance(app.screen, PromptScreen), "the prompt")
                 shown = str(app.screen.query_one("#prompt-text", Static).render())
                 assert asked in shown
-                await pilot.press("s")
+                await pilot.press("f8")
 
     asyncio.run(scenario())
 
@@ -309,7 +309,7 @@ def test_an_aborted_run_shows_the_planned_steps_it_never_measured(tmp_path: Path
             async with app.run_test(size=SIZE) as pilot:
                 screen = await start_run(pilot, "NTC-1004")
                 await wait_for(pilot, lambda: isinstance(app.screen, PromptScreen), "the prompt")
-                await pilot.press("s")
+                await pilot.press("f8")
                 await finish(pilot, screen)
                 assert screen.summary is not None and screen.summary.status == "aborted"
                 table = screen.query_one("#steps", DataTable)
@@ -353,8 +353,8 @@ def test_a_no_to_a_prompt_that_stops_the_run_says_so_and_ends_the_run(tmp_path: 
                 screen = await start_run(pilot, "NTC-1005")
                 await wait_for(pilot, lambda: isinstance(app.screen, PromptScreen), "the prompt")
                 keys = app.screen.query_one("#prompt-keys", Static)
-                assert "n = no (the run stops)" in str(keys.render())
-                await pilot.press("n")
+                assert "F7 = no (the run stops)" in str(keys.render())
+                await pilot.press("f7")
                 await finish(pilot, screen)
                 summary = screen.summary
                 assert summary is not None and summary.status == "aborted"

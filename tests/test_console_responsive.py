@@ -55,7 +55,7 @@ def test_keys_are_handled_and_the_live_reading_shown_during_a_slow_reading(
                 await pilot.press("escape")
                 await wait_for(pilot, lambda: app.screen is screen, "the run view")
                 assert screen.running
-                await pilot.press("s")
+                await pilot.press("f8")
                 await finish(pilot, screen)
 
     asyncio.run(scenario())
@@ -74,7 +74,7 @@ def test_stop_mid_run_makes_the_bench_safe_and_records_the_run_aborted(tmp_path:
                     ),
                     "the supply on and relays closed",
                 )
-                await pilot.press("s")
+                await pilot.press("f8")
                 await finish(pilot, screen)
                 # read back from the virtual bench: every relay open, supply output off
                 state = bench.state()

@@ -52,7 +52,7 @@ def fix_times(store_path: Path) -> None:
         db.close()
 
 
-async def run_through(pilot: Pilot[Any], serial: str, answer: str = "y") -> None:
+async def run_through(pilot: Pilot[Any], serial: str, answer: str = "f6") -> None:
     """One whole run of the first sequence, answering its prompt (if any) with ``answer``."""
     app = pilot.app
     assert isinstance(app, ConsoleApp)
@@ -80,7 +80,7 @@ def test_snapshot_start_view_with_recent_runs(tmp_path: Path, snap_compare: Snap
 
         async def before(pilot: Pilot[Any]) -> None:
             await run_through(pilot, "NTC-0101")
-            await run_through(pilot, "NTC-0102", answer="n")
+            await run_through(pilot, "NTC-0102", answer="f7")
             fix_times(app.setup.store_path)
             await pilot.press("escape")
             await wait_for(pilot, lambda: app.run_screen is None, "the start view")

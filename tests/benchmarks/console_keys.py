@@ -70,7 +70,7 @@ async def key_latencies(folder: Path, presses: int) -> tuple[list[float], int]:
                     latencies.append((TimedRunScreen.keys_at[seen] - start) * 1000)
                 mid_step += int(screen.running)
                 await pilot.pause(0.02)
-            await pilot.press("s")
+            await pilot.press("f8")
             await finish(pilot, screen)
     return latencies, mid_step
 

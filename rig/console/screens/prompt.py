@@ -1,10 +1,11 @@
-"""An operator prompt from the sequence as a modal yes/no question, answered with y or n."""
+"""An operator prompt from the sequence as a modal yes/no question, answered with F6 or F7."""
 
 from __future__ import annotations
 
 from collections.abc import Callable
 from typing import ClassVar
 
+from textual import events
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
 from textual.containers import Vertical
@@ -15,7 +16,9 @@ from textual.widgets import Static
 class PromptScreen(ModalScreen[bool]):
     """Waits for the operator; the bench is already safe (the prompt step opened everything).
 
-    Enter is deliberately not an answer: a barcode scanner ends every scan with Enter.
+    No answer is a key a barcode scanner can type: a scan is letters and digits ended by Enter,
+    so a label scanned at the prompt must neither answer it nor stop the run.  The answers are
+    function keys, and typed keys only earn a line saying which keys answer.
     """
 
     DEFAULT_CSS = """
@@ -28,9 +31,9 @@ class PromptScreen(ModalScreen[bool]):
     """
 
     BINDINGS: ClassVar[list[BindingType]] = [
-        Binding("y", "answer(True)", "Yes, done"),
-        Binding("n", "answer(False)", "No"),
-        Binding("s", "stop", "Stop & make safe"),
+        Binding("f6", "answer(True)", "Yes, done"),
+        Binding("f7", "answer(False)", "No"),
+        Binding("f8", "stop", "Stop & make safe"),
     ]
 
     def __init__(
@@ -42,13 +45,21 @@ class PromptScreen(ModalScreen[bool]):
         self.text = text
         self.stops_run = stops_run
         """A no ends the run (the sequence's ``declined = "stop"``), not only the step."""
+        self.ignored_keys = 0
 
     def compose(self) -> ComposeResult:
         with Vertical():
             yield Static(f"OPERATOR ACTION ({self.step_id})", id="prompt-title")
             yield Static(self.text, id="prompt-text", markup=False)  # the file's words
-            no = "n = no (the run stops)" if self.stops_run else "n = no (the step fails)"
-            yield Static(f"y = yes, done     {no}     s = stop the run", id="prompt-keys")
+            no = "F7 = no (the run stops)" if self.stops_run else "F7 = no (the step fails)"
+            yield Static(f"F6 = yes, done   {no}   F8 = stop the run", id="prompt-keys")
+
+    def on_key(self, event: events.Key) -> None:
+        if event.is_printable or event.key == "enter":
+            event.stop()
+            self.ignored_keys += 1
+            if self.ignored_keys == 1:
+                self.notify("answer with F6 (yes) or F7 (no); typed keys are ignored here")
 
     def action_answer(self, yes: bool) -> None:
         self.dismiss(yes)

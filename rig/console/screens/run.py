@@ -7,15 +7,17 @@ hundreds of steps costs the screen a few table updates a second, whatever the en
 
 from __future__ import annotations
 
+import time
 from collections.abc import Callable
 from functools import partial
 from pathlib import Path
 from typing import Any, ClassVar
 
 from rich.text import Text
+from textual import events
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
-from textual.containers import Horizontal
+from textual.containers import Horizontal, VerticalScroll
 from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Input, Static
 from textual.worker import Worker
@@ -51,18 +53,53 @@ from rig.events import CUT_SHORT, NOT_RUN, StepFinished, StepResult, StepStarted
 from rig.judge.decision import Verdict
 from rig.store import ResultStore
 
+HARNESS_PROOF = "harness-proof"
+"""The step kind whose findings (one per wire or net fault) the run view lists after a failure."""
+STOP_KEY = "f8"
+"""Stops the run: a function key, because a barcode scanner types only printable keys and Enter."""
 BATCH_ITEMS = 120
 """Most inbox items handled per timer tick; the rest wait for the next tick."""
 TICK_S = 0.1
 STEP_COLUMNS = ("#", "step", "verdict", "reading", "unit", "limits", "± U (k=2)", "pins")
 
 
+def harness_findings(results: list[StepResult]) -> list[tuple[str, list[str]]]:
+    """The findings of each failed harness proof: its note, one finding per ``; ``-joined part."""
+    return [
+        (r.step_id, [part for part in r.note.split("; ") if part.strip()] or ["(no finding)"])
+        for r in results
+        if r.kind == HARNESS_PROOF and r.verdict in (Verdict.FAIL, Verdict.CONDITIONAL_FAIL)
+    ]
+
+
+class SerialField(Input):
+    """The next-serial field: it takes keys only once the run view lets it (``takes_keys``)."""
+
+    async def _on_key(self, event: events.Key) -> None:
+        screen = self.screen
+        if (
+            isinstance(screen, RunScreen)
+            and (event.is_printable or event.key == "enter")
+            and not screen.takes_keys()
+        ):
+            event.stop()
+            event.prevent_default()  # Input's own handler does not insert it
+            screen.ignore_key()
+
+
 class RunScreen(Screen[str | None]):
     """One run of one unit, from start to verdict; then the next serial can be scanned at once.
 
-    Dismissed with the next serial (same sequence) or None (back to the start view).  Keys that
-    work after the run are not letters, because the next scan is typed into the screen.
+    Dismissed with the next serial (same sequence) or None (back to the start view).  No key a
+    barcode scanner can type (letters, digits, Enter) is a command: a scan during the run only
+    earns a line saying so, and keys that arrive within ``QUIET_S`` of the run's end or of an
+    ignored key are dropped, so the tail of such a scan, or a stray key, never becomes the next
+    serial.
     """
+
+    QUIET_S = 0.8
+    """Keyboard quiet the next-serial field waits for after the run ends or a key is ignored
+    (a scanner types its label in a few milliseconds per key)."""
 
     DEFAULT_CSS = """
     RunScreen #run-title { text-style: bold; height: 1; }
@@ -70,11 +107,12 @@ class RunScreen(Screen[str | None]):
     RunScreen #lower { height: 2fr; max-height: 16; min-height: 8; }
     RunScreen #diagnosis { width: 1fr; height: 100%; border: round $secondary; padding: 0 1; }
     RunScreen #plot { width: 1fr; height: 100%; border: round $secondary; }
+    RunScreen #findings { width: 1fr; height: 100%; border: round $error; padding: 0 1; }
     RunScreen #next-serial { border: tall $success; }
     """
 
     BINDINGS: ClassVar[list[BindingType]] = [
-        Binding("s", "stop", "Stop & make safe"),
+        Binding(STOP_KEY, "stop", "Stop & make safe"),
         Binding("escape", "back", "Back to start"),
         Binding("f2", "history", "History"),
         Binding("f3", "toggle_plot", "Plot: curve/trend"),
@@ -115,6 +153,10 @@ class RunScreen(Screen[str | None]):
         self._safe_note = ""
         self._started = setup.clock()
         self.quit_when_done = False
+        self._quiet_until = 0.0
+        """Monotonic time before which typed keys are dropped (see ``QUIET_S``)."""
+        self._told_keys = False
+        self.ignored_keys = 0
 
     # --- layout -------------------------------------------------------------------------------
 
@@ -129,8 +171,10 @@ class RunScreen(Screen[str | None]):
         yield DataTable(id="steps", cursor_type="row", zebra_stripes=True)
         with Horizontal(id="lower"):
             yield Static("", id="diagnosis")
+            with VerticalScroll(id="findings"):
+                yield Static("", id="findings-text")
             yield ChartView(id="plot")
-        yield Input(
+        yield SerialField(
             placeholder="scan the next serial (Enter runs the same sequence)",
             id="next-serial",
         )
@@ -140,6 +184,7 @@ class RunScreen(Screen[str | None]):
         table = self.query_one("#steps", DataTable)
         table.add_columns(*STEP_COLUMNS)
         self.query_one("#diagnosis", Static).display = False
+        self.query_one("#findings").display = False
         self.query_one("#next-serial", Input).display = False
         self.query_one("#next-serial", Input).cursor_blink = False  # steady, like the start view
         plot = self.query_one("#plot", ChartView)
@@ -181,7 +226,10 @@ class RunScreen(Screen[str | None]):
         self.app.call_from_thread(self._open_prompt, step_id, text, stops_run, answer)
 
     def _after_run(self, summary: RunSummary, store: ResultStore) -> None:
-        """In the worker: diagnose a completed failed run (simulation is slow work)."""
+        """In the worker: diagnose a completed failed run (simulation is slow work).  A failed
+        harness proof is not diagnosed from a unit model: its own findings say what is wrong."""
+        if harness_findings(summary.results):
+            return
         if summary.status == "complete" and summary.verdict in (
             Verdict.FAIL,
             Verdict.CONDITIONAL_FAIL,
@@ -296,7 +344,10 @@ class RunScreen(Screen[str | None]):
             table.move_cursor(row=self.results.index(failed[0]), animate=False)
             # a failed NTC is best seen against its curve; any other failure over the last runs
             self._plot_mode = "curve" if failed[0].kind == "ntc" else "trend"
-        if summary.status != "complete":
+        findings = harness_findings(summary.results)
+        if findings:
+            self._show_findings(findings)
+        elif summary.status != "complete":
             self._show_diagnosis(
                 DiagnosisView(summary.run_id, unavailable="run aborted: no diagnosis")
             )
@@ -326,15 +377,34 @@ class RunScreen(Screen[str | None]):
             )
 
     def _ready_for_next(self) -> None:
+        self._quiet_until = max(self._quiet_until, time.monotonic() + self.QUIET_S)
         self.refresh_bindings()
         self.query_one("#lower").display = True
         field = self.query_one("#next-serial", Input)
         field.display = True
         field.focus()
 
+    def _show_findings(self, findings: list[tuple[str, list[str]]]) -> None:
+        """Each failed harness proof's findings, one a line, wrapped and in full (the pane
+        scrolls), where the likely faults of a sensor would be."""
+        pane = self.query_one("#findings")
+        count = sum(len(lines) for _, lines in findings)
+        pane.border_title = f"harness findings ({count})"
+        text = Text()
+        for step_id, lines in findings:
+            if len(findings) > 1:
+                text.append(f"{step_id}\n", "bold")
+            for line in lines:
+                text.append("- " + line + "\n")
+        self.query_one("#findings-text", Static).update(text)
+        self.query_one("#diagnosis", Static).display = False
+        pane.display = True
+
     def _show_diagnosis(self, view: DiagnosisView) -> None:
         """The next check first (what the operator does now), then the ranked hypotheses."""
         self.diagnosis = view
+        if self.query_one("#findings").display:  # a harness proof's findings say it better
+            return
         box = self.query_one("#diagnosis", Static)
         box.border_title = "likely faults"
         box.display = True
@@ -409,7 +479,7 @@ class RunScreen(Screen[str | None]):
 
     def action_back(self) -> None:
         if self.running:
-            self.notify("the run is still going; press s to stop it first", severity="warning")
+            self.notify("the run is still going; press F8 to stop it first", severity="warning")
             return
         self.dismiss(None)
 
@@ -417,6 +487,34 @@ class RunScreen(Screen[str | None]):
         table = self.query_one("#steps", DataTable)
         if table.row_count:
             table.move_cursor(row=max(0, min(table.row_count - 1, table.cursor_row + delta)))
+
+    def takes_keys(self) -> bool:
+        """Whether a typed key now goes into the next-serial field."""
+        return not self.running and time.monotonic() >= self._quiet_until
+
+    def ignore_key(self) -> None:
+        """A typed key that is no command and must not become a serial: dropped, and said once
+        per burst (a scan is a burst of keys)."""
+        now = time.monotonic()
+        if now >= self._quiet_until:
+            self._told_keys = False
+        self._quiet_until = now + self.QUIET_S
+        self.ignored_keys += 1
+        if self._told_keys:
+            return
+        self._told_keys = True
+        if self.running:
+            self.notify("finish or stop this run first (F8 stops it); typed keys are ignored")
+        else:
+            self.notify("keys typed as the run ended were ignored; scan the next serial again")
+
+    def on_key(self, event: events.Key) -> None:
+        # keys that reach the screen while the run goes on (the field is hidden then)
+        typed = event.is_printable or event.key == "enter"
+        if typed and (self.running or time.monotonic() < self._quiet_until):
+            event.stop()
+            event.prevent_default()
+            self.ignore_key()
 
     def on_input_submitted(self, event: Input.Submitted) -> None:
         serial = event.value.strip()
