@@ -431,7 +431,7 @@ def test_a_claim_and_remark_typed_on_the_start_view_are_kept_and_shown_with_the_
                 screen = app.run_screen
                 assert screen is not None
                 await wait_for(pilot, lambda: isinstance(app.screen, PromptScreen), "the prompt")
-                await pilot.press("y")
+                await pilot.press("f6")
                 await finish(pilot, screen)
                 assert screen.summary is not None
                 run, _steps = stored_run(app, screen.summary.run_id)
@@ -447,7 +447,7 @@ def test_a_claim_and_remark_typed_on_the_start_view_are_kept_and_shown_with_the_
                 assert second is not None
                 assert (second.request.claim, second.request.remark) == ("", "")
                 await wait_for(pilot, lambda: isinstance(app.screen, PromptScreen), "a prompt")
-                await pilot.press("y")
+                await pilot.press("f6")
                 await finish(pilot, second)
                 await pilot.press("escape")
                 await wait_for(pilot, lambda: app.run_screen is None, "the start view")
