@@ -14,10 +14,22 @@ class RunRefused(RigError):
     """A run may not start: its record would break the station's rules for records."""
 
 
+SERIAL_MAX_CHARS = 64
+"""The longest serial number kept: longer than any label a shop prints (common practice, no
+published source), short enough for a column of ``rig runs``."""
+
+
 def serial_problem(serial: str) -> str:
     """Why ``serial`` cannot name the unit in a record, or empty when it can: a run filed under
-    a blank serial cannot be found again."""
-    return "" if serial.strip() else "the unit's serial number is blank; give it"
+    a blank serial cannot be found again, and one with a control character (a tab from a
+    scanner set up wrongly) cannot be typed to find it, and breaks the tables that list it."""
+    if not serial.strip():
+        return "the unit's serial number is blank; give it"
+    if len(serial) > SERIAL_MAX_CHARS:
+        return (
+            f"a serial number has at most {SERIAL_MAX_CHARS} characters; this one has {len(serial)}"
+        )
+    return _control_problem("serial number", serial, allowed="")
 
 
 def operator_problem(station: Station, operator: str) -> str:
@@ -44,18 +56,25 @@ def _free_text_problem(what: str, text: str, most: int, *, lines: bool) -> str:
     not UTF-8 are kept as the serial's are (``rig.entry_text``)."""
     if len(text) > most:
         return f"the {what} is {len(text)} characters long; at most {most} are kept"
-    allowed = "\n\r\t" if lines else ""
+    problem = _control_problem(what, text, allowed="\n\r\t" if lines else "")
+    if problem:
+        return problem
+    if text and not text.strip():
+        return f"the {what} is blank; give its text, or leave it out"
+    return ""
+
+
+def _control_problem(what: str, text: str, *, allowed: str) -> str:
+    """Where ``text`` holds a control character other than ``allowed``, in words; else empty."""
     for position, char in enumerate(text, start=1):
         if unicodedata.category(char) == "Cc" and char not in allowed:
             expected = (
-                "printable text (line breaks allowed)" if lines else "printable text on one line"
+                "printable text (line breaks allowed)" if allowed else "printable text on one line"
             )
             return (
                 f"the {what} holds a control character (U+{ord(char):04X}) at character "
                 f"{position}; expected {expected}"
             )
-    if text and not text.strip():
-        return f"the {what} is blank; give its text, or leave it out"
     return ""
 
 

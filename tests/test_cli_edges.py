@@ -45,15 +45,28 @@ def test_a_prompt_with_no_one_to_answer_ends_the_run_aborted_and_recorded(
     assert "no diagnosis is made of an aborted run" in said, said
 
 
-@pytest.mark.parametrize("serial", ["", "   "])
-def test_a_blank_serial_is_refused_before_anything_moves(
-    tmp_path: Path, capsys: pytest.CaptureFixture[str], serial: str
+@pytest.mark.parametrize(
+    ("serial", "said"),
+    [
+        ("", "--serial: the unit's serial number is blank"),
+        ("   ", "--serial: the unit's serial number is blank"),
+        # a scanner set to send a tab: the console refuses it, and so must the command line
+        (
+            "HG 001\tx",
+            "--serial: the serial number holds a control character (U+0009) at "
+            "character 7; expected printable text on one line",
+        ),
+        ("S" * 65, "--serial: a serial number has at most 64 characters; this one has 65"),
+    ],
+)
+def test_a_serial_that_cannot_be_filed_is_refused_before_anything_moves(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str], serial: str, said: str
 ) -> None:
     with shipped_bench("ntc-sender", folder=tmp_path) as (bench, station):
         run = ["run", str(SENSOR_SCREEN), "--station", str(station.path), "--serial", serial]
         assert main([*run, "--yes"]) == EXIT_BAD_INPUT
         assert sum(bench.relay_box.operation_counts().values()) == 0
-    assert "--serial: the unit's serial number is blank" in capsys.readouterr().err
+    assert said in capsys.readouterr().err
     assert not station.store_path.exists() or _runs(station.store_path) == 0
 
 

@@ -23,19 +23,18 @@ from rig.console.setup import ConsoleSetup
 from rig.console.widgets import RunList
 from rig.plan import Plan
 from rig.run_admission import claim_problem, remark_problem
+from rig.run_admission import serial_problem as admitted_serial_problem
 
 RECENT_RUNS = 15
 
 
 def serial_problem(text: str) -> str:
-    """Why ``text`` cannot be a serial number, or empty when it can."""
+    """Why ``text`` cannot be a serial number, or empty when it can: the rule ``rig run``
+    keeps (``rig.run_admission``), said to the technician at the scanner."""
     if not text:
         return "scan or type the unit's serial number first"
-    if len(text) > 64:
-        return f"a serial number has at most 64 characters; this one has {len(text)}"
-    if any(not ch.isprintable() for ch in text):
-        return "the serial number contains a control character; scan it again"
-    return ""
+    problem = admitted_serial_problem(text)
+    return f"{problem}; scan it again" if "control character" in problem else problem
 
 
 def operator_line(operator: str) -> str:
