@@ -34,7 +34,9 @@ def check_calibration(station: Station, today: dt.date | None = None) -> list[st
         if not allowed:
             raise CalibrationPastDue(
                 f"{role} ({name}) was due for calibration on {due.isoformat()}; "
-                f"recalibrate it, or set allow_past_due = true under [{role}] in {station.path}"
+                "have it recalibrated; only whoever answers for the station's calibration "
+                f"may allow it meanwhile (allow_past_due = true under [{role}] in "
+                f"{station.path})"
             )
         notes.append(f"{role} calibration past due since {due.isoformat()} (allowed by station)")
     return notes

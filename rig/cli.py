@@ -451,13 +451,24 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
 
 
 def _show_probe(station: Station, out: Output) -> None:
-    """The reference thermometer the station states, as a run's record will name it."""
+    """The reference thermometer the station states, as a run's record will name it, and any
+    instrument or probe past its calibration due date: a station file can be valid while every
+    run on it is refused, and ``rig check`` is where that should be found, not at the bench."""
+    from rig.bench_open import CalibrationPastDue, check_calibration
+
     probe = station.reference_probe
     if probe is not None:
         due = probe.calibration_due.isoformat() if probe.calibration_due else "not given"
         out.line(
             f"reference probe: {probe.identity}, {probe.accuracy_text()}, calibration due {due}"
         )
+    try:
+        allowed = check_calibration(station)
+    except CalibrationPastDue as exc:
+        out.line(f"warning: every run on this station is refused until then: {exc}")
+        return
+    for note in allowed:
+        out.line(f"warning: {note}")
 
 
 def _limits_text(spec: StepSpec) -> str:

@@ -188,3 +188,22 @@ def test_coverage_reports_its_station_sequence_and_unit_together(
     assert "bad-station.toml:8 [station.watchdog]" in err
     assert "bad-sequence.toml [steps]: no steps" in err
     assert "bad-unit.toml:9 [wires.a.length]" in err
+
+
+def test_check_warns_of_a_station_every_run_on_which_is_refused(
+    example: dict[str, Path], capsys: pytest.CaptureFixture[str], tmp_path: Path
+) -> None:
+    """A DMM past its calibration due date: the file is valid, but every run on it is refused
+    (as `rig run` and the console refuse it); rig check, where a station is proved before it
+    reaches the floor, says so, and who may allow an exception."""
+    station = tmp_path / "past-due.toml"
+    text = example["station.toml"].read_text(encoding="utf-8")
+    assert text.count("calibration_due = ") >= 1
+    first = text.index("calibration_due = ")
+    end = text.index("\n", first)
+    station.write_text(text[:first] + "calibration_due = 2020-01-31" + text[end:], "utf-8")
+    code, out, err = check(capsys, "--station", station)
+    assert (code, err) == (0, "")
+    assert "every run on this station is refused until then" in out
+    assert "was due for calibration on 2020-01-31" in out
+    assert "only whoever answers for the station's calibration may allow it" in out
