@@ -180,3 +180,19 @@ def test_the_rows_that_alone_cut_a_part_off_a_net_with_two_splices(tmp_path: Pat
     assert cut(star, ["J3-1"]) == ["B2"]  # one branch
     assert cut(star, ["J2-1", "J3-1"]) == []  # no single open cuts off these two
     assert cut(chain, ["J5-1"]) == ["C1", "C2"]
+
+
+def test_a_file_that_is_no_wire_list_is_named_so_at_its_first_line(tmp_path: Path) -> None:
+    # the shipped sequence given where its wire list goes (a technician's slip): one problem at
+    # the line its header would be, not the CSV library's words about a later line
+    sequence = Path(__file__).parents[1] / "sequences" / "harness" / "harness-proof.toml"
+    with pytest.raises(ConfigError) as caught:
+        load_wire_list(sequence)
+    [problem] = caught.value.problems
+    first = next(
+        n
+        for n, line in enumerate(sequence.read_text().splitlines(), start=1)
+        if line.strip() and not line.startswith("#")
+    )
+    assert problem.line == first
+    assert str(problem).startswith(f"{sequence}:{first} [header]: not a wire list: its first line")

@@ -178,6 +178,26 @@ def parse_wire_list(text: str, path: Path, fixture: FixtureMap | None = None) ->
     ]
     if not numbered:
         raise ConfigError([Problem(name, "", "no header row; expected the columns " + _cols())])
+    # the header first: a file that is no wire list (a sequence given by mistake) is named as
+    # such, not as a CSV file that breaks on its second line
+    header_line = numbered[0][0]
+    written = [c.strip() for c in next(csv.reader([numbered[0][1]]))]
+    if not set(written) & set(COLUMNS):  # not one column of a wire list: another kind of file
+        first = numbered[0][1].strip()
+        raise ConfigError(
+            [
+                Problem(
+                    name,
+                    "header",
+                    f"not a wire list: its first line ({first[:40]!r}) names none of its "
+                    f"columns; expected a CSV header row with {_cols()}",
+                    line=header_line,
+                )
+            ]
+        )
+    ignored = _header_problems(written, Problem(name, "header", "", line=header_line), problems)
+    if problems:
+        raise ConfigError(problems)
     try:
         frame = pd.read_csv(
             io.StringIO("\n".join(line for _, line in numbered)),
@@ -187,14 +207,10 @@ def parse_wire_list(text: str, path: Path, fixture: FixtureMap | None = None) ->
         )
     except (pd.errors.ParserError, ValueError) as exc:
         line = _csv_error_line(str(exc), [number for number, _ in numbered])
-        raise ConfigError([Problem(name, "", f"not a valid CSV file: {exc}", line=line)]) from None
-    header_line = numbered[0][0]
+        words = _csv_words(str(exc), len(written))
+        raise ConfigError([Problem(name, "", words, line=line)]) from None
     columns = [str(c).strip() for c in frame.columns]
     frame.columns = pd.Index(columns)
-    written = [c.strip() for c in next(csv.reader([numbered[0][1]]))]
-    ignored = _header_problems(written, Problem(name, "header", "", line=header_line), problems)
-    if problems:
-        raise ConfigError(problems)
     wires = WireList(path, ignored=tuple(ignored))
     for index, record in enumerate(frame.to_dict("records")):
         line = numbered[index + 1][0]
@@ -210,6 +226,17 @@ def parse_wire_list(text: str, path: Path, fixture: FixtureMap | None = None) ->
     if problems:
         raise ConfigError(problems)
     return wires
+
+
+def _csv_words(message: str, header_fields: int) -> str:
+    """A pandas parse error in words of the file: a row with more fields than the header."""
+    found = re.search(r"Expected \d+ fields in line \d+, saw (\d+)", message)
+    if found is None:
+        return f"not a valid CSV file: {message}"
+    return (
+        f"this row has {found.group(1)} comma-separated fields, the header {header_fields}; "
+        "expected one field per header column (quote a field that holds a comma)"
+    )
 
 
 def _csv_error_line(message: str, numbers: list[int]) -> int:
