@@ -332,7 +332,10 @@ class Engine:
         abandoned = self._writes.meanwhile("mark_incomplete", station.name, INCOMPLETE_REASON)
         try:
             identities = self._identities()
-            self._warn(*abandoned_notes(abandoned.result()))
+            # the run this continues was left by a stopped controller too: it is said below,
+            # as continued, not as a run left unfinished
+            left = [run for run in abandoned.result() if run != resume]
+            self._warn(*abandoned_notes(left))
             done: dict[str, StepResult] = {}
             if resume is None:
                 started = self._writes.meanwhile(

@@ -76,6 +76,8 @@ def test_continuing_runs_only_the_remaining_steps(bench_files: tuple[Path, Path]
     assert [s["position"] for s in steps] == [1, 2, 3, 4, 5]
     assert run["serial"] == "SN-DEAD" and run["status"] == "complete"
     assert "3 of 5 steps were already done" in run["notes"]
+    # the run continued is not also warned of as one left unfinished (it was, and is no more)
+    assert not any(f"run {dead} was left unfinished" in w for w in summary.warnings)
 
 
 def test_a_new_start_marks_the_dead_run_incomplete(bench_files: tuple[Path, Path]) -> None:
