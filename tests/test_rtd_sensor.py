@@ -329,3 +329,29 @@ def test_diagnosis_fits_an_rtd_drift_well_under_one_percent(tmp_path: Path, drif
     top = found.hypotheses[0]
     named = [top.spec.split("=")[0], *(s.split("=")[0] for s in top.same_as)]
     assert top.spec != "none" and "drift:element" in named, found.hypotheses[:3]
+
+
+def test_check_gives_an_rtd_step_its_tur_before_any_run(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    """At a stated 23 degC (taken as exact) the U is the meter's alone, at the upper limit on the
+    10 kohm range the plan holds: the virtual station's 4-wire row is 0.010 % of reading + 0.001 %
+    of range, a rectangular bound (GUM 4.3.7: u = a / sqrt(3)), k = 2; the window is class B
+    through the slope (IEC 60751), and TUR = span / (2 U)."""
+    unit_path, sequence = _files(tmp_path)
+    text = sequence.read_text().replace('temperature_from = "well"', 'temperature = "23 degC"')
+    sequence.write_text(text, encoding="utf-8")
+    unit = load_unit(unit_path)
+    with VirtualBench(unit, load_fixture(unit.fixture_path)) as bench:
+        station = bench.write_station(tmp_path / "station.toml", data_dir=str(tmp_path / "data"))
+        check = ["check", str(sequence), "--station", str(station), "--unit", str(unit_path)]
+        assert main(check) == 0
+    out = capsys.readouterr().out
+    predicted = pt_r(1000.0, 23.0)
+    half = (0.30 + 0.005 * 23.0) * pt_slope(1000.0, 23.0)
+    high = predicted + half
+    expanded = 2 * (0.010e-2 * high + 0.001e-2 * 10_000) / 3**0.5
+    tur = 2 * half / (2 * expanded)
+    row = next(line for line in out.splitlines() if line.startswith("element "))
+    assert f"{expanded * 1000:.4g} mohm" in row, (row, expanded)
+    assert f"{tur:.1f}:1" in row, (row, tur)

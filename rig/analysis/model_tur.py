@@ -1,4 +1,5 @@
-"""The test uncertainty ratio of an ntc or ratiometric step, whose limits move with the prediction.
+"""The test uncertainty ratio of an ntc, rtd or ratiometric step, whose limits move with the
+prediction.
 
 An ntc step's limits are its prediction ± its tolerance, and the prediction follows the measured
 temperature, so the file alone gives no TUR (``rig check`` shows ``-``).  With a unit file the
@@ -30,12 +31,14 @@ from rig.config.unit_file import UnitModel
 from rig.judge.decision import COVERAGE_K, Limits, test_uncertainty_ratio
 from rig.judge.propagate import u_quotient
 from rig.models.ratiometric import Ratiometric
+from rig.models.rtd import T_MAX_C, T_MIN_C, Rtd
 from rig.plan import Plan, PlannedStep
 from rig.step_judging import autorange_estimate, reading_u
 from rig.steps import KINDS
 from rig.steps.model_steps import ntc_window
+from rig.steps.rtd_step import rtd_limits
 
-MODEL_KINDS = ("ntc", "ratiometric")
+MODEL_KINDS = ("ntc", "rtd", "ratiometric")
 """The step kinds judged around a prediction that a unit file makes known before a run."""
 
 Tolerance = tuple[str, float]
@@ -73,7 +76,12 @@ def model_step_turs(
     temperature range, with its own tolerance or the one ``tolerances`` gives for its id (a
     proposal, before it is pasted); a step the prediction gives no usable value for is left
     out."""
-    model = [p for p in plan.steps if p.spec.kind in MODEL_KINDS and p.spec.params.get("model")]
+    model = [
+        p
+        for p in plan.steps
+        if p.spec.kind in MODEL_KINDS
+        and (p.spec.params.get("model") or p.spec.params.get("r0_ohm"))
+    ]
     if not model:
         return {}
     temps = unit.ambient_range_c or (unit.ambient_c,)
@@ -88,6 +96,8 @@ def model_step_turs(
                 at = _ratiometric_tur_at(
                     plan, planned, supply.get(planned.spec.id), temp_c, tolerance
                 )
+            elif planned.spec.kind == "rtd":
+                at = _rtd_tur_at(plan, planned, by_id, temp_c, tolerance)
             else:
                 at = _tur_at(plan, planned, by_id, temp_c, tolerance)
             if at is not None:
@@ -129,6 +139,43 @@ def _ratiometric_tur_at(
         station, function, v_out, planned.range_ or autorange_estimate(station, function, v_out)
     )
     expanded = COVERAGE_K * 100.0 * u_quotient(v_out, supply.value, u_out, supply.u_std)
+    tur = test_uncertainty_ratio(limits, expanded) if math.isfinite(expanded) else None
+    return None if tur is None else TurAt(temp_c, expanded, tur)
+
+
+def _rtd_tur_at(
+    plan: Plan,
+    planned: PlannedStep,
+    by_id: Mapping[str, StepPrediction],
+    temp_c: float,
+    tolerance: Tolerance | None,
+) -> TurAt | None:
+    """An rtd step's U and TUR at the temperature its reference is predicted to read: the window
+    is R(T) (IEC 60751) ± its class through the slope there, or ± its tolerance; the meter read
+    at the window's upper limit on the range the plan holds, the temperature's uncertainty
+    carried through the slope, as a run judges it (``rig.steps.rtd_step``)."""
+    spec = planned.spec
+    params = dict(spec.params)
+    if tolerance is not None:
+        params["tolerance"], params["tolerance_class"] = tolerance, None
+    if params.get("tolerance") is None and params.get("tolerance_class") is None:
+        return None
+    spec = replace(spec, params=params)
+    temperature = _input(by_id, params.get("temperature_from"), params.get("temperature_c"))
+    if temperature is None or not T_MIN_C <= temperature[0] <= T_MAX_C:
+        return None
+    temp, u_temp = temperature
+    rtd = Rtd(r0_ohm=float(params["r0_ohm"]))
+    limits = rtd_limits(spec, temp, float(rtd.r_at(temp)))
+    at = limits.high
+    assert at is not None  # a class or a tolerance gives both sides
+    function = KINDS[spec.kind].meter_function(spec)
+    assert function is not None  # an rtd step reads ohms
+    station = plan.station
+    u_meter = reading_u(
+        station, function, at, planned.range_ or autorange_estimate(station, function, at)
+    )
+    expanded = COVERAGE_K * math.hypot(u_meter, float(rtd.dr_dt(temp)) * u_temp)
     tur = test_uncertainty_ratio(limits, expanded) if math.isfinite(expanded) else None
     return None if tur is None else TurAt(temp_c, expanded, tur)
 
