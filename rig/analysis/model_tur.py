@@ -134,13 +134,9 @@ def _ratiometric_tur_at(
     limits = Limits(predicted - float(tol), predicted + float(tol))
     assert limits.high is not None
     v_out = limits.high / 100.0 * supply.value
-    station, function = plan.station, MeterFunction.DC_VOLTS
-    u_out = reading_u(
-        station, function, v_out, planned.range_ or autorange_estimate(station, function, v_out)
-    )
+    u_out = _meter_u(plan, planned, MeterFunction.DC_VOLTS, v_out)
     expanded = COVERAGE_K * 100.0 * u_quotient(v_out, supply.value, u_out, supply.u_std)
-    tur = test_uncertainty_ratio(limits, expanded) if math.isfinite(expanded) else None
-    return None if tur is None else TurAt(temp_c, expanded, tur)
+    return _tur_of(limits, expanded, temp_c)
 
 
 def _rtd_tur_at(
@@ -171,13 +167,9 @@ def _rtd_tur_at(
     assert at is not None  # a class or a tolerance gives both sides
     function = KINDS[spec.kind].meter_function(spec)
     assert function is not None  # an rtd step reads ohms
-    station = plan.station
-    u_meter = reading_u(
-        station, function, at, planned.range_ or autorange_estimate(station, function, at)
-    )
+    u_meter = _meter_u(plan, planned, function, at)
     expanded = COVERAGE_K * math.hypot(u_meter, float(rtd.dr_dt(temp)) * u_temp)
-    tur = test_uncertainty_ratio(limits, expanded) if math.isfinite(expanded) else None
-    return None if tur is None else TurAt(temp_c, expanded, tur)
+    return _tur_of(limits, expanded, temp_c)
 
 
 def _tur_at(
@@ -207,11 +199,22 @@ def _tur_at(
     assert at is not None  # a tolerance gives both sides
     function = KINDS[spec.kind].meter_function(spec)
     assert function is not None  # an ntc step reads ohms or volts
-    station = plan.station
-    range_ = planned.range_ or autorange_estimate(station, function, at)
-    u_meter = reading_u(station, function, at, range_)
+    u_meter = _meter_u(plan, planned, function, at)
     expanded = COVERAGE_K * math.hypot(u_meter, window.u_std)
-    tur = test_uncertainty_ratio(window.limits, expanded) if math.isfinite(expanded) else None
+    return _tur_of(window.limits, expanded, temp_c)
+
+
+def _meter_u(plan: Plan, planned: PlannedStep, function: MeterFunction, value: float) -> float:
+    """The meter's standard uncertainty of ``value`` on the range the plan holds for the step
+    (the one autorange would pick where it holds none), as ``rig check`` takes it at a limit."""
+    station = plan.station
+    range_ = planned.range_ or autorange_estimate(station, function, value)
+    return reading_u(station, function, value, range_)
+
+
+def _tur_of(limits: Limits, expanded: float, temp_c: float) -> TurAt | None:
+    """The step's U and TUR at ``temp_c``; None where U is not known."""
+    tur = test_uncertainty_ratio(limits, expanded) if math.isfinite(expanded) else None
     return None if tur is None else TurAt(temp_c, expanded, tur)
 
 
