@@ -55,7 +55,12 @@ def main(argv: list[str] | None = None) -> int:
     parser = _parser()
     words = sys.argv[1:] if argv is None else argv
     args = parser.parse_args(join_signed_values(words, value_options(parser)))
-    logging.basicConfig(level=logging.WARNING if not args.verbose else logging.DEBUG)
+    # what a technician must act on is said as `warning:` lines by the commands themselves; the
+    # library's own log shows only its errors, in rig's words, unless --verbose asks for all
+    logging.basicConfig(
+        level=logging.DEBUG if args.verbose else logging.ERROR,
+        format="%(levelname)s %(name)s: %(message)s" if args.verbose else "rig: %(message)s",
+    )
     out = Output()
     _sigterm_as_interrupt()
     try:

@@ -418,3 +418,31 @@ def test_sim_on_a_port_in_use_says_so_and_leaves_nothing_listening(
     err = capsys.readouterr().err
     assert code == EXIT_ABORTED and "Traceback" not in err
     assert f"cannot listen on 127.0.0.1:{port}" in err
+
+
+def test_the_librarys_log_shows_its_errors_in_rigs_words_and_keeps_its_warnings_quiet(
+    tmp_path: Path,
+) -> None:
+    """What a technician must act on is said by the commands as `warning:` lines; the library's
+    log (a driver's retry, a cleared trip) repeated them raw (`WARNING:drivers.relay_serial:...`).
+    A process that ran a rig command logs errors as `rig: ...` and warnings not at all, unless
+    --verbose."""
+    script = (
+        "import logging, sys\n"
+        "from rig.cli import main\n"
+        "main(sys.argv[1:])\n"
+        "logging.getLogger('drivers.relay_serial').warning('a warning the commands say')\n"
+        "logging.getLogger('drivers.relay_serial').error('heartbeat stopped')\n"
+    )
+    station = SEQUENCES / "units" / "ntc-sender.toml"
+    for extra, warned in (([], False), (["--verbose"], True)):
+        done = subprocess.run(
+            [sys.executable, "-c", script, *extra, "check", "--unit", str(station)],
+            capture_output=True,
+            text=True,
+            check=True,
+        )
+        assert ("a warning the commands say" in done.stderr) is warned, done.stderr
+        assert "WARNING:drivers" not in done.stderr
+        if not warned:
+            assert "rig: heartbeat stopped" in done.stderr
