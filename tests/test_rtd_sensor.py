@@ -355,3 +355,12 @@ def test_check_gives_an_rtd_step_its_tur_before_any_run(
     row = next(line for line in out.splitlines() if line.startswith("element "))
     assert f"{expanded * 1000:.4g} mohm" in row, (row, expanded)
     assert f"{tur:.1f}:1" in row, (row, tur)
+
+
+def test_a_class_written_in_lower_case_is_refused_with_the_spelling_meant(tmp_path: Path) -> None:
+    # IEC 60751 writes its classes in capitals (AA, A, B); 'b' is a slip of 'B'
+    _, sequence = _files(tmp_path, 'tolerance_class = "b"')
+    with pytest.raises(ConfigError) as caught:
+        load_sequence(sequence)
+    [problem] = caught.value.problems
+    assert str(problem).endswith("expected one of 'AA', 'A', 'B', found 'b'; did you mean 'B'?")

@@ -136,7 +136,9 @@ class Section:
         if value is default:
             return value
         if not isinstance(value, str) or (choices and value not in choices):
-            self.problem(name, f"expected {expected}, found {_describe(value)}")
+            meant = _choice_meant(value, choices)
+            hint = f"; did you mean {meant!r}?" if meant else ""
+            self.problem(name, f"expected {expected}, found {_describe(value)}{hint}")
             return default if default is not _MISSING else None
         return value
 
@@ -311,6 +313,14 @@ class Section:
                 self.problem(name, f"unknown key; did you mean {meant!r}? Expected one of: {known}")
             else:
                 self.problem(name, f"unknown key; expected one of: {known}")
+
+
+def _choice_meant(value: object, choices: tuple[str, ...]) -> str | None:
+    """The one choice ``value`` differs from in letter case alone ('b' for 'B'), if any."""
+    if not isinstance(value, str):
+        return None
+    same = [c for c in choices if c.lower() == value.lower()]
+    return same[0] if len(same) == 1 else None
 
 
 def close_key(name: str, keys: Iterable[str]) -> str | None:
