@@ -662,10 +662,10 @@ def _screen_decision(plan: Plan, summary: RunSummary) -> ScreenDecision | None:
 
 
 def serial_option_problem(serial: str) -> str:
-    """``serial_problem`` in the words of the option that gave the serial."""
-    from rig.run_admission import serial_problem
+    """``entered_serial_problem`` in the words of the option that gave the serial."""
+    from rig.run_admission import entered_serial_problem
 
-    problem = serial_problem(serial)
+    problem = entered_serial_problem(serial)
     return f"--serial: {problem}" if problem else ""
 
 

@@ -21,10 +21,18 @@ published source), short enough for a column of ``rig runs``."""
 
 def serial_problem(serial: str) -> str:
     """Why ``serial`` cannot name the unit in a record, or empty when it can: a run filed under
-    a blank serial cannot be found again, and one with a control character (a tab from a
-    scanner set up wrongly) cannot be typed to find it, and breaks the tables that list it."""
-    if not serial.strip():
-        return "the unit's serial number is blank; give it"
+    a blank serial cannot be found again.  What else a serial holds is kept as given (escaped
+    where it is shown, ``rig.entry_text``): a record never loses what it was filed under."""
+    return "" if serial.strip() else "the unit's serial number is blank; give it"
+
+
+def entered_serial_problem(serial: str) -> str:
+    """``serial_problem``, and, for a serial a person types or scans, one with a control
+    character (a scanner set to send a tab) or longer than ``SERIAL_MAX_CHARS``: it cannot be
+    typed again to find the run, and it breaks the tables that list it.  The commands and the
+    console ask this before a run."""
+    if serial_problem(serial):
+        return serial_problem(serial)
     if len(serial) > SERIAL_MAX_CHARS:
         return (
             f"a serial number has at most {SERIAL_MAX_CHARS} characters; this one has {len(serial)}"

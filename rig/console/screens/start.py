@@ -22,8 +22,7 @@ from textual.widgets.option_list import Option
 from rig.console.setup import ConsoleSetup
 from rig.console.widgets import RunList
 from rig.plan import Plan
-from rig.run_admission import claim_problem, remark_problem
-from rig.run_admission import serial_problem as admitted_serial_problem
+from rig.run_admission import claim_problem, entered_serial_problem, remark_problem
 
 RECENT_RUNS = 15
 
@@ -33,7 +32,7 @@ def serial_problem(text: str) -> str:
     keeps (``rig.run_admission``), said to the technician at the scanner."""
     if not text:
         return "scan or type the unit's serial number first"
-    problem = admitted_serial_problem(text)
+    problem = entered_serial_problem(text)
     return f"{problem}; scan it again" if "control character" in problem else problem
 
 
