@@ -73,6 +73,16 @@ def test_a_run_keeps_its_claim_and_remark_and_every_record_shows_them(
     }  # exact, as --serial is
     table = _out(capsys, "runs", "--store", store)
     assert re.search(rf"NTC-7 .* {re.escape(CLAIM)}\s*$", table, re.M)
+    # each screen run with its decision, as rig run stated it (a good sender: no fault found)
+    assert [r["decision"] for r in found["runs"]] == ["no fault found"]
+    assert re.search(r"NTC-8 .* pass\s+no fault found", table), table
+    # the match is exact, and where a claim differs in letter case or spaces alone it says so
+    near = CLAIM.lower().replace(" ", "  ")
+    said = _out(capsys, "runs", "--store", store, "--claim", near)
+    assert said.strip() == (
+        "no stored run matches; --claim matches exactly (letter case and spaces count): "
+        f"stored as {CLAIM!r}"
+    )
     report = ("report", run_id, "--store", store, "--out", "-", "--format")
     record = json.loads(_out(capsys, *report, "json"))
     assert (record["run"]["claim"], record["run"]["remark"]) == (CLAIM, REMARK)

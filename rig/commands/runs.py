@@ -16,10 +16,11 @@ from typing import Any
 
 from rig.cli_output import Output
 from rig.commands._store_args import ArgumentProblem, add_store_args, open_from_args
+from rig.screening import decision_word, is_screen
 from rig.store import ResultStore
 
 EXIT_OK, EXIT_BAD_INPUT = 0, 2
-COLUMNS = ("run", "serial", "sequence", "started", "status", "verdict", "claim")
+COLUMNS = ("run", "serial", "sequence", "started", "status", "verdict", "decision", "claim")
 
 
 def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
@@ -55,19 +56,21 @@ def cmd_runs(args: argparse.Namespace, out: Output) -> int:
         return EXIT_BAD_INPUT
     try:
         rows = store.run_rows(replace(where, study=None))
+        picked = [
+            r
+            for r in rows
+            if (args.serial is None or r[1] == args.serial)
+            and (args.claim is None or r[8] == args.claim)
+        ]
+        screens = {name: is_screen(store.sequence_units(name)) for name in {r[2] for r in picked}}
     finally:
         store.close()
-    found = [  # oldest first
-        _row(r)
-        for r in rows
-        if (args.serial is None or r[1] == args.serial)
-        and (args.claim is None or r[8] == args.claim)
-    ]
+    found = [_row(r, screens[str(r[2])]) for r in picked]  # oldest first
     if args.json:
         out.json({"runs": found})
         return EXIT_OK
     if not found:
-        out.line("no stored run matches")
+        out.line("no stored run matches" + _claim_hint(args.claim, rows))
         return EXIT_OK
     out.table(list(COLUMNS), [[str(r[c] or "") for c in COLUMNS] for r in found])
     return EXIT_OK
@@ -85,9 +88,14 @@ def _own_store(args: argparse.Namespace) -> ResultStore:
     return open_from_args(args).store
 
 
-def _row(row: Any) -> dict[str, Any]:
-    """One run as a line, from ``ResultStore.run_rows``."""
-    run_id, serial, sequence, started, status, verdict, _, _, claim, _ = row[:10]
+def _row(row: Any, screen: bool) -> dict[str, Any]:
+    """One run as a line, from ``ResultStore.run_rows``; a screen's run with its decision on
+    the unit (``rig.screening``, as ``rig run`` and ``rig stats`` state it), a harness proof's
+    with none."""
+    run_id, serial, sequence, started, status, verdict, _, _, claim, answered_no = row[:10]
+    decision = (
+        decision_word(str(status), verdict, answered_no=bool(answered_no)) if screen else None
+    )
     return {
         "run": int(run_id),
         "serial": serial,
@@ -95,5 +103,22 @@ def _row(row: Any) -> dict[str, Any]:
         "started": str(started),
         "status": status,
         "verdict": verdict,
+        "decision": decision,
         "claim": claim,
     }
+
+
+def _claim_hint(claim: str | None, rows: list[Any]) -> str:
+    """Where ``--claim`` found nothing: the claims that differ from it in letter case or spaces
+    alone, since the match is exact (a claim is kept as it was given)."""
+    if claim is None:
+        return ""
+    folded = "".join(claim.split()).lower()
+    near = sorted(
+        {str(r[8]) for r in rows if r[8] and "".join(str(r[8]).split()).lower() == folded}
+    )
+    if not near:
+        return ""
+    return "; --claim matches exactly (letter case and spaces count): stored as " + ", ".join(
+        repr(c) for c in near
+    )
