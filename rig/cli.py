@@ -711,6 +711,12 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
         out.line(CAUTION)
         if _reads_a_well(plan):
             out.line(WELL_CAUTION)
+        if not continuing:
+            from rig.tested_before import tested_before
+
+            seen = tested_before(plan.station.store_path, args.serial, plan.sequence.name)
+            if seen:
+                out.line(seen)
 
     def ask(text: str) -> bool:
         if args.yes:

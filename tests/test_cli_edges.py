@@ -14,7 +14,7 @@ from pathlib import Path
 import pytest
 from bench_helpers import MIDWAY_STOP, SEQUENCES, shipped_bench, shipped_plan
 
-from rig.cli import EXIT_ABORTED, EXIT_BAD_INPUT, main
+from rig.cli import EXIT_ABORTED, EXIT_BAD_INPUT, EXIT_PASS, main
 from rig.cli_output import Output
 from rig.events import StepResult
 from rig.judge.decision import DecisionRule, Limits, Verdict
@@ -446,3 +446,23 @@ def test_the_librarys_log_shows_its_errors_in_rigs_words_and_keeps_its_warnings_
         assert "WARNING:drivers" not in done.stderr
         if not warned:
             assert "rig: heartbeat stopped" in done.stderr
+
+
+def test_a_unit_tested_before_is_said_before_its_run_and_still_runs(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # a label scanned twice, or a unit back on the bench: a retest is normal (common practice,
+    # no published source), so it is said, not refused, and every run is kept
+    with shipped_bench("ntc-sender", folder=tmp_path) as (_, station):
+        run = ["run", str(SENSOR_SCREEN), "--station", str(station.path), "--yes"]
+        assert main([*run, "--serial", "DUP-1"]) == EXIT_PASS
+        assert "note: DUP-1 has" not in capsys.readouterr().out
+        assert main([*run, "--serial", "DUP-1"]) == EXIT_PASS
+        second = capsys.readouterr().out
+        assert main([*run, "--serial", "DUP-2"]) == EXIT_PASS
+        other = capsys.readouterr().out
+    assert (
+        "note: DUP-1 has an earlier run of ntc-sender-screen on this station; the latest: run 1, "
+        "pass (complete), started " in second
+    )
+    assert "note:" not in other and _runs(station.store_path) == 3

@@ -165,6 +165,7 @@ def _run(
     from rig.plan import build_plan
     from rig.run_admission import operator_problem
     from rig.runner import run_plan
+    from rig.tested_before import tested_before
 
     station = load_station(args.station)
     problem = (
@@ -190,6 +191,9 @@ def _run(
         out.quiet = True
     else:
         out.line(HARNESS_CAUTION)
+        seen = tested_before(station.store_path, args.serial, plan.sequence.name)
+        if seen:
+            out.line(seen)
     summary = run_plan(
         plan,
         args.serial,
