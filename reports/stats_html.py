@@ -40,7 +40,8 @@ def frame_table(frame: pd.DataFrame, percent: Sequence[str] = (), table_id: str 
                 row.append(str(value))
         rows.append(row)
     numeric = [i for i, c in enumerate(frame.columns) if frame[c].dtype.kind in "fiu"]
-    return table([str(c) for c in frame.columns], rows, numeric=numeric, table_id=table_id)
+    heads = [str(c).replace("_", " ") for c in frame.columns]  # the JSON's keys, in words
+    return table(heads, rows, numeric=numeric, table_id=table_id)
 
 
 def _step_section(step: StepStats, series: Sequence[tuple[dt.datetime, float]]) -> str:

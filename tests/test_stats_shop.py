@@ -247,6 +247,8 @@ def test_stats_page_has_tables_and_charts(
     assert main([*args, "--html", str(page)]) == 0
     html = page.read_text(encoding="utf-8")
     assert 'id="yield"' in html and 'id="pareto-steps"' in html
+    # column heads in words, not the JSON's keys
+    assert "<th>first pass yield</th>" in html and "first_pass_yield" not in html
     # one histogram and one trend chart per numeric step group, and the Pareto chart
     assert html.count("<svg") >= 2 * 3 + 1
     # self-contained: the only addresses are the XML namespace names of SVG (never fetched)
