@@ -256,6 +256,11 @@ class Engine:
         have closed (``_switch_on``)."""
         self._supply_relays = supply_bus_relays(plan.station.fixture)
         """The fixture's relays to the supply's buses: found once, checked at every change."""
+        self._model_params = {
+            p.spec.id: KINDS[p.spec.kind].model_parameters(p.spec) for p in plan.steps
+        }
+        """Each step's model parameters as text for its record: fixed by the plan, so written
+        once here, not between a run's readings."""
         self._moves = 0
         """Relay and supply changes so far; a settled reading is valid until the next one."""
         self._settled_state: tuple[object, ...] | None = None
@@ -743,7 +748,7 @@ class Engine:
                 "settle_s": result.settle_s,
                 "note": result.note,
                 "extras": result.extras,
-                "model_params": KINDS[spec.kind].model_parameters(spec),
+                "model_params": self._model_params[spec.id],
             },
         )
 

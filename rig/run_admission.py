@@ -31,8 +31,9 @@ def entered_serial_problem(serial: str) -> str:
     character (a scanner set to send a tab) or longer than ``SERIAL_MAX_CHARS``: it cannot be
     typed again to find the run, and it breaks the tables that list it.  The commands and the
     console ask this before a run."""
-    if serial_problem(serial):
-        return serial_problem(serial)
+    blank = serial_problem(serial)
+    if blank:
+        return blank
     if len(serial) > SERIAL_MAX_CHARS:
         return (
             f"a serial number has at most {SERIAL_MAX_CHARS} characters; this one has {len(serial)}"

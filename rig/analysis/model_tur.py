@@ -31,12 +31,12 @@ from rig.config.unit_file import UnitModel
 from rig.judge.decision import COVERAGE_K, Limits, test_uncertainty_ratio
 from rig.judge.propagate import u_quotient
 from rig.models.ratiometric import Ratiometric
-from rig.models.rtd import T_MAX_C, T_MIN_C, Rtd
+from rig.models.rtd import T_MAX_C, T_MIN_C
 from rig.plan import Plan, PlannedStep
 from rig.step_judging import autorange_estimate, reading_u
 from rig.steps import KINDS
 from rig.steps.model_steps import ntc_window
-from rig.steps.rtd_step import rtd_limits
+from rig.steps.rtd_step import rtd_window
 
 MODEL_KINDS = ("ntc", "rtd", "ratiometric")
 """The step kinds judged around a prediction that a unit file makes known before a run."""
@@ -160,16 +160,14 @@ def _rtd_tur_at(
     temperature = _input(by_id, params.get("temperature_from"), params.get("temperature_c"))
     if temperature is None or not T_MIN_C <= temperature[0] <= T_MAX_C:
         return None
-    temp, u_temp = temperature
-    rtd = Rtd(r0_ohm=float(params["r0_ohm"]))
-    limits = rtd_limits(spec, temp, float(rtd.r_at(temp)))
-    at = limits.high
+    window = rtd_window(spec, temperature)
+    at = window.limits.high
     assert at is not None  # a class or a tolerance gives both sides
     function = KINDS[spec.kind].meter_function(spec)
     assert function is not None  # an rtd step reads ohms
     u_meter = _meter_u(plan, planned, function, at)
-    expanded = COVERAGE_K * math.hypot(u_meter, float(rtd.dr_dt(temp)) * u_temp)
-    return _tur_of(limits, expanded, temp_c)
+    expanded = COVERAGE_K * math.hypot(u_meter, window.u_std)
+    return _tur_of(window.limits, expanded, temp_c)
 
 
 def _tur_at(

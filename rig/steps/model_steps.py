@@ -391,7 +391,7 @@ class NtcCheck(StepKind):
 
 @dataclass(frozen=True)
 class NtcWindow:
-    """What an ntc step judges a reading against at one reference temperature."""
+    """What an ntc (or rtd) step judges a reading against at one reference temperature."""
 
     predicted: float
     """R(T), or the divider voltage it gives, in the step's unit."""

@@ -21,12 +21,24 @@ from rig.steps.limits import apply_tolerance, read_tolerance, tolerance_text
 from rig.steps.meter_steps import lead_zero_of, ohms_function, ohms_route, read_two_or_four_wire
 from rig.steps.model_steps import (
     IEC_60751,
+    NtcWindow,
     recorded,
     temperature_at,
     temperature_bounds,
     temperature_parameters,
     temperature_source,
 )
+
+
+def rtd_window(spec: StepSpec, temperature: tuple[float, float]) -> NtcWindow:
+    """An rtd step's prediction R(T) (IEC 60751), its standard uncertainty from the temperature's
+    through the slope (GUM 5.1.2), and its limits, at a temperature (value, standard uncertainty
+    in degC): the one computation a run judges by and ``rig check`` weighs the meter against.
+    A temperature off the curve is refused by the model (the step's error)."""
+    temp, u_temp = temperature
+    rtd = Rtd(r0_ohm=float(spec.params["r0_ohm"]))
+    predicted = float(rtd.r_at(temp))
+    return NtcWindow(predicted, float(rtd.dr_dt(temp)) * u_temp, rtd_limits(spec, temp, predicted))
 
 
 def rtd_limits(spec: StepSpec, temp_c: float, predicted_ohm: float) -> Limits:
@@ -115,17 +127,15 @@ class RtdCheck(StepKind):
             ohms_route(spec), ohms_function(spec), role="rtd", range_=spec.range_, nplc=spec.nplc
         )
         zero = lead_zero_of(ctx, spec)
-        temp, u_temp = temperature_at(ctx, spec)
-        rtd = Rtd(r0_ohm=float(spec.params["r0_ohm"]))
-        predicted = float(rtd.r_at(temp))  # a temperature off the curve: the step's error
-        u_predicted = float(rtd.dr_dt(temp)) * u_temp
+        temperature = temperature_at(ctx, spec)
+        window = rtd_window(spec, temperature)
         return Outcome(
             reading.value - zero,
             self.unit,
-            math.hypot(reading.u_std, u_predicted),
-            rtd_limits(spec, temp, predicted),
+            math.hypot(reading.u_std, window.u_std),
+            window.limits,
             [reading],
-            predicted=predicted,
-            extras={"temperature_c": temp},
+            predicted=window.predicted,
+            extras={"temperature_c": temperature[0]},
             note=f"lead zero {zero:g} ohm subtracted" if zero else "",
         )
