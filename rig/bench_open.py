@@ -16,29 +16,42 @@ class CalibrationPastDue(RigError):
     """An instrument's calibration is past due and the station file does not allow it."""
 
 
-def check_calibration(station: Station, today: dt.date | None = None) -> list[str]:
-    """Refuse a past-due instrument or reference probe unless the station allows it by name;
-    returns notes."""
+def check_calibration(
+    station: Station, today: dt.date | None = None, *, reads_probe: bool = True
+) -> list[str]:
+    """Refuse past-due instruments or a past-due reference probe unless the station allows each
+    by name, naming every one at once (met one at a time, each would cost a trip to the bench);
+    returns notes.  The probe counts only where the sequence reads it (``reads_probe``): a
+    past-due thermometer does not stop a sequence that never uses it."""
     today = today or dt.date.today()
     dated = [
         (role, config.resource, config.calibration_due, config.allow_past_due)
         for role, config in station.instruments.items()
     ]
     probe = station.reference_probe
-    if probe is not None:
+    if probe is not None and reads_probe:
         dated.append((PROBE_ROLE, probe.identity, probe.calibration_due, probe.allow_past_due))
-    notes = []
+    notes, refused = [], []
     for role, name, due, allowed in dated:
         if due is None or due >= today:
             continue
-        if not allowed:
-            raise CalibrationPastDue(
-                f"{role} ({name}) was due for calibration on {due.isoformat()}; "
-                "have it recalibrated; only whoever answers for the station's calibration "
-                f"may allow it meanwhile (allow_past_due = true under [{role}] in "
-                f"{station.path})"
+        if allowed:
+            notes.append(
+                f"{role} calibration past due since {due.isoformat()} (allowed by station)"
             )
-        notes.append(f"{role} calibration past due since {due.isoformat()} (allowed by station)")
+        else:
+            refused.append((role, name, due))
+    if refused:
+        items = "; ".join(
+            f"{role} ({name}) was due for calibration on {due.isoformat()}"
+            for role, name, due in refused
+        )
+        keys = ", ".join(f"[{role}]" for role, _, _ in refused)
+        raise CalibrationPastDue(
+            f"{items}; have {'it' if len(refused) == 1 else 'them'} recalibrated; only whoever "
+            "answers for the station's calibration may allow it meanwhile (allow_past_due = "
+            f"true under {keys} in {station.path})"
+        )
     return notes
 
 

@@ -381,7 +381,7 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
     out.line(f"sequence {plan.sequence.name} ({args.sequence}) on station {station.name}: valid")
     if station.operator_required:
         out.line("operator: required by the station (operator_required); run with --operator NAME")
-    _show_probe(station, out)
+    _show_probe(station, out, reads_probe=plan.reads_reference_probe)
     rows = []
     for step in plan.steps:
         spec = step.spec
@@ -455,10 +455,11 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
     return 0
 
 
-def _show_probe(station: Station, out: Output) -> None:
+def _show_probe(station: Station, out: Output, reads_probe: bool = True) -> None:
     """The reference thermometer the station states, as a run's record will name it, and any
     instrument or probe past its calibration due date: a station file can be valid while every
-    run on it is refused, and ``rig check`` is where that should be found, not at the bench."""
+    run on it is refused, and ``rig check`` is where that should be found, not at the bench.
+    With a sequence, the probe's date counts only if the sequence reads the probe."""
     from rig.bench_open import CalibrationPastDue, check_calibration
 
     probe = station.reference_probe
@@ -468,9 +469,9 @@ def _show_probe(station: Station, out: Output) -> None:
             f"reference probe: {probe.identity}, {probe.accuracy_text()}, calibration due {due}"
         )
     try:
-        allowed = check_calibration(station)
+        allowed = check_calibration(station, reads_probe=reads_probe)
     except CalibrationPastDue as exc:
-        out.line(f"warning: every run on this station is refused until then: {exc}")
+        out.line(f"warning: rig run will refuse to start on this station: {exc}")
         return
     for note in allowed:
         out.line(f"warning: {note}")

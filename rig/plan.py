@@ -9,6 +9,7 @@ meter range each step will hold, and the run's duration at the physical limit of
 from __future__ import annotations
 
 import math
+from collections.abc import Iterable
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -91,6 +92,11 @@ class Plan:
     timing: InstrumentTiming = field(default_factory=InstrumentTiming)
     warnings: list[str] = field(default_factory=list)
     """What the plan allows but a run would regret (``rig check`` prints them)."""
+
+    @property
+    def reads_reference_probe(self) -> bool:
+        """Whether a step reads the station's reference thermometer (its calibration matters)."""
+        return reads_reference_probe(self.sequence.steps)
 
     @property
     def relay_ops(self) -> int:
@@ -191,6 +197,10 @@ def _switching_cost(
     return relay_operations(path, start), seconds
 
 
+def reads_reference_probe(steps: Iterable[StepSpec]) -> bool:
+    return any(spec.kind == "reference-temperature" for spec in steps)
+
+
 NO_PROBE_WARNING = (
     "the station states no [reference_probe]: reference-temperature steps carry only the "
     "meter's uncertainty, not the probe's own, and the record names no reference thermometer"
@@ -275,9 +285,7 @@ def build_plan(sequence: Sequence, station: Station) -> Plan:
         planned[spec.id] = PlannedStep(spec, relay_sets, held)
     if problems:
         raise ConfigError(problems)
-    if station.reference_probe is None and any(
-        spec.kind == "reference-temperature" for spec in sequence.steps
-    ):
+    if station.reference_probe is None and reads_reference_probe(sequence.steps):
         warnings.append(NO_PROBE_WARNING)
     plan = Plan(sequence, station, warnings=warnings)
     in_file = list(planned.values())

@@ -68,7 +68,7 @@ def run_plan(
     refuse_unfiled(  # before anything is opened
         plan.station, serial, operator, continuing=resume is not None, claim=claim, remark=remark
     )
-    warnings = check_calibration(plan.station)
+    warnings = check_calibration(plan.station, reads_probe=plan.reads_reference_probe)
     own_store = store is None
     if own_store:
         send_waiting_runs(plan.station, on_sync)

@@ -204,6 +204,6 @@ def test_check_warns_of_a_station_every_run_on_which_is_refused(
     station.write_text(text[:first] + "calibration_due = 2020-01-31" + text[end:], "utf-8")
     code, out, err = check(capsys, "--station", station)
     assert (code, err) == (0, "")
-    assert "every run on this station is refused until then" in out
+    assert "rig run will refuse to start on this station" in out
     assert "was due for calibration on 2020-01-31" in out
     assert "only whoever answers for the station's calibration may allow it" in out

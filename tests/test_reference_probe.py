@@ -224,3 +224,40 @@ def test_a_past_due_probe_is_refused_unless_allowed(tmp_path: Path) -> None:
         "reference_probe calibration past due since 2027-01-01 (allowed by station)"
     ]
     assert check_calibration(load_station(allowed), dt.date(2027, 1, 1)) == []
+
+
+def test_every_past_due_item_is_named_at_once(tmp_path: Path) -> None:
+    # Met one at a time, each refusal would cost a trip to the bench (common practice, no
+    # published source: a station's calibration is checked as a whole).
+    table = '\n[reference_probe]\nidentity = "P1"\ncalibration_due = 2027-01-01\n'
+    path = _station_file(tmp_path, table + 'tolerance_class = "A"\n')
+    station = load_station(path)
+    station.instruments["dmm"].calibration_due = dt.date(2026, 12, 1)
+    station.instruments["supply"].calibration_due = dt.date(2026, 11, 1)
+    with pytest.raises(CalibrationPastDue) as refused:
+        check_calibration(station, dt.date(2027, 1, 2))
+    text = str(refused.value)
+    for named in (
+        "dmm (",
+        "supply (",
+        "reference_probe (P1)",
+        "[dmm], [supply], [reference_probe]",
+    ):
+        assert named in text, text
+    assert "have them recalibrated" in text
+
+
+def test_a_past_due_probe_does_not_stop_a_sequence_that_never_reads_it(tmp_path: Path) -> None:
+    past_due = '\n[reference_probe]\nidentity = "P1"\ntolerance_class = "A"\n'
+    past_due += "calibration_due = 2020-01-31\n"
+    with shipped_bench("pressure-circuit", folder=tmp_path / "p") as (_bench, station):
+        station = _with_probe(station, past_due)
+        plan = shipped_plan("pressure-circuit-check", station)
+        assert not plan.reads_reference_probe
+        summary = run_plan(plan, "PR-1")
+    assert summary.status == "complete", summary.reason
+    with shipped_bench("ntc-sender", folder=tmp_path / "n") as (_bench, station):
+        station = _with_probe(station, past_due)
+        plan = shipped_plan("ntc-sender-screen", station)
+        with pytest.raises(CalibrationPastDue, match=r"reference_probe \(P1\)"):
+            run_plan(plan, "NTC-1", ask=lambda t: True)

@@ -368,7 +368,7 @@ def run_in_worker(
         inbox.put(SyncNote(report.describe()))
 
     try:
-        notes = check_calibration(plan.station)
+        notes = check_calibration(plan.station, reads_probe=plan.reads_reference_probe)
         send_waiting_runs(plan.station, synced)
         store = ResultStore(plan.station.store_path)
     except RigError as exc:
