@@ -14,7 +14,8 @@ from types import FrameType
 from typing import TYPE_CHECKING
 
 from rig import __version__
-from rig.cli_output import Output, serve_bench, show, show_limits
+from rig.cli_output import Output, show, show_limits
+from rig.commands._bench_control import add_port_args
 from rig.commands._record_text import add_record_text_args, record_text_problem
 from rig.commands._store_args import ArgumentProblem
 from rig.errors import ConfigError, Problem, RigError
@@ -178,13 +179,7 @@ def _parser() -> argparse.ArgumentParser:
         type=Path,
         help="a JSON file rewritten on every change: closed relays, outputs on, faults",
     )
-    sim.add_argument("--dmm-port", type=int, default=0, help="TCP port of the DMM (0: any free)")
-    sim.add_argument(
-        "--supply-port", type=int, default=0, help="TCP port of the supply (0: any free)"
-    )
-    sim.add_argument(
-        "--control-port", type=int, default=0, help="TCP port of the control channel (0: any)"
-    )
+    add_port_args(sim)
     sim.add_argument("--seed", type=int, default=0, help="seed of the simulated noise")
     sim.set_defaults(func=cmd_sim)
 
@@ -828,12 +823,13 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
 
 
 def cmd_sim(args: argparse.Namespace, out: Output) -> int:
+    from rig.commands._bench_control import serve_with_control
     from rig.commands._store_args import file_to_write
     from rig.config.fixture import fixture_of
     from rig.config.unit_file import load_unit
     from rig.faults import parse_faults
     from rig.sim.bench import VirtualBench
-    from rig.sim.control import ControlServer
+    from rig.sim.control import UnitFaults
     from rig.sim.timing import Timing
 
     unit = load_unit(args.unit)
@@ -852,27 +848,14 @@ def cmd_sim(args: argparse.Namespace, out: Output) -> int:
         dmm_port=args.dmm_port,
         supply_port=args.supply_port,
     )
-    endpoints = bench.start()
-    try:
-        control = ControlServer(bench, args.control_port)
-    except RigError:
-        bench.stop()  # nothing may stay listening after a refusal
-        raise
-    try:
-        control.start()
-        station = bench.write_station(station_out, name=f"virtual-{unit.name}")
-        rows = [
-            ("DMM", endpoints.dmm_resource),
-            ("supply", endpoints.supply_resource),
-            ("relay box", endpoints.relay_port),
-            ("control", f"127.0.0.1:{control.port}"),
-            ("faults", ", ".join(f.spec for f in faults) or "none"),
-        ]
-        title = f"virtual bench for unit {unit.name} ({args.timing} timing)"
-        serve_bench(out, title, rows, station)
-    finally:
-        control.stop()
-        bench.stop()
+    serve_with_control(
+        out,
+        UnitFaults(bench),
+        control_port=args.control_port,
+        station_out=station_out,
+        station_name=f"virtual-{unit.name}",
+        title=f"virtual bench for unit {unit.name} ({args.timing} timing)",
+    )
     return 0
 
 

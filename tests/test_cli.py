@@ -4,17 +4,13 @@ and `rig sim` as a real subprocess with its state file and control channel."""
 from __future__ import annotations
 
 import json
-import os
 import signal
-import socket
 import sqlite3
-import subprocess
-import sys
-import time
 from pathlib import Path
 
 import pytest
 from bench_helpers import SEQUENCES, shipped_bench
+from sim_process import control, control_port, served
 
 from rig.cli import main
 from rig.config.station import load_station
@@ -115,47 +111,14 @@ def test_toml_syntax_error_names_the_line(
     assert "broken.toml:2" in err and "Traceback" not in err
 
 
-def _control(port: int, command: str) -> dict[str, object]:
-    with socket.create_connection(("127.0.0.1", port), timeout=5) as sock:
-        stream = sock.makefile("rw", encoding="utf-8", newline="\n")
-        stream.write(command + "\n")
-        stream.flush()
-        return dict(json.loads(stream.readline()))
-
-
 @pytest.mark.slow
 def test_sim_subprocess_serves_writes_state_and_stops_on_sigterm(tmp_path: Path) -> None:
     station = tmp_path / "station.toml"
     state = tmp_path / "state.json"
-    proc = subprocess.Popen(
-        [
-            sys.executable,
-            "-m",
-            "rig.cli",
-            "sim",
-            "--unit",
-            str(SEQUENCES / "units" / "temp-circuit.toml"),
-            "--fault",
-            "open:signal",
-            "--station-out",
-            str(station),
-            "--state-file",
-            str(state),
-        ],
-        stdout=subprocess.PIPE,
-        stderr=subprocess.PIPE,
-        text=True,
-        env={**os.environ, "PYTHONUNBUFFERED": "1"},
-    )
-    try:
-        lines = []
-        deadline = time.monotonic() + 20
-        while time.monotonic() < deadline:
-            line = proc.stdout.readline() if proc.stdout else ""
-            lines.append(line)
-            if "Ctrl-C" in line:
-                break
-        port = int(next(li for li in lines if "control" in li).rsplit(":", 1)[1])
+    unit = str(SEQUENCES / "units" / "temp-circuit.toml")
+    args = ["sim", "--unit", unit, "--fault", "open:signal", "--station-out", str(station)]
+    with served([*args, "--state-file", str(state)]) as (proc, lines):
+        port = control_port(lines)
         assert station.exists()
         # named after the unit it serves: a second bench written into the same store (another
         # unit, a harness) keeps its runs and relay wear apart (docs/reliability.md)
@@ -163,19 +126,15 @@ def test_sim_subprocess_serves_writes_state_and_stops_on_sigterm(tmp_path: Path)
         data = json.loads(state.read_text(encoding="utf-8"))
         assert data["faults"] == ["open:signal"] and data["closed_relays"] == []
         assert data["outputs_on"] == [] and data["watchdog_tripped"] is False
-        assert _control(port, "add series:ground=1ohm")["faults"] == [
+        assert control(port, "add series:ground=1ohm")["faults"] == [
             "open:signal",
             "series:ground=1ohm",
         ]
-        assert "error" in _control(port, "add open:nowire")
-        assert _control(port, "clear")["faults"] == []
+        assert "error" in control(port, "add open:nowire")
+        assert control(port, "clear")["faults"] == []
         assert json.loads(state.read_text(encoding="utf-8"))["faults"] == []
         proc.send_signal(signal.SIGTERM)
         assert proc.wait(timeout=10) == 0
-    finally:
-        if proc.poll() is None:
-            proc.kill()
-            proc.wait()
 
 
 def test_run_prints_relay_wear_under_the_verdict_and_in_json(

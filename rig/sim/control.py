@@ -3,8 +3,10 @@
 A line protocol of our own on 127.0.0.1 (one JSON object per reply line)::
 
     faults                      -> {"faults": [...]}
-    add SPEC [SPEC ...]         -> add unit faults (see rig.faults), replies with the active set
-    clear                       -> remove every unit fault and instrument fault
+    add SPEC [SPEC ...]         -> add faults, replies with the active set: unit faults (see
+                                   rig.faults) on ``rig sim``, build faults (rig.harness.as_built)
+                                   on ``rig harness sim``
+    clear                       -> remove every fault of the bench and every instrument fault
     instrument NAME KIND [N]    -> an instrument fault: NAME is dmm, supply or relay_box;
                                    KIND as the instrument lists it; N times (default 1, 0 = until
                                    cleared)
@@ -18,6 +20,7 @@ import json
 import logging
 import socket
 import threading
+from typing import Protocol
 
 from rig.errors import ConfigError, RigError
 from rig.faults import parse_faults
@@ -25,22 +28,64 @@ from rig.sim.bench import VirtualBench
 
 log = logging.getLogger(__name__)
 
+SOURCE = "control channel"
+"""How a problem with a spec sent here is named."""
 
-def handle_command(bench: VirtualBench, line: str) -> dict[str, object]:
+
+class BenchFaults(Protocol):
+    """The faults a control channel lists, adds and clears on its bench: what differs between
+    a unit's bench and a harness's (whose faults change what is built)."""
+
+    @property
+    def bench(self) -> VirtualBench: ...
+
+    def specs(self) -> list[str]:
+        """The active faults, as specs that ``add`` takes back."""
+        ...
+
+    def add(self, specs: list[str]) -> None:
+        """Check every spec first and add none on a problem (``ConfigError``)."""
+        ...
+
+    def clear(self) -> None: ...
+
+
+class UnitFaults:
+    """A unit's faults (``rig sim``): specs of ``rig.faults`` on the unit's own circuit."""
+
+    def __init__(self, bench: VirtualBench) -> None:
+        self._bench = bench
+
+    @property
+    def bench(self) -> VirtualBench:
+        return self._bench
+
+    def specs(self) -> list[str]:
+        return [f.spec for f in self._bench.faults]
+
+    def add(self, specs: list[str]) -> None:
+        added = parse_faults(specs, self._bench.unit, source=SOURCE)
+        self._bench.set_faults(self._bench.faults + added)
+
+    def clear(self) -> None:
+        self._bench.set_faults([])
+
+
+def handle_command(faults: BenchFaults, line: str) -> dict[str, object]:
     """Carry out one control command; errors come back as {"error": "..."}, never raised."""
     words = line.split()
     if not words:
         return {"error": "empty command; expected faults, add, clear, instrument or state"}
     verb, args = words[0].lower(), words[1:]
+    bench = faults.bench
     try:
         if verb == "faults":
-            return {"faults": [f.spec for f in bench.faults]}
+            return {"faults": faults.specs()}
         if verb == "add":
-            added = parse_faults(args, bench.unit, source="control channel")
-            bench.set_faults(bench.faults + added)
-            return {"faults": [f.spec for f in bench.faults]}
+            faults.add(args)
+            return {"faults": faults.specs()}
         if verb == "clear":
-            bench.set_faults([])
+            faults.clear()
             bench.dmm.clear_faults()
             bench.supply.clear_faults()
             bench.relay_box.clear_faults()
@@ -58,7 +103,7 @@ def handle_command(bench: VirtualBench, line: str) -> dict[str, object]:
                 return {"error": f"unknown instrument {args[0]!r}; expected dmm, supply, relay_box"}
             return {"injected": args[0], "kind": args[1]}
         if verb == "state":
-            return bench.state()
+            return {**bench.state(), "faults": faults.specs()}
     except (ConfigError, RigError, ValueError) as exc:
         return {"error": str(exc)}
     return {
@@ -69,8 +114,8 @@ def handle_command(bench: VirtualBench, line: str) -> dict[str, object]:
 class ControlServer:
     """Serves ``handle_command`` on a loopback TCP port, one line per command."""
 
-    def __init__(self, bench: VirtualBench, port: int = 0) -> None:
-        self.bench = bench
+    def __init__(self, faults: BenchFaults, port: int = 0) -> None:
+        self.faults = faults
         try:
             self._sock = socket.create_server(("127.0.0.1", port))
         except OSError as error:
@@ -103,6 +148,6 @@ class ControlServer:
     def _client(self, conn: socket.socket) -> None:
         with conn, conn.makefile("rw", encoding="utf-8", newline="\n") as stream:
             for line in stream:
-                reply = handle_command(self.bench, line)
+                reply = handle_command(self.faults, line)
                 stream.write(json.dumps(reply) + "\n")
                 stream.flush()

@@ -24,7 +24,7 @@ from rig.config.unit_file import load_unit
 from rig.routing import interlock_violations
 from rig.runner import load_plan, run_plan
 from rig.sim.bench import VirtualBench
-from rig.sim.control import handle_command
+from rig.sim.control import UnitFaults, handle_command
 from rig.store import ResultStore
 
 FAULTS: dict[str, tuple[str, str]] = {
@@ -146,7 +146,9 @@ def run_drill(fault: str, point: str, *, persistent: bool, folder: Path) -> Dril
     armed: list[float] = []
 
     def arm() -> None:
-        reply = handle_command(bench, f"instrument {instrument} {kind} {0 if persistent else 1}")
+        reply = handle_command(
+            UnitFaults(bench), f"instrument {instrument} {kind} {0 if persistent else 1}"
+        )
         if "error" in reply:
             raise RuntimeError(f"the bench refused the fault: {reply['error']}")
         armed.append(time.monotonic())
