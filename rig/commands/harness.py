@@ -12,7 +12,8 @@ import hashlib
 import json
 from pathlib import Path
 
-from rig.cli_output import Output, serve_bench
+from rig.cli_output import Output
+from rig.commands._bench_control import add_port_args
 from rig.commands._record_text import add_record_text_args, record_text_problem
 from rig.errors import Problem
 from rig.quantity import QuantityError, parse_quantity
@@ -50,7 +51,13 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     _common(capture)
     capture.set_defaults(func=cmd_capture)
 
-    sim = verbs.add_parser("sim", help="serve a harness as built on a virtual bench")
+    sim = verbs.add_parser(
+        "sim",
+        help="serve a harness as built on a virtual bench",
+        description="Serve a harness as built on a virtual bench.  Its control channel (faults, "
+        "add SPEC, clear, instrument NAME KIND [N], state; docs/harness.md) changes the build "
+        "faults while it runs, behind the same ports and station file.",
+    )
     sim.add_argument("wire_list", type=Path, help="the wire list of the harness to serve")
     sim.add_argument("--fixture", type=Path, required=True, help="the fixture file")
     sim.add_argument(
@@ -58,7 +65,8 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
         action="append",
         default=[],
         metavar="SPEC",
-        help="a build fault, e.g. swap:W4,W5 (repeatable; docs/harness.md)",
+        help="a build fault, e.g. swap:W4,W5 or thin:W4 (repeatable; docs/harness.md); "
+        "faults can be added and cleared on the control channel while the bench runs",
     )
     sim.add_argument("--ambient", type=float, default=23.0, help="degC (default 23)")
     sim.add_argument("--probe", default="", help="FORCE_HI,SENSE_HI,FORCE_LO,SENSE_LO pins")
@@ -68,6 +76,7 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
         default=Path("rig-data/harness-station.toml"),
         help="where to write the station file that names this bench",
     )
+    add_port_args(sim)
     sim.add_argument("--seed", type=int, default=0, help="seed of the simulated noise")
     sim.set_defaults(func=cmd_sim)
 
@@ -272,26 +281,17 @@ def virtual_station_name(wire_list: Path) -> str:
 
 
 def cmd_sim(args: argparse.Namespace, out: Output) -> int:
+    from rig.commands._bench_control import serve_with_control
     from rig.commands._store_args import file_to_write
     from rig.config.fixture import load_fixture
     from rig.errors import ConfigError, Problem
-    from rig.harness.as_built import build_fault_problems, parse_build_fault
+    from rig.harness.as_built import parse_build_faults
     from rig.harness.wire_list import load_wire_list
-    from rig.sim.harness_bench import harness_bench
+    from rig.sim.harness_bench import HarnessBuild, HarnessFaults
 
     fixture = load_fixture(args.fixture)
     wires = load_wire_list(args.wire_list, fixture)
-    faults, problems = [], []
-    for spec in args.fault:  # every bad spec named at once, none as a traceback
-        try:
-            fault = parse_build_fault(spec)
-        except ConfigError as exc:
-            problems += exc.problems
-            continue
-        problems += build_fault_problems(fault, spec, wires, fixture.pins)
-        faults.append(fault)
-    if problems:
-        raise ConfigError(problems)
+    faults = parse_build_faults(args.fault, wires, fixture.pins)  # every bad spec at once
     probe = None
     if args.probe:
         pins = [p.strip() for p in args.probe.split(",")]
@@ -301,21 +301,19 @@ def cmd_sim(args: argparse.Namespace, out: Output) -> int:
             )
         probe = (pins[0], pins[1], pins[2], pins[3])
     station_out = file_to_write(args.station_out, "--station-out", name="harness-station.toml")
-    bench = harness_bench(
-        wires, fixture, faults, ambient_c=args.ambient, seed=args.seed, probe=probe
+    built = HarnessFaults(
+        HarnessBuild(wires, fixture, args.ambient, args.seed, probe),
+        faults,
+        dmm_port=args.dmm_port,
+        supply_port=args.supply_port,
     )
-    endpoints = bench.start()
-    try:
-        station = bench.write_station(station_out, name=virtual_station_name(wires.path))
-        out.line(HARNESS_CAUTION)
-        rows = [
-            ("DMM", endpoints.dmm_resource),
-            ("supply", endpoints.supply_resource),
-            ("relay box", endpoints.relay_port),
-            ("faults", ", ".join(args.fault) or "none"),
-        ]
-        title = f"virtual bench: harness {wires.path.name} on fixture {fixture.name}"
-        serve_bench(out, title, rows, station)
-    finally:
-        bench.stop()
+    serve_with_control(
+        out,
+        built,
+        control_port=args.control_port,
+        station_out=station_out,
+        station_name=virtual_station_name(wires.path),
+        title=f"virtual bench: harness {wires.path.name} on fixture {fixture.name}",
+        preface=HARNESS_CAUTION,
+    )
     return 0

@@ -134,6 +134,13 @@ class VirtualBench:
         self.probe.set_faults(faults)
         self.write_state()
 
+    def set_unit(self, unit: UnitModel, faults: list[Fault]) -> None:
+        """Serve ``unit`` (on the same fixture, so the station file stays valid) with ``faults``
+        from the next reading on."""
+        self.unit = unit
+        self.probe.set_unit(unit, faults)
+        self.write_state()
+
     # --- state --------------------------------------------------------------------------------
 
     def _relays_changed(self) -> None:

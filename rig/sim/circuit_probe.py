@@ -78,6 +78,13 @@ class CircuitProbe:
             self._applied: frozenset[int] = frozenset()
             self._tau_cache.clear()
 
+    def set_unit(self, unit: UnitModel, faults: list[Fault]) -> None:
+        """Serve another unit on the same fixture from the next reading on: a harness rebuilt
+        with other build faults (its wires landed elsewhere), while the bench runs."""
+        with self._lock:
+            self.unit = unit
+            self.set_faults(faults)
+
     def _with_fixture(self, unit_circuit: Circuit) -> Circuit:
         c = unit_circuit.copy()
         for pin in self.fixture.pins.values():

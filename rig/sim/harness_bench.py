@@ -13,18 +13,21 @@ from __future__ import annotations
 import math
 import time
 from collections.abc import Iterable
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 
 from drivers.base import MeterFunction
 from rig.config.fixture import FixtureMap, load_fixture
-from rig.config.unit_file import ReferenceProbe
-from rig.harness.as_built import BuildFault, build_unit
+from rig.config.unit_file import ReferenceProbe, UnitModel
+from rig.faults import Fault
+from rig.harness.as_built import BuildFault, build_unit, parse_build_faults
 from rig.harness.wire_list import WireList, load_wire_list
 from rig.routing import Route, plan_relays
 from rig.sim.bench import VirtualBench
 from rig.sim.circuit_probe import CircuitProbe
+from rig.sim.control import SOURCE
 from rig.sim.probe import SupplySettings
 from rig.sim.sim_dmm import OVERRANGE_FACTOR, SPECS
 from rig.sim.timing import BenchClock, Timing
@@ -113,12 +116,82 @@ def harness_bench(
 ) -> VirtualBench:
     """A virtual bench (not started) with the harness as built on its fixture, and a bench Pt100
     at ambient on the four ``probe`` pins (force HI, sense HI, force LO, sense LO) if given."""
-    unit, unit_faults = build_unit(
-        wires, faults or [], fixture_path=fixture.path, ambient_c=ambient_c, seed=seed
-    )
-    if probe is not None:
-        unit.probe = ReferenceProbe(*probe)
-    return VirtualBench(unit, fixture, faults=unit_faults, seed=seed)
+    return HarnessFaults(HarnessBuild(wires, fixture, ambient_c, seed, probe), faults).bench
+
+
+@dataclass(frozen=True)
+class HarnessBuild:
+    """What a harness bench is built from besides its faults.  The same seed draws the same
+    contacts whatever the faults, so a rebuilt harness differs from the one before by its
+    faults alone."""
+
+    wires: WireList
+    fixture: FixtureMap
+    ambient_c: float = 23.0
+    seed: int = 0
+    probe: tuple[str, str, str, str] | None = None
+
+    def unit(self, faults: list[BuildFault]) -> tuple[UnitModel, list[Fault]]:
+        """The unit model as built with ``faults``, with the bench Pt100 on ``probe`` if
+        given, and the faults the unit model applies itself."""
+        unit, unit_faults = build_unit(
+            self.wires,
+            faults,
+            fixture_path=self.fixture.path,
+            ambient_c=self.ambient_c,
+            seed=self.seed,
+        )
+        if self.probe is not None:
+            unit.probe = ReferenceProbe(*self.probe)
+        return unit, unit_faults
+
+
+class HarnessFaults:
+    """A harness bench and its build faults, for the control channel
+    (``rig.sim.control.BenchFaults``): each change rebuilds the harness on the same fixture,
+    instruments and ports, so a station file written once stays valid."""
+
+    def __init__(
+        self,
+        build: HarnessBuild,
+        faults: list[BuildFault] | None = None,
+        *,
+        dmm_port: int = 0,
+        supply_port: int = 0,
+    ) -> None:
+        self.build = build
+        self.faults = list(faults or [])
+        unit, unit_faults = build.unit(self.faults)
+        self._bench = VirtualBench(
+            unit,
+            build.fixture,
+            faults=unit_faults,
+            seed=build.seed,
+            dmm_port=dmm_port,
+            supply_port=supply_port,
+        )
+
+    @property
+    def bench(self) -> VirtualBench:
+        return self._bench
+
+    def specs(self) -> list[str]:
+        return [f.spec for f in self.faults]
+
+    def add(self, specs: list[str]) -> None:
+        build = self.build
+        added = parse_build_faults(
+            specs, build.wires, build.fixture.pins, source=SOURCE, active=self.faults
+        )
+        self._rebuild(self.faults + added)
+
+    def clear(self) -> None:
+        self._rebuild([])
+
+    def _rebuild(self, faults: list[BuildFault]) -> None:
+        unit, unit_faults = self.build.unit(faults)
+        self._bench.set_unit(unit, unit_faults)
+        self.faults = faults
 
 
 class ProbePort(ConnectThenMeasure):
@@ -134,9 +207,7 @@ class ProbePort(ConnectThenMeasure):
         ambient_c: float = 23.0,
         seed: int = 0,
     ) -> None:
-        unit, unit_faults = build_unit(
-            wires, faults or [], fixture_path=fixture.path, ambient_c=ambient_c, seed=seed
-        )
+        unit, unit_faults = HarnessBuild(wires, fixture, ambient_c, seed).unit(faults or [])
         self.fixture = fixture
         self._closed: frozenset[int] = frozenset()
         self.probe = CircuitProbe(
