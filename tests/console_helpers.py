@@ -15,15 +15,22 @@ from typing import Any
 from bench_helpers import SEQUENCES, shipped_bench
 from textual.pilot import Pilot
 
-from rig.config.station import Station
+from rig.config.fixture import load_fixture
+from rig.config.station import Station, load_station
 from rig.console import ConsoleApp, ConsoleSetup
 from rig.console.screens.run import RunScreen
+from rig.harness.as_built import BuildFault
+from rig.harness.wire_list import load_wire_list
 from rig.runner import load_plan
 from rig.sim.bench import VirtualBench
+from rig.sim.harness_bench import harness_bench
 from rig.sim.timing import Timing
 from rig.store import ResultStore
 
 FIXED_CLOCK = dt.datetime(2030, 1, 2, 8, 30, tzinfo=dt.UTC)
+HARNESS = Path(__file__).resolve().parent.parent / "sequences" / "harness"
+"""The shipped invented example harness: its wire list, fixture and proof sequence."""
+HARNESS_PROBE = ("PT_FH", "PT_SH", "PT_FL", "PT_SL")
 WAIT_PAUSES = 2400
 """Pilot pauses of 50 ms before a wait gives up: two minutes, far beyond any healthy run."""
 
@@ -52,6 +59,25 @@ def console_on_bench(
     paths = [SEQUENCES / f"{s}.toml" if isinstance(s, str) else s for s in sequences]
     with shipped_bench(unit, faults, folder=folder, **bench_args) as (bench, station):
         yield ConsoleApp(console_setup(station, *paths, bench=bench)), bench
+
+
+@contextmanager
+def harness_console(folder: Path, faults: list[BuildFault]) -> Iterator[ConsoleApp]:
+    """A console offering the shipped harness proof, on a virtual harness bench built with
+    ``faults`` (the ambient and the seed fixed)."""
+    fixture = load_fixture(HARNESS / "fixture.toml")
+    wires = load_wire_list(HARNESS / "wire-list.csv", fixture)
+    bench = harness_bench(wires, fixture, faults, ambient_c=23.0, seed=4, probe=HARNESS_PROBE)
+    bench.start()
+    try:
+        path = bench.write_station(folder / "station.toml", data_dir=str(folder / "d"))
+        station = load_station(path)
+        plan = load_plan(HARNESS / "harness-proof.toml", station)
+        yield ConsoleApp(
+            ConsoleSetup(station, [plan], operator="tester", clock=lambda: FIXED_CLOCK)
+        )
+    finally:
+        bench.stop()
 
 
 @contextmanager

@@ -15,32 +15,27 @@ import sqlite3
 from pathlib import Path
 
 from console_helpers import (
-    FIXED_CLOCK,
     console_on_bench,
     finish,
+    harness_console,
     slow_console,
     start_run,
     stored_run,
     wait_for,
 )
+from textual.containers import VerticalScroll
 from textual.geometry import Region
 from textual.widget import Widget
-from textual.widgets import Static
+from textual.widgets import Input, Static
 
-from rig.config.fixture import load_fixture
-from rig.config.station import load_station
-from rig.console import ConsoleApp, ConsoleSetup
+from rig.console import ConsoleApp
+from rig.console.screens.history import HistoryScreen, RecordScreen
 from rig.console.screens.prompt import PromptScreen
 from rig.console.screens.run import RunScreen
 from rig.console.widgets import StatusPanel
 from rig.harness.as_built import BuildFault
-from rig.harness.wire_list import load_wire_list
-from rig.runner import load_plan
-from rig.sim.harness_bench import harness_bench
 
 SIZE = (120, 40)
-HARNESS = Path(__file__).resolve().parent.parent / "sequences" / "harness"
-PROBE = ("PT_FH", "PT_SH", "PT_FL", "PT_SL")
 
 
 def _runs(app: ConsoleApp) -> list[tuple[str, str]]:
@@ -91,19 +86,10 @@ def test_a_stray_key_as_the_run_ends_does_not_enter_the_next_serial(tmp_path: Pa
 
 
 def test_a_failed_harness_proof_lists_its_findings_in_full(tmp_path: Path) -> None:
-    fixture = load_fixture(HARNESS / "fixture.toml")
-    wires = load_wire_list(HARNESS / "wire-list.csv", fixture)
     faults = [BuildFault("open", "W2"), BuildFault("swap", "W4", other="W5")]
-    bench = harness_bench(wires, fixture, faults, ambient_c=23.0, seed=4, probe=PROBE)
 
     async def scenario() -> None:
-        bench.start()
-        try:
-            path = bench.write_station(tmp_path / "station.toml", data_dir=str(tmp_path / "d"))
-            station = load_station(path)
-            plan = load_plan(HARNESS / "harness-proof.toml", station)
-            setup = ConsoleSetup(station, [plan], operator="tester", clock=lambda: FIXED_CLOCK)
-            app = ConsoleApp(setup)
+        with harness_console(tmp_path, faults) as app:
             async with app.run_test(size=SIZE) as pilot:
                 screen = await start_run(pilot, "HF-C1")
                 await finish(pilot, screen)
@@ -119,8 +105,59 @@ def test_a_failed_harness_proof_lists_its_findings_in_full(tmp_path: Path) -> No
                 for finding in note.split("; "):
                     assert finding in shown  # in full, one a line, wrapped by the pane
                 assert "no unit model" not in _on_screen(screen.query_one("#lower"))
-        finally:
-            bench.stop()
+
+    asyncio.run(scenario())
+
+
+def _read(*widgets: Widget) -> str:
+    """What the widgets show, their lines joined and runs of spaces made one: text wrapped
+    over lines reads as one string, text cut at an edge does not."""
+    return " ".join(" ".join(_on_screen(w).split()) for w in widgets)
+
+
+def test_the_record_of_a_failed_harness_proof_shows_long_notes_and_remark_in_full(
+    tmp_path: Path,
+) -> None:
+    # a harness proof's findings are its step note, hundreds of characters; the remark may hold
+    # 2000 (docs/console.md).  The record (F2, Enter) must show every character of both, wrapped,
+    # on a page that scrolls by keys where it is longer than the screen.  Invented remark.
+    faults = [BuildFault("open", "W2"), BuildFault("swap", "W4", other="W5")]
+    remark = "customer says the lamp flickers over rough roads; " * 5 + "(invented, 250 chars)"
+
+    async def scenario() -> None:
+        with harness_console(tmp_path, faults) as app:
+            async with app.run_test(size=(100, 20)) as pilot:
+                await wait_for(pilot, lambda: len(app.screen_stack) > 1, "the cautions")
+                await pilot.press("enter")
+                app.screen.query_one("#remark", Input).value = remark
+                await pilot.click("#serial")
+                await pilot.press(*"HF-R1", "enter")
+                await wait_for(pilot, lambda: app.run_screen is not None, "the run view")
+                screen = app.run_screen
+                assert screen is not None
+                await finish(pilot, screen)
+                assert screen.summary is not None
+                run, steps = stored_run(app, screen.summary.run_id)
+                assert run["remark"] == remark.strip()
+                note = next(s["note"] for s in steps if s["step_id"] == "harness")
+                assert len(note) > 200 and "W2" in note and "W4" in note
+                await pilot.press("f2")
+                await wait_for(pilot, lambda: isinstance(app.screen, HistoryScreen), "history")
+                await pilot.press("enter")
+                await wait_for(pilot, lambda: isinstance(app.screen, RecordScreen), "the record")
+                await pilot.pause()
+                record = app.screen
+                shown = _read(*record.query_one(VerticalScroll).children)
+                assert f"remark: {remark.strip()}" in shown
+                for finding in note.split("; "):
+                    assert " ".join(finding.split()) in shown
+                # longer than the screen: the keys scroll the whole record to its last line
+                page, notes = record.query_one(VerticalScroll), record.query_one("#record-notes")
+                assert notes.region.bottom > page.region.bottom  # the last lines out of sight
+                await pilot.press("end")
+                await wait_for(pilot, lambda: page.scroll_y == page.max_scroll_y, "the end")
+                await pilot.pause()
+                assert notes.region.bottom <= page.region.bottom
 
     asyncio.run(scenario())
 

@@ -168,6 +168,27 @@ def _unique(pins: Iterable[str]) -> list[str]:
     return list(dict.fromkeys(pins))
 
 
+NOTE_CELL_CHARS = 26
+"""Widest step note a table cell shows; a longer one is cut there (``...``) and given in full
+elsewhere on the screen, wrapped: a harness proof's findings run to hundreds of characters."""
+
+
+def note_parts(note: str) -> list[str]:
+    """A step's note split where the engine joined its parts (``; ``): a harness proof's
+    findings, a step's problems and remarks, each to be read on a line of its own."""
+    return [part for part in note.split("; ") if part.strip()]
+
+
+def note_cell(note: str) -> str:
+    """A step's note as a table cell: whole where it fits, else its first words and ``...``."""
+    if len(note) <= NOTE_CELL_CHARS:
+        return note
+    start = note[: NOTE_CELL_CHARS - 3]
+    if " " in start.strip():
+        start = start.strip().rsplit(" ", 1)[0]
+    return start.rstrip() + " ..."
+
+
 RECORD_TEXT_SHOWN = 60
 """Characters of a remark shown under the verdict; the whole of it is in the run's record."""
 

@@ -16,7 +16,14 @@ from textual.widgets import DataTable, Footer, Static
 
 from rig.console.setup import ConsoleSetup
 from rig.console.widgets import RunList
-from rig.console.words import VERDICT_STYLES, kind_cells, stored_run_word, verdict_word
+from rig.console.words import (
+    VERDICT_STYLES,
+    kind_cells,
+    note_cell,
+    note_parts,
+    stored_run_word,
+    verdict_word,
+)
 from rig.judge.decision import Limits, Verdict
 from rig.planned_steps import unmeasured_steps
 from rig.store import ResultStore
@@ -70,11 +77,15 @@ def _limits(row: dict[str, Any]) -> Limits | None:
 
 
 class RecordScreen(Screen[None]):
-    """Everything the store holds about one run: header, instruments, steps, notes."""
+    """Everything the store holds about one run: header, instruments, steps, notes.
+
+    The record is one page that scrolls as a whole (keys and mouse), every text wrapped to its
+    width: a step's note longer than its cell, a remark, a run's notes are read in full."""
 
     DEFAULT_CSS = """
+    RecordScreen #record { overflow-x: auto; }
     RecordScreen #record-head { height: auto; padding: 0 1; }
-    RecordScreen #record-steps { height: auto; max-height: 30; }
+    RecordScreen #record-steps { height: auto; }
     RecordScreen #record-notes { height: auto; padding: 0 1; }
     """
 
@@ -87,9 +98,9 @@ class RecordScreen(Screen[None]):
         self.run_id = run_id
 
     def compose(self) -> ComposeResult:
-        with VerticalScroll():
+        with VerticalScroll(id="record"):
             yield Static(id="record-head")
-            yield DataTable(id="record-steps", cursor_type="row", zebra_stripes=True)
+            yield DataTable(id="record-steps", cursor_type="none", zebra_stripes=True)
             yield Static(id="record-notes")
         yield Footer()
 
@@ -118,9 +129,14 @@ class RecordScreen(Screen[None]):
             head.append(f"\ninjected faults (virtual bench): {', '.join(faults)}")
         if run["reason"]:
             head.append(f"\nreason: {run['reason']}")
+        if run["claim"]:
+            head.append(f"\nclaim or return number: {run['claim']}")
+        if run["remark"]:
+            head.append(f"\nremark: {run['remark']}")
         self.query_one("#record-head", Static).update(head)
 
         table = self.query_one("#record-steps", DataTable)
+        table.styles.max_height = None  # every row on the page: the page scrolls, not the table
         table.add_columns(*RECORD_COLUMNS)
         steps = self.store.steps(self.run_id)
         readings = self.store.readings(self.run_id)
@@ -137,13 +153,20 @@ class RecordScreen(Screen[None]):
                 cells.limits,
                 cells.uncertainty,
                 row["decision_rule"],
-                row["note"],
+                Text(note_cell(row["note"])),
             )
         missing = unmeasured_steps(run, steps, readings, self.setup.station)
         for step in missing.steps:  # after the judged steps: what the run never measured
             state = Text(step.state.upper(), "dim")
             table.add_row(str(step.position), step.step_id, state, *[""] * 6)
         notes = Text()
+        cut = [row for row in steps if note_cell(row["note"]) != row["note"]]
+        if cut:
+            notes.append("Step notes in full\n", "bold")
+        for row in cut:
+            notes.append(f"{row['step_id']}\n", "bold")
+            for part in note_parts(row["note"]):
+                notes.append(f"- {part}\n")
         for line in missing.notes:
             notes.append(f"{line}\n", "dim")
         for inst in json.loads(run["instruments"] or "[]"):
@@ -153,7 +176,7 @@ class RecordScreen(Screen[None]):
             notes.append(f"note: {note}\n")
         notes.append(f"{len(readings)} raw readings kept in the results store", "dim")
         self.query_one("#record-notes", Static).update(notes)
-        table.focus()
+        self.query_one("#record", VerticalScroll).focus()
 
     def action_back(self) -> None:
         self.dismiss(None)

@@ -31,6 +31,7 @@ from rig.console.widgets import ChartView, StatusPanel
 from rig.console.words import (
     VERDICT_STYLES,
     live_text,
+    note_parts,
     pins_text,
     record_text_line,
     run_verdict,
@@ -66,7 +67,7 @@ STEP_COLUMNS = ("#", "step", "verdict", "reading", "unit", "limits", "± U (k=2)
 def harness_findings(results: list[StepResult]) -> list[tuple[str, list[str]]]:
     """The findings of each failed harness proof: its note, one finding per ``; ``-joined part."""
     return [
-        (r.step_id, [part for part in r.note.split("; ") if part.strip()] or ["(no finding)"])
+        (r.step_id, note_parts(r.note) or ["(no finding)"])
         for r in results
         if r.kind == HARNESS_PROOF and r.verdict in (Verdict.FAIL, Verdict.CONDITIONAL_FAIL)
     ]
