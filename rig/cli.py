@@ -14,6 +14,7 @@ from types import FrameType
 from typing import TYPE_CHECKING
 
 from rig import __version__
+from rig.cautions import CAUTION, cautions_for
 from rig.cli_output import Output, show, show_limits
 from rig.commands._bench_control import add_port_args
 from rig.commands._record_text import add_record_text_args, record_text_problem
@@ -39,17 +40,6 @@ if TYPE_CHECKING:
 EXIT_PASS, EXIT_FAIL, EXIT_BAD_INPUT, EXIT_ABORTED = 0, 1, 2, 3
 RELAYS_SHOWN_CHARS = 40
 """Widest relay list `rig check` prints in its table; a longer one is given as a count."""
-
-CAUTION = (
-    "Caution: bench work on vehicle and machine electrics can burn, shock or start fires. "
-    "Disconnect batteries and supplies before changing connections, keep supply current limits "
-    "low, never probe mains, and follow local codes and licensed practice."
-)
-WELL_CAUTION = (
-    "Caution: a heated well or liquid bath burns: let the sensor cool, or lift it with tongs and "
-    "heat-resistant gloves; keep water away from hot oil and the bath's own cut-out working."
-)
-"""Said too before a screen that reads a temperature reference (a sensor in a well or bath)."""
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -632,17 +622,6 @@ def _diagnosable(summary: RunSummary) -> bool:
     )
 
 
-def _reads_a_well(plan: Plan) -> bool:
-    """Whether a screen judges a sensor at a temperature its reference reads: the sensor may
-    sit in a heated well or bath (a harness proof reads only the room's)."""
-    from rig.screening import is_screen
-    from rig.steps import KINDS
-
-    kinds = {p.spec.kind for p in plan.steps}
-    units = {KINDS[k].unit for k in kinds}
-    return is_screen(units) and "reference-temperature" in kinds and bool(kinds & {"ntc", "rtd"})
-
-
 def _screen_decision(plan: Plan, summary: RunSummary) -> ScreenDecision | None:
     """The screen's decision on the unit from this run (``rig.screening``, the rule of
     ``rig stats``), or None where the sequence proves a harness; from its planned steps too, so
@@ -704,9 +683,8 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
     if args.json:
         out.quiet = True
     else:
-        out.line(CAUTION)
-        if _reads_a_well(plan):
-            out.line(WELL_CAUTION)
+        for caution in cautions_for([plan]):
+            out.line(caution)
         if not continuing:
             from rig.tested_before import tested_before
 

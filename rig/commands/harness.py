@@ -12,20 +12,12 @@ import hashlib
 import json
 from pathlib import Path
 
+from rig.cautions import HARNESS_CAUTION, cautions_for
 from rig.cli_output import Output
 from rig.commands._bench_control import add_port_args
 from rig.commands._record_text import add_record_text_args, record_text_problem
 from rig.errors import Problem
 from rig.quantity import QuantityError, parse_quantity
-
-HARNESS_CAUTION = (
-    "Caution: test harnesses off the vehicle or machine, never on live circuits: disconnect "
-    "batteries and supplies first, and never probe mains; bench work on vehicle and machine "
-    "electrics can burn, shock or start fires. The DMM's ohms test current is small (about 1 mA "
-    "or less); keep it that way, and follow local codes and licensed practice."
-)
-"""One caution for the harness commands: the general one (``rig.cli.CAUTION``) with what a
-harness adds, so that the two are not printed back to back."""
 
 
 def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
@@ -199,7 +191,8 @@ def _run(
     if args.json:
         out.quiet = True
     else:
-        out.line(HARNESS_CAUTION)
+        for caution in cautions_for([plan]):  # a harness proof's: as rig run and the console
+            out.line(caution)
         seen = tested_before(station.store_path, args.serial, plan.sequence.name)
         if seen:
             out.line(seen)

@@ -13,6 +13,7 @@ from typing import Any, ClassVar
 from textual.app import App
 from textual.binding import Binding, BindingType
 
+from rig.cautions import cautions_for
 from rig.console.screens.caution import CautionScreen
 from rig.console.screens.history import HistoryScreen, RecordScreen
 from rig.console.screens.run import RunScreen
@@ -40,7 +41,8 @@ class ConsoleApp(App[None]):
 
     def on_mount(self) -> None:
         self.push_screen(self.start_screen)
-        self.push_screen(CautionScreen(self.setup.bench_label), self._acknowledged)
+        cautions = cautions_for(self.setup.plans)
+        self.push_screen(CautionScreen(cautions, self.setup.bench_label), self._acknowledged)
 
     def _acknowledged(self, result: bool | None) -> None:
         self.cautions_acknowledged = bool(result)

@@ -1,4 +1,8 @@
-"""The cautions for bench work, shown once when the console opens, acknowledged by a key."""
+"""The cautions for bench work, shown once when the console opens, acknowledged by a key.
+
+Which cautions is the command line's own decision (``rig.cautions.cautions_for``) over every
+sequence the console offers: the harness caution on a harness bench, the well's before a screen
+of a sensor in a hot well."""
 
 from __future__ import annotations
 
@@ -10,8 +14,6 @@ from textual.containers import Vertical
 from textual.screen import ModalScreen
 from textual.widgets import Static
 
-from rig.cli import CAUTION
-
 
 class CautionScreen(ModalScreen[bool]):
     """Blocks the console until the operator confirms having read the cautions."""
@@ -22,6 +24,7 @@ class CautionScreen(ModalScreen[bool]):
         width: 72; height: auto; border: double $warning; padding: 1 2; background: $surface;
     }
     CautionScreen #caution-title { text-style: bold; margin-bottom: 1; }
+    CautionScreen .caution-text { margin-bottom: 1; }
     CautionScreen #caution-keys { margin-top: 1; text-style: bold; }
     """
 
@@ -29,14 +32,16 @@ class CautionScreen(ModalScreen[bool]):
         Binding("enter", "acknowledge", "I have read the cautions")
     ]
 
-    def __init__(self, bench_label: str = "") -> None:
+    def __init__(self, cautions: list[str], bench_label: str = "") -> None:
         super().__init__()
+        self.cautions = cautions
         self.bench_label = bench_label
 
     def compose(self) -> ComposeResult:
         with Vertical():
             yield Static("CAUTION: bench work", id="caution-title")
-            yield Static(CAUTION, id="caution-text")
+            for n, text in enumerate(self.cautions):
+                yield Static(text, classes="caution-text", id=f"caution-{n}", markup=False)
             if self.bench_label:
                 yield Static(self.bench_label, id="caution-bench", markup=False)
             yield Static("Press Enter to confirm you have read this.", id="caution-keys")
