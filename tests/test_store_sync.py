@@ -177,7 +177,11 @@ def test_server_stopped_mid_run_buffers_and_sends_once_on_return(
 
         def stop_server_once(event: Event) -> None:
             if isinstance(event, ReadingTaken) and not stopped:
-                pg_cluster.stop()  # mid-run: the first reading is stored, the rest to come
+                # mid-run: the first reading is stored, the rest to come.  The port is held
+                # while the server is down: another test run on this machine would otherwise
+                # take it, answer the syncs below in place of "nothing", and keep the server
+                # from coming back on it
+                pg_cluster.stop_holding_port()
                 stopped.append(True)
 
         try:
@@ -186,7 +190,7 @@ def test_server_stopped_mid_run_buffers_and_sends_once_on_return(
             second = run_plan(plan, "WHILE-DOWN", on_sync=reports.append)
         finally:
             if stopped:
-                pg_cluster.start()
+                pg_cluster.restart()  # the same cluster (its identifier), on its own port
             mp.undo()
         assert first.status == "complete" and second.status == "complete"
         assert reports[1].sent == 1 and not reports[1].problem  # BEFORE went at once
