@@ -474,3 +474,31 @@ def test_a_claim_the_cli_would_refuse_starts_nothing_and_says_why(tmp_path: Path
                 assert app.screen.focused is app.screen.query_one("#claim", Input)
 
     asyncio.run(scenario())
+
+
+def test_a_serial_with_brackets_is_listed_as_stored(tmp_path: Path) -> None:
+    # a serial is text, not markup: a stored run whose label holds "[/b]" or "[red]" is listed
+    # whole in the start view, the history and the record, and a stray closing tag is no crash
+    from bench_helpers import SEQUENCES, shipped_bench, shipped_plan
+    from console_helpers import console_setup
+
+    from rig.runner import run_plan
+
+    serial = "SN [/b] 7 [red]X"
+
+    async def scenario() -> None:
+        with shipped_bench("ntc-sender", folder=tmp_path) as (bench, station):
+            run_plan(shipped_plan("ntc-sender-screen", station), serial, ask=lambda t: True)
+            app = ConsoleApp(
+                console_setup(station, SEQUENCES / "ntc-sender-screen.toml", bench=bench)
+            )
+            async with app.run_test(size=SIZE) as pilot:
+                await wait_for(pilot, lambda: len(app.screen_stack) > 1, "the cautions")
+                await pilot.press("enter")
+                await wait_for(pilot, lambda: app.cautions_acknowledged, "the start view")
+                recent = app.screen.query_one(RunList)
+                await pilot.pause()
+                shown = recent.render_line(1).text + recent.render_line(2).text
+                assert serial in shown, shown
+
+    asyncio.run(scenario())

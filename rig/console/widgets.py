@@ -105,7 +105,23 @@ class ChartView(Widget):
 RUN_COLUMNS = ("run", "serial", "sequence", "verdict", "status", "started")
 
 
-class RunList(DataTable[Any]):
+class TextTable(DataTable[Any]):
+    """A table whose text cells are shown as written.  textual reads a ``str`` cell as markup,
+    so a serial or note holding ``[/b]`` would stop the console and ``[red]`` would be eaten;
+    serials, step notes and pin names are text, never markup."""
+
+    def add_row(
+        self,
+        *cells: Any,
+        height: int | None = 1,
+        key: str | None = None,
+        label: Any = None,
+    ) -> Any:
+        shown = [Text(cell) if isinstance(cell, str) else cell for cell in cells]
+        return super().add_row(*shown, height=height, key=key, label=label)
+
+
+class RunList(TextTable):
     """Recent runs at one station, newest first; Enter opens the run's record."""
 
     def __init__(self, opener: Callable[[int], None], **kwargs: Any) -> None:

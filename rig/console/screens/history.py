@@ -15,7 +15,7 @@ from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Static
 
 from rig.console.setup import ConsoleSetup
-from rig.console.widgets import RunList
+from rig.console.widgets import RunList, TextTable
 from rig.console.words import (
     VERDICT_STYLES,
     kind_cells,
@@ -100,7 +100,7 @@ class RecordScreen(Screen[None]):
     def compose(self) -> ComposeResult:
         with VerticalScroll(id="record"):
             yield Static(id="record-head")
-            yield DataTable(id="record-steps", cursor_type="none", zebra_stripes=True)
+            yield TextTable(id="record-steps", cursor_type="none", zebra_stripes=True)
             yield Static(id="record-notes")
         yield Footer()
 

@@ -27,7 +27,7 @@ from rig.console.plots import ntc_chart, step_history, trend_chart
 from rig.console.screens.prompt import PromptScreen
 from rig.console.screens.start import serial_problem
 from rig.console.setup import ConsoleSetup
-from rig.console.widgets import ChartView, StatusPanel
+from rig.console.widgets import ChartView, StatusPanel, TextTable
 from rig.console.words import (
     VERDICT_STYLES,
     live_text,
@@ -169,7 +169,7 @@ class RunScreen(Screen[str | None]):
             id="run-title",
         )
         yield StatusPanel(id="status")
-        yield DataTable(id="steps", cursor_type="row", zebra_stripes=True)
+        yield TextTable(id="steps", cursor_type="row", zebra_stripes=True)
         with Horizontal(id="lower"):
             yield Static("", id="diagnosis")
             with VerticalScroll(id="findings"):
