@@ -32,6 +32,7 @@ from rig.errors import (
     InstrumentProtocolError,
     InstrumentReportedError,
     InstrumentTimeout,
+    InstrumentUnreachable,
     Problem,
 )
 
@@ -129,7 +130,7 @@ class VisaSession:
                 **self.where(command),
             ) from error
         except Exception as error:  # pyvisa-py raises bare Exception("could not connect")
-            raise InstrumentConnectionLost(
+            raise InstrumentUnreachable(
                 f"cannot open the connection: {error}", **self.where(command)
             ) from error
         disable_nagle(self._handle)
@@ -160,6 +161,9 @@ class VisaSession:
             raise InstrumentConnectionLost(
                 f"I/O failed: {error.description}", **self.where(command)
             ) from error
+        except ConnectionRefusedError as error:  # pyvisa-py connects at the first I/O
+            self._discard()
+            raise InstrumentUnreachable("connection refused", **self.where(command)) from error
         except OSError as error:
             self._discard()
             raise InstrumentConnectionLost(

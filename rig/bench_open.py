@@ -4,8 +4,9 @@ from __future__ import annotations
 
 import datetime as dt
 
-from drivers.base import Dmm, Instrument, RelayBox, Supply
+from drivers.base import Dmm, Instrument, InstrumentIdentity, RelayBox, Supply
 from drivers.registry import open_instrument
+from rig.bench_identity import BenchRefused, ask_identity, identity_problems
 from rig.config.station import Station
 from rig.engine import Bench
 from rig.errors import RigError
@@ -56,10 +57,12 @@ def check_calibration(
 
 
 def open_bench(station: Station) -> Bench:
-    """Open DMM, supply and relay box; closes what was opened if a later one fails."""
+    """Open DMM, supply and relay box and prove each is there and is the one the station names
+    (``BenchRefused`` before any run otherwise); closes what was opened if a later one fails."""
     opened: list[Instrument] = []
     try:
-        found = {}
+        found: dict[str, Instrument] = {}
+        identities: dict[str, InstrumentIdentity] = {}
         for role, expected in (("dmm", Dmm), ("supply", Supply), ("relay_box", RelayBox)):
             config = station.instruments[role]
             instrument = open_instrument(config.driver, role, config.resource, config.settings)
@@ -69,11 +72,35 @@ def open_bench(station: Station) -> Bench:
                     f"driver {config.driver!r} for [{role}] is not a {expected.__name__} driver"
                 )
             found[role] = instrument
+            identities[role] = _identity(station, role, instrument)
+        _check_identities(station, identities)
     except BaseException:
         for instrument in opened:
             instrument.close()
         raise
-    return Bench(found["dmm"], found["supply"], found["relay_box"])  # type: ignore[arg-type]
+    return Bench(found["dmm"], found["supply"], found["relay_box"], identities)  # type: ignore[arg-type]
+
+
+def _refusal(station: Station, problems: list[tuple[str, str]]) -> BenchRefused:
+    """The refusal of a bench, each problem with its role and address, then the file to fix."""
+    said = "; ".join(
+        f"[{role}] at {station.instruments[role].resource}: {text}" for role, text in problems
+    )
+    return BenchRefused(f"{said} (station file {station.path}); nothing was run")
+
+
+def _identity(station: Station, role: str, instrument: Instrument) -> InstrumentIdentity:
+    try:
+        return ask_identity(role, instrument)
+    except BenchRefused as exc:
+        raise _refusal(station, [(role, str(exc))]) from exc.__cause__
+
+
+def _check_identities(station: Station, identities: dict[str, InstrumentIdentity]) -> None:
+    expected = {role: c.expect_identity for role, c in station.instruments.items()}
+    problems = identity_problems(identities, expected)
+    if problems:
+        raise _refusal(station, problems)
 
 
 def close_bench(bench: Bench) -> None:

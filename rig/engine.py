@@ -19,7 +19,8 @@ from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 from typing import Any, cast
 
-from drivers.base import Dmm, MeterFunction, RelayBox, Supply
+from drivers.base import Dmm, InstrumentIdentity, MeterFunction, RelayBox, Supply
+from rig.bench_identity import ask_identity
 from rig.commit_ahead import CommitAhead, Pending, RowTicket
 from rig.config.fixture import Bus, FixtureMap
 from rig.config.station import FUNCTIONS
@@ -74,6 +75,9 @@ class Bench:
     dmm: Dmm
     supply: Supply
     relays: RelayBox
+    identities: dict[str, InstrumentIdentity] = field(default_factory=dict)
+    """Who answered at each role's address when the bench was opened (``open_bench`` asks and
+    checks them): the identities every run on this bench records."""
 
     def all(self) -> list[Dmm | Supply | RelayBox]:
         return [self.dmm, self.supply, self.relays]
@@ -491,6 +495,8 @@ class Engine:
         return summary
 
     def _identities(self) -> list[dict[str, str]]:
+        """The run's record of its instruments: who answered when the bench was opened (a bench
+        put together without ``open_bench`` is asked here, and refused as there)."""
         found = []
         for role, inst in (
             ("dmm", self.bench.dmm),
@@ -498,12 +504,13 @@ class Engine:
             ("relay_box", self.bench.relays),
         ):
             config = self.plan.station.instruments[role]
-            ident = self._identity(role, inst)
+            known = self.bench.identities.get(role)
+            ident = known if known is not None else ask_identity(role, inst)
             due = config.calibration_due.isoformat() if config.calibration_due else ""
             found.append(
                 {
                     "role": role,
-                    "identity": ident,
+                    "identity": str(ident),
                     "resource": config.resource,
                     "calibration_due": due,
                 }
@@ -512,23 +519,6 @@ class Engine:
         if probe is not None:  # the standard a reference temperature rests on
             found.append(probe.record())
         return found
-
-    def _identity(self, role: str, inst: Dmm | Supply | RelayBox) -> str:
-        """The instrument's identity for the run's record, asked again once after a transient
-        fault (a garbled or lost reply, as any query is); where it still cannot be read the
-        record says so and the run warns: a record that does not name its instrument cannot
-        back a decision."""
-        try:
-            return str(inst.identity())
-        except RigError as first:
-            log.warning("%s: identity not read, asking once more: %s", role, first)
-        try:
-            return str(inst.identity())
-        except RigError as exc:
-            self._warn(
-                f"the {role}'s identity could not be read ({exc}); the record does not name it"
-            )
-            return f"unknown ({exc})"
 
     def _relay_counts(self) -> dict[int, int]:
         try:

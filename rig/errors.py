@@ -83,6 +83,11 @@ class InstrumentConnectionLost(InstrumentError):
     """The link to the instrument dropped (socket reset, pty gone, port closed)."""
 
 
+class InstrumentUnreachable(InstrumentConnectionLost):
+    """Nothing answers at the instrument's address (connection refused, or no connection could be
+    made): it is off or the address is wrong, which a lost connection's hint would not say."""
+
+
 class InstrumentProtocolError(InstrumentError):
     """A reply came but could not be understood (garbled, bad checksum, wrong sequence number)."""
 

@@ -15,6 +15,7 @@ from rig.errors import (
     InstrumentProtocolError,
     InstrumentReportedError,
     InstrumentTimeout,
+    InstrumentUnreachable,
     SettingRefused,
 )
 
@@ -67,6 +68,8 @@ def plain_reason(exc: InstrumentError) -> str:
         )
     elif isinstance(exc, InstrumentTimeout):
         text = f"{who} did not answer in time{command}; check that it is on and its cable is in"
+    elif isinstance(exc, InstrumentUnreachable):
+        text = f"nothing answers at the address of {who}{command}: is it on, is the address right?"
     elif isinstance(exc, InstrumentConnectionLost):
         text = f"the connection to {who} was lost{command}; check its cable or network link"
     elif isinstance(exc, InstrumentProtocolError):

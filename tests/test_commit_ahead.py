@@ -102,7 +102,7 @@ class SlowStartStore(ResultStore):
 
     supply: Any = None
     baseline = 0
-    expected = 3
+    expected = 2
     answered_meanwhile = -1
 
     def start_run(self, *args: Any, **kwargs: Any) -> int:
@@ -130,7 +130,8 @@ def test_the_run_row_commits_while_the_bench_is_made_safe(tmp_path: Path) -> Non
         finally:
             close_bench(instruments)
         assert summary.status == "complete"
-        # *IDN?, then SYST:ERR? and OUTP? of the safe start, all answered before the row commits
+        # SYST:ERR? and OUTP? of the safe start, both answered before the row commits (*IDN? was
+        # asked when the bench was opened, before the baseline)
         assert store.answered_meanwhile >= store.expected
         assert store.run(summary.run_id)["status"] == "complete"
         store.close()

@@ -11,6 +11,7 @@ from pathlib import Path
 import pytest
 from bench_helpers import shipped_bench, shipped_plan
 
+from rig.bench_identity import BenchRefused
 from rig.bench_open import close_bench, open_bench
 from rig.engine import Engine, RunSummary
 from rig.events import Event, RunFinished, StepFinished
@@ -273,8 +274,9 @@ def test_a_meter_silent_for_its_setup_while_relays_move_leaves_the_box_fed(
 
 @pytest.mark.parametrize("fault", ["garble", "drop"])
 def test_a_transient_fault_on_the_identity_query_is_asked_again(tmp_path: Path, fault: str) -> None:
-    # The meter's *IDN? reply garbled or its connection dropped once: asked again, as any query
-    # is, and the record names the meter (IEEE 488.2 *IDN?: maker, model, serial, firmware).
+    # The meter's *IDN? reply garbled or its connection dropped once when the bench is opened:
+    # asked again, as any query is, and the record names the meter (IEEE 488.2-1992 §10.14:
+    # maker, model, serial, firmware).
     with shipped_bench("ntc-sender", folder=tmp_path) as (bench, station):
         bench.dmm.inject_fault(fault, 1)
         summary = run_plan(shipped_plan("ntc-sender-screen", station), "IDN-1", ask=lambda t: True)
@@ -288,9 +290,16 @@ def test_a_transient_fault_on_the_identity_query_is_asked_again(tmp_path: Path, 
     assert not summary.warnings
 
 
-def test_an_identity_that_cannot_be_read_is_a_warning_not_a_silent_gap(tmp_path: Path) -> None:
+def test_an_identity_that_cannot_be_read_refuses_the_bench_before_any_run(tmp_path: Path) -> None:
+    # Asked twice at opening and garbled twice: the bench is refused, and no run is charged to
+    # the unit (it used to run with a warning and a record that did not name its meter).
     with shipped_bench("ntc-sender", folder=tmp_path) as (bench, station):
         bench.dmm.inject_fault("garble", 2)  # the first ask and the second
-        summary = run_plan(shipped_plan("ntc-sender-screen", station), "IDN-2", ask=lambda t: True)
-    assert summary.status == "complete", summary.reason
-    assert any("dmm's identity could not be read" in w for w in summary.warnings), summary
+        with pytest.raises(BenchRefused, match=r"\[dmm\] at .*four comma-separated fields"):
+            run_plan(shipped_plan("ntc-sender-screen", station), "IDN-2", ask=lambda t: True)
+        assert not any(bench.relay_box.operation_counts().values())  # nothing moved
+        store = ResultStore(station.store_path)
+        try:
+            assert store.runs() == []
+        finally:
+            store.close()

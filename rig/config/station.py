@@ -38,6 +38,9 @@ class InstrumentConfig:
     settings: dict[str, Any] = field(default_factory=dict)
     calibration_due: dt.date | None = None
     allow_past_due: bool = False
+    expect_identity: str = ""
+    """Text the instrument's identity must contain, letter case aside (its serial, say); empty:
+    not stated."""
 
 
 @dataclass(frozen=True)
@@ -187,6 +190,9 @@ def _instrument(role: str, sec: Section) -> InstrumentConfig:
     driver = sec.string("driver") or ""
     resource = sec.string("resource") or ""
     due, allow_past_due = read_calibration(sec)
+    expect: str = sec.string("expect_identity", "")
+    if sec.has("expect_identity") and not expect.strip():
+        sec.problem("expect_identity", "expected text the identity contains, such as a serial")
     settings_sec = sec.table("settings")
     settings = dict(settings_sec.data) if settings_sec else {}
     return InstrumentConfig(
@@ -196,6 +202,7 @@ def _instrument(role: str, sec: Section) -> InstrumentConfig:
         settings=settings,
         calibration_due=due,
         allow_past_due=allow_past_due,
+        expect_identity=expect.strip(),
     )
 
 

@@ -410,6 +410,7 @@ def _run(
         LiveDmm(real.dmm, inbox.put, stop.event),
         GuardedSupply(real.supply, stop.event),
         GuardedRelays(real.relays, stop.event),
+        real.identities,
     )
     stop.attach(bench)  # through the guards: its make-safe follows a closing already allowed
     try:

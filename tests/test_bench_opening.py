@@ -1,0 +1,166 @@
+"""Opening a bench proves each instrument is there and is the one the station names, before any
+run is recorded against a unit.
+
+Real stacks throughout: the virtual bench's DMM and supply over TCP (pyvisa-py), its relay box on a
+pty (pyserial), a port where nothing listens, a socket where another service answers, and the
+station's real SQLite file.  *IDN? answers four comma-separated fields: maker, model, serial,
+firmware (IEEE 488.2-1992 §10.14).
+"""
+
+from __future__ import annotations
+
+import socket
+import socketserver
+import threading
+from collections.abc import Iterator
+from contextlib import contextmanager
+from pathlib import Path
+
+import pytest
+from bench_helpers import shipped_bench, shipped_plan
+
+from rig.bench_identity import BenchRefused
+from rig.bench_open import close_bench, open_bench
+from rig.config.station import Station
+from rig.engine import Engine
+from rig.runner import run_plan
+from rig.store import ResultStore
+
+
+@contextmanager
+def nothing_listening() -> Iterator[int]:
+    """A port on 127.0.0.1 held bound but not listening: a connection to it is refused."""
+    held = socket.socket(socket.AF_INET, socket.SOCK_STREAM)
+    held.bind(("127.0.0.1", 0))
+    try:
+        yield held.getsockname()[1]
+    finally:
+        held.close()
+
+
+class _WebLike(socketserver.StreamRequestHandler):
+    """Another service at the address: it answers any line with an HTTP error, then closes."""
+
+    def handle(self) -> None:
+        self.rfile.readline()
+        self.wfile.write(b"HTTP/1.1 400 Bad Request\r\nconnection: close\r\n\r\n")
+
+
+@contextmanager
+def another_service() -> Iterator[int]:
+    server = socketserver.ThreadingTCPServer(("127.0.0.1", 0), _WebLike)
+    server.daemon_threads = True
+    thread = threading.Thread(target=server.serve_forever, daemon=True)
+    thread.start()
+    try:
+        yield server.server_address[1]
+    finally:
+        server.shutdown()
+        server.server_close()
+
+
+def _socket(port: int) -> str:
+    return f"TCPIP::127.0.0.1::{port}::SOCKET"
+
+
+def _no_runs(station: Station) -> bool:
+    store = ResultStore(station.store_path)
+    try:
+        return store.runs() == []
+    finally:
+        store.close()
+
+
+@pytest.mark.parametrize(("role", "who"), [("dmm", "the DMM"), ("supply", "the supply")])
+def test_an_instrument_that_is_off_refuses_the_bench_before_any_run(
+    tmp_path: Path, role: str, who: str
+) -> None:
+    with (
+        shipped_bench("ntc-sender", folder=tmp_path) as (bench, station),
+        nothing_listening() as port,
+    ):
+        station.instruments[role].resource = _socket(port)
+        with pytest.raises(BenchRefused) as refused:
+            run_plan(shipped_plan("ntc-sender-screen", station), "OFF-1", ask=lambda t: True)
+        assert not any(bench.relay_box.operation_counts().values())  # nothing moved
+        assert _no_runs(station)  # nothing charged to the unit
+    text = str(refused.value)
+    assert f"[{role}] at {_socket(port)}" in text
+    assert f"nothing answers at 127.0.0.1:{port} (connection refused)" in text
+    assert f"is {who} on and is the address right?" in text
+    assert "lost" not in text  # a connection never made was not lost
+    assert str(station.path) in text
+
+
+def test_another_service_at_the_address_is_not_taken_for_the_meter(tmp_path: Path) -> None:
+    with (
+        shipped_bench("ntc-sender", folder=tmp_path) as (_bench, station),
+        another_service() as port,
+    ):
+        station.instruments["dmm"].resource = _socket(port)
+        with pytest.raises(BenchRefused) as refused:
+            run_plan(shipped_plan("ntc-sender-screen", station), "WEB-1", ask=lambda t: True)
+        assert _no_runs(station)
+    text = str(refused.value)
+    assert "does not say who it is as an instrument does" in text
+    assert "four comma-separated fields" in text and "is the address of the DMM right?" in text
+
+
+def test_the_run_records_the_identities_read_at_opening_and_asks_none(tmp_path: Path) -> None:
+    with shipped_bench("ntc-sender", folder=tmp_path) as (bench, station):
+        asked: list[str] = []
+        opened = open_bench(station)
+        handle = bench.dmm.handle
+
+        def counting(line: str) -> str | None:
+            asked.append(line)
+            return handle(line)
+
+        bench.dmm.handle = counting  # type: ignore[method-assign]
+        store = ResultStore(station.store_path)
+        try:
+            plan = shipped_plan("ntc-sender-screen", station)
+            summary = Engine(plan, opened, store, ask=lambda t: True).run("REC-1")
+            instruments = store.run(summary.run_id)["instruments"]
+        finally:
+            store.close()
+            close_bench(opened)
+    assert summary.status == "complete", summary.reason
+    assert "VB-DMM-0001" in str(instruments) and "VB-PSU-0001" in str(instruments)
+    assert asked and not any("IDN" in line.upper() for line in asked)
+
+
+def test_expect_identity_matches_any_part_of_the_reply_letter_case_aside(tmp_path: Path) -> None:
+    with shipped_bench("ntc-sender", folder=tmp_path) as (_bench, station):
+        station.instruments["dmm"].expect_identity = "vb-dmm-0001"  # the serial, in lower case
+        station.instruments["supply"].expect_identity = "virtual-supply"  # the model
+        opened = open_bench(station)
+        close_bench(opened)
+        station.instruments["dmm"].expect_identity = "VB-DMM-0002"  # another meter's serial
+        with pytest.raises(BenchRefused) as refused:
+            open_bench(station)
+    text = str(refused.value)
+    assert "[dmm] at" in text and "does not contain expect_identity 'VB-DMM-0002'" in text
+    assert "'rig,virtual-dmm,VB-DMM-0001,1.0'" in text
+
+
+def test_swapped_addresses_are_named_as_swapped(tmp_path: Path) -> None:
+    with shipped_bench("ntc-sender", folder=tmp_path) as (bench, station):
+        dmm, supply = station.instruments["dmm"], station.instruments["supply"]
+        dmm.expect_identity, supply.expect_identity = "VB-DMM-0001", "VB-PSU-0001"
+        dmm.resource, supply.resource = supply.resource, dmm.resource
+        with pytest.raises(BenchRefused) as refused:
+            run_plan(shipped_plan("ntc-sender-screen", station), "SWAP-1", ask=lambda t: True)
+        assert _no_runs(station)
+        assert not any(bench.relay_box.operation_counts().values())
+    text = str(refused.value)
+    assert "[dmm] at" in text and "answers as the station's supply" in text
+    assert "[supply] at" in text and "answers as the station's dmm" in text
+    assert "swapped" in text
+
+
+def test_two_roles_at_one_address_are_refused_without_expect_identity(tmp_path: Path) -> None:
+    with shipped_bench("ntc-sender", folder=tmp_path) as (_bench, station):
+        station.instruments["supply"].resource = station.instruments["dmm"].resource
+        with pytest.raises(BenchRefused, match=r"\[supply\] at .*same instrument as the dmm"):
+            open_bench(station)
