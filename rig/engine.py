@@ -27,7 +27,13 @@ from rig.config.station import FUNCTIONS
 from rig.deadline import wait_until
 from rig.end_cause import EndCause
 from rig.entry_text import kept_entry_text
-from rig.errors import InstrumentError, InterlockError, RigError, SettingMismatch
+from rig.errors import (
+    InstrumentError,
+    InstrumentReportedError,
+    InterlockError,
+    RigError,
+    SettingMismatch,
+)
 from rig.events import (
     AHEAD_UNUSED,
     SETTLE_PROOF,
@@ -540,6 +546,7 @@ class Engine:
         that came meanwhile; None when the bench is safe and guarded.  The run then ends as any
         aborted or interrupted run does (made safe, recorded)."""
         try:
+            self._empty_meter_errors()
             failures = make_safe(self.bench)
             if not failures:
                 self.bench.relays.start_watchdog(self.plan.station.watchdog_s)
@@ -556,6 +563,19 @@ class Engine:
             )
         self._move_ahead(self._opening_relays(0))  # while the run's row commits
         return None
+
+    def _empty_meter_errors(self) -> None:
+        """Empty the DMM's error queue before the first step, as ``make_safe`` does the
+        supply's: what front-panel use or another program left there would be blamed on this
+        run's first command.  What it held is a note of the run, no step's fault."""
+        try:
+            self.bench.dmm.check_errors()
+        except InstrumentReportedError as exc:
+            found = exc.message.removeprefix("instrument reported ")
+            self._run_notes.append(
+                f"the DMM's error queue held {found} before this run (left by front-panel use "
+                "or another program); emptied at the start, no step is charged with it"
+            )
 
     @staticmethod
     def _run_row(started: Pending, start_problem: BaseException | None) -> int:

@@ -164,3 +164,21 @@ def test_two_roles_at_one_address_are_refused_without_expect_identity(tmp_path: 
         station.instruments["supply"].resource = station.instruments["dmm"].resource
         with pytest.raises(BenchRefused, match=r"\[supply\] at .*same instrument as the dmm"):
             open_bench(station)
+
+
+def test_errors_left_in_the_meter_are_a_note_of_the_run_not_a_fault_of_its_first_step(
+    tmp_path: Path,
+) -> None:
+    # Another program left an undefined header in the meter (SCPI-1999: -113 "Undefined header";
+    # the queue holds it until read, IEEE 488.2 *CLS or SYST:ERR? empties it).
+    with shipped_bench("ntc-sender", folder=tmp_path) as (_bench, station):
+        port = int(station.instruments["dmm"].resource.split("::")[2])
+        with socket.create_connection(("127.0.0.1", port), timeout=5) as other:
+            other.sendall(b"BOGUS:HEADER 1\n*OPC?\n")
+            assert other.makefile("rb").readline().strip() == b"1"  # the meter took both
+        summary = run_plan(shipped_plan("ntc-sender-screen", station), "Q-1", ask=lambda t: True)
+    assert summary.status == "complete", summary.reason
+    assert not any("retry" in n for n in summary.notes), summary.notes
+    assert not summary.warnings, summary.warnings
+    held = [n for n in summary.notes if "error queue held" in n]
+    assert held and '-113,"Undefined header"' in held[0] and "before this run" in held[0]
