@@ -129,6 +129,11 @@ class Supply(Instrument):
 class RelayBox(Instrument):
     """A box of numbered relays (1-based)."""
 
+    relay_count: int | None = None
+    """How many relays the box says it has (None: a box that cannot say)."""
+    max_closed: int | None = None
+    """How many relays the box says may be closed at once (None: a box that cannot say)."""
+
     @abstractmethod
     def open_all(self) -> None:
         """Open every relay and verify by read-back."""

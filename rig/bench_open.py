@@ -74,6 +74,7 @@ def open_bench(station: Station) -> Bench:
             found[role] = instrument
             identities[role] = _identity(station, role, instrument)
         _check_identities(station, identities)
+        _check_box_size(station, found["relay_box"])  # type: ignore[arg-type]
     except BaseException:
         for instrument in opened:
             instrument.close()
@@ -101,6 +102,27 @@ def _check_identities(station: Station, identities: dict[str, InstrumentIdentity
     problems = identity_problems(identities, expected)
     if problems:
         raise _refusal(station, problems)
+
+
+def _check_box_size(station: Station, box: RelayBox) -> None:
+    """Refuse a fixture map that needs more relays, or more closed at once, than the box has:
+    a route on a relay it lacks would otherwise fail in the middle of a run."""
+    fixture = station.fixture
+    short = [
+        f"{key} = {needed}"
+        for key, needed, has in (
+            ("relay_count", fixture.relay_count, box.relay_count),
+            ("max_closed", fixture.max_closed, box.max_closed),
+        )
+        if has is not None and needed > has
+    ]
+    if short:
+        problem = (
+            f"the box reports {box.relay_count} relays, at most {box.max_closed} closed at once, "
+            f"but fixture {fixture.name!r} ({fixture.path}) states {', '.join(short)}: correct "
+            "the fixture file or connect the box it was written for"
+        )
+        raise _refusal(station, [("relay_box", problem)])
 
 
 def close_bench(bench: Bench) -> None:

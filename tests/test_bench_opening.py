@@ -182,3 +182,25 @@ def test_errors_left_in_the_meter_are_a_note_of_the_run_not_a_fault_of_its_first
     assert not summary.warnings, summary.warnings
     held = [n for n in summary.notes if "error queue held" in n]
     assert held and '-113,"Undefined header"' in held[0] and "before this run" in held[0]
+
+
+@pytest.mark.parametrize(
+    ("key", "more", "shown"),
+    [("relay_count", 8, "relay_count = {}"), ("max_closed", 2, "max_closed = {}")],
+)
+def test_a_fixture_bigger_than_the_relay_box_is_refused_at_opening(
+    tmp_path: Path, key: str, more: int, shown: str
+) -> None:
+    # The virtual box is built to the fixture's size; the station's fixture map then claims more
+    # than the box answers to WHO (docs/relay-box-protocol.md).
+    with shipped_bench("ntc-sender", folder=tmp_path) as (bench, station):
+        has = getattr(station.fixture, key)
+        setattr(station.fixture, key, has + more)
+        with pytest.raises(BenchRefused) as refused:
+            run_plan(shipped_plan("ntc-sender-screen", station), "BOX-1", ask=lambda t: True)
+        assert not any(bench.relay_box.operation_counts().values())
+        assert _no_runs(station)
+    text = str(refused.value)
+    assert "[relay_box] at" in text and shown.format(has + more) in text
+    assert str(station.fixture.path) in text
+    assert f"the box reports {bench.relay_box.relay_count} relays" in text
