@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import enum
 from abc import ABC, abstractmethod
-from collections.abc import Callable, Iterable
+from collections.abc import Callable, Iterable, Mapping
 from dataclasses import dataclass
 
 
@@ -40,6 +40,15 @@ class Instrument(ABC):
 
     name: str
     resource: str
+
+    @classmethod
+    def setting_problems(
+        cls, resource: str, settings: Mapping[str, object]
+    ) -> list[tuple[str, str]]:
+        """What is wrong with a resource and settings as a station file gives them, as (key
+        under the instrument's table, what was expected), so a station is checked when it
+        loads and not first at a run.  This default finds nothing; a driver names its own."""
+        return []
 
     @abstractmethod
     def identity(self) -> InstrumentIdentity:

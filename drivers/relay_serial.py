@@ -145,6 +145,17 @@ class SerialRelayBox(RelayBox):
 
     # ---- RelayBox -----------------------------------------------------------------------------
 
+    @classmethod
+    def setting_problems(
+        cls, resource: str, settings: Mapping[str, object]
+    ) -> list[tuple[str, str]]:
+        """Unknown settings, ``baudrate`` and ``timeout_ms`` (any port name may exist)."""
+        try:
+            _read_settings("", settings)
+        except ConfigError as exc:
+            return [(f"settings.{p.key}", p.message) for p in exc.problems]
+        return []
+
     def identity(self) -> InstrumentIdentity:
         """The identity the box gave in its ``WHO`` reply when the port was opened.
 

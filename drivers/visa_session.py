@@ -24,6 +24,7 @@ from typing import Any
 import pyvisa
 import pyvisa.constants
 import pyvisa.errors
+import pyvisa.rname
 
 from rig.errors import (
     ConfigError,
@@ -39,6 +40,7 @@ from rig.errors import (
 log = logging.getLogger(__name__)
 
 DEFAULT_TIMEOUT_MS = 3000
+EXAMPLE_RESOURCE = "TCPIP0::192.168.0.20::5025::SOCKET"
 #: SCPI-1999: 9.9E37 is +infinity; anything at or above it in magnitude is not a reading.
 OVERLOAD_THRESHOLD = 9.9e37
 #: How many SYSTem:ERRor? reads before we give up on an error queue that never empties.
@@ -77,6 +79,17 @@ def timeout_setting(name: str, settings: Mapping[str, object]) -> int:
             ]
         )
     return max(1, round(value))
+
+
+def resource_problem(resource: str) -> str:
+    """Why ``resource`` is not a VISA resource string pyvisa can open (empty when it is): a
+    missing ``::`` would otherwise surface at the first run as a confusing attribute error."""
+    try:
+        pyvisa.rname.parse_resource_name(resource)
+    except pyvisa.rname.InvalidResourceName as error:
+        said = str(error).rstrip(".")
+        return f"not a VISA resource string: {said}; expected e.g. {EXAMPLE_RESOURCE}"
+    return ""
 
 
 class VisaSession:

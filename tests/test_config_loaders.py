@@ -600,6 +600,28 @@ def test_a_lead_zero_pair_must_name_the_fixtures_pins(tmp_path: Path) -> None:
     assert load_station(path).lead_zero_ohm == {"T2:T1": 0.1}
 
 
+def test_instrument_tables_are_checked_against_their_driver_when_the_station_loads(
+    tmp_path: Path,
+) -> None:
+    # What a run refused (or ignored) is found by rig check, with file, line and key: a
+    # resource pyvisa's parser refuses, an unknown setting, an unknown dialect role, a driver
+    # no package provides.
+    path = station_file(tmp_path, FIXTURE)
+    text = path.read_text(encoding="utf-8")
+    text = text.replace("TCPIP::127.0.0.1::1::SOCKET", "TCPIP::127.0.0.1:1::SOCKET", 1)
+    text = text.replace('driver = "scpi-supply"', 'driver = "scpi-psu"', 1)
+    text = text.replace("[dmm.settings]\n", "[dmm.settings]\ntimeout = 5\n", 1)
+    path.write_text(text + '\n[dmm.settings.dialect]\nfetch = "FETC?"\n')
+    with pytest.raises(ConfigError) as caught:
+        load_station(path)
+    found = {p.key: p for p in caught.value.problems}
+    assert "not a VISA resource string" in found["dmm.resource"].message
+    assert found["dmm.settings.timeout"].message.startswith("unknown setting; known: dialect")
+    assert "unknown command role" in found["dmm.settings.dialect.fetch"].message
+    assert "unknown driver 'scpi-psu'" in found["supply.driver"].message
+    assert all(p.line is not None and p.file == str(path) for p in found.values())
+
+
 def test_station_with_a_missing_fixture(tmp_path: Path) -> None:
     path = station_file(tmp_path, tmp_path / "no-such-fixture.toml")
     with pytest.raises(ConfigError) as caught:

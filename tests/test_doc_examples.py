@@ -55,6 +55,7 @@ PAGES: dict[str, list[Run]] = {
         _check("st6"),
         _cli("run", "bad/sequence.toml", "--station", "bad/st7.toml", "--serial", "D1", "--yes"),
         _check("st8"),
+        _check("st9"),
     ],
     "unit-file.md": [
         _cli("check", "--unit", f"bad/{name}.toml")

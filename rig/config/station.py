@@ -15,13 +15,14 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+from drivers.registry import load_driver
 from rig.config.calibration import read_calibration
 from rig.config.fixture import FixtureMap, parse_fixture
 from rig.config.probe_section import parse_reference_probe
 from rig.config.reader import Section, TomlDoc, named_unreadable
 from rig.config.store_section import StoreSettings, parse_store
 from rig.config.text_file import FileUnreadable
-from rig.errors import ConfigError
+from rig.errors import ConfigError, RigError
 from rig.judge.accuracy import AccuracySpec, AccuracyTable
 from rig.judge.reference_probe import ReferenceProbe
 from rig.quantity import format_quantity
@@ -195,6 +196,8 @@ def _instrument(role: str, sec: Section) -> InstrumentConfig:
         sec.problem("expect_identity", "expected text the identity contains, such as a serial")
     settings_sec = sec.table("settings")
     settings = dict(settings_sec.data) if settings_sec else {}
+    if driver:
+        _check_driver(sec, driver, resource, settings)
     return InstrumentConfig(
         role=role,
         driver=driver,
@@ -204,6 +207,18 @@ def _instrument(role: str, sec: Section) -> InstrumentConfig:
         allow_past_due=allow_past_due,
         expect_identity=expect.strip(),
     )
+
+
+def _check_driver(sec: Section, driver: str, resource: str, settings: dict[str, Any]) -> None:
+    """The driver exists and takes this resource and these settings: found when the file loads
+    (``rig check``), not first at a run with no file or line named."""
+    try:
+        cls = load_driver(driver)
+    except RigError as exc:
+        sec.problem("driver", str(exc))
+        return
+    for key, message in cls.setting_problems(resource, settings):
+        sec.problem(key, message)
 
 
 def _spec(entry: Section) -> AccuracySpec:
