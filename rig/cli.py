@@ -588,12 +588,19 @@ def _estimate(
     """The planned range, and the expanded uncertainty and TUR at the upper (or lower) limit;
     for limits around a prediction, at the worst temperature the unit file allows."""
     from rig.config.station import FUNCTIONS
-    from rig.step_judging import uncertainty_at_limit
+    from rig.step_judging import SUPPLY_CURRENT, uncertainty_at_limit
     from rig.steps import KINDS
 
     spec = step.spec
     kind = KINDS[spec.kind]
     function = kind.meter_function(spec)
+    if spec.kind == SUPPLY_CURRENT:  # the supply's own readback, as the run takes its U
+        readback = plan.station.supply_accuracy.get("current")
+        found = uncertainty_at_limit(plan.station, spec, None)
+        if readback is None or found is None:
+            return "-", "-", "-"
+        expanded, tur = found
+        return show(readback[0], "A"), show(expanded, kind.unit), tur_text(tur)
     if function is None:
         return "-", "-", "-"  # nothing measured with the meter (a prompt, a soak)
     range_text = "auto" if step.range_ is None else show(step.range_, FUNCTIONS[function.value])

@@ -67,6 +67,7 @@ from rig.step_judging import (
     meter_ranges,
     no_uncertainty_note,
     reading_u,
+    supply_current_u,
 )
 from rig.steps import KINDS, Outcome, Reading, StepSpec, SupplyRequest
 from rig.store import ResultStore, RunHeader, StoreError
@@ -1188,12 +1189,7 @@ class Engine:
 
     def supply_current(self, *, role: str) -> Reading:
         value = self.bench.supply.measure_current()
-        spec = self.plan.station.supply_accuracy.get("current")
-        u = math.nan
-        range_: float | None = None
-        if spec is not None and math.isfinite(value):
-            range_, accuracy = spec
-            u = float(accuracy.standard_uncertainty(value, range_))
+        u, range_ = supply_current_u(self.plan.station, value)
         taken_at = time.time()
         self.store.add_reading(
             self._run_id,

@@ -93,6 +93,13 @@ def uncertainty_at_limit(
     kind = KINDS[spec.kind]
     function = kind.meter_function(spec)
     limits = spec.limits
+    if spec.kind == SUPPLY_CURRENT and limits is not None:
+        at = limits.high if limits.high is not None else limits.low
+        assert at is not None  # Limits has at least one side
+        u, _ = supply_current_u(station, at)
+        if not math.isfinite(u):
+            return None
+        return COVERAGE_K * u, test_uncertainty_ratio(limits, COVERAGE_K * u)
     if function is None or range_ is None or limits is None or not kind.limits_in_meter_units:
         return None
     at = limits.high if limits.high is not None else limits.low
@@ -103,6 +110,21 @@ def uncertainty_at_limit(
         return None
     expanded = COVERAGE_K * accuracy.standard_uncertainty(at, range_)
     return expanded, test_uncertainty_ratio(limits, expanded)
+
+
+SUPPLY_CURRENT = "supply-current"
+"""The step kind judged on the supply's own current readback, not on the meter."""
+
+
+def supply_current_u(station: Station, value: float) -> tuple[float, float | None]:
+    """Standard uncertainty and range of the supply's current readback at ``value``, from
+    ``[supply.accuracy.current]`` (GUM 4.3.7); (NaN, None) where the station states none.  One
+    function for the run, the prediction and ``rig check``, so that all three agree."""
+    stated = station.supply_accuracy.get("current")
+    if stated is None or not math.isfinite(value):
+        return math.nan, None
+    range_, accuracy = stated
+    return float(accuracy.standard_uncertainty(value, range_)), range_
 
 
 def autorange_estimate(station: Station, function: MeterFunction, value: float) -> float | None:

@@ -29,6 +29,7 @@ from rig.step_judging import (
     lead_zero_ohm,
     meter_ranges,
     reading_u,
+    supply_current_u,
 )
 from rig.steps import KINDS, Outcome, Reading, SupplyRequest
 from rig.steps.context import ConnectThenMeasure
@@ -101,11 +102,7 @@ class _SolverContext(ConnectThenMeasure):
 
     def supply_current(self, *, role: str) -> Reading:
         value = self.bench.supply_current()
-        spec = self.plan.station.supply_accuracy.get("current")
-        u, range_ = math.nan, None
-        if spec is not None and math.isfinite(value):
-            range_, accuracy = spec
-            u = float(accuracy.standard_uncertainty(value, range_))
+        u, range_ = supply_current_u(self.plan.station, value)
         self._keep(role, value, u, range_, self.bench.condition(None, 0.0))
         return Reading(role, "supply-current", value, range_, 0.0, time.time(), u)
 
