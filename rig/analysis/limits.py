@@ -39,6 +39,7 @@ from rig.analysis.montecarlo import (
     prediction_centre,
 )
 from rig.analysis.predict import SequencePredictor, StepPrediction
+from rig.analysis.supply_output import exact_output_warning
 from rig.config.unit_file import UnitModel
 from rig.faults import Fault
 from rig.judge.decision import TUR_MINIMUM, Limits, Verdict, tur_is_low, tur_text
@@ -361,7 +362,12 @@ def study_limits(
             check_fault(proposal, *found[proposal.step_id], fault)
             for fault, found in zip(fault_list, figures, strict=True)
         ]
-    study.warnings = _ambient_warnings(plan, unit, proposals) + _warnings(study)
+    exact = result.supply_exact
+    study.warnings = (
+        _ambient_warnings(plan, unit, proposals)
+        + ([exact_output_warning(exact, plan.station)] if exact else [])
+        + _warnings(study)
+    )
     return study
 
 

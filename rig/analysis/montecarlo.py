@@ -30,6 +30,8 @@ from rig.analysis.reading_model import (
     circuit_ports,
     prepared_circuit,
 )
+from rig.analysis.supply_output import ELEMENT as SUPPLY_ELEMENT
+from rig.analysis.supply_output import SupplyOutput, moves_with_supply
 from rig.config.station import Station
 from rig.config.unit_file import UnitModel
 from rig.models._common import ModelInputError
@@ -95,6 +97,9 @@ class MonteCarloResult:
     elements_per_reading: dict[str, int] = field(default_factory=dict)
     no_meter_error: list[str] = field(default_factory=list)
     """Readings (``step/role``) the station's accuracy table does not cover: drawn exact."""
+    supply_exact: list[str] = field(default_factory=list)
+    """Steps whose readings follow the supply's output, taken as exactly its setting because
+    the station states no setting accuracy."""
 
 
 def reading_roles(spec: StepSpec) -> tuple[str, ...] | None:
@@ -209,9 +214,13 @@ class SequenceMonteCarlo:
         self.sampler = GoodUnitSampler(unit)
         self.skipped: dict[str, str] = {}
         self.no_meter_error: list[str] = []
+        self.supply = SupplyOutput.of(plan.station)
+        self.supply_exact: list[str] = []
+        self._follows_supply: dict[tuple[Condition, float | None], bool] = {}
         self.readings: dict[tuple[str, str], ReadingModel] = {}
         self._steps: list[StepSpec] = []
         pilot = self.sampler.sample(np.random.default_rng(12345), 64)
+        self._pilot_position = np.random.default_rng(54321).uniform(-1.0, 1.0, pilot.n)
         bench = StaticBench(unit, plan.station.fixture, [])
         cache: dict[tuple[Condition, float | None], PortModel] = {}
         by_role = {(r.step_id, r.role): r for r in nominal.readings}
@@ -228,9 +237,11 @@ class SequenceMonteCarlo:
                 self.skipped[spec.id] = reason
                 continue
             models = {}
+            follows = False
             for role in roles:
                 predicted = by_role[(spec.id, role)]
                 model = self._port_model(bench, predicted, pilot, cache)
+                follows |= self._follows_supply[(predicted.condition, predicted.range_)]
                 if not math.isclose(model.m0, predicted.value, rel_tol=1e-6, abs_tol=1e-12):
                     reason = NOT_LINEAR
                     break
@@ -245,6 +256,8 @@ class SequenceMonteCarlo:
                 continue
             self.readings.update(models)
             self._steps.append(spec)
+            if follows and self.supply is None:
+                self.supply_exact.append(spec.id)
 
     @staticmethod
     def _unsupported(spec: StepSpec, nominal_value: float) -> str | None:
@@ -272,13 +285,39 @@ class SequenceMonteCarlo:
         circuit = prepared_circuit(bench, cond)
         sources = [n for n in pilot.values if n.startswith("src:")]
         ports = circuit_ports(circuit, [n for n in pilot.values if n not in sources])
+        if cond.supply_on:  # the supply's output, within its setting accuracy
+            sources.append(SUPPLY_ELEMENT)
+            pilot = self._with_supply(pilot, cond.supply_v, self._pilot_position)
         full = PortModel.build(circuit, ports, sources, function, cond.test_current_a)
+        self._follows_supply[key] = cond.supply_on and moves_with_supply(
+            full.m0, float(full.b[-1]), cond.supply_v
+        )
         u = predicted.u_std
         if not (math.isfinite(u) and u > 0):
             u = 1e-9 * max(abs(full.m0), 1e-6)  # no meter model: keep all but the negligible
         model = full.pruned(pilot, PRUNE_FRACTION * u)
         cache[key] = model
         return model
+
+    def _with_supply(self, drawn: Samples, setting_v: float, position: FloatArray) -> Samples:
+        """``drawn`` with the supply's output for ``setting_v`` (exact with no setting
+        accuracy: the element is then pruned away)."""
+        output = (
+            np.full(drawn.n, setting_v)
+            if self.supply is None
+            else self.supply.drawn(setting_v, position)
+        )
+        return Samples(drawn.n, {**drawn.values, SUPPLY_ELEMENT: output}, drawn.ambient_c)
+
+    def _inputs(
+        self, model: PortModel, drawn: Samples, position: FloatArray
+    ) -> Mapping[str, FloatArray]:
+        """The drawn values a reading's model takes: the supply's output at its setting where
+        the reading follows it."""
+        if SUPPLY_ELEMENT not in model.sources:
+            return drawn.values
+        setting_v = float(model.vs0[model.sources.index(SUPPLY_ELEMENT)])
+        return self._with_supply(drawn, setting_v, position).values
 
     def run(self, samples: int, seed: int, *, block: int = 20_000) -> MonteCarloResult:
         """Draw ``samples`` good units (in blocks, to bound memory) and every step's figure."""
@@ -288,6 +327,8 @@ class SequenceMonteCarlo:
         while done < samples:
             n = min(block, samples - done)
             drawn = self.sampler.sample(rng, n)
+            # one supply, one position within its setting accuracy per unit, for every step
+            position = np.zeros(n) if self.supply is None else rng.uniform(-1.0, 1.0, size=n)
             values: dict[str, FloatArray] = {}
             solved: dict[int, FloatArray] = {}  # readings on one route share the unit's state
             for spec in self._steps:
@@ -296,7 +337,7 @@ class SequenceMonteCarlo:
                     rm = self.readings[(spec.id, role)]
                     key = id(rm.model)
                     if key not in solved:
-                        solved[key] = rm.model.evaluate(drawn.values, n)
+                        solved[key] = rm.model.evaluate(self._inputs(rm.model, drawn, position), n)
                     true = solved[key]
                     readings[role] = true if rm.meter is None else rm.meter.apply(true, rng)
                 value = step_value(spec, readings, self.plan.station)
@@ -310,7 +351,12 @@ class SequenceMonteCarlo:
             list(self.sampler.draws),
             skipped=self.skipped,
             no_meter_error=list(self.no_meter_error),
+            supply_exact=list(self.supply_exact),
         )
+        if self.supply is not None and any(
+            SUPPLY_ELEMENT in rm.model.sources for rm in self.readings.values()
+        ):
+            result.draws.append(self.supply.draw())
         for spec in self._steps:
             value = np.concatenate([v for v, _ in parts[spec.id]])
             figure = np.concatenate([f for _, f in parts[spec.id]])

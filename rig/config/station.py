@@ -259,13 +259,18 @@ def _accuracy_table(sec: Section) -> AccuracyTable:
         return AccuracyTable({})
 
 
+SUPPLY_ACCURACY = {"voltage": "V", "current": "A", "setting": "V"}
+"""The supply's accuracy tables: its voltage and current readback, and how far its output may be
+from the voltage it is set to (``setting``, the programming accuracy)."""
+
+
 def _supply_accuracy(sec: Section) -> dict[str, tuple[float, AccuracySpec]]:
-    """Readback accuracy of the supply: 'voltage' and 'current', each (range, spec)."""
+    """The supply's accuracy tables (``SUPPLY_ACCURACY``), each (range, spec)."""
     table = sec.table("accuracy")
     found: dict[str, tuple[float, AccuracySpec]] = {}
     if table is None:
         return found
-    for what, unit in (("voltage", "V"), ("current", "A")):
+    for what, unit in SUPPLY_ACCURACY.items():
         entry = table.table(what)
         if entry:
             upper = entry.quantity("range", unit, positive=True) or 1.0
