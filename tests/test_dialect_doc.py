@@ -28,7 +28,7 @@ def documented_roles(heading: str) -> dict[str, tuple[str, frozenset[str]]]:
         if not line.startswith("| `"):
             continue
         cells = [c.strip() for c in line.strip("|").split("|")]
-        role, default, placeholders = (c.strip("`") for c in cells[:3])
+        role, default = (c.strip("`") for c in cells[:2])
         assert role not in rows, f"role {role} listed twice under {heading}"
         names = frozenset(re.findall(r"`([a-z_]+)`", cells[2]))
         rows[role] = (default, names)
