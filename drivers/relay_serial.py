@@ -55,13 +55,14 @@ log = logging.getLogger(__name__)
 
 DEFAULT_BAUDRATE = 115200
 DEFAULT_TIMEOUT_MS = 500
-_KNOWN_SETTINGS = ("baudrate", "timeout_ms")
+_KNOWN_SETTINGS = ("baudrate", "timeout_ms", "assert_dtr_rts")
 _ATTEMPTS = 2
 """One try and one retry."""
 
 
-def _read_settings(name: str, settings: Mapping[str, object]) -> tuple[int, float]:
-    """Check the station settings of one box; return (baudrate, timeout in ms)."""
+def _read_settings(name: str, settings: Mapping[str, object]) -> tuple[int, float, bool]:
+    """Check the station settings of one box; return (baudrate, timeout in ms, whether DTR and
+    RTS are raised when the port opens)."""
     where = f"settings of instrument {name!r}"
     problems: list[Problem] = []
     for key in settings:
@@ -84,10 +85,15 @@ def _read_settings(name: str, settings: Mapping[str, object]) -> tuple[int, floa
         problems.append(
             Problem(where, "timeout_ms", f"expected a positive number of ms, found {timeout!r}")
         )
+    lines = settings.get("assert_dtr_rts", True)
+    if not isinstance(lines, bool):
+        problems.append(
+            Problem(where, "assert_dtr_rts", f"expected true or false, found {lines!r}")
+        )
     if problems:
         raise ConfigError(problems)
     assert isinstance(baudrate, int) and isinstance(timeout, int | float)
-    return baudrate, float(timeout)
+    return baudrate, float(timeout), bool(lines)
 
 
 class SerialRelayBox(RelayBox):
@@ -96,7 +102,7 @@ class SerialRelayBox(RelayBox):
     def __init__(self, name: str, resource: str, settings: Mapping[str, object]) -> None:
         self.name = name
         self.resource = resource
-        self._baudrate, self._timeout_ms = _read_settings(name, settings)
+        self._baudrate, self._timeout_ms, raise_lines = _read_settings(name, settings)
         self.retries = 0
         """Commands that succeeded on their retry (a transient fault the engine should note)."""
         self.tripped_at_open = False
@@ -111,13 +117,18 @@ class SerialRelayBox(RelayBox):
         self._beat_stop: threading.Event | None = None
         self._beat_thread: threading.Thread | None = None
         try:
-            self._port = serial.Serial(
-                resource,
+            self._port = serial.Serial(  # not opened yet: no port named
+                None,
                 self._baudrate,
                 timeout=self._timeout_ms / 1000.0,
                 write_timeout=self._timeout_ms / 1000.0,
                 exclusive=True,
             )
+            # pyserial raises DTR and RTS on opening unless told before: a board that resets
+            # on DTR would reboot at every run (assert_dtr_rts = false holds them low)
+            self._port.port = resource
+            self._port.dtr = self._port.rts = raise_lines
+            self._port.open()
             self._lines = LineReader(self._port, TERMINATOR)
         except (serial.SerialException, OSError, ValueError) as exc:
             raise InstrumentConnectionLost(

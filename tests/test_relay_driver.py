@@ -625,3 +625,45 @@ def test_an_opening_cut_short_by_ctrl_c_is_not_taken_as_proof() -> None:
     finally:
         driver.close()
         sim.stop()
+
+
+# ---- DTR and RTS on opening (assert_dtr_rts) ------------------------------------------------
+# The relay box's ``assert_dtr_rts`` setting, on the simulated box's real pseudo-terminal.
+#
+# What a pty can show: the port opens and the box answers with the setting either way, pyserial
+# was asked for DTR and RTS low (``Serial.dtr``/``.rts`` before ``open``, as pyserial's API has
+# it), and a wrong value is refused at its key.  What it cannot show: a pty has no modem lines
+# (pyserial's TIOCMBIC ioctl is refused there and ignored), so no test here proves the lines stay
+# low on a real port; that needs a USB serial adapter and a scope or a board that resets on DTR.
+
+
+@pytest.mark.parametrize("raised", [False, True])
+def test_the_box_opens_and_works_with_the_lines_held_low_or_raised(
+    sim: SimRelayBox, raised: bool
+) -> None:
+    box = SerialRelayBox("relays", sim.port_path, {"timeout_ms": 200, "assert_dtr_rts": raised})
+    try:
+        assert box.identity().model == "tb8"
+        box.apply([2, 5])
+        assert sim.closed() == {2, 5} and box.closed_relays() == {2, 5}
+        port = box._port  # what rig asked pyserial for; a pty cannot show the lines themselves
+        assert (port.dtr, port.rts) == (raised, raised)
+    finally:
+        box.close()
+
+
+def test_the_lines_are_raised_when_the_station_says_nothing(sim: SimRelayBox) -> None:
+    box = SerialRelayBox("relays", sim.port_path, {"timeout_ms": 200})
+    try:
+        assert (box._port.dtr, box._port.rts) == (True, True)  # pyserial's own default, kept
+    finally:
+        box.close()
+
+
+@pytest.mark.parametrize("value", ["false", 0, 1, "no"])
+def test_a_value_that_is_not_true_or_false_is_refused_at_its_key(value: object) -> None:
+    with pytest.raises(ConfigError) as caught:
+        SerialRelayBox("relays", "/dev/null", {"assert_dtr_rts": value})
+    (problem,) = caught.value.problems
+    assert problem.key == "assert_dtr_rts"
+    assert f"expected true or false, found {value!r}" in str(caught.value)
