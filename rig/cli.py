@@ -429,9 +429,9 @@ def cmd_check(args: argparse.Namespace, out: Output) -> int:
         out.line(f"warning: {warning}")
     if station.store_path.exists():
         from rig.engine import wear_warnings
-        from rig.store import ResultStore
+        from rig.store_open import open_file_for_reading
 
-        store = ResultStore(station.store_path)
+        store = open_file_for_reading(station.store_path)
         try:
             for warning in wear_warnings(store.relay_wear(station.name), station.fixture):
                 out.line(f"warning: {warning}")

@@ -2,7 +2,9 @@
 
 Each reading and each step result is its own short transaction with ``synchronous=FULL``, so a
 crash or power loss cannot take back anything the rig has reported as measured.  The schema is
-versioned; ``MIGRATIONS[n]`` brings a database from version n to n + 1.
+versioned; ``MIGRATIONS[n]`` brings a database from version n to n + 1.  Opening a store says
+what it may do to an older schema (``Migrate``): a reader never changes one, and a shared server
+is upgraded only when asked, so stations still on an older rig keep writing to it.
 
 The same class runs on PostgreSQL (``rig.store_postgres``): the SQL here is written once, in the
 subset both engines share (``?`` placeholders, ``RETURNING id``), and a ``Backend`` supplies what
@@ -13,6 +15,7 @@ from __future__ import annotations
 
 import contextlib
 import datetime as dt
+import enum
 import json
 import math
 import sqlite3
@@ -164,6 +167,45 @@ class StoreError(RigError):
     """The results database cannot be opened or written."""
 
 
+class Migrate(enum.Enum):
+    """What opening a store may do to a schema older than this rig's.
+
+    A station on an older rig can write only the schema it knows, so a store others still write
+    to must not be upgraded behind their backs: reading changes nothing, and a shared server is
+    upgraded only when someone asks (``rig sync --upgrade-server``)."""
+
+    ALWAYS = "always"
+    """Bring it up to this rig's schema: a station's own file (only that station writes it), or a
+    shared server whose upgrade was asked for."""
+    IF_EMPTY = "if empty"
+    """Create the schema in an empty database (no one to lock out); refuse an older one: a
+    shared server a station sends to."""
+    NEVER = "never"
+    """Change nothing; refuse an older schema: reading."""
+
+
+class OlderSchema(StoreError):
+    """The store's schema is older than this rig's and opening it may not upgrade it."""
+
+    def __init__(self, where: str, version: int, message: str = "") -> None:
+        super().__init__(
+            message
+            or f"{where} has schema version {version}; this rig writes version {SCHEMA_VERSION}"
+        )
+        self.where = where
+        self.version = version
+
+
+class NewerSchema(StoreError):
+    """The store was made by a newer rig than this one: its columns mean nothing to us."""
+
+    def __init__(self, where: str, version: int) -> None:
+        super().__init__(
+            f"{where} has schema version {version}; this rig knows up to {SCHEMA_VERSION}: "
+            "update rig on this station to use it"
+        )
+
+
 class Cursor(Protocol):
     """What the store needs of a cursor: ``sqlite3.Cursor`` and psycopg's both qualify."""
 
@@ -205,14 +247,21 @@ class Backend(Protocol):
 
 
 class SqliteBackend:
-    """A local SQLite file in WAL mode with FULL sync (see FIELD-NOTES: SQLite)."""
+    """A local SQLite file in WAL mode with FULL sync (see FIELD-NOTES: SQLite), opened to write
+    (``open``) or only to read (``open_read_only``); or a copy of one in memory."""
 
     begin = "BEGIN IMMEDIATE"  # takes the write lock at once: migrations cannot interleave
     errors: tuple[type[Exception], ...] = (sqlite3.Error,)
 
-    def __init__(self, path: Path) -> None:
+    def __init__(self, db: sqlite3.Connection, where: str, path: Path | None) -> None:
+        self.db = db
+        self.where = where
         self.path = path
-        self.where = str(path)
+        """The file, for a second connection; None for a copy in memory."""
+
+    @classmethod
+    def open(cls, path: Path) -> SqliteBackend:
+        """The file, made where it does not exist: a station's own store, written as it runs."""
         try:
             path.parent.mkdir(parents=True, exist_ok=True)
             db = sqlite3.connect(path, isolation_level=None, check_same_thread=False)
@@ -223,7 +272,48 @@ class SqliteBackend:
             db.execute("PRAGMA foreign_keys=ON")
         except (sqlite3.Error, OSError) as exc:
             raise StoreError(f"cannot open the results store {path}: {exc}") from None
-        self.db: sqlite3.Connection = db
+        return cls(db, str(path), path)
+
+    @classmethod
+    def open_read_only(cls, path: Path) -> SqliteBackend:
+        """An existing file, read through SQLite's read-only mode: not even a checkpoint of its
+        WAL (which closing the last writing connection does) changes its bytes."""
+        if not path.is_file():
+            raise StoreError(f"{path}: no such results store file")
+        try:
+            db = sqlite3.connect(
+                path.resolve().as_uri() + "?mode=ro",
+                uri=True,
+                isolation_level=None,
+                check_same_thread=False,
+            )
+            db.row_factory = sqlite3.Row
+            db.execute("PRAGMA busy_timeout=5000")
+            db.execute("PRAGMA user_version").fetchone()  # not a database: said here, once
+        except sqlite3.Error as exc:
+            raise StoreError(f"cannot open the results store {path}: {exc}") from None
+        return cls(db, str(path), path)
+
+    @classmethod
+    def in_memory(cls, where: str) -> SqliteBackend:
+        """An empty database in memory, named ``where`` in messages: read in place of a file
+        that may not be made or changed."""
+        db = sqlite3.connect(":memory:", isolation_level=None, check_same_thread=False)
+        db.row_factory = sqlite3.Row
+        db.execute("PRAGMA foreign_keys=ON")
+        return cls(db, where, None)
+
+    def in_memory_copy(self) -> SqliteBackend:
+        """The whole database copied into memory through SQLite's backup API: it reads through
+        this connection, so commits still in the WAL are in the copy.  What a reader upgrades
+        in place of a file it may not change."""
+        copy = SqliteBackend.in_memory(self.where)
+        try:
+            self.db.backup(copy.db)
+        except sqlite3.Error as exc:
+            copy.db.close()
+            raise StoreError(f"cannot read the results store {self.where}: {exc}") from None
+        return copy
 
     def lock_schema(self) -> None:
         pass
@@ -281,14 +371,15 @@ class ResultStore:
     """One database (a SQLite file by default, or a ``Backend`` such as PostgreSQL); one
     connection per store object, used from one thread at a time."""
 
-    def __init__(self, path: Path | str | Backend) -> None:
-        backend = SqliteBackend(Path(path)) if isinstance(path, str | Path) else path
+    def __init__(self, path: Path | str | Backend, migrate: Migrate = Migrate.ALWAYS) -> None:
+        backend = SqliteBackend.open(Path(path)) if isinstance(path, str | Path) else path
         self._backend = backend
         self.path: Path | None = backend.path if isinstance(backend, SqliteBackend) else None
         self.where = backend.where
         self._db: Connection = backend.db
         try:
-            self.migrate()
+            # the schema version this opening brought up to this rig's; None: none
+            self.upgraded_from = self.migrate(migrate)
         except StoreError:
             self.close()
             raise
@@ -330,23 +421,38 @@ class ResultStore:
             )
             return str(db.execute("SELECT store_uid FROM store_identity").fetchone()[0])
 
-    def migrate(self) -> None:
-        """Apply every migration the database has not seen, each in its own transaction; the
-        version is read inside the transaction, so stations opening one server at once agree."""
-        while True:
-            with self._tx() as db:
-                self._backend.lock_schema()
+    def migrate(self, allowed: Migrate = Migrate.ALWAYS) -> int | None:
+        """Apply every migration the database has not seen, as far as ``allowed`` lets it, in
+        one transaction (a failure leaves the old schema whole); the version is read inside it,
+        under the schema lock, so stations opening one server at once agree.  Returns the
+        version it upgraded from, None where it changed nothing; ``OlderSchema`` where it may
+        not upgrade, ``NewerSchema`` where a newer rig made the store."""
+        if allowed is Migrate.NEVER:  # no transaction: a read-only file cannot begin one
+            try:
                 version = self._backend.schema_version()
-                if version > SCHEMA_VERSION:
-                    raise StoreError(
-                        f"{self.where} has schema version {version}; "
-                        f"this rig knows up to {SCHEMA_VERSION}"
-                    )
-                if version == SCHEMA_VERSION:
-                    return
-                for statement in self._backend.statements(MIGRATIONS[version]):
+            except self._backend.errors as exc:
+                why = " ".join(str(exc).split())
+                raise StoreError(f"cannot read the results store {self.where}: {why}") from None
+            self._check_schema(version, allowed)
+            return None
+        with self._tx() as db:
+            self._backend.lock_schema()
+            version = self._backend.schema_version()
+            self._check_schema(version, allowed)
+            if version == SCHEMA_VERSION:
+                return None
+            for migration in MIGRATIONS[version:]:
+                for statement in self._backend.statements(migration):
                     db.execute(statement)
-                self._backend.set_schema_version(version + 1)
+            self._backend.set_schema_version(SCHEMA_VERSION)
+            return version
+
+    def _check_schema(self, version: int, allowed: Migrate) -> None:
+        if version > SCHEMA_VERSION:
+            raise NewerSchema(self.where, version)
+        older = version < SCHEMA_VERSION
+        if older and (allowed is Migrate.NEVER or (allowed is Migrate.IF_EMPTY and version)):
+            raise OlderSchema(self.where, version)
 
     # --- writing, one short transaction each -------------------------------------------------
 

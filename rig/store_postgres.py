@@ -19,7 +19,7 @@ from psycopg.conninfo import conninfo_to_dict
 from psycopg.rows import RowMaker
 from psycopg.types.numeric import FloatLoader
 
-from rig.store import Cursor, ResultStore, StoreError
+from rig.store import SCHEMA_VERSION, Cursor, Migrate, OlderSchema, ResultStore, StoreError
 
 # pg_advisory_xact_lock key held while migrating: stations opening an empty server at once
 # migrate it one after the other
@@ -237,7 +237,43 @@ class PostgresBackend:
         return [pg_ddl(s) for s in migration.split(";") if s.strip()]
 
 
-def open_postgres(conninfo: str) -> ResultStore:
-    """A ``ResultStore`` on the server, migrated to this rig's schema; ``StoreError`` in plain
-    words when the address is bad or the server cannot be reached."""
-    return ResultStore(PostgresBackend(conninfo))
+UPGRADE_COMMAND = "rig sync --station STATION --upgrade-server"
+
+
+def older_server_text(where: str, version: int, migrate: Migrate) -> str:
+    """Why an older server was not upgraded, and how to upgrade it, in words for the station
+    (``IF_EMPTY``: its runs wait) or for a reader (``NEVER``)."""
+    how = (
+        f"once every station that sends there runs this rig version (or all in one maintenance "
+        f"window), upgrade it with `{UPGRADE_COMMAND}`"
+    )
+    if migrate is Migrate.NEVER and version == 0:
+        return (
+            f"the results server {where} holds no runs yet: no station has sent one there (the "
+            "first to send makes its tables)"
+        )
+    if migrate is Migrate.NEVER:
+        return (
+            f"the results server {where} has schema version {version} and this rig version "
+            f"{SCHEMA_VERSION}; reading does not upgrade a shared server, since stations still "
+            f"on the older rig could then no longer send to it; {how}"
+        )
+    return (
+        f"the results server {where} has schema version {version} and this rig writes version "
+        f"{SCHEMA_VERSION}; the runs wait in the station's own file until the server is "
+        f"upgraded: {how}"
+    )
+
+
+def open_postgres(conninfo: str, migrate: Migrate = Migrate.IF_EMPTY) -> ResultStore:
+    """A ``ResultStore`` on the server: by default an empty database gets the schema and an
+    older one is refused (``OlderSchema``, saying how to upgrade it), since stations on the older
+    rig still send there; ``StoreError`` in plain words when the address is bad or the server
+    cannot be reached."""
+    backend = PostgresBackend(conninfo)
+    try:
+        return ResultStore(backend, migrate)
+    except OlderSchema as exc:
+        raise OlderSchema(
+            exc.where, exc.version, older_server_text(exc.where, exc.version, migrate)
+        ) from None

@@ -7,6 +7,10 @@ goes in one server transaction: a drop in the middle leaves nothing of it there.
 commit does the station note the run as sent, with a fingerprint of what it sent; a run that
 changes later (a resumed run, a settled flag) differs from its fingerprint and is sent again.
 Runs still ``running`` wait until they end.
+
+A server on an older schema than this rig's is not upgraded by sending (stations still on the
+older rig write there too): the runs wait in the station's file, and say so, until someone asks
+for the upgrade (``rig sync --upgrade-server``).
 """
 
 from __future__ import annotations
@@ -14,11 +18,11 @@ from __future__ import annotations
 import datetime as dt
 import logging
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any
 
 from rig.config.station import Station
-from rig.store import FILL_READING_UIDS, ResultStore, StoreError
+from rig.store import FILL_READING_UIDS, Migrate, ResultStore, StoreError
 from rig.store_open import open_local_store, open_server_store
 
 log = logging.getLogger(__name__)
@@ -46,11 +50,15 @@ class SyncReport:
     """Why sending stopped, in plain words; empty when nothing stopped it."""
     configured: bool = True
     """False when the station has no server: its own file is the whole record."""
+    upgraded: str = ""
+    """The server's schema upgrade this pass made (``--upgrade-server``), in words; empty: none."""
 
     def describe(self) -> str:
         if not self.configured:
             return "no results server is configured; the station's own store is the record"
         text = f"{self.sent} run(s) sent to the results server"
+        if self.upgraded:
+            text = f"{self.upgraded}; {text}"
         if self.problem:
             return f"{text}; {self.waiting} waiting: {self.problem}"
         return text + ("" if not self.waiting else f"; {self.waiting} waiting")
@@ -177,19 +185,27 @@ def waiting_runs(station: Station) -> int:
         local.close()
 
 
-def sync_station(station: Station) -> SyncReport:
-    """Send what the station's own store holds to its server; an unreachable server is a report,
-    not an error: the runs stay safe in the station's file until the next try."""
+def sync_station(station: Station, *, upgrade_server: bool = False) -> SyncReport:
+    """Send what the station's own store holds to its server; an unreachable server, or one on
+    an older schema, is a report, not an error: the runs stay safe in the station's file until
+    the next try.  ``upgrade_server`` first brings an older server up to this rig's schema."""
+    migrate = Migrate.ALWAYS if upgrade_server else Migrate.IF_EMPTY
     try:
-        remote = open_server_store(station)
+        remote = open_server_store(station, migrate)
     except StoreError as exc:
         return SyncReport(0, waiting_runs(station), str(exc))
     if remote is None:
         return SyncReport(0, 0, configured=False)
+    upgraded = ""
+    if remote.upgraded_from:  # from 0: an empty database made, as any sending station does
+        upgraded = (
+            f"the results server {remote.where} upgraded from schema version "
+            f"{remote.upgraded_from} to {remote.schema_version()}"
+        )
     try:
         local = open_local_store(station)
         try:
-            return sync(local, remote)
+            return replace(sync(local, remote), upgraded=upgraded)
         finally:
             local.close()
     finally:

@@ -62,8 +62,9 @@ def test_store_table_selects_the_server_and_the_environment_wins(
     with shipped_bench("temp-circuit", folder=tmp_path) as (_, station):
         assert server_conninfo(station) is None  # no [store]: SQLite only, as before
         store = open_store(station)
-        assert store.engine == "sqlite" and store.path == station.store_path
+        assert store.engine == "sqlite" and store.where == str(station.store_path)
         store.close()
+        assert not station.store_path.exists()  # reading a station with no run makes no file
         station.path.write_text(station.path.read_text() + STORE_TABLE)
         configured = load_station(station.path)
         info = server_conninfo(configured)

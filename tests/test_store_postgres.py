@@ -15,10 +15,11 @@ from typing import Any
 
 import psycopg
 import pytest
+from old_stores import build_old_database
 from postgres_server import SUPERUSER, Cluster, free_port
 
-from rig.store import MIGRATIONS, SCHEMA_VERSION, ResultStore, RunHeader, StoreError
-from rig.store_postgres import PostgresBackend, open_postgres, pg_ddl
+from rig.store import MIGRATIONS, SCHEMA_VERSION, Migrate, ResultStore, RunHeader, StoreError
+from rig.store_postgres import PostgresBackend, open_postgres
 
 pytestmark = pytest.mark.postgres
 KEYS_ADDED = next(i for i, m in enumerate(MIGRATIONS) if "ADD COLUMN reading_uid" in m)
@@ -153,29 +154,6 @@ def test_migrations_on_an_empty_server_give_64_bit_keys_and_doubles(pg_database:
     assert identity == ("YES",)
 
 
-def build_old_database(db: Any, version: int, run_statements: bool) -> None:
-    """A database as the rig of schema ``version`` left it, with one run and one reading."""
-    for step in range(version):
-        for statement in MIGRATIONS[step].split(";"):
-            if statement.strip():
-                db.execute(pg_ddl(statement) if run_statements else statement)
-    if version >= 1:
-        db.execute(
-            "INSERT INTO runs (run_uid, serial, sequence_name, sequence_hash, sequence_path,"
-            " station, operator, started_at, status) VALUES"
-            " ('old-run', 'SN-OLD', 's', 'h', '/p', 'bench', 'op', '2026-01-01', 'complete')"
-        )
-        db.execute(
-            "INSERT INTO readings (run_id, step_id, role, function, value, taken_at)"
-            " VALUES (1, 's1', 'hi-lo', 'dcv', 2.5, 1.0)"
-        )
-        db.execute(
-            "INSERT INTO steps (run_id, position, step_id, kind, title, value, unit, coverage_k,"
-            " decision_rule, verdict, started_at, ended_at) VALUES"
-            " (1, 1, 's1', 'ntc', 't', 2010.5, 'ohm', 2.0, 'simple', 'pass', 'a', 'b')"
-        )
-
-
 def assert_schema_6_fields_empty(store: ResultStore, run_id: int) -> None:
     """A run and step recorded before schema 6 read back whole, the new fields empty: no claim
     or remark given, no cause stored (read from the reason), no model parameters recorded."""
@@ -194,7 +172,7 @@ def test_a_server_made_by_an_earlier_schema_migrates_and_keeps_its_runs(
         build_old_database(conn, version, run_statements=True)
         conn.execute("CREATE TABLE rig_schema (version INTEGER NOT NULL)")
         conn.execute("INSERT INTO rig_schema VALUES (%s)", (version,))
-    store = open_postgres(pg_database)
+    store = open_postgres(pg_database, Migrate.ALWAYS)  # as rig sync --upgrade-server opens it
     try:
         assert store.schema_version() == SCHEMA_VERSION
         if version >= 1:
@@ -260,7 +238,7 @@ def test_a_newer_server_schema_is_refused_in_plain_words(pg_database: str) -> No
     open_postgres(pg_database).close()
     with psycopg.connect(pg_database, autocommit=True) as conn:
         conn.execute("UPDATE rig_schema SET version = %s", (SCHEMA_VERSION + 1,))
-    with pytest.raises(StoreError, match=f"knows up to {SCHEMA_VERSION}"):
+    with pytest.raises(StoreError, match=f"knows up to {SCHEMA_VERSION}: update rig on this"):
         open_postgres(pg_database)
 
 

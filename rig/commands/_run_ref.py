@@ -15,6 +15,7 @@ from dataclasses import dataclass
 
 from rig.commands._store_args import OpenedStore
 from rig.store import ResultStore, StoreError
+from rig.store_open import open_file_for_reading
 
 _RECORD_ID = re.compile(r"[0-9a-f]{32}")
 
@@ -72,7 +73,7 @@ def find_run(opened: OpenedStore, ref: RunRef) -> FoundRun:
                 "this computer; give the run's record id (32 hex digits) instead"
             )
         raise StoreError(f"no run with record id {ref.record_id} on the results server")
-    local = ResultStore(station.store_path)
+    local = open_file_for_reading(station.store_path)
     try:
         local_id = _id_in(local, ref)
         if ref.number is not None:

@@ -1,6 +1,7 @@
-"""The ``--station STATION | --store PATH`` choice shared by ``rig report`` and ``rig stats``,
-and where rendered files go: the station's data folder (beside its store), never the source
-tree."""
+"""The ``--station STATION | --store PATH`` choice shared by the commands that read stored runs
+(``rig report``, ``rig stats``, ``rig runs``), and where rendered files go: the station's data
+folder (beside its store), never the source tree.  Reading never changes a store
+(``rig.store_open``)."""
 
 from __future__ import annotations
 
@@ -28,7 +29,8 @@ def add_store_args(parser: argparse.ArgumentParser) -> None:
 
 
 class ServerUnreachable(RigError):
-    """The station's results server cannot be opened; its own file holds its own runs."""
+    """The station's results server cannot be read (out of reach, or on an older schema that
+    reading does not upgrade); its own file holds its own runs."""
 
 
 @dataclass
@@ -43,7 +45,8 @@ class OpenedStore:
 def open_from_args(
     args: argparse.Namespace, *, own_file_if_unreachable: bool = False
 ) -> OpenedStore:
-    """The store named on the command line; a missing store file is an error, not a new file.
+    """The store named on the command line, opened to read; a missing store file is an error,
+    not a new file.
 
     A station with a results server is read from the server.  When the server cannot be opened,
     ``own_file_if_unreachable`` (one run's report) reads the station's own file instead, with a
@@ -51,13 +54,13 @@ def open_from_args(
     ``ServerUnreachable`` says how to read the own file."""
     if args.station is not None:
         from rig.config.station import load_station
-        from rig.store import StoreError
-        from rig.store_open import open_local_store, open_server_store
+        from rig.store import Migrate, StoreError
+        from rig.store_open import open_server_store, read_local_store
 
         station = load_station(args.station)
         own = station.store_path
         try:
-            server = open_server_store(station)
+            server = open_server_store(station, Migrate.NEVER)
         except StoreError as exc:
             if not own.is_file():
                 raise ServerUnreachable(str(exc)) from None
@@ -70,8 +73,8 @@ def open_from_args(
                 f"{exc}; read from the station's own file {own} instead (its own runs, including "
                 "any not yet sent to the server)"
             )
-            return OpenedStore(open_local_store(station), station, own.parent, note)
-        return OpenedStore(server or open_local_store(station), station, own.parent)
+            return OpenedStore(read_local_store(station), station, own.parent, note)
+        return OpenedStore(server or read_local_store(station), station, own.parent)
     path: Path = args.store
     if path.is_dir():
         raise ArgumentProblem(
@@ -79,7 +82,9 @@ def open_from_args(
         )
     if not path.is_file():
         raise ArgumentProblem(f"--store {path}: no such results store file")
-    return OpenedStore(ResultStore(path), None, path.resolve().parent)
+    from rig.store_open import open_file_for_reading
+
+    return OpenedStore(open_file_for_reading(path), None, path.resolve().parent)
 
 
 def checked_output(path: Path) -> Path:

@@ -61,14 +61,18 @@ def recorded_sequence(run_id: int, recorded: str) -> Path:
 def cmd_diagnose(args: argparse.Namespace, out: Output) -> int:
     from reports.diagnosis import find_unit_file, not_diagnosed
     from rig.analysis.diagnose import diagnose_run
+    from rig.commands._store_args import ArgumentProblem
     from rig.config.station import load_station
     from rig.config.unit_file import load_unit
     from rig.resume import same_sequence
     from rig.runner import load_plan
-    from rig.store import ResultStore, StoreError
+    from rig.store import StoreError
+    from rig.store_open import open_file_for_reading, read_local_store
 
     station = load_station(args.station)
-    store = ResultStore(args.store or station.store_path)
+    if args.store is not None and not args.store.is_file():
+        raise ArgumentProblem(f"--store {args.store}: no such results store file")
+    store = read_local_store(station) if args.store is None else open_file_for_reading(args.store)
     try:
         try:
             run = store.run(args.run_id)

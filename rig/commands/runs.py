@@ -80,11 +80,12 @@ def _own_store(args: argparse.Namespace) -> ResultStore:
     """The station's own results file, or the file given; a missing one is an error."""
     if args.station is not None:
         from rig.config.station import load_station
+        from rig.store_open import open_file_for_reading
 
         path = load_station(args.station).store_path
         if not path.is_file():
             raise ArgumentProblem(f"{args.station}: its results file {path} holds no run yet")
-        return ResultStore(path)
+        return open_file_for_reading(path)
     return open_from_args(args).store
 
 

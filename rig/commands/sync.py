@@ -1,4 +1,5 @@
-"""``rig sync``: send the runs waiting in a station's own store to its results server."""
+"""``rig sync``: send the runs waiting in a station's own store to its results server, and
+upgrade that server's schema when asked (the one command that does)."""
 
 from __future__ import annotations
 
@@ -7,7 +8,7 @@ from pathlib import Path
 
 from rig.cli_output import Output
 
-EXIT_SENT, EXIT_WAITING = 0, 3
+EXIT_SENT, EXIT_BAD_INPUT, EXIT_WAITING = 0, 2, 3
 
 
 def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
@@ -16,6 +17,13 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     )
     sync.add_argument("--station", type=Path, required=True, help="the station file")
     sync.add_argument("--json", action="store_true", help="one machine-readable summary")
+    sync.add_argument(
+        "--upgrade-server",
+        action="store_true",
+        help="first bring the results server up to this rig's schema; do it once every station "
+        "that writes there runs this rig version (or all in one maintenance window): a station "
+        "still on the older rig can no longer send to the upgraded server",
+    )
     sync.set_defaults(func=cmd_sync)
 
 
@@ -24,7 +32,13 @@ def cmd_sync(args: argparse.Namespace, out: Output) -> int:
     from rig.config.station import load_station
     from rig.store_sync import sync_station
 
-    report = sync_station(load_station(args.station))
+    report = sync_station(load_station(args.station), upgrade_server=args.upgrade_server)
+    if args.upgrade_server and not report.configured:
+        out.error(
+            f"rig: --upgrade-server: {args.station} names no results server (set [store] "
+            'database = "postgresql" or RIG_DATABASE_URL)'
+        )
+        return EXIT_BAD_INPUT
     if args.json:
         out.json(
             {
@@ -32,6 +46,7 @@ def cmd_sync(args: argparse.Namespace, out: Output) -> int:
                 "sent": report.sent,
                 "waiting": report.waiting,
                 "problem": report.problem or None,
+                "upgraded": report.upgraded or None,
             }
         )
     elif report.problem:

@@ -34,7 +34,7 @@ from rig.stats.yields import (
     yield_by_day,
     yield_by_sequence,
 )
-from rig.store import ResultStore
+from rig.store import Migrate, ResultStore, SqliteBackend
 
 FaultFinder = Callable[[int], str | None]
 """Given a failed run's id, the spec of its most likely fault, or None if none is known."""
@@ -158,7 +158,8 @@ def step_moments_alongside(store: ResultStore, where: RunFilter) -> Future[list[
 
     def read() -> None:
         try:
-            second = ResultStore(path)
+            # the same file, up to date (a file read from an upgraded copy has no path)
+            second = ResultStore(SqliteBackend.open_read_only(path), Migrate.NEVER)
             try:
                 result.set_result(second.step_moments(where))
             finally:
