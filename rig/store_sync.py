@@ -59,6 +59,8 @@ class SyncReport:
         text = f"{self.sent} run(s) sent to the results server"
         if self.upgraded:
             text = f"{self.upgraded}; {text}"
+        if self.problem and not self.waiting:  # nothing lost now, but the next runs will wait
+            return f"{text}; none waiting, but the server cannot be used: {self.problem}"
         if self.problem:
             return f"{text}; {self.waiting} waiting: {self.problem}"
         return text + ("" if not self.waiting else f"; {self.waiting} waiting")

@@ -28,7 +28,8 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
 
 
 def cmd_sync(args: argparse.Namespace, out: Output) -> int:
-    """Exit 0 when nothing is left waiting, 3 when runs still wait (the reason is printed)."""
+    """Exit 0 when nothing is left waiting and the server took what was sent, 3 when runs still
+    wait or the server cannot be used (a cron job must see both; the reason is printed)."""
     from rig.config.station import load_station
     from rig.store_sync import sync_station
 
