@@ -41,6 +41,8 @@ STEP_COLUMNS = (
 )
 RUN_COLUMNS = (
     "run_id",
+    "server_run_id",
+    "record_id",
     "serial",
     "sequence",
     "sequence_hash",
@@ -193,6 +195,8 @@ def record_csv(record: Mapping[str, Any]) -> str:
     run = record["run"]
     header = {
         "run_id": run["id"],
+        "server_run_id": run.get("server_id"),
+        "record_id": run["run_uid"],
         "serial": run["serial"],
         "sequence": run["sequence_name"],
         "sequence_hash": run["sequence_hash"],
@@ -222,6 +226,7 @@ def record_csv(record: Mapping[str, Any]) -> str:
         {
             **header,
             **step,
+            "run_id": header["run_id"],  # the step's row keeps the id of the store it is in
             "value": step.get("value_text", step["value"]),  # a word where there is no number
             "model_params": model_params_text(step.get("model_params")),
             **(_answer_cells(step) if step.get("kind") == "prompt" else {}),

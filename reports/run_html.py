@@ -417,6 +417,15 @@ def _screen_decision(found: Mapping[str, str] | None) -> str:
     )
 
 
+def _which_run(run: Mapping[str, Any]) -> str:
+    """The run as its station numbers it (None: not known here), the results server's own
+    number where the record was read from there, and the record id, the same in every store."""
+    own = f"run {run['id']}" if run["id"] is not None else "a run"
+    server = run.get("server_id")
+    where = f"results server record {server}; " if server is not None else ""
+    return f"{own} of station {run['station']} ({where}record id {run['run_uid']})"
+
+
 def render_run(record: Mapping[str, Any]) -> str:
     """The record (``reports.run_export.run_record``) as a complete HTML page."""
     run = record["run"]
@@ -437,7 +446,6 @@ def render_run(record: Mapping[str, Any]) -> str:
         _margins(record["steps"]),
         _diagnosis(record.get("diagnosis")),
         _readings(record["readings"]),
-        f'<p class="note">Written by rig {esc(__version__)} from run {esc(run["id"])} '
-        f"(record id {esc(run['run_uid'])}).</p>",
+        f'<p class="note">Written by rig {esc(__version__)} from {esc(_which_run(run))}.</p>',
     ]
     return page(title, sections)

@@ -681,21 +681,39 @@ class ResultStore:
 
     # --- bulk reads for statistics (rig.stats.from_store); plain rows, portable SQL ----------
 
-    def run_rows(self, where: RunFilter) -> list[Any]:
+    def run_rows(self, where: RunFilter, *, origin: bool = False) -> list[Any]:
         """(id, serial, sequence_name, started_at, status, verdict, reason, end_cause, claim,
         answered_no) of every run the filter matches, oldest first; ``answered_no`` is 1 where an
-        operator answered a question no (a prompt's step failed), else 0."""
+        operator answered a question no (a prompt's step failed), else 0.  With ``origin``,
+        each row goes on with (station, run_uid): where the run was made, and its key in every
+        store (its id is this database's own)."""
         sql, params = _run_where(where)
         answered = (
             "CASE WHEN EXISTS (SELECT 1 FROM steps s WHERE s.run_id = r.id AND s.unit = ''"
             " AND s.verdict = 'fail') THEN 1 ELSE 0 END"
         )
+        more = ", r.station, r.run_uid" if origin else ""
         return self._rows(
             "SELECT r.id, r.serial, r.sequence_name, r.started_at, r.status, r.verdict, r.reason,"
-            f" r.end_cause, r.claim, {answered} FROM runs r WHERE {sql}"
+            f" r.end_cause, r.claim, {answered}{more} FROM runs r WHERE {sql}"
             " ORDER BY r.started_at, r.id",
             params,
         )
+
+    def run_uids_starting(self, prefix: str, limit: int = 2) -> list[str]:
+        """The record ids (``run_uid``) that start with ``prefix`` (hex digits, checked by the
+        caller), at most ``limit``: a record id's start names a run while it is unique."""
+        rows = self._rows(
+            "SELECT run_uid FROM runs WHERE substr(run_uid, 1, CAST(? AS INTEGER)) = ?"
+            " ORDER BY run_uid LIMIT ?",
+            (len(prefix), prefix, limit),
+        )
+        return [str(r[0]) for r in rows]
+
+    def run_ids_by_uid(self) -> dict[str, int]:
+        """Every run's id in this database by its record id: a station's own numbers for the
+        runs read from the server."""
+        return {str(r[1]): int(r[0]) for r in self._rows("SELECT id, run_uid FROM runs", ())}
 
     def run_names(self, where: RunFilter) -> list[Any]:
         """(sequence_name, station, runs, first started_at, last started_at) per sequence and

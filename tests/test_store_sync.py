@@ -5,6 +5,7 @@ a link cut in the middle of a send.  Every check reads the server directly, not 
 from __future__ import annotations
 
 import json
+import re
 import shutil
 import subprocess
 import sys
@@ -288,6 +289,37 @@ def test_a_link_cut_in_the_middle_of_a_send_loses_and_doubles_nothing(
     assert committed_unheard >= 2  # the case that matters: the server had it, the station not
 
 
+@contextmanager
+def two_stations_on(
+    tmp_path: Path, pg_cluster: Cluster, url: str, names: tuple[str, str] = ("a", "b")
+) -> Iterator[tuple[Station, Station, dict[str, str]]]:
+    """Two virtual benches whose station files (named ``names``) send to the database ``url``,
+    and the environment of a `rig` process that finds the server's password."""
+    dbname = str(psycopg.conninfo.conninfo_to_dict(url)["dbname"])
+    env, mp = password_file_env(tmp_path, pg_cluster)
+    try:
+        with (
+            shipped_bench("temp-circuit", folder=tmp_path / names[0]) as (_, a),
+            shipped_bench("temp-circuit", folder=tmp_path / names[1]) as (_, b),
+        ):
+            first, second = (
+                renamed(load_station(with_server_section(s, pg_cluster, dbname)), n)
+                for s, n in zip((a, b), names, strict=True)
+            )
+            yield first, second, env
+    finally:
+        mp.undo()
+
+
+def renamed(station: Station, name: str) -> Station:
+    """The station under a name of its own (every virtual bench writes the same one)."""
+    text = station.path.read_text(encoding="utf-8")
+    station.path.write_text(
+        re.sub(r'(?m)^name = ".*"$', f'name = "{name}"', text, count=1), encoding="utf-8"
+    )
+    return load_station(station.path)
+
+
 def test_a_report_by_station_finds_the_run_that_station_printed(
     tmp_path: Path,
     pg_cluster: Cluster,
@@ -295,27 +327,17 @@ def test_a_report_by_station_finds_the_run_that_station_printed(
 ) -> None:
     # Ids are each database's own (docs/postgresql.md): two stations on one server give the same
     # run different ids there, and `rig report N --station` must still mean the station's run N.
-    dbname = str(psycopg.conninfo.conninfo_to_dict(pg_database)["dbname"])
-    env, mp = password_file_env(tmp_path, pg_cluster)
-    try:
-        with (
-            shipped_bench("temp-circuit", folder=tmp_path / "a") as (_, a),
-            shipped_bench("temp-circuit", folder=tmp_path / "b") as (_, b),
-        ):
-            station_a = load_station(with_server_section(a, pg_cluster, dbname))
-            station_b = load_station(with_server_section(b, pg_cluster, dbname))
-            for serial in ("A-1", "A-2"):
-                run_plan(shipped_plan("temp-circuit-check", station_a), serial)
-            plan_b = shipped_plan("temp-circuit-check", station_b)
-            b1 = run_plan(plan_b, "B-1")  # run 1 at station b, run 3 on the server
-            own = ResultStore(station_b.store_path)
-            try:  # recorded, not yet sent (as when the link is down)
-                b2 = run_plan(plan_b, "B-2", store=own)
-                b1_record_id = str(own.run(b1.run_id)["run_uid"])
-            finally:
-                own.close()
-    finally:
-        mp.undo()
+    with two_stations_on(tmp_path, pg_cluster, pg_database) as (station_a, station_b, env):
+        for serial in ("A-1", "A-2"):
+            run_plan(shipped_plan("temp-circuit-check", station_a), serial)
+        plan_b = shipped_plan("temp-circuit-check", station_b)
+        b1 = run_plan(plan_b, "B-1")  # run 1 at station b, run 3 on the server
+        own = ResultStore(station_b.store_path)
+        try:  # recorded, not yet sent (as when the link is down)
+            b2 = run_plan(plan_b, "B-2", store=own)
+            b1_record_id = str(own.run(b1.run_id)["run_uid"])
+        finally:
+            own.close()
     assert (b1.run_id, b2.run_id) == (1, 2)
 
     def report(run: str, station: Path) -> subprocess.CompletedProcess[str]:

@@ -1,4 +1,4 @@
-"""``rig diagnose RUN_ID --station STATION``: the most likely fault behind a stored run."""
+"""``rig diagnose RUN --station STATION``: the most likely fault behind a stored run."""
 
 from __future__ import annotations
 
@@ -6,6 +6,7 @@ import argparse
 from pathlib import Path
 
 from rig.cli_output import Output
+from rig.commands._run_ref import id_in, run_ref
 from rig.errors import ConfigError, Problem
 
 EXIT_BAD_INPUT = 2
@@ -13,7 +14,13 @@ EXIT_BAD_INPUT = 2
 
 def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     p = sub.add_parser("diagnose", help="rank the faults that explain a stored run")
-    p.add_argument("run_id", type=int, help="the run id rig run printed")
+    p.add_argument(
+        "run",
+        type=run_ref,
+        metavar="RUN",
+        help="the run id rig run printed, or the run's record id (32 hex digits, or its first 8 "
+        "or more as rig runs lists them) in the station's own file",
+    )
     p.add_argument("--station", type=Path, required=True, help="the station file")
     p.add_argument(
         "--unit",
@@ -75,44 +82,43 @@ def cmd_diagnose(args: argparse.Namespace, out: Output) -> int:
     store = read_local_store(station) if args.store is None else open_file_for_reading(args.store)
     try:
         try:
-            run = store.run(args.run_id)
+            run_id = id_in(store, args.run)
+            run = store.run(run_id)
         except StoreError as exc:
-            out.error(f"rig: RUN_ID {args.run_id}: {exc}")
+            out.error(f"rig: RUN {args.run}: {exc}")
             return EXIT_BAD_INPUT
         unfinished = not_diagnosed(run)
         if unfinished:  # the same words as the run's report
             if args.json:
-                out.json({"run_id": args.run_id, "hypotheses": [], "message": unfinished})
+                out.json({"run_id": run_id, "hypotheses": [], "message": unfinished})
             else:
-                out.line(f"run {args.run_id} (serial {run['serial']}): {unfinished}")
+                out.line(f"run {run_id} (serial {run['serial']}): {unfinished}")
             return 0
-        sequence = args.sequence or recorded_sequence(args.run_id, str(run["sequence_path"]))
+        sequence = args.sequence or recorded_sequence(run_id, str(run["sequence_path"]))
         unit_path = find_unit_file(run, args.unit)
         if unit_path is None:
             recorded = (
                 f"records unit {run['unit']!r}, not found" if run["unit"] else "names no unit"
             )
-            raise ConfigError(
-                [Problem("--unit", "", f"run {args.run_id} {recorded}; give --unit FILE")]
-            )
+            raise ConfigError([Problem("--unit", "", f"run {run_id} {recorded}; give --unit FILE")])
         unit = load_unit(unit_path)
         other = _other_unit(str(run["unit"] or ""), unit_path, unit.name)
         if other:
             out.error(
-                f"warning: run {args.run_id} was recorded with unit {other}; diagnosing with "
+                f"warning: run {run_id} was recorded with unit {other}; diagnosing with "
                 f"{unit_path} ({unit.name}) instead"
             )
         plan = load_plan(sequence, station)
         if not same_sequence(run, plan.sequence):
-            out.error(f"warning: {sequence} has changed since run {args.run_id} was taken")
-        diagnosis = diagnose_run(store, args.run_id, unit, plan)
+            out.error(f"warning: {sequence} has changed since run {run_id} was taken")
+        diagnosis = diagnose_run(store, run_id, unit, plan)
     finally:
         store.close()
     hypotheses = diagnosis.hypotheses[: args.top]
     if args.json:
         out.json(
             {
-                "run_id": args.run_id,
+                "run_id": run_id,
                 "unit": unit.name,
                 "hypotheses": [
                     {
@@ -128,7 +134,7 @@ def cmd_diagnose(args: argparse.Namespace, out: Output) -> int:
             }
         )
         return 0
-    out.line(f"run {args.run_id} (serial {run['serial']}, {run['verdict']}) on unit {unit.name}")
+    out.line(f"run {run_id} (serial {run['serial']}, {run['verdict']}) on unit {unit.name}")
     if not hypotheses:
         out.line("no settled readings of this sequence in the run: nothing to diagnose")
         return 0

@@ -26,7 +26,8 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
         type=run_ref,
         metavar="RUN",
         help="the run id rig run printed (the station's own, also where the record is read from "
-        "the results server), or the run's record id (32 hex digits)",
+        "the results server), or the run's record id (32 hex digits, or its first 8 or more, "
+        "as rig runs lists them: any station's run)",
     )
     report.add_argument(
         "--format",
@@ -73,6 +74,7 @@ def cmd_report(args: argparse.Namespace, out: Output) -> int:
                 found.store, run, station=opened.station, unit_path=args.unit
             )
             record = run_record(found.store, found.run_id, diagnosis, opened.station)
+            record["run"].update(found.numbers())
         finally:
             if found.store is not opened.store:
                 found.store.close()

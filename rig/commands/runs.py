@@ -2,9 +2,12 @@
 sequence, station or date.
 
 A QA station looks a returned unit up by its serial or claim and a week's screening by its
-dates; the ids it lists are those ``rig report`` and ``rig diagnose`` take.  With ``--station``
-it reads the station's own file, whose ids those commands take with ``--station`` (a results
-server numbers the same runs otherwise); with ``--store``, that file.  It filters as
+dates, on every bench that shares its results server.  With ``--station`` it reads the station's
+store as ``rig report`` does: its server where it has one (the station's own file, with a note,
+while the server cannot be reached), with the runs of its own file that have not reached the
+server yet; with ``--store``, that file.  Each run shows its station, the station's own id where
+this station made it (``rig report`` and ``rig diagnose`` take it with ``--station``), and the
+start of its record id, which ``rig report`` takes for any station's run.  It filters as
 ``rig stats`` does, production runs and gauge-study runs alike.
 """
 
@@ -15,12 +18,31 @@ from dataclasses import replace
 from typing import Any
 
 from rig.cli_output import Output
-from rig.commands._store_args import ArgumentProblem, add_store_args, open_from_args
+from rig.commands._store_args import (
+    ArgumentProblem,
+    OpenedStore,
+    add_store_args,
+    open_from_args,
+)
 from rig.screening import decision_word, is_screen
-from rig.store import ResultStore
+from rig.store import RunFilter
+from rig.store_open import open_file_for_reading
 
 EXIT_OK, EXIT_BAD_INPUT = 0, 2
-COLUMNS = ("run", "serial", "sequence", "started", "status", "verdict", "decision", "claim")
+COLUMNS = (
+    "run",
+    "record",
+    "station",
+    "serial",
+    "sequence",
+    "started",
+    "status",
+    "verdict",
+    "decision",
+    "claim",
+)
+RECORD_DIGITS = 12
+"""Record-id digits in the table: unique among millions of runs; ``rig report`` takes 8 or more."""
 
 
 def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
@@ -50,12 +72,16 @@ def cmd_runs(args: argparse.Namespace, out: Output) -> int:
             until=args.until,
             serial_prefix=args.serial or args.serial_prefix,
         )
-        store = _own_store(args)
+        opened = _opened(args)
     except (FilterError, ArgumentProblem) as exc:
         out.error(f"rig: {exc}")
         return EXIT_BAD_INPUT
+    if opened.note:
+        out.error(f"note: {opened.note}")
+    where = replace(where, study=None)
+    store = opened.store
     try:
-        rows = store.run_rows(replace(where, study=None))
+        rows, own_ids, waiting = _listed_rows(opened, where)
         picked = [
             r
             for r in rows
@@ -65,40 +91,78 @@ def cmd_runs(args: argparse.Namespace, out: Output) -> int:
         screens = {name: is_screen(store.sequence_units(name)) for name in {r[2] for r in picked}}
     finally:
         store.close()
-    found = [_row(r, screens[str(r[2])]) for r in picked]  # oldest first
+    found = [_row(r, screens[str(r[2])], own_ids, waiting) for r in picked]  # oldest first
     if args.json:
         out.json({"runs": found})
         return EXIT_OK
     if not found:
         out.line("no stored run matches" + _claim_hint(args.claim, rows))
         return EXIT_OK
-    out.table(list(COLUMNS), [[str(r[c] or "") for c in COLUMNS] for r in found])
+    shown = [{**r, "record": str(r["record_id"])[:RECORD_DIGITS]} for r in found]
+    out.table(list(COLUMNS), [[_cell(r[c]) for c in COLUMNS] for r in shown])
+    unsent = [str(r["run"]) for r in found if r["waiting_to_send"]]
+    if unsent:
+        out.line(
+            f"run {', '.join(unsent)}: in this station's file, not yet on the results server "
+            "(sent with the station's next run or by rig sync)"
+        )
     return EXIT_OK
 
 
-def _own_store(args: argparse.Namespace) -> ResultStore:
-    """The station's own results file, or the file given; a missing one is an error."""
+def _cell(value: object) -> str:
+    return "" if value is None else str(value)
+
+
+def _opened(args: argparse.Namespace) -> OpenedStore:
+    """The store to list: a station's server or own file, or the file given; a station with
+    no server and no file yet is an error, not a new empty file."""
     if args.station is not None:
         from rig.config.station import load_station
-        from rig.store_open import open_file_for_reading
+        from rig.store_open import server_conninfo
 
-        path = load_station(args.station).store_path
-        if not path.is_file():
+        station = load_station(args.station)
+        path = station.store_path
+        if server_conninfo(station) is None and not path.is_file():
             raise ArgumentProblem(f"{args.station}: its results file {path} holds no run yet")
-        return open_file_for_reading(path)
-    return open_from_args(args).store
+    return open_from_args(args, own_file_if_unreachable=True)
 
 
-def _row(row: Any, screen: bool) -> dict[str, Any]:
-    """One run as a line, from ``ResultStore.run_rows``; a screen's run with its decision on
-    the unit (``rig.screening``, as ``rig run`` and ``rig stats`` state it), a harness proof's
-    with none."""
-    run_id, serial, sequence, started, status, verdict, _, _, claim, answered_no = row[:10]
+def _listed_rows(
+    opened: OpenedStore, where: RunFilter
+) -> tuple[list[Any], dict[str, int], set[str]]:
+    """The runs to list (``run_rows`` with their origin), the station's own id of each run its
+    file holds (by record id), and the record ids of those read from that file because they
+    have not reached the server yet."""
+    store, station = opened.store, opened.station
+    rows = list(store.run_rows(where, origin=True))
+    if station is None or store.engine != "postgresql":
+        return rows, {str(r[11]): int(r[0]) for r in rows}, set()
+    if not station.store_path.is_file():
+        return rows, {}, set()
+    local = open_file_for_reading(station.store_path)
+    try:
+        own_ids = local.run_ids_by_uid()
+        on_server = {str(r[11]) for r in rows}
+        unsent = [r for r in local.run_rows(where, origin=True) if str(r[11]) not in on_server]
+    finally:
+        local.close()
+    rows = sorted(rows + unsent, key=lambda r: str(r[3]))
+    return rows, own_ids, {str(r[11]) for r in unsent}
+
+
+def _row(row: Any, screen: bool, own_ids: dict[str, int], waiting: set[str]) -> dict[str, Any]:
+    """One run as a line, from ``ResultStore.run_rows`` with its origin; a screen's run with its
+    decision on the unit (``rig.screening``, as ``rig run`` and ``rig stats`` state it), a
+    harness proof's with none.  ``run`` is the station's own id (None for another station's
+    run); ``record_id`` opens any run with ``rig report``."""
+    _, serial, sequence, started, status, verdict, _, _, claim, answered_no, made_at, uid = row
     decision = (
         decision_word(str(status), verdict, answered_no=bool(answered_no)) if screen else None
     )
     return {
-        "run": int(run_id),
+        "run": own_ids.get(str(uid)),
+        "record_id": str(uid),
+        "station": made_at,
         "serial": serial,
         "sequence": sequence,
         "started": str(started),
@@ -106,6 +170,7 @@ def _row(row: Any, screen: bool) -> dict[str, Any]:
         "verdict": verdict,
         "decision": decision,
         "claim": claim,
+        "waiting_to_send": str(uid) in waiting,
     }
 
 
