@@ -670,6 +670,7 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
     from rig.run_admission import operator_problem
     from rig.runner import load_inputs, run_plan
     from rig.stats.study import study_problem
+    from rig.store_sync import around_a_run
 
     continuing = getattr(args, "resume", None) is not None  # its serial is the record's own
     problem = (
@@ -738,7 +739,11 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
     except RunInterrupted as stopped:  # recorded and safe: said as any other run's end
         summary = stopped.summary
         out.error(f"rig: interrupted; run {summary.run_id} is recorded as aborted")
-    server = synced[-1].describe() if synced else None  # after the run, when a server is set
+        interrupted: int | None = summary.run_id
+    else:
+        interrupted = None
+    # the sends before and after the run, when a server is set; a run Ctrl-C ended waits
+    server = around_a_run(synced, interrupted) if synced else None
     decision = _screen_decision(plan, summary)
     if args.json:
         out.quiet = False

@@ -16,7 +16,7 @@ from rig.events import Event
 from rig.plan import Plan, build_plan
 from rig.run_admission import refuse_unfiled
 from rig.store import ResultStore
-from rig.store_sync import SyncReport, send_waiting_runs
+from rig.store_sync import SyncReport, send_after_run, send_waiting_runs
 
 
 def load_plan(sequence_path: Path | str, station: Station | Path | str) -> Plan:
@@ -64,14 +64,15 @@ def run_plan(
     """Run ``plan`` for ``serial``; with ``resume``, continue that incomplete run instead.
 
     With its own store and a results server configured, runs waiting in the station's file are
-    sent before the run and this one after it (``on_sync`` hears how that went)."""
+    sent before the run and this one after it (``on_sync`` hears how each went); where the
+    send before failed, the one after is not tried (``send_after_run``).  A run that Ctrl-C
+    ends is not sent: ``RunInterrupted`` goes on to the caller at once."""
     refuse_unfiled(  # before anything is opened
         plan.station, serial, operator, continuing=resume is not None, claim=claim, remark=remark
     )
     warnings = check_calibration(plan.station, reads_probe=plan.reads_reference_probe)
     own_store = store is None
-    if own_store:
-        send_waiting_runs(plan.station, on_sync)
+    before = send_waiting_runs(plan.station, on_sync) if own_store else None
     store = store or ResultStore(plan.station.store_path)
     try:
         bench = open_bench(plan.station)
@@ -95,5 +96,5 @@ def run_plan(
         if own_store:
             store.close()
     if own_store:
-        send_waiting_runs(plan.station, on_sync)
+        send_after_run(plan.station, before, on_sync)
     return summary

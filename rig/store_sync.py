@@ -214,15 +214,67 @@ def sync_station(station: Station, *, upgrade_server: bool = False) -> SyncRepor
         remote.close()
 
 
-def send_waiting_runs(station: Station, on_sync: Callable[[SyncReport], None] | None) -> None:
-    """The automatic send around a run: never stops the run; says what happened."""
+def send_waiting_runs(
+    station: Station, on_sync: Callable[[SyncReport], None] | None
+) -> SyncReport | None:
+    """The automatic send around a run: never stops the run; says what happened, and returns
+    it (None where the station has no server)."""
     try:
         report = sync_station(station)
     except StoreError as exc:  # the station's own file: worth saying, not worth a lost run
         report = SyncReport(0, 0, str(exc))
     if not report.configured:
-        return
+        return None
+    _tell(report, on_sync)
+    return report
+
+
+def send_after_run(
+    station: Station,
+    before: SyncReport | None,
+    on_sync: Callable[[SyncReport], None] | None,
+) -> SyncReport | None:
+    """The send after a run, given how the send before it went: where that failed, the server
+    is not tried again in the same run (a server that takes connections and never answers
+    would cost the connection timeout a second time); the runs wait in the station's file."""
+    if before is None:
+        return None
+    if not before.problem:
+        return send_waiting_runs(station, on_sync)
+    try:
+        waiting = waiting_runs(station)
+    except StoreError:
+        waiting = before.waiting + 1
+    report = SyncReport(
+        0, waiting, f"{before.problem}; not tried again after the run (the runs go with the "
+        "station's next run or with rig sync)"
+    )  # fmt: skip
+    _tell(report, on_sync)
+    return report
+
+
+def _tell(report: SyncReport, on_sync: Callable[[SyncReport], None] | None) -> None:
     if on_sync is not None:
         on_sync(report)
     elif report.problem:
         log.warning("%s", report.describe())
+
+
+def around_a_run(reports: Sequence[SyncReport], interrupted_run: int | None = None) -> str:
+    """One closing line for the sends before and after a run: every run sent counts (the send
+    before a run may carry the runs an outage left waiting).  A run cut short by Ctrl-C is not
+    sent (the operator asked rig to stop, not to wait on the network): it waits, and the line
+    says so and what sends it."""
+    sent = sum(r.sent for r in reports)
+    if interrupted_run is not None:
+        before = reports[0]
+        text = (
+            f"{sent} run(s) sent to the results server before the run; run {interrupted_run} "
+            "waits in the station's file, to be sent with its next run or by rig sync"
+        )
+        others = before.waiting
+        if others:
+            text += f" ({others} more waiting)"
+        return text + (f": {before.problem}" if before.problem else "")
+    last = reports[-1]
+    return SyncReport(sent, last.waiting, last.problem).describe()

@@ -142,3 +142,49 @@ def test_report_and_stats_with_the_server_down_say_where_the_station_s_runs_are(
         station.store_path.unlink()  # no own file either: nothing to fall back on
         assert main([*report, "--out", str(out_file)]) == 3
         assert "cannot reach the results server" in capsys.readouterr().err
+
+
+def test_a_server_that_never_answers_is_tried_once_per_run(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # A real listening socket that takes connections and never says a word: libpq waits out
+    # connect_timeout (PostgreSQL manual, libpq "Parameter Key Words": at least 2 s).  The send
+    # before the run has failed, so the send after it is not tried: one connection, not two.
+    import socket
+    import threading
+
+    accepted: list[socket.socket] = []
+    listener = socket.socket()
+    listener.bind(("127.0.0.1", 0))
+    listener.listen(8)
+    listener.settimeout(0.2)
+    done = threading.Event()
+
+    def take_and_hold() -> None:
+        while not done.is_set():
+            try:
+                accepted.append(listener.accept()[0])
+            except TimeoutError:
+                continue
+
+    holder = threading.Thread(target=take_and_hold, daemon=True)
+    holder.start()
+    port = listener.getsockname()[1]
+    url = f"postgresql://bench@127.0.0.1:{port}/rig?connect_timeout=2&sslmode=disable"
+    try:
+        with shipped_bench("temp-circuit", folder=tmp_path) as (_, station):
+            monkeypatch.setenv("RIG_DATABASE_URL", url)
+            seq = str(
+                Path(__file__).resolve().parent.parent / "sequences" / "temp-circuit-check.toml"
+            )
+            args = ["run", seq, "--station", str(station.path), "--serial", "HUNG-1"]
+            assert main(args) == 0  # the run itself is not held up beyond the one timeout
+    finally:
+        done.set()
+        holder.join(timeout=5)
+        for conn in accepted:
+            conn.close()
+        listener.close()
+    out = capsys.readouterr().out
+    assert len(accepted) == 1
+    assert "1 waiting" in out and "not tried again after the run" in out

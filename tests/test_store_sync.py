@@ -457,3 +457,57 @@ def test_the_claim_remark_cause_and_model_parameters_reach_the_server(
     assert {row[1:4] for row in on_server if row[0] == "NTC-2"} == {("", "", "no-answer")}
     record = record_from_server(station_file, env)
     assert (record["run"]["claim"], record["run"]["remark"]) == (claim, remark)
+
+
+def test_the_closing_line_counts_every_run_sent_and_a_ctrl_c_run_waits(
+    tmp_path: Path,
+    pg_cluster: Cluster,
+    pg_database: str,
+    monkeypatch: pytest.MonkeyPatch,
+    capsys: pytest.CaptureFixture[str],
+) -> None:
+    # After an outage the send before a run carries the run that waited; the closing line counts
+    # it with the run just made.  A run Ctrl-C ends is recorded (aborted) and not sent: the line
+    # says it waits and what sends it, and rig sync then does.
+    import builtins
+    import io
+    import socket
+
+    from bench_helpers import MIDWAY_STOP
+
+    from rig.cli import EXIT_ABORTED, main
+
+    stops = tmp_path / "stops-midway.toml"
+    stops.write_text(MIDWAY_STOP, encoding="utf-8")
+    screen = str(SEQUENCES / "ntc-sender-screen.toml")
+    with sender_bench_with_server(tmp_path, pg_cluster, pg_database) as (_, station_file, env):
+        run = ["--station", str(station_file), "--yes"]
+        with socket.socket() as s:  # a port where nothing listens: the outage
+            s.bind(("127.0.0.1", 0))
+            dead = f"postgresql://bench@127.0.0.1:{s.getsockname()[1]}/rig"
+        monkeypatch.setenv("RIG_DATABASE_URL", dead)
+        assert main(["run", screen, *run, "--serial", "OUT-1"]) == 0
+        assert "1 waiting" in capsys.readouterr().out
+        monkeypatch.delenv("RIG_DATABASE_URL")
+        assert main(["run", screen, *run, "--serial", "BACK-1"]) == 0
+        back = capsys.readouterr().out
+        monkeypatch.setattr(sys, "stdin", io.StringIO(""))
+
+        def ctrl_c(prompt: str = "") -> str:
+            raise KeyboardInterrupt  # what input() raises when Ctrl-C is pressed at the prompt
+
+        monkeypatch.setattr(builtins, "input", ctrl_c)
+        args = ["run", str(stops), "--station", str(station_file), "--serial", "CUT-1"]
+        assert main(args) == EXIT_ABORTED
+        cut = capsys.readouterr()
+        on_server_before_sync, _ = server_record(pg_database)
+        synced = rig_cli(["sync", "--station", str(station_file)], env)
+    assert "2 run(s) sent to the results server" in back  # OUT-1 and BACK-1
+    assert "rig: interrupted; run 3 is recorded as aborted" in cut.err
+    assert (
+        "0 run(s) sent to the results server before the run; run 3 waits in the station's file, "
+        "to be sent with its next run or by rig sync"
+    ) in cut.out
+    assert "0 run(s) sent to the results server\n" not in cut.out
+    assert len(on_server_before_sync) == 2
+    assert synced.returncode == 0 and "1 run(s) sent" in synced.stdout

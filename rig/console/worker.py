@@ -26,7 +26,7 @@ from rig.errors import ConfigError, RigError
 from rig.events import Event, PromptShown
 from rig.plan import Plan
 from rig.store import ResultStore
-from rig.store_sync import SyncReport, send_waiting_runs
+from rig.store_sync import SyncReport, send_after_run, send_waiting_runs
 
 log = logging.getLogger(__name__)
 
@@ -369,7 +369,7 @@ def run_in_worker(
 
     try:
         notes = check_calibration(plan.station, reads_probe=plan.reads_reference_probe)
-        send_waiting_runs(plan.station, synced)
+        before = send_waiting_runs(plan.station, synced)
         store = ResultStore(plan.station.store_path)
     except RigError as exc:
         inbox.put(RunEnded(None, _problem_text(exc)))
@@ -387,7 +387,7 @@ def run_in_worker(
         inbox.put(RunEnded(None, f"unexpected error: {exc!r}"))
     finally:
         store.close()
-    send_waiting_runs(plan.station, synced)
+    send_after_run(plan.station, before, synced)
 
 
 def _run(
