@@ -710,6 +710,20 @@ class ResultStore:
         )
         return [str(r[0]) for r in rows]
 
+    def newest_start(self) -> str | None:
+        """The start of the newest run (ISO 8601, UTC): a station clock set back starts a run
+        before it."""
+        rows = self._rows("SELECT MAX(started_at) FROM runs", ())
+        return None if not rows or rows[0][0] is None else str(rows[0][0])
+
+    def server_time(self) -> dt.datetime | None:
+        """The results server's clock (PostgreSQL ``now()``); None for a SQLite file."""
+        if self.engine != "postgresql":
+            return None
+        rows = self._rows("SELECT now()", ())
+        found = rows[0][0] if rows else None
+        return found if isinstance(found, dt.datetime) else None
+
     def run_ids_by_uid(self) -> dict[str, int]:
         """Every run's id in this database by its record id: a station's own numbers for the
         runs read from the server."""

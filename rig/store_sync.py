@@ -22,6 +22,7 @@ from dataclasses import dataclass, replace
 from typing import Any
 
 from rig.config.station import Station
+from rig.station_clock import skew
 from rig.store import FILL_READING_UIDS, Migrate, ResultStore, StoreError
 from rig.store_open import open_local_store, open_server_store
 
@@ -52,6 +53,8 @@ class SyncReport:
     """False when the station has no server: its own file is the whole record."""
     upgraded: str = ""
     """The server's schema upgrade this pass made (``--upgrade-server``), in words; empty: none."""
+    clock: str = ""
+    """Where the station's clock and the server's differ by more than a few minutes, that."""
 
     def describe(self) -> str:
         if not self.configured:
@@ -60,10 +63,12 @@ class SyncReport:
         if self.upgraded:
             text = f"{self.upgraded}; {text}"
         if self.problem and not self.waiting:  # nothing lost now, but the next runs will wait
-            return f"{text}; none waiting, but the server cannot be used: {self.problem}"
-        if self.problem:
-            return f"{text}; {self.waiting} waiting: {self.problem}"
-        return text + ("" if not self.waiting else f"; {self.waiting} waiting")
+            text = f"{text}; none waiting, but the server cannot be used: {self.problem}"
+        elif self.problem:
+            text = f"{text}; {self.waiting} waiting: {self.problem}"
+        elif self.waiting:
+            text += f"; {self.waiting} waiting"
+        return text + (f"\nwarning: {self.clock}" if self.clock else "")
 
 
 def pending_runs(local: ResultStore, target: str | None) -> list[tuple[int, str]]:
@@ -161,6 +166,11 @@ def sync(local: ResultStore, remote: ResultStore) -> SyncReport:
         target = remote.store_uid()
     except StoreError as exc:
         return SyncReport(0, len(pending_runs(local, None)), str(exc))
+    try:
+        server_now = remote.server_time()
+    except StoreError:
+        server_now = None
+    clock = "" if server_now is None else skew(server_now, dt.datetime.now(dt.UTC))
     with local._tx() as db:
         db.execute(FILL_READING_UIDS)  # rows written by code that gave no key get the stable one
     pending = pending_runs(local, target)
@@ -173,8 +183,8 @@ def sync(local: ResultStore, remote: ResultStore) -> SyncReport:
             sent += 1
         send_relay_wear(local, remote)
     except StoreError as exc:
-        return SyncReport(sent, len(pending) - sent, str(exc))
-    return SyncReport(sent, 0)
+        return SyncReport(sent, len(pending) - sent, str(exc), clock=clock)
+    return SyncReport(sent, 0, clock=clock)
 
 
 def waiting_runs(station: Station) -> int:
@@ -277,4 +287,5 @@ def around_a_run(reports: Sequence[SyncReport], interrupted_run: int | None = No
             text += f" ({others} more waiting)"
         return text + (f": {before.problem}" if before.problem else "")
     last = reports[-1]
-    return SyncReport(sent, last.waiting, last.problem).describe()
+    clock = next((r.clock for r in reports if r.clock), "")
+    return SyncReport(sent, last.waiting, last.problem, clock=clock).describe()

@@ -25,6 +25,7 @@ from rig.engine import Bench, Engine, RunSummary, StopRequested, make_safe
 from rig.errors import ConfigError, RigError
 from rig.events import Event, PromptShown
 from rig.plan import Plan
+from rig.station_clock import clock_warning
 from rig.store import ResultStore
 from rig.store_sync import SyncReport, send_after_run, send_waiting_runs
 
@@ -369,6 +370,7 @@ def run_in_worker(
 
     try:
         notes = check_calibration(plan.station, reads_probe=plan.reads_reference_probe)
+        notes += [w for w in (clock_warning(plan.station.store_path),) if w]
         before = send_waiting_runs(plan.station, synced)
         store = ResultStore(plan.station.store_path)
     except RigError as exc:
