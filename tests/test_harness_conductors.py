@@ -109,3 +109,20 @@ def test_captured_row_moves_to_todays_ambient_with_the_copper_coefficient() -> N
     assert limit.max_ohm == pytest.approx(at_30 * 1.10 + 0.005)
     assert copper_factor(20.0, 20.0) == 1.0
     assert math.isclose(copper_factor(20.0, 30.0) * copper_factor(30.0, 20.0), 1.0)
+
+
+@pytest.mark.parametrize("at_c", [0.0, -5.0, 0.001])
+def test_a_captured_row_measured_at_or_below_freezing_is_moved_from_its_own_temperature(
+    at_c: float,
+) -> None:
+    # 0 degC is a temperature, not "unstated": 0.100 ohm at 0 degC, at 23 degC, is
+    # 0.100 x [1 + a (23 - 20)] / [1 + a (0 - 20)] = 0.10981 ohm (alpha20 = 0.00393 /K, SOURCES.md,
+    # from memory); taken as measured at 20 degC it was 0.10118 ohm
+    row = WireRow(1, "W1", End("J1", "1"), End("J2", "1"), measured_ohm=0.100, measured_at_c=at_c)
+    expected = 0.100 * (1 + ALPHA20 * (23 - 20)) / (1 + ALPHA20 * (at_c - 20))
+    assert row_resistance_ohm(row, 23.0) == pytest.approx(expected, rel=1e-12)
+    if at_c == 0.0:
+        assert expected == pytest.approx(0.10981, abs=5e-6)
+    # unstated, a captured row is taken as measured at 20 degC, as before
+    unstated = WireRow(1, "W1", End("J1", "1"), End("J2", "1"), measured_ohm=0.100)
+    assert row_resistance_ohm(unstated, 23.0) == pytest.approx(0.100 * (1 + ALPHA20 * 3))

@@ -58,7 +58,8 @@ def copper_factor(temp_c: float, from_c: float = 20.0, alpha20: float = ALPHA20_
 def row_resistance_ohm(row: WireRow, temp_c: float) -> float:
     """The conductor (drawing row) or the measured path (captured row) at ``temp_c``."""
     if row.measured_ohm is not None:
-        return row.measured_ohm * copper_factor(temp_c, row.measured_at_c or 20.0)
+        at_c = 20.0 if row.measured_at_c is None else row.measured_at_c  # 0 degC is a temperature
+        return row.measured_ohm * copper_factor(temp_c, at_c)
     if row.area_mm2 is None or row.length_m is None:
         raise ValueError(f"row {row.line} has neither gauge and length nor a measured resistance")
     return float(wire_resistance_ohm(row.length_m, row.area_mm2, temp_c))
