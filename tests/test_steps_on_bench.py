@@ -20,6 +20,7 @@ from rig.judge.decision import Verdict
 from rig.plan import Plan, build_plan
 from rig.runner import run_plan
 from rig.sim.bench import VirtualBench
+from rig.store import ResultStore
 
 FIXTURE = SEQUENCES / "demo-fixture.toml"
 
@@ -410,3 +411,54 @@ def test_moving_the_supply_to_other_pins_switches_it_off_first(tmp_path: Path) -
     assert 40 in supply_relays
     _assert_never_moved_live(timeline, supply_relays)
     assert any(40 in closed for closed, _ in timeline)  # the supply did move to P_SIG
+
+
+NTC_OHMS_SEQUENCE = """
+[sequence]
+name = "ntc-ohms"
+[[steps]]
+id = "ntc-two-wire"
+kind = "ntc"
+hi = "T1"
+lo = "T2"
+measure = "resistance"
+r25 = "2.0 kohm"
+beta = "3450 K"
+temperature = "23 degC"
+tolerance = "5 %"
+[[steps]]
+id = "four-wire"
+kind = "resistance"
+hi = "T1"
+lo = "T2"
+wires = 4
+nominal = "2.0 kohm"
+tolerance = "10 %"
+"""
+
+
+def test_an_ntc_read_two_wire_takes_off_the_stored_zero_as_resistance_does(
+    tmp_path: Path,
+) -> None:
+    # The fixture's two relay contacts (0.05 ohm each on the virtual bench) are in every 2-wire
+    # reading: on a hot NTC of about 110 ohm they are about 0.1 % of it, a bias the step's U
+    # does not hold.  The ntc step takes the station's stored zero off, as resistance and rtd do.
+    zero = '\n[lead_zero]\n"T2:T1" = "0.1 ohm"\n'  # either order matches
+    bench, station_path = _bench(tmp_path, SENDER, zero)
+    try:
+        seq = tmp_path / "ntc-ohms.toml"
+        seq.write_text(NTC_OHMS_SEQUENCE, encoding="utf-8")
+        station = load_station(station_path)
+        summary = run_plan(build_plan(load_sequence(seq), station), "N-1")
+        store = ResultStore(station.store_path)
+        try:
+            *_, raw = [r for r in store.readings(summary.run_id, "ntc-two-wire") if r["settled"]]
+        finally:
+            store.close()
+    finally:
+        bench.stop()
+    by_id = {result.step_id: result for result in summary.results}
+    ntc, four = by_id["ntc-two-wire"], by_id["four-wire"]
+    assert ntc.value == pytest.approx(raw["value"] - 0.1, abs=1e-9)
+    assert "lead zero 0.1 ohm subtracted" in ntc.note
+    assert ntc.value == pytest.approx(four.value, abs=ntc.expanded_u + four.expanded_u)

@@ -357,16 +357,18 @@ class NtcCheck(StepKind):
             nplc=spec.nplc,
         )
         temp, u_temp = temperature_at(ctx, spec)
-        if not voltage:
+        if not voltage:  # read 2-wire: the fixture's leads are off, as resistance and rtd take them
+            zero = ctx.lead_zero(spec.pins["hi"], spec.pins["lo"])
             window = ntc_window(spec, (temp, u_temp))
             return Outcome(
-                reading.value,
+                reading.value - zero,
                 "ohm",
                 math.hypot(reading.u_std, window.u_std),
                 window.limits,
                 [reading],
                 predicted=window.predicted,
                 extras={"temperature_c": temp},
+                note=f"lead zero {zero:g} ohm subtracted" if zero else "",
             )
         if spec.params.get("reference_from"):
             ref = ctx.earlier(spec.params["reference_from"])
