@@ -24,7 +24,7 @@ from rig.events import (
     allows_none,
     prompt_answer,
 )
-from rig.judge.decision import Limits
+from rig.judge.decision import Limits, Verdict, tur_text
 from rig.quantity import format_quantity
 
 
@@ -121,11 +121,30 @@ def _result_cells(r: StepResult) -> list[str]:
     if r.kind == "harness-proof" and r.unit == "faults" and not math.isnan(r.value):
         return [f"{r.value:g} fault(s) found", show_limits(r.limits, r.unit), "", ""]
     return [
-        show(r.value, r.unit),
+        "not measured" if r.verdict is Verdict.SKIPPED else value_text(r.value, r.unit, r.limits),
         show_limits(r.limits, r.unit),
         "" if math.isnan(r.expanded_u) else "±" + show(r.expanded_u, r.unit),
-        "" if r.tur is None else f"{r.tur:.1f}:1" + (" LOW" if r.tur_low else ""),
+        "" if r.tur is None else tur_text(r.tur),
     ]
+
+
+MOST_DIGITS = 10
+"""The most significant digits a value is shown to, telling it from a limit."""
+
+
+def value_text(value: float, unit: str, limits: Limits | None) -> str:
+    """A judged value as ``rig run`` shows it: four significant digits, or as many more as it
+    takes to tell it from a limit it is not equal to, so that 4.80001 V judged against a high
+    limit of 4.8 V never reads 4.8 V beside its fail (rounding is monotone: once the two texts
+    differ, the shown value lies on the same side of the limit as the reading)."""
+    if unit in ("", "s") or not math.isfinite(value) or limits is None:
+        return show(value, unit)
+    near = [x for x in (limits.low, limits.high) if x is not None and x != value]
+    for digits in range(4, MOST_DIGITS + 1):
+        text = format_quantity(value, unit, digits)
+        if all(text != format_quantity(x, unit, digits) for x in near):
+            return text
+    return text
 
 
 def serve_bench(out: Output, title: str, rows: Sequence[tuple[str, str]], station: object) -> None:

@@ -37,6 +37,11 @@ UNIT = SEQUENCES / "units" / "temp-circuit.toml"
 STEP = "signal-vs-curve"
 
 
+def low_text(tur: float) -> str:
+    """A TUR under 4:1 as rig shows it: rounded down to one decimal, so never 4.0."""
+    return f"{math.floor(tur * 10) / 10:.1f}"
+
+
 def hand_tur(temp_c: float, tol_pct: float) -> tuple[float, float]:
     """(U in V, TUR) of the demo's signal-vs-curve step at ``temp_c``, as the module says."""
     a, b = 3.9083e-3, -5.775e-7
@@ -91,11 +96,11 @@ def test_rig_check_with_a_unit_shows_the_worst_tur_of_an_ntc_step_and_marks_it_l
     row = next(line for line in out.splitlines() if line.startswith(STEP))
     expanded, tur = hand_tur(35.0, 1.0)
     assert tur < 4.0  # 1.6:1 by hand
-    assert f"{expanded * 1000:.4g} mV" in row and row.rstrip().endswith(f"{tur:.1f}:1 LOW")
+    assert f"{expanded * 1000:.4g} mV" in row and row.rstrip().endswith(f"{low_text(tur)}:1 LOW")
     at_15 = hand_tur(15.0, 1.0)[1]
     assert (
         f"{STEP}: limits around the prediction: U and TUR at 35 degC, the worst end of "
-        f"{UNIT.name}'s temperature_range (15 degC: {at_15:.1f}:1 LOW)"
+        f"{UNIT.name}'s temperature_range (15 degC: {low_text(at_15)}:1 LOW)"
     ) in out
     # without a unit file the temperatures are unknown: no TUR, as before
     assert main(["check", str(tight), "--station", str(station.path)]) == 0
@@ -120,7 +125,7 @@ def test_rig_limits_gives_the_proposed_ntc_tolerance_its_tur_and_warns_when_low(
         warned = [w for w in data["warnings"] if w.startswith(f"step {STEP}: TUR ")]
         assert warned == (
             [
-                f"step {STEP}: TUR {step['tur']:.1f}:1 LOW at 35 degC with the proposed "
+                f"step {STEP}: TUR {low_text(step['tur'])}:1 LOW at 35 degC with the proposed "
                 "limits (rig check marks a TUR under 4:1 LOW): the meter's uncertainty "
                 "is about as wide as the limits, so it decides verdicts near them; "
                 "widen them where the faults allow, or measure with a smaller "

@@ -117,7 +117,7 @@ def test_a_low_tur_near_the_minimum_is_not_shown_as_the_minimum() -> None:
     from rig.judge.decision import tur_text
 
     assert tur_text(3.6) == "3.6:1 LOW"
-    assert tur_text(2.586) == "2.6:1 LOW"
+    assert tur_text(2.586) == "2.5:1 LOW"  # under the minimum, rounded down
     assert tur_text(4.0) == "4.0:1"
     assert tur_text(12.4) == "12:1"
     assert tur_text(None) == "-"

@@ -192,10 +192,14 @@ def tur_is_low(tur: float) -> bool:
 def tur_text(tur: float | None) -> str:
     """A test uncertainty ratio as ``rig check`` and ``rig limits`` show it, marked ``LOW``
     under the usual minimum (``-`` where there is none: a one-sided limit).  Under 10:1 with one
-    decimal, as a run shows it, so that 3.6:1 does not read as a 4:1 marked LOW."""
+    decimal, as a run shows it, so that 3.6:1 does not read as a 4:1 marked LOW; under the
+    minimum rounded down, so that 3.96:1 reads 3.9:1 LOW, never 4.0:1 LOW."""
     if tur is None:
         return "-"
-    shown = f"{tur:.1f}" if tur < 10 else f"{tur:.0f}"
+    if tur_is_low(tur):
+        shown = f"{math.floor(tur * 10) / 10:.1f}"
+    else:
+        shown = f"{tur:.1f}" if tur < 10 else f"{tur:.0f}"
     return f"{shown}:1" + (" LOW" if tur_is_low(tur) else "")
 
 

@@ -1,0 +1,89 @@
+"""What ``rig run``, ``rig check`` and ``rig limits`` show must not contradict the verdict or
+the flag beside it: a TUR under the usual 4:1 minimum (common practice, no published source)
+never reads 4.0:1, and a value judged outside (or inside) a limit by less than its display step
+is shown with the digits that tell it from that limit.  The worked values are the review's:
+4.80001 V and 4.79999 V against 0.6 .. 4.8 V."""
+
+from __future__ import annotations
+
+import io
+import re
+
+import pytest
+
+from rig.cli_output import Output, value_text
+from rig.events import StepResult
+from rig.judge.decision import COVERAGE_K, DecisionRule, Limits, Verdict, tur_text
+
+WINDOW = Limits(0.6, 4.8)
+
+
+@pytest.mark.parametrize(
+    ("tur", "shown"),
+    [
+        (3.96, "3.9:1 LOW"),
+        (3.9999, "3.9:1 LOW"),
+        (3.6, "3.6:1 LOW"),
+        (1.39, "1.3:1 LOW"),
+        (4.0, "4.0:1"),
+        (4.04, "4.0:1"),
+        (12.4, "12:1"),
+    ],
+)
+def test_a_low_tur_never_reads_as_the_minimum(tur: float, shown: str) -> None:
+    assert tur_text(tur) == shown
+
+
+def number(text: str) -> float:
+    """The number of a shown value in volts (prefixes as rig.quantity writes them)."""
+    value, unit = text.split()
+    return float(value) * {"V": 1.0, "mV": 1e-3, "uV": 1e-6}[unit]
+
+
+@pytest.mark.parametrize("value", [4.80001, 4.79999, 0.599999, 0.6000004, 4.8 + 1e-9])
+def test_a_value_near_a_limit_is_told_from_it(value: float) -> None:
+    text = value_text(value, "V", WINDOW)
+    assert text not in ("4.8 V", "600 mV")
+    # on the same side of each limit as the value itself
+    for limit in (0.6, 4.8):
+        assert (number(text) > limit) == (value > limit)
+        assert (number(text) < limit) == (value < limit)
+
+
+def test_a_value_clear_of_its_limits_keeps_four_digits() -> None:
+    assert value_text(2.2345678, "V", WINDOW) == "2.235 V"
+    assert value_text(4.8, "V", WINDOW) == "4.8 V"  # on the limit: the same text is right
+
+
+def result(value: float, verdict: Verdict, tur: float) -> StepResult:
+    return StepResult(
+        position=1,
+        step_id="signal",
+        kind="volts",
+        title="signal",
+        pins={},
+        value=value,
+        unit="V",
+        limits=WINDOW,
+        predicted=None,
+        u_std=0.000126,
+        expanded_u=COVERAGE_K * 0.000126,
+        coverage_k=COVERAGE_K,
+        rule=DecisionRule.SIMPLE,
+        verdict=verdict,
+        tur=tur,
+        tur_low=tur < 4,
+        readings=1,
+        settle_s=0.0,
+    )
+
+
+def test_the_run_table_agrees_with_its_verdict_and_flag() -> None:
+    buffer = io.StringIO()
+    out = Output(buffer)
+    out.results([result(4.80001, Verdict.FAIL, 3.96), result(4.79999, Verdict.PASS, 8333.0)])
+    lines = buffer.getvalue().splitlines()
+    fail = next(line for line in lines if line.endswith("FAIL") or "FAIL " in line)
+    passed = next(line for line in lines if "PASS" in line)
+    assert re.search(r"\b4\.80001 V\b", fail) and "3.9:1 LOW" in fail
+    assert re.search(r"\b4\.79999 V\b", passed)
