@@ -16,7 +16,7 @@ from typing import Any
 from rig.config.station import Station
 from rig.events import prompt_answer
 from rig.planned_steps import recorded_steps, unmeasured_steps
-from rig.screening import answered_no, is_screen, screen_decision
+from rig.screening import answered_no, is_screen, screen_decision, step_evidence
 from rig.store import ResultStore
 
 STEP_COLUMNS = (
@@ -128,7 +128,9 @@ def run_screen_decision(
     if not is_screen(units):
         return None
     no = answered_no((str(s["unit"]), str(s["verdict"])) for s in steps)
-    found = screen_decision(str(run["status"]), run["verdict"], answered_no=no)
+    found = screen_decision(
+        str(run["status"]), run["verdict"], step_evidence(steps), answered_no=no
+    )
     return {"decision": found.word, "meaning": found.meaning}
 
 

@@ -633,14 +633,26 @@ def _screen_decision(plan: Plan, summary: RunSummary) -> ScreenDecision | None:
     """The screen's decision on the unit from this run (``rig.screening``, the rule of
     ``rig stats``), or None where the sequence proves a harness; from its planned steps too, so
     a proof ended before its proof step is still one."""
-    from rig.screening import answered_no, is_screen, screen_decision
+    from rig.screening import StepEvidence, answered_no, evidence, is_screen, screen_decision
     from rig.steps import KINDS
 
     units = {KINDS[p.spec.kind].unit for p in plan.steps}
     if not is_screen(units):
         return None
     no = answered_no((r.unit, r.verdict.value) for r in summary.results)
-    return screen_decision(summary.status, summary.verdict.value, answered_no=no)
+    found = evidence(
+        StepEvidence(
+            r.kind,
+            r.unit,
+            r.value,
+            None if r.limits is None else r.limits.low,
+            None if r.limits is None else r.limits.high,
+            r.expanded_u,
+            r.verdict.value,
+        )
+        for r in summary.results
+    )
+    return screen_decision(summary.status, summary.verdict.value, found, answered_no=no)
 
 
 def serial_option_problem(serial: str) -> str:

@@ -62,6 +62,7 @@ from rig.routing import Route, plan_relays
 from rig.run_admission import refuse_unfiled
 from rig.step_judging import (
     autorange_estimate,
+    failed_input,
     judge_outcome,
     lead_zero_ohm,
     meter_ranges,
@@ -624,6 +625,14 @@ class Engine:
         self._step_routes = planned.relay_sets if KINDS[spec.kind].routes_in_order else None
         started = _now()
         kind = KINDS[spec.kind]
+        unjudged = failed_input(spec, self._results)
+        if unjudged:  # an input step failed: nothing to judge this one against
+            outcome = Outcome(math.nan, kind.unit, math.nan, None, note=unjudged)
+            judged = self._judged(position, spec, outcome, error=True)
+            result = replace(judged, verdict=Verdict.SKIPPED)
+            self._store_step(result, started, spec)
+            self.listener(StepFinished(result))
+            return result
         retried = ""
         relay_retries = getattr(self.bench.relays, "retries", 0)
         while True:

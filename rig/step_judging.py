@@ -45,6 +45,24 @@ def judge_outcome(
     return verdict, expanded, tur
 
 
+_FAILED = (Verdict.FAIL, Verdict.CONDITIONAL_FAIL, Verdict.ERROR)
+
+
+def failed_input(spec: StepSpec, earlier: Mapping[str, StepResult]) -> str:
+    """Why a step cannot be judged, where an earlier step it takes an input from (its
+    ``temperature_from`` or ``reference_from``) failed or could not measure: its value is no
+    temperature or reference to predict the unit's reading from, so the step is not measured
+    and is skipped with this note (empty where its inputs stand)."""
+    for key, (source, _) in spec.inputs.items():
+        found = earlier.get(source)
+        if found is not None and found.verdict in _FAILED:
+            return (
+                f"not judged: its {key} step {source} ended {found.verdict.value}, so it has no "
+                "trustworthy input to predict the reading from"
+            )
+    return ""
+
+
 def no_uncertainty_note(
     spec: StepSpec, outcome: Outcome, earlier: Mapping[str, StepResult], station: Station
 ) -> str:

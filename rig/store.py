@@ -683,19 +683,24 @@ class ResultStore:
 
     def run_rows(self, where: RunFilter, *, origin: bool = False) -> list[Any]:
         """(id, serial, sequence_name, started_at, status, verdict, reason, end_cause, claim,
-        answered_no) of every run the filter matches, oldest first; ``answered_no`` is 1 where an
-        operator answered a question no (a prompt's step failed), else 0.  With ``origin``,
-        each row goes on with (station, run_uid): where the run was made, and its key in every
-        store (its id is this database's own)."""
+        answered_no, confirmed, clear, reference_failed) of every run the filter matches, oldest
+        first; ``answered_no`` is 1 where an operator answered a question no (a prompt's step
+        failed), else 0; the next three are what its steps show the screen, 0 or 1
+        (``rig.screening.EVIDENCE_SQL``).  With ``origin``, each row goes on with (station,
+        run_uid): where the run was made, and its key in every store (its id is this database's
+        own)."""
+        from rig.screening import EVIDENCE_SQL
+
         sql, params = _run_where(where)
         answered = (
             "CASE WHEN EXISTS (SELECT 1 FROM steps s WHERE s.run_id = r.id AND s.unit = ''"
             " AND s.verdict = 'fail') THEN 1 ELSE 0 END"
         )
         more = ", r.station, r.run_uid" if origin else ""
+        shown = ", ".join(EVIDENCE_SQL[k] for k in ("confirmed", "clear", "reference_failed"))
         return self._rows(
             "SELECT r.id, r.serial, r.sequence_name, r.started_at, r.status, r.verdict, r.reason,"
-            f" r.end_cause, r.claim, {answered}{more} FROM runs r WHERE {sql}"
+            f" r.end_cause, r.claim, {answered}, {shown}{more} FROM runs r WHERE {sql}"
             " ORDER BY r.started_at, r.id",
             params,
         )

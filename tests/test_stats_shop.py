@@ -73,15 +73,18 @@ def test_a_screen_confirms_only_beyond_the_uncertainty_and_calls_conditional_inc
     # ILAC-G8:2019 (guarded decision rules): a conditional pass or fail lies within the
     # measurement's uncertainty of a limit, so it decides neither way; a returned unit whose last
     # verdict is conditional is inconclusive, not a confirmed failure or no fault found.
+    # the last three: what the run's steps show (rig.screening.EVIDENCE_SQL): a step failed
+    # beyond its U, every step inside beyond its U, the bench's reference failed
     rows = [
-        (1, "A", "screen", "2026-12-01", "complete", "fail", ""),
-        (2, "B", "screen", "2026-12-01", "complete", "conditional fail", ""),
-        (3, "C", "screen", "2026-12-01", "complete", "conditional pass", ""),
-        (4, "D", "screen", "2026-12-01", "complete", "pass", ""),
-        (5, "E", "screen", "2026-12-01", "aborted", "error", "instrument fault: DMM gone"),
-        (6, "B", "screen", "2026-12-02", "complete", "fail", ""),  # B retested: confirmed now
+        (1, "A", "screen", "2026-12-01", "complete", "fail", "", 1, 0, 0),
+        (2, "B", "screen", "2026-12-01", "complete", "conditional fail", "", 0, 0, 0),
+        (3, "C", "screen", "2026-12-01", "complete", "conditional pass", "", 0, 0, 0),
+        (4, "D", "screen", "2026-12-01", "complete", "pass", "", 0, 1, 0),
+        (5, "E", "screen", "2026-12-01", "aborted", "error", "instrument fault: DMM gone", 0, 1, 0),
+        (6, "B", "screen", "2026-12-02", "complete", "fail", "", 1, 0, 0),  # B retested
     ]
-    rows = [(*row, None, "", 0) for row in rows]  # no end cause stored, no claim, no "no" answer
+    # no end cause stored, no claim, no "no" answer
+    rows = [(*row[:7], None, "", 0, *row[7:]) for row in rows]
     screen = screen_outcomes(units_frame(runs_frame(rows))).iloc[0]
     assert (screen["units"], screen["confirmed_failure"], screen["no_fault_found"]) == (5, 2, 1)
     assert (screen["inconclusive"], screen["undecided"]) == (1, 1)

@@ -24,7 +24,7 @@ from rig.commands._store_args import (
     add_store_args,
     open_from_args,
 )
-from rig.screening import decision_word, is_screen
+from rig.screening import decision_word, is_screen, stored_evidence
 from rig.store import RunFilter
 from rig.store_open import open_file_for_reading
 
@@ -41,6 +41,9 @@ COLUMNS = (
     "decision",
     "claim",
 )
+ORIGIN = 13
+"""Where ``run_rows(..., origin=True)`` puts a run's station and record id."""
+UID = ORIGIN + 1
 RECORD_DIGITS = 12
 """Record-id digits in the table: unique among millions of runs; ``rig report`` takes 8 or more."""
 
@@ -136,18 +139,18 @@ def _listed_rows(
     store, station = opened.store, opened.station
     rows = list(store.run_rows(where, origin=True))
     if station is None or store.engine != "postgresql":
-        return rows, {str(r[11]): int(r[0]) for r in rows}, set()
+        return rows, {str(r[UID]): int(r[0]) for r in rows}, set()
     if not station.store_path.is_file():
         return rows, {}, set()
     local = open_file_for_reading(station.store_path)
     try:
         own_ids = local.run_ids_by_uid()
-        on_server = {str(r[11]) for r in rows}
-        unsent = [r for r in local.run_rows(where, origin=True) if str(r[11]) not in on_server]
+        on_server = {str(r[UID]) for r in rows}
+        unsent = [r for r in local.run_rows(where, origin=True) if str(r[UID]) not in on_server]
     finally:
         local.close()
     rows = sorted(rows + unsent, key=lambda r: str(r[3]))
-    return rows, own_ids, {str(r[11]) for r in unsent}
+    return rows, own_ids, {str(r[UID]) for r in unsent}
 
 
 def _row(row: Any, screen: bool, own_ids: dict[str, int], waiting: set[str]) -> dict[str, Any]:
@@ -155,9 +158,13 @@ def _row(row: Any, screen: bool, own_ids: dict[str, int], waiting: set[str]) -> 
     decision on the unit (``rig.screening``, as ``rig run`` and ``rig stats`` state it), a
     harness proof's with none.  ``run`` is the station's own id (None for another station's
     run); ``record_id`` opens any run with ``rig report``."""
-    _, serial, sequence, started, status, verdict, _, _, claim, answered_no, made_at, uid = row
+    _, serial, sequence, started, status, verdict, _, _, claim, answered_no = row[:10]
+    found = stored_evidence(*row[10:13])
+    made_at, uid = row[ORIGIN:]
     decision = (
-        decision_word(str(status), verdict, answered_no=bool(answered_no)) if screen else None
+        decision_word(str(status), verdict, found, answered_no=bool(answered_no))
+        if screen
+        else None
     )
     return {
         "run": own_ids.get(str(uid)),

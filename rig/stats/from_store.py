@@ -17,7 +17,7 @@ from typing import Any
 import pandas as pd
 
 from rig.events import NOT_READINGS
-from rig.screening import ANSWER_UNIT, UNDECIDED, decision_word, is_screen, undecided_cause
+from rig.screening import ANSWER_UNIT, UNDECIDED, is_screen, undecided_cause
 from rig.stats.capability import (
     Capability,
     capability,
@@ -28,6 +28,7 @@ from rig.stats.filters import RunFilter
 from rig.stats.grr import GaugeStudy, GaugeStudyError, Observation, gauge_rr
 from rig.stats.pareto import fault_kind, pareto
 from rig.stats.yields import (
+    run_decision,
     runs_frame,
     screen_outcomes,
     units_frame,
@@ -468,23 +469,14 @@ def undecided_causes(runs: pd.DataFrame) -> pd.DataFrame:
     a run that did not complete or could not measure (``rig.screening``)."""
     causes = Counter(
         undecided_cause(
-            str(status),
-            str(reason or ""),
-            code if isinstance(code, str) else None,
-            answered_no=bool(no),
+            str(row.status),
+            str(row.reason or ""),
+            row.end_cause if isinstance(row.end_cause, str) else None,
+            answered_no=bool(row.answered_no),
+            reference_failed=bool(row.reference_failed),
         )
-        for status, verdict, reason, code, no in zip(
-            runs["status"],
-            runs["verdict"],
-            runs["reason"],
-            runs["end_cause"],
-            runs["answered_no"],
-            strict=True,
-        )
-        if decision_word(
-            str(status), None if verdict is None else str(verdict), answered_no=bool(no)
-        )
-        == UNDECIDED
+        for row in runs.itertuples(index=False)
+        if run_decision(row) == UNDECIDED
     )
     items = sorted(causes.items(), key=lambda kv: (-kv[1], kv[0]))
     return pd.DataFrame(

@@ -9,11 +9,12 @@ wording); an aborted run counts as not passed.  Pure: takes a DataFrame of runs.
 from __future__ import annotations
 
 from collections.abc import Sequence
+from typing import Any
 
 import numpy as np
 import pandas as pd
 
-from rig.screening import CONFIRMED, INCONCLUSIVE, NO_FAULT, decision_word
+from rig.screening import CONFIRMED, INCONCLUSIVE, NO_FAULT, decision_word, stored_evidence
 
 RUN_COLUMNS = (
     "id",
@@ -26,6 +27,9 @@ RUN_COLUMNS = (
     "end_cause",
     "claim",
     "answered_no",
+    "confirmed",
+    "clear",
+    "reference_failed",
 )
 PASSING = ("pass", "conditional pass")
 FAILING = ("fail", "conditional fail")
@@ -45,6 +49,13 @@ def runs_frame(rows: Sequence[Sequence[object]]) -> pd.DataFrame:
     return frame
 
 
+def run_decision(row: Any) -> str:
+    """The screen's decision on one run of ``runs_frame`` (``rig.screening``)."""
+    found = stored_evidence(row.confirmed, row.clear, row.reference_failed)
+    verdict = None if row.verdict is None else str(row.verdict)
+    return decision_word(str(row.status), verdict, found, answered_no=bool(row.answered_no))
+
+
 def units_frame(runs: pd.DataFrame) -> pd.DataFrame:
     """One row per unit (sequence and serial): its first run's day and outcome, its last run's.
 
@@ -61,17 +72,7 @@ def units_frame(runs: pd.DataFrame) -> pd.DataFrame:
             "first_passed": runs["passed"].to_numpy()[first],
             "last_passed": runs["passed"].to_numpy()[last],
             "last_failed": runs["failed"].to_numpy()[last],
-            "last_decision": [
-                decision_word(
-                    str(status), None if verdict is None else str(verdict), answered_no=bool(no)
-                )
-                for status, verdict, no in zip(
-                    runs["status"].to_numpy()[last],
-                    runs["verdict"].to_numpy()[last],
-                    runs["answered_no"].to_numpy()[last],
-                    strict=True,
-                )
-            ],
+            "last_decision": [run_decision(row) for row in runs.iloc[last].itertuples(index=False)],
         }
     )
 
