@@ -252,7 +252,9 @@ def _print_shop(stats: Any, out: Output) -> None:
     )
     out.line(
         "  confirmed: a fail beyond the uncertainty of the reading; no fault found: a pass beyond "
-        "it; inconclusive: a conditional verdict, within it (retest)"
+        "it; inconclusive: a reading within it of a limit, or judged with no uncertainty "
+        "(retest); undecided: not completed, not measured, a question answered no, or the "
+        "bench's reference failed"
     )
     out.line()
     out.line(
