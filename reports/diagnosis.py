@@ -48,19 +48,19 @@ def find_unit_file(run: Mapping[str, Any], unit_path: Path | None) -> Path | Non
     return None
 
 
-def sequence_not_found(run_id: object, recorded: str) -> str:
-    """Why the sequence file a run records cannot be read, in words naming the recorded path and
-    the command that takes another (empty when it is there).  Runs record it in full; older runs
-    recorded it as typed, so from another folder it is not found."""
+def sequence_not_found(who: str, recorded: str, *, elsewhere: bool = False) -> str:
+    """Why the sequence file the run ``who`` names records cannot be read, in words naming the
+    recorded path and the command that takes another (empty when it is there).  Runs record it
+    in full; older runs recorded it as typed, so from another folder it is not found; a run
+    another station made (``elsewhere``) records that bench's path."""
     path = Path(recorded)
     if path.is_file():
         return ""
-    where = (
-        "no longer there"
-        if path.is_absolute()
-        else f"relative to the folder rig run was started in; not found from {Path.cwd()}"
-    )
-    return f"run {run_id} records sequence file {recorded!r} ({where}); give --sequence FILE"
+    if not path.is_absolute():
+        where = f"relative to the folder rig run was started in; not found from {Path.cwd()}"
+    else:
+        where = "not on this computer" if elsewhere else "no longer there"
+    return f"{who} records sequence file {recorded!r} ({where}); give --sequence FILE"
 
 
 _LOADED: dict[tuple[str, str, int], tuple[Any, Any]] = {}
@@ -122,7 +122,7 @@ def diagnose_stored_run(
             f"no diagnosis is available: unit model {run.get('unit') or '(none)'!r} not found; "
             "give --unit"
         )
-    missing = sequence_not_found(run.get("id"), str(run["sequence_path"]))
+    missing = sequence_not_found(f"run {run.get('id')}", str(run["sequence_path"]))
     if missing:
         return unavailable(f"no diagnosis is available: {missing} to rig diagnose")
     try:

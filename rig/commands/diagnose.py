@@ -1,12 +1,20 @@
-"""``rig diagnose RUN --station STATION``: the most likely fault behind a stored run."""
+"""``rig diagnose RUN --station STATION``: the most likely fault behind a stored run.
+
+The run is found as ``rig report`` finds it (``rig.commands._run_ref``): with a results server,
+any station's run by its record id, read from the server's record; the sequence is planned on
+the station given, whose fixture and instruments stand in for those of the bench that made it.
+"""
 
 from __future__ import annotations
 
 import argparse
+from collections.abc import Mapping
 from pathlib import Path
+from typing import Any
 
 from rig.cli_output import Output
-from rig.commands._run_ref import id_in, run_ref
+from rig.commands._run_ref import FoundRun, find_run, run_ref
+from rig.commands._store_args import OpenedStore
 from rig.errors import ConfigError, Problem
 
 EXIT_BAD_INPUT = 2
@@ -18,8 +26,9 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
         "run",
         type=run_ref,
         metavar="RUN",
-        help="the run id rig run printed, or the run's record id (32 hex digits, or its first 8 "
-        "or more as rig runs lists them) in the station's own file",
+        help="the run id rig run printed (the station's own), or the run's record id (32 hex "
+        "digits, or its first 8 or more, as rig runs lists them: with a results server, any "
+        "station's run)",
     )
     p.add_argument("--station", type=Path, required=True, help="the station file")
     p.add_argument(
@@ -29,7 +38,12 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
         "demo run units/<unit name>.toml beside its sequence)",
     )
     p.add_argument("--sequence", type=Path, help="sequence file (default: the run's own)")
-    p.add_argument("--store", type=Path, help="results file (default: the station's)")
+    p.add_argument(
+        "--store",
+        type=Path,
+        help="results file (default: the station's results server where it has one, else its "
+        "own file)",
+    )
     p.add_argument("--top", type=int, default=5, help="hypotheses to show (5)")
     p.add_argument("--json", action="store_true", help="machine-readable output")
     p.set_defaults(func=cmd_diagnose)
@@ -38,6 +52,15 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
 def suggestion(run_id: int, station: Path) -> str:
     """The command a failed run points the operator to."""
     return f"rig diagnose {run_id} --station {station}"
+
+
+def unit_not_found(who: str, run: Mapping[str, Any], elsewhere: bool) -> str:
+    """Why no unit file is found for the run, and what to give: a unit file another station
+    recorded is that bench's path, often not on this computer."""
+    if not run["unit"]:
+        return f"{who} names no unit; give --unit FILE"
+    where = f" on this computer (station {run['station']} recorded it)" if elsewhere else ""
+    return f"{who} records unit {run['unit']!r}, not found{where}; give --unit FILE"
 
 
 def _with_alike(spec: str, same_as: tuple[str, ...] | list[str]) -> str:
@@ -55,70 +78,110 @@ def _other_unit(recorded: str, given: Path, name: str) -> str:
     return "" if recorded == name else recorded
 
 
-def recorded_sequence(run_id: int, recorded: str) -> Path:
+def recorded_sequence(who: str, recorded: str, *, elsewhere: bool = False) -> Path:
     """The sequence file a run records, where it is still found (``sequence_not_found``)."""
     from reports.diagnosis import sequence_not_found
 
-    missing = sequence_not_found(run_id, recorded)
+    missing = sequence_not_found(who, recorded, elsewhere=elsewhere)
     if missing:
         raise ConfigError([Problem("--sequence", "", missing)])
     return Path(recorded)
 
 
+def run_words(found: FoundRun, run: Mapping[str, Any]) -> str:
+    """The run as the user knows it: the station's own number where it has one, else (another
+    station's run read from the server) its station and the start of its record id, as
+    ``rig runs`` lists them; never the server's own number, which no one is given."""
+    if found.station_run is not None:
+        return f"run {found.station_run}"
+    return f"the run of station {run['station']}, record {str(run['run_uid'])[:12]}"
+
+
+def _open_run(args: argparse.Namespace, out: Output) -> tuple[OpenedStore, FoundRun] | None:
+    """The store(s) holding RUN, opened to read, with any note said; None (said) where RUN is
+    in none of them.  ``--store`` reads that file alone; else the station's server, as
+    ``rig report`` does, or its own file with a note when the server is out of reach."""
+    from rig.commands._store_args import ArgumentProblem, open_from_args
+    from rig.store import StoreError
+    from rig.store_open import open_file_for_reading
+
+    if args.store is not None:
+        if not args.store.is_file():
+            raise ArgumentProblem(f"--store {args.store}: no such results store file")
+        opened = OpenedStore(open_file_for_reading(args.store), None, args.store.parent)
+    else:
+        opened = open_from_args(args, own_file_if_unreachable=True)
+    if opened.note:
+        out.error(f"note: {opened.note}")
+    try:
+        found = find_run(opened, args.run)
+    except StoreError as exc:
+        opened.store.close()
+        out.error(f"rig: RUN {args.run}: {exc}")
+        return None
+    if found.note:
+        out.error(f"note: {found.note}")
+    return opened, found
+
+
 def cmd_diagnose(args: argparse.Namespace, out: Output) -> int:
     from reports.diagnosis import find_unit_file, not_diagnosed
     from rig.analysis.diagnose import diagnose_run
-    from rig.commands._store_args import ArgumentProblem
     from rig.config.station import load_station
     from rig.config.unit_file import load_unit
     from rig.resume import same_sequence
     from rig.runner import load_plan
-    from rig.store import StoreError
-    from rig.store_open import open_file_for_reading, read_local_store
 
     station = load_station(args.station)
-    if args.store is not None and not args.store.is_file():
-        raise ArgumentProblem(f"--store {args.store}: no such results store file")
-    store = read_local_store(station) if args.store is None else open_file_for_reading(args.store)
+    located = _open_run(args, out)
+    if located is None:
+        return EXIT_BAD_INPUT
+    opened, found = located
+    store, run_id = found.store, found.run_id
     try:
-        try:
-            run_id = id_in(store, args.run)
-            run = store.run(run_id)
-        except StoreError as exc:
-            out.error(f"rig: RUN {args.run}: {exc}")
-            return EXIT_BAD_INPUT
+        run = store.run(run_id)
+        who = run_words(found, run)
+        numbers = {"run_id": found.station_run, "record_id": run["run_uid"]}
+        elsewhere = str(run["station"]) != station.name
         unfinished = not_diagnosed(run)
         if unfinished:  # the same words as the run's report
             if args.json:
-                out.json({"run_id": run_id, "hypotheses": [], "message": unfinished})
+                out.json({**numbers, "hypotheses": [], "message": unfinished})
             else:
-                out.line(f"run {run_id} (serial {run['serial']}): {unfinished}")
+                out.line(f"{who} (serial {run['serial']}): {unfinished}")
             return 0
-        sequence = args.sequence or recorded_sequence(run_id, str(run["sequence_path"]))
+        sequence = args.sequence or recorded_sequence(
+            who, str(run["sequence_path"]), elsewhere=elsewhere
+        )
         unit_path = find_unit_file(run, args.unit)
         if unit_path is None:
-            recorded = (
-                f"records unit {run['unit']!r}, not found" if run["unit"] else "names no unit"
-            )
-            raise ConfigError([Problem("--unit", "", f"run {run_id} {recorded}; give --unit FILE")])
+            raise ConfigError([Problem("--unit", "", unit_not_found(who, run, elsewhere))])
         unit = load_unit(unit_path)
         other = _other_unit(str(run["unit"] or ""), unit_path, unit.name)
         if other:
             out.error(
-                f"warning: run {run_id} was recorded with unit {other}; diagnosing with "
+                f"warning: {who} was recorded with unit {other}; diagnosing with "
                 f"{unit_path} ({unit.name}) instead"
+            )
+        if elsewhere:
+            out.error(
+                f"note: {who} was made at station {run['station']}; diagnosed with the fixture "
+                f"and instruments of station {station.name} ({args.station})"
             )
         plan = load_plan(sequence, station)
         if not same_sequence(run, plan.sequence):
-            out.error(f"warning: {sequence} has changed since run {run_id} was taken")
+            out.error(f"warning: {sequence} has changed since {who} was taken")
         diagnosis = diagnose_run(store, run_id, unit, plan)
     finally:
-        store.close()
+        if store is not opened.store:
+            store.close()
+        opened.store.close()
     hypotheses = diagnosis.hypotheses[: args.top]
     if args.json:
         out.json(
             {
-                "run_id": run_id,
+                **numbers,
+                "station": run["station"],
                 "unit": unit.name,
                 "hypotheses": [
                     {
@@ -134,7 +197,7 @@ def cmd_diagnose(args: argparse.Namespace, out: Output) -> int:
             }
         )
         return 0
-    out.line(f"run {run_id} (serial {run['serial']}, {run['verdict']}) on unit {unit.name}")
+    out.line(f"{who} (serial {run['serial']}, {run['verdict']}) on unit {unit.name}")
     if not hypotheses:
         out.line("no settled readings of this sequence in the run: nothing to diagnose")
         return 0
