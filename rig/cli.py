@@ -700,17 +700,19 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
         out.error(f"rig: {problem}")
         return EXIT_BAD_INPUT
     unit = "" if getattr(args, "unit", None) is None else str(args.unit.resolve())
+    on_server = None  # the other stations' runs of the unit, asked of the server before the run
     if args.json:
         out.quiet = True
     else:
         for caution in cautions_for([plan]):
             out.line(caution)
         if not continuing:
-            from rig.tested_before import tested_before
+            from rig.tested_before import ask_server, tested_before
 
             seen = tested_before(plan.station.store_path, args.serial, plan.sequence.name)
             if seen:
                 out.line(seen)
+            on_server = ask_server(plan.station.name, args.serial, plan.sequence.name, out.line)
 
     def ask(text: str) -> bool:
         if args.yes:
@@ -747,6 +749,7 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
             on_sync=synced.append,
             claim=getattr(args, "claim", ""),
             remark=getattr(args, "remark", ""),
+            on_server=on_server,
         )
     except RunInterrupted as stopped:  # recorded and safe: said as any other run's end
         summary = stopped.summary

@@ -61,20 +61,23 @@ def run_plan(
     on_sync: Callable[[SyncReport], None] | None = None,
     claim: str = "",
     remark: str = "",
+    on_server: Callable[[ResultStore], None] | None = None,
 ) -> RunSummary:
     """Run ``plan`` for ``serial``; with ``resume``, continue that incomplete run instead.
 
     With its own store and a results server configured, runs waiting in the station's file are
     sent before the run and this one after it (``on_sync`` hears how each went); where the
     send before failed, the one after is not tried (``send_after_run``).  A run that Ctrl-C
-    ends is not sent: ``RunInterrupted`` goes on to the caller at once."""
+    ends is not sent: ``RunInterrupted`` goes on to the caller at once.  ``on_server`` reads the
+    server on the send before's connection, before the bench is opened (not where that send
+    failed: a run never waits on the network longer for it)."""
     refuse_unfiled(  # before anything is opened
         plan.station, serial, operator, continuing=resume is not None, claim=claim, remark=remark
     )
     warnings = check_calibration(plan.station, reads_probe=plan.reads_reference_probe)
     warnings += [w for w in (clock_warning(plan.station.store_path),) if w]
     own_store = store is None
-    before = send_waiting_runs(plan.station, on_sync) if own_store else None
+    before = send_waiting_runs(plan.station, on_sync, on_server) if own_store else None
     store = store or ResultStore(plan.station.store_path)
     try:
         bench = open_bench(plan.station)

@@ -715,6 +715,16 @@ class ResultStore:
         )
         return [str(r[0]) for r in rows]
 
+    def runs_of_unit(self, serial: str, sequence: str) -> list[Any]:
+        """(id, station, run_uid, started_at, status, verdict) of every run of ``sequence`` on
+        the unit ``serial``, oldest first: through the serial's index, quick enough to ask before
+        a run (``rig.tested_before``)."""
+        return self._rows(
+            "SELECT id, station, run_uid, started_at, status, verdict FROM runs"
+            " WHERE serial = ? AND sequence_name = ? ORDER BY started_at, id",
+            (serial, sequence),
+        )
+
     def newest_start(self) -> str | None:
         """The start of the newest run (ISO 8601, UTC): a station clock set back starts a run
         before it."""

@@ -197,10 +197,17 @@ def waiting_runs(station: Station) -> int:
         local.close()
 
 
-def sync_station(station: Station, *, upgrade_server: bool = False) -> SyncReport:
+def sync_station(
+    station: Station,
+    *,
+    upgrade_server: bool = False,
+    while_open: Callable[[ResultStore], None] | None = None,
+) -> SyncReport:
     """Send what the station's own store holds to its server; an unreachable server, or one on
     an older schema, is a report, not an error: the runs stay safe in the station's file until
-    the next try.  ``upgrade_server`` first brings an older server up to this rig's schema."""
+    the next try.  ``upgrade_server`` first brings an older server up to this rig's schema.
+    ``while_open`` reads the server on the same connection once everything is sent, so a reader
+    before a run costs no connection of its own; it is not called where sending stopped."""
     migrate = Migrate.ALWAYS if upgrade_server else Migrate.IF_EMPTY
     try:
         remote = open_server_store(station, migrate)
@@ -217,20 +224,25 @@ def sync_station(station: Station, *, upgrade_server: bool = False) -> SyncRepor
     try:
         local = open_local_store(station)
         try:
-            return replace(sync(local, remote), upgraded=upgraded)
+            report = replace(sync(local, remote), upgraded=upgraded)
         finally:
             local.close()
+        if while_open is not None and not report.problem:
+            while_open(remote)
+        return report
     finally:
         remote.close()
 
 
 def send_waiting_runs(
-    station: Station, on_sync: Callable[[SyncReport], None] | None
+    station: Station,
+    on_sync: Callable[[SyncReport], None] | None,
+    while_open: Callable[[ResultStore], None] | None = None,
 ) -> SyncReport | None:
     """The automatic send around a run: never stops the run; says what happened, and returns
-    it (None where the station has no server)."""
+    it (None where the station has no server).  ``while_open`` as ``sync_station``'s."""
     try:
-        report = sync_station(station)
+        report = sync_station(station, while_open=while_open)
     except StoreError as exc:  # the station's own file: worth saying, not worth a lost run
         report = SyncReport(0, 0, str(exc))
     if not report.configured:

@@ -166,7 +166,7 @@ def _run(
     from rig.plan import build_plan
     from rig.run_admission import operator_problem
     from rig.runner import run_plan
-    from rig.tested_before import tested_before
+    from rig.tested_before import ask_server, tested_before
 
     station = load_station(args.station)
     problem = (
@@ -188,6 +188,7 @@ def _run(
     if doc.problems:  # a value the step refuses (below absolute zero): named by its option
         raise ConfigError([_as_option(p) for p in doc.problems])
     plan = build_plan(sequence, station)
+    on_server = None
     if args.json:
         out.quiet = True
     else:
@@ -196,6 +197,7 @@ def _run(
         seen = tested_before(station.store_path, args.serial, plan.sequence.name)
         if seen:
             out.line(seen)
+        on_server = ask_server(station.name, args.serial, plan.sequence.name, out.line)
     summary = run_plan(
         plan,
         args.serial,
@@ -203,6 +205,7 @@ def _run(
         listener=out.on_event,
         claim=args.claim,
         remark=args.remark,
+        on_server=on_server,
     )
     result = next((r for r in summary.results if r.step_id == "harness"), None)
     findings = [] if result is None or not result.note else result.note.split("; ")
