@@ -13,8 +13,10 @@ from __future__ import annotations
 
 import argparse
 import re
+from collections.abc import Mapping
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 from rig.commands._store_args import OpenedStore
 from rig.store import ResultStore, StoreError
@@ -72,6 +74,23 @@ class FoundRun:
         if self.server_run is None:
             return {"id": self.station_run}
         return {"id": self.station_run, "server_id": self.server_run}
+
+
+def run_words(found: FoundRun, run: Mapping[str, Any]) -> str:
+    """The run as the user knows it: the station's own number where it has one, else (another
+    station's run read from the server) its station and the start of its record id, as
+    ``rig runs`` lists them; never the server's own number, which no one is given."""
+    if found.station_run is not None:
+        return f"run {found.station_run}"
+    return f"the run of station {run['station']}, record {str(run['run_uid'])[:12]}"
+
+
+def file_label(found: FoundRun, run: Mapping[str, Any]) -> str:
+    """What a file written of the run is named by: the station's own number where it is known
+    (however the run was asked for), else the first 8 digits of its record id."""
+    if found.station_run is not None:
+        return str(found.station_run)
+    return str(run["run_uid"])[:8]
 
 
 def find_run(opened: OpenedStore, ref: RunRef) -> FoundRun:

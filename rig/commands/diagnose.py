@@ -13,7 +13,7 @@ from pathlib import Path
 from typing import Any
 
 from rig.cli_output import Output
-from rig.commands._run_ref import FoundRun, find_run, run_ref
+from rig.commands._run_ref import FoundRun, find_run, run_ref, run_words
 from rig.commands._store_args import OpenedStore
 from rig.errors import ConfigError, Problem
 
@@ -86,15 +86,6 @@ def recorded_sequence(who: str, recorded: str, *, elsewhere: bool = False) -> Pa
     if missing:
         raise ConfigError([Problem("--sequence", "", missing)])
     return Path(recorded)
-
-
-def run_words(found: FoundRun, run: Mapping[str, Any]) -> str:
-    """The run as the user knows it: the station's own number where it has one, else (another
-    station's run read from the server) its station and the start of its record id, as
-    ``rig runs`` lists them; never the server's own number, which no one is given."""
-    if found.station_run is not None:
-        return f"run {found.station_run}"
-    return f"the run of station {run['station']}, record {str(run['run_uid'])[:12]}"
 
 
 def _open_run(args: argparse.Namespace, out: Output) -> tuple[OpenedStore, FoundRun] | None:

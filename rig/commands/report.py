@@ -7,7 +7,7 @@ import re
 from pathlib import Path
 
 from rig.cli_output import Output
-from rig.commands._run_ref import find_run, run_ref
+from rig.commands._run_ref import file_label, find_run, run_ref, run_words
 from rig.commands._store_args import (
     ArgumentProblem,
     add_store_args,
@@ -82,8 +82,8 @@ def cmd_report(args: argparse.Namespace, out: Output) -> int:
         opened.store.close()
     if found.note:
         out.error(f"note: {found.note}")
-    # files are named by the id the user knows: the station's own, or a record id's start
-    label = args.run.number if args.run.number is not None else str(args.run)[:8]
+    # files are named by the number the station knows the run by, or a record id's start
+    label = file_label(found, run)
     render = {"html": render_run, "csv": record_csv, "json": record_json}[args.format]
     text = render(record)
     if args.out is not None and str(args.out) == "-":
@@ -101,5 +101,5 @@ def cmd_report(args: argparse.Namespace, out: Output) -> int:
     except OSError as exc:
         out.error(f"rig: cannot write the report: {exc}")
         return EXIT_BAD_INPUT
-    out.line(f"report of run {label} ({run['serial']}) written to {target}")
+    out.line(f"report of {run_words(found, run)} ({run['serial']}) written to {target}")
     return EXIT_WRITTEN
