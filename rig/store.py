@@ -158,6 +158,16 @@ MIGRATIONS: list[str] = [
     ALTER TABLE steps ADD COLUMN model_params TEXT;
     CREATE INDEX runs_by_claim ON runs (claim);
     """,
+    # 6 -> 7: which station's file (its store_uid) sends under each station name to a shared
+    # server, so two benches given one name cannot overwrite each other's relay wear or mix
+    # their runs (rig.station_names); a station's own file holds the table empty
+    """
+    CREATE TABLE station_names (
+        station TEXT PRIMARY KEY,
+        store_uid TEXT NOT NULL,
+        claimed_at TEXT NOT NULL
+    );
+    """,
 ]
 
 SCHEMA_VERSION = len(MIGRATIONS)
@@ -413,6 +423,9 @@ class ResultStore:
     def store_uid(self) -> str:
         """This database's own key, made on first use: a server is the same server whichever
         address it was reached by."""
+        found = self._rows("SELECT store_uid FROM store_identity", ())
+        if found:  # read first: a station's role on a server may read this table, not write it
+            return str(found[0][0])
         with self._tx() as db:
             db.execute(
                 "INSERT INTO store_identity (id, store_uid) VALUES (1, ?)"

@@ -8,6 +8,10 @@ commit does the station note the run as sent, with a fingerprint of what it sent
 changes later (a resumed run, a settled flag) differs from its fingerprint and is sent again.
 Runs still ``running`` wait until they end.
 
+Each send also checks, in its own server transaction, that the station name it goes under
+belongs to this station's file on the server (``rig.station_names``): two benches given one name
+would otherwise overwrite each other's relay wear and mix their runs.
+
 A server on an older schema than this rig's is not upgraded by sending (stations still on the
 older rig write there too): the runs wait in the station's file, and say so, until someone asks
 for the upgrade (``rig sync --upgrade-server``).
@@ -23,6 +27,7 @@ from typing import Any
 
 from rig.config.station import Station
 from rig.station_clock import skew
+from rig.station_names import check_name, take_over
 from rig.store import FILL_READING_UIDS, Migrate, ResultStore, StoreError
 from rig.store_open import open_local_store, open_server_store
 
@@ -55,11 +60,15 @@ class SyncReport:
     """The server's schema upgrade this pass made (``--upgrade-server``), in words; empty: none."""
     clock: str = ""
     """Where the station's clock and the server's differ by more than a few minutes, that."""
+    took_over: str = ""
+    """The station name this pass took over on the server (``--take-over-name``), in words."""
 
     def describe(self) -> str:
         if not self.configured:
             return "no results server is configured; the station's own store is the record"
         text = f"{self.sent} run(s) sent to the results server"
+        if self.took_over:
+            text = f"{self.took_over}; {text}"
         if self.upgraded:
             text = f"{self.upgraded}; {text}"
         if self.problem and not self.waiting:  # nothing lost now, but the next runs will wait
@@ -118,13 +127,15 @@ def _send_children(
     remote._db.executemany(upsert_sql(table, columns, key, returning=False), values)
 
 
-def send_run(local: ResultStore, remote: ResultStore, run_id: int) -> None:
-    """One run with its steps and readings, in one server transaction, keyed for idempotence."""
+def send_run(local: ResultStore, remote: ResultStore, run_id: int, store_uid: str) -> None:
+    """One run with its steps and readings, in one server transaction, keyed for idempotence;
+    refused (``NameTaken``) where another station's file sends under the run's station name."""
     run = _rows(local, "SELECT * FROM runs WHERE id=?", (run_id,))[0]
     steps = _rows(local, "SELECT * FROM steps WHERE run_id=? ORDER BY id", (run_id,))
     readings = _rows(local, "SELECT * FROM readings WHERE run_id=? ORDER BY id", (run_id,))
     columns = [c for c in run if c != "id"]
     with remote._tx() as db:
+        check_name(db, str(run["station"]), store_uid, remote.where)
         server_run = int(
             db.execute(
                 upsert_sql("runs", columns, ("run_uid",), returning=True),
@@ -135,12 +146,15 @@ def send_run(local: ResultStore, remote: ResultStore, run_id: int) -> None:
         _send_children(remote, "readings", readings, server_run, ("reading_uid",))
 
 
-def send_relay_wear(local: ResultStore, remote: ResultStore) -> None:
-    """The station's lifetime relay counts, as absolute values: sending twice is harmless."""
+def send_relay_wear(local: ResultStore, remote: ResultStore, store_uid: str) -> None:
+    """The station's lifetime relay counts, as absolute values: sending twice is harmless, and
+    only under station names this station's file holds on the server."""
     rows = _rows(local, "SELECT station, relay, operations FROM relay_wear", ())
     if not rows:
         return
-    with remote._tx():
+    with remote._tx() as db:
+        for name in sorted({str(r["station"]) for r in rows}):
+            check_name(db, name, store_uid, remote.where)
         remote._db.executemany(
             upsert_sql(
                 "relay_wear", ["station", "relay", "operations"], ("station", "relay"), False
@@ -159,11 +173,21 @@ def _mark_sent(local: ResultStore, target: str, run_uid: str, fingerprint: str) 
         )  # fmt: skip
 
 
-def sync(local: ResultStore, remote: ResultStore) -> SyncReport:
+def sync(local: ResultStore, remote: ResultStore, take_over_name: str | None = None) -> SyncReport:
     """Send every finished run the server does not have as it is now; stop at the first failure
-    (the server is most likely gone) and say why."""
+    (the server is most likely gone, or the run's station name is another file's) and say why.
+    ``take_over_name``: first give that station name to this station's file on the server."""
+    ours = local.store_uid()
+    took_over = ""
     try:
         target = remote.store_uid()
+        if take_over_name is not None:
+            before = take_over(remote, take_over_name, ours)
+            took_over = (
+                f"the station name {take_over_name!r} taken over on the results server "
+                + (f"from the station file whose store id starts {before[:8]}" if before else
+                   "(no other station's file held it)")
+            )  # fmt: skip
     except StoreError as exc:
         return SyncReport(0, len(pending_runs(local, None)), str(exc))
     try:
@@ -178,13 +202,13 @@ def sync(local: ResultStore, remote: ResultStore) -> SyncReport:
     try:
         for run_id, fingerprint in pending:
             run_uid = str(local.run(run_id)["run_uid"])
-            send_run(local, remote, run_id)
+            send_run(local, remote, run_id, ours)
             _mark_sent(local, target, run_uid, fingerprint)
             sent += 1
-        send_relay_wear(local, remote)
+        send_relay_wear(local, remote, ours)
     except StoreError as exc:
-        return SyncReport(sent, len(pending) - sent, str(exc), clock=clock)
-    return SyncReport(sent, 0, clock=clock)
+        return SyncReport(sent, len(pending) - sent, str(exc), clock=clock, took_over=took_over)
+    return SyncReport(sent, 0, clock=clock, took_over=took_over)
 
 
 def waiting_runs(station: Station) -> int:
@@ -201,13 +225,17 @@ def sync_station(
     station: Station,
     *,
     upgrade_server: bool = False,
+    take_over_name: bool = False,
     while_open: Callable[[ResultStore], None] | None = None,
 ) -> SyncReport:
-    """Send what the station's own store holds to its server; an unreachable server, or one on
-    an older schema, is a report, not an error: the runs stay safe in the station's file until
-    the next try.  ``upgrade_server`` first brings an older server up to this rig's schema.
-    ``while_open`` reads the server on the same connection once everything is sent, so a reader
-    before a run costs no connection of its own; it is not called where sending stopped."""
+    """Send what the station's own store holds to its server; an unreachable server, one on an
+    older schema, or a station name another station's file sends under, is a report, not an
+    error: the runs stay safe in the station's file until the next try.  ``upgrade_server``
+    first brings an older server up to this rig's schema; ``take_over_name`` first gives the
+    station's name on the server to this station's file (one that replaced the file that held
+    it).  ``while_open`` reads the server on the same connection once everything is sent, so a
+    reader before a run costs no connection of its own; it is not called where sending
+    stopped."""
     migrate = Migrate.ALWAYS if upgrade_server else Migrate.IF_EMPTY
     try:
         remote = open_server_store(station, migrate)
@@ -224,7 +252,8 @@ def sync_station(
     try:
         local = open_local_store(station)
         try:
-            report = replace(sync(local, remote), upgraded=upgraded)
+            name = station.name if take_over_name else None
+            report = replace(sync(local, remote, name), upgraded=upgraded)
         finally:
             local.close()
         if while_open is not None and not report.problem:

@@ -71,6 +71,14 @@ def with_server_section(station: Station, cluster: Cluster, dbname: str) -> Path
     return station.path
 
 
+def give_own_name(station: Station, name: str) -> None:
+    """The station file with its own station name: benches sending to one server each need one."""
+    text = station.path.read_text(encoding="utf-8")
+    renamed = text.replace(f'name = "{station.name}"', f'name = "{name}"', 1)
+    assert renamed != text
+    station.path.write_text(renamed, encoding="utf-8")
+
+
 def passfile(tmp_path: Path, cluster: Cluster) -> Path:
     # source: PostgreSQL manual, libpq "The Password File" (format, and mode 0600 or it is ignored)
     path = tmp_path / "pgpass"
@@ -131,6 +139,7 @@ def test_four_stations_at_once_land_every_run_once(
         stations = [s0, s1, s2, s3]
         envs = []
         for i, station in enumerate(stations):
+            give_own_name(station, f"bench-{i}")  # one name per bench (rig.station_names)
             env = clean_env(tmp_path)
             if i < 2:  # two name the server in the station file, the password in ~/.pgpass
                 with_server_section(station, pg_cluster, dbname)

@@ -171,13 +171,15 @@ def test_runs_wait_for_the_server_s_upgrade_and_go_over_once_after(
     assert [r[0] for r in rows] == ["SN-OLD", "NEW-1"]  # the fleet's run kept, the new one once
 
 
-def test_upgrade_server_without_a_server_is_bad_input(
-    tmp_path: Path, monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str]
+@pytest.mark.parametrize("option", ["--upgrade-server", "--take-over-name"])
+def test_a_server_option_without_a_server_is_bad_input(
+    tmp_path: Path, option: str, monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str]
 ) -> None:
     monkeypatch.delenv("RIG_DATABASE_URL", raising=False)
     with shipped_bench("temp-circuit", folder=tmp_path) as (_, station):
-        assert main(["sync", "--station", str(station.path), "--upgrade-server"]) == 2
-        assert "names no results server" in capsys.readouterr().err
+        assert main(["sync", "--station", str(station.path), option]) == 2
+        err = capsys.readouterr().err
+        assert f"{option}: " in err and "names no results server" in err
 
 
 @pytest.mark.postgres

@@ -24,6 +24,13 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
         "that writes there runs this rig version (or all in one maintenance window): a station "
         "still on the older rig can no longer send to the upgraded server",
     )
+    sync.add_argument(
+        "--take-over-name",
+        action="store_true",
+        help="first give this station's name on the results server to this station's file: only "
+        "for a file that replaced the one that sent under the name (a new disk), never for a "
+        "second bench, whose runs would then mix with the first's",
+    )
     sync.set_defaults(func=cmd_sync)
 
 
@@ -33,13 +40,19 @@ def cmd_sync(args: argparse.Namespace, out: Output) -> int:
     from rig.config.station import load_station
     from rig.store_sync import sync_station
 
-    report = sync_station(load_station(args.station), upgrade_server=args.upgrade_server)
-    if args.upgrade_server and not report.configured:
-        out.error(
-            f"rig: --upgrade-server: {args.station} names no results server (set [store] "
-            'database = "postgresql" or RIG_DATABASE_URL)'
-        )
-        return EXIT_BAD_INPUT
+    report = sync_station(
+        load_station(args.station),
+        upgrade_server=args.upgrade_server,
+        take_over_name=args.take_over_name,
+    )
+    for option, given in (("--upgrade-server", args.upgrade_server),
+                          ("--take-over-name", args.take_over_name)):  # fmt: skip
+        if given and not report.configured:
+            out.error(
+                f"rig: {option}: {args.station} names no results server (set [store] "
+                'database = "postgresql" or RIG_DATABASE_URL)'
+            )
+            return EXIT_BAD_INPUT
     if args.json:
         out.json(
             {
@@ -48,6 +61,7 @@ def cmd_sync(args: argparse.Namespace, out: Output) -> int:
                 "waiting": report.waiting,
                 "problem": report.problem or None,
                 "upgraded": report.upgraded or None,
+                "took_over": report.took_over or None,
             }
         )
     elif report.problem:

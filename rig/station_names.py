@@ -1,0 +1,68 @@
+"""Which station's file sends under each station name to a shared results server.
+
+The fleet's statistics, relay wear and reports group by station name.  Two benches given one
+name would, on the server, overwrite each other's relay wear (each sends its absolute counts) and
+mix their runs, with no one told.  So the first store (its ``store_uid``) to send under a name
+claims it (table ``station_names``, schema 7), and a send from another store under that name is
+refused, in the same server transaction as the send: its runs wait in its own file.  A station
+whose file was replaced (a new disk, so a new ``store_uid``) takes its name over only when asked
+(``rig sync --take-over-name``).
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+
+from rig.store import Connection, ResultStore, StoreError
+
+TAKE_OVER_COMMAND = "rig sync --station STATION --take-over-name"
+
+
+class NameTaken(StoreError):
+    """Another station's file already sends under this station name to the server."""
+
+    def __init__(self, name: str, owner: str, ours: str, where: str) -> None:
+        super().__init__(
+            f"the station name {name!r} is already sent under by another station's file on the "
+            f"results server {where} (that file's store id starts {owner[:8]}, this station's "
+            f"{ours[:8]}); sending would mix the two benches' runs and overwrite their relay "
+            "wear, so this station's runs wait in its own file: give this station its own name "
+            "in its station file (only where this station's file was replaced, as after a new "
+            f"disk, take the name over with `{TAKE_OVER_COMMAND}`)"
+        )
+        self.name = name
+        self.owner = owner
+
+
+def _now() -> str:
+    return dt.datetime.now(dt.UTC).isoformat(timespec="milliseconds")
+
+
+def check_name(db: Connection, name: str, store_uid: str, where: str) -> None:
+    """Inside a send's transaction: claim ``name`` for the store ``store_uid`` where no one has;
+    ``NameTaken`` where another store has (the transaction then sends nothing)."""
+    db.execute(
+        "INSERT INTO station_names (station, store_uid, claimed_at) VALUES (?, ?, ?)"
+        " ON CONFLICT (station) DO NOTHING",
+        (name, store_uid, _now()),
+    )
+    owner = str(
+        db.execute("SELECT store_uid FROM station_names WHERE station=?", (name,)).fetchone()[0]
+    )
+    if owner != store_uid:
+        raise NameTaken(name, owner, store_uid, where)
+
+
+def take_over(remote: ResultStore, name: str, store_uid: str) -> str | None:
+    """Give ``name`` to the store ``store_uid`` on the server, whoever held it; returns the store
+    id that held it before (None: no one, or this store already)."""
+    with remote._tx() as db:
+        row = db.execute("SELECT store_uid FROM station_names WHERE station=?", (name,)).fetchone()
+        db.execute(
+            "INSERT INTO station_names (station, store_uid, claimed_at) VALUES (?, ?, ?)"
+            " ON CONFLICT (station) DO UPDATE SET store_uid = excluded.store_uid,"
+            " claimed_at = excluded.claimed_at",
+            (name, store_uid, _now()),
+        )
+    before = None if row is None else str(row[0])
+    return None if before == store_uid else before

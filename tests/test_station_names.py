@@ -1,0 +1,139 @@
+"""Two stations' files sending under one station name to one server: the second is refused, its
+runs wait in its own file, and the first's relay wear and runs on the server are left as they
+were; a replaced file takes its name over only when asked (``rig sync --take-over-name``).  Real
+SQLite files, the suite's real PostgreSQL server; every check reads the server directly."""
+
+from __future__ import annotations
+
+import json
+from collections.abc import Iterator
+from contextlib import ExitStack
+from pathlib import Path
+
+import psycopg
+import pytest
+from bench_helpers import shipped_bench
+
+from rig.cli import main
+from rig.config.station import Station
+from rig.store import ResultStore, RunHeader
+from rig.store_postgres import open_postgres
+from rig.store_sync import pending_runs, sync
+
+
+def station_file(folder: Path, name: str, serial: str, relays: dict[int, int]) -> ResultStore:
+    """A station's own file (real SQLite) holding one finished run under ``name``, whose relay
+    operations are the station's lifetime counts."""
+    store = ResultStore(folder / "results.sqlite")
+    add_run(store, name, serial, relays)
+    return store
+
+
+def add_run(store: ResultStore, name: str, serial: str, relays: dict[int, int]) -> None:
+    header = RunHeader(serial, "sender-check", "h", "/p", name, "op")
+    run_id = store.start_run(header)
+    store.finish_run(run_id, status="complete", verdict="pass", relay_operations=relays)
+
+
+def server_wear(url: str, name: str) -> dict[int, int]:
+    with psycopg.connect(url) as conn:
+        rows = conn.execute(
+            "SELECT relay, operations FROM relay_wear WHERE station = %s", (name,)
+        ).fetchall()
+    return {int(r[0]): int(r[1]) for r in rows}
+
+
+def server_serials(url: str, name: str) -> list[str]:
+    with psycopg.connect(url) as conn:
+        rows = conn.execute(
+            "SELECT serial FROM runs WHERE station = %s ORDER BY serial", (name,)
+        ).fetchall()
+    return [str(r[0]) for r in rows]
+
+
+@pytest.mark.postgres
+def test_a_second_file_under_a_claimed_name_is_refused_and_a_replaced_file_takes_it_over(
+    tmp_path: Path, pg_database: str
+) -> None:
+    with ExitStack() as stack:
+        remote = open_postgres(pg_database)
+        stack.callback(remote.close)
+
+        def station(folder: str, name: str, serial: str, relays: dict[int, int]) -> ResultStore:
+            store = station_file(tmp_path / folder, name, serial, relays)
+            stack.callback(store.close)
+            return store
+
+        first = station("b1", "qa-b1", "SN-1", {1: 20, 2: 8})
+        assert sync(first, remote).sent == 1
+        assert server_wear(pg_database, "qa-b1") == {1: 20, 2: 8}
+
+        second = station("dup", "qa-b1", "SN-DUP", {1: 2})
+        refused = sync(second, remote)
+        assert (refused.sent, refused.waiting) == (0, 1)
+        problem = refused.problem
+        assert "'qa-b1'" in problem and "another station's file" in problem
+        assert first.store_uid()[:8] in problem and second.store_uid()[:8] in problem
+        assert "give this station its own name in its station file" in problem
+        assert "--take-over-name" in problem
+        # the first bench's wear and runs as they were; the second's run waits in its file
+        assert server_wear(pg_database, "qa-b1") == {1: 20, 2: 8}
+        assert server_serials(pg_database, "qa-b1") == ["SN-1"]
+        assert len(pending_runs(second, remote.store_uid())) == 1
+        add_run(first, "qa-b1", "SN-2", {1: 1})  # the owner goes on sending as before
+        assert sync(first, remote).sent == 1
+        assert server_wear(pg_database, "qa-b1") == {1: 21, 2: 8}
+
+        fresh = sync(station("b3", "qa-b3", "SN-3", {4: 5}), remote)
+        assert (fresh.sent, fresh.waiting, fresh.problem) == (1, 0, "")
+        assert server_wear(pg_database, "qa-b3") == {4: 5}
+
+        replaced = station("new-disk", "qa-b1", "SN-4", {1: 3})
+        taken = sync(replaced, remote, take_over_name="qa-b1")
+        assert (taken.sent, taken.waiting, taken.problem) == (1, 0, "")
+        assert first.store_uid()[:8] in taken.took_over
+        assert server_wear(pg_database, "qa-b1") == {1: 3, 2: 8}  # the new file's counts
+        assert server_serials(pg_database, "qa-b1") == ["SN-1", "SN-2", "SN-4"]
+        add_run(first, "qa-b1", "SN-5", {1: 1})
+        assert sync(first, remote).problem  # the old file no longer holds the name
+        assert server_serials(pg_database, "qa-b1") == ["SN-1", "SN-2", "SN-4"]
+
+
+@pytest.fixture
+def bench_station(
+    tmp_path: Path, pg_database: str, monkeypatch: pytest.MonkeyPatch
+) -> Iterator[Station]:
+    monkeypatch.setenv("RIG_DATABASE_URL", pg_database)
+    with shipped_bench("temp-circuit", folder=tmp_path) as (_, station):
+        yield station
+
+
+@pytest.mark.postgres
+def test_rig_sync_exits_3_on_a_claimed_name_and_takes_it_over_when_asked(
+    tmp_path: Path, pg_database: str, bench_station: Station, capsys: pytest.CaptureFixture[str]
+) -> None:
+    name = bench_station.name
+    other = station_file(tmp_path / "other", name, "SN-OTHER", {1: 28})
+    remote = open_postgres(pg_database)
+    try:
+        assert sync(other, remote).sent == 1
+    finally:
+        remote.close()
+        other.close()
+    bench_station.store_path.parent.mkdir(parents=True, exist_ok=True)
+    own = station_file(bench_station.store_path.parent, name, "SN-OWN", {1: 2})
+    own.close()
+
+    args = ["sync", "--station", str(bench_station.path)]
+    assert main(args) == 3  # as for a server it cannot use
+    err = capsys.readouterr().err
+    assert "1 waiting" in err and "give this station its own name" in err
+    assert "Traceback" not in err
+    assert server_wear(pg_database, name) == {1: 28}
+
+    assert main([*args, "--take-over-name", "--json"]) == 0
+    summary = json.loads(capsys.readouterr().out)
+    assert summary["sent"] == 1 and summary["waiting"] == 0 and summary["problem"] is None
+    assert "taken over" in summary["took_over"]
+    assert server_wear(pg_database, name) == {1: 2}
+    assert server_serials(pg_database, name) == ["SN-OTHER", "SN-OWN"]
