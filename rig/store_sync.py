@@ -45,6 +45,12 @@ WHERE r.status <> 'running'
 ORDER BY r.id
 """
 
+# after PostgreSQL's own words for a row its row-level security refused (docs/postgresql.md)
+ROW_SECURITY_HINT = (
+    "; the server lets this station's role write only under the station names its owner gave "
+    "that role (table station_roles; docs/postgresql.md, Setting up the server)"
+)
+
 
 @dataclass(frozen=True)
 class SyncReport:
@@ -207,7 +213,8 @@ def sync(local: ResultStore, remote: ResultStore, take_over_name: str | None = N
             sent += 1
         send_relay_wear(local, remote, ours)
     except StoreError as exc:
-        return SyncReport(sent, len(pending) - sent, str(exc), clock=clock, took_over=took_over)
+        problem = str(exc) + (ROW_SECURITY_HINT if "row-level security" in str(exc) else "")
+        return SyncReport(sent, len(pending) - sent, problem, clock=clock, took_over=took_over)
     return SyncReport(sent, 0, clock=clock, took_over=took_over)
 
 
