@@ -47,6 +47,7 @@ from rig.events import (
     StepStarted,
 )
 from rig.instrument_faults import SupplyWentOff, is_transient, plain_reason
+from rig.judge.accuracy import AccuracySpec
 from rig.judge.decision import (
     COVERAGE_K,
     Verdict,
@@ -65,6 +66,7 @@ from rig.step_judging import (
     failed_input,
     judge_outcome,
     lead_zero_ohm,
+    meter_accuracy,
     meter_ranges,
     no_uncertainty_note,
     reading_u,
@@ -1252,6 +1254,9 @@ class Engine:
 
     def meter_ranges(self, function: MeterFunction) -> list[float]:
         return meter_ranges(self.plan.station, function)
+
+    def meter_accuracy(self, function: MeterFunction, range_: float | None) -> AccuracySpec | None:
+        return meter_accuracy(self.plan.station, function, range_)
 
     def wait(self, seconds: float) -> None:
         self._writes.flush()

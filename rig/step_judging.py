@@ -10,6 +10,7 @@ from collections.abc import Mapping
 from drivers.base import MeterFunction
 from rig.config.station import FUNCTIONS, Station
 from rig.events import StepResult
+from rig.judge.accuracy import AccuracySpec
 from rig.judge.decision import (
     COVERAGE_K,
     DecisionRule,
@@ -163,6 +164,18 @@ def meter_ranges(station: Station, function: MeterFunction) -> list[float]:
         return []
 
 
+def meter_accuracy(
+    station: Station, function: MeterFunction, range_: float | None
+) -> AccuracySpec | None:
+    """The station's accuracy spec for ``function`` on ``range_`` (None: not listed)."""
+    if range_ is None:
+        return None
+    try:
+        return station.dmm_accuracy.spec_for(function.value, range_)
+    except ValueError:
+        return None
+
+
 def lead_zero_ohm(station: Station, hi: str, lo: str) -> float:
     """The station's stored fixture lead resistance for a pin pair, either way round (0: none)."""
     zeros = station.lead_zero_ohm
@@ -173,10 +186,7 @@ def reading_u(
     station: Station, function: MeterFunction, value: float, range_: float | None
 ) -> float:
     """Standard uncertainty of one reading from the station's accuracy table (GUM 4.3.7)."""
-    if not math.isfinite(value) or range_ is None:
-        return math.nan
-    try:
-        spec = station.dmm_accuracy.spec_for(function.value, range_)
-    except ValueError:
+    spec = meter_accuracy(station, function, range_)
+    if not math.isfinite(value) or spec is None or range_ is None:
         return math.nan
     return float(spec.standard_uncertainty(value, range_))

@@ -92,6 +92,9 @@ class RecordingContext:
     def lead_zero(self, hi: str, lo: str) -> float:
         return 0.0
 
+    def meter_accuracy(self, function: MeterFunction, range_: float | None) -> None:
+        return None
+
     @property
     def fixture(self) -> FixtureMap:
         return self.plan.station.fixture

@@ -19,6 +19,7 @@ from rig.config.fixture import FixtureMap
 from rig.config.unit_file import UnitModel
 from rig.errors import ConfigError, Problem, RigError
 from rig.faults import Fault
+from rig.judge.accuracy import AccuracySpec
 from rig.judge.decision import Verdict
 from rig.judge.reference_probe import ReferenceProbe
 from rig.plan import Plan
@@ -27,6 +28,7 @@ from rig.step_judging import (
     autorange_estimate,
     judge_outcome,
     lead_zero_ohm,
+    meter_accuracy,
     meter_ranges,
     reading_u,
     supply_current_u,
@@ -130,6 +132,9 @@ class _SolverContext(ConnectThenMeasure):
 
     def meter_ranges(self, function: MeterFunction) -> list[float]:
         return meter_ranges(self.plan.station, function)
+
+    def meter_accuracy(self, function: MeterFunction, range_: float | None) -> AccuracySpec | None:
+        return meter_accuracy(self.plan.station, function, range_)
 
     def _keep(
         self, role: str, value: float, u: float, range_: float | None, condition: Condition

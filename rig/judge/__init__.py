@@ -29,6 +29,7 @@ from rig.judge.propagate import (
     combine,
     expanded,
     u_difference,
+    u_difference_one_range,
     u_quotient,
     u_temperature_from_resistance,
 )
@@ -53,6 +54,7 @@ __all__ = [
     "test_uncertainty_ratio",
     "tur_is_low",
     "u_difference",
+    "u_difference_one_range",
     "u_quotient",
     "u_temperature_from_resistance",
     "worst",

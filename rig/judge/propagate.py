@@ -12,6 +12,7 @@ from collections.abc import Sequence
 
 import numpy as np
 
+from rig.judge.accuracy import SQRT3, AccuracySpec
 from rig.models._common import ModelInputError, require_finite
 from rig.models.ntc import NtcModel
 
@@ -73,8 +74,8 @@ def combine(
 def u_difference(u_a: float, u_b: float, correlation: float = 0.0) -> float:
     """u of a - b: sqrt(u_a^2 + u_b^2 - 2 r u_a u_b).
 
-    Use r near 1 for two readings on the same range of the same meter (a voltage drop read as
-    the difference of two node voltages), 0 for independent meters.
+    0 for independent meters; for two readings on one range of one meter (a voltage drop read
+    as the difference of two node voltages) ``u_difference_one_range`` finds r from the spec.
     """
     r = _correlation_coefficient(correlation)
     return combine(
@@ -82,6 +83,31 @@ def u_difference(u_a: float, u_b: float, correlation: float = 0.0) -> float:
         [_uncertainty(u_a, "u_a"), _uncertainty(u_b, "u_b")],
         [[1.0, r], [r, 1.0]],
     )
+
+
+def u_difference_one_range(a: float, b: float, spec: AccuracySpec, range_: float) -> float:
+    """u of a - b for two readings taken on one range of one meter with accuracy ``spec``.
+
+    Each reading x is taken as x (1 + g) + o_x: g the meter's gain error (the %-of-reading
+    part, u(g) = p / (100 sqrt 3)), o_x its %-of-range part (u(o) = q R / (100 sqrt 3), GUM
+    4.3.7).  The gain is one error common to both readings, so the two are correlated, with
+    r(a, b) = u(g)^2 a b / (u(a) u(b)) where u(x)^2 = (u(g) x)^2 + u(o)^2 (GUM 5.2.2; the
+    covariance of two estimates that share an input, GUM F.1.2.3).  The gain part then
+    contributes p % of |a - b| only.  The %-of-range part is taken as independent between the
+    readings: a data sheet's range term holds noise, linearity and offset drift between
+    readings as well as a fixed offset, and only the fixed offset would cancel.  That is
+    conservative: were the whole range term a fixed offset, u would be u(g) |a - b| alone.
+    """
+    a = require_finite(a, "a")
+    b = require_finite(b, "b")
+    range_ = require_finite(range_, "range_")
+    if range_ <= 0.0:
+        raise ModelInputError(f"range_ = {range_!r}: expected a range above 0")
+    u_gain = spec.pct_reading / 100.0 / SQRT3
+    u_offset = spec.pct_range / 100.0 * range_ / SQRT3
+    u_a, u_b = math.hypot(u_gain * a, u_offset), math.hypot(u_gain * b, u_offset)
+    r = u_gain**2 * a * b / (u_a * u_b) if u_a * u_b > 0.0 else 0.0
+    return combine([1.0, -1.0], [u_a, u_b], [[1.0, r], [r, 1.0]])
 
 
 def u_quotient(v: float, i: float, u_v: float, u_i: float, correlation: float = 0.0) -> float:

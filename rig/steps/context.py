@@ -7,6 +7,7 @@ from typing import Protocol
 
 from drivers.base import MeterFunction
 from rig.config.fixture import FixtureMap
+from rig.judge.accuracy import AccuracySpec
 from rig.judge.reference_probe import ReferenceProbe
 from rig.routing import Route
 from rig.steps.base import Reading, SupplyRequest
@@ -65,6 +66,10 @@ class StepContext(Protocol):
         """The ranges the station's accuracy table lists for ``function``, smallest first
         (empty where it lists none): a step that must pick a range for a value it has only
         estimated picks from these."""
+
+    def meter_accuracy(self, function: MeterFunction, range_: float | None) -> AccuracySpec | None:
+        """The station's accuracy spec for ``function`` on ``range_`` (None: not listed): a step
+        that combines readings on one range needs its parts, not only each reading's u."""
 
     @property
     def fixture(self) -> FixtureMap:

@@ -6,10 +6,10 @@ import math
 
 from drivers.base import MeterFunction
 from rig.config.reader import Section
-from rig.judge.propagate import u_difference
+from rig.judge.propagate import u_difference_one_range
 from rig.quantity import format_quantity
 from rig.routing import Route
-from rig.steps.base import Outcome, StepKind, StepSpec
+from rig.steps.base import Outcome, Reading, StepKind, StepSpec
 from rig.steps.context import StepContext
 from rig.steps.limits import read_limits
 from rig.steps.pins import read_pins, read_supply
@@ -104,12 +104,7 @@ class WireDrop(StepKind):
             to_route, fn, role="to-reference", range_=at_from.range_, nplc=spec.nplc
         )
         computed = at_from.value - at_to.value
-        readings_ok = all(math.isfinite(r.u_std) for r in (at_from, at_to))
-        # same meter, same range: the gain error is common to both (GUM 5.2); correlation 1 is
-        # too optimistic when the range part dominates, so 0.5 is assumed.
-        u_computed = (
-            u_difference(at_from.u_std, at_to.u_std, correlation=0.5) if readings_ok else math.nan
-        )
+        u_computed = _u_computed_drop(ctx, at_from, at_to)
         return Outcome(
             direct.value,
             self.unit,
@@ -119,6 +114,17 @@ class WireDrop(StepKind):
             note=drop_disagreement(direct.value, direct.u_std, computed, u_computed),
             extras={"computed_drop_v": computed, "computed_drop_u_v": u_computed},
         )
+
+
+def _u_computed_drop(ctx: StepContext, at_from: Reading, at_to: Reading) -> float:
+    """u of the drop computed from the two reference readings, both on one range of one meter:
+    their common gain error cancels but for p % of the drop, their range parts are taken as
+    independent (``u_difference_one_range``).  NaN where either reading has no u."""
+    spec = ctx.meter_accuracy(MeterFunction.DC_VOLTS, at_from.range_)
+    readings_ok = all(math.isfinite(r.u_std) for r in (at_from, at_to))
+    if spec is None or at_from.range_ is None or not readings_ok:
+        return math.nan
+    return u_difference_one_range(at_from.value, at_to.value, spec, at_from.range_)
 
 
 def drop_disagreement(direct: float, u_direct: float, computed: float, u_computed: float) -> str:
