@@ -111,6 +111,27 @@ def test_captured_row_moves_to_todays_ambient_with_the_copper_coefficient() -> N
     assert math.isclose(copper_factor(20.0, 30.0) * copper_factor(30.0, 20.0), 1.0)
 
 
+def test_a_captured_row_s_limit_adds_one_contact_for_the_spread_of_its_two() -> None:
+    # A capture reads each path between fixture pins, so 0.050 ohm at 20 degC already holds the
+    # two contacts of the harness captured.  At 30 degC the row may read its value moved with
+    # copper's coefficient (alpha20 = 0.00393 /K, SOURCES.md, from memory), plus the 10 %
+    # captured tolerance, plus one 5 mohm contact: another harness's two contacts may read 5 mohm
+    # each where the captured ones read about half that.  By hand:
+    # 0.050 x (1 + 0.00393 x 10) x 1.10 + 0.005 = 0.062162 ohm.  A drawing row on the same
+    # path brings its own two contacts (2 x 5 mohm); a path of two captured rows, one each.
+    captured = WireRow(
+        2, "C1", End("J1", "1"), End("J2", "1"), measured_ohm=0.050, measured_at_c=20.0
+    )
+    allowances = Allowances(contact_ohm=0.005, captured_pct=10.0)
+    alone = path_limit([captured], 30.0, allowances)
+    assert alone.max_ohm == pytest.approx(0.062162, abs=1e-6)
+    drawn = _row("18 AWG", 2.0)
+    both = path_limit([captured, drawn], 30.0, allowances)
+    assert both.allowance_ohm == pytest.approx(alone.allowance_ohm + 2 * 0.005)
+    twice = path_limit([captured, captured], 30.0, allowances)
+    assert twice.allowance_ohm == pytest.approx(2 * alone.allowance_ohm)
+
+
 @pytest.mark.parametrize("at_c", [0.0, -5.0, 0.001])
 def test_a_captured_row_measured_at_or_below_freezing_is_moved_from_its_own_temperature(
     at_c: float,

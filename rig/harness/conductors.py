@@ -81,8 +81,11 @@ def path_limit(
     """The most a path of rows may read end to end at ``temp_c``.
 
     A drawing row brings its two contacts (one per fixture end); a splice end brings the splice
-    allowance once per splice passed; a captured row already contains its contacts and gets its
-    tolerance instead.
+    allowance once per splice passed.  A captured row was read between fixture pins
+    (``rig.harness.capture``), so its value already holds the two contacts of the harness it was
+    captured from; it gets its tolerance (the spread of the copper) and one contact allowance:
+    a later harness's two contacts may each read up to the allowance, where the captured ones
+    read, typically, half of it each, so together they may read one allowance more.
     """
     conductor = conductor_max = 0.0
     allowance = 0.0 if four_wire else allowances.two_wire_ohm
