@@ -282,6 +282,8 @@ def build_plan(sequence: Sequence, station: Station) -> Plan:
             )
         elif beyond is not None:
             warnings.append(f"step {spec.id}: {beyond[0]} (no U, no TUR); {beyond[1]}")
+        for warning in kind.check_warnings(spec, by_id.get, station.reference_probe):
+            warnings.append(f"step {spec.id}: {warning}")
         planned[spec.id] = PlannedStep(spec, relay_sets, held)
     if problems:
         raise ConfigError(problems)

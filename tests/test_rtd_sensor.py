@@ -364,3 +364,69 @@ def test_a_class_written_in_lower_case_is_refused_with_the_spelling_meant(tmp_pa
         load_sequence(sequence)
     [problem] = caught.value.problems
     assert str(problem).endswith("expected one of 'AA', 'A', 'B', found 'b'; did you mean 'B'?")
+
+
+# The temperatures IEC 60751:2008 (Table 1) gives each tolerance class for (from memory, not
+# confirmed in the document): wire-wound AA -50..+250, A -100..+450, B -196..+600 degC; film
+# AA 0..+150, A -30..+300, B -50..+500 degC.  rig knows no element's construction, so it holds
+# the wider (wire-wound) span against the class and says the film one is narrower.
+AA_WIRE_WOUND, AA_FILM = "-50 to 250 degC", "0 to 150 degC"
+
+
+def _probe_class_aa(station: Path) -> None:
+    text = station.read_text(encoding="utf-8")
+    station.write_text(text.replace('tolerance_class = "A"', 'tolerance_class = "AA"'), "utf-8")
+
+
+def test_check_warns_of_a_class_applied_outside_its_span(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    """Class AA at a stated 400 degC, and the station's class AA probe in a well whose limits
+    reach -60 degC: both outside what IEC 60751 gives class AA for; warned, not refused.  Class B
+    at 400 degC is within its span: nothing said of it."""
+    unit_path, sequence = _files(tmp_path, 'tolerance_class = "AA"')
+    text = sequence.read_text().replace('temperature_from = "well"', 'temperature = "400 degC"')
+    sequence.write_text(text.replace('low = "10 degC"', 'low = "-60 degC"'), encoding="utf-8")
+    unit = load_unit(unit_path)
+    with VirtualBench(unit, load_fixture(unit.fixture_path)) as bench:
+        station = bench.write_station(tmp_path / "station.toml", data_dir=str(tmp_path / "data"))
+        _probe_class_aa(station)
+        check = ["check", str(sequence), "--station", str(station)]
+        assert main(check) == 0
+        out = capsys.readouterr().out.splitlines()
+        warned = [line for line in out if line.startswith("warning:") and "class AA" in line]
+        sequence.write_text(text.replace('"AA"', '"B"'), encoding="utf-8")
+        station.write_text(station.read_text().replace('"AA"', '"A"'), encoding="utf-8")
+        assert main(check) == 0
+        assert "is judged at" not in capsys.readouterr().out
+    element = next(line for line in warned if line.startswith("warning: step element:"))
+    assert "class AA is judged at 400 degC" in element
+    assert AA_WIRE_WOUND in element and f"film element's span is narrower, {AA_FILM}" in element
+    well = next(line for line in warned if line.startswith("warning: step well:"))
+    assert "the station's reference probe: class AA is judged at -60 degC" in well
+    assert "40 degC" not in well  # the upper limit is within the span
+    assert len(warned) == 2
+
+
+def test_a_run_notes_a_class_judged_outside_its_span_at_the_measured_temperature(
+    tmp_path: Path,
+) -> None:
+    """The bench at -60 degC (the invented unit's ambient moved there): the well reads about
+    -60 degC with the station's class AA probe, and the element is judged by class AA there.
+    Both steps say so in their notes, with the temperature measured."""
+    unit_path, sequence = _files(tmp_path, 'tolerance_class = "AA"')
+    unit_text = unit_path.read_text().replace('"23 degC"', '"-60 degC"')
+    unit_path.write_text(unit_text.replace('["15 degC", "35 degC"]', '["-70 degC", "-50 degC"]'))
+    sequence.write_text(sequence.read_text().replace('low = "10 degC"', 'low = "-70 degC"'))
+    unit = load_unit(unit_path)
+    with VirtualBench(unit, load_fixture(unit.fixture_path)) as bench:
+        station = bench.write_station(tmp_path / "station.toml", data_dir=str(tmp_path / "data"))
+        _probe_class_aa(station)
+        summary = run_plan(load_plan(sequence, station), "PT-4")
+    by_id = {r.step_id: r for r in summary.results}
+    well, element = by_id["well"], by_id["element"]
+    assert well.value == pytest.approx(-60.0, abs=0.3)
+    measured = f"{well.value:g} degC"
+    assert f"the station's reference probe: class AA is judged at {measured}" in well.note
+    assert f"class AA is judged at {measured}" in element.note
+    assert AA_WIRE_WOUND in element.note and AA_FILM in element.note

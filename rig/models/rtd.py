@@ -43,6 +43,41 @@ TOLERANCE_CLASSES: dict[str, tuple[float, float]] = {
 }
 """IEC 60751 class tolerance +-(fixed + per_degree |t|) degC."""
 
+CLASS_SPAN_WIRE_WOUND_C: dict[str, tuple[float, float]] = {
+    "AA": (-50.0, 250.0),
+    "A": (-100.0, 450.0),
+    "B": (-196.0, 600.0),
+}
+"""The temperatures over which IEC 60751:2008 (Table 1) gives each class for a wire-wound
+element (from memory): the widest a class is valid for, whatever the construction."""
+
+CLASS_SPAN_FILM_C: dict[str, tuple[float, float]] = {
+    "AA": (0.0, 150.0),
+    "A": (-30.0, 300.0),
+    "B": (-50.0, 500.0),
+}
+"""The same for a film element (IEC 60751:2008, Table 1, from memory): narrower."""
+
+
+def class_span_note(cls: str, temps_c: tuple[float, ...]) -> str:
+    """Why a class tolerance applied at ``temps_c`` is not one IEC 60751 gives (empty where
+    every temperature lies within the class's wire-wound span).  The element's construction is
+    not known, so only the wider span is held against it, and the note says the film one is
+    narrower: the class's formula is still applied, as an extrapolation the reader must weigh."""
+    if cls not in CLASS_SPAN_WIRE_WOUND_C:
+        return ""
+    low, high = CLASS_SPAN_WIRE_WOUND_C[cls]
+    outside = sorted({t for t in temps_c if math.isfinite(t) and not low <= t <= high})
+    if not outside:
+        return ""
+    film_low, film_high = CLASS_SPAN_FILM_C[cls]
+    at = " and ".join(f"{t:g} degC" for t in outside)
+    return (
+        f"class {cls} is judged at {at}, outside the {low:g} to {high:g} degC IEC 60751 gives "
+        f"it for a wire-wound element (a film element's span is narrower, {film_low:g} to "
+        f"{film_high:g} degC): its tolerance there is an extrapolation"
+    )
+
 
 @dataclass(frozen=True)
 class Rtd:
@@ -144,7 +179,19 @@ PT100 = Rtd(r0_ohm=100.0)
 PT1000 = Rtd(r0_ohm=1000.0)
 """The two common IEC 60751 elements."""
 
-__all__ = ["IEC_A", "IEC_B", "IEC_C", "PT100", "PT1000", "Rtd", "ToleranceClass", "tolerance_c"]
+__all__ = [
+    "CLASS_SPAN_FILM_C",
+    "CLASS_SPAN_WIRE_WOUND_C",
+    "IEC_A",
+    "IEC_B",
+    "IEC_C",
+    "PT100",
+    "PT1000",
+    "Rtd",
+    "ToleranceClass",
+    "class_span_note",
+    "tolerance_c",
+]
 
 
 R0_STEP = 10.0

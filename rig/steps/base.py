@@ -22,6 +22,7 @@ from rig.routing import Route
 if TYPE_CHECKING:
     from rig.config.fixture import FixtureMap
     from rig.errors import Problem
+    from rig.judge.reference_probe import ReferenceProbe
     from rig.steps.context import StepContext
 
 
@@ -177,6 +178,14 @@ class StepKind(ABC):
         """Problems of a data file the step reads besides the sequence (a wire list) once
         joined to the fixture, each at that file's own line: reported once however many steps
         read the file, and the step's routes are then not checked.  Here: none."""
+        return []
+
+    def check_warnings(
+        self, spec: StepSpec, earlier: EarlierSteps, probe: ReferenceProbe | None
+    ) -> list[str]:
+        """What ``rig check`` should tell the engineer about the step that is no error: a
+        judgement the file's own figures make weaker than it looks (``probe``: the station's
+        reference thermometer, None where not stated).  Here: nothing."""
         return []
 
     def autoranged_readings(self, spec: StepSpec, held: float | None) -> int:

@@ -17,12 +17,12 @@ from rig.config.reader import Section
 from rig.errors import SettingMismatch
 from rig.judge.decision import Limits
 from rig.judge.propagate import u_quotient
-from rig.judge.reference_probe import combined_u_c
+from rig.judge.reference_probe import ReferenceProbe, combined_u_c
 from rig.models import ModelInputError
 from rig.models.divider import divider_voltage, dv_dr_sensor
 from rig.models.ntc import BetaNtc, NtcModel, SteinhartHart
 from rig.models.ratiometric import Ratiometric
-from rig.models.rtd import T_MAX_C, T_MIN_C, Rtd, r0_it_fits
+from rig.models.rtd import T_MAX_C, T_MIN_C, Rtd, class_span_note, r0_it_fits
 from rig.quantity import format_quantity
 from rig.routing import Route
 from rig.steps.base import EarlierSteps, Outcome, StepKind, StepSpec
@@ -75,6 +75,12 @@ class ReferenceTemperature(StepKind):
         """The Pt100's resistance at the high temperature limit (R rises with T)."""
         return _pt100_ohm_at_most(spec)
 
+    def check_warnings(
+        self, spec: StepSpec, earlier: EarlierSteps, probe: ReferenceProbe | None
+    ) -> list[str]:
+        """The station's probe, judged by its class, at limits outside that class's span."""
+        return [note] if (note := _probe_class_note(probe, _limit_temps(spec))) else []
+
     def run(self, ctx: StepContext, spec: StepSpec) -> Outcome:
         ctx.power(None)
         r = ctx.measure_on(
@@ -100,7 +106,23 @@ class ReferenceTemperature(StepKind):
         if probe is not None:  # each part kept, so the record shows what U is made of
             extras |= {"u_meter_c": u_meter, "u_probe_c": probe.u_std_c(temp)}
         u_temp = combined_u_c(u_meter, probe, temp)
-        return Outcome(temp, self.unit, u_temp, spec.limits, [r], extras=extras)
+        note = _probe_class_note(probe, (temp,))
+        return Outcome(temp, self.unit, u_temp, spec.limits, [r], extras=extras, note=note)
+
+
+def _limit_temps(spec: StepSpec) -> tuple[float, ...]:
+    limits = spec.limits
+    if limits is None:
+        return ()
+    return tuple(t for t in (limits.low, limits.high) if t is not None)
+
+
+def _probe_class_note(probe: ReferenceProbe | None, temps_c: tuple[float, ...]) -> str:
+    """The station's reference probe's class held against the temperatures it is used at."""
+    if probe is None or probe.tolerance_class is None:
+        return ""
+    note = class_span_note(probe.tolerance_class, temps_c)
+    return f"the station's reference probe: {note}" if note else ""
 
 
 IEC_60751 = "IEC 60751 (Callendar-Van Dusen)"

@@ -13,7 +13,15 @@ import math
 from drivers.base import MeterFunction
 from rig.config.reader import Section
 from rig.judge.decision import Limits
-from rig.models.rtd import T_MAX_C, T_MIN_C, TOLERANCE_CLASSES, Rtd, tolerance_c
+from rig.judge.reference_probe import ReferenceProbe
+from rig.models.rtd import (
+    T_MAX_C,
+    T_MIN_C,
+    TOLERANCE_CLASSES,
+    Rtd,
+    class_span_note,
+    tolerance_c,
+)
 from rig.routing import Route
 from rig.steps.base import EarlierSteps, Outcome, StepKind, StepSpec
 from rig.steps.context import StepContext
@@ -108,6 +116,18 @@ class RtdCheck(StepKind):
     def routes(self, spec: StepSpec) -> list[Route]:
         return [ohms_route(spec)]
 
+    def check_warnings(
+        self, spec: StepSpec, earlier: EarlierSteps, probe: ReferenceProbe | None
+    ) -> list[str]:
+        """A class applied where the file lets the step be judged outside the temperatures
+        IEC 60751 gives that class for (its stated temperature, or its reference's limits)."""
+        cls = spec.params.get("tolerance_class")
+        if cls is None:
+            return []
+        temps = tuple(t for t in temperature_bounds(spec, earlier) if t is not None)
+        note = class_span_note(str(cls), temps)
+        return [note] if note else []
+
     def largest_reading(self, spec: StepSpec, earlier: EarlierSteps) -> float | None:
         """The upper limit at the hottest temperature the step can be judged at (R rises with
         T); None where the file leaves that temperature unbounded."""
@@ -129,6 +149,11 @@ class RtdCheck(StepKind):
         zero = lead_zero_of(ctx, spec)
         temperature = temperature_at(ctx, spec)
         window = rtd_window(spec, temperature)
+        cls = spec.params.get("tolerance_class")
+        notes = [
+            f"lead zero {zero:g} ohm subtracted" if zero else "",
+            class_span_note(str(cls), (temperature[0],)) if cls is not None else "",
+        ]
         return Outcome(
             reading.value - zero,
             self.unit,
@@ -137,5 +162,5 @@ class RtdCheck(StepKind):
             [reading],
             predicted=window.predicted,
             extras={"temperature_c": temperature[0]},
-            note=f"lead zero {zero:g} ohm subtracted" if zero else "",
+            note="; ".join(note for note in notes if note),
         )
