@@ -30,12 +30,11 @@ from rig.analysis.predict import PredictedReading, SequencePredictor, StepPredic
 from rig.config.unit_file import UnitModel
 from rig.judge.decision import COVERAGE_K, Limits, test_uncertainty_ratio
 from rig.judge.propagate import u_quotient
-from rig.models.ratiometric import Ratiometric
 from rig.models.rtd import T_MAX_C, T_MIN_C
 from rig.plan import Plan, PlannedStep
 from rig.step_judging import autorange_estimate, reading_u
 from rig.steps import KINDS
-from rig.steps.model_steps import ntc_window
+from rig.steps.model_steps import ntc_window, ratiometric_prediction, stated_temperature
 from rig.steps.rtd_step import rtd_window
 
 MODEL_KINDS = ("ntc", "rtd", "ratiometric")
@@ -129,13 +128,13 @@ def _ratiometric_tur_at(
     tol = tolerance[1] if tolerance is not None else spec.params.get("tolerance_pct")
     if tol is None or supply is None or not (math.isfinite(supply.value) and supply.value > 0):
         return None
-    model: Ratiometric = spec.params["model"]
-    predicted = float(model.fraction_at(float(spec.params["pressure_pa"]))) * 100.0
+    predicted, u_predicted = ratiometric_prediction(spec)
     limits = Limits(predicted - float(tol), predicted + float(tol))
     assert limits.high is not None
     v_out = limits.high / 100.0 * supply.value
     u_out = _meter_u(plan, planned, MeterFunction.DC_VOLTS, v_out)
-    expanded = COVERAGE_K * 100.0 * u_quotient(v_out, supply.value, u_out, supply.u_std)
+    u_read = 100.0 * u_quotient(v_out, supply.value, u_out, supply.u_std)
+    expanded = COVERAGE_K * math.hypot(u_read, u_predicted)
     return _tur_of(limits, expanded, temp_c)
 
 
@@ -157,7 +156,7 @@ def _rtd_tur_at(
     if params.get("tolerance") is None and params.get("tolerance_class") is None:
         return None
     spec = replace(spec, params=params)
-    temperature = _input(by_id, params.get("temperature_from"), params.get("temperature_c"))
+    temperature = _input(by_id, params.get("temperature_from"), stated_temperature(spec))
     if temperature is None or not T_MIN_C <= temperature[0] <= T_MAX_C:
         return None
     window = rtd_window(spec, temperature)
@@ -184,10 +183,12 @@ def _tur_at(
     if params.get("tolerance") is None:
         return None
     spec = replace(spec, params=params)
-    temperature = _input(by_id, params.get("temperature_from"), params.get("temperature_c"))
+    temperature = _input(by_id, params.get("temperature_from"), stated_temperature(spec))
     reference = None
     if params.get("mode") == "voltage":
-        reference = _input(by_id, params.get("reference_from"), params.get("reference_v"))
+        stated_v = params.get("reference_v")
+        stated_ref = None if stated_v is None else (float(stated_v), 0.0)
+        reference = _input(by_id, params.get("reference_from"), stated_ref)
         if reference is None:
             return None
     if temperature is None:
@@ -217,14 +218,14 @@ def _tur_of(limits: Limits, expanded: float, temp_c: float) -> TurAt | None:
 
 
 def _input(
-    by_id: Mapping[str, StepPrediction], source: str | None, stated: float | None
+    by_id: Mapping[str, StepPrediction], source: str | None, stated: tuple[float, float] | None
 ) -> tuple[float, float] | None:
     """An input of the step (value, standard uncertainty): an earlier step's predicted value
     (with no uncertainty its NaN carries through, so no TUR is given, as a run gives none), or
-    the value the file states (no uncertainty, as a run takes it)."""
+    the value the file states with the uncertainty it states (0 where none, as a run takes it)."""
     if source:
         earlier = by_id.get(source)
         if earlier is None or not math.isfinite(earlier.value):
             return None
         return earlier.value, earlier.expanded_u / COVERAGE_K
-    return None if stated is None else (float(stated), 0.0)
+    return stated

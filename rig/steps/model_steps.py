@@ -136,11 +136,38 @@ def recorded(value: float, unit: str) -> str:
 
 def temperature_parameters(spec: StepSpec) -> dict[str, str]:
     """Where a model step's temperature comes from, by its file key: an earlier step's id,
-    or the stated temperature."""
+    or the stated temperature (with its standard uncertainty where the file states one)."""
     source = spec.params.get("temperature_from")
     if source:
         return {"temperature_from": str(source)}
-    return {"temperature": recorded(float(spec.params["temperature_c"]), "degC")}
+    found = {"temperature": recorded(float(spec.params["temperature_c"]), "degC")}
+    u = spec.params.get("temperature_u_k")
+    if u is not None:
+        found["temperature_u"] = recorded(float(u), "K")
+    return found
+
+
+def stated_temperature(spec: StepSpec) -> tuple[float, float] | None:
+    """A model step's stated temperature in degC and its standard uncertainty in K (0 where
+    the file states none); None where the step reads an earlier step's instead."""
+    stated = spec.params.get("temperature_c")
+    if spec.params.get("temperature_from") or stated is None:
+        return None
+    return float(stated), float(spec.params.get("temperature_u_k") or 0.0)
+
+
+def unstated_u_warnings(spec: StepSpec) -> list[str]:
+    """``rig check``'s word on a stated temperature with no ``temperature_u``: the prediction's
+    U then leaves out how far the sensor may be from that temperature."""
+    stated = spec.params.get("temperature_c")
+    if spec.params.get("temperature_from") or stated is None:
+        return []
+    if spec.params.get("temperature_u_k") is not None:
+        return []
+    return [
+        f"its stated temperature, {format_quantity(float(stated), 'degC')}, has no "
+        "temperature_u: the prediction's U leaves out how far the sensor may be from it"
+    ]
 
 
 def ntc_model_parameters(model: NtcModel) -> dict[str, str]:
@@ -216,10 +243,18 @@ def _earlier_or_stated(
 
 
 def temperature_source(sec: Section, spec: StepSpec) -> None:
-    """``temperature_from`` (an earlier step's reading) or a stated ``temperature`` in degC."""
+    """``temperature_from`` (an earlier step's reading) or a stated ``temperature`` in degC,
+    with, optionally, its standard uncertainty ``temperature_u`` in K."""
     key, value = _earlier_or_stated(sec, spec, "temperature_from", "temperature", "degC")
     if key == "temperature":
         value = above_absolute_zero(sec, key, value)
+        spec.params["temperature_u_k"] = sec.quantity("temperature_u", "K", None, not_negative=True)
+    elif sec.has("temperature_u"):
+        sec.problem(
+            "temperature_u",
+            "goes with a stated temperature; with temperature_from the earlier step's "
+            "uncertainty is used",
+        )
     spec.params["temperature_from" if key == "temperature_from" else "temperature_c"] = value
 
 
@@ -263,7 +298,9 @@ def temperature_at(ctx: StepContext, spec: StepSpec) -> tuple[float, float]:
     if source:
         earlier = ctx.earlier(source)
         return earlier.value, earlier.u_std
-    return float(spec.params["temperature_c"]), 0.0
+    stated = stated_temperature(spec)
+    assert stated is not None  # parsing requires one of the two
+    return stated
 
 
 _NTC_MEASURES = {"resistance": "ohm", "voltage": "V"}
@@ -341,6 +378,12 @@ class NtcCheck(StepKind):
             else:
                 found["reference"] = recorded(float(spec.params["reference_v"]), "V")
         return found
+
+    def check_warnings(
+        self, spec: StepSpec, earlier: EarlierSteps, probe: ReferenceProbe | None
+    ) -> list[str]:
+        """A stated temperature with no stated uncertainty."""
+        return unstated_u_warnings(spec)
 
     def routes(self, spec: StepSpec) -> list[Route]:
         route = Route.dmm(spec.pins["hi"], spec.pins["lo"])
@@ -461,7 +504,8 @@ class RatiometricCheck(StepKind):
     def parse(self, sec: Section, spec: StepSpec) -> None:
         read_pins(sec, spec, "output", "power", "ground")
         spec.params["model"] = read_ratiometric(sec)
-        spec.params["pressure_pa"] = sec.quantity("pressure", "Pa", 101_325.0)
+        spec.params["pressure_pa"] = sec.quantity("pressure", "Pa", STANDARD_PRESSURE_PA)
+        spec.params["pressure_u_pa"] = sec.quantity("pressure_u", "Pa", None, not_negative=True)
         tolerance = sec.quantity("tolerance", "%", positive=True)
         spec.params["tolerance_pct"] = tolerance
         read_supply(sec, spec)
@@ -484,8 +528,25 @@ class RatiometricCheck(StepKind):
             "fraction_low": f"{model.frac_min:.{RECORD_DIGITS}g}",
             "fraction_high": f"{model.frac_max:.{RECORD_DIGITS}g}",
             "pressure": recorded(float(spec.params["pressure_pa"]), "Pa"),
+            **(
+                {}
+                if spec.params.get("pressure_u_pa") is None
+                else {"pressure_u": recorded(float(spec.params["pressure_u_pa"]), "Pa")}
+            ),
             "tolerance": recorded(float(spec.params["tolerance_pct"]), "%"),
         }
+
+    def check_warnings(
+        self, spec: StepSpec, earlier: EarlierSteps, probe: ReferenceProbe | None
+    ) -> list[str]:
+        """A pressure (stated, or the standard atmosphere by default) with no uncertainty."""
+        if spec.params.get("pressure_u_pa") is not None:
+            return []
+        pressure = format_quantity(float(spec.params["pressure_pa"]), "Pa")
+        return [
+            f"the pressure it is judged at, {pressure}, has no pressure_u: the prediction's U "
+            "leaves out how far the sensor's pressure may be from it"
+        ]
 
     def autoranged_readings(self, spec: StepSpec, held: float | None) -> int:
         """The supply reading autoranges (nothing in the file bounds the sensor's supply), also
@@ -494,19 +555,19 @@ class RatiometricCheck(StepKind):
         return 1
 
     def run(self, ctx: StepContext, spec: StepSpec) -> Outcome:
-        model: Ratiometric = spec.params["model"]
         ctx.power(spec.supply)
         out_route, supply_route = self.routes(spec)
         fn = MeterFunction.DC_VOLTS
         v_out = ctx.measure_on(out_route, fn, role="output", range_=spec.range_, nplc=spec.nplc)
         v_sup = ctx.measure_on(supply_route, fn, role="supply", range_=None, nplc=spec.nplc)
-        predicted = float(model.fraction_at(float(spec.params["pressure_pa"]))) * 100.0
+        predicted, u_predicted = ratiometric_prediction(spec)
         tol = float(spec.params["tolerance_pct"])
         limits = Limits(predicted - tol, predicted + tol)
         if not (math.isfinite(v_out.value) and math.isfinite(v_sup.value)) or v_sup.value == 0:
             return Outcome(math.nan, "%", math.nan, limits, [v_out, v_sup], predicted=predicted)
         fraction = v_out.value / v_sup.value * 100.0
-        u = u_quotient(v_out.value, v_sup.value, v_out.u_std, v_sup.u_std) * 100.0
+        u_read = u_quotient(v_out.value, v_sup.value, v_out.u_std, v_sup.u_std) * 100.0
+        u = math.hypot(u_read, u_predicted)
         return Outcome(
             fraction,
             "%",
@@ -516,3 +577,19 @@ class RatiometricCheck(StepKind):
             predicted=predicted,
             extras={"output_v": v_out.value, "supply_v": v_sup.value},
         )
+
+
+STANDARD_PRESSURE_PA = 101_325.0
+"""The standard atmosphere: the pressure a ratiometric step is judged at unless it states one."""
+
+
+def ratiometric_prediction(spec: StepSpec) -> tuple[float, float]:
+    """A ratiometric step's predicted output in % of supply at its pressure, and the standard
+    uncertainty the pressure's own gives it through the transfer's slope (GUM 5.1.2:
+    u = |df/dp| u(p); 0 where the file states no ``pressure_u``)."""
+    model: Ratiometric = spec.params["model"]
+    pressure = float(spec.params["pressure_pa"])
+    u_pressure = float(spec.params.get("pressure_u_pa") or 0.0)
+    predicted = float(model.fraction_at(pressure)) * 100.0
+    slope = (model.frac_max - model.frac_min) / (model.p_max - model.p_min) * 100.0
+    return predicted, abs(slope) * u_pressure

@@ -35,6 +35,7 @@ from rig.steps.model_steps import (
     temperature_bounds,
     temperature_parameters,
     temperature_source,
+    unstated_u_warnings,
 )
 
 
@@ -119,14 +120,16 @@ class RtdCheck(StepKind):
     def check_warnings(
         self, spec: StepSpec, earlier: EarlierSteps, probe: ReferenceProbe | None
     ) -> list[str]:
-        """A class applied where the file lets the step be judged outside the temperatures
-        IEC 60751 gives that class for (its stated temperature, or its reference's limits)."""
+        """A stated temperature with no uncertainty; a class applied where the file lets the
+        step be judged outside the temperatures IEC 60751 gives that class for (its stated
+        temperature, or its reference's limits)."""
+        found = unstated_u_warnings(spec)
         cls = spec.params.get("tolerance_class")
         if cls is None:
-            return []
+            return found
         temps = tuple(t for t in temperature_bounds(spec, earlier) if t is not None)
         note = class_span_note(str(cls), temps)
-        return [note] if note else []
+        return [*found, note] if note else found
 
     def largest_reading(self, spec: StepSpec, earlier: EarlierSteps) -> float | None:
         """The upper limit at the hottest temperature the step can be judged at (R rises with
