@@ -60,7 +60,8 @@ def ask_identity(role: str, instrument: Instrument) -> InstrumentIdentity:
     try:
         return instrument.identity()
     except InstrumentError as first:
-        if not is_transient(first, supply_name=""):  # asked of no supply's error queue
+        # nothing listening is no passing fault: the instrument is off or the address wrong
+        if isinstance(first, InstrumentUnreachable) or not is_transient(first, supply_name=""):
             raise BenchRefused(not_answering(role, instrument.resource, first)) from first
         log.warning("%s: identity not read, asking once more: %s", role, first)
     try:
@@ -79,6 +80,12 @@ def not_answering(role: str, resource: str, exc: InstrumentError) -> str:
         text = (
             f"{who} at {where} did not answer when asked who it is ({exc.message}): is it on, "
             "is its cable in, and is the address right?"
+        )
+    elif isinstance(exc, InstrumentProtocolError) and role == "relay_box":
+        text = (
+            f"{who} at {where} does not say who it is as rig reads it ({exc.message}): its WHO "
+            "answer's id= needs four comma-separated fields, maker, model, serial, firmware "
+            "(docs/relay-box-protocol.md)"
         )
     elif isinstance(exc, InstrumentProtocolError):
         text = (

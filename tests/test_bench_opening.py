@@ -204,3 +204,17 @@ def test_a_fixture_bigger_than_the_relay_box_is_refused_at_opening(
     assert "[relay_box] at" in text and shown.format(has + more) in text
     assert str(station.fixture.path) in text
     assert f"the box reports {bench.relay_box.relay_count} relays" in text
+
+
+def test_a_relay_box_whose_id_is_not_four_fields_is_refused_at_opening(tmp_path: Path) -> None:
+    # A box's WHO answer names it in four comma-separated fields (docs/relay-box-protocol.md,
+    # modelled on IEEE 488.2's *IDN?): a record must name every instrument, so a box that does
+    # not is refused before any run, in words about its own protocol, not the SCPI standard's.
+    with shipped_bench("ntc-sender", folder=tmp_path) as (bench, station):
+        bench.relay_box.identity = "DocBox16 v0.1"
+        with pytest.raises(BenchRefused) as refused:
+            run_plan(shipped_plan("ntc-sender-screen", station), "ID-1", ask=lambda t: True)
+        assert _no_runs(station)
+    text = str(refused.value)
+    assert "[relay_box] at" in text and "WHO answer's id= needs four" in text, text
+    assert "IEEE 488.2" not in text
