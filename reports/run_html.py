@@ -12,7 +12,7 @@ from reports.svg_plots import margin_chart
 from reports.value_digits import value_and_u
 from rig import __version__
 from rig.events import CUT_SHORT, NOT_RUN, prompt_answer
-from rig.judge.decision import COVERAGE_K, DecisionRule, Limits, judge
+from rig.judge.decision import COVERAGE_K, DecisionRule, Limits, judge, tur_text
 from rig.steps import KINDS
 
 
@@ -26,10 +26,11 @@ def num(value: object, digits: int = 7) -> str:
 
 
 def _ratio(tur: float | None) -> str:
-    """A test uncertainty ratio as ``8085:1``."""
+    """A test uncertainty ratio as ``rig run`` and ``rig check`` show it (``tur_text``: under 4:1
+    rounded down and marked LOW); empty where there is none."""
     if tur is None or not math.isfinite(tur):
         return ""
-    return f"{tur:.0f}:1" if tur >= 10 else f"{tur:.1f}:1"
+    return tur_text(tur)
 
 
 def _header(run: Mapping[str, Any]) -> str:

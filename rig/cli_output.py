@@ -120,9 +120,10 @@ def _result_cells(r: StepResult) -> list[str]:
         return [prompt_answer(r.value), "", "", ""]
     if r.kind == "harness-proof" and r.unit == "faults" and not math.isnan(r.value):
         return [f"{r.value:g} fault(s) found", show_limits(r.limits, r.unit), "", ""]
+    digits = telling_digits(r.value, r.unit, r.limits)  # the value and its limits alike
     return [
         "not measured" if r.verdict is Verdict.SKIPPED else value_text(r.value, r.unit, r.limits),
-        show_limits(r.limits, r.unit),
+        show_limits(r.limits, r.unit, digits),
         "" if math.isnan(r.expanded_u) else "±" + show(r.expanded_u, r.unit),
         "" if r.tur is None else tur_text(r.tur),
     ]
@@ -130,6 +131,8 @@ def _result_cells(r: StepResult) -> list[str]:
 
 MOST_DIGITS = 10
 """The most significant digits a value is shown to, telling it from a limit."""
+SHOWN_DIGITS = 4
+"""The significant digits a value or limit is shown to where nothing needs more."""
 
 
 def value_text(value: float, unit: str, limits: Limits | None) -> str:
@@ -139,12 +142,21 @@ def value_text(value: float, unit: str, limits: Limits | None) -> str:
     differ, the shown value lies on the same side of the limit as the reading)."""
     if unit in ("", "s") or not math.isfinite(value) or limits is None:
         return show(value, unit)
+    return format_quantity(value, unit, telling_digits(value, unit, limits))
+
+
+def telling_digits(value: float, unit: str, limits: Limits | None) -> int:
+    """The significant digits that tell ``value`` from each limit it is not equal to (at least
+    four): the value and its limits are shown to these digits together, so that a limit
+    rounded to fewer never reads on the other side of the value."""
+    if unit in ("", "s") or not math.isfinite(value) or limits is None:
+        return SHOWN_DIGITS
     near = [x for x in (limits.low, limits.high) if x is not None and x != value]
-    for digits in range(4, MOST_DIGITS + 1):
+    for digits in range(SHOWN_DIGITS, MOST_DIGITS + 1):
         text = format_quantity(value, unit, digits)
         if all(text != format_quantity(x, unit, digits) for x in near):
-            return text
-    return text
+            return digits
+    return MOST_DIGITS
 
 
 def serve_bench(out: Output, title: str, rows: Sequence[tuple[str, str]], station: object) -> None:
@@ -162,23 +174,24 @@ def serve_bench(out: Output, title: str, rows: Sequence[tuple[str, str]], statio
         out.line("stopping the virtual bench")
 
 
-def show(value: float | None, unit: str) -> str:
+def show(value: float | None, unit: str, digits: int | None = None) -> str:
     if value is None:
         return ""
     if unit in ("", "s"):
         return f"{value:g}{' s' if unit else ''}"
-    return format_quantity(value, unit)
+    return format_quantity(value, unit, digits or SHOWN_DIGITS)
 
 
-def show_limits(limits: Limits | None, unit: str) -> str:
-    """Limits as ``rig check`` and ``rig run`` show them; a count of faults whose limit is 0
-    (a harness proof) reads ``none allowed``."""
+def show_limits(limits: Limits | None, unit: str, digits: int | None = None) -> str:
+    """Limits as ``rig check`` and ``rig run`` show them (to ``digits`` where a value beside
+    them needs more than four to be told from them); a count of faults whose limit is 0 (a
+    harness proof) reads ``none allowed``."""
     if limits is None:
         return "(none)"
     if allows_none(limits, unit):
         return NONE_ALLOWED
-    low = "-inf" if limits.low is None else show(limits.low, unit)
-    high = "+inf" if limits.high is None else show(limits.high, unit)
+    low = "-inf" if limits.low is None else show(limits.low, unit, digits)
+    high = "+inf" if limits.high is None else show(limits.high, unit, digits)
     return f"{low} .. {high}"
 
 

@@ -87,3 +87,22 @@ def test_the_run_table_agrees_with_its_verdict_and_flag() -> None:
     passed = next(line for line in lines if "PASS" in line)
     assert re.search(r"\b4\.80001 V\b", fail) and "3.9:1 LOW" in fail
     assert re.search(r"\b4\.79999 V\b", passed)
+
+
+def test_limits_beside_a_value_are_shown_to_its_digits() -> None:
+    # A limit rounded to four digits must not read on the other side of the value it judged:
+    # 28.2083 % failed against a high limit of 28.20823 %, which reads 28.21 % to four digits.
+    from dataclasses import replace
+
+    buffer = io.StringIO()
+    row = replace(result(28.2083, Verdict.FAIL, 8.0), unit="%", limits=Limits(24.21, 28.20823))
+    Output(buffer).results([row])
+    line = next(line for line in buffer.getvalue().splitlines() if "FAIL" in line)
+    assert "28.2083 %" in line and "28.2082 %" in line and "28.21 %" not in line, line
+
+
+def test_the_html_report_shows_a_low_tur_as_the_terminal_does() -> None:
+    from reports.run_html import _ratio
+
+    assert _ratio(3.96) == tur_text(3.96) == "3.9:1 LOW"
+    assert _ratio(64.2) == "64:1" and _ratio(None) == ""
