@@ -649,6 +649,7 @@ def _screen_decision(plan: Plan, summary: RunSummary) -> ScreenDecision | None:
             None if r.limits is None else r.limits.high,
             r.expanded_u,
             r.verdict.value,
+            r.step_id,
         )
         for r in summary.results
     )

@@ -19,6 +19,7 @@ from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
 
 from rig.end_cause import EndCause
+from rig.quantity import format_quantity
 
 CONFIRMED = "confirmed failure"
 NO_FAULT = "no fault found"
@@ -29,8 +30,7 @@ MEANINGS = {
     CONFIRMED: "a fail beyond the uncertainty of the reading: the unit's fault is confirmed",
     NO_FAULT: "a pass beyond the uncertainty of the reading: the unit shows no fault",
     INCONCLUSIVE: (
-        "a reading within the uncertainty of a limit (a conditional verdict): retest, or "
-        "measure with a smaller uncertainty"
+        "a reading within the uncertainty of a limit: retest, or measure with a smaller uncertainty"
     ),
     UNDECIDED: "the run did not complete, or a step could not measure: run the unit again",
 }
@@ -60,6 +60,7 @@ REFERENCE_KIND = "reference-temperature"
 property of the unit, so it is no evidence on the unit; failed, it leaves the run undecided."""
 _FAILED = frozenset({"fail", "conditional fail", "error"})
 _JUDGED = frozenset({"pass", "conditional pass", "conditional fail", "fail"})
+_PASSED = frozenset({"pass", "conditional pass"})
 NO_READING = 9.9e37
 """SCPI's overload value (``rig.judge.decision.SCPI_OVERLOAD``): at or beyond it, no reading."""
 
@@ -87,6 +88,7 @@ class StepEvidence:
     expanded_u: float | None
     """None (or NaN) where unknown."""
     verdict: str
+    step_id: str = ""
 
 
 @dataclass(frozen=True)
@@ -102,6 +104,9 @@ class Evidence:
     without_u: bool = False
     """A judged step of the unit had no U (it can back neither side), and none that kept the
     run from a decision had one: the want of a U alone left the run inconclusive."""
+    near: str = ""
+    """The first step of the unit read within its U of a limit, with its margin and U, in
+    words: what a reviewer of an inconclusive run looks for first."""
 
 
 def _no_reading(value: float | None) -> bool:
@@ -142,6 +147,7 @@ def evidence(steps: Iterable[StepEvidence]) -> Evidence:
     The decision rule is not needed: beyond U from a limit, both rules give the same verdict."""
     confirmed, clear, reference_failed = False, True, False
     unclear_u: set[bool] = set()  # whether each step that kept the run from "clear" had a U
+    near = ""
     for step in steps:
         if step.kind == REFERENCE_KIND and step.verdict in _FAILED:
             reference_failed = True
@@ -153,7 +159,23 @@ def evidence(steps: Iterable[StepEvidence]) -> Evidence:
         if judged and not (step.verdict == "pass" and _beyond_u(step, outside=False)):
             clear = False
             unclear_u.add(_has_u(step.expanded_u))
-    return Evidence(confirmed, clear, reference_failed, unclear_u == {False})
+            near = near or _within_u_text(step)
+    return Evidence(confirmed, clear, reference_failed, unclear_u == {False}, near)
+
+
+def _within_u_text(step: StepEvidence) -> str:
+    """``step`` read within its U of a limit, in words (empty where it was not)."""
+    if _no_reading(step.value) or not _has_u(step.expanded_u):
+        return ""
+    margin = _margin(step)
+    assert step.expanded_u is not None
+    if margin is None or abs(margin) > step.expanded_u:
+        return ""
+    side = "inside" if margin >= 0 else "outside"
+    return (
+        f"{step.step_id or step.kind} reads {format_quantity(abs(margin), step.unit)} {side} its "
+        f"nearer limit, within its U of {format_quantity(step.expanded_u, step.unit)}"
+    )
 
 
 _STEP_OF_UNIT = (
@@ -206,6 +228,7 @@ def step_evidence(rows: Iterable[Mapping[str, object]]) -> Evidence:
             _number(r["high"]),
             _number(r["expanded_u"]),
             str(r["verdict"]),
+            str(r["step_id"]),
         )
         for r in rows
     )
@@ -227,7 +250,7 @@ def decision_word(
         return UNDECIDED
     if found.confirmed:
         return CONFIRMED
-    if found.clear and verdict == "pass":
+    if found.clear and verdict in _PASSED:  # conditional only by a step not of the unit
         return NO_FAULT
     return INCONCLUSIVE
 
@@ -244,6 +267,8 @@ def screen_decision(
             return ScreenDecision(word, REFERENCE_FAILED_MEANING)
     if word == INCONCLUSIVE and found.without_u:
         return ScreenDecision(word, NO_U_MEANING)
+    if word == INCONCLUSIVE and found.near:
+        return ScreenDecision(word, f"{found.near}: retest, or measure with a smaller uncertainty")
     return ScreenDecision(word, MEANINGS[word])
 
 

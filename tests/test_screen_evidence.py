@@ -298,3 +298,27 @@ def test_a_failed_bench_reference_judges_nothing_at_its_temperature(
     assert stats.undecided.to_dict(orient="records") == [
         {"cause": "the bench's reference failed", "runs": 1}
     ]
+
+
+def test_a_reference_within_u_of_its_window_does_not_spoil_a_clear_unit() -> None:
+    # The bench's reference is no step of the unit: its conditional pass (the well read within
+    # U of the window's edge) makes the run's verdict conditional, but every step of the unit
+    # passes beyond its U, and the unit is judged at the temperature measured (ILAC-G8: the
+    # statement is about the unit's readings). Found by a QA trial: guarded said inconclusive,
+    # simple said no fault found, on the same readings.
+    u = 0.001
+    well = StepEvidence("reference-temperature", "degC", 23.0, 22.0, 23.1, 0.23, "conditional pass")
+    assert decided("complete", "conditional pass", well, step(2.0, u, "pass")) == NO_FAULT
+    # a unit step within U still keeps it inconclusive
+    assert decided("complete", "conditional pass", well, step(4.7995, u, "pass")) == INCONCLUSIVE
+
+
+def test_an_inconclusive_decision_names_the_step_near_its_limit() -> None:
+    # what a reviewer looks for first: which reading, how far from its limit, against what U;
+    # U = 2 (0.0035 % x 4.79999 V + 0.0005 % x 10 V) / sqrt(3) = 251.7 uV (GUM 4.3.7)
+    u = expanded_u_10v(4.79999)
+    near = StepEvidence("volts", "V", 4.79999, 0.6, 4.8, u, "pass", "signal-at-controller")
+    meaning = screen_decision("complete", "pass", evidence([near])).meaning
+    assert meaning.startswith("signal-at-controller reads 10 uV inside its nearer limit"), meaning
+    assert "within its U of 251.7 uV" in meaning and "retest" in meaning
+    assert "conditional verdict" not in meaning  # a simple-rule pass is no conditional verdict
