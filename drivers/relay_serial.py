@@ -160,7 +160,8 @@ class SerialRelayBox(RelayBox):
     def setting_problems(
         cls, resource: str, settings: Mapping[str, object]
     ) -> list[tuple[str, str]]:
-        """Unknown settings, ``baudrate`` and ``timeout_ms`` (any port name may exist)."""
+        """Unknown settings, ``baudrate``, ``timeout_ms`` and ``assert_dtr_rts`` (any port name may
+        exist)."""
         try:
             _read_settings("", settings)
         except ConfigError as exc:

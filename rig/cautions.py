@@ -44,9 +44,8 @@ def proves_a_harness(plan: Plan) -> bool:
 def reads_a_well(plan: Plan) -> bool:
     """Whether a screen judges a sensor at a temperature its reference reads: the sensor may
     sit in a heated well or bath (a harness proof reads only the room's)."""
-    kinds = {p.spec.kind for p in plan.steps}
-    sensor = bool(kinds & {"ntc", "rtd"})
-    return sensor and "reference-temperature" in kinds and not proves_a_harness(plan)
+    sensor = any(p.spec.kind in ("ntc", "rtd") for p in plan.steps)
+    return sensor and plan.reads_reference_probe and not proves_a_harness(plan)
 
 
 def cautions_for(plans: Iterable[Plan]) -> list[str]:

@@ -15,7 +15,7 @@ from rig.errors import ConfigError, Problem
 from rig.events import Event
 from rig.plan import Plan, build_plan
 from rig.run_admission import refuse_unfiled
-from rig.station_clock import clock_warning
+from rig.station_clock import clock_warnings
 from rig.store import ResultStore
 from rig.store_sync import SyncReport, send_after_run, send_waiting_runs
 
@@ -75,10 +75,10 @@ def run_plan(
         plan.station, serial, operator, continuing=resume is not None, claim=claim, remark=remark
     )
     warnings = check_calibration(plan.station, reads_probe=plan.reads_reference_probe)
-    warnings += [w for w in (clock_warning(plan.station.store_path),) if w]
     own_store = store is None
     before = send_waiting_runs(plan.station, on_sync, on_server) if own_store else None
     store = store or ResultStore(plan.station.store_path)
+    warnings += clock_warnings(store)
     try:
         bench = open_bench(plan.station)
         try:

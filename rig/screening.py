@@ -19,6 +19,7 @@ from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
 
 from rig.end_cause import EndCause
+from rig.judge.decision import SCPI_OVERLOAD, Limits, is_no_reading
 from rig.quantity import format_quantity
 
 CONFIRMED = "confirmed failure"
@@ -61,8 +62,6 @@ property of the unit, so it is no evidence on the unit; failed, it leaves the ru
 _FAILED = frozenset({"fail", "conditional fail", "error"})
 _JUDGED = frozenset({"pass", "conditional pass", "conditional fail", "fail"})
 _PASSED = frozenset({"pass", "conditional pass"})
-NO_READING = 9.9e37
-"""SCPI's overload value (``rig.judge.decision.SCPI_OVERLOAD``): at or beyond it, no reading."""
 
 HARNESS_UNITS = frozenset({"faults", "nets"})
 """The units of a harness proof's step (the faults it found) and of a capture's (the nets it
@@ -110,7 +109,7 @@ class Evidence:
 
 
 def _no_reading(value: float | None) -> bool:
-    return value is None or not math.isfinite(value) or abs(value) >= NO_READING
+    return value is None or is_no_reading(value)
 
 
 def _has_u(u: float | None) -> bool:
@@ -120,9 +119,9 @@ def _has_u(u: float | None) -> bool:
 def _margin(step: StepEvidence) -> float | None:
     """Distance from the value to the nearer limit, positive inside (None: no limits)."""
     assert step.value is not None
-    sides = [step.value - step.low] if step.low is not None else []
-    sides += [step.high - step.value] if step.high is not None else []
-    return min(sides) if sides else None
+    if step.low is None and step.high is None:
+        return None
+    return Limits(step.low, step.high).margin(step.value)
 
 
 def _of_unit(step: StepEvidence) -> bool:
@@ -178,12 +177,12 @@ def _within_u_text(step: StepEvidence) -> str:
     )
 
 
+_NOT_OF_UNIT = ", ".join(f"'{unit}'" for unit in (ANSWER_UNIT, *sorted(HARNESS_UNITS)))
 _STEP_OF_UNIT = (
-    f"s.run_id = r.id AND s.unit NOT IN ('{ANSWER_UNIT}', 'faults', 'nets')"
-    f" AND s.kind <> '{REFERENCE_KIND}'"
+    f"s.run_id = r.id AND s.unit NOT IN ({_NOT_OF_UNIT}) AND s.kind <> '{REFERENCE_KIND}'"
 )
 _HAS_U = "(s.expanded_u IS NOT NULL AND s.expanded_u > 0)"
-_READ = f"(s.value IS NOT NULL AND ABS(s.value) < {NO_READING!r})"
+_READ = f"(s.value IS NOT NULL AND ABS(s.value) < {SCPI_OVERLOAD!r})"
 _MARGIN = (
     "(CASE WHEN s.low IS NULL THEN s.high - s.value WHEN s.high IS NULL THEN s.value - s.low"
     " WHEN s.value - s.low < s.high - s.value THEN s.value - s.low ELSE s.high - s.value END)"

@@ -5,7 +5,10 @@ for it (the clock may be right and an older run wrong); it says so, naming both 
 from __future__ import annotations
 
 import datetime as dt
-from pathlib import Path
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:
+    from rig.store import ResultStore
 
 SKEW_ALLOWED = dt.timedelta(minutes=5)
 """How far the station's clock and the results server's may differ before rig says so."""
@@ -42,22 +45,17 @@ def skew(server_now: dt.datetime, station_now: dt.datetime) -> str:
     )
 
 
-def clock_warning(store_path: Path, now: dt.datetime | None = None) -> str:
-    """``went_back`` for the station's own file; '' where it cannot be read (a warning must
-    never stop a run)."""
-    from rig.store import ResultStore, StoreError
+def clock_warnings(store: ResultStore, now: dt.datetime | None = None) -> list[str]:
+    """``went_back`` for the station's own store, as a list of warnings to add to a run's;
+    none where it cannot be read (a warning must never stop a run)."""
+    from rig.store import StoreError
 
-    if not store_path.is_file():
-        return ""
     try:
-        store = ResultStore(store_path)
-        try:
-            newest = store.newest_start()
-        finally:
-            store.close()
+        newest = store.newest_start()
     except StoreError:
-        return ""
-    return went_back(newest, now or dt.datetime.now(dt.UTC))
+        return []
+    said = went_back(newest, now or dt.datetime.now(dt.UTC))
+    return [said] if said else []
 
 
 def _shown(when: dt.datetime) -> str:

@@ -25,7 +25,7 @@ from rig.engine import Bench, Engine, RunSummary, StopRequested, make_safe
 from rig.errors import ConfigError, RigError
 from rig.events import Event, PromptShown
 from rig.plan import Plan
-from rig.station_clock import clock_warning
+from rig.station_clock import clock_warnings
 from rig.store import ResultStore
 from rig.store_sync import SyncReport, send_after_run, send_waiting_runs
 
@@ -370,9 +370,9 @@ def run_in_worker(
 
     try:
         notes = check_calibration(plan.station, reads_probe=plan.reads_reference_probe)
-        notes += [w for w in (clock_warning(plan.station.store_path),) if w]
         before = send_waiting_runs(plan.station, synced)
         store = ResultStore(plan.station.store_path)
+        notes += clock_warnings(store)
     except RigError as exc:
         inbox.put(RunEnded(None, _problem_text(exc)))
         return

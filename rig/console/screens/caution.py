@@ -1,8 +1,8 @@
 """The cautions for bench work, shown once when the console opens, acknowledged by a key.
 
-Which cautions is the command line's own decision (``rig.cautions.cautions_for``) over every
-sequence the console offers: the harness caution on a harness bench, the well's before a screen
-of a sensor in a hot well."""
+Which cautions is the one decision every front end shares (``rig.cautions.cautions_for``),
+over every sequence the console offers: the harness caution on a harness bench, the well's
+before a screen of a sensor in a hot well."""
 
 from __future__ import annotations
 
