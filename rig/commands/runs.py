@@ -84,14 +84,14 @@ def cmd_runs(args: argparse.Namespace, out: Output) -> int:
     where = replace(where, study=None)
     store = opened.store
     try:
-        rows, own_ids, waiting = _listed_rows(opened, where)
+        rows, own_ids, waiting, units = _listed_rows(opened, where)
         picked = [
             r
             for r in rows
             if (args.serial is None or r[1] == args.serial)
             and (args.claim is None or r[8] == args.claim)
         ]
-        screens = {name: is_screen(store.sequence_units(name)) for name in {r[2] for r in picked}}
+        screens = {name: is_screen(units[name]) for name in {str(r[2]) for r in picked}}
     finally:
         store.close()
     found = [_row(r, screens[str(r[2])], own_ids, waiting) for r in picked]  # oldest first
@@ -132,25 +132,30 @@ def _opened(args: argparse.Namespace) -> OpenedStore:
 
 def _listed_rows(
     opened: OpenedStore, where: RunFilter
-) -> tuple[list[Any], dict[str, int], set[str]]:
+) -> tuple[list[Any], dict[str, int], set[str], dict[str, set[str]]]:
     """The runs to list (``run_rows`` with their origin), the station's own id of each run its
-    file holds (by record id), and the record ids of those read from that file because they
-    have not reached the server yet."""
+    file holds (by record id), the record ids of those read from that file because they have
+    not reached the server yet, and the step units of each listed sequence (from the server and,
+    for runs not sent yet, the station's file: a sequence the server has never seen has none
+    there, and would pass for a screen)."""
     store, station = opened.store, opened.station
     rows = list(store.run_rows(where, origin=True))
+    units = {name: set(store.sequence_units(name)) for name in {str(r[2]) for r in rows}}
     if station is None or store.engine != "postgresql":
-        return rows, {str(r[UID]): int(r[0]) for r in rows}, set()
+        return rows, {str(r[UID]): int(r[0]) for r in rows}, set(), units
     if not station.store_path.is_file():
-        return rows, {}, set()
+        return rows, {}, set(), units
     local = open_file_for_reading(station.store_path)
     try:
         own_ids = local.run_ids_by_uid()
         on_server = {str(r[UID]) for r in rows}
         unsent = [r for r in local.run_rows(where, origin=True) if str(r[UID]) not in on_server]
+        for name in {str(r[2]) for r in unsent}:
+            units.setdefault(name, set()).update(local.sequence_units(name))
     finally:
         local.close()
     rows = sorted(rows + unsent, key=lambda r: str(r[3]))
-    return rows, own_ids, {str(r[UID]) for r in unsent}
+    return rows, own_ids, {str(r[UID]) for r in unsent}, units
 
 
 def _row(row: Any, screen: bool, own_ids: dict[str, int], waiting: set[str]) -> dict[str, Any]:
