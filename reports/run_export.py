@@ -100,7 +100,9 @@ def run_record(
         # what a model step's reading was compared with; None: stored before schema 6
         params = step.get("model_params")
         step["model_params"] = None if params is None else json.loads(params)
-        if step["value"] is None:  # the store keeps no number for an overload or a NaN
+        if step["verdict"] == "skipped":  # not measured: its input step failed, say (its note)
+            step["value_text"] = NOT_MEASURED
+        elif step["value"] is None:  # the store keeps no number for an overload or a NaN
             step["value_text"] = no_number_text(step["step_id"], readings)
     record: dict[str, Any] = {
         "run": run,
@@ -253,6 +255,11 @@ def record_csv(record: Mapping[str, Any]) -> str:
 def model_params_text(params: Mapping[str, str] | None) -> str:
     """A step's model parameters on one line: ``r25 = 2 kohm; beta = 3450 K``."""
     return "; ".join(f"{key} = {value}" for key, value in (params or {}).items())
+
+
+NOT_MEASURED = "not measured"
+"""A skipped step's value, as ``rig run`` shows it: no reading was taken, so none failed to read
+(an open circuit's ``no reading`` or ``overload`` is a finding on the unit; this is none)."""
 
 
 def no_number_text(step_id: str, readings: Iterable[Mapping[str, Any]]) -> str:

@@ -78,7 +78,7 @@ def plain_reason(exc: InstrumentError) -> str:
             "interference and the instrument's settings"
         )
     elif isinstance(exc, InstrumentReportedError):
-        text = f"{who} reported an error{command}; see its error message below"
+        text = f"{who} reported an error{command}; its message is in the details"
     else:
         text = f"{who} did not do what was asked{command}"
     return f"{text} (details: {exc})"

@@ -18,6 +18,7 @@ from pathlib import Path
 import pytest
 from bench_helpers import shipped_bench
 
+from reports.run_export import run_record
 from rig.cli import main
 from rig.config.station import load_station
 from rig.screening import (
@@ -282,6 +283,7 @@ def test_a_failed_bench_reference_judges_nothing_at_its_temperature(
         try:
             stats = shop_stats(store, RunFilter())
             notes = {s["step_id"]: s["note"] for s in store.steps(run["run_id"])}
+            recorded = {s["step_id"]: s for s in run_record(store, run["run_id"])["steps"]}
         finally:
             store.close()
     steps = {s["id"]: s for s in run["steps"]}
@@ -290,6 +292,8 @@ def test_a_failed_bench_reference_judges_nothing_at_its_temperature(
     assert steps["well"]["value"] == pytest.approx(23.0, abs=0.5)
     assert steps["sender"]["verdict"] == "skipped" and steps["sender"]["value"] is None
     assert "temperature_from step well ended fail" in notes["sender"]
+    # the report says so as rig run does: not an open circuit's "no reading"
+    assert recorded["sender"]["value_text"] == "not measured"
     assert steps["sender-4wire"]["verdict"] == "pass"  # the run goes on to its end
     assert run["status"] == "complete"
     assert run["screen_decision"]["decision"] == UNDECIDED
