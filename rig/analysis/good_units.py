@@ -6,7 +6,7 @@ say it.  Pure computation.
 
 from __future__ import annotations
 
-from collections.abc import Callable
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 
 import numpy as np
@@ -99,8 +99,14 @@ class GoodUnitSampler:
                 spread = f"class {cls}: ±({a:g} + {b:g}|t|) degC (IEC 60751)"
                 self.draws.append(Draw(what, spread, UNIFORM, UNIFORM_PART))
 
-    def sample(self, rng: np.random.Generator, n: int) -> Samples:
+    def sample(
+        self, rng: np.random.Generator, n: int, moved: Mapping[str, FloatArray] | None = None
+    ) -> Samples:
+        """``n`` good units; ``moved`` shifts named sensors from the temperature (K: ntc, rtd)
+        or pressure (Pa: ratiometric) the unit file gives them, per unit (a stated input's
+        draw, ``rig.analysis.stated_inputs``)."""
         u = self.unit
+        moved = moved or {}
         if u.ambient_range_c is None:
             ambient = np.full(n, u.ambient_c)
         else:
@@ -123,15 +129,21 @@ class GoodUnitSampler:
             if s.tolerance_pct:
                 values[f"src:{s.name}"] = s.volts * spread(s.tolerance_pct)
         for sensor in u.sensors.values():
+            shift = moved.get(sensor.name)
             if isinstance(sensor, NtcSensor):
-                values[f"ntc:{sensor.name}"] = _ntc_r(sensor, ambient, spread)
-            elif isinstance(sensor, RatiometricSensor) and sensor.fraction_tolerance_pct:
+                values[f"ntc:{sensor.name}"] = _ntc_r(sensor, ambient, spread, shift)
+            elif isinstance(sensor, RatiometricSensor) and (
+                sensor.fraction_tolerance_pct or shift is not None
+            ):
                 t = sensor.fraction_tolerance_pct
-                nominal = _fraction(sensor, u.pressure_pa)
-                values[f"rat:{sensor.name}:gain"] = nominal + rng.uniform(-t, t, size=n) / 100.0
+                nominal = _fraction(sensor, u.pressure_pa, shift)
+                gain = nominal + rng.uniform(-t, t, size=n) / 100.0 if t else nominal
+                values[f"rat:{sensor.name}:gain"] = np.broadcast_to(gain, (n,)).astype(np.float64)
         for sensor in u.sensors.values():
             if isinstance(sensor, RtdSensor):
                 temp = ambient if sensor.temp_c is None else np.full(n, sensor.temp_c)
+                if sensor.name in moved:
+                    temp = temp + moved[sensor.name]
                 values[f"rtd:{sensor.name}"] = _rtd_element(
                     rng, sensor.r0_ohm, sensor.tolerance_class, temp
                 )
@@ -155,21 +167,31 @@ def _rtd_element(
     return Rtd(r0_ohm=r0_ohm).r_of_element(temp, deviation)
 
 
-def _fraction(sensor: RatiometricSensor, ambient_pa: float) -> float:
-    """The output fraction its transfer gives at the pressure it sees, as the circuit has it."""
+def _fraction(
+    sensor: RatiometricSensor, ambient_pa: float, shift_pa: FloatArray | None = None
+) -> FloatArray:
+    """The output fraction its transfer gives at the pressure it sees, as the circuit has it
+    (moved by ``shift_pa`` per unit where a stated pressure's draw moves it)."""
     model = Ratiometric(
         sensor.p_low_pa, sensor.p_high_pa, sensor.fraction_low, sensor.fraction_high
     )
     pressure = ambient_pa if sensor.pressure_pa is None else sensor.pressure_pa
-    return float(model.fraction_at(pressure))
+    at = np.asarray(pressure if shift_pa is None else pressure + shift_pa, dtype=np.float64)
+    return np.asarray(model.fraction_at(at), dtype=np.float64)
 
 
 def _ntc_r(
-    sensor: NtcSensor, ambient: FloatArray, spread: Callable[[float], FloatArray]
+    sensor: NtcSensor,
+    ambient: FloatArray,
+    spread: Callable[[float], FloatArray],
+    shift_k: FloatArray | None = None,
 ) -> FloatArray:
     """R(T) of a drawn thermistor: R25' (R_nominal(T) / R25)^(B'/B) is the beta model with the
-    drawn R25' and B' (exact for the beta model; Steinhart-Hart curves carry no tolerance)."""
+    drawn R25' and B' (exact for the beta model; Steinhart-Hart curves carry no tolerance), at
+    its temperature moved by ``shift_k`` per unit where a stated temperature's draw moves it."""
     temp = ambient if sensor.temp_c is None else np.full(len(ambient), sensor.temp_c)
+    if shift_k is not None:
+        temp = temp + shift_k
     nominal = np.asarray(ntc_model(sensor).r_at(temp), dtype=np.float64)
     if sensor.sh_coefficients is not None or sensor.r25_ohm is None or sensor.beta_k is None:
         return nominal

@@ -39,6 +39,7 @@ from rig.analysis.montecarlo import (
     prediction_centre,
 )
 from rig.analysis.predict import SequencePredictor, StepPrediction
+from rig.analysis.stated_inputs import stated_of
 from rig.analysis.supply_output import exact_output_warning
 from rig.config.unit_file import UnitModel
 from rig.faults import Fault
@@ -440,13 +441,15 @@ def _warnings(study: LimitsStudy) -> list[str]:
         "is drawn for it"
         for reading in study.result.no_meter_error
     ]
+    specs = {d.spec.id: d.spec for d in study.result.steps}
     for proposal in study.proposals:
         if proposal.tur is not None and tur_is_low(proposal.tur):
             found.append(
                 f"step {proposal.step_id}: TUR {tur_text(proposal.tur)}{_at(proposal)} with the "
-                f"proposed limits (rig check marks a TUR under {TUR_MINIMUM:g}:1 LOW): the meter's "
-                "uncertainty is about as wide as the limits, so it decides verdicts near them; "
-                "widen them where the faults allow, or measure with a smaller uncertainty"
+                f"proposed limits (rig check marks a TUR under {TUR_MINIMUM:g}:1 LOW): "
+                f"{_whose_u(specs[proposal.step_id])} is about as wide as the limits, so it "
+                "decides verdicts near them; widen them where the faults allow, or measure with a "
+                "smaller uncertainty"
             )
         if proposal.no_reading:
             found.append(
@@ -473,6 +476,16 @@ def _warnings(study: LimitsStudy) -> list[str]:
                 f"fault {fault.spec}: caught now, but by {study.no_step} with the proposed limits"
             )
     return found
+
+
+def _whose_u(spec: StepSpec) -> str:
+    """Whose uncertainty a low TUR comes from: the meter's, and a stated figure's with its u."""
+    stated = stated_of(spec)
+    return (
+        "the meter's uncertainty"
+        if stated is None
+        else (f"the uncertainty of the meter and of the stated {stated[0]}")
+    )
 
 
 def _at(proposal: Proposal) -> str:

@@ -15,7 +15,7 @@ prediction.
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Mapping
+from collections.abc import Callable, Iterable, Mapping
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -29,6 +29,13 @@ from rig.analysis.reading_model import (
     ReadingModel,
     circuit_ports,
     prepared_circuit,
+)
+from rig.analysis.stated_inputs import (
+    StatedInput,
+    drawn_shifts,
+    pilot_shifts,
+    sensor_of,
+    stated_inputs,
 )
 from rig.analysis.supply_output import ELEMENT as SUPPLY_ELEMENT
 from rig.analysis.supply_output import SupplyOutput, moves_with_supply
@@ -219,7 +226,12 @@ class SequenceMonteCarlo:
         self._follows_supply: dict[tuple[Condition, float | None], bool] = {}
         self.readings: dict[tuple[str, str], ReadingModel] = {}
         self._steps: list[StepSpec] = []
-        pilot = self.sampler.sample(np.random.default_rng(12345), 64)
+        self.stated = stated_inputs(p.spec for p in plan.steps)
+        self._stated_sensors: dict[str, tuple[str, float]] = {}
+        """sensor -> the stated figure (quantity, value) whose draw moves it"""
+        inputs = list({s.key: s for s in self.stated.values()}.values())
+        self._pilot_moved = pilot_shifts(unit, inputs, 64)
+        pilot = self.sampler.sample(np.random.default_rng(12345), 64, self._pilot_moved)
         self._pilot_position = np.random.default_rng(54321).uniform(-1.0, 1.0, pilot.n)
         bench = StaticBench(unit, plan.station.fixture, [])
         cache: dict[tuple[Condition, float | None], PortModel] = {}
@@ -256,8 +268,27 @@ class SequenceMonteCarlo:
                 continue
             self.readings.update(models)
             self._steps.append(spec)
+            self._moved_by(spec, models.values())
             if follows and self.supply is None:
                 self.supply_exact.append(spec.id)
+
+    def _moved_by(self, spec: StepSpec, models: Iterable[ReadingModel]) -> None:
+        """Tie the sensors a step's readings follow to its stated figure's draw (the first
+        step in plan order to state one for a sensor holds it)."""
+        stated = self.stated.get(spec.id)
+        if stated is None:
+            return
+        for rm in models:
+            for port in rm.model.ports:
+                sensor = sensor_of(port.name, self.unit, stated.quantity)
+                if sensor is not None:
+                    self._stated_sensors.setdefault(sensor, stated.key)
+
+    @property
+    def stated_draws(self) -> list[StatedInput]:
+        """The stated figures whose draw moves some sensor, once each."""
+        used = set(self._stated_sensors.values())
+        return list({s.key: s for s in self.stated.values() if s.key in used}.values())
 
     @staticmethod
     def _unsupported(spec: StepSpec, nominal_value: float) -> str | None:
@@ -326,7 +357,11 @@ class SequenceMonteCarlo:
         done = 0
         while done < samples:
             n = min(block, samples - done)
-            drawn = self.sampler.sample(rng, n)
+            moved = None
+            if self._pilot_moved:  # one true temperature or pressure per unit and stated figure
+                inputs = self.stated_draws
+                moved = drawn_shifts(rng, n, inputs, self._stated_sensors, self._pilot_moved)
+            drawn = self.sampler.sample(rng, n, moved)
             # one supply, one position within its setting accuracy per unit, for every step
             position = np.zeros(n) if self.supply is None else rng.uniform(-1.0, 1.0, size=n)
             values: dict[str, FloatArray] = {}
@@ -357,6 +392,7 @@ class SequenceMonteCarlo:
             SUPPLY_ELEMENT in rm.model.sources for rm in self.readings.values()
         ):
             result.draws.append(self.supply.draw())
+        result.draws += [s.draw() for s in self.stated_draws]
         for spec in self._steps:
             value = np.concatenate([v for v, _ in parts[spec.id]])
             figure = np.concatenate([f for _, f in parts[spec.id]])
