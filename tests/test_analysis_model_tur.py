@@ -155,6 +155,9 @@ def hand_ratiometric(tol_pts: float, v_sup: float = 5.0) -> tuple[float, float]:
       station's DCV figures read as a rectangular distribution (GUM 4.3.7);
     - u of the ratio r = Vout / Vsup: sqrt((u_out / Vsup)^2 + (Vout u_sup / Vsup^2)^2), the law
       of propagation with the two readings uncorrelated (JCGM 100:2008, 5.1.2), in % x 100;
+    - the stated pressure's own u (the file's ``pressure_u``, 1.7 kPa) through the transfer's
+      slope, 0.8 / 500 kPa x 100 % (JCGM 100:2008, 5.1.2), combined with the ratio's in
+      quadrature;
     - U = 2 u; TUR = span / (2 U) (common practice, no published source).
     """
     predicted = (0.1 + 0.8 * 101.3 / 500.0) * 100.0
@@ -162,7 +165,8 @@ def hand_ratiometric(tol_pts: float, v_sup: float = 5.0) -> tuple[float, float]:
     u_out = (0.0035e-2 * v_out + 0.0005e-2 * 10.0) / math.sqrt(3)
     u_sup = (0.0035e-2 * v_sup + 0.0005e-2 * 10.0) / math.sqrt(3)
     u_ratio = math.hypot(u_out / v_sup, v_out * u_sup / v_sup**2) * 100.0
-    expanded = 2.0 * u_ratio
+    u_pressure = 0.8 / 500.0 * 1.7 * 100.0
+    expanded = 2.0 * math.hypot(u_ratio, u_pressure)
     return expanded, (2.0 * tol_pts) / (2.0 * expanded)
 
 
@@ -189,10 +193,11 @@ def test_rig_check_with_a_unit_shows_a_ratiometric_steps_tur_at_its_stated_press
     assert main([*args, "--unit", str(PRESSURE_UNIT)]) == 0
     out = capsys.readouterr().out
     row = next(line for line in out.splitlines() if line.startswith(FRACTION_STEP))
-    expanded, tur = hand_ratiometric(2.0)  # the step's own 2 %: 734.5:1 by hand
-    u_cell, unit_cell, tur_cell = row.split()[-3:]
+    expanded, tur = hand_ratiometric(2.0)  # the step's own 2 %: 3.7:1 by hand
+    u_cell, unit_cell, tur_cell, low_cell = row.split()[-4:]
     assert (float(u_cell), unit_cell) == (pytest.approx(expanded, rel=1e-3), "%")
-    assert tur_cell.endswith(":1") and float(tur_cell[:-2]) == pytest.approx(tur, abs=1.0)
+    # one decimal, rounded down, under 4:1 (common practice, no published source)
+    assert tur_cell == f"{math.floor(tur * 10) / 10:.1f}:1" and low_cell == "LOW"
     assert (
         f"{FRACTION_STEP}: limits around the prediction at its stated pressure, 101.3 kPa: U and "
         f"TUR at "
