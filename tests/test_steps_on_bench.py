@@ -462,3 +462,25 @@ def test_an_ntc_read_two_wire_takes_off_the_stored_zero_as_resistance_does(
     assert ntc.value == pytest.approx(raw["value"] - 0.1, abs=1e-9)
     assert "lead zero 0.1 ohm subtracted" in ntc.note
     assert ntc.value == pytest.approx(four.value, abs=ntc.expanded_u + four.expanded_u)
+
+
+def test_rig_limits_takes_the_stored_zero_off_an_ntc_read_two_wire_as_a_run_does(
+    tmp_path: Path,
+) -> None:
+    # rig limits' Monte Carlo computes each step's value as the step kind does: a proposal for
+    # an ntc step read 2-wire must rest on the reading less the station's stored lead zero, or
+    # its limits sit that zero off what a run judges.
+    import numpy as np
+
+    from rig.analysis.montecarlo import step_value
+
+    zero = '\n[lead_zero]\n"T2:T1" = "0.1 ohm"\n'
+    bench, station_path = _bench(tmp_path, SENDER, zero)
+    bench.stop()
+    seq = tmp_path / "ntc-ohms.toml"
+    seq.write_text(NTC_OHMS_SEQUENCE, encoding="utf-8")
+    station = load_station(station_path)
+    plan = build_plan(load_sequence(seq), station)
+    spec = next(p.spec for p in plan.steps if p.spec.id == "ntc-two-wire")
+    value = step_value(spec, {"ntc": np.array([110.0, 2000.0])}, station)
+    assert value.tolist() == pytest.approx([109.9, 1999.9])

@@ -177,6 +177,8 @@ def step_value(spec: StepSpec, readings: Mapping[str, FloatArray], station: Stat
     if spec.kind == "ratiometric":
         with np.errstate(divide="ignore", invalid="ignore"):
             return readings["output"] / readings["supply"] * 100.0
+    if spec.kind == "ntc" and spec.params.get("mode") != "voltage":  # read 2-wire, as a run
+        return readings["ntc"] - lead_zero_ohm(station, spec.pins["hi"], spec.pins["lo"])
     roles = reading_roles(spec) or ()
     return readings[roles[0]]
 
