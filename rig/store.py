@@ -705,15 +705,11 @@ class ResultStore:
         from rig.screening import EVIDENCE_SQL
 
         sql, params = _run_where(where)
-        answered = (
-            "CASE WHEN EXISTS (SELECT 1 FROM steps s WHERE s.run_id = r.id AND s.unit = ''"
-            " AND s.verdict = 'fail') THEN 1 ELSE 0 END"
-        )
         more = ", r.station, r.run_uid" if origin else ""
         shown = ", ".join(EVIDENCE_SQL[k] for k in ("confirmed", "clear", "reference_failed"))
         return self._rows(
             "SELECT r.id, r.serial, r.sequence_name, r.started_at, r.status, r.verdict, r.reason,"
-            f" r.end_cause, r.claim, {answered}, {shown}{more} FROM runs r WHERE {sql}"
+            f" r.end_cause, r.claim, {ANSWERED_NO_SQL}, {shown}{more} FROM runs r WHERE {sql}"
             " ORDER BY r.started_at, r.id",
             params,
         )
@@ -793,14 +789,15 @@ class ResultStore:
 
     def model_step_rows(self, where: RunFilter) -> list[Any]:
         """The steps judged around a prediction (``predicted`` set): sequence, step, unit,
-        value, predicted, low, high, expanded U, position, verdict and the run's status, one row
-        a step run.  Their
-        limits move with the prediction, so they are not summed by limits as the others are
-        (``rig.stats.from_store.model_step_stats``)."""
+        value, predicted, low, high, expanded U, position, verdict, the run's status, and 1
+        where the step is a part failure (``part_failure_sql``) else 0, one row a step run.
+        Their limits move with the prediction, so they are not summed by limits as the others
+        are (``rig.stats.from_store.model_step_stats``)."""
         sql, params = _run_where(where)
         return self._rows(
             "SELECT r.sequence_name, s.step_id, s.unit, s.value, s.predicted, s.low, s.high,"
-            " s.expanded_u, s.position, s.verdict, r.status"
+            f" s.expanded_u, s.position, s.verdict, r.status,"
+            f" CASE WHEN {part_failure_sql()} THEN 1 ELSE 0 END"
             " FROM steps s JOIN runs r ON r.id = s.run_id"
             f" WHERE {sql} AND s.predicted IS NOT NULL ORDER BY r.id, s.position",
             params,
@@ -809,9 +806,7 @@ class ResultStore:
     def step_moments(self, where: RunFilter) -> list[Any]:
         """Per (sequence, step, unit, low, high): values, sums of d and d^2 with d = value minus
         the step's limit (its low, else its high, else 0), mean expanded uncertainty, first
-        position, and how many times the step failed in a run that completed (a part failure:
-        a step that could not measure, or failed in a run stopped before its end, decides
-        nothing about the part; ``rig.screening``).
+        position, and how many times the step was a part failure (``part_failure_sql``).
 
         The database adds up, so a million values never pass through Python; the shift keeps the
         variance computed from the sums accurate (rig.stats.capability.moments_from_sums).  The
@@ -821,8 +816,7 @@ class ResultStore:
         d = "(s.value - COALESCE(s.low, s.high, 0))"
         sums = (
             f"COUNT(s.value), SUM({d}), SUM({d} * {d}), AVG(s.expanded_u), MIN(s.position),"
-            " SUM(CASE WHEN s.verdict IN ('fail', 'conditional fail') AND r.status = 'complete'"
-            " THEN 1 ELSE 0 END)"
+            f" SUM(CASE WHEN {part_failure_sql()} THEN 1 ELSE 0 END)"
         )
         # steps judged around a prediction have limits that move from run to run: they are
         # summed apart, as deviations (``model_step_rows``)
@@ -873,6 +867,30 @@ class ResultStore:
             return cursor.fetchall()
         except self._backend.errors as exc:
             raise StoreError(f"cannot read the results store {self.where}: {exc}") from None
+
+
+ANSWERED_NO_SQL = (
+    "CASE WHEN EXISTS (SELECT 1 FROM steps s WHERE s.run_id = r.id AND s.unit = ''"
+    " AND s.verdict = 'fail') THEN 1 ELSE 0 END"
+)
+"""1 where an operator answered a question of the run ``r`` no (a prompt's step failed), else
+0 (``rig.screening.answered_no``); portable SQL."""
+
+
+def part_failure_sql() -> str:
+    """Whether the step ``s`` of the run ``r`` is a failure of the part, as SQL: judged ``fail``
+    or ``conditional fail`` in a run the screen can decide (``rig.screening.decision_word``): it
+    completed, no question was answered no and the bench's reference did not fail; and the step
+    reads the part, not the bench's own reference.  A step that could not measure (``error``),
+    or any step of a run that decides nothing, says nothing about the part.  The verdict comes
+    first, so the run's subqueries are asked of failed steps only."""
+    from rig.screening import EVIDENCE_SQL, REFERENCE_KIND
+
+    return (
+        "s.verdict IN ('fail', 'conditional fail') AND r.status = 'complete'"
+        f" AND s.kind <> '{REFERENCE_KIND}' AND {ANSWERED_NO_SQL} = 0"
+        f" AND {EVIDENCE_SQL['reference_failed']} = 0"
+    )
 
 
 def _run_where(where: RunFilter) -> tuple[str, list[Any]]:

@@ -258,7 +258,8 @@ def _print_shop(stats: Any, out: Output) -> None:
     )
     out.line()
     out.line(
-        "Failure Pareto by step (part failures: fail or conditional fail in a run that completed)"
+        "Failure Pareto by step (part failures: fail or conditional fail of a step of the part,"
+        " in a run that decides)"
     )
     _pareto(out, stats.pareto_steps, ["step", "failures"])
     out.line()

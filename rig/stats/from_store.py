@@ -41,12 +41,6 @@ FaultFinder = Callable[[int], str | None]
 """Given a failed run's id, the spec of its most likely fault, or None if none is known."""
 
 
-FAILED = frozenset({"fail", "conditional fail"})
-"""Verdicts counted as part failures in the Pareto, in runs that completed (as
-``ResultStore.step_moments`` counts them): a step that could not measure (``error``), and any step
-of a run stopped before its end, decide nothing about the part (``rig.screening``)."""
-
-
 @dataclass(frozen=True)
 class StepStats:
     sequence: str
@@ -62,6 +56,8 @@ class StepStats:
     mean_expanded_u: float | None
     position: int
     failures: int
+    """Part failures (``rig.store.part_failure_sql``): fail or conditional fail in a run the
+    screen can decide, of a step that reads the part; what the Pareto counts."""
 
 
 @dataclass(frozen=True)
@@ -311,7 +307,7 @@ def _model_row(
     us = [u for u in us if math.isfinite(u)]
     mean_u = sum(us) / len(us) if us else None
     position = min(int(r[8]) for r in runs)
-    failures = sum(str(r[9]) in FAILED and r[10] == "complete" for r in runs)
+    failures = sum(int(r[11]) for r in runs)
     return _stats(sequence, step_id, unit, limits, cap, mean_u, position, failures)
 
 

@@ -41,10 +41,11 @@ def runs_frame(rows: Sequence[Sequence[object]]) -> pd.DataFrame:
     complete = frame["status"].to_numpy() == "complete"
     frame["passed"] = complete & frame["verdict"].isin(PASSING).to_numpy()
     frame["answered_no"] = frame["answered_no"].astype(bool)
-    # a run with a question answered no decides nothing about the part (``rig.screening``)
-    frame["failed"] = (
-        complete & frame["verdict"].isin(FAILING).to_numpy() & ~frame["answered_no"].to_numpy()
-    )
+    # a run with a question answered no, or whose bench reference failed, decides nothing about
+    # the part (``rig.screening``): its fail is no part failure
+    reference_failed = frame["reference_failed"].astype(bool).to_numpy()
+    undecidable = frame["answered_no"].to_numpy() | reference_failed
+    frame["failed"] = complete & frame["verdict"].isin(FAILING).to_numpy() & ~undecidable
     frame["day"] = frame["started_at"].astype(str).str.slice(0, 10)
     return frame
 
