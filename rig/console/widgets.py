@@ -11,7 +11,9 @@ from textual.widgets import DataTable
 
 from rig.console.big_letters import big_letters, width_of
 from rig.console.chart import Chart, render
+from rig.console.decision import decision_line, decision_style
 from rig.console.words import RunVerdict, stored_run_word
+from rig.screening import CONFIRMED, NO_FAULT, ScreenDecision
 
 
 class StatusPanel(Widget):
@@ -25,6 +27,8 @@ class StatusPanel(Widget):
     """
 
     MOST_WARNINGS = 3
+    BESIDE_GAP = "    "
+    """Between the verdict's block letters and the screen decision beside them."""
     """Warning lines shown under the verdict; more are counted, and all are in the run's record."""
 
     def __init__(self, **kwargs: Any) -> None:
@@ -33,30 +37,32 @@ class StatusPanel(Widget):
         self.verdict: RunVerdict | None = None
         self.warnings: list[str] = []
         self.record_text = ""
+        self.decision: ScreenDecision | None = None
 
     def progress(self, *lines: str) -> None:
         self._lines = list(lines)
         self.refresh()
 
     def show_verdict(
-        self, verdict: RunVerdict, warnings: list[str] | None = None, record_text: str = ""
+        self,
+        verdict: RunVerdict,
+        warnings: list[str] | None = None,
+        record_text: str = "",
+        decision: ScreenDecision | None = None,
     ) -> None:
-        """The verdict, and under it the claim and remark the run was filed with and what the
-        technician must act on (relay wear, a bench not made safe, a retried fault): the panel
-        grows to the wrapped lines (up to its max-height), so a long reason does not push the
-        warnings out of sight."""
+        """The verdict, a screen's decision on the unit beside it, and under them the claim and
+        remark the run was filed with and what the technician must act on (relay wear, a bench
+        not made safe, a retried fault): the panel grows to the wrapped lines (up to its
+        max-height), so a long reason does not push the warnings out of sight.  A screen's
+        border follows its decision, not its verdict: a pass within U of a limit is no clean
+        pass for a returned unit."""
         self.verdict = verdict
         self.warnings = list(warnings or [])
         self.record_text = record_text
+        self.decision = decision
         self.styles.height = "auto"
-        word = verdict.word
         self.remove_class("-pass", "-fail", "-other")
-        if word == "PASS":
-            self.add_class("-pass")
-        elif word == "FAIL":
-            self.add_class("-fail")
-        else:
-            self.add_class("-other")
+        self.add_class(_border_class(verdict, decision))
         self.refresh()
 
     def render(self) -> Text:
@@ -65,12 +71,23 @@ class StatusPanel(Widget):
         width = self.size.width
         text = Text()
         word = self.verdict.word
+        beside = "" if self.decision is None else f" screen decision: {self.decision.word} "
         if width_of(word) <= width:
-            for line in big_letters(word):
-                text.append(line + "\n", self.verdict.style)
+            letters = big_letters(word)
+            # the decision beside the letters' middle row, where it fits; always written below
+            fits = width_of(word) + len(self.BESIDE_GAP) + len(beside) <= width
+            for row, line in enumerate(letters):
+                text.append(line, self.verdict.style)
+                if beside and fits and row == len(letters) // 2:
+                    text.append(" " * (width_of(word) - len(line)) + self.BESIDE_GAP)
+                    text.append(beside, self._decision_style() + " reverse")
+                text.append("\n")
         else:
             text.append(f"RUN VERDICT: {word}\n", self.verdict.style)
         text.append(f"{word}: {self.verdict.line}", "bold")
+        if self.decision is not None:
+            text.append("\n")
+            text.append(decision_line(self.decision), self._decision_style())
         if self.record_text:
             text.append(f"\n{self.record_text}")
         for warning in self.warnings[: self.MOST_WARNINGS]:
@@ -79,6 +96,17 @@ class StatusPanel(Widget):
             more = len(self.warnings) - self.MOST_WARNINGS
             text.append(f"\n... and {more} more warning(s) in the run's record (F2)", "yellow")
         return text
+
+    def _decision_style(self) -> str:
+        return "bold" if self.decision is None else decision_style(self.decision)
+
+
+def _border_class(verdict: RunVerdict, decision: ScreenDecision | None) -> str:
+    """The panel's border: green for a pass (a screen's: no fault found), red for a fail (a
+    screen's: a confirmed failure), amber for anything else."""
+    if decision is not None:
+        return {NO_FAULT: "-pass", CONFIRMED: "-fail"}.get(decision.word, "-other")
+    return {"PASS": "-pass", "FAIL": "-fail"}.get(verdict.word, "-other")
 
 
 class ChartView(Widget):

@@ -14,6 +14,7 @@ from textual.containers import VerticalScroll
 from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Static
 
+from rig.console.decision import decision_line, decision_style, stored_decision
 from rig.console.setup import ConsoleSetup
 from rig.console.widgets import RunList, TextTable
 from rig.console.words import (
@@ -113,6 +114,10 @@ class RecordScreen(Screen[None]):
         head.append(f"Run {run['id']}  ", "bold")
         head.append(word, style)
         head.append(f"  ({run['status']})\n")
+        units = self.store.sequence_units(str(run["sequence_name"]))
+        decision = stored_decision(self.store, self.run_id, units)
+        if decision is not None:
+            head.append(decision_line(decision) + "\n", decision_style(decision))
         head.append(
             f"serial {run['serial']} · sequence {run['sequence_name']} · station {run['station']}\n"
         )

@@ -22,6 +22,7 @@ from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Input, Static
 from textual.worker import Worker
 
+from rig.console.decision import stored_decision
 from rig.console.diagnosis import DiagnosisView, diagnose
 from rig.console.plots import ntc_chart, step_history, trend_chart
 from rig.console.screens.prompt import PromptScreen
@@ -52,6 +53,7 @@ from rig.console.worker import (
 from rig.engine import RunSummary
 from rig.events import CUT_SHORT, NOT_RUN, StepFinished, StepResult, StepStarted
 from rig.judge.decision import Verdict
+from rig.steps import KINDS
 from rig.store import ResultStore
 
 HARNESS_PROOF = "harness-proof"
@@ -333,10 +335,12 @@ class RunScreen(Screen[str | None]):
         if self.quit_when_done:
             self.app.exit()
             return
+        units = {KINDS[p.spec.kind].unit for p in self.request.plan.steps}
         status.show_verdict(
             run_verdict(summary.status, summary.verdict, summary.reason, summary.safe),
             summary.warnings,
             record_text_line(summary.claim, summary.remark),
+            stored_decision(self.store, summary.run_id, units),
         )
         self._add_unjudged(summary)
         table = self.query_one("#steps", DataTable)

@@ -1,0 +1,56 @@
+"""The screen's decision on a unit as the console shows it, beside the run's verdict.
+
+A run's verdict alone can read PASS where the unit's record says inconclusive (a simple-rule
+pass within U of its limit), so the console states the decision ``rig run`` prints, from the same
+rule (``rig.screening``) applied to the run's stored steps; none for a harness proof.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable
+
+from rig.screening import (
+    CONFIRMED,
+    INCONCLUSIVE,
+    NO_FAULT,
+    UNDECIDED,
+    ScreenDecision,
+    answered_no,
+    is_screen,
+    screen_decision,
+    step_evidence,
+)
+from rig.store import ResultStore
+
+DECISION_STYLES = {
+    CONFIRMED: "bold red",
+    NO_FAULT: "bold green",
+    INCONCLUSIVE: "bold yellow",
+    UNDECIDED: "bold magenta",
+}
+"""Colour repeats the words: the decision is always written out as well."""
+
+
+def stored_decision(
+    store: ResultStore, run_id: int, sequence_units: Iterable[str] = ()
+) -> ScreenDecision | None:
+    """The screen's decision from the run's stored row and steps, or None where the sequence
+    proves or captures a harness.  ``sequence_units``: the units the sequence's steps record
+    beyond the stored ones (its planned steps, or its other runs), so a proof ended before its
+    proof step is still one."""
+    run = store.run(run_id)
+    steps = store.steps(run_id)
+    if not is_screen({str(s["unit"]) for s in steps} | set(sequence_units)):
+        return None
+    no = answered_no((str(s["unit"]), str(s["verdict"])) for s in steps)
+    verdict = None if run["verdict"] is None else str(run["verdict"])
+    return screen_decision(str(run["status"]), verdict, step_evidence(steps), answered_no=no)
+
+
+def decision_line(decision: ScreenDecision) -> str:
+    """The decision as ``rig run`` prints it under the verdict."""
+    return f"screen decision: {decision.word} ({decision.meaning})"
+
+
+def decision_style(decision: ScreenDecision) -> str:
+    return DECISION_STYLES.get(decision.word, "bold")
