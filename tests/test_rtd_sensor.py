@@ -260,7 +260,7 @@ def test_stats_sums_a_class_judged_step_in_percent_of_its_tolerance() -> None:
         predicted = pt_r(1000.0, temp)
         half = (0.30 + 0.005 * temp) * pt_slope(1000.0, temp)
         row = (predicted + off, predicted, predicted - half, predicted + half, 0.9, 1, "pass")
-        rows.append(("pt1000-screen", "element", "ohm", *row, "complete"))
+        rows.append(("pt1000-screen", "element", "ohm", *row, "complete", 0))
     [found] = model_step_stats(rows)
     assert (found.unit, found.low, found.high, found.n) == (SHARE, -100.0, 100.0, 3)
     shares = [
