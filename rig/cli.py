@@ -808,7 +808,9 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
         out.line()
         out.line(f"verdict: {summary.verdict.value.upper()}  ({summary.status})")
         if decision is not None:
-            out.line(f"screen decision: {decision.word} ({decision.meaning})")
+            from rig.screening import decision_line
+
+            out.line(decision_line(decision))
         if summary.reason:
             out.line(f"reason: {summary.reason}")
         out.warnings(summary.warnings)

@@ -271,6 +271,11 @@ def screen_decision(
     return ScreenDecision(word, MEANINGS[word])
 
 
+def decision_line(decision: ScreenDecision) -> str:
+    """The decision as ``rig run`` prints it under the verdict, and the console beside it."""
+    return f"screen decision: {decision.word} ({decision.meaning})"
+
+
 def answered_no(steps: Iterable[tuple[str, str]]) -> bool:
     """Whether an operator answered no in a run, from its steps' (unit, verdict)."""
     return any(unit == ANSWER_UNIT and verdict == "fail" for unit, verdict in steps)

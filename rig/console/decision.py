@@ -47,10 +47,5 @@ def stored_decision(
     return screen_decision(str(run["status"]), verdict, step_evidence(steps), answered_no=no)
 
 
-def decision_line(decision: ScreenDecision) -> str:
-    """The decision as ``rig run`` prints it under the verdict."""
-    return f"screen decision: {decision.word} ({decision.meaning})"
-
-
 def decision_style(decision: ScreenDecision) -> str:
     return DECISION_STYLES.get(decision.word, "bold")

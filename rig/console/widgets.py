@@ -11,9 +11,9 @@ from textual.widgets import DataTable
 
 from rig.console.big_letters import big_letters, width_of
 from rig.console.chart import Chart, render
-from rig.console.decision import decision_line, decision_style
+from rig.console.decision import decision_style
 from rig.console.words import RunVerdict, stored_run_word
-from rig.screening import CONFIRMED, NO_FAULT, ScreenDecision
+from rig.screening import CONFIRMED, NO_FAULT, ScreenDecision, decision_line
 
 
 class StatusPanel(Widget):

@@ -14,7 +14,7 @@ from textual.containers import VerticalScroll
 from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Static
 
-from rig.console.decision import decision_line, decision_style, stored_decision
+from rig.console.decision import decision_style, stored_decision
 from rig.console.setup import ConsoleSetup
 from rig.console.widgets import RunList, TextTable
 from rig.console.words import (
@@ -27,6 +27,7 @@ from rig.console.words import (
 )
 from rig.judge.decision import Limits, Verdict
 from rig.planned_steps import unmeasured_steps
+from rig.screening import decision_line
 from rig.store import ResultStore
 
 
