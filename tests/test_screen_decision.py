@@ -76,7 +76,9 @@ def test_rig_run_prints_the_decision_and_what_it_means(
         (line,) = [x for x in text.splitlines() if x.startswith("screen decision:")]
         assert line.startswith(f"screen decision: {decision} (")
     edge = found["S-EDGE"][1]
-    assert "within the uncertainty of a limit" in edge and "retest" in edge
+    # the edge case names its step near the limit, its margin and its U
+    (said,) = [x for x in edge.splitlines() if x.startswith("screen decision:")]
+    assert " its nearer limit, within its U of " in said and "retest" in said, said
     # the sender sits in a well the bench Pt100 reads: its caution comes before the run (the
     # usual cautions for hot liquids, common practice, no published source)
     assert "Caution: a heated well or liquid bath burns" in edge
