@@ -28,6 +28,12 @@ from rig.plan import NO_PROBE_WARNING
 from rig.runner import load_plan, run_plan
 from rig.sim.bench import VirtualBench
 
+NO_REFERENCE_U_WARNING = (
+    "step signal-vs-curve: its stated reference, 5 V, has no reference_u: the prediction's U "
+    "leaves out how far the divider's reference may be from it"
+)
+"""The example states its divider's 5 V reference with no u (``rig.steps.model_steps``)."""
+
 EXAMPLE_RESOURCES = (
     "TCPIP0::192.168.0.20::5025::SOCKET",
     "TCPIP0::192.168.0.21::5025::SOCKET",
@@ -95,7 +101,7 @@ def test_the_example_station_holds_the_pt100_on_a_range_it_lists(
     assert "1 kohm" in ambient and " auto " not in ambient
     # the example station states no reference probe: that is the one warning, none of ranges
     warnings = [line for line in out.splitlines() if line.startswith("warning")]
-    assert warnings == [f"warning: {NO_PROBE_WARNING}"]
+    assert warnings == [f"warning: {NO_REFERENCE_U_WARNING}", f"warning: {NO_PROBE_WARNING}"]
 
 
 def test_check_refuses_a_guarded_step_that_may_read_beyond_the_table(
@@ -117,7 +123,9 @@ def test_check_warns_of_it_under_the_simple_rule(
     warnings = [
         line
         for line in capsys.readouterr().out.splitlines()
-        if "warning" in line and NO_PROBE_WARNING not in line  # the example states no probe
+        if "warning" in line
+        and NO_PROBE_WARNING not in line  # the example states no probe
+        and "has no reference_u" not in line  # nor its divider reference's u
     ]
     assert len(warnings) == 1
     assert warnings[0].startswith("warning: step ambient: a passing unit may read up to 115.5 ohm")
@@ -177,7 +185,10 @@ def test_an_unbounded_guarded_reading_beyond_the_table_is_noted_at_run_time(
     assert main(["check", str(sequence), "--station", str(old)]) == 0
     # the example states no reference probe (rig check says so); no other warning
     lines = capsys.readouterr().out.splitlines()
-    assert [line for line in lines if "warning" in line] == [f"warning: {NO_PROBE_WARNING}"]
+    assert [line for line in lines if "warning" in line] == [
+        f"warning: {NO_REFERENCE_U_WARNING}",
+        f"warning: {NO_PROBE_WARNING}",
+    ]
     summary = run(sequence, on_bench(old, bench))
     ambient = next(r for r in summary.results if r.step_id == "ambient")
     assert ambient.note.startswith(

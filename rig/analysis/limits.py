@@ -39,7 +39,7 @@ from rig.analysis.montecarlo import (
     prediction_centre,
 )
 from rig.analysis.predict import SequencePredictor, StepPrediction
-from rig.analysis.stated_inputs import stated_of
+from rig.analysis.stated_inputs import stated_u_names
 from rig.analysis.supply_output import exact_output_warning
 from rig.config.unit_file import UnitModel
 from rig.faults import Fault
@@ -175,6 +175,9 @@ class Proposal:
     tur_at_c: float | None = None
     """For limits around an ntc step's prediction, the ambient the TUR is taken at: the worst
     end of the unit file's temperature range (``rig.analysis.model_tur``)."""
+    tur_dominant: str | None = None
+    """The stated input (``temperature``, ``pressure``, ``reference``) whose u makes up most of
+    the U that TUR is taken with, if one does: the advice is then to state it more closely."""
 
     @property
     def present_ppm(self) -> float:
@@ -400,6 +403,7 @@ def _model_turs(plan: Plan, unit: UnitModel, proposals: Sequence[Proposal]) -> N
         if proposal.step_id in tolerances and proposal.step_id in found:
             worst = found[proposal.step_id].worst
             proposal.tur, proposal.tur_at_c = worst.tur, worst.temp_c
+            proposal.tur_dominant = worst.dominant_stated
 
 
 def _ambient_warnings(plan: Plan, unit: UnitModel, proposals: Sequence[Proposal]) -> list[str]:
@@ -448,8 +452,8 @@ def _warnings(study: LimitsStudy) -> list[str]:
                 f"step {proposal.step_id}: TUR {tur_text(proposal.tur)}{_at(proposal)} with the "
                 f"proposed limits (rig check marks a TUR under {TUR_MINIMUM:g}:1 LOW): "
                 f"{_whose_u(specs[proposal.step_id])} is about as wide as the limits, so it "
-                "decides verdicts near them; widen them where the faults allow, or measure with a "
-                "smaller uncertainty"
+                "decides verdicts near them; widen them where the faults allow, "
+                f"{_remedy(proposal)}"
             )
         if proposal.no_reading:
             found.append(
@@ -480,11 +484,28 @@ def _warnings(study: LimitsStudy) -> list[str]:
 
 def _whose_u(spec: StepSpec) -> str:
     """Whose uncertainty a low TUR comes from: the meter's, and a stated figure's with its u."""
-    stated = stated_of(spec)
+    stated = stated_u_names(spec)
     return (
         "the meter's uncertainty"
-        if stated is None
-        else (f"the uncertainty of the meter and of the stated {stated[0]}")
+        if not stated
+        else f"the uncertainty of the meter and of the stated {' and '.join(stated)}"
+    )
+
+
+STATED_INPUT_WORDS = {"reference": "reference voltage"}
+"""How the advice names a stated input where its key alone would not say what it is."""
+
+
+def _remedy(proposal: Proposal) -> str:
+    """A smaller uncertainty where it helps: the stated input's where its u makes up most of
+    U (a better meter would move the TUR little), else the meter's."""
+    name = proposal.tur_dominant
+    if name is None:
+        return "or measure with a smaller uncertainty"
+    words = STATED_INPUT_WORDS.get(name, name)
+    return (
+        f"or state the {words} with a smaller u ({name}_u; measure it at the bench), which "
+        "makes up most of U"
     )
 
 

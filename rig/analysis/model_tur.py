@@ -33,8 +33,13 @@ from rig.judge.propagate import u_quotient
 from rig.models.rtd import T_MAX_C, T_MIN_C
 from rig.plan import Plan, PlannedStep
 from rig.step_judging import autorange_estimate, reading_u
-from rig.steps import KINDS
-from rig.steps.model_steps import ntc_window, ratiometric_prediction, stated_temperature
+from rig.steps import KINDS, StepSpec
+from rig.steps.model_steps import (
+    ntc_window,
+    ratiometric_prediction,
+    stated_reference,
+    stated_temperature,
+)
 from rig.steps.rtd_step import rtd_window
 
 MODEL_KINDS = ("ntc", "rtd", "ratiometric")
@@ -51,6 +56,19 @@ class TurAt:
     temp_c: float
     expanded: float
     tur: float
+    stated_parts: tuple[tuple[str, float], ...] = ()
+    """Each stated input with a u (``temperature``, ``pressure``, ``reference``) and the
+    standard uncertainty it gives the prediction, in the step's unit: what U is made of."""
+
+    @property
+    def dominant_stated(self) -> str | None:
+        """The stated input that makes up more than half of U's variance, if one does: a
+        smaller meter uncertainty then moves the TUR little, a smaller u of that input does."""
+        u_c = self.expanded / COVERAGE_K
+        for name, part in self.stated_parts:
+            if part**2 > 0.5 * u_c**2:
+                return name
+        return None
 
 
 @dataclass(frozen=True)
@@ -135,7 +153,7 @@ def _ratiometric_tur_at(
     u_out = _meter_u(plan, planned, MeterFunction.DC_VOLTS, v_out)
     u_read = 100.0 * u_quotient(v_out, supply.value, u_out, supply.u_std)
     expanded = COVERAGE_K * math.hypot(u_read, u_predicted)
-    return _tur_of(limits, expanded, temp_c)
+    return _tur_of(limits, expanded, temp_c, (("pressure", u_predicted),))
 
 
 def _rtd_tur_at(
@@ -166,7 +184,8 @@ def _rtd_tur_at(
     assert function is not None  # an rtd step reads ohms
     u_meter = _meter_u(plan, planned, function, at)
     expanded = COVERAGE_K * math.hypot(u_meter, window.u_std)
-    return _tur_of(window.limits, expanded, temp_c)
+    parts = () if params.get("temperature_from") else (("temperature", window.u_std),)
+    return _tur_of(window.limits, expanded, temp_c, parts)
 
 
 def _tur_at(
@@ -186,9 +205,7 @@ def _tur_at(
     temperature = _input(by_id, params.get("temperature_from"), stated_temperature(spec))
     reference = None
     if params.get("mode") == "voltage":
-        stated_v = params.get("reference_v")
-        stated_ref = None if stated_v is None else (float(stated_v), 0.0)
-        reference = _input(by_id, params.get("reference_from"), stated_ref)
+        reference = _input(by_id, params.get("reference_from"), stated_reference(spec))
         if reference is None:
             return None
     if temperature is None:
@@ -200,7 +217,21 @@ def _tur_at(
     assert function is not None  # an ntc step reads ohms or volts
     u_meter = _meter_u(plan, planned, function, at)
     expanded = COVERAGE_K * math.hypot(u_meter, window.u_std)
-    return _tur_of(window.limits, expanded, temp_c)
+    return _tur_of(window.limits, expanded, temp_c, _ntc_stated_parts(spec, temperature, reference))
+
+
+def _ntc_stated_parts(
+    spec: StepSpec, temperature: tuple[float, float], reference: tuple[float, float] | None
+) -> tuple[tuple[str, float], ...]:
+    """The prediction's u from each stated input alone (the other's u set to zero), through
+    the same window a run judges by; an input read from an earlier step is not stated."""
+    parts = []
+    if not spec.params.get("temperature_from"):
+        alone = None if reference is None else (reference[0], 0.0)
+        parts.append(("temperature", ntc_window(spec, temperature, alone).u_std))
+    if reference is not None and not spec.params.get("reference_from"):
+        parts.append(("reference", ntc_window(spec, (temperature[0], 0.0), reference).u_std))
+    return tuple(parts)
 
 
 def _meter_u(plan: Plan, planned: PlannedStep, function: MeterFunction, value: float) -> float:
@@ -211,10 +242,15 @@ def _meter_u(plan: Plan, planned: PlannedStep, function: MeterFunction, value: f
     return reading_u(station, function, value, range_)
 
 
-def _tur_of(limits: Limits, expanded: float, temp_c: float) -> TurAt | None:
+def _tur_of(
+    limits: Limits,
+    expanded: float,
+    temp_c: float,
+    stated_parts: tuple[tuple[str, float], ...] = (),
+) -> TurAt | None:
     """The step's U and TUR at ``temp_c``; None where U is not known."""
     tur = test_uncertainty_ratio(limits, expanded) if math.isfinite(expanded) else None
-    return None if tur is None else TurAt(temp_c, expanded, tur)
+    return None if tur is None else TurAt(temp_c, expanded, tur, stated_parts)
 
 
 def _input(

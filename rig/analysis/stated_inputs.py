@@ -21,7 +21,7 @@ from rig.analysis.good_units import Draw, FloatArray
 from rig.config.unit_file import NtcSensor, RatiometricSensor, RtdSensor, UnitModel
 from rig.quantity import format_quantity
 from rig.steps import StepSpec
-from rig.steps.model_steps import stated_temperature
+from rig.steps.model_steps import stated_reference, stated_temperature
 
 NORMAL = "normal"
 NORMAL_STATED = (
@@ -75,6 +75,18 @@ def stated_of(spec: StepSpec) -> tuple[str, float, float] | None:
         if u > 0:
             return "pressure", float(spec.params["pressure_pa"]), u
     return None
+
+
+def stated_u_names(spec: StepSpec) -> list[str]:
+    """The stated inputs of a step that carry a u above zero, by their key (``temperature``,
+    ``pressure``, ``reference``): what its U is made of besides the meter.  The divider's
+    reference is not drawn by the Monte Carlo (the unit file's controller source is the true
+    reference, drawn with its own tolerance), so it is named here and not in ``stated_of``."""
+    found = [] if (stated := stated_of(spec)) is None else [stated[0]]
+    reference = stated_reference(spec) if spec.kind == "ntc" else None
+    if reference is not None and reference[1] > 0:
+        found.append("reference")
+    return found
 
 
 def stated_inputs(specs: Iterable[StepSpec]) -> dict[str, StatedInput]:

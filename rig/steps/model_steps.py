@@ -305,7 +305,7 @@ def temperature_at(ctx: StepContext, spec: StepSpec) -> tuple[float, float]:
 
 _NTC_MEASURES = {"resistance": "ohm", "voltage": "V"}
 """What an ntc step's ``measure`` takes, and the unit the step then reads in."""
-_NTC_BY_MEASURE = ("tolerance", "pullup", "reference", "reference_from", "supply")
+_NTC_BY_MEASURE = ("tolerance", "pullup", "reference", "reference_u", "reference_from", "supply")
 """The keys of an ntc step whose meaning (or whether they belong) depends on ``measure``."""
 
 
@@ -313,6 +313,41 @@ def _ntc_measure(sec: Section) -> str | None:
     """``measure`` ("resistance" when it is not written); None where it is wrong, a problem."""
     mode = sec.string("measure", "resistance", choices=tuple(_NTC_MEASURES))
     return mode if sec.raw("measure") in (None, mode) else None
+
+
+def _reference_u(sec: Section, spec: StepSpec, key: str) -> None:
+    """``reference_u``, the stated reference's standard uncertainty in V; refused with
+    ``reference_from``, whose step's own uncertainty is used."""
+    if key == "reference":
+        spec.params["reference_u_v"] = sec.quantity("reference_u", "V", None, not_negative=True)
+    elif sec.has("reference_u"):
+        sec.problem(
+            "reference_u",
+            "goes with a stated reference; with reference_from the earlier step's "
+            "uncertainty is used",
+        )
+
+
+def stated_reference(spec: StepSpec) -> tuple[float, float] | None:
+    """An ntc step's stated divider reference in V and its standard uncertainty in V (0 where
+    the file states none); None where it reads an earlier step's, or measures resistance."""
+    stated = spec.params.get("reference_v")
+    if spec.params.get("reference_from") or stated is None:
+        return None
+    return float(stated), float(spec.params.get("reference_u_v") or 0.0)
+
+
+def unstated_reference_u_warnings(spec: StepSpec) -> list[str]:
+    """``rig check``'s word on a stated divider reference with no ``reference_u``: the
+    prediction scales with it, so its U then leaves out how far the controller's reference
+    may be from the stated figure."""
+    stated = stated_reference(spec)
+    if stated is None or spec.params.get("reference_u_v") is not None:
+        return []
+    return [
+        f"its stated reference, {format_quantity(stated[0], 'V')}, has no reference_u: the "
+        "prediction's U leaves out how far the divider's reference may be from it"
+    ]
 
 
 class NtcCheck(StepKind):
@@ -358,6 +393,7 @@ class NtcCheck(StepKind):
                 sec, spec, "reference_from", "reference", "V", positive=True
             )
             spec.params["reference_from" if key == "reference_from" else "reference_v"] = value
+            _reference_u(sec, spec, key)
             read_supply(sec, spec)
 
     def model_parameters(self, spec: StepSpec) -> dict[str, str]:
@@ -377,13 +413,16 @@ class NtcCheck(StepKind):
                 found["reference_from"] = str(source)
             else:
                 found["reference"] = recorded(float(spec.params["reference_v"]), "V")
+                u_ref = spec.params.get("reference_u_v")
+                if u_ref is not None:
+                    found["reference_u"] = recorded(float(u_ref), "V")
         return found
 
     def check_warnings(
         self, spec: StepSpec, earlier: EarlierSteps, probe: ReferenceProbe | None
     ) -> list[str]:
-        """A stated temperature with no stated uncertainty."""
-        return unstated_u_warnings(spec)
+        """A stated temperature, or a stated divider reference, with no stated uncertainty."""
+        return unstated_u_warnings(spec) + unstated_reference_u_warnings(spec)
 
     def routes(self, spec: StepSpec) -> list[Route]:
         route = Route.dmm(spec.pins["hi"], spec.pins["lo"])
@@ -439,7 +478,9 @@ class NtcCheck(StepKind):
             ref = ctx.earlier(spec.params["reference_from"])
             v_ref, u_ref = ref.value, ref.u_std
         else:
-            v_ref, u_ref = float(spec.params["reference_v"]), 0.0
+            stated = stated_reference(spec)
+            assert stated is not None  # parsing requires reference or reference_from
+            v_ref, u_ref = stated
         window = ntc_window(spec, (temp, u_temp), (v_ref, u_ref))
         return Outcome(
             reading.value,
