@@ -248,13 +248,7 @@ def temperature_source(sec: Section, spec: StepSpec) -> None:
     key, value = _earlier_or_stated(sec, spec, "temperature_from", "temperature", "degC")
     if key == "temperature":
         value = above_absolute_zero(sec, key, value)
-        spec.params["temperature_u_k"] = sec.quantity("temperature_u", "K", None, not_negative=True)
-    elif sec.has("temperature_u"):
-        sec.problem(
-            "temperature_u",
-            "goes with a stated temperature; with temperature_from the earlier step's "
-            "uncertainty is used",
-        )
+    _stated_u(sec, spec, key, "temperature", "K")
     spec.params["temperature_from" if key == "temperature_from" else "temperature_c"] = value
 
 
@@ -315,16 +309,18 @@ def _ntc_measure(sec: Section) -> str | None:
     return mode if sec.raw("measure") in (None, mode) else None
 
 
-def _reference_u(sec: Section, spec: StepSpec, key: str) -> None:
-    """``reference_u``, the stated reference's standard uncertainty in V; refused with
-    ``reference_from``, whose step's own uncertainty is used."""
-    if key == "reference":
-        spec.params["reference_u_v"] = sec.quantity("reference_u", "V", None, not_negative=True)
-    elif sec.has("reference_u"):
+def _stated_u(sec: Section, spec: StepSpec, key: str, stated: str, unit: str) -> None:
+    """``<stated>_u``, a stated figure's standard uncertainty (kept as ``<stated>_u_<unit>``),
+    where ``key`` says the figure is stated; refused with ``<stated>_from``, whose step's own
+    uncertainty is used."""
+    name = f"{stated}_u"
+    if key == stated:
+        spec.params[f"{name}_{unit.lower()}"] = sec.quantity(name, unit, None, not_negative=True)
+    elif sec.has(name):
         sec.problem(
-            "reference_u",
-            "goes with a stated reference; with reference_from the earlier step's "
-            "uncertainty is used",
+            name,
+            f"goes with a stated {stated}; with {stated}_from the earlier step's uncertainty is "
+            "used",
         )
 
 
@@ -393,7 +389,7 @@ class NtcCheck(StepKind):
                 sec, spec, "reference_from", "reference", "V", positive=True
             )
             spec.params["reference_from" if key == "reference_from" else "reference_v"] = value
-            _reference_u(sec, spec, key)
+            _stated_u(sec, spec, key, "reference", "V")
             read_supply(sec, spec)
 
     def model_parameters(self, spec: StepSpec) -> dict[str, str]:
