@@ -13,8 +13,7 @@ import re
 from pathlib import Path
 
 import pytest
-
-from tests.doc_blocks import DOCS, ROOT
+from doc_blocks import DOCS, ROOT
 
 PAGES = [*sorted(DOCS.glob("*.md")), ROOT / "README.md", ROOT / "DEVELOPERS.md"]
 LINK = re.compile(r"\[[^\]]*\]\(([^)\s]+)\)")
