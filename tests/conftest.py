@@ -1,3 +1,3 @@
 """Fixtures shared by test modules: the throwaway PostgreSQL server (postgres_server.py)."""
 
-pytest_plugins = ["postgres_server"]
+pytest_plugins = ["postgres_server", "bench_under_test"]
