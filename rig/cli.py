@@ -14,7 +14,7 @@ from types import FrameType
 from typing import TYPE_CHECKING
 
 from rig import __version__
-from rig.cautions import CAUTION, cautions_for
+from rig.cautions import HARNESS_CAUTION, WELL_CAUTION, cautions_for
 from rig.cli_output import Output, show, show_limits
 from rig.commands._bench_control import add_port_args
 from rig.commands._record_text import add_record_text_args, record_text_problem
@@ -193,8 +193,9 @@ def _exit_code(verdict: Verdict, status: str) -> int:
 def cmd_demo(args: argparse.Namespace, out: Output) -> int:
     from rig.demo import run_demo
 
-    if not args.json:
-        out.line(CAUTION)
+    if not args.json:  # the demo proves a harness and screens senders in a well: both cautions
+        out.line(HARNESS_CAUTION)
+        out.line(WELL_CAUTION)
         out.line("Demo: a virtual bench with invented units and faults (no hardware needed).")
         out.line()
     store_path, runs = run_demo(args.data_dir.resolve())

@@ -1,4 +1,5 @@
-"""Fault coverage on the shipped harness demo and on a deliberately weak sequence.
+"""Fault coverage on the shipped sensor circuit check (temp-circuit-check) and on a
+deliberately weak sequence.
 
 Expected detections follow from the pull-up divider of a 5 V sensor circuit: an open sensor or
 signal wire reads near the pull-up voltage, a short to ground near 0 V; healthy signal 0.6 V to

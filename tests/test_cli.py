@@ -12,8 +12,19 @@ import pytest
 from bench_helpers import SEQUENCES, shipped_bench
 from sim_process import control, control_port, served
 
+from rig.cautions import HARNESS_CAUTION, WELL_CAUTION
 from rig.cli import main
 from rig.config.station import load_station
+
+
+def test_demo_says_the_harness_and_the_well_cautions_first(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # the demo proves a harness and screens senders read against a well's temperature: both
+    # cautions come before anything else, as rig run would say them for those sequences
+    assert main(["demo", "--data-dir", str(tmp_path)]) == 0
+    head = capsys.readouterr().out.split("Demo:")[0]
+    assert HARNESS_CAUTION in head and WELL_CAUTION in head
 
 
 def test_demo_json_lists_every_run_with_its_verdict(

@@ -1,4 +1,4 @@
-"""Speed of fault coverage: the full single-fault set of the shipped harness demo
+"""Speed of fault coverage: the full single-fault set of the shipped sensor circuit
 (sequences/temp-circuit-check.toml on units/temp-circuit.toml, station from the virtual bench),
 solved without instruments.  Prints the fault x step matrix, then one JSON object as its last line.
 

@@ -1,7 +1,7 @@
 """Accuracy and speed of fault diagnosis: random single faults (seeded) injected into the virtual
 bench (instant timing, real drivers), each run diagnosed from its stored readings.  Three cases in
-four are on the shipped harness demo (temp-circuit-check on units/temp-circuit.toml), the rest on
-the pressure circuit.  Prints one line per miss and one per unit, then one JSON object as its
+four are on the shipped sensor circuit (temp-circuit-check on units/temp-circuit.toml), the rest
+on the pressure circuit.  Prints one line per miss and one per unit, then one JSON object as its
 last line.
 
 Goals (not asserted, this is a benchmark): the true fault first in at least 90 % of cases and in
@@ -48,7 +48,7 @@ from rig.store import ResultStore
 
 SEQUENCES = Path(__file__).resolve().parents[2] / "sequences"
 UNITS = {"temp-circuit": "temp-circuit-check", "pressure-circuit": "pressure-circuit-check"}
-"""The shipped harness demo (three cases in four) and the pressure circuit."""
+"""The shipped sensor circuit (three cases in four) and the pressure circuit."""
 SERIES_OHM = (0.2, 2000.0)
 DRIFT_PCT = (2.0, 40.0)
 

@@ -138,7 +138,8 @@ def main(argv: list[str] | None = None) -> int:
 def read_roundtrip_ms(count: int) -> float | None:
     """Median time of one ``READ?`` through pyvisa-py to the virtual bench's DMM, instant timing.
 
-    The bench is the shipped harness demo unit on the demo fixture, served on a real TCP socket.
+    The bench is the shipped sensor circuit's unit (temp-circuit) on the demo fixture, served on a
+    real TCP socket.
     """
     import statistics
     from pathlib import Path
