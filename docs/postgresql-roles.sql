@@ -15,8 +15,8 @@
 -- What it sets up:
 --   * a station role reads every row of the tables granted below (fleet statistics and reports
 --     read the whole server);
---   * it adds and changes rows of runs, steps, readings, relay_wear and station_names, the
---     tables a send writes (a send is an upsert: INSERT, and UPDATE for a run sent again, and
+--   * it adds and changes rows of runs, steps, readings, relay_wear, station_names and
+--     store_senders, the tables a send writes (a send is an upsert: INSERT, and UPDATE for a run sent again, and
 --     SELECT for the upsert's RETURNING), and only rows of the station names station_roles gives
 --     it (row-level security);
 --   * it deletes nothing and can drop, alter or create no table: those need the owner.
@@ -40,11 +40,12 @@ REVOKE CREATE ON SCHEMA public FROM PUBLIC;
 REVOKE ALL ON ALL TABLES IN SCHEMA public FROM rig_station;
 
 GRANT SELECT ON rig_schema, store_identity, station_roles TO rig_station;
-GRANT SELECT, INSERT, UPDATE ON runs, steps, readings, relay_wear, station_names TO rig_station;
+GRANT SELECT, INSERT, UPDATE ON runs, steps, readings, relay_wear, station_names, store_senders
+    TO rig_station;
 
--- Row-level security on the five tables a send writes: every row may be read; a row may be
--- added or changed only where it is of the role's own station names: runs, relay wear and name
--- claims by their station, steps and readings by their run's.  The expressions are resolved when
+-- Row-level security on the six tables a send writes: every row may be read; a row may be
+-- added or changed only where it is of the role's own station names: runs, relay wear, name
+-- claims and send passes by their station, steps and readings by their run's.  The expressions are resolved when
 -- a policy is made, as a view's are.
 DO $$
 DECLARE
@@ -57,7 +58,8 @@ DECLARE
     mine TEXT;
 BEGIN
     FOR tbl, mine IN VALUES ('runs', own_station), ('relay_wear', own_station),
-            ('station_names', own_station), ('steps', own_run), ('readings', own_run)
+            ('station_names', own_station), ('store_senders', own_station),
+            ('steps', own_run), ('readings', own_run)
     LOOP
         EXECUTE format('ALTER TABLE %I ENABLE ROW LEVEL SECURITY', tbl);
         EXECUTE format('DROP POLICY IF EXISTS station_reads ON %I', tbl);

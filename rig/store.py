@@ -168,6 +168,21 @@ MIGRATIONS: list[str] = [
         claimed_at TEXT NOT NULL
     );
     """,
+    # 7 -> 8: two copies of one station's file (benches cloned from one disk image share its
+    # store_uid) cannot both send to a shared server unseen (rig.store_copies): the server keeps
+    # the token of each store's last send pass, a station's file its own last token and the
+    # token of a pass under way
+    """
+    ALTER TABLE store_identity ADD COLUMN send_token TEXT;
+    ALTER TABLE store_identity ADD COLUMN next_token TEXT;
+    CREATE TABLE store_senders (
+        store_uid TEXT PRIMARY KEY,
+        send_token TEXT NOT NULL,
+        station TEXT NOT NULL,
+        host TEXT NOT NULL,
+        sent_at TEXT NOT NULL
+    );
+    """,
 ]
 
 SCHEMA_VERSION = len(MIGRATIONS)

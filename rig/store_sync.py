@@ -10,7 +10,9 @@ Runs still ``running`` wait until they end.
 
 Each send also checks, in its own server transaction, that the station name it goes under
 belongs to this station's file on the server (``rig.station_names``): two benches given one name
-would otherwise overwrite each other's relay wear and mix their runs.
+would otherwise overwrite each other's relay wear and mix their runs.  Before that, each pass
+checks that no other copy of this station's file (benches cloned from one disk image share its
+store id) sends to the server (``rig.store_copies``): the name check cannot tell two copies apart.
 
 A server on an older schema than this rig's is not upgraded by sending (stations still on the
 older rig write there too): the runs wait in the station's file, and say so, until someone asks
@@ -29,6 +31,7 @@ from rig.config.station import Station
 from rig.station_clock import skew
 from rig.station_names import check_name, take_over
 from rig.store import FILL_READING_UIDS, Migrate, ResultStore, StoreError
+from rig.store_copies import NotACopy, check_pass, new_store_id, this_sender
 from rig.store_open import open_local_store, open_server_store
 
 log = logging.getLogger(__name__)
@@ -68,6 +71,8 @@ class SyncReport:
     """Where the station's clock and the server's differ by more than a few minutes, that."""
     took_over: str = ""
     """The station name this pass took over on the server (``--take-over-name``), in words."""
+    renewed: str = ""
+    """The new store id this pass gave a copied file (``--new-store-id``), in words."""
 
     def describe(self) -> str:
         if not self.configured:
@@ -75,6 +80,8 @@ class SyncReport:
         text = f"{self.sent} run(s) sent to the results server"
         if self.took_over:
             text = f"{self.took_over}; {text}"
+        if self.renewed:
+            text = f"{self.renewed}; {text}"
         if self.upgraded:
             text = f"{self.upgraded}; {text}"
         if self.problem and not self.waiting:  # nothing lost now, but the next runs will wait
@@ -179,14 +186,41 @@ def _mark_sent(local: ResultStore, target: str, run_uid: str, fingerprint: str) 
         )  # fmt: skip
 
 
-def sync(local: ResultStore, remote: ResultStore, take_over_name: str | None = None) -> SyncReport:
+def _problem(exc: StoreError) -> str:
+    return str(exc) + (ROW_SECURITY_HINT if "row-level security" in str(exc) else "")
+
+
+def _newest_station(local: ResultStore) -> str:
+    row = local._db.execute("SELECT station FROM runs ORDER BY id DESC LIMIT 1").fetchone()
+    return "" if row is None else str(row[0])
+
+
+def sync(
+    local: ResultStore,
+    remote: ResultStore,
+    take_over_name: str | None = None,
+    *,
+    renew_id: bool = False,
+    station: str | None = None,
+) -> SyncReport:
     """Send every finished run the server does not have as it is now; stop at the first failure
-    (the server is most likely gone, or the run's station name is another file's) and say why.
-    ``take_over_name``: first give that station name to this station's file on the server."""
-    ours = local.store_uid()
-    took_over = ""
+    (the server is most likely gone, the file is a copy of another that sends there, or the
+    run's station name is another file's) and say why.  ``renew_id``: first give a copied file
+    a store id of its own (``NotACopy`` where it is not one); ``take_over_name``: first give
+    that station name to this station's file on the server.  ``station``: the name this pass is
+    sent as (the station file's; by default that of the file's newest run)."""
+    took_over = renewed = ""
+    sender = this_sender(_newest_station(local) if station is None else station)
     try:
         target = remote.store_uid()
+        if renew_id:
+            shared = new_store_id(local, remote)
+            renewed = (
+                f"this station's file given the new store id {local.store_uid()[:8]} (it shared "
+                f"{shared[:8]} with another copy of it)"
+            )
+        check_pass(local, remote, sender)
+        ours = local.store_uid()
         if take_over_name is not None:
             before = take_over(remote, take_over_name, ours)
             took_over = (
@@ -194,8 +228,11 @@ def sync(local: ResultStore, remote: ResultStore, take_over_name: str | None = N
                 + (f"from the station file whose store id starts {before[:8]}" if before else
                    "(no other station's file held it)")
             )  # fmt: skip
+    except NotACopy:
+        raise
     except StoreError as exc:
-        return SyncReport(0, len(pending_runs(local, None)), str(exc))
+        waiting = len(pending_runs(local, None))
+        return SyncReport(0, waiting, _problem(exc), took_over=took_over, renewed=renewed)
     try:
         server_now = remote.server_time()
     except StoreError:
@@ -213,9 +250,11 @@ def sync(local: ResultStore, remote: ResultStore, take_over_name: str | None = N
             sent += 1
         send_relay_wear(local, remote, ours)
     except StoreError as exc:
-        problem = str(exc) + (ROW_SECURITY_HINT if "row-level security" in str(exc) else "")
-        return SyncReport(sent, len(pending) - sent, problem, clock=clock, took_over=took_over)
-    return SyncReport(sent, 0, clock=clock, took_over=took_over)
+        return SyncReport(
+            sent, len(pending) - sent, _problem(exc), clock=clock, took_over=took_over,
+            renewed=renewed,
+        )  # fmt: skip
+    return SyncReport(sent, 0, clock=clock, took_over=took_over, renewed=renewed)
 
 
 def waiting_runs(station: Station) -> int:
@@ -233,16 +272,18 @@ def sync_station(
     *,
     upgrade_server: bool = False,
     take_over_name: bool = False,
+    renew_id: bool = False,
     while_open: Callable[[ResultStore], None] | None = None,
 ) -> SyncReport:
     """Send what the station's own store holds to its server; an unreachable server, one on an
     older schema, or a station name another station's file sends under, is a report, not an
     error: the runs stay safe in the station's file until the next try.  ``upgrade_server``
-    first brings an older server up to this rig's schema; ``take_over_name`` first gives the
-    station's name on the server to this station's file (one that replaced the file that held
-    it).  ``while_open`` reads the server on the same connection once everything is sent, so a
-    reader before a run costs no connection of its own; it is not called where sending
-    stopped."""
+    first brings an older server up to this rig's schema; ``renew_id`` first gives a copied
+    station file a store id of its own (``NotACopy`` where it is not one); ``take_over_name``
+    first gives the station's name on the server to this station's file (one that replaced the
+    file that held it).  ``while_open`` reads the server on the same connection once everything
+    is sent, so a reader before a run costs no connection of its own; it is not called where
+    sending stopped."""
     migrate = Migrate.ALWAYS if upgrade_server else Migrate.IF_EMPTY
     try:
         remote = open_server_store(station, migrate)
@@ -260,7 +301,10 @@ def sync_station(
         local = open_local_store(station)
         try:
             name = station.name if take_over_name else None
-            report = replace(sync(local, remote, name), upgraded=upgraded)
+            report = replace(
+                sync(local, remote, name, renew_id=renew_id, station=station.name),
+                upgraded=upgraded,
+            )
         finally:
             local.close()
         if while_open is not None and not report.problem:

@@ -190,6 +190,7 @@ def test_each_station_writes_only_its_own_rows_and_the_owner_upgrades(
                 f"UPDATE readings SET settled = 0 WHERE run_id IN {theirs}",
                 f"UPDATE relay_wear SET operations = 0 WHERE station = '{other}'",
                 f"UPDATE station_names SET store_uid = 'x' WHERE station = '{other}'",
+                f"UPDATE store_senders SET send_token = 'x' WHERE station = '{other}'",
             ):
                 assert changed(url, statement) == 0, statement
             # a new row under another's name, or its own moved there: refused outright; nothing

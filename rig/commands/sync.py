@@ -31,6 +31,13 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
         "for a file that replaced the one that sent under the name (a new disk), never for a "
         "second bench, whose runs would then mix with the first's",
     )
+    sync.add_argument(
+        "--new-store-id",
+        action="store_true",
+        help="first give this station's file a store id of its own: only for a copy of another "
+        "station's file (benches set up from one disk image) that the server refused as one; "
+        "every run in the file is kept and sent",
+    )
     sync.set_defaults(func=cmd_sync)
 
 
@@ -38,15 +45,22 @@ def cmd_sync(args: argparse.Namespace, out: Output) -> int:
     """Exit 0 when nothing is left waiting and the server took what was sent, 3 when runs still
     wait or the server cannot be used (a cron job must see both; the reason is printed)."""
     from rig.config.station import load_station
+    from rig.store_copies import NotACopy
     from rig.store_sync import sync_station
 
-    report = sync_station(
-        load_station(args.station),
-        upgrade_server=args.upgrade_server,
-        take_over_name=args.take_over_name,
-    )
+    try:
+        report = sync_station(
+            load_station(args.station),
+            upgrade_server=args.upgrade_server,
+            take_over_name=args.take_over_name,
+            renew_id=args.new_store_id,
+        )
+    except NotACopy as exc:
+        out.error(f"rig: --new-store-id: {exc}")
+        return EXIT_BAD_INPUT
     for option, given in (("--upgrade-server", args.upgrade_server),
-                          ("--take-over-name", args.take_over_name)):  # fmt: skip
+                          ("--take-over-name", args.take_over_name),
+                          ("--new-store-id", args.new_store_id)):  # fmt: skip
         if given and not report.configured:
             out.error(
                 f"rig: {option}: {args.station} names no results server (set [store] "
@@ -62,6 +76,7 @@ def cmd_sync(args: argparse.Namespace, out: Output) -> int:
                 "problem": report.problem or None,
                 "upgraded": report.upgraded or None,
                 "took_over": report.took_over or None,
+                "new_store_id": report.renewed or None,
             }
         )
     elif report.problem:
