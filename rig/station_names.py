@@ -34,6 +34,19 @@ class NameTaken(StoreError):
         self.owner = owner
 
 
+def held_text(name: str, runs: int, owner: str) -> str:
+    """What a station is told of its runs that wait under a name another station's file holds,
+    and the two ways out: they say it at every send, so the wait is never silent."""
+    return (
+        f"{runs} run(s) recorded under the station name {name!r} wait: another station's file "
+        f"(store id starts {owner[:8]}) sends under that name to the results server; give this "
+        "station its own name in its station file (its runs from then on are sent; these keep "
+        "the name they were measured under, and wait), or, only where this station's file "
+        f"replaced the one that holds the name (a new disk), take it over with "
+        f"`{TAKE_OVER_COMMAND}`"
+    )
+
+
 def _now() -> str:
     return dt.datetime.now(dt.UTC).isoformat(timespec="milliseconds")
 

@@ -29,7 +29,7 @@ from typing import Any
 
 from rig.config.station import Station
 from rig.station_clock import skew
-from rig.station_names import check_name, take_over
+from rig.station_names import NameTaken, check_name, held_text, take_over
 from rig.store import FILL_READING_UIDS, Migrate, ResultStore, StoreError
 from rig.store_copies import NotACopy, check_pass, new_store_id, this_sender
 from rig.store_open import open_local_store, open_server_store
@@ -73,6 +73,9 @@ class SyncReport:
     """The station name this pass took over on the server (``--take-over-name``), in words."""
     renewed: str = ""
     """The new store id this pass gave a copied file (``--new-store-id``), in words."""
+    held: str = ""
+    """The runs that wait under station names other stations' files hold, and the ways out, in
+    words (counted in ``waiting``); empty: none."""
 
     def describe(self) -> str:
         if not self.configured:
@@ -88,8 +91,10 @@ class SyncReport:
             text = f"{text}; none waiting, but the server cannot be used: {self.problem}"
         elif self.problem:
             text = f"{text}; {self.waiting} waiting: {self.problem}"
-        elif self.waiting:
+        elif self.waiting and not self.held:
             text += f"; {self.waiting} waiting"
+        if self.held:
+            text += f"; {self.held}"
         return text + (f"\nwarning: {self.clock}" if self.clock else "")
 
 
@@ -161,19 +166,21 @@ def send_run(local: ResultStore, remote: ResultStore, run_id: int, store_uid: st
 
 def send_relay_wear(local: ResultStore, remote: ResultStore, store_uid: str) -> None:
     """The station's lifetime relay counts, as absolute values: sending twice is harmless, and
-    only under station names this station's file holds on the server."""
+    only under station names this station's file holds on the server (a name's counts, one
+    server transaction each; those under a name another file holds stay in this file, as the
+    runs under it do: they are said of the runs)."""
     rows = _rows(local, "SELECT station, relay, operations FROM relay_wear", ())
-    if not rows:
-        return
-    with remote._tx() as db:
-        for name in sorted({str(r["station"]) for r in rows}):
-            check_name(db, name, store_uid, remote.where)
-        remote._db.executemany(
-            upsert_sql(
-                "relay_wear", ["station", "relay", "operations"], ("station", "relay"), False
-            ),
-            [(r["station"], r["relay"], r["operations"]) for r in rows],
-        )
+    columns = ["station", "relay", "operations"]
+    for name in sorted({str(r["station"]) for r in rows}):
+        try:
+            with remote._tx() as db:
+                check_name(db, name, store_uid, remote.where)
+                remote._db.executemany(
+                    upsert_sql("relay_wear", columns, ("station", "relay"), False),
+                    [(name, r["relay"], r["operations"]) for r in rows if r["station"] == name],
+                )
+        except NameTaken:
+            continue
 
 
 def _mark_sent(local: ResultStore, target: str, run_uid: str, fingerprint: str) -> None:
@@ -242,19 +249,35 @@ def sync(
         db.execute(FILL_READING_UIDS)  # rows written by code that gave no key get the stable one
     pending = pending_runs(local, target)
     sent = 0
+    held: dict[str, tuple[str, int]] = {}  # a name another file holds -> (its owner, runs)
     try:
         for run_id, fingerprint in pending:
-            run_uid = str(local.run(run_id)["run_uid"])
-            send_run(local, remote, run_id, ours)
-            _mark_sent(local, target, run_uid, fingerprint)
+            run = local.run(run_id)
+            name = str(run["station"])
+            if name in held:  # not asked again: its owner does not change within a pass
+                held[name] = (held[name][0], held[name][1] + 1)
+                continue
+            try:
+                send_run(local, remote, run_id, ours)
+            except NameTaken as exc:  # this name's runs wait; the other names' go on
+                held[name] = (exc.owner, 1)
+                continue
+            _mark_sent(local, target, str(run["run_uid"]), fingerprint)
             sent += 1
         send_relay_wear(local, remote, ours)
     except StoreError as exc:
         return SyncReport(
             sent, len(pending) - sent, _problem(exc), clock=clock, took_over=took_over,
-            renewed=renewed,
+            renewed=renewed, held=_held_text(held),
         )  # fmt: skip
-    return SyncReport(sent, 0, clock=clock, took_over=took_over, renewed=renewed)
+    waiting = len(pending) - sent
+    return SyncReport(
+        sent, waiting, clock=clock, took_over=took_over, renewed=renewed, held=_held_text(held)
+    )
+
+
+def _held_text(held: dict[str, tuple[str, int]]) -> str:
+    return "; ".join(held_text(name, runs, owner) for name, (owner, runs) in held.items())
 
 
 def waiting_runs(station: Station) -> int:
@@ -377,7 +400,8 @@ def around_a_run(reports: Sequence[SyncReport], interrupted_run: int | None = No
         others = before.waiting
         if others:
             text += f" ({others} more waiting)"
-        return text + (f": {before.problem}" if before.problem else "")
+        text += f": {before.problem}" if before.problem else ""
+        return text + (f"; {before.held}" if before.held else "")
     last = reports[-1]
     clock = next((r.clock for r in reports if r.clock), "")
-    return SyncReport(sent, last.waiting, last.problem, clock=clock).describe()
+    return SyncReport(sent, last.waiting, last.problem, clock=clock, held=last.held).describe()

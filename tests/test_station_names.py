@@ -70,12 +70,12 @@ def test_a_second_file_under_a_claimed_name_is_refused_and_a_replaced_file_takes
 
         second = station("dup", "qa-b1", "SN-DUP", {1: 2})
         refused = sync(second, remote)
-        assert (refused.sent, refused.waiting) == (0, 1)
-        problem = refused.problem
-        assert "'qa-b1'" in problem and "another station's file" in problem
-        assert first.store_uid()[:8] in problem and second.store_uid()[:8] in problem
-        assert "give this station its own name in its station file" in problem
-        assert "--take-over-name" in problem
+        assert (refused.sent, refused.waiting, refused.problem) == (0, 1, "")
+        held = refused.held
+        assert "1 run(s) recorded under the station name 'qa-b1' wait" in held
+        assert f"another station's file (store id starts {first.store_uid()[:8]})" in held
+        assert "give this station its own name in its station file" in held
+        assert "--take-over-name" in held
         # the first bench's wear and runs as they were; the second's run waits in its file
         assert server_wear(pg_database, "qa-b1") == {1: 20, 2: 8}
         assert server_serials(pg_database, "qa-b1") == ["SN-1"]
@@ -95,8 +95,19 @@ def test_a_second_file_under_a_claimed_name_is_refused_and_a_replaced_file_takes
         assert server_wear(pg_database, "qa-b1") == {1: 3, 2: 8}  # the new file's counts
         assert server_serials(pg_database, "qa-b1") == ["SN-1", "SN-2", "SN-4"]
         add_run(first, "qa-b1", "SN-5", {1: 1})
-        assert sync(first, remote).problem  # the old file no longer holds the name
+        assert "'qa-b1' wait" in sync(first, remote).held  # the old file no longer holds it
         assert server_serials(pg_database, "qa-b1") == ["SN-1", "SN-2", "SN-4"]
+
+
+def claim_name(folder: Path, name: str, url: str) -> None:
+    """Another bench's file sends a run under ``name`` (relay 1 at 28), claiming it."""
+    other = station_file(folder, name, "SN-OTHER", {1: 28})
+    remote = open_postgres(url)
+    try:
+        assert sync(other, remote).sent == 1
+    finally:
+        remote.close()
+        other.close()
 
 
 @pytest.fixture
@@ -113,13 +124,7 @@ def test_rig_sync_exits_3_on_a_claimed_name_and_takes_it_over_when_asked(
     tmp_path: Path, pg_database: str, bench_station: Station, capsys: pytest.CaptureFixture[str]
 ) -> None:
     name = bench_station.name
-    other = station_file(tmp_path / "other", name, "SN-OTHER", {1: 28})
-    remote = open_postgres(pg_database)
-    try:
-        assert sync(other, remote).sent == 1
-    finally:
-        remote.close()
-        other.close()
+    claim_name(tmp_path / "other", name, pg_database)
     bench_station.store_path.parent.mkdir(parents=True, exist_ok=True)
     own = station_file(bench_station.store_path.parent, name, "SN-OWN", {1: 2})
     own.close()
@@ -127,7 +132,8 @@ def test_rig_sync_exits_3_on_a_claimed_name_and_takes_it_over_when_asked(
     args = ["sync", "--station", str(bench_station.path)]
     assert main(args) == 3  # as for a server it cannot use
     err = capsys.readouterr().err
-    assert "1 waiting" in err and "give this station its own name" in err
+    assert "1 run(s) recorded under the station name" in err
+    assert "give this station its own name" in err
     assert "Traceback" not in err
     assert server_wear(pg_database, name) == {1: 28}
 
@@ -137,3 +143,53 @@ def test_rig_sync_exits_3_on_a_claimed_name_and_takes_it_over_when_asked(
     assert "taken over" in summary["took_over"]
     assert server_wear(pg_database, name) == {1: 2}
     assert server_serials(pg_database, name) == ["SN-OTHER", "SN-OWN"]
+
+
+@pytest.mark.postgres
+def test_a_renamed_station_sends_its_new_runs_and_says_each_time_which_wait(
+    tmp_path: Path, pg_database: str
+) -> None:
+    """Runs under a name another file holds wait; they neither hold back the runs recorded
+    under the station's new name nor its relay wear under it, and every send says they wait."""
+    with ExitStack() as stack:
+        remote = open_postgres(pg_database)
+        stack.callback(remote.close)
+        owner = station_file(tmp_path / "owner", "qa-b1", "SN-1", {1: 20})
+        stack.callback(owner.close)
+        assert sync(owner, remote).sent == 1
+        second = station_file(tmp_path / "second", "qa-b1", "SN-2", {1: 3})
+        stack.callback(second.close)
+        assert sync(second, remote).sent == 0
+
+        add_run(second, "qa-b2", "SN-3", {1: 4})  # the station given its own name
+        for _ in range(2):  # said at each send, not once
+            report = sync(second, remote)
+            assert (report.waiting, report.problem) == (1, "")
+            assert report.held.startswith("1 run(s) recorded under the station name 'qa-b1' wait")
+            assert owner.store_uid()[:8] in report.held and "--take-over-name" in report.held
+            assert "qa-b1' wait" in report.describe()
+        assert report.sent == 0  # the first pass sent SN-3
+        assert server_serials(pg_database, "qa-b2") == ["SN-3"]
+        assert server_wear(pg_database, "qa-b2") == {1: 4}
+        assert server_wear(pg_database, "qa-b1") == {1: 20}  # the owner's, untouched
+
+
+@pytest.mark.postgres
+def test_rig_run_ends_saying_which_runs_wait_under_a_name_another_file_holds(
+    tmp_path: Path, pg_database: str, bench_station: Station, capsys: pytest.CaptureFixture[str]
+) -> None:
+    from bench_helpers import SEQUENCES
+
+    claim_name(tmp_path / "other", "qa-b1", pg_database)
+    bench_station.store_path.parent.mkdir(parents=True, exist_ok=True)
+    station_file(bench_station.store_path.parent, "qa-b1", "SN-OLD", {1: 2}).close()
+
+    sequence = SEQUENCES / "temp-circuit-check.toml"
+    args = ["run", str(sequence), "--station", str(bench_station.path), "--serial", "SN-NEW"]
+    main(args)
+    said = capsys.readouterr()
+    text = said.out + said.err
+    assert "1 run(s) sent to the results server" in text  # the run itself, under its own name
+    assert "1 run(s) recorded under the station name 'qa-b1' wait" in text
+    assert "--take-over-name" in text and "Traceback" not in text
+    assert server_serials(pg_database, bench_station.name) == ["SN-NEW"]

@@ -80,7 +80,7 @@ def test_a_copied_file_is_refused_and_takes_a_new_id_keeping_every_run(
         assert "new store id" in renewed.renewed and first.store_uid()[:8] in renewed.renewed
         assert run_rows(second) == before  # no run lost, none renumbered
         # the copy now meets the name check as any second bench would: its name is the first's
-        assert "'qa-b1' is already sent under by another" in renewed.problem
+        assert "under the station name 'qa-b1' wait" in renewed.held and not renewed.problem
         assert server_wear(pg_database, "qa-b1") == {1: 25}
         assert len(pending_runs(second, remote.store_uid())) == 1  # SN-B waits, not lost
         with pytest.raises(NotACopy, match="no other copy"):  # once is enough
@@ -144,6 +144,6 @@ def test_rig_sync_new_store_id_on_a_copy_and_refused_on_the_original(
 
     assert main([*args, "--new-store-id", "--json"]) == 3  # a new id; the name is the clone's
     summary = json.loads(capsys.readouterr().out)
-    assert "new store id" in summary["new_store_id"] and "already sent under" in summary["problem"]
+    assert "new store id" in summary["new_store_id"] and "wait: another" in summary["held"]
     assert main([*args, "--new-store-id"]) == 2
     assert "rig: --new-store-id: no other copy of this station's file" in capsys.readouterr().err

@@ -43,7 +43,8 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
 
 def cmd_sync(args: argparse.Namespace, out: Output) -> int:
     """Exit 0 when nothing is left waiting and the server took what was sent, 3 when runs still
-    wait or the server cannot be used (a cron job must see both; the reason is printed)."""
+    wait (under a station name another station's file holds, too) or the server cannot be used
+    (a cron job must see both; the reason is printed)."""
     from rig.config.station import load_station
     from rig.store_copies import NotACopy
     from rig.store_sync import sync_station
@@ -74,13 +75,14 @@ def cmd_sync(args: argparse.Namespace, out: Output) -> int:
                 "sent": report.sent,
                 "waiting": report.waiting,
                 "problem": report.problem or None,
+                "held": report.held or None,
                 "upgraded": report.upgraded or None,
                 "took_over": report.took_over or None,
                 "new_store_id": report.renewed or None,
             }
         )
-    elif report.problem:
+    elif report.problem or report.waiting:
         out.error(f"rig: {report.describe()}")
     else:
         out.line(report.describe())
-    return EXIT_WAITING if report.problem else EXIT_SENT
+    return EXIT_WAITING if report.problem or report.waiting else EXIT_SENT
