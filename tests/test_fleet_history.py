@@ -148,3 +148,42 @@ def test_a_record_ids_start_is_taken_and_a_shared_start_refused(tmp_path: Path) 
             id_in(store, run_ref("99999999"))
     finally:
         store.close()
+
+
+def test_a_harness_proof_not_yet_sent_is_listed_as_one_not_as_a_screen(
+    tmp_path: Path,
+    pg_database: str,
+    monkeypatch: pytest.MonkeyPatch,
+    capsys: pytest.CaptureFixture[str],
+) -> None:
+    """The server has no steps of a sequence it never received, so the listing takes the step
+    units of runs not yet sent from the station's own file: a harness proof (its step counts
+    faults) gets no screen decision, on the server or not."""
+    from bench_helpers import shipped_bench
+
+    from rig.cli import main
+    from rig.store import RunHeader
+    from rig.store_postgres import open_postgres
+
+    open_postgres(pg_database).close()  # a server that holds the schema and no run
+    monkeypatch.setenv("RIG_DATABASE_URL", pg_database)
+    with shipped_bench("temp-circuit", folder=tmp_path) as (_, station):
+        station.store_path.parent.mkdir(parents=True)
+        own = ResultStore(station.store_path)
+        try:
+            header = RunHeader("H-1", "loom-proof", "h", "/p", station.name, "op")
+            run_id = own.start_run(header)
+            step = {
+                "step_id": "loom", "kind": "harness", "title": "loom", "value": 0.0,
+                "unit": "faults", "low": 0.0, "high": 0.0, "coverage_k": 2.0,
+                "decision_rule": "simple", "verdict": "pass", "started_at": "a", "ended_at": "b",
+            }  # fmt: skip
+            own.add_step(run_id, 1, step)
+            own.finish_run(run_id, status="complete", verdict="pass")
+        finally:
+            own.close()
+        assert main(["runs", "--station", str(station.path), "--json"]) == 0
+    listed = json.loads(capsys.readouterr().out)["runs"]
+    assert [(r["serial"], r["waiting_to_send"], r["decision"]) for r in listed] == [
+        ("H-1", True, None)
+    ]
