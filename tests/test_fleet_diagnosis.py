@@ -76,6 +76,11 @@ def test_another_benchs_failed_run_is_diagnosed_by_its_record_id(
         found = json.loads(out)
         code, text, _ = diagnose(uid, qa2, env, "--unit", str(UNIT))
         assert code == 0
+        report = rig_cli(
+            ["report", uid[:8], "--station", str(qa2.path), "--unit", str(UNIT), "--out", "-"],
+            env,
+        )
+        assert report.returncode == 0, report.stderr
         # with the server out of reach: the station's own runs, from its own file, with a note
         gone = {**env, "RIG_DATABASE_URL": f"postgresql://nobody@127.0.0.1:{free_port()}/x"}
         code, own, own_err = diagnose("1", qa2, gone, "--unit", str(UNIT), "--json")
@@ -84,7 +89,13 @@ def test_another_benchs_failed_run_is_diagnosed_by_its_record_id(
     # the fault injected at qa1 is named first, from the server's record of qa1's run
     assert found["hypotheses"][0]["spec"] == "open:ground"
     assert (found["run_id"], found["record_id"], found["station"]) == (None, uid, "qa1")
-    assert "diagnosed with the fixture and instruments of station qa2" in err
+    note = (
+        f"note: the run of station qa1, record {uid[:12]} was made at station qa1; diagnosed "
+        f"with the fixture and instruments of station qa2 ({qa2.path}), planned on this "
+        "station's file"
+    )
+    assert note in err
+    assert note in report.stderr  # rig report's diagnosis of it says the same
     # another station's run is named by its station and record id, never the server's number
     assert text.startswith(f"the run of station qa1, record {uid[:12]} (serial U-9, fail)")
     assert "open:ground" in text

@@ -19,6 +19,7 @@ from pathlib import Path
 from typing import Any
 
 from rig.commands._store_args import OpenedStore
+from rig.config.station import Station
 from rig.store import ResultStore, StoreError
 from rig.store_open import open_file_for_reading
 
@@ -83,6 +84,19 @@ def run_words(found: FoundRun, run: Mapping[str, Any]) -> str:
     if found.station_run is not None:
         return f"run {found.station_run}"
     return f"the run of station {run['station']}, record {str(run['run_uid'])[:12]}"
+
+
+def planned_elsewhere(who: str, run: Mapping[str, Any], station: Station) -> str:
+    """Where a run made at another station is diagnosed on this one's file, that (empty where
+    it was made here): its fixture and instruments stand in for the bench the run was made on,
+    whose own are not stored with the run (only the instruments' identities are), and a
+    different fixture routes the readings, and so models them, differently."""
+    if str(run["station"]) == station.name:
+        return ""
+    return (
+        f"{who} was made at station {run['station']}; diagnosed with the fixture and "
+        f"instruments of station {station.name} ({station.path}), planned on this station's file"
+    )
 
 
 def file_label(found: FoundRun, run: Mapping[str, Any]) -> str:

@@ -13,7 +13,7 @@ from pathlib import Path
 from typing import Any
 
 from rig.cli_output import Output
-from rig.commands._run_ref import FoundRun, find_run, run_ref, run_words
+from rig.commands._run_ref import FoundRun, find_run, planned_elsewhere, run_ref, run_words
 from rig.commands._store_args import OpenedStore
 from rig.errors import ConfigError, Problem
 
@@ -155,10 +155,7 @@ def cmd_diagnose(args: argparse.Namespace, out: Output) -> int:
                 f"{unit_path} ({unit.name}) instead"
             )
         if elsewhere:
-            out.error(
-                f"note: {who} was made at station {run['station']}; diagnosed with the fixture "
-                f"and instruments of station {station.name} ({args.station})"
-            )
+            out.error(f"note: {planned_elsewhere(who, run, station)}")
         plan = load_plan(sequence, station)
         if not same_sequence(run, plan.sequence):
             out.error(f"warning: {sequence} has changed since {who} was taken")

@@ -7,7 +7,7 @@ import re
 from pathlib import Path
 
 from rig.cli_output import Output
-from rig.commands._run_ref import file_label, find_run, run_ref, run_words
+from rig.commands._run_ref import file_label, find_run, planned_elsewhere, run_ref, run_words
 from rig.commands._store_args import (
     ArgumentProblem,
     add_store_args,
@@ -82,6 +82,13 @@ def cmd_report(args: argparse.Namespace, out: Output) -> int:
         opened.store.close()
     if found.note:
         out.error(f"note: {found.note}")
+    elsewhere = (
+        ""
+        if opened.station is None
+        else planned_elsewhere(run_words(found, run), run, opened.station)
+    )
+    if diagnosis["available"] and elsewhere:  # the same note rig diagnose gives
+        out.error(f"note: {elsewhere}")
     # files are named by the number the station knows the run by, or a record id's start
     label = file_label(found, run)
     render = {"html": render_run, "csv": record_csv, "json": record_json}[args.format]
