@@ -118,10 +118,13 @@ def diagnose_stored_run(
         return unavailable("no diagnosis is available: give --station to plan the sequence")
     unit_file = find_unit_file(run, unit_path)
     if unit_file is None:
-        return unavailable(
-            f"no diagnosis is available: unit model {run.get('unit') or '(none)'!r} not found; "
-            "give --unit"
+        recorded = run.get("unit")
+        why = (
+            f"the run records unit {recorded!r}, not found"
+            if recorded
+            else "the run records no unit file (it was run without --unit)"
         )
+        return unavailable(f"no diagnosis is available: {why}; give --unit FILE")
     missing = sequence_not_found(f"run {run.get('id')}", str(run["sequence_path"]))
     if missing:
         return unavailable(f"no diagnosis is available: {missing} to rig diagnose")

@@ -7,6 +7,9 @@ from __future__ import annotations
 import csv
 import io
 import json
+import re
+import shutil
+import sqlite3
 from pathlib import Path
 from typing import Any
 
@@ -102,6 +105,27 @@ def test_report_from_a_store_without_station_says_why_there_is_no_diagnosis(
     out = tmp_path / "r.html"
     assert main(["report", str(run_id), "--store", str(store_path), "--out", str(out)]) == 0
     assert "no diagnosis is available: give --station" in out.read_text(encoding="utf-8")
+
+
+def test_report_of_a_run_with_no_unit_file_says_so_and_what_to_give(
+    recorded: tuple[Path, Path, int], tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # the same run as if run without --unit: a copy of the station whose store has no unit
+    station_file, store_path, run_id = recorded
+    data = tmp_path / "data"
+    data.mkdir()
+    shutil.copy(store_path, data / store_path.name)
+    with sqlite3.connect(data / store_path.name) as db:
+        db.execute("UPDATE runs SET unit = '' WHERE id = ?", (run_id,))
+    db.close()
+    text = station_file.read_text(encoding="utf-8")
+    copied = tmp_path / "station.toml"
+    copied.write_text(re.sub(r"(?m)^data_dir = .*$", f"data_dir = {json.dumps(str(data))}", text))
+    diagnosis = json.loads(printed(capsys, run_id, "--station", str(copied), "--format", "json"))
+    assert diagnosis["diagnosis"]["message"] == (
+        "no diagnosis is available: the run records no unit file (it was run without --unit); "
+        "give --unit FILE"
+    )
 
 
 def test_csv_carries_the_record_with_formula_safe_cells(
