@@ -27,9 +27,10 @@ class StatusPanel(Widget):
     """
 
     MOST_WARNINGS = 3
+    """Warning lines shown under the verdict; more are counted, and all are in the run's record."""
     BESIDE_GAP = "    "
     """Between the verdict's block letters and the screen decision beside them."""
-    """Warning lines shown under the verdict; more are counted, and all are in the run's record."""
+    NOTE_STYLE = "bold cyan"
 
     def __init__(self, **kwargs: Any) -> None:
         super().__init__(**kwargs)
@@ -38,6 +39,17 @@ class StatusPanel(Widget):
         self.warnings: list[str] = []
         self.record_text = ""
         self.decision: ScreenDecision | None = None
+        self.notes: list[str] = []
+        """Lines about the unit said from the run's start to the end of its view: its earlier
+        runs (``rig.tested_before``)."""
+
+    def add_note(self, line: str) -> None:
+        """A line kept under the progress and then under the verdict (a quick run would take
+        it out of sight before it is read); the panel grows to hold it."""
+        self.notes.append(line)
+        self.styles.height = "auto"
+        self.styles.min_height = 8
+        self.refresh()
 
     def progress(self, *lines: str) -> None:
         self._lines = list(lines)
@@ -67,7 +79,9 @@ class StatusPanel(Widget):
 
     def render(self) -> Text:
         if self.verdict is None:
-            return Text("\n".join(self._lines))
+            text = Text("\n".join(self._lines))
+            self._append_notes(text)
+            return text
         width = self.size.width
         text = Text()
         word = self.verdict.word
@@ -95,7 +109,12 @@ class StatusPanel(Widget):
         if len(self.warnings) > self.MOST_WARNINGS:
             more = len(self.warnings) - self.MOST_WARNINGS
             text.append(f"\n... and {more} more warning(s) in the run's record (F2)", "yellow")
+        self._append_notes(text)
         return text
+
+    def _append_notes(self, text: Text) -> None:
+        for note in self.notes:
+            text.append(f"\n{note}", self.NOTE_STYLE)
 
     def _decision_style(self) -> str:
         return "bold" if self.decision is None else decision_style(self.decision)

@@ -28,6 +28,7 @@ from rig.plan import Plan
 from rig.station_clock import clock_warnings
 from rig.store import ResultStore
 from rig.store_sync import SyncReport, send_after_run, send_waiting_runs
+from rig.tested_before import ask_server, tested_before
 
 log = logging.getLogger(__name__)
 
@@ -63,7 +64,16 @@ class SyncNote:
     text: str
 
 
-Item = Event | LiveReading | RunEnded | SafeStateMade | DiagnosisView | SyncNote
+@dataclass(frozen=True)
+class EarlierRuns:
+    """The unit has runs of the sequence on record already, on this station or (from the results
+    server) on others: said as the run starts, in the line ``rig run`` prints
+    (``rig.tested_before``).  A retest is normal; the run goes on."""
+
+    text: str
+
+
+Item = Event | LiveReading | RunEnded | SafeStateMade | DiagnosisView | SyncNote | EarlierRuns
 
 
 class Inbox:
@@ -355,9 +365,12 @@ def run_in_worker(
 ) -> None:
     """The worker thread's body: open the bench, run, close; every outcome ends in ``RunEnded``.
 
-    The verdict goes out as soon as the bench is safe; ``after`` then runs in the worker with the
-    summary and the open store (the diagnosis of a failed run is slow work too), and finished runs
-    are sent to the station's results server, as ``rig run`` does.
+    Before the run, the unit's earlier runs of the sequence are said (``EarlierRuns``), as
+    ``rig run`` says them: this station's from its own file, the other stations' from the
+    results server on the connection of the send before the run.  The verdict goes out as soon
+    as the bench is safe; ``after`` then runs in the worker with the summary and the open store
+    (the diagnosis of a failed run is slow work too), and finished runs are sent to the
+    station's results server, as ``rig run`` does.
     """
     plan = request.plan
 
@@ -368,9 +381,14 @@ def run_in_worker(
     def synced(report: SyncReport) -> None:
         inbox.put(SyncNote(report.describe()))
 
+    def seen(text: str) -> None:
+        inbox.put(EarlierRuns(text))
+
     try:
         notes = check_calibration(plan.station, reads_probe=plan.reads_reference_probe)
-        before = send_waiting_runs(plan.station, synced)
+        _say_earlier_runs(request, seen)
+        on_server = ask_server(plan.station.name, request.serial, plan.sequence.name, seen)
+        before = send_waiting_runs(plan.station, synced, on_server)
         store = ResultStore(plan.station.store_path)
         notes += clock_warnings(store)
     except RigError as exc:
@@ -390,6 +408,15 @@ def run_in_worker(
     finally:
         store.close()
     send_after_run(plan.station, before, synced)
+
+
+def _say_earlier_runs(request: RunRequest, say: Callable[[str], None]) -> None:
+    """This station's earlier runs of the sequence on the unit, read before the run is
+    recorded (it would count itself); the server's come on the send before the run."""
+    plan = request.plan
+    line = tested_before(plan.station.store_path, request.serial, plan.sequence.name)
+    if line:
+        say(line)
 
 
 def _run(

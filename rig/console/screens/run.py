@@ -40,6 +40,7 @@ from rig.console.words import (
     verdict_word,
 )
 from rig.console.worker import (
+    EarlierRuns,
     Inbox,
     LiveReading,
     PromptGate,
@@ -282,6 +283,8 @@ class RunScreen(Screen[str | None]):
                 self._show_diagnosis(item)
             elif isinstance(item, SyncNote):
                 self.notify(item.text, title="results server")
+            elif isinstance(item, EarlierRuns):
+                self.query_one(StatusPanel).add_note(item.text)
             elif isinstance(item, RunEnded):
                 ended = item
         if rows:
