@@ -1,28 +1,39 @@
 """The console states a screen's decision on the unit beside the run's verdict, as ``rig run``
-prints it, on the run view and in the run's record (F2): a simple-rule PASS within U of a limit
-is no clean pass for a returned unit (ILAC-G8:09/2019 calls such a result conditional).
+prints it, on the run view, in the history's list and in the run's record (F2): a simple-rule
+PASS within U of a limit is no clean pass for a returned unit (ILAC-G8:09/2019 calls such a
+result conditional).
 
 Real runs on the virtual bench (its meter and relay box over real TCP and a pty) into a real
-SQLite file, driven through textual's pilot; a harness proof states no screen decision."""
+SQLite file, by ``rig run`` and by the console through textual's pilot; a harness proof states
+no screen decision (blank in the history).  Serials and drifts invented."""
 
 from __future__ import annotations
 
 import asyncio
+import contextlib
+import io
 from pathlib import Path
+from typing import Any
 
-from bench_helpers import SEQUENCES
+from bench_helpers import SEQUENCES, shipped_bench
 from console_helpers import console_on_bench, finish, harness_console, start_run, wait_for
+from rich.text import Text
 from textual.pilot import Pilot
 from textual.widgets import Static
 
+from rig.cli import main
 from rig.console import ConsoleApp
 from rig.console.screens.history import HistoryScreen, RecordScreen
 from rig.console.screens.prompt import PromptScreen
 from rig.console.screens.run import RunScreen
-from rig.console.widgets import StatusPanel
+from rig.console.widgets import RunList, StatusPanel
 from rig.store import ResultStore
 
 SIZE = (120, 40)
+# the sender as returned: good, drifted 0.5 % inside its 5 % tolerance, drifted far beyond it
+UNITS = {"H-GOOD": (), "H-EDGE": ("drift:sender=+4.5%",), "H-BAD": ("drift:sender=+20%",)}
+DECISION_COLUMN = "screen decision"  # the history's heading, as the operator reads it
+NOT_OF_UNIT = {"prompt", "reference-temperature"}  # an operator's answer, the bench's reference
 
 
 def _simple_rule_screen(folder: Path) -> Path:
@@ -102,6 +113,83 @@ def test_a_good_unit_shows_no_fault_found(tmp_path: Path) -> None:
         asyncio.run(scenario())
 
 
+def _decided_from(steps: list[dict[str, Any]]) -> str:
+    """ILAC-G8:09/2019, guarded acceptance, over the unit's judged steps: one beyond U outside
+    its limits confirms the fault; every one beyond U inside them finds none; else a reading
+    within U of a limit supports neither side."""
+    margins = []
+    for step in steps:
+        if step["kind"] in NOT_OF_UNIT or (step["low"] is None and step["high"] is None):
+            continue
+        value, u = float(step["value"]), float(step["expanded_u"])
+        sides = [value - step["low"]] if step["low"] is not None else []
+        sides += [step["high"] - value] if step["high"] is not None else []
+        margins.append((min(sides), u))
+    if any(m < -u for m, u in margins):
+        return "confirmed failure"
+    if all(m > u for m, u in margins):
+        return "no fault found"
+    return "inconclusive"
+
+
+def _history_cells(app: ConsoleApp) -> dict[str, dict[str, str]]:
+    """The history's rows as shown: {serial: {column label: cell text}}."""
+    table = app.screen.query_one(RunList)
+    labels = [str(c.label) for c in table.columns.values()]
+    rows = {}
+    for key in table.rows:
+        cells = [c.plain if isinstance(c, Text) else str(c) for c in table.get_row(key)]
+        row = dict(zip(labels, cells, strict=True))
+        rows[row["serial"]] = row
+    return rows
+
+
+async def _open_history(pilot: Pilot[None], app: ConsoleApp) -> dict[str, dict[str, str]]:
+    await pilot.press("f2")
+    await wait_for(pilot, lambda: isinstance(app.screen, HistoryScreen), "the history")
+    await pilot.pause()
+    return _history_cells(app)
+
+
+def test_the_history_lists_each_screens_decision_beside_its_verdict(tmp_path: Path) -> None:
+    sequence = _simple_rule_screen(tmp_path)
+    for serial, faults in UNITS.items():  # by rig run, into the station's one file
+        with shipped_bench("ntc-sender", faults, folder=tmp_path) as (_, station):
+            args = ["run", str(sequence), "--station", str(station.path), "--serial", serial]
+            with contextlib.redirect_stdout(io.StringIO()):
+                main([*args, "--yes"])
+    with console_on_bench("ntc-sender", tmp_path, sequence) as (app, _bench):
+
+        async def scenario() -> None:
+            async with app.run_test(size=SIZE) as pilot:
+                screen = await start_run(pilot, "H-NO")  # the sender was not placed: no
+                await wait_for(pilot, lambda: isinstance(app.screen, PromptScreen), "the prompt")
+                await pilot.press("f7")
+                await finish(pilot, screen)
+                shown = await _open_history(pilot, app)
+                assert DECISION_COLUMN in next(iter(shown.values()))
+                store = ResultStore(app.setup.store_path)
+                try:
+                    stored = {r["serial"]: store.steps(r["id"]) for r in store.runs()}
+                finally:
+                    store.close()
+                expected = {s: _decided_from(stored[s]) for s in UNITS}
+                # the bench gave the three cases, and the edge one is a plain PASS
+                assert sorted(expected.values()) == [
+                    "confirmed failure",
+                    "inconclusive",
+                    "no fault found",
+                ]
+                assert shown["H-EDGE"]["verdict"] == "PASS"
+                for serial, decision in expected.items():
+                    assert shown[serial][DECISION_COLUMN] == decision, serial
+                # an operator's no decides nothing (docs/reports-and-stats.md, the screen's
+                # decision on one run), whatever its readings
+                assert shown["H-NO"][DECISION_COLUMN] == "undecided"
+
+        asyncio.run(scenario())
+
+
 def test_a_harness_proof_shows_no_screen_decision(tmp_path: Path) -> None:
     with harness_console(tmp_path, []) as app:
 
@@ -113,6 +201,11 @@ def test_a_harness_proof_shows_no_screen_decision(tmp_path: Path) -> None:
                 panel = screen.query_one(StatusPanel)
                 assert panel.verdict is not None and panel.decision is None
                 assert "screen decision" not in str(panel.render())
+                shown = await _open_history(pilot, app)
+                assert shown["HP-0046"]["verdict"] == "PASS"
+                assert shown["HP-0046"][DECISION_COLUMN] == ""  # a harness proof: none
+                await pilot.press("escape")
+                await wait_for(pilot, lambda: app.screen is screen, "the run view")
                 head = await _record_head(pilot, app)
                 assert "screen decision" not in head
 

@@ -7,6 +7,7 @@ results-store connection of its own for reading; each run's worker writes throug
 
 from __future__ import annotations
 
+from functools import partial
 from pathlib import Path
 from typing import Any, ClassVar
 
@@ -14,6 +15,7 @@ from textual.app import App
 from textual.binding import Binding, BindingType
 
 from rig.cautions import cautions_for
+from rig.console.decision import run_decisions
 from rig.console.screens.caution import CautionScreen
 from rig.console.screens.history import HistoryScreen, RecordScreen
 from rig.console.screens.run import RunScreen
@@ -79,7 +81,8 @@ class ConsoleApp(App[None]):
         )
 
     def open_history(self) -> None:
-        self.push_screen(HistoryScreen(self.setup, self.recent_runs, self.open_record))
+        decide = partial(run_decisions, self.store)
+        self.push_screen(HistoryScreen(self.setup, self.recent_runs, self.open_record, decide))
 
     def open_record(self, run_id: int) -> None:
         self.push_screen(RecordScreen(self.setup, self.store, run_id))

@@ -7,7 +7,8 @@ rule (``rig.screening``) applied to the run's stored steps; none for a harness p
 
 from __future__ import annotations
 
-from collections.abc import Iterable
+from collections.abc import Iterable, Mapping
+from typing import Any
 
 from rig.screening import (
     CONFIRMED,
@@ -45,6 +46,21 @@ def stored_decision(
     no = answered_no((str(s["unit"]), str(s["verdict"])) for s in steps)
     verdict = None if run["verdict"] is None else str(run["verdict"])
     return screen_decision(str(run["status"]), verdict, step_evidence(steps), answered_no=no)
+
+
+def run_decisions(
+    store: ResultStore, runs: Iterable[Mapping[str, Any]]
+) -> dict[int, ScreenDecision | None]:
+    """``stored_decision`` of each run (rows of ``ResultStore.runs``) by its id, for a list of
+    runs: each sequence's recorded units are read once, whatever the number of its runs."""
+    units: dict[str, set[str]] = {}
+    found: dict[int, ScreenDecision | None] = {}
+    for run in runs:
+        name = str(run["sequence_name"])
+        if name not in units:
+            units[name] = store.sequence_units(name)
+        found[int(run["id"])] = stored_decision(store, int(run["id"]), units[name])
+    return found
 
 
 def decision_style(decision: ScreenDecision) -> str:

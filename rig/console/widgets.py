@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from collections.abc import Callable
+from collections.abc import Callable, Mapping
 from typing import Any
 
 from rich.text import Text
@@ -150,6 +150,9 @@ class ChartView(Widget):
 
 
 RUN_COLUMNS = ("run", "serial", "sequence", "verdict", "status", "started")
+DECISION_COLUMN = "screen decision"
+"""After the verdict in the history's list: a screen's decision on the unit (a simple-rule PASS
+may be inconclusive), blank for a harness proof."""
 
 
 class TextTable(DataTable[Any]):
@@ -169,28 +172,41 @@ class TextTable(DataTable[Any]):
 
 
 class RunList(TextTable):
-    """Recent runs at one station, newest first; Enter opens the run's record."""
+    """Recent runs at one station, newest first; Enter opens the run's record.  With
+    ``decisions``, a column after the verdict for each screen's decision on the unit."""
 
-    def __init__(self, opener: Callable[[int], None], **kwargs: Any) -> None:
+    def __init__(
+        self, opener: Callable[[int], None], *, decisions: bool = False, **kwargs: Any
+    ) -> None:
         super().__init__(cursor_type="row", zebra_stripes=True, **kwargs)
         self._opener = opener
+        self._decisions = decisions
 
     def on_mount(self) -> None:
-        self.add_columns(*RUN_COLUMNS)
+        columns = list(RUN_COLUMNS)
+        if self._decisions:
+            columns.insert(columns.index("verdict") + 1, DECISION_COLUMN)
+        self.add_columns(*columns)
 
-    def show_runs(self, runs: list[dict[str, Any]], time_text: Callable[[str], str]) -> None:
+    def show_runs(
+        self,
+        runs: list[dict[str, Any]],
+        time_text: Callable[[str], str],
+        decisions: Mapping[int, ScreenDecision | None] | None = None,
+    ) -> None:
+        """``decisions``: each run's screen decision by its id (None: not a screen), shown where
+        the list has the column."""
         self.clear()
         for run in runs:
             word = stored_run_word(str(run["status"] or ""), run["verdict"])
-            self.add_row(
-                str(run["id"]),
-                run["serial"],
-                run["sequence_name"],
-                word,
-                run["status"],
-                time_text(run["started_at"]),
-                key=str(run["id"]),
-            )
+            cells: list[Any] = [str(run["id"]), run["serial"], run["sequence_name"], word]
+            if self._decisions:
+                decision = (decisions or {}).get(int(run["id"]))
+                cells.append(
+                    "" if decision is None else Text(decision.word, decision_style(decision))
+                )
+            cells += [run["status"], time_text(run["started_at"])]
+            self.add_row(*cells, key=str(run["id"]))
 
     def on_data_table_row_selected(self, event: DataTable.RowSelected) -> None:
         event.stop()

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import json
-from collections.abc import Callable
+from collections.abc import Callable, Mapping
 from functools import partial
 from typing import Any, ClassVar
 
@@ -27,12 +27,13 @@ from rig.console.words import (
 )
 from rig.judge.decision import Limits, Verdict
 from rig.planned_steps import unmeasured_steps
-from rig.screening import decision_line
+from rig.screening import ScreenDecision, decision_line
 from rig.store import ResultStore
 
 
 class HistoryScreen(Screen[None]):
-    """The station's recent runs; Enter opens one."""
+    """The station's recent runs, each screen's with its decision on the unit (``decide``: by
+    run id, None for a harness proof); Enter opens one."""
 
     DEFAULT_CSS = """
     HistoryScreen #history-title { text-style: bold; height: 1; }
@@ -46,23 +47,26 @@ class HistoryScreen(Screen[None]):
         setup: ConsoleSetup,
         recent: Callable[[], list[dict[str, Any]]],
         on_open_run: Callable[[int], None],
+        decide: Callable[[list[dict[str, Any]]], Mapping[int, ScreenDecision | None]],
     ) -> None:
         super().__init__()
         self.setup = setup
         self._recent = recent
         self._on_open_run = on_open_run
+        self._decide = decide
 
     def compose(self) -> ComposeResult:
         yield Static(
             f"Recent runs at station {self.setup.station.name} (Enter opens the record)",
             id="history-title",
         )
-        yield RunList(self._on_open_run, id="history")
+        yield RunList(self._on_open_run, decisions=True, id="history")
         yield Footer()
 
     def on_mount(self) -> None:
         runs = self.query_one(RunList)
-        runs.show_runs(self._recent(), partial(self.setup.show_time, short=True))
+        recent = self._recent()
+        runs.show_runs(recent, partial(self.setup.show_time, short=True), self._decide(recent))
         runs.focus()
 
     def action_back(self) -> None:
