@@ -15,6 +15,14 @@ VERDICT_CLASS = {
     "skipped": "v-skip",
 }
 
+DECISION_CLASS = {
+    "confirmed failure": "d-confirmed",
+    "no fault found": "d-clear",
+    "inconclusive": "d-inconclusive",
+    "undecided": "d-undecided",
+}
+"""A screen's decision on the unit (``rig.screening``): its colour repeats its words."""
+
 _STYLE = """
 body { font-family: sans-serif; margin: 1.5em; color: #1b1b1b; max-width: 80em; }
 h1 { font-size: 1.5em; } h2 { font-size: 1.2em; margin-top: 1.6em; }
@@ -25,6 +33,9 @@ td.num { text-align: right; font-variant-numeric: tabular-nums; }
 .v-pass { background: #d7f0d7; } .v-cpass { background: #eef6c8; }
 .v-cfail { background: #fbe3c0; } .v-fail { background: #f6c6c6; }
 .v-error { background: #e0d0f0; } .v-skip { color: #666; }
+.d-clear { background: #d7f0d7; } .d-confirmed { background: #f6c6c6; }
+.d-inconclusive { background: #fbe3c0; } .d-undecided { background: #e0d0f0; }
+#headline span { padding: 0.1em 0.3em; }
 .note { color: #444; font-size: 0.9em; } figure { margin: 0.8em 0; }
 figcaption { font-size: 0.9em; color: #444; }
 """

@@ -7,7 +7,7 @@ import math
 from collections.abc import Mapping, Sequence
 from typing import Any
 
-from reports.html_page import esc, figure, page, table
+from reports.html_page import DECISION_CLASS, VERDICT_CLASS, esc, figure, page, table
 from reports.svg_plots import margin_chart
 from reports.value_digits import value_and_u
 from rig import __version__
@@ -408,12 +408,18 @@ def _readings(readings: list[Mapping[str, Any]]) -> str:
     return "<h2>Raw readings</h2>" + table(headers, rows, numeric=(3, 4, 5, 6), table_id="readings")
 
 
-def _screen_decision(found: Mapping[str, str] | None) -> str:
-    """The screen's decision on the unit and what it means; nothing for a harness proof."""
+def _headline(verdict: str, found: Mapping[str, str] | None) -> str:
+    """The verdict and, for a screen, its decision on the unit beside it, coloured by the
+    decision: a simple-rule pass within U of a limit is no clean pass for a returned unit
+    (ILAC-G8:09/2019), so its colour must not say so.  A harness proof's is the verdict's."""
+    shown = f'Verdict: <strong id="verdict">{esc(verdict.upper())}</strong>'
     if not found:
-        return ""
+        colour = VERDICT_CLASS.get(verdict, "")
+        return f'<p id="headline"><span class="{colour}">{shown}</span></p>'
+    colour = DECISION_CLASS.get(found["decision"], "")
     return (
-        f'<p>Screen decision: <strong id="screen-decision">{esc(found["decision"])}</strong>'
+        f'<p id="headline"><span class="{colour}">{shown} · Screen decision: '
+        f'<strong id="screen-decision">{esc(found["decision"])}</strong></span>'
         f" ({esc(found['meaning'])})</p>"
     )
 
@@ -430,14 +436,13 @@ def _which_run(run: Mapping[str, Any]) -> str:
 def render_run(record: Mapping[str, Any]) -> str:
     """The record (``reports.run_export.run_record``) as a complete HTML page."""
     run = record["run"]
-    title = (
-        f"Test record {run['serial']}: {run['sequence_name']} ({run['verdict'] or run['status']})"
-    )
     verdict = str(run["verdict"] or run["status"])
+    found = record.get("screen_decision")
+    outcome = f"{verdict}; screen decision: {found['decision']}" if found else verdict
+    title = f"Test record {run['serial']}: {run['sequence_name']} ({outcome})"
     sections = [
         f"<h1>{esc(title)}</h1>",
-        f'<p>Verdict: <strong id="verdict">{esc(verdict.upper())}</strong></p>',
-        _screen_decision(record.get("screen_decision")),
+        _headline(verdict, found),
         _header(run),
         _instruments(run),
         _steps(record["steps"]),

@@ -113,7 +113,7 @@ def test_a_good_unit_shows_no_fault_found(tmp_path: Path) -> None:
         asyncio.run(scenario())
 
 
-def _decided_from(steps: list[dict[str, Any]]) -> str:
+def decided_from_steps(steps: list[dict[str, Any]]) -> str:
     """ILAC-G8:09/2019, guarded acceptance, over the unit's judged steps: one beyond U outside
     its limits confirms the fault; every one beyond U inside them finds none; else a reading
     within U of a limit supports neither side."""
@@ -173,7 +173,7 @@ def test_the_history_lists_each_screens_decision_beside_its_verdict(tmp_path: Pa
                     stored = {r["serial"]: store.steps(r["id"]) for r in store.runs()}
                 finally:
                     store.close()
-                expected = {s: _decided_from(stored[s]) for s in UNITS}
+                expected = {s: decided_from_steps(stored[s]) for s in UNITS}
                 # the bench gave the three cases, and the edge one is a plain PASS
                 assert sorted(expected.values()) == [
                     "confirmed failure",
