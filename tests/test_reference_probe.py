@@ -31,8 +31,9 @@ CLASS_A_FIXED, CLASS_A_PER_DEGREE = 0.15, 0.002
 # The res4w 1 kohm and res2w 10 kohm rows of the station file rig sim writes (its own invented
 # figures): +-(0.010 % of reading + 0.001 % of range).
 PCT_READING, PCT_RANGE = 0.010, 0.001
-# The shipped NTC sender's curve (sequences/ntc-sender-screen.toml, invented for the demo).
-R25_OHM, BETA_K = 2000.0, 3450.0
+# The shipped NTC sender's curve and tolerance (sequences/ntc-sender-screen.toml, invented for
+# the demo).
+R25_OHM, BETA_K, TOLERANCE = 2000.0, 3450.0, 0.05
 
 PROBE_TABLE = re.compile(r"\n\[reference_probe\].*", re.S)
 
@@ -81,7 +82,10 @@ def _expected_u(readings: dict[str, dict], probe_u: float | None) -> tuple[float
     r_pred = R25_OHM * math.exp(BETA_K * (1 / kelvin - 1 / 298.15))
     slope = BETA_K * r_pred / kelvin**2
     ntc = readings["sender-resistance"]
-    u_ntc = math.hypot(_meter_u(float(ntc["value"]), float(ntc["range"])), slope * u_t)
+    # the limits are (1 +- t) R(T): the upper one moves (1 + t) times as far as R(T) with an
+    # error in T, and that sensitivity coefficient is the one U carries (GUM 5.1.2)
+    u_limit = (1 + TOLERANCE) * slope * u_t
+    u_ntc = math.hypot(_meter_u(float(ntc["value"]), float(ntc["range"])), u_limit)
     return t, u_t, u_ntc
 
 

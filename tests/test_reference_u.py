@@ -76,9 +76,11 @@ def test_a_stated_reference_s_uncertainty_joins_the_divider_prediction_s(tmp_pat
     slope = (_divider_v(5.0 + h, 23.0) - _divider_v(5.0 - h, 23.0)) / (2 * h)
     assert slope == pytest.approx(v_pred / 5.0, rel=1e-9)  # the prediction scales with Vref
     u_reading = float(reading["u_std"])
-    assert step["u_std"] == pytest.approx(math.hypot(u_reading, slope * 0.05), rel=1e-6)
+    # the limits are V (1 +- 4 %): the upper one moves 1.04 times as far as V (GUM 5.1.2)
+    part = 1.04 * slope * 0.05
+    assert step["u_std"] == pytest.approx(math.hypot(u_reading, part), rel=1e-6)
     # the reference's part, some 1 % of V, is well above the reading's
-    assert slope * 0.05 > 5 * u_reading
+    assert part > 5 * u_reading
     params = json.loads(step["model_params"])
     assert params["reference"] == "5 V" and params["reference_u"] == "50 mV"
     # with none stated the reference is taken as exact: the reading's u alone, as before
@@ -137,8 +139,9 @@ SEQUENCES = Path(__file__).resolve().parent.parent / "sequences"
 
 def test_a_tur_dominated_by_a_stated_reference_names_it(tmp_path: Path) -> None:
     """``rig check --unit``'s and ``rig limits``' TUR of a divider step: with u(Vref) = 0.1 V the
-    reference's part, V / Vref x 0.1 V (GUM 5.1.2, the divider of SOURCES.md), is written out
-    here and is most of U's variance; with u(Vref) = 1 uV, under the meter's, it is not."""
+    reference's part, V / Vref x 0.1 V times the upper limit's sensitivity to V, 1 + 4 %
+    (GUM 5.1.2, the divider of SOURCES.md), is written out here and is most of U's variance;
+    with u(Vref) = 1 uV, under the meter's, it is not."""
     from rig.analysis.model_tur import model_step_turs
     from rig.commands.limits import load_station_or_virtual
     from rig.config.sequence import load_sequence
@@ -152,7 +155,7 @@ def test_a_tur_dominated_by_a_stated_reference_names_it(tmp_path: Path) -> None:
         path.write_text(STEP.format(extra=f'reference_u = "{u_ref:g} V"'), encoding="utf-8")
         plan = build_plan(load_sequence(path), load_station_or_virtual(None, unit))
         worst = model_step_turs(plan, unit)["signal"].worst
-        part = _divider_v(5.0, 23.0) / 5.0 * u_ref
+        part = 1.04 * _divider_v(5.0, 23.0) / 5.0 * u_ref
         assert dict(worst.stated_parts)["reference"] == pytest.approx(part, rel=1e-9)
         share = part**2 / (worst.expanded / COVERAGE_K) ** 2
         assert (share > 0.5) is (dominant is not None), share

@@ -94,13 +94,14 @@ def _run(tmp_path: Path, unit: str, text: str, step_id: str) -> tuple[dict, dict
 
 def test_a_stated_temperature_s_uncertainty_joins_the_ntc_prediction_s(tmp_path: Path) -> None:
     # 0.5 K at 23 degC through dR/dT of about -86 ohm/K: 43 ohm, some 2 % of R, beside a
-    # reading's u of well under 1 ohm.
+    # reading's u of well under 1 ohm; the upper limit, 1.05 R, moves 1.05 times as far
+    # (its sensitivity coefficient to R, GUM 5.1.2).
     step, readings = _run(
         tmp_path / "a", "ntc-sender", NTC_STEP.format(extra='temperature_u = "0.5 K"'), "sender"
     )
     u_reading = float(readings["ntc"]["u_std"])
     slope = _central(_ntc_r, 23.0, 1e-3)
-    assert step["u_std"] == pytest.approx(math.hypot(u_reading, slope * 0.5), rel=1e-6)
+    assert step["u_std"] == pytest.approx(math.hypot(u_reading, 1.05 * slope * 0.5), rel=1e-6)
     assert abs(slope) * 0.5 / _ntc_r(23.0) == pytest.approx(0.02, abs=0.003)
     params = json.loads(step["model_params"])
     assert params["temperature"] == "23 °C" and params["temperature_u"] == "0.5 K"

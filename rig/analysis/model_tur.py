@@ -6,12 +6,14 @@ temperature, so the file alone gives no TUR (``rig check`` shows ``-``).  With a
 temperatures are known: at each end of its ``temperature_range`` (its one ambient without a
 range) the sequence is predicted on the solver, and the step's window and the uncertainty of its
 prediction come from the same computation a run judges by (``ntc_window``: the reference probe's
-and meter's part of the temperature, the divider reference's).  The meter's part is taken at the
+and meter's part of the temperature, the divider reference's, carried into U through the limits'
+sensitivity to the prediction: 1 + t for a tolerance of t in %).  The meter's part is taken at the
 upper limit on the range the plan holds, as ``rig check`` does for fixed limits
 (``uncertainty_at_limit``).  The worst end is the one to quote.
 
 A ratiometric step is judged around the transfer at the pressure it states, in % of its supply:
-its window is that prediction ± its tolerance, and its U is the meter's uncertainty of both its
+its window is that prediction ± its tolerance (percentage points, so the limits move one for one
+with the prediction), and its U is the meter's uncertainty of both its
 readings, output and supply, propagated into the ratio as the step does (``u_quotient``).  The
 supply reading is predicted on the solver at each end of the range, and the output is taken at
 the window's upper limit of that supply, as for an ntc step.
@@ -58,7 +60,8 @@ class TurAt:
     tur: float
     stated_parts: tuple[tuple[str, float], ...] = ()
     """Each stated input with a u (``temperature``, ``pressure``, ``reference``) and the
-    standard uncertainty it gives the prediction, in the step's unit: what U is made of."""
+    standard uncertainty it gives the step's U through the limits' sensitivity to the
+    prediction (``NtcWindow.u_limits``), in the step's unit: what U is made of."""
 
     @property
     def dominant_stated(self) -> str | None:
@@ -183,8 +186,8 @@ def _rtd_tur_at(
     function = KINDS[spec.kind].meter_function(spec)
     assert function is not None  # an rtd step reads ohms
     u_meter = _meter_u(plan, planned, function, at)
-    expanded = COVERAGE_K * math.hypot(u_meter, window.u_std)
-    parts = () if params.get("temperature_from") else (("temperature", window.u_std),)
+    expanded = COVERAGE_K * math.hypot(u_meter, window.u_limits)
+    parts = () if params.get("temperature_from") else (("temperature", window.u_limits),)
     return _tur_of(window.limits, expanded, temp_c, parts)
 
 
@@ -216,7 +219,7 @@ def _tur_at(
     function = KINDS[spec.kind].meter_function(spec)
     assert function is not None  # an ntc step reads ohms or volts
     u_meter = _meter_u(plan, planned, function, at)
-    expanded = COVERAGE_K * math.hypot(u_meter, window.u_std)
+    expanded = COVERAGE_K * math.hypot(u_meter, window.u_limits)
     return _tur_of(window.limits, expanded, temp_c, _ntc_stated_parts(spec, temperature, reference))
 
 
@@ -228,9 +231,9 @@ def _ntc_stated_parts(
     parts = []
     if not spec.params.get("temperature_from"):
         alone = None if reference is None else (reference[0], 0.0)
-        parts.append(("temperature", ntc_window(spec, temperature, alone).u_std))
+        parts.append(("temperature", ntc_window(spec, temperature, alone).u_limits))
     if reference is not None and not spec.params.get("reference_from"):
-        parts.append(("reference", ntc_window(spec, (temperature[0], 0.0), reference).u_std))
+        parts.append(("reference", ntc_window(spec, (temperature[0], 0.0), reference).u_limits))
     return tuple(parts)
 
 

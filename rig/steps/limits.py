@@ -36,6 +36,19 @@ def tolerance_text(tolerance: tuple[str, float], unit: str) -> str:
     return format_quantity(amount, "%" if kind == "pct" else unit, RECORD_DIGITS)
 
 
+def limit_sensitivity(tolerance: tuple[str, float] | None) -> float:
+    """How far a step's limits around a prediction move per unit the prediction moves, on the
+    side that moves most: the limit's sensitivity coefficient to the prediction (JCGM 100:2008,
+    GUM, 5.1.2).  A tolerance of t % puts the limits at (1 - t/100) and (1 + t/100) times the
+    prediction, so an error in the prediction moves the upper limit (1 + t/100) times as far;
+    one in the step's unit moves both limits by the prediction's error itself (1).  A step
+    stores one U, so the larger, upper side's factor is the one it is given: conservative at
+    the lower limit by 2 t/100 of the prediction's part.  None (an rtd class) counts as 1."""
+    if tolerance is None or tolerance[0] != "pct":
+        return 1.0
+    return 1.0 + abs(tolerance[1]) / 100.0
+
+
 def apply_tolerance(nominal: float, tolerance: tuple[str, float]) -> Limits:
     kind, amount = tolerance
     if kind == "pct":

@@ -30,6 +30,7 @@ from rig.steps.context import StepContext
 from rig.steps.limits import (
     RECORD_DIGITS,
     apply_tolerance,
+    limit_sensitivity,
     read_limits,
     read_tolerance,
     tolerance_text,
@@ -463,7 +464,7 @@ class NtcCheck(StepKind):
             return Outcome(
                 reading.value - zero,
                 "ohm",
-                math.hypot(reading.u_std, window.u_std),
+                math.hypot(reading.u_std, window.u_limits),
                 window.limits,
                 [reading],
                 predicted=window.predicted,
@@ -481,7 +482,7 @@ class NtcCheck(StepKind):
         return Outcome(
             reading.value,
             "V",
-            math.hypot(reading.u_std, window.u_std),
+            math.hypot(reading.u_std, window.u_limits),
             window.limits,
             [reading],
             predicted=window.predicted,
@@ -503,6 +504,15 @@ class NtcWindow:
     """The prediction's standard uncertainty, from the temperature's and the reference's."""
     limits: Limits
     """The prediction ± the step's tolerance."""
+    sensitivity: float = 1.0
+    """How far the limits move per unit the prediction moves, on the side that moves most
+    (``limit_sensitivity``): 1 + t for a tolerance of t in %."""
+
+    @property
+    def u_limits(self) -> float:
+        """What the prediction's uncertainty gives the step's U: the limits are judged against,
+        and they carry the prediction's error times their sensitivity to it (GUM 5.1.2)."""
+        return self.sensitivity * self.u_std
 
 
 def ntc_window(
@@ -513,20 +523,23 @@ def ntc_window(
     """An ntc step's prediction, its uncertainty and its limits at a temperature (value, standard
     uncertainty in degC) and, measuring voltage, the divider's reference (value, standard
     uncertainty in V): the one computation a run judges by and ``rig check`` and ``rig limits``
-    weigh the meter against (GUM 5.1.2: uncorrelated inputs, sensitivities from the model)."""
+    weigh the meter against (GUM 5.1.2: uncorrelated inputs, sensitivities from the model; the
+    limits' own sensitivity to the prediction is ``NtcWindow.sensitivity``)."""
     model: NtcModel = spec.params["model"]
+    tolerance = spec.params["tolerance"]
+    sensitivity = limit_sensitivity(tolerance)
     temp, u_temp = temperature
     r_pred = float(model.r_at(temp))
     u_r_pred = abs(float(model.dr_dt(temp))) * u_temp
     if reference is None:
-        return NtcWindow(r_pred, u_r_pred, apply_tolerance(r_pred, spec.params["tolerance"]))
+        return NtcWindow(r_pred, u_r_pred, apply_tolerance(r_pred, tolerance), sensitivity)
     v_ref, u_ref = reference
     pull = float(spec.params["pullup_ohm"])
     v_pred = float(divider_voltage(v_ref, pull, r_pred))
     u_v_pred = math.hypot(
         float(dv_dr_sensor(v_ref, pull, r_pred)) * u_r_pred, v_pred / v_ref * u_ref
     )
-    return NtcWindow(v_pred, u_v_pred, apply_tolerance(v_pred, spec.params["tolerance"]))
+    return NtcWindow(v_pred, u_v_pred, apply_tolerance(v_pred, tolerance), sensitivity)
 
 
 class RatiometricCheck(StepKind):

@@ -25,7 +25,7 @@ from rig.models.rtd import (
 from rig.routing import Route
 from rig.steps.base import EarlierSteps, Outcome, StepKind, StepSpec
 from rig.steps.context import StepContext
-from rig.steps.limits import apply_tolerance, read_tolerance, tolerance_text
+from rig.steps.limits import apply_tolerance, limit_sensitivity, read_tolerance, tolerance_text
 from rig.steps.meter_steps import lead_zero_of, ohms_function, ohms_route, read_two_or_four_wire
 from rig.steps.model_steps import (
     IEC_60751,
@@ -43,11 +43,14 @@ def rtd_window(spec: StepSpec, temperature: tuple[float, float]) -> NtcWindow:
     """An rtd step's prediction R(T) (IEC 60751), its standard uncertainty from the temperature's
     through the slope (GUM 5.1.2), and its limits, at a temperature (value, standard uncertainty
     in degC): the one computation a run judges by and ``rig check`` weighs the meter against.
-    A temperature off the curve is refused by the model (the step's error)."""
+    A temperature off the curve is refused by the model (the step's error).  A tolerance in %
+    moves its limits (1 + t) times as far as the prediction (``limit_sensitivity``)."""
     temp, u_temp = temperature
     rtd = Rtd(r0_ohm=float(spec.params["r0_ohm"]))
     predicted = float(rtd.r_at(temp))
-    return NtcWindow(predicted, float(rtd.dr_dt(temp)) * u_temp, rtd_limits(spec, temp, predicted))
+    limits = rtd_limits(spec, temp, predicted)
+    sensitivity = limit_sensitivity(spec.params.get("tolerance"))
+    return NtcWindow(predicted, float(rtd.dr_dt(temp)) * u_temp, limits, sensitivity)
 
 
 def rtd_limits(spec: StepSpec, temp_c: float, predicted_ohm: float) -> Limits:
@@ -160,7 +163,7 @@ class RtdCheck(StepKind):
         return Outcome(
             reading.value - zero,
             self.unit,
-            math.hypot(reading.u_std, window.u_std),
+            math.hypot(reading.u_std, window.u_limits),
             window.limits,
             [reading],
             predicted=window.predicted,
