@@ -184,7 +184,7 @@ def _model_parameters(steps: list[Mapping[str, Any]]) -> str:
     """What each model step's reading was compared with, under the steps: a reviewer of the
     record must see it without the sequence file (which may since have changed)."""
     rows = [
-        [s["step_id"], key, value]
+        [s["step_id"], key, _parameter_text(s, key, value)]
         for s in steps
         for key, value in [*(s.get("model_params") or {}).items(), *_conditions(s)]
     ]
@@ -195,6 +195,13 @@ def _model_parameters(steps: list[Mapping[str, Any]]) -> str:
         + table(["step", "parameter", "value"], rows, table_id="model-parameters")
         + f'<p class="note">{esc(MODEL_NOTE)}</p>'
     )
+
+
+def _parameter_text(step: Mapping[str, Any], key: str, value: str) -> str:
+    """A recorded parameter in the words its step kind shows it in (a ratiometric tolerance
+    as percentage points of supply); the record's text for a kind this rig does not know."""
+    kind = KINDS.get(str(step.get("kind")))
+    return value if kind is None else kind.parameter_text(key, value)
 
 
 CONDITIONS = (

@@ -146,6 +146,26 @@ def test_a_model_steps_parameters_are_in_its_record_as_the_sequence_gives_them(
     assert f"r25 = {shown['sender-resistance', 'r25']}" in rows["sender-resistance"]["model_params"]
 
 
+def test_a_ratiometric_tolerance_reads_as_points_of_supply_and_is_recorded_as_written(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    """The shipped pressure check's ``tolerance = "2 %"`` is 2 percentage points of the supply
+    (its limits are the prediction +- 2, not +- 2 % of it): the HTML record says so, and the
+    record itself (JSON, CSV) keeps the file's text, which parses back to the file's value."""
+    sequence = SEQUENCES / "pressure-circuit-check.toml"
+    with shipped_bench("pressure-circuit", folder=tmp_path) as (_, station):
+        args = ["run", str(sequence), "--station", str(station.path), "--serial", "P-1", "--yes"]
+        main(args)
+    report = ("report", "1", "--store", str(station.store_path), "--out", "-", "--format")
+    shown = _model_rows(_out(capsys, *report, "html"))
+    assert shown["output-fraction", "tolerance"] == "2 percentage points of supply"
+    record = json.loads(_out(capsys, *report, "json"))
+    [params] = [s["model_params"] for s in record["steps"] if s["step_id"] == "output-fraction"]
+    assert params["tolerance"] == "2 %" and parse_quantity(params["tolerance"], "%") == 2.0
+    rows = {r["step_id"]: r for r in csv.DictReader(io.StringIO(_out(capsys, *report, "csv")))}
+    assert "tolerance = 2 %" in rows["output-fraction"]["model_params"]
+
+
 RTD_AND_RATIO = """\
 # Model steps of each kind, invented for the test: what each records of its file.
 [sequence]

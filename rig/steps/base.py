@@ -112,6 +112,12 @@ class StepKind(ABC):
     """False where the judged value is not the meter's own reading (a temperature, a fraction,
     a prediction-relative limit): the planner then cannot pick a range from the limits."""
 
+    def parameter_text(self, key: str, recorded: str) -> str:
+        """A recorded model parameter (``model_parameters``) as a report shows it to people: the
+        record's own text, unless its unit alone would mislead a reader.  The record itself is
+        kept as it is, to be parsed."""
+        return recorded
+
     def one_reading(self, spec: StepSpec) -> str | None:
         """The role of the step's only reading, for kinds whose run is: the supply as the step
         states, one route, one meter reading of ``meter_function(spec)`` at the step's range

@@ -586,6 +586,13 @@ class RatiometricCheck(StepKind):
             "tolerance": recorded(float(spec.params["tolerance_pct"]), "%"),
         }
 
+    def parameter_text(self, key: str, recorded: str) -> str:
+        """The tolerance, recorded as ``2 %``, is in percentage points of the supply, not a
+        percentage of the prediction: ``2 percentage points of supply``."""
+        if key != "tolerance" or not recorded.endswith("%"):
+            return recorded
+        return f"{recorded.removesuffix('%').strip()} percentage points of supply"
+
     def check_warnings(
         self, spec: StepSpec, earlier: EarlierSteps, probe: ReferenceProbe | None
     ) -> list[str]:
