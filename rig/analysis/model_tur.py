@@ -37,6 +37,7 @@ from rig.plan import Plan, PlannedStep
 from rig.step_judging import autorange_estimate, reading_u
 from rig.steps import KINDS, StepSpec
 from rig.steps.model_steps import (
+    NtcWindow,
     ntc_window,
     ratiometric_prediction,
     stated_reference,
@@ -170,25 +171,12 @@ def _rtd_tur_at(
     is R(T) (IEC 60751) ± its class through the slope there, or ± its tolerance; the meter read
     at the window's upper limit on the range the plan holds, the temperature's uncertainty
     carried through the slope, as a run judges it (``rig.steps.rtd_step``)."""
-    spec = planned.spec
-    params = dict(spec.params)
-    if tolerance is not None:
-        params["tolerance"], params["tolerance_class"] = tolerance, None
-    if params.get("tolerance") is None and params.get("tolerance_class") is None:
-        return None
-    spec = replace(spec, params=params)
-    temperature = _input(by_id, params.get("temperature_from"), stated_temperature(spec))
-    if temperature is None or not T_MIN_C <= temperature[0] <= T_MAX_C:
+    spec, temperature = _spec_at(planned, by_id, tolerance)
+    if spec is None or temperature is None or not T_MIN_C <= temperature[0] <= T_MAX_C:
         return None
     window = rtd_window(spec, temperature)
-    at = window.limits.high
-    assert at is not None  # a class or a tolerance gives both sides
-    function = KINDS[spec.kind].meter_function(spec)
-    assert function is not None  # an rtd step reads ohms
-    u_meter = _meter_u(plan, planned, function, at)
-    expanded = COVERAGE_K * math.hypot(u_meter, window.u_limits)
-    parts = () if params.get("temperature_from") else (("temperature", window.u_limits),)
-    return _tur_of(window.limits, expanded, temp_c, parts)
+    parts = () if spec.params.get("temperature_from") else (("temperature", window.u_limits),)
+    return _tur_of(window.limits, _expanded(plan, planned, spec, window), temp_c, parts)
 
 
 def _tur_at(
@@ -198,29 +186,47 @@ def _tur_at(
     temp_c: float,
     tolerance: Tolerance | None,
 ) -> TurAt | None:
-    spec = planned.spec
-    params = dict(spec.params)
-    if tolerance is not None:
-        params["tolerance"] = tolerance
-    if params.get("tolerance") is None:
+    """An ntc step's U and TUR, the same way, with the divider's reference where it reads a
+    voltage (``ntc_window``)."""
+    spec, temperature = _spec_at(planned, by_id, tolerance)
+    if spec is None:
         return None
-    spec = replace(spec, params=params)
-    temperature = _input(by_id, params.get("temperature_from"), stated_temperature(spec))
     reference = None
-    if params.get("mode") == "voltage":
-        reference = _input(by_id, params.get("reference_from"), stated_reference(spec))
+    if spec.params.get("mode") == "voltage":
+        reference = _input(by_id, spec.params.get("reference_from"), stated_reference(spec))
         if reference is None:
             return None
     if temperature is None:
         return None
     window = ntc_window(spec, temperature, reference)
-    at = window.limits.high
-    assert at is not None  # a tolerance gives both sides
-    function = KINDS[spec.kind].meter_function(spec)
-    assert function is not None  # an ntc step reads ohms or volts
-    u_meter = _meter_u(plan, planned, function, at)
-    expanded = COVERAGE_K * math.hypot(u_meter, window.u_limits)
+    expanded = _expanded(plan, planned, spec, window)
     return _tur_of(window.limits, expanded, temp_c, _ntc_stated_parts(spec, temperature, reference))
+
+
+def _spec_at(
+    planned: PlannedStep, by_id: Mapping[str, StepPrediction], tolerance: Tolerance | None
+) -> tuple[StepSpec | None, tuple[float, float] | None]:
+    """An ntc or rtd step with ``tolerance`` in place of its own (an rtd step's class then
+    set aside), and its temperature (value, standard uncertainty); no step where it has no
+    tolerance (nor class) at all."""
+    params = dict(planned.spec.params)
+    if tolerance is not None:
+        params["tolerance"], params["tolerance_class"] = tolerance, None
+    if params.get("tolerance") is None and params.get("tolerance_class") is None:
+        return None, None
+    spec = replace(planned.spec, params=params)
+    return spec, _input(by_id, params.get("temperature_from"), stated_temperature(spec))
+
+
+def _expanded(plan: Plan, planned: PlannedStep, spec: StepSpec, window: NtcWindow) -> float:
+    """U (k = COVERAGE_K): the meter's u at the window's upper limit on the range the plan
+    holds, and what the prediction's u gives the limits (``NtcWindow.u_limits``)."""
+    at = window.limits.high
+    assert at is not None  # a class or a tolerance gives both sides
+    function = KINDS[spec.kind].meter_function(spec)
+    assert function is not None  # an ntc or rtd step reads ohms or volts
+    u_meter = _meter_u(plan, planned, function, at)
+    return COVERAGE_K * math.hypot(u_meter, window.u_limits)
 
 
 def _ntc_stated_parts(
