@@ -233,6 +233,7 @@ def record_csv(record: Mapping[str, Any]) -> str:
             "run_id": header["run_id"],  # the step's row keeps the id of the store it is in
             "value": step.get("value_text", step["value"]),  # a word where there is no number
             "model_params": model_params_text(step.get("model_params")),
+            AMBIENT_COLUMN: ambient_text(step),
             **(_answer_cells(step) if step.get("kind") == "prompt" else {}),
             "readings": " ".join(readings.get(step["step_id"], [])),
         }
@@ -248,8 +249,34 @@ def record_csv(record: Mapping[str, Any]) -> str:
         }
         for m in record.get("not_measured", [])
     ]
-    columns = (*RUN_COLUMNS, *STEP_COLUMNS, NOT_MEASURED_COLUMN, "readings")
+    columns = (*RUN_COLUMNS, *STEP_COLUMNS, AMBIENT_COLUMN, NOT_MEASURED_COLUMN, "readings")
     return _safe_rows(rows or [header], columns)
+
+
+AMBIENT_COLUMN = "ambient"
+"""A harness step's ambient (``ambient_text``); empty on every other row."""
+
+
+def ambient_text(step: Mapping[str, Any], degrees: str = "degC") -> str:
+    """The ambient a harness step worked at, and whether it was stated or measured:
+    ``limits at 23.0 °C (stated)`` for a check, whose every copper limit is moved to it (so the
+    proof of a harness must state it), ``captured at ...`` for a capture; empty for any other
+    step.  A record kept before the source was ``not recorded`` says so.  ``degrees`` is the
+    unit's symbol: ``degC`` as the CSV's unit column writes it, ``°C`` on a page."""
+    extras = step.get("extras") or {}
+    if step.get("kind") != "harness-proof" or not isinstance(extras, Mapping):
+        return ""
+    temp_c = extras.get("temperature_c")
+    if not isinstance(temp_c, int | float):
+        return ""
+    measured = extras.get("temperature_measured")
+    source = (
+        "stated or measured: not recorded"
+        if not isinstance(measured, int | float)
+        else ("measured" if measured else "stated")
+    )
+    what = "captured at" if step.get("unit") == "nets" else "limits at"
+    return f"{what} {temp_c:.1f} {degrees} ({source})"
 
 
 def model_params_text(params: Mapping[str, str] | None) -> str:

@@ -8,6 +8,7 @@ from collections.abc import Mapping, Sequence
 from typing import Any
 
 from reports.html_page import DECISION_CLASS, VERDICT_CLASS, esc, figure, page, table
+from reports.run_export import ambient_text
 from reports.svg_plots import margin_chart
 from reports.value_digits import value_and_u
 from rig import __version__
@@ -272,14 +273,27 @@ def _nets(steps: list[Mapping[str, Any]], readings: Sequence[Mapping[str, Any]] 
             )
             reading = "no reading" if value is None else num(value)
             rows.append([s["step_id"], net, hi, lo, reading, num(limit), num(u, 3), verdict])
-    if not rows:
+    ambients = [_ambient_line(s) for s in steps if ambient_text(s)]
+    if not rows and not ambients:
         return ""
     headers = ["step", "net", "from", "to", "reading (ohm)", "limit (ohm)", "U (ohm)", "verdict"]
-    return (
-        "<h2>Continuity, net by net</h2>"
-        + table(headers, rows, numeric=(4, 5, 6), verdict_column=7, table_id="nets")
+    nets = (
+        table(headers, rows, numeric=(4, 5, 6), verdict_column=7, table_id="nets")
         + f'<p class="note">{esc(NETS_NOTE)}</p>'
+        if rows
+        else ""
     )
+    heading = "Continuity, net by net" if rows else "Harness ambient"
+    return f"<h2>{heading}</h2>" + "".join(ambients) + nets
+
+
+def _ambient_line(step: Mapping[str, Any]) -> str:
+    """The ambient a harness step's copper limits were moved to, above its nets: every limit
+    depends on it, so the proof of a harness states it."""
+    text = f"{step['step_id']}: {ambient_text(step, '°C')}"
+    if step.get("unit") != "nets":
+        text += "; every copper limit below is moved to this ambient"
+    return f'<p class="ambient">{esc(text)}</p>'
 
 
 NETS_NOTE = (

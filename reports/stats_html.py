@@ -114,6 +114,12 @@ def render_stats(stats: ShopStats, series: SeriesLoader) -> str:
         sections.append(f'<p class="note">{esc(stats.fault_note)}</p>')
     else:
         sections.append(frame_table(stats.pareto_faults, ("share", "cumulative"), "pareto-faults"))
+    if stats.pareto_findings is not None:
+        sections.append("<h2>Harness findings by kind (every finding of each failed proof)</h2>")
+        sections.append(
+            frame_table(stats.pareto_findings, ("share", "cumulative"), "pareto-findings")
+        )
+        sections.append(f'<p class="note">{esc(stats.findings_note)}</p>')
     sections.append("<h2>Numeric steps: capability</h2>")
     for step in stats.steps:
         sections.append(_step_section(step, series(step)))

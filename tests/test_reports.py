@@ -235,6 +235,10 @@ def test_a_harness_record_gives_each_nets_reading_against_its_limit(
     proof = next(r for r in runs[0].summary.results if r.kind == "harness-proof")
     assert nets.count("<tr") - 1 == sum(1 for key in proof.extras if key.endswith(" max_ohm"))
     assert nets.count(">pass<") == nets.count("<tr") - 1 >= int(proof.extras["nets"])
+    # the shipped sequence reads the ambient with the bench's Pt100 before the proof
+    # (docs/harness.md): the record says the limits were worked out at that reading
+    ambient = next(r for r in runs[0].summary.results if r.kind == "reference-temperature")
+    assert f"harness: limits at {ambient.value:.1f} °C (measured)" in page
 
 
 def test_a_net_with_no_reading_is_listed_over_its_limit() -> None:

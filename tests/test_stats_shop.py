@@ -340,17 +340,21 @@ def test_an_ntc_step_at_several_temperatures_is_one_capability_row(tmp_path: Pat
     assert abs(rows[0].mean) < 1.0  # good senders: within a fraction of a per cent of the curve
 
 
-def test_a_harness_proofs_own_findings_fill_the_fault_kind_pareto(
+def test_a_harness_proofs_own_findings_fill_their_own_pareto(
     tmp_path: Path, capsys: pytest.CaptureFixture[str]
 ) -> None:
-    # the proof names its faults in the wire list's words; the Pareto takes their kind from it
-    # instead of calling the run "not diagnosed" (the demo builds W4 and W5 swapped)
+    # the proof names its faults in the wire list's words; the findings Pareto takes their kind
+    # from it, with or without a station, instead of calling the run "not diagnosed" (the demo
+    # builds W4 and W5 swapped); the diagnosed-fault Pareto, one fault per run, leaves it out
     _, runs = run_demo(tmp_path, cases=HARNESS_CASES)
     assert [r.summary.verdict.value for r in runs] == ["pass", "fail"]
-    assert main(["stats", "--station", str(tmp_path / "station-harness.toml"), "--json"]) == 0
-    data = json.loads(capsys.readouterr().out)
-    assert data["pareto_by_fault_kind"] is not None
-    assert {r["fault_kind"]: r["count"] for r in data["pareto_by_fault_kind"]} == {"swap": 1}
+    for where in (["--station", str(tmp_path / "station-harness.toml")],
+                  ["--store", str(tmp_path / "results.sqlite")]):  # fmt: skip
+        assert main(["stats", *where, "--json"]) == 0
+        data = json.loads(capsys.readouterr().out)
+        found = {r["finding_kind"]: r["count"] for r in data["harness_findings_by_kind"]}
+        assert found == {"swap": 1}
+        assert not data["pareto_by_fault_kind"]  # None without a station, else no rows
     # a harness proof ships or rejects a harness: it is no returned-unit screen
     assert data["screen_outcomes"] == []
 

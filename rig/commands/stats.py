@@ -4,7 +4,6 @@ a gauge R&R study from study-mode runs or from a CSV made elsewhere."""
 from __future__ import annotations
 
 import argparse
-import json
 import math
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
@@ -110,19 +109,6 @@ def _g(value: Any, digits: int = 5) -> str:
     return f"{value:.{digits}g}" if isinstance(value, float) else str(value)
 
 
-def _harness_finding(steps: list[dict[str, Any]]) -> str | None:
-    """A harness proof's first finding kind, as a fault spec (``swap:harness``): the proof names
-    its faults itself, there is nothing to diagnose."""
-    for step in steps:
-        extras = step.get("extras") or {}
-        if isinstance(extras, str):  # stored as JSON text
-            extras = json.loads(extras)
-        kinds = [key.removeprefix("found ") for key in extras if key.startswith("found ")]
-        if step.get("kind") == "harness-proof" and kinds:
-            return f"{kinds[0]}:harness"
-    return None
-
-
 def _fault_finder(opened: OpenedStore) -> FaultFinder | None:
     """The most likely fault of a failed run, when a station and the analysis are available."""
     import importlib.util
@@ -132,9 +118,6 @@ def _fault_finder(opened: OpenedStore) -> FaultFinder | None:
     from reports.diagnosis import diagnose_stored_run
 
     def find(run_id: int) -> str | None:
-        found_by_proof = _harness_finding(opened.store.steps(run_id))
-        if found_by_proof is not None:
-            return found_by_proof
         found = diagnose_stored_run(opened.store, opened.store.run(run_id), station=opened.station)
         return found["hypotheses"][0]["spec"] if found["hypotheses"] else None
 
@@ -274,6 +257,12 @@ def _print_shop(stats: Any, out: Output) -> None:
         out.line(f"  {stats.fault_note}")
     else:
         _pareto(out, stats.pareto_faults, ["fault kind", "runs"])
+        out.line(f"  {stats.fault_note}")
+    if stats.pareto_findings is not None:
+        out.line()
+        out.line("Harness findings by kind (every finding of each failed harness proof)")
+        _pareto(out, stats.pareto_findings, ["finding kind", "findings"])
+        out.line(f"  {stats.findings_note}")
     out.line()
     out.line("Numeric steps")
     out.table(

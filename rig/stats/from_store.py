@@ -26,7 +26,7 @@ from rig.stats.capability import (
 )
 from rig.stats.filters import RunFilter
 from rig.stats.grr import GaugeStudy, GaugeStudyError, Observation, gauge_rr
-from rig.stats.pareto import fault_kind, pareto
+from rig.stats.pareto import NO_FINDING, fault_kind, harness_findings, pareto
 from rig.stats.yields import (
     run_decision,
     runs_frame,
@@ -101,7 +101,12 @@ class ShopStats:
     screens: pd.DataFrame
     pareto_steps: pd.DataFrame
     pareto_faults: pd.DataFrame | None
+    """Failed runs of screens by the kind of each one's most likely fault: one per run."""
     fault_note: str
+    pareto_findings: pd.DataFrame | None
+    """Every finding of every failed harness proof by kind (a run with three counts three);
+    None where no harness proof is among the runs."""
+    findings_note: str
     undecided: pd.DataFrame
     """Runs that decided nothing (stopped, instrument fault, ...), by cause: kept out of the
     Pareto, whose counts are part failures only."""
@@ -132,6 +137,8 @@ class ShopStats:
             "pareto_by_step": records(self.pareto_steps),
             "pareto_by_fault_kind": records(self.pareto_faults),
             "fault_kind_note": self.fault_note,
+            "harness_findings_by_kind": records(self.pareto_findings),
+            "harness_findings_note": self.findings_note,
             "not_decided": records(self.undecided),
             "steps": [{k: clean(v) for k, v in asdict(s).items()} for s in self.steps],
             "sequence_versions": [asdict(v) for v in self.versions],
@@ -434,14 +441,19 @@ def shop_stats(
     for group in groups:  # an operator's no is no failure of the part
         if group.unit != ANSWER_UNIT:
             by_step[f"{group.sequence} / {group.step_id}"] += group.failures
+    failed = runs.loc[runs["failed"], ["id", "sequence_name"]]
+    proofs_failed = [int(i) for i, name in failed.itertuples(index=False) if name in harness_proofs]
+    failed_runs = [int(i) for i in failed["id"] if int(i) not in set(proofs_failed)]
     if find_fault is None:
         faults, note = None, "no diagnosis is available (give --station, with the unit files)"
     else:
-        failed_runs = runs.loc[runs["failed"], "id"].astype(int).tolist()
         specs = [find_fault(run_id) for run_id in failed_runs]
         kinds = Counter(fault_kind(s) if s else "not diagnosed" for s in specs)
         faults = pareto(kinds, "fault_kind")
         note = f"most likely fault of each of {len(failed_runs)} failed runs"
+        if proofs_failed:
+            note += " (failed harness proofs apart: their findings are counted by kind below)"
+    findings, findings_note = _findings_pareto(store, proofs_failed, bool(harness_proofs))
     return ShopStats(
         where=where,
         runs=len(runs),
@@ -451,12 +463,34 @@ def shop_stats(
         pareto_steps=pareto(by_step, "step"),
         pareto_faults=faults,
         fault_note=note,
+        pareto_findings=findings,
+        findings_note=findings_note,
         undecided=undecided_causes(runs),
         steps=[g for g in groups if g.n > 0 and g.unit not in NOT_READINGS],  # in the Pareto still,
         versions=[
             SequenceVersion(str(name), str(digest), int(runs), str(first))
             for name, digest, runs, first in store.sequence_versions(where)
         ],
+    )
+
+
+def _findings_pareto(
+    store: ResultStore, failed_runs: list[int], any_proofs: bool
+) -> tuple[pd.DataFrame | None, str]:
+    """Every finding of the failed harness runs by kind, from each proof's own record (no
+    diagnosis needed), and what the counts are; None where no harness proof is among the
+    runs.  A failed run whose record names no finding counts once as such."""
+    if not any_proofs:
+        return None, "no harness proof among these runs"
+    kinds = Counter[str]()
+    for run_id in failed_runs:
+        found = harness_findings(store.steps(run_id))
+        kinds.update(found or {NO_FINDING: 1})
+    total = sum(kinds.values())
+    runs = len(failed_runs)
+    return pareto(kinds, "finding_kind"), (
+        f"{total} finding{'s' if total != 1 else ''} of {runs} failed harness "
+        f"run{'s' if runs != 1 else ''}: every finding of a run counts, not one per run"
     )
 
 

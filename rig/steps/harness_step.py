@@ -165,6 +165,17 @@ def report_outcome(report: HarnessReport, settings: HarnessSettings, unit: str) 
     )
 
 
+TEMPERATURE_MEASURED = "temperature_measured"
+"""The extras key that says where ``temperature_c`` came from: 1 read by an earlier step
+(``temperature_from``), 0 stated; every copper limit is moved to it, so a record of a harness
+must say which (records before it was kept lack the key)."""
+
+
+def measured_ambient(spec: StepSpec) -> float:
+    """1.0 where the step's ambient is an earlier step's reading, 0.0 where it is stated."""
+    return 1.0 if spec.params.get("temperature_from") else 0.0
+
+
 AMBIENT_LOW_C, AMBIENT_HIGH_C = 0.0, 50.0
 """A stated ambient a harness is plausibly tested at indoors: a cold unheated shop to a hot one
 (common practice, no published source).  Outside it the figure is a slip (230 for 23.0), and the
@@ -239,6 +250,7 @@ class HarnessProof(StepKind):
         settings = settings_from(spec, temp_c)
         report = scan_harness(ctx, wires, ctx.fixture, settings)
         outcome = report_outcome(report, settings, self.unit)
+        outcome.extras[TEMPERATURE_MEASURED] = measured_ambient(spec)
         if wires.ignored:  # what the harness was proved against, in the record
             outcome.note = "; ".join(filter(None, (outcome.note, wires.ignored_note())))
         return outcome
@@ -286,6 +298,7 @@ class HarnessProof(StepKind):
                 "rows": float(len(found.rows)),
                 "discovery_readings": float(len(found.discovery.readings)),
                 "temperature_c": temp_c,
+                TEMPERATURE_MEASURED: measured_ambient(spec),
             },
             note=note,
         )

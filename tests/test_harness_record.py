@@ -1,0 +1,89 @@
+"""What the record of a harness check says once it is stored: the ambient its copper limits were
+moved to, every finding counted by ``rig stats``.  Through
+the real stack: ``rig harness check`` over pyvisa-py (TCP) and pyserial (pty) to the virtual
+bench, a real SQLite store, ``rig report`` and ``rig stats`` as a technician runs them.  The
+harness faults are our own invented cases on the shipped wire list."""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+from pathlib import Path
+
+import pytest
+from harness_helpers import one_blas_thread
+
+from rig.cli import EXIT_FAIL, main
+from rig.config.fixture import load_fixture
+from rig.harness.as_built import parse_build_faults
+from rig.harness.wire_list import load_wire_list
+from rig.sim.harness_bench import harness_bench
+
+one_blas_thread()
+
+SHIPPED = Path(__file__).resolve().parent.parent / "sequences" / "harness"
+WIRE_LIST = SHIPPED / "wire-list.csv"
+THREE_FAULTS = ("swap:W4,W5", "missing-splice:W10c", "high:W7=0.4ohm")
+"""docs/harness.md's example: three faults in one harness, three findings of three kinds."""
+
+
+def _check(folder: Path, faults: tuple[str, ...], serial: str, ambient: str) -> Path:
+    """``rig harness check`` of the shipped list on a bench built with ``faults``; the
+    station file (its store is ``folder/data/results.sqlite``, shared by every call)."""
+    fixture = load_fixture(SHIPPED / "fixture.toml")
+    wires = load_wire_list(WIRE_LIST, fixture)
+    built = parse_build_faults(list(faults), wires, fixture.pins)
+    bench = harness_bench(wires, fixture, built, ambient_c=23.0, seed=1)
+    bench.start()
+    try:
+        station = bench.write_station(folder / f"{serial}.toml", data_dir=str(folder / "data"))
+        args = ["harness", "check", str(WIRE_LIST), "--station", str(station)]
+        assert main([*args, "--serial", serial, "--ambient", ambient]) == EXIT_FAIL
+    finally:
+        bench.stop()
+    return station
+
+
+@pytest.fixture(scope="module")
+def checked(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    """Two failed harnesses in one store: run 1 with the three faults, run 2 swapped only."""
+    folder = tmp_path_factory.mktemp("harness-record")
+    _check(folder, THREE_FAULTS, "H-3", "21.5 degC")
+    _check(folder, ("swap:W4,W5",), "H-1", "23 degC")
+    return folder / "data" / "results.sqlite"
+
+
+def _out(capsys: pytest.CaptureFixture[str], *args: str) -> str:
+    capsys.readouterr()
+    assert main(list(args)) == 0, capsys.readouterr().err
+    return capsys.readouterr().out
+
+
+def test_the_record_states_the_ambient_the_limits_were_worked_out_at(
+    checked: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # every copper limit is R20 [1 + alpha (T - 20 degC)] at the check's ambient (IEC 60028,
+    # docs/harness.md), so the proof of a harness must name T: the HTML and the CSV say it, and
+    # that it was stated (--ambient), not read from the bench's probe
+    page = _out(capsys, "report", "1", "--store", str(checked), "--out", "-")
+    nets = page.split("<h2>Continuity, net by net</h2>")[1].split('<table id="nets"')[0]
+    assert "harness: limits at 21.5 °C (stated)" in nets
+    rows = list(csv.DictReader(io.StringIO(_out(capsys, "report", "2", "--store", str(checked),
+                                                "--format", "csv", "--out", "-"))))  # fmt: skip
+    assert [r["ambient"] for r in rows] == ["limits at 23.0 degC (stated)"]
+
+
+def test_every_finding_of_a_harness_run_is_counted_by_kind(
+    checked: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # run 1: a swap, an open at the splice and a high-resistance wire; run 2: a swap.  Each
+    # finding counts (docs/harness.md, Findings: the kinds), not one per run
+    data = json.loads(_out(capsys, "stats", "--store", str(checked), "--json"))
+    found = {r["finding_kind"]: r["count"] for r in data["harness_findings_by_kind"]}
+    assert found == {"swap": 2, "splice": 1, "high-resistance": 1}
+    assert data["harness_findings_note"].startswith("4 findings of 2 failed harness runs")
+    text = _out(capsys, "stats", "--store", str(checked))
+    table = text.split("Harness findings by kind")[1]
+    assert "finding kind" in table and "findings" in table
+    assert "swap             2         50.0 %" in table
