@@ -160,13 +160,12 @@ def _parser() -> argparse.ArgumentParser:
     )
     sim.add_argument(
         "--station-out",
-        type=Path,
-        default=Path("rig-data/virtual-station.toml"),
-        help="where to write the station file that names this bench",
+        default="rig-data/virtual-station.toml",
+        help="where to write the station file that names this bench (a folder, or a path "
+        "ending with /: the file virtual-station.toml in it, the folder made if need be)",
     )
     sim.add_argument(
         "--state-file",
-        type=Path,
         help="a JSON file rewritten on every change: closed relays, outputs on, faults",
     )
     add_port_args(sim)
@@ -845,15 +844,16 @@ def cmd_sim(args: argparse.Namespace, out: Output) -> int:
     fixture = fixture_of(unit)
     faults = parse_faults(args.fault, unit, source="--fault")
     station_out = file_to_write(args.station_out, "--station-out", name="virtual-station.toml")
+    state_file = None
     if args.state_file is not None:
-        file_to_write(args.state_file, "--state-file", kind="a JSON file to write")
+        state_file = file_to_write(args.state_file, "--state-file", kind="a JSON file to write")
     bench = VirtualBench(
         unit,
         fixture,
         faults=faults,
         timing=Timing(args.timing),
         seed=args.seed,
-        state_file=args.state_file,
+        state_file=state_file,
         dmm_port=args.dmm_port,
         supply_port=args.supply_port,
     )

@@ -1,5 +1,5 @@
 """What the record of a harness check says once it is stored: the ambient its copper limits were
-moved to, every finding counted by ``rig stats``.  Through
+moved to, every finding counted by ``rig stats``, and where ``--station-out`` writes.  Through
 the real stack: ``rig harness check`` over pyvisa-py (TCP) and pyserial (pty) to the virtual
 bench, a real SQLite store, ``rig report`` and ``rig stats`` as a technician runs them.  The
 harness faults are our own invented cases on the shipped wire list."""
@@ -9,13 +9,16 @@ from __future__ import annotations
 import csv
 import io
 import json
+import signal
 from pathlib import Path
 
 import pytest
 from harness_helpers import one_blas_thread
+from sim_process import served
 
-from rig.cli import EXIT_FAIL, main
+from rig.cli import EXIT_BAD_INPUT, EXIT_FAIL, main
 from rig.config.fixture import load_fixture
+from rig.config.station import load_station
 from rig.harness.as_built import parse_build_faults
 from rig.harness.wire_list import load_wire_list
 from rig.sim.harness_bench import harness_bench
@@ -87,3 +90,33 @@ def test_every_finding_of_a_harness_run_is_counted_by_kind(
     table = text.split("Harness findings by kind")[1]
     assert "finding kind" in table and "findings" in table
     assert "swap             2         50.0 %" in table
+
+
+def test_a_station_out_ending_with_a_slash_is_a_folder_made_for_the_station_file(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # `rig sim --station-out rig-data/` wrote a FILE named rig-data, and the next command failed
+    # with "Not a directory"; the trailing / names a folder (POSIX pathname resolution: a path
+    # ending in a slash resolves to a directory)
+    unit = SHIPPED.parent / "units" / "temp-circuit.toml"
+    commands = {
+        "virtual-station.toml": ["sim", "--unit", str(unit)],
+        "harness-station.toml": ["harness", "sim", str(WIRE_LIST), "--fixture",
+                                 str(SHIPPED / "fixture.toml")],
+    }  # fmt: skip
+    for name, args in commands.items():
+        folder = tmp_path / name.split("-")[0] / "rig-data"
+        with served([*args, "--station-out", f"{folder}/"]) as (proc, lines):
+            assert f"station file written to {folder / name}\n" in lines, lines
+            assert load_station(folder / name).data_dir == folder
+            proc.send_signal(signal.SIGTERM)
+            assert proc.wait(timeout=10) == 0
+        # a file where the folder is named: refused before a bench is served, nothing written
+        taken = tmp_path / f"taken-{name}"
+        taken.write_text("mine\n", encoding="utf-8")
+        capsys.readouterr()
+        assert main([*args, "--station-out", f"{taken}/"]) == EXIT_BAD_INPUT
+        assert capsys.readouterr().err.splitlines() == [
+            f"rig: --station-out {taken}/: names a folder, but {taken} is a file"
+        ]
+        assert taken.read_text(encoding="utf-8") == "mine\n"

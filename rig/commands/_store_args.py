@@ -6,6 +6,7 @@ folder (beside its store), never the source tree.  Reading never changes a store
 from __future__ import annotations
 
 import argparse
+import os
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -99,12 +100,23 @@ def checked_output(path: Path) -> Path:
     return resolved
 
 
-def file_to_write(path: Path, option: str, *, name: str = "", kind: str = "") -> Path:
-    """Where ``option`` writes its file: ``path``; where that is a folder, the file ``name`` in
-    it (the name the command gives the file by default), or with no ``name`` a refusal saying
-    what was expected (``kind``), before anything is started or written."""
-    if not path.is_dir():
+FOLDER_ENDS = tuple(sorted({"/", os.sep, os.altsep or "/"}))
+"""What a path given for a folder ends with: ``rig-data/`` names a folder, made if need be."""
+
+
+def file_to_write(path: Path | str, option: str, *, name: str = "", kind: str = "") -> Path:
+    """Where ``option`` writes its file: ``path``; where that is a folder, or ends with ``/``
+    (a folder that need not exist yet: the writer makes it), the file ``name`` in it (the name
+    the command gives the file by default), or with no ``name`` a refusal saying what was
+    expected (``kind``), before anything is started or written.  The text as typed must be
+    given to see the ``/``: ``Path`` drops it."""
+    folder_named = isinstance(path, str) and path.endswith(FOLDER_ENDS)
+    shown, path = str(path), Path(path)
+    if folder_named and path.exists() and not path.is_dir():
+        raise ArgumentProblem(f"{option} {shown}: names a folder, but {path} is a file")
+    if not (folder_named or path.is_dir()):
         return path
     if name:
         return path / name
-    raise ArgumentProblem(f"{option} {path}: is a folder; expected {kind}")
+    what = "is a folder" if path.is_dir() else "names a folder (it ends with /)"
+    raise ArgumentProblem(f"{option} {shown}: {what}; expected {kind}")

@@ -64,9 +64,9 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     sim.add_argument("--probe", default="", help="FORCE_HI,SENSE_HI,FORCE_LO,SENSE_LO pins")
     sim.add_argument(
         "--station-out",
-        type=Path,
-        default=Path("rig-data/harness-station.toml"),
-        help="where to write the station file that names this bench",
+        default="rig-data/harness-station.toml",
+        help="where to write the station file that names this bench (a folder, or a path "
+        "ending with /: the file harness-station.toml in it, the folder made if need be)",
     )
     add_port_args(sim)
     sim.add_argument("--seed", type=int, default=0, help="seed of the simulated noise")
