@@ -10,9 +10,9 @@ from typing import Any
 from reports.html_page import DECISION_CLASS, VERDICT_CLASS, esc, figure, page, table
 from reports.run_export import ambient_text
 from reports.svg_plots import margin_chart
-from reports.value_digits import value_and_u
+from reports.value_digits import at_place, shown_place, value_and_u
 from rig import __version__
-from rig.events import CUT_SHORT, NOT_RUN, prompt_answer
+from rig.events import CUT_SHORT, NOT_RUN, allows_none, prompt_answer
 from rig.judge.decision import COVERAGE_K, DecisionRule, Limits, judge, tur_text
 from rig.steps import KINDS
 
@@ -271,8 +271,7 @@ def _nets(steps: list[Mapping[str, Any]], readings: Sequence[Mapping[str, Any]] 
                 if math.isfinite(limit)
                 else "no limit"
             )
-            reading = "no reading" if value is None else num(value)
-            rows.append([s["step_id"], net, hi, lo, reading, num(limit), num(u, 3), verdict])
+            rows.append([s["step_id"], net, hi, lo, *_net_cells(value, limit, u), verdict])
     ambients = [_ambient_line(s) for s in steps if ambient_text(s)]
     if not rows and not ambients:
         return ""
@@ -296,9 +295,23 @@ def _ambient_line(step: Mapping[str, Any]) -> str:
     return f'<p class="ambient">{esc(text)}</p>'
 
 
+def _net_cells(value: float | None, limit: float, u: float) -> tuple[str, str, str]:
+    """A net's reading, limit and U: the reading and U to the digits U supports, the limit to
+    the reading's decimal place, finer where the two would read alike (``shown_place``); with
+    no reading or no U, the limit to three significant digits, as the findings quote it."""
+    place = None if value is None else shown_place(value, u, [limit])
+    if value is None or place is None:
+        reading = "no reading" if value is None else num(value)
+        return reading, num(limit, 3), num(u, 3)
+    reading, u_text = value_and_u(value, u, [limit])
+    return reading, at_place(limit, place) if math.isfinite(limit) else "", u_text
+
+
 NETS_NOTE = (
     "Each net is judged as the run judged it: its reading against its limit with the reading's "
-    "expanded uncertainty U (k = 2) under the step's decision rule (ILAC-G8:09/2019)."
+    "expanded uncertainty U (k = 2) under the step's decision rule (ILAC-G8:09/2019). Readings "
+    "and U are shown to the digits U supports (GUM 7.2.6), each limit to its reading's decimal "
+    "place; the verdicts were reached with the unrounded figures, kept in the CSV and JSON."
 )
 
 
@@ -345,14 +358,16 @@ def _margins(steps: list[Mapping[str, Any]]) -> str:
     size, the other side open); a reading that overloaded the meter (a failed step, often the
     one that matters) at the plot's edge, marked so, and a step with no reading at all, or one
     limit at zero, named under the plot."""
-    labels, positions, half, sides, unplotted, unscaled = [], [], [], [], [], []
+    labels, positions, half, sides, unplotted, unscaled, counts = [], [], [], [], [], [], []
     for s in steps:
         if not _judged(s):  # a prompt's answer or a wait: no reading to place against limits
             continue
         low, high, value = s["low"], s["high"], s["value"]
         scale = margin_scale(low, high)
         if scale is None:
-            if (low is None) != (high is None):  # one limit at zero: nothing to scale by
+            if allows_none(Limits(low, high), str(s.get("unit"))):  # a harness's faults
+                counts.append(str(s["step_id"]))
+            elif (low is None) != (high is None):  # one limit at zero: nothing to scale by
                 unscaled.append(str(s["step_id"]))
             continue
         zero, width = scale
@@ -367,10 +382,19 @@ def _margins(steps: list[Mapping[str, Any]]) -> str:
         half.append((s["expanded_u"] or 0.0) / width)
         sides.append((low is not None, high is not None))
     missing = " ".join(
-        f"Not drawn, {why}: {', '.join(names)}."
+        why.format(", ".join(names))
         for why, names in (
-            ("no value", unplotted),
-            ("one limit, at zero (no size to scale by)", unscaled),
+            ("Not drawn, no value: {}.", unplotted),
+            (
+                "Not drawn: {}, whose only limit is zero, so there is nothing to measure how far "
+                "its value lies from it against.",
+                unscaled,
+            ),
+            (
+                "Not drawn: {}, a count of faults found where none is allowed (the faults are "
+                "named in its note; each net's reading against its limit is in the table above).",
+                counts,
+            ),
         )
         if names
     )

@@ -11,6 +11,7 @@ verdicts come from the unrounded values, and the CSV and JSON records keep full 
 from __future__ import annotations
 
 import math
+from collections.abc import Iterable
 from decimal import ROUND_CEILING, ROUND_HALF_EVEN, Decimal
 
 _SIGNIFICANT = 2
@@ -33,19 +34,46 @@ def _rounded(x: float, place: int, how: str) -> Decimal:
 
 
 def _text(x: Decimal, place: int) -> str:
+    """Tens or coarser (a negative place): a whole number, the digits below it zero."""
     return f"{x:.{max(place, 0)}f}"
 
 
-def value_and_u(value: float, u: float) -> tuple[str, str]:
+MORE_PLACES = 8
+"""The most decimal places added past U's to tell a value from a limit it is not equal to."""
+
+
+def shown_place(value: float, u: float, limits: Iterable[float | None] = ()) -> int | None:
+    """The decimal place ``value`` (and limits beside it) are shown to: that of ``u`` to two
+    significant digits (GUM 7.2.6), or a finer one where the value would read as a limit it is
+    not equal to (rounding to nearest is monotone, so once the two differ the value shown lies
+    on its own side of the limit).  None where ``u`` is not a positive finite number."""
+    if not (math.isfinite(u) and u > 0.0 and math.isfinite(value)):
+        return None
+    place = _decimals(u)
+    near = [x for x in limits if x is not None and math.isfinite(x) and x != value]
+    for _ in range(MORE_PLACES):
+        shown = _rounded(value, place, ROUND_HALF_EVEN)
+        if all(shown != _rounded(x, place, ROUND_HALF_EVEN) for x in near):
+            break
+        place += 1
+    return place
+
+
+def at_place(x: float, place: int) -> str:
+    """``x`` rounded to nearest at ``place`` decimals (tens or coarser: a whole number)."""
+    return _text(_rounded(x, place, ROUND_HALF_EVEN), place)
+
+
+def value_and_u(
+    value: float, u: float, limits: Iterable[float | None] = ()
+) -> tuple[str, str]:
     """``value`` and its expanded uncertainty ``u`` as the report shows them: ``u`` to two
-    significant digits (rounded up), ``value`` to the same decimal place (rounded to nearest);
+    significant digits (rounded up), ``value`` to the same decimal place (rounded to nearest),
+    or finer where it would read as one of ``limits`` (``shown_place``);
     (22.993455896585182, 0.2346872766) -> ("22.99", "0.24").  Where ``u`` is not a positive
     finite number, nothing can be said of the digits: ``value`` keeps seven significant ones."""
-    if not (math.isfinite(u) and u > 0.0):
+    place = shown_place(value, u, limits)
+    if place is None:
         return f"{value:.7g}", (f"{u:.3g}" if math.isfinite(u) else "")
-    place = _decimals(u)
-    shown_u = _rounded(u, place, ROUND_CEILING)
-    shown_value = _rounded(value, place, ROUND_HALF_EVEN)
-    if place < 0:  # tens or coarser: whole numbers, the digits below them zero
-        return _text(shown_value, 0), _text(shown_u, 0)
-    return _text(shown_value, place), _text(shown_u, place)
+    u_place = _decimals(u)
+    return at_place(value, place), _text(_rounded(u, u_place, ROUND_CEILING), u_place)

@@ -1,14 +1,16 @@
-"""What the record of a harness check says once it is stored: the ambient its copper limits were
-moved to, every finding counted by ``rig stats``, and where ``--station-out`` writes.  Through
-the real stack: ``rig harness check`` over pyvisa-py (TCP) and pyserial (pty) to the virtual
-bench, a real SQLite store, ``rig report`` and ``rig stats`` as a technician runs them.  The
-harness faults are our own invented cases on the shipped wire list."""
+"""What the record of a harness check says once it is stored: the ambient its copper limits
+were moved to, its limits to the digits its readings show, every finding counted by ``rig
+stats``, and where ``--station-out`` writes.  Through the real stack: ``rig harness check`` over
+pyvisa-py (TCP) and pyserial (pty) to the virtual bench, a real SQLite store, ``rig report`` and
+``rig stats`` as a technician runs them.  The harness faults are our own invented cases on the
+shipped wire list."""
 
 from __future__ import annotations
 
 import csv
 import io
 import json
+import re
 import signal
 from pathlib import Path
 
@@ -120,3 +122,39 @@ def test_a_station_out_ending_with_a_slash_is_a_folder_made_for_the_station_file
             f"rig: --station-out {taken}/: names a folder, but {taken} is a file"
         ]
         assert taken.read_text(encoding="utf-8") == "mine\n"
+
+
+def test_the_nets_limits_are_shown_to_the_digits_of_their_readings(
+    checked: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # JCGM 100:2008 (GUM) 7.2.6: U to two significant digits, the reading to the same decimal
+    # place; a limit beside them to that place too (0.05735177 beside 0.0454 read 0.0574), not
+    # to eight digits.  Checked against Python's own float formatting of the stored figures.
+    extras = json.loads(_out(capsys, "report", "1", "--store", str(checked), "--format",
+                             "json", "--out", "-"))["steps"][0]["extras"]  # fmt: skip
+    page = _out(capsys, "report", "1", "--store", str(checked), "--out", "-")
+    nets = page.split('id="nets"')[1].split("</table>")[0]
+    rows = [re.findall(r"<td[^>]*>(.*?)</td>", r) for r in nets.split("<tr>")[2:]]
+    assert len(rows) == sum(1 for key in extras if key.endswith(" max_ohm")) >= 10
+    for _, net, hi, lo, reading, limit, u, _ in rows:
+        key = f"net {net} {hi}>{lo}"
+        if reading == "no reading":  # an open: the limit as the findings quote it
+            assert limit == f"{extras[f'{key} max_ohm']:.3g}"
+            continue
+        places = len(reading.split(".")[1])
+        assert limit == f"{extras[f'{key} max_ohm']:.{places}f}", (net, reading, limit)
+        assert len(u.split(".")[1]) == places and len(u.lstrip("0.")) == 2, u
+        assert float(u) >= extras[f"{key} u_ohm"]  # U rounded up, never smaller
+    margins = page.split("<h2>Margins</h2>")[-1] if "<h2>Margins</h2>" in page else page
+    assert "no size to scale by" not in page
+    assert "harness, a count of faults found where none is allowed" in margins
+
+
+def test_a_reading_next_to_its_limit_keeps_the_digits_that_tell_them_apart() -> None:
+    # worked by hand: 0.0574 ohm with U 0.0046 ohm shows to 4 decimals, where the limit
+    # 0.05735177 ohm also reads 0.0574; one more decimal tells them apart (0.05740 > 0.05735)
+    from reports.run_html import _net_cells
+
+    assert _net_cells(0.0454, 0.05735177, 0.004624) == ("0.0454", "0.0574", "0.0047")
+    assert _net_cells(0.0574, 0.05735177, 0.0046) == ("0.05740", "0.05735", "0.0046")
+    assert _net_cells(None, 0.07576635, 0.0) == ("no reading", "0.0758", "0")

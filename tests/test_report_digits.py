@@ -202,7 +202,7 @@ def test_steps_with_one_limit_are_drawn_in_the_margins_and_a_prompt_is_not(
     drawn = re.findall(r"<!-- (.*?) -->", svg)
     assert "drop-max-only" in drawn and "iso-min-only" in drawn
     assert "max-at-zero" not in drawn
-    assert "Not drawn, one limit, at zero (no size to scale by): max-at-zero." in svg
+    assert "Not drawn: max-at-zero, whose only limit is zero, so there is nothing" in svg
     # the demo's prompt (a one-sided low of 0.5 on its answer) is not a reading to draw
     prompt_html = render_run(records["NTC-0003"])
     prompt_svg = prompt_html[prompt_html.index("<h2>Margins</h2>") :]

@@ -278,7 +278,7 @@ def test_a_record_without_each_nets_u_takes_it_from_the_raw_reading() -> None:
     raw = {"step_id": "harness", "role": "continuity A-1>B-1", "value": 0.097, "u_std": 0.002}
     other = {**raw, "role": "continuity A-2>B-2", "u_std": 0.0001}
     row = _nets([step], [raw, other]).split("<tr")[2]
-    assert ">conditional pass<" in row and ">0.004<" in row
+    assert ">conditional pass<" in row and ">0.0040<" in row  # U to two digits (GUM 7.2.6)
 
 
 def test_an_open_sender_reads_overload_in_every_format_not_a_blank(
