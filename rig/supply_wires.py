@@ -81,7 +81,7 @@ def supply_wire_warnings(
             f"{format_quantity(spec.supply.limit_a, 'A')} is above "
             f"{format_quantity(allowed, 'A', 3)}, a conservative continuous current for "
             f"{thinnest.name} ({thinnest.gauge}, {thinnest.where}), the thinnest conductor on "
-            f"its powered path ({SOURCE}; from memory): a short would pass the whole limit "
+            f"its powered path ({SOURCE}): a short would pass the whole limit "
             "through it. Lower the limit, or confirm the wire's rating from the cable maker's "
             "data, local codes and licensed practice"
         )

@@ -24,7 +24,8 @@ def _row(tmp_path: Path, gauge: str, length_m: float) -> WireRow:
 
 def test_resistance_per_metre_of_neighbouring_sizes_scales_with_their_areas() -> None:
     # What the hint rests on.  IEC 60228 class 5 (flexible) copper, maximum ohm/km at 20 degC
-    # (IEC 60228 table; from memory): 0.5 39.0, 0.75 26.0, 1.0 19.5, 1.5 13.3, 2.5 7.98.
+    # (IEC 60228 table 3; checked against copies): 0.5 39.0, 0.75 26.0, 1.0 19.5, 1.5 13.3,
+    # 2.5 7.98.
     table = {0.5: 39.0, 0.75: 26.0, 1.0: 19.5, 1.5: 13.3, 2.5: 7.98}
     sizes = sorted(table)
     for small, big in itertools.pairwise(sizes):
@@ -33,7 +34,7 @@ def test_resistance_per_metre_of_neighbouring_sizes_scales_with_their_areas() ->
 
 def test_a_listed_0_75_mm2_wire_that_reads_like_0_5_mm2_gets_the_hint(tmp_path: Path) -> None:
     # 2.5 m listed 0.75 mm2 at 20 degC; built of 0.5 mm2: its copper is the nominal 0.75 one
-    # times the IEC 60228 class 5 ratio 39.0/26.0 (from memory), plus two contacts
+    # times the IEC 60228 class 5 ratio 39.0/26.0 (table 3), plus two contacts
     row = _row(tmp_path, "0.75 mm2", 2.5)
     listed = 2.5 * 0.0172414 / 0.75  # rho20 = 1/58 ohm mm2/m (IEC 60028)
     reading = listed * 39.0 / 26.0 + CONTACTS_OHM

@@ -33,7 +33,8 @@ AWG_STEP = 92 ** (2 / 39)
 OHM_PER_M_18AWG = 0.02095
 """Solid 18 AWG copper at 20 degC (handbook AWG table; ../shared/SOURCES.md)."""
 IEC_CLASS5_OHM_PER_M = {1.0: 0.0195, 0.75: 0.0260}
-"""Maximum of class 5 plain copper at 20 degC (IEC 60228 table; from memory)."""
+"""Maximum of class 5 plain copper at 20 degC (IEC 60228 table 3; checked against published
+copies of the table)."""
 RHO20 = 1 / 58
 """Annealed copper, ohm mm2/m at 20 degC (IEC 60028)."""
 
