@@ -82,14 +82,15 @@ def _instruments(run: Mapping[str, Any]) -> str:
 
 
 DECISION_NOTE = (
-    "Each value is judged against its limits with its expanded uncertainty U (k = 2, about 95 %, "
-    "GUM) under the step's decision rule (ILAC-G8:09/2019). Values and U are shown to the digits "
-    "U supports: U to two significant digits, rounded up, the value to the same decimal place "
-    "(GUM 7.2.6); the verdicts were reached with the unrounded values, kept in the CSV and JSON "
-    "records. Under the guarded rule a value within "
-    "U of a limit is conditional: a conditional pass lies inside the limits and a conditional fail "
-    "outside, but this measurement cannot rule out the other side. Retest, or measure with a "
-    "smaller U, before deciding on such a unit."
+    "Each value is judged against its limits with its expanded uncertainty U (k = 2, about 95 "
+    "%, GUM) under the step's decision rule (ILAC-G8:09/2019). Values and U are shown to the "
+    "digits U supports: U to two significant digits, rounded up, the value to the same decimal "
+    "place (GUM 7.2.6), finer where it would read as a limit it is not equal to, and the limits"
+    " to the value's place; the verdicts were reached with the unrounded values, kept in the "
+    "CSV and JSON records. Under the guarded rule a value within U of a limit is conditional: a"
+    " conditional pass lies inside the limits and a conditional fail outside, but this "
+    "measurement cannot rule out the other side. Retest, or measure with a smaller U, before "
+    "deciding on such a unit."
 )
 
 
@@ -98,18 +99,25 @@ def _answered(s: Mapping[str, Any]) -> bool:
     return s.get("kind") == "prompt" and s["value"] is not None and math.isfinite(s["value"])
 
 
-def _value_cells(s: Mapping[str, Any]) -> tuple[str, str]:
-    """The value and U cells: an answer or a word where there is no number; a reading to the
-    digits its U supports (``value_and_u``, GUM 7.2.6); for a step with no reading to judge (a
-    prompt, a soak) no U, since none was stated."""
-    value, u = s["value"], s["expanded_u"]
+def _value_cells(s: Mapping[str, Any]) -> tuple[str, str, str, str]:
+    """The value, U, low and high limit cells: an answer or a word where there is no number; a
+    reading and its limits to the digits its U supports (``value_and_u``, GUM 7.2.6), the
+    limits to the value's decimal place, finer where the value would read as one of them (as
+    the nets and ``rig run`` show them); for a step with no reading to judge (a prompt, a soak)
+    no U, since none was stated."""
+    value, u, low, high = s["value"], s["expanded_u"], s["low"], s["high"]
     if _answered(s):
-        return prompt_answer(value), ""
+        return prompt_answer(value), "", "", num(high)
     if s.get("value_text") or value is None or not math.isfinite(value):
-        return s.get("value_text") or num(value), num(u, 3)
+        return s.get("value_text") or num(value), num(u, 3), num(low), num(high)
     if not _judged(s) or u is None:
-        return num(value), ""
-    return value_and_u(value, u)
+        return num(value), "", num(low), num(high)
+    bounds = [x for x in (low, high) if x is not None and math.isfinite(x)]
+    place = shown_place(value, u, bounds)
+    if place is None:
+        return (*value_and_u(value, u), num(low), num(high))
+    low_text, high_text = (at_place(x, place) if x in bounds else num(x) for x in (low, high))
+    return (*value_and_u(value, u, bounds), low_text, high_text)
 
 
 def _judged(s: Mapping[str, Any]) -> bool:
@@ -120,7 +128,7 @@ def _judged(s: Mapping[str, Any]) -> bool:
 
 
 def _step_row(s: Mapping[str, Any]) -> list[object]:
-    value, u = _value_cells(s)
+    value, u, low, high = _value_cells(s)
     judged = _judged(s)
     return [
         s["position"],
@@ -128,8 +136,8 @@ def _step_row(s: Mapping[str, Any]) -> list[object]:
         s["title"],
         value,
         s["unit"],
-        "" if _answered(s) else num(s["low"]),
-        num(s["high"]),
+        low,
+        high,
         num(s["predicted"]),
         u,
         num(s["coverage_k"], 3) if judged else "",

@@ -33,9 +33,11 @@ def _rounded(x: float, place: int, how: str) -> Decimal:
     return Decimal(repr(x)).quantize(Decimal(1).scaleb(-place), rounding=how)
 
 
-def _text(x: Decimal, place: int) -> str:
-    """Tens or coarser (a negative place): a whole number, the digits below it zero."""
-    return f"{x:.{max(place, 0)}f}"
+def _text(x: Decimal, place: int, shift: int = 0) -> str:
+    """``x`` in units of ``10 ** shift`` (3: a kilo prefix), moved by its decimal exponent so no
+    binary division can round it again; tens or coarser (a negative place): a whole number, the
+    digits below it zero."""
+    return f"{x.scaleb(-shift):.{max(place + shift, 0)}f}"
 
 
 MORE_PLACES = 8
@@ -59,21 +61,31 @@ def shown_place(value: float, u: float, limits: Iterable[float | None] = ()) -> 
     return place
 
 
-def at_place(x: float, place: int) -> str:
-    """``x`` rounded to nearest at ``place`` decimals (tens or coarser: a whole number)."""
-    return _text(_rounded(x, place, ROUND_HALF_EVEN), place)
+def at_place(x: float, place: int, shift: int = 0) -> str:
+    """``x`` rounded to nearest at ``place`` decimals (tens or coarser: a whole number), written
+    in units of ``10 ** shift`` (``at_place(2162.62, 0, 3)`` -> ``"2.163"``, in kilo)."""
+    return _text(_rounded(x, place, ROUND_HALF_EVEN), place, shift)
 
 
 def value_and_u(
-    value: float, u: float, limits: Iterable[float | None] = ()
+    value: float, u: float, limits: Iterable[float | None] = (), shift: int = 0
 ) -> tuple[str, str]:
     """``value`` and its expanded uncertainty ``u`` as the report shows them: ``u`` to two
     significant digits (rounded up), ``value`` to the same decimal place (rounded to nearest),
     or finer where it would read as one of ``limits`` (``shown_place``);
     (22.993455896585182, 0.2346872766) -> ("22.99", "0.24").  Where ``u`` is not a positive
-    finite number, nothing can be said of the digits: ``value`` keeps seven significant ones."""
+    finite number, nothing can be said of the digits: ``value`` keeps seven significant ones.
+    Both are written in units of ``10 ** shift`` (3: the kilo of a value shown in kohm), the
+    digits chosen in the unshifted unit, so a prefix never changes what is shown."""
     place = shown_place(value, u, limits)
     if place is None:
-        return f"{value:.7g}", (f"{u:.3g}" if math.isfinite(u) else "")
-    u_place = _decimals(u)
-    return at_place(value, place), _text(_rounded(u, u_place, ROUND_CEILING), u_place)
+        scale = 10.0**shift
+        return f"{value / scale:.7g}", (f"{u / scale:.3g}" if math.isfinite(u) else "")
+    return at_place(value, place, shift), u_text(u, shift)
+
+
+def u_text(u: float, shift: int = 0) -> str:
+    """A positive finite expanded uncertainty to two significant digits, rounded up (never
+    smaller than the U judged with), in units of ``10 ** shift``: 0.2346872766 -> "0.24"."""
+    place = _decimals(u)
+    return _text(_rounded(u, place, ROUND_CEILING), place, shift)

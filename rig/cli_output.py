@@ -10,6 +10,7 @@ import time
 from collections.abc import Sequence
 from typing import Any, TextIO
 
+from reports.value_digits import at_place, shown_place, u_text
 from rig.events import (
     CUT_SHORT,
     NONE_ALLOWED,
@@ -25,7 +26,7 @@ from rig.events import (
     prompt_answer,
 )
 from rig.judge.decision import Limits, Verdict, tur_text
-from rig.quantity import format_quantity
+from rig.quantity import format_quantity, prefixed_unit
 
 
 class Output:
@@ -120,13 +121,40 @@ def _result_cells(r: StepResult) -> list[str]:
         return [prompt_answer(r.value), "", "", ""]
     if r.kind == "harness-proof" and r.unit == "faults" and not math.isnan(r.value):
         return [f"{r.value:g} fault(s) found", show_limits(r.limits, r.unit), "", ""]
+    tur = "" if r.tur is None else tur_text(r.tur)
+    if r.verdict is not Verdict.SKIPPED and (cells := u_digits_cells(r)) is not None:
+        return [*cells, tur]
     digits = telling_digits(r.value, r.unit, r.limits)  # the value and its limits alike
     return [
         "not measured" if r.verdict is Verdict.SKIPPED else value_text(r.value, r.unit, r.limits),
         show_limits(r.limits, r.unit, digits),
         "" if math.isnan(r.expanded_u) else "±" + show(r.expanded_u, r.unit),
-        "" if r.tur is None else tur_text(r.tur),
+        tur,
     ]
+
+
+def u_digits_cells(r: StepResult) -> tuple[str, str, str] | None:
+    """Value, limits and ± U to the digits U supports, as the HTML report shows them
+    (``reports.value_digits``, GUM 7.2.6: U to two significant digits, rounded up; the value,
+    and its limits beside it, to the same decimal place, finer where the value would read as a
+    limit it is not equal to), all in the prefix of the largest of value and limits.  None
+    where there is no finite value, positive U or finite limits to say digits of."""
+    bounds = () if r.limits is None else (r.limits.low, r.limits.high)
+    if any(x is not None and not math.isfinite(x) for x in bounds):
+        return None
+    place = shown_place(r.value, r.expanded_u, bounds)
+    if place is None:
+        return None
+    sizes = [abs(x) for x in (r.value, *bounds) if x is not None]
+    shift, symbol = (0, r.unit) if r.unit in ("", "s") else prefixed_unit(max(sizes), r.unit)
+
+    def text(x: float | None, missing: str) -> str:
+        return missing if x is None else f"{at_place(x, place, shift)} {symbol}".rstrip()
+
+    limits = show_limits(r.limits, r.unit)  # "(none)", "none allowed"
+    if r.limits is not None and not allows_none(r.limits, r.unit):
+        limits = f"{text(r.limits.low, '-inf')} .. {text(r.limits.high, '+inf')}"
+    return text(r.value, ""), limits, "±" + f"{u_text(r.expanded_u, shift)} {symbol}".rstrip()
 
 
 MOST_DIGITS = 10

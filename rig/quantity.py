@@ -165,10 +165,19 @@ def format_quantity(value: float, unit: str, digits: int = 4) -> str:
     """Show ``value`` with an engineering prefix: 2200.0, "ohm" -> "2.2 kohm"."""
     if not math.isfinite(value):
         return "overload" if math.isinf(value) else "no reading"
-    if unit in ("%", "degC", "K") or value == 0:
-        symbol = {"degC": "°C"}.get(unit, unit)
-        return f"{value:.{digits}g} {symbol}"
-    exponent = int(math.floor(math.log10(abs(value)) / 3) * 3)
+    exponent, symbol = prefixed_unit(value, unit)
+    return f"{value / 10**exponent:.{digits}g} {symbol}"
+
+
+def prefixed_unit(size: float, unit: str) -> tuple[int, str]:
+    """The engineering prefix a number of magnitude ``size`` is written with, as its power of
+    ten and the unit's symbol: (2200.0, "ohm") -> (3, "kohm"); none for %, degC and K, or for a
+    size of zero or not finite.  Numbers shown side by side share the prefix of the largest."""
+    if unit in ("%", "degC", "K") or size == 0 or not math.isfinite(size):
+        return 0, {"degC": "°C"}.get(unit, unit)
+    exponent = int(math.floor(math.log10(abs(size)) / 3) * 3)
     exponent = max(-12, min(9, exponent))
-    prefix = {-12: "p", -9: "n", -6: "u", -3: "m", 0: "", 3: "k", 6: "M", 9: "G"}[exponent]
-    return f"{value / 10**exponent:.{digits}g} {prefix}{unit}"
+    return exponent, _PREFIX_OF[exponent] + unit
+
+
+_PREFIX_OF = {-12: "p", -9: "n", -6: "u", -3: "m", 0: "", 3: "k", 6: "M", 9: "G"}

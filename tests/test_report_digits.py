@@ -19,7 +19,7 @@ import pytest
 
 from reports.run_export import record_csv, run_record
 from reports.run_html import margin_scale, render_run
-from reports.value_digits import value_and_u
+from reports.value_digits import at_place, shown_place, value_and_u
 from rig.demo import CASES, run_demo
 from rig.store import ResultStore
 
@@ -105,7 +105,14 @@ def test_values_and_u_are_rounded_in_html_and_kept_whole_in_csv_with_verdicts_un
     assert measured
     for step in measured:
         row = rows[step["step_id"]]
-        assert (row["value"], row["U (expanded)"]) == value_and_u(step["value"], step["expanded_u"])
+        limits = [x for x in (step["low"], step["high"]) if x is not None]
+        shown = value_and_u(step["value"], step["expanded_u"], limits)
+        assert (row["value"], row["U (expanded)"]) == shown
+        place = shown_place(step["value"], step["expanded_u"], limits)
+        assert place is not None  # each measured step here has a U
+        for column, limit in (("low limit", step["low"]), ("high limit", step["high"])):
+            # each limit to the value's decimal place (GUM 7.2.6 gives the value's)
+            assert row[column] == ("" if limit is None else at_place(limit, place)), column
         assert float(in_csv[step["step_id"]]["value"]) == step["value"]  # full precision
     for step in record["steps"]:  # the stored verdicts, reached with the unrounded values
         assert rows[step["step_id"]]["verdict"] == step["verdict"]
@@ -130,8 +137,12 @@ def test_a_value_rounded_onto_its_limit_keeps_the_verdict_judged_without_roundin
     u = 0.0026
     over = dict(step, value=step["high"] + u / 100, expanded_u=u, verdict="conditional fail")
     row = step_rows(render_run({**record, "steps": [over]}))[step["step_id"]]
-    assert float(row["value"]) == pytest.approx(step["high"])  # shows the limit itself ...
-    assert row["verdict"] == "conditional fail"  # ... and the verdict of the reading above it
+    # to U's digits (0.0026: four decimals) the reading would read as its limit; it is shown
+    # one decimal finer, above the limit shown beside it, as rig run shows it
+    assert row["high limit"] == f"{step['high']:.5f}"
+    assert float(row["high limit"]) < float(row["value"]) < step["high"] + u / 10
+    assert row["U (expanded)"] == "0.0026"
+    assert row["verdict"] == "conditional fail"  # the verdict of the unrounded reading
 
 
 @pytest.mark.parametrize("serial", SERIALS)

@@ -92,13 +92,16 @@ def test_the_run_table_agrees_with_its_verdict_and_flag() -> None:
 def test_limits_beside_a_value_are_shown_to_its_digits() -> None:
     # A limit rounded to four digits must not read on the other side of the value it judged:
     # 28.2083 % failed against a high limit of 28.20823 %, which reads 28.21 % to four digits.
+    # U 0.000252 % reads 0.00026 % (two significant digits, rounded up: GUM 7.2.6), so the
+    # value and its limits are shown to five decimals, the limits' digits kept.
     from dataclasses import replace
 
     buffer = io.StringIO()
     row = replace(result(28.2083, Verdict.FAIL, 8.0), unit="%", limits=Limits(24.21, 28.20823))
     Output(buffer).results([row])
     line = next(line for line in buffer.getvalue().splitlines() if "FAIL" in line)
-    assert "28.2083 %" in line and "28.2082 %" in line and "28.21 %" not in line, line
+    assert "28.20830 %" in line and "28.20823 %" in line and "28.21 %" not in line, line
+    assert "24.21000 % .. 28.20823 %" in line and "±0.00026 %" in line, line
 
 
 def test_the_html_report_shows_a_low_tur_as_the_terminal_does() -> None:
