@@ -168,11 +168,18 @@ def test_a_folder_for_a_file_to_write_with_no_name_of_its_own_is_refused_before_
     assert list(example["folder"].iterdir()) == []
 
 
+@pytest.fixture(scope="module")
+def demo_store(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    """The demo's results store (its runs through the virtual bench), read by the tests here."""
+    folder = tmp_path_factory.mktemp("demo")
+    assert main(["demo", "--data-dir", str(folder)]) == 0
+    return folder / "results.sqlite"
+
+
 def test_a_folder_for_a_report_gets_the_report_under_its_usual_name(
-    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+    tmp_path: Path, demo_store: Path, capsys: pytest.CaptureFixture[str]
 ) -> None:
-    assert main(["demo", "--data-dir", str(tmp_path / "demo")]) == 0
-    store = tmp_path / "demo" / "results.sqlite"
+    store = demo_store
     folder = tmp_path / "out"
     folder.mkdir()
     capsys.readouterr()
@@ -182,6 +189,33 @@ def test_a_folder_for_a_report_gets_the_report_under_its_usual_name(
     assert f"written to {written[0]}" in capsys.readouterr().out
     assert main(["stats", "--store", str(store), "--html", str(folder)]) == 0
     assert (folder / "stats.html").is_file()
+
+
+def test_an_out_ending_with_a_slash_is_a_folder_made_for_the_report(
+    tmp_path: Path, demo_store: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # `rig report 1 --out reports/` wrote a FILE named reports where that folder did not exist
+    # (and `rig stats --html charts/` one named charts); a path ending in a slash names a
+    # directory (POSIX.1-2017, 4.13 Pathname Resolution), as `rig sim --station-out` reads it
+    folder = tmp_path / "new" / "reports"
+    capsys.readouterr()
+    assert main(["report", "1", "--store", str(demo_store), "--out", f"{folder}/"]) == 0
+    written = list(folder.iterdir())
+    assert [p.name[:6] for p in written] == ["run-1-"] and written[0].suffix == ".html"
+    assert f"written to {written[0]}" in capsys.readouterr().out
+    charts = tmp_path / "charts"
+    assert main(["stats", "--store", str(demo_store), "--html", f"{charts}/"]) == 0
+    assert [p.name for p in charts.iterdir()] == ["stats.html"]
+    assert f"page with the charts written to {charts / 'stats.html'}" in capsys.readouterr().out
+    # a file where the folder is named: refused, the file left as it was
+    taken = tmp_path / "taken"
+    taken.write_text("mine\n", encoding="utf-8")
+    for args in (["report", "1", "--out"], ["stats", "--html"]):
+        option = args[-1]
+        assert errors(capsys, *args, f"{taken}/", "--store", demo_store) == [
+            f"rig: {option} {taken}/: names a folder, but {taken} is a file"
+        ]
+        assert taken.read_text(encoding="utf-8") == "mine\n"
 
 
 BLANK_NAME = "names no file; expected the path of {what} (relative to this file), found {text!r}"

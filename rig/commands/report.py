@@ -36,7 +36,11 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
         help="html (default), csv or json",
     )
     report.add_argument(
-        "--out", type=Path, help="file to write ('-' for the terminal); default: the data folder"
+        "--out",
+        type=str,  # as typed: a trailing / names a folder (file_to_write), which Path drops
+        help="file to write ('-' for the terminal), or a folder (one that exists, or a path "
+        "ending with /: made if need be) to write it in under its default name; default: the "
+        "data folder",
     )
     add_store_args(report)
     report.add_argument("--unit", type=Path, help="unit file, for the diagnosis of a failed run")
@@ -93,12 +97,12 @@ def cmd_report(args: argparse.Namespace, out: Output) -> int:
     label = file_label(found, run)
     render = {"html": render_run, "csv": record_csv, "json": record_json}[args.format]
     text = render(record)
-    if args.out is not None and str(args.out) == "-":
+    if args.out == "-":
         out.line(text.rstrip("\n"))
         return EXIT_WRITTEN
     try:
         name = default_name(label, run["serial"], args.format)
-        where = args.out or opened.data_dir / "reports" / name
+        where = opened.data_dir / "reports" / name if args.out is None else args.out
         target = checked_output(file_to_write(where, "--out", name=name))
         target.parent.mkdir(parents=True, exist_ok=True)
         target.write_text(text, encoding="utf-8")

@@ -52,7 +52,9 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
         const="",
         type=str,
         metavar="PATH",
-        help="also write a page with the charts (default: the data folder)",
+        help="also write a page with the charts: to PATH, or into the folder PATH (one that "
+        "exists, or a path ending with /: made if need be) as stats.html; default: the data "
+        "folder",
     )
     stats.add_argument("--csv", type=Path, help="grr: the study as CSV (part,operator,trial,value)")
     stats.add_argument("--step", help="grr: the step whose values the study-mode runs recorded")
@@ -164,7 +166,8 @@ def _shop(args: argparse.Namespace, out: Output) -> int:
 def _write_page(opened: OpenedStore, stats: Any, html_arg: str) -> Path:
     from reports.stats_html import render_stats, series_from_rows
 
-    where = Path(html_arg) if html_arg else opened.data_dir / "reports" / "stats.html"
+    # the text as typed: a trailing / names a folder (file_to_write), which Path would drop
+    where = html_arg or opened.data_dir / "reports" / "stats.html"
     target = checked_output(file_to_write(where, "--html", name="stats.html"))
 
     def series(step: Any) -> Any:
