@@ -6,6 +6,7 @@ import json
 import math
 import os
 import sys
+import textwrap
 import time
 from collections.abc import Sequence
 from typing import Any, TextIO
@@ -27,6 +28,10 @@ from rig.events import (
 )
 from rig.judge.decision import Limits, Verdict, tur_text
 from rig.quantity import format_quantity, prefixed_unit
+
+TERMINAL_WIDTH = 80
+"""The columns a table that may hold long text is wrapped to: the classic terminal's width
+(common practice, no published source), so that it reads unbroken in the smallest usual one."""
 
 
 class Output:
@@ -73,6 +78,34 @@ class Output:
         self.line("  ".join("-" * w for w in widths))
         for row in rows:
             self.line("  ".join(c.ljust(w) for c, w in zip(row, widths, strict=True)))
+
+    def wrapped_table(
+        self,
+        headers: Sequence[str],
+        rows: Sequence[Sequence[str]],
+        under: Sequence[str],
+        width: int = TERMINAL_WIDTH,
+    ) -> None:
+        """A table whose last column is wrapped to fit ``width``, each row followed by its text
+        in ``under`` (a long description) on lines of its own, wrapped and indented beneath the
+        last column: every word kept, and no line wider than ``width`` (a word longer than the
+        room left stands whole on its own line)."""
+        widths = [len(h) for h in headers[:-1]]
+        for row in rows:
+            widths = [max(w, len(c)) for w, c in zip(widths, row[:-1], strict=True)]
+        indent = " " * sum(w + 2 for w in widths)
+        room = max(width - len(indent), 20)
+        body: list[str] = []
+        for row, text in zip(rows, under, strict=True):
+            lead = "  ".join(c.ljust(w) for c, w in zip(row[:-1], widths, strict=True)) + "  "
+            last = _wrap(row[-1], room) or [""]
+            body += [lead + last[0], *(indent + line for line in last[1:])]
+            body += [indent + "  " + line for line in _wrap(text, room - 2)]
+        rule = max([len(headers[-1]), *(len(line) - len(indent) for line in body)])
+        self.line("  ".join(h.ljust(w) for h, w in zip(headers, [*widths, 0], strict=True)))
+        self.line("  ".join("-" * w for w in [*widths, min(rule, room)]))
+        for line in body:
+            self.line(line.rstrip())
 
     # --- progress of a run --------------------------------------------------------------------
 
@@ -221,6 +254,12 @@ def show_limits(limits: Limits | None, unit: str, digits: int | None = None) -> 
     low = "-inf" if limits.low is None else show(limits.low, unit, digits)
     high = "+inf" if limits.high is None else show(limits.high, unit, digits)
     return f"{low} .. {high}"
+
+
+def _wrap(text: str, width: int) -> list[str]:
+    """``text`` in lines of at most ``width`` characters, broken only at spaces: a fault spec
+    (``short-ground:lead_a``) or a pin name is never split."""
+    return textwrap.wrap(text, width, break_long_words=False, break_on_hyphens=False)
 
 
 def _to_devnull(stream: TextIO) -> None:

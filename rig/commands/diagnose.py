@@ -189,12 +189,13 @@ def cmd_diagnose(args: argparse.Namespace, out: Output) -> int:
     if not hypotheses:
         out.line("no settled readings of this sequence in the run: nothing to diagnose")
         return 0
-    out.table(
-        ["#", "probability", "fault", "where"],
+    out.wrapped_table(  # where the fault is (a wire described in full) under its row
+        ["#", "probability", "fault, and where it is"],
         [
-            [str(k), f"{h.probability:.1%}", _with_alike(h.spec, h.same_as), h.where]
+            [str(k), f"{h.probability:.1%}", _with_alike(h.spec, h.same_as)]
             for k, h in enumerate(hypotheses, start=1)
         ],
+        [h.where for h in hypotheses],
     )
     for h in hypotheses:
         if h.same_as:
