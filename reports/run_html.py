@@ -10,7 +10,7 @@ from typing import Any
 from reports.html_page import DECISION_CLASS, VERDICT_CLASS, esc, figure, page, table
 from reports.run_export import ambient_text
 from reports.svg_plots import margin_chart
-from reports.value_digits import at_place, shown_place, value_and_u
+from reports.value_digits import limit_at_place, shown_place, value_and_u
 from rig import __version__
 from rig.events import CUT_SHORT, NOT_RUN, allows_none, prompt_answer
 from rig.judge.decision import COVERAGE_K, DecisionRule, Limits, judge, tur_text
@@ -116,7 +116,7 @@ def _value_cells(s: Mapping[str, Any]) -> tuple[str, str, str, str]:
     place = shown_place(value, u, bounds)
     if place is None:
         return (*value_and_u(value, u), num(low), num(high))
-    low_text, high_text = (at_place(x, place) if x in bounds else num(x) for x in (low, high))
+    low_text, high_text = (limit_at_place(x, place) if x in bounds else num(x) for x in (low, high))
     return (*value_and_u(value, u, bounds), low_text, high_text)
 
 
@@ -312,7 +312,7 @@ def _net_cells(value: float | None, limit: float, u: float) -> tuple[str, str, s
         reading = "no reading" if value is None else num(value)
         return reading, num(limit, 3), num(u, 3)
     reading, u_text = value_and_u(value, u, [limit])
-    return reading, at_place(limit, place) if math.isfinite(limit) else "", u_text
+    return reading, limit_at_place(limit, place) if math.isfinite(limit) else "", u_text
 
 
 NETS_NOTE = (

@@ -67,6 +67,16 @@ def at_place(x: float, place: int, shift: int = 0) -> str:
     return _text(_rounded(x, place, ROUND_HALF_EVEN), place, shift)
 
 
+def limit_at_place(x: float, place: int, shift: int = 0) -> str:
+    """A limit beside a value shown to ``place`` decimals: rounded to nearest there, and a limit
+    that the place holds exactly (a stated figure such as 4.8 V beside 2.32741 V) without the
+    trailing zeros a reading would have, ``4.8`` not ``4.80000``; a computed limit that was
+    rounded keeps the value's digits (``2.270`` kohm beside ``2.163``)."""
+    text = at_place(x, place, shift)
+    exact = _rounded(x, place, ROUND_HALF_EVEN) == Decimal(repr(x))
+    return text.rstrip("0").rstrip(".") if exact and "." in text else text
+
+
 def value_and_u(
     value: float, u: float, limits: Iterable[float | None] = (), shift: int = 0
 ) -> tuple[str, str]:

@@ -8,10 +8,10 @@ import os
 import sys
 import textwrap
 import time
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from typing import Any, TextIO
 
-from reports.value_digits import at_place, shown_place, u_text
+from reports.value_digits import at_place, limit_at_place, shown_place, u_text
 from rig.events import (
     CUT_SHORT,
     NONE_ALLOWED,
@@ -181,13 +181,18 @@ def u_digits_cells(r: StepResult) -> tuple[str, str, str] | None:
     sizes = [abs(x) for x in (r.value, *bounds) if x is not None]
     shift, symbol = (0, r.unit) if r.unit in ("", "s") else prefixed_unit(max(sizes), r.unit)
 
-    def text(x: float | None, missing: str) -> str:
-        return missing if x is None else f"{at_place(x, place, shift)} {symbol}".rstrip()
+    def text(x: float | None, missing: str, shown: Callable[[float, int, int], str]) -> str:
+        return missing if x is None else f"{shown(x, place, shift)} {symbol}".rstrip()
 
     limits = show_limits(r.limits, r.unit)  # "(none)", "none allowed"
     if r.limits is not None and not allows_none(r.limits, r.unit):
-        limits = f"{text(r.limits.low, '-inf')} .. {text(r.limits.high, '+inf')}"
-    return text(r.value, ""), limits, "±" + f"{u_text(r.expanded_u, shift)} {symbol}".rstrip()
+        low = text(r.limits.low, "-inf", limit_at_place)
+        limits = f"{low} .. {text(r.limits.high, '+inf', limit_at_place)}"
+    return (
+        text(r.value, "", at_place),
+        limits,
+        "±" + f"{u_text(r.expanded_u, shift)} {symbol}".rstrip(),
+    )
 
 
 MOST_DIGITS = 10

@@ -13,13 +13,14 @@ from __future__ import annotations
 import csv
 import io
 import re
+from decimal import Decimal
 from typing import Any
 
 import pytest
 
 from reports.run_export import record_csv, run_record
 from reports.run_html import margin_scale, render_run
-from reports.value_digits import at_place, shown_place, value_and_u
+from reports.value_digits import at_place, limit_at_place, shown_place, value_and_u
 from rig.demo import CASES, run_demo
 from rig.store import ResultStore
 
@@ -111,8 +112,11 @@ def test_values_and_u_are_rounded_in_html_and_kept_whole_in_csv_with_verdicts_un
         place = shown_place(step["value"], step["expanded_u"], limits)
         assert place is not None  # each measured step here has a U
         for column, limit in (("low limit", step["low"]), ("high limit", step["high"])):
-            # each limit to the value's decimal place (GUM 7.2.6 gives the value's)
-            assert row[column] == ("" if limit is None else at_place(limit, place)), column
+            # each limit to the value's decimal place (GUM 7.2.6 gives the value's), a stated
+            # limit that place holds exactly without trailing zeros
+            assert row[column] == ("" if limit is None else limit_at_place(limit, place)), column
+            if limit is not None:
+                assert Decimal(row[column]) == Decimal(at_place(limit, place)), column
         assert float(in_csv[step["step_id"]]["value"]) == step["value"]  # full precision
     for step in record["steps"]:  # the stored verdicts, reached with the unrounded values
         assert rows[step["step_id"]]["verdict"] == step["verdict"]
@@ -139,7 +143,7 @@ def test_a_value_rounded_onto_its_limit_keeps_the_verdict_judged_without_roundin
     row = step_rows(render_run({**record, "steps": [over]}))[step["step_id"]]
     # to U's digits (0.0026: four decimals) the reading would read as its limit; it is shown
     # one decimal finer, above the limit shown beside it, as rig run shows it
-    assert row["high limit"] == f"{step['high']:.5f}"
+    assert Decimal(row["high limit"]) == Decimal(f"{step['high']:.5f}")  # 4.8 V, as stated
     assert float(row["high limit"]) < float(row["value"]) < step["high"] + u / 10
     assert row["U (expanded)"] == "0.0026"
     assert row["verdict"] == "conditional fail"  # the verdict of the unrounded reading

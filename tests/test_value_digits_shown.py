@@ -11,6 +11,7 @@ import re
 
 import pytest
 
+from reports.value_digits import limit_at_place
 from rig.cli_output import Output, value_text
 from rig.events import StepResult
 from rig.judge.decision import COVERAGE_K, DecisionRule, Limits, Verdict, tur_text
@@ -93,7 +94,8 @@ def test_limits_beside_a_value_are_shown_to_its_digits() -> None:
     # A limit rounded to four digits must not read on the other side of the value it judged:
     # 28.2083 % failed against a high limit of 28.20823 %, which reads 28.21 % to four digits.
     # U 0.000252 % reads 0.00026 % (two significant digits, rounded up: GUM 7.2.6), so the
-    # value and its limits are shown to five decimals, the limits' digits kept.
+    # value and its limits are shown to five decimals, the limits' digits kept (a stated limit
+    # that five decimals hold exactly without trailing zeros).
     from dataclasses import replace
 
     buffer = io.StringIO()
@@ -101,7 +103,7 @@ def test_limits_beside_a_value_are_shown_to_its_digits() -> None:
     Output(buffer).results([row])
     line = next(line for line in buffer.getvalue().splitlines() if "FAIL" in line)
     assert "28.20830 %" in line and "28.20823 %" in line and "28.21 %" not in line, line
-    assert "24.21000 % .. 28.20823 %" in line and "±0.00026 %" in line, line
+    assert "24.21 % .. 28.20823 %" in line and "±0.00026 %" in line, line  # 24.21 as stated
 
 
 def test_the_html_report_shows_a_low_tur_as_the_terminal_does() -> None:
@@ -109,3 +111,11 @@ def test_the_html_report_shows_a_low_tur_as_the_terminal_does() -> None:
 
     assert _ratio(3.96) == tur_text(3.96) == "3.9:1 LOW"
     assert _ratio(64.2) == "64:1" and _ratio(None) == ""
+
+
+def test_a_stated_limit_drops_trailing_zeros_and_a_computed_one_keeps_the_values_digits() -> None:
+    # 4.8 V stated, beside a value read to five decimals: the place holds it exactly
+    assert limit_at_place(4.8, 5) == "4.8" and limit_at_place(10.0, 2) == "10"
+    # a limit computed from a model (2269.996 ohm), rounded to the ohm and written in kohm,
+    # keeps the value's digits: its last zero is a rounded digit, not a stated one
+    assert limit_at_place(2269.996, 0, 3) == "2.270" and limit_at_place(2270.0, 0, 3) == "2.27"
