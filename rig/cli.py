@@ -710,10 +710,14 @@ def cmd_run(args: argparse.Namespace, out: Output) -> int:
         if not continuing:
             from rig.tested_before import ask_server, tested_before
 
-            seen = tested_before(plan.station.store_path, args.serial, plan.sequence.name)
-            if seen:
+            claim = getattr(args, "claim", "")
+            for seen in tested_before(
+                plan.station.store_path, args.serial, plan.sequence.name, claim
+            ):
                 out.line(seen)
-            on_server = ask_server(plan.station.name, args.serial, plan.sequence.name, out.line)
+            on_server = ask_server(
+                plan.station.name, args.serial, plan.sequence.name, out.line, claim
+            )
 
     def ask(text: str) -> bool:
         if args.yes:

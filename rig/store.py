@@ -26,6 +26,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Protocol
 
+from rig.claim_match import claim_key
 from rig.end_cause import EndCause
 from rig.errors import RigError
 from rig.stats.filters import RunFilter
@@ -747,6 +748,27 @@ class ResultStore:
             "SELECT id, station, run_uid, started_at, status, verdict FROM runs"
             " WHERE serial = ? AND sequence_name = ? ORDER BY started_at, id",
             (serial, sequence),
+        )
+
+    def runs_of_claim(self, claim: str, sequence: str) -> list[Any]:
+        """(id, station, run_uid, started_at, status, verdict, serial, claim) of every run of
+        ``sequence`` given ``claim`` or a claim that differs from it in letter case or spaces
+        alone (``rig.claim_match``), oldest first: asked before a run (``rig.tested_before``).
+        The claims on record are compared here, not in SQL, so that both engines fold them
+        alike; the runs are then read through the claim's index."""
+        key = claim_key(claim)
+        given = self._rows(
+            "SELECT DISTINCT claim FROM runs WHERE sequence_name = ? AND claim <> ''",
+            (sequence,),
+        )
+        alike = sorted(str(r[0]) for r in given if claim_key(str(r[0])) == key)
+        if not alike:
+            return []
+        marks = ", ".join("?" for _ in alike)
+        return self._rows(
+            "SELECT id, station, run_uid, started_at, status, verdict, serial, claim FROM runs"
+            f" WHERE claim IN ({marks}) AND sequence_name = ? ORDER BY started_at, id",
+            (*alike, sequence),
         )
 
     def newest_start(self) -> str | None:

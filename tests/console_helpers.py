@@ -106,8 +106,9 @@ async def wait_for(pilot: Pilot[None], condition: Callable[[], bool], what: str)
     raise AssertionError(f"gave up waiting for {what}")
 
 
-async def start_run(pilot: Pilot[None], serial: str) -> RunScreen:
-    """Acknowledge the cautions, scan ``serial`` (typed, then Enter) and return the run view."""
+async def start_run(pilot: Pilot[None], serial: str, claim: str = "") -> RunScreen:
+    """Acknowledge the cautions, scan ``serial`` (typed; with ``claim``, Tab to the claim field
+    and that typed, no spaces), press Enter and return the run view."""
     app = pilot.app
     assert isinstance(app, ConsoleApp)
     await wait_for(
@@ -115,7 +116,7 @@ async def start_run(pilot: Pilot[None], serial: str) -> RunScreen:
     )
     await pilot.press("enter")
     await wait_for(pilot, lambda: app.cautions_acknowledged, "the cautions to be acknowledged")
-    await pilot.press(*serial, "enter")
+    await pilot.press(*serial, *(("tab", *claim) if claim else ()), "enter")
     await wait_for(pilot, lambda: app.run_screen is not None, "the run view")
     screen = app.run_screen
     assert screen is not None

@@ -466,3 +466,39 @@ def test_a_unit_tested_before_is_said_before_its_run_and_still_runs(
         "pass (complete), started " in second
     )
     assert "note:" not in other and _runs(station.store_path) == 3
+
+
+def test_a_claim_screened_before_is_said_before_its_run_whatever_the_serial(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # a returned unit's claim screened twice (a unit swapped, a label mistyped) is said, as a
+    # serial tested before is, and the run goes on (common practice, no published source); a
+    # claim typed with other letter case or spaces is the same claim, named as it is stored,
+    # since rig runs --claim finds only that.  Claims and serials invented.
+    with shipped_bench("ntc-sender", folder=tmp_path) as (_, station):
+        run = ["run", str(SENSOR_SCREEN), "--station", str(station.path), "--yes"]
+        assert main([*run, "--serial", "RET-1", "--claim", "RMA 2026/0042"]) == EXIT_PASS
+        assert "note:" not in capsys.readouterr().out
+        assert main([*run, "--serial", "RET-2", "--claim", "rma 2026/00 42"]) == EXIT_PASS
+        swapped = capsys.readouterr().out
+        assert main([*run, "--serial", "RET-2", "--claim", "RMA 2026/0042"]) == EXIT_PASS
+        again = capsys.readouterr().out
+        assert main([*run, "--serial", "RET-3", "--claim", "RMA 2026/00421"]) == EXIT_PASS
+        other = capsys.readouterr().out
+        assert main([*run, "--serial", "RET-4"]) == EXIT_PASS  # no claim: none is said
+        unclaimed = capsys.readouterr().out
+    assert (
+        "note: claim 'rma 2026/00 42' was given to an earlier run of ntc-sender-screen on this "
+        "station (serial RET-1); the latest: run 1, pass (complete), started "
+    ) in swapped
+    assert "; stored as 'RMA 2026/0042' (rig runs --claim matches exactly)\n" in swapped
+    assert "note: RET-2 has" not in swapped  # a new serial
+    assert "note: RET-2 has an earlier run of ntc-sender-screen on this station" in again
+    assert (
+        "note: claim 'RMA 2026/0042' was given to 2 earlier runs of ntc-sender-screen on this "
+        "station (serials RET-1, RET-2); the latest: run 2, serial RET-2, pass (complete), "
+        "started "
+    ) in again
+    assert "; stored as 'rma 2026/00 42' (rig runs" in again  # the exact one is not listed
+    assert "note:" not in other and "note:" not in unclaimed
+    assert _runs(station.store_path) == 5

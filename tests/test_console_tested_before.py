@@ -23,6 +23,7 @@ from test_fleet_diagnosis import two_benches
 from textual.pilot import Pilot
 
 from rig.cli import main
+from rig.config.station import Station
 from rig.console import ConsoleApp
 from rig.console.screens.prompt import PromptScreen
 from rig.console.screens.run import RunScreen
@@ -30,6 +31,25 @@ from rig.console.widgets import StatusPanel
 from rig.runner import load_plan, run_plan
 
 SIZE = (120, 40)
+AT_QA = SEQUENCES / "temp-circuit-check.toml"
+"""The sequence the two stations on the results server run (no prompt: it runs to its end)."""
+
+
+def _notes_of_a_console_run(station: Station, serial: str, claim: str = "") -> list[str]:
+    """The lines about the unit in the status panel of a console run of ``AT_QA`` at
+    ``station`` on ``serial`` (under ``claim``), once it has ended (it must complete)."""
+    app = ConsoleApp(console_setup(station, AT_QA))
+    notes: list[str] = []
+
+    async def scenario() -> None:
+        async with app.run_test(size=SIZE) as pilot:
+            screen = await start_run(pilot, serial, claim)
+            await finish(pilot, screen)
+            assert screen.summary is not None and screen.summary.status == "complete"
+            notes.extend(screen.query_one(StatusPanel).notes)
+
+    asyncio.run(scenario())
+    return notes
 
 
 async def _at_the_prompt(
@@ -107,22 +127,75 @@ def test_a_serial_scanned_again_is_said_at_the_start_of_its_run(tmp_path: Path) 
 def test_a_unit_tested_at_another_station_is_said_from_the_results_server(
     tmp_path: Path, pg_cluster: Cluster, pg_database: str
 ) -> None:
-    sequence = SEQUENCES / "temp-circuit-check.toml"
     with two_benches(tmp_path, pg_cluster, pg_database) as (qa1, qa2, _env):
-        run_plan(load_plan(sequence, qa1), "U-71")  # sent to the server after its run
-        app = ConsoleApp(console_setup(qa2, sequence))
+        run_plan(load_plan(AT_QA, qa1), "U-71")  # sent to the server after its run
+        notes = _notes_of_a_console_run(qa2, "U-71")
+    assert len(notes) == 1, notes  # none from qa2's own file: its first run here
+    assert notes[0].startswith(
+        "note: U-71 has an earlier run of temp-circuit-check at station qa1; the "
+        "latest: station qa1, record "
+    )
+    assert "pass (complete)" in notes[0]
+
+
+def test_a_claim_screened_before_under_another_serial_is_said_at_the_start_of_its_run(
+    tmp_path: Path,
+) -> None:
+    # a claim screened before, the unit now scanned under another serial (a unit swapped, a
+    # label mistyped), and the claim typed in other letter case: the same claim, as rig runs
+    # --claim's hint has it, said as it is stored (common practice, no published source)
+    with console_on_bench("ntc-sender", tmp_path, "ntc-sender-screen") as (app, _bench):
+        station = str(app.setup.station.path)
+        screen_file = str(SEQUENCES / "ntc-sender-screen.toml")
+        args = ["run", screen_file, "--station", station, "--serial", "RET-0080", "--yes"]
+        with contextlib.redirect_stdout(io.StringIO()):
+            assert main([*args, "--claim", "RMA-0042"]) == 0
 
         async def scenario() -> None:
             async with app.run_test(size=SIZE) as pilot:
-                screen = await start_run(pilot, "U-71")
+                screen = await start_run(pilot, "RET-0081", claim="rma-0042")
+                shown = await _at_the_prompt(pilot, app, screen, said=True)
+                assert (
+                    "note: claim 'rma-0042' was given to an earlier run of ntc-sender-screen on "
+                    "this station (serial RET-0080); the latest: run 1, pass (complete), started "
+                ) in shown
+                assert "stored as 'RMA-0042'" in shown
+                assert "note: RET-0081" not in shown  # the serial itself is new
+                await pilot.press("f6")
                 await finish(pilot, screen)
-                assert screen.summary is not None and screen.summary.status == "complete"
-                notes = screen.query_one(StatusPanel).notes
-                assert len(notes) == 1, notes  # none from qa2's own file: its first run here
-                assert notes[0].startswith(
-                    "note: U-71 has an earlier run of temp-circuit-check at station qa1; the "
-                    "latest: station qa1, record "
-                )
-                assert "pass (complete)" in notes[0]
+                assert screen.summary is not None and screen.summary.claim == "rma-0042"
+                assert len(screen.query_one(StatusPanel).notes) == 1
 
         asyncio.run(scenario())
+
+
+@pytest.mark.postgres
+def test_a_claim_screened_at_another_station_is_said_from_the_results_server(
+    tmp_path: Path, pg_cluster: Cluster, pg_database: str
+) -> None:
+    with two_benches(tmp_path, pg_cluster, pg_database) as (qa1, qa2, _env):
+        run_plan(load_plan(AT_QA, qa1), "U-81", claim="RMA-0099")  # sent after its run
+        notes = _notes_of_a_console_run(qa2, "U-82", claim="RMA-0099")
+        assert len(notes) == 1, notes  # the serial is new everywhere
+        assert notes[0].startswith(
+            "note: claim 'RMA-0099' was given to an earlier run of temp-circuit-check at "
+            "station qa1 (serial U-81); the latest: station qa1, record "
+        )
+        assert "pass (complete), started " in notes[0]
+        assert "stored as" not in notes[0]  # typed as it was
+
+        # rig run back at qa1: its own file says its run, the server qa2's (sent after the run)
+        printed = io.StringIO()
+        with contextlib.redirect_stdout(printed):
+            args = ["run", str(AT_QA), "--station", str(qa1.path), "--serial", "U-83"]
+            assert main([*args, "--claim", "rma-0099", "--yes"]) == 0
+        said = printed.getvalue()
+        assert (
+            "note: claim 'rma-0099' was given to an earlier run of temp-circuit-check on this "
+            "station (serial U-81); the latest: run 1, pass (complete)"
+        ) in said
+        assert (
+            "note: claim 'rma-0099' was given to an earlier run of temp-circuit-check at station "
+            "qa2 (serial U-82); the latest: station qa2, record "
+        ) in said
+        assert said.count("stored as 'RMA-0099'") == 2

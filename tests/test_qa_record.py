@@ -365,8 +365,20 @@ def test_a_harness_check_keeps_its_claim_and_remark_and_refuses_one_it_cannot_ke
         )
         assert bench.relay_box.lines_handled == 0
         assert main([*check, "--claim", CLAIM, "--remark", REMARK]) == EXIT_PASS
-    printed = json.loads(capsys.readouterr().out)
+        printed = json.loads(capsys.readouterr().out)
+        # the claim screened again on another harness: said before the check, as by rig run
+        again = [a if a != "H1" else "H2" for a in check if a != "--json"]
+        assert main([*again, "--claim", CLAIM]) == EXIT_PASS
+        said = capsys.readouterr().out
     assert (printed["claim"], printed["remark"]) == (CLAIM, REMARK)
-    assert _causes(load_station(station).store_path) == [("H1", "complete", "")]
+    assert f"note: claim {CLAIM!r} was given to an earlier run of " in said
+    assert " on this station (serial H1); the latest: run 1, pass (complete), started " in said
+    assert _causes(load_station(station).store_path) == [
+        ("H1", "complete", ""),
+        ("H2", "complete", ""),
+    ]
     with sqlite3.connect(load_station(station).store_path) as db:
-        assert db.execute("SELECT claim, remark FROM runs").fetchall() == [(CLAIM, REMARK)]
+        assert db.execute("SELECT claim, remark FROM runs").fetchall() == [
+            (CLAIM, REMARK),
+            (CLAIM, ""),
+        ]

@@ -194,10 +194,9 @@ def _run(
     else:
         for caution in cautions_for([plan]):  # a harness proof's: as rig run and the console
             out.line(caution)
-        seen = tested_before(station.store_path, args.serial, plan.sequence.name)
-        if seen:
+        for seen in tested_before(station.store_path, args.serial, plan.sequence.name, args.claim):
             out.line(seen)
-        on_server = ask_server(station.name, args.serial, plan.sequence.name, out.line)
+        on_server = ask_server(station.name, args.serial, plan.sequence.name, out.line, args.claim)
     summary = run_plan(
         plan,
         args.serial,

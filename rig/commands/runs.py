@@ -17,6 +17,7 @@ import argparse
 from dataclasses import replace
 from typing import Any
 
+from rig.claim_match import claim_key
 from rig.cli_output import Output
 from rig.commands._store_args import (
     ArgumentProblem,
@@ -191,10 +192,8 @@ def _claim_hint(claim: str | None, rows: list[Any]) -> str:
     alone, since the match is exact (a claim is kept as it was given)."""
     if claim is None:
         return ""
-    folded = "".join(claim.split()).lower()
-    near = sorted(
-        {str(r[8]) for r in rows if r[8] and "".join(str(r[8]).split()).lower() == folded}
-    )
+    folded = claim_key(claim)
+    near = sorted({str(r[8]) for r in rows if r[8] and claim_key(str(r[8])) == folded})
     if not near:
         return ""
     return "; --claim matches exactly (letter case and spaces count): stored as " + ", ".join(

@@ -66,9 +66,9 @@ class SyncNote:
 
 @dataclass(frozen=True)
 class EarlierRuns:
-    """The unit has runs of the sequence on record already, on this station or (from the results
-    server) on others: said as the run starts, in the line ``rig run`` prints
-    (``rig.tested_before``).  A retest is normal; the run goes on."""
+    """The unit, or the claim it came in under, has runs of the sequence on record already, on
+    this station or (from the results server) on others: said as the run starts, in the lines
+    ``rig run`` prints (``rig.tested_before``).  A retest is normal; the run goes on."""
 
     text: str
 
@@ -387,7 +387,9 @@ def run_in_worker(
     try:
         notes = check_calibration(plan.station, reads_probe=plan.reads_reference_probe)
         _say_earlier_runs(request, seen)
-        on_server = ask_server(plan.station.name, request.serial, plan.sequence.name, seen)
+        on_server = ask_server(
+            plan.station.name, request.serial, plan.sequence.name, seen, request.claim
+        )
         before = send_waiting_runs(plan.station, synced, on_server)
         store = ResultStore(plan.station.store_path)
         notes += clock_warnings(store)
@@ -411,11 +413,12 @@ def run_in_worker(
 
 
 def _say_earlier_runs(request: RunRequest, say: Callable[[str], None]) -> None:
-    """This station's earlier runs of the sequence on the unit, read before the run is
-    recorded (it would count itself); the server's come on the send before the run."""
+    """This station's earlier runs of the sequence on the unit and under its claim, read before
+    the run is recorded (it would count itself); the server's come on the send before the run."""
     plan = request.plan
-    line = tested_before(plan.station.store_path, request.serial, plan.sequence.name)
-    if line:
+    for line in tested_before(
+        plan.station.store_path, request.serial, plan.sequence.name, request.claim
+    ):
         say(line)
 
 
