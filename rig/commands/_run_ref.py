@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import argparse
 import re
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -151,6 +151,31 @@ def find_run(opened: OpenedStore, ref: RunRef) -> FoundRun:
         f"or with rig sync); its record is read from {station.store_path}",
         station_run=local_id,
     )
+
+
+def locate_run(opened: OpenedStore, ref: RunRef, say: Callable[[str], None]) -> FoundRun | None:
+    """``find_run``, for ``rig report`` and ``rig diagnose`` alike: where the run is read from,
+    where that is not as asked, is said (``note: ...``); a run in none of the stores is said as
+    ``rig: RUN ...`` and None returned, the store closed.  Else ``close_run`` closes them."""
+    if opened.note:
+        say(f"note: {opened.note}")
+    try:
+        found = find_run(opened, ref)
+    except StoreError as exc:
+        opened.store.close()
+        say(f"rig: RUN {ref}: {exc}")
+        return None
+    if found.note:
+        say(f"note: {found.note}")
+    return found
+
+
+def close_run(opened: OpenedStore, found: FoundRun) -> None:
+    """Close the store the run was read from and the one opened to find it, where they are two
+    (a run not on the server yet is read from the station's own file)."""
+    if found.store is not opened.store:
+        found.store.close()
+    opened.store.close()
 
 
 def _own_id(path: Path, uid: str) -> int | None:

@@ -13,7 +13,14 @@ from pathlib import Path
 from typing import Any
 
 from rig.cli_output import Output
-from rig.commands._run_ref import FoundRun, find_run, planned_elsewhere, run_ref, run_words
+from rig.commands._run_ref import (
+    FoundRun,
+    close_run,
+    locate_run,
+    planned_elsewhere,
+    run_ref,
+    run_words,
+)
 from rig.commands._store_args import OpenedStore
 from rig.errors import ConfigError, Problem
 
@@ -93,7 +100,6 @@ def _open_run(args: argparse.Namespace, out: Output) -> tuple[OpenedStore, Found
     in none of them.  ``--store`` reads that file alone; else the station's server, as
     ``rig report`` does, or its own file with a note when the server is out of reach."""
     from rig.commands._store_args import ArgumentProblem, open_from_args
-    from rig.store import StoreError
     from rig.store_open import open_file_for_reading
 
     if args.store is not None:
@@ -102,17 +108,8 @@ def _open_run(args: argparse.Namespace, out: Output) -> tuple[OpenedStore, Found
         opened = OpenedStore(open_file_for_reading(args.store), None, args.store.parent)
     else:
         opened = open_from_args(args, own_file_if_unreachable=True)
-    if opened.note:
-        out.error(f"note: {opened.note}")
-    try:
-        found = find_run(opened, args.run)
-    except StoreError as exc:
-        opened.store.close()
-        out.error(f"rig: RUN {args.run}: {exc}")
-        return None
-    if found.note:
-        out.error(f"note: {found.note}")
-    return opened, found
+    found = locate_run(opened, args.run, out.error)
+    return None if found is None else (opened, found)
 
 
 def cmd_diagnose(args: argparse.Namespace, out: Output) -> int:
@@ -161,9 +158,7 @@ def cmd_diagnose(args: argparse.Namespace, out: Output) -> int:
             out.error(f"warning: {sequence} has changed since {who} was taken")
         diagnosis = diagnose_run(store, run_id, unit, plan)
     finally:
-        if store is not opened.store:
-            store.close()
-        opened.store.close()
+        close_run(opened, found)
     hypotheses = diagnosis.hypotheses[: args.top]
     if args.json:
         out.json(

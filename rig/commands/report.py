@@ -7,7 +7,14 @@ import re
 from pathlib import Path
 
 from rig.cli_output import Output
-from rig.commands._run_ref import file_label, find_run, planned_elsewhere, run_ref, run_words
+from rig.commands._run_ref import (
+    close_run,
+    file_label,
+    locate_run,
+    planned_elsewhere,
+    run_ref,
+    run_words,
+)
 from rig.commands._store_args import (
     ArgumentProblem,
     add_store_args,
@@ -57,35 +64,24 @@ def cmd_report(args: argparse.Namespace, out: Output) -> int:
     from reports.diagnosis import diagnose_stored_run
     from reports.run_export import record_csv, record_json, run_record
     from reports.run_html import render_run
-    from rig.store import StoreError
 
     try:
         opened = open_from_args(args, own_file_if_unreachable=True)
     except ArgumentProblem as exc:
         out.error(f"rig: {exc}")
         return EXIT_BAD_INPUT
-    if opened.note:
-        out.error(f"note: {opened.note}")
+    found = locate_run(opened, args.run, out.error)
+    if found is None:
+        return EXIT_BAD_INPUT
     try:
-        try:
-            found = find_run(opened, args.run)
-        except StoreError as exc:
-            out.error(f"rig: RUN {args.run}: {exc}")
-            return EXIT_BAD_INPUT
-        try:
-            run = found.store.run(found.run_id)
-            diagnosis = diagnose_stored_run(
-                found.store, run, station=opened.station, unit_path=args.unit
-            )
-            record = run_record(found.store, found.run_id, diagnosis, opened.station)
-            record["run"].update(found.numbers())
-        finally:
-            if found.store is not opened.store:
-                found.store.close()
+        run = found.store.run(found.run_id)
+        diagnosis = diagnose_stored_run(
+            found.store, run, station=opened.station, unit_path=args.unit
+        )
+        record = run_record(found.store, found.run_id, diagnosis, opened.station)
+        record["run"].update(found.numbers())
     finally:
-        opened.store.close()
-    if found.note:
-        out.error(f"note: {found.note}")
+        close_run(opened, found)
     elsewhere = (
         ""
         if opened.station is None
