@@ -10,7 +10,6 @@ with what the station file says should be there (``expect_identity``).
 from __future__ import annotations
 
 import logging
-import re
 from collections.abc import Mapping
 from itertools import combinations
 
@@ -23,23 +22,14 @@ from rig.errors import (
     InstrumentUnreachable,
     RigError,
 )
-from rig.instrument_faults import ROLE_WORDS, is_transient
+from rig.instrument_faults import ROLE_WORDS, address_text, is_transient, nothing_answers
 
 log = logging.getLogger(__name__)
-
-_SOCKET = re.compile(r"TCPIP\d*::(?P<host>[^:]+)::(?P<port>\d+)::SOCKET", re.IGNORECASE)
 
 
 class BenchRefused(RigError):
     """An instrument of the station does not answer, or is not the one the station names; nothing
     was run and nothing recorded."""
-
-
-def address_text(resource: str) -> str:
-    """``host:port`` for a raw-socket VISA resource (what a technician checks on the meter's
-    front panel), else the resource as written."""
-    found = _SOCKET.fullmatch(resource.strip())
-    return f"{found['host']}:{found['port']}" if found else resource
 
 
 def reply_text(identity: InstrumentIdentity) -> str:
@@ -75,7 +65,7 @@ def not_answering(role: str, resource: str, exc: InstrumentError) -> str:
     who = ROLE_WORDS.get(role, role)
     where = address_text(resource)
     if isinstance(exc, InstrumentUnreachable):
-        text = f"nothing answers at {where} ({exc.message}): is {who} on and is the address right?"
+        text = nothing_answers(who, resource, exc.message)
     elif isinstance(exc, InstrumentTimeout):
         text = (
             f"{who} at {where} did not answer when asked who it is ({exc.message}): is it on, "

@@ -9,6 +9,8 @@ again before someone looks is unsafe (common practice, no published source).
 
 from __future__ import annotations
 
+import re
+
 from rig.errors import (
     InstrumentConnectionLost,
     InstrumentError,
@@ -20,6 +22,24 @@ from rig.errors import (
 )
 
 ROLE_WORDS = {"dmm": "the DMM", "supply": "the supply", "relay_box": "the relay box"}
+
+_SOCKET = re.compile(r"TCPIP\d*::(?P<host>[^:]+)::(?P<port>\d+)::SOCKET", re.IGNORECASE)
+
+
+def address_text(resource: str) -> str:
+    """``host:port`` for a raw-socket VISA resource (what a technician checks on the meter's
+    front panel), else the resource as written."""
+    found = _SOCKET.fullmatch(resource.strip())
+    return f"{found['host']}:{found['port']}" if found else resource
+
+
+def nothing_answers(who: str, resource: str, detail: str = "") -> str:
+    """Nothing listens at the address of ``who``: said in the same words when the bench opens
+    (``rig.bench_identity``) and mid-run (``plain_reason``), with the address as it is set on
+    the instrument and the two things a technician checks."""
+    where = address_text(resource) if resource else f"the address of {who}"
+    said = f" ({detail})" if detail else ""
+    return f"nothing answers at {where}{said}: is {who} on and is the address right?"
 
 
 class SupplyWentOff(InstrumentReportedError):
@@ -69,7 +89,7 @@ def plain_reason(exc: InstrumentError) -> str:
     elif isinstance(exc, InstrumentTimeout):
         text = f"{who} did not answer in time{command}; check that it is on and its cable is in"
     elif isinstance(exc, InstrumentUnreachable):
-        text = f"nothing answers at the address of {who}{command}: is it on, is the address right?"
+        text = nothing_answers(who, exc.resource)  # the command and message in the details
     elif isinstance(exc, InstrumentConnectionLost):
         text = f"the connection to {who} was lost{command}; check its cable or network link"
     elif isinstance(exc, InstrumentProtocolError):

@@ -18,11 +18,16 @@ from pathlib import Path
 
 import pytest
 from bench_helpers import shipped_bench, shipped_plan
+from test_scpi_drivers import DMM_ID, FAST
+from test_scpi_drivers import start as start_small_bench
 
+from drivers.scpi_dmm import ScpiDmm
 from rig.bench_identity import BenchRefused
 from rig.bench_open import close_bench, open_bench
 from rig.config.station import Station
 from rig.engine import Engine
+from rig.errors import InstrumentConnectionLost, InstrumentUnreachable
+from rig.instrument_faults import plain_reason
 from rig.runner import run_plan
 from rig.store import ResultStore
 
@@ -90,6 +95,29 @@ def test_an_instrument_that_is_off_refuses_the_bench_before_any_run(
     assert f"is {who} on and is the address right?" in text
     assert "lost" not in text  # a connection never made was not lost
     assert str(station.path) in text
+
+
+def test_a_meter_gone_mid_run_is_said_in_the_words_of_the_opening() -> None:
+    # the meter answered, then went off: once its link is found lost, the next command finds
+    # nothing at the address, said as the opening says it (address and question alike)
+    bench = start_small_bench("resistor")
+    meter = ScpiDmm("dmm", bench.dmm_server.resource, FAST)
+    try:
+        assert meter.identity() == DMM_ID
+        address = bench.dmm_server.resource.split("::")[1:3]
+        bench.dmm_server.stop()
+        with pytest.raises(InstrumentConnectionLost):
+            meter.identity()  # the socket was reset: lost
+        with pytest.raises(InstrumentUnreachable) as refused:
+            meter.identity()  # opened again: refused
+    finally:
+        meter.close()
+        bench.psu_server.stop()
+    text = plain_reason(refused.value)
+    assert text.startswith(
+        f"nothing answers at {':'.join(address)}: is the DMM on and is the address right? "
+        "(details: connection refused, instrument dmm, "
+    )
 
 
 def test_another_service_at_the_address_is_not_taken_for_the_meter(tmp_path: Path) -> None:
