@@ -19,16 +19,14 @@ TAKE_OVER_COMMAND = "rig sync --station STATION --take-over-name"
 
 
 class NameTaken(StoreError):
-    """Another station's file already sends under this station name to the server."""
+    """Another station's file already sends under this station name to the server.  Said as
+    the fact alone: the send pass says what waits and the two ways out (``held_text``), once
+    for all the runs under the name."""
 
-    def __init__(self, name: str, owner: str, ours: str, where: str) -> None:
+    def __init__(self, name: str, owner: str, where: str) -> None:
         super().__init__(
-            f"the station name {name!r} is already sent under by another station's file on the "
-            f"results server {where} (that file's store id starts {owner[:8]}, this station's "
-            f"{ours[:8]}); sending would mix the two benches' runs and overwrite their relay "
-            "wear, so this station's runs wait in its own file: give this station its own name "
-            "in its station file (only where this station's file was replaced, as after a new "
-            f"disk, take the name over with `{TAKE_OVER_COMMAND}`)"
+            f"{_holder(owner)} sends under the station name {name!r} to the results server "
+            f"{where}: this station's runs under that name wait in its own file"
         )
         self.name = name
         self.owner = owner
@@ -38,13 +36,17 @@ def held_text(name: str, runs: int, owner: str) -> str:
     """What a station is told of its runs that wait under a name another station's file holds,
     and the two ways out: they say it at every send, so the wait is never silent."""
     return (
-        f"{runs} run(s) recorded under the station name {name!r} wait: another station's file "
-        f"(store id starts {owner[:8]}) sends under that name to the results server; give this "
-        "station its own name in its station file (its runs from then on are sent; these keep "
-        "the name they were measured under, and wait), or, only where this station's file "
-        f"replaced the one that holds the name (a new disk), take it over with "
-        f"`{TAKE_OVER_COMMAND}`"
+        f"{runs} run(s) recorded under the station name {name!r} wait: {_holder(owner)} sends "
+        "under that name to the results server; give this station its own name in its station "
+        "file (its runs from then on are sent; these keep the name they were measured under, "
+        "and wait), or, only where this station's file replaced the one that holds the name (a "
+        f"new disk), take it over with `{TAKE_OVER_COMMAND}`"
     )
+
+
+def _holder(owner: str) -> str:
+    """The station's file that holds a name, by the start of its store id."""
+    return f"another station's file (store id starts {owner[:8]})"
 
 
 def _now() -> str:
@@ -63,7 +65,7 @@ def check_name(db: Connection, name: str, store_uid: str, where: str) -> None:
         db.execute("SELECT store_uid FROM station_names WHERE station=?", (name,)).fetchone()[0]
     )
     if owner != store_uid:
-        raise NameTaken(name, owner, store_uid, where)
+        raise NameTaken(name, owner, where)
 
 
 def take_over(remote: ResultStore, name: str, store_uid: str) -> str | None:

@@ -16,9 +16,10 @@ from bench_helpers import shipped_bench
 
 from rig.cli import main
 from rig.config.station import Station
+from rig.station_names import NameTaken
 from rig.store import ResultStore, RunHeader
 from rig.store_postgres import open_postgres
-from rig.store_sync import pending_runs, sync
+from rig.store_sync import pending_runs, send_run, sync
 
 
 def station_file(folder: Path, name: str, serial: str, relays: dict[int, int]) -> ResultStore:
@@ -76,6 +77,14 @@ def test_a_second_file_under_a_claimed_name_is_refused_and_a_replaced_file_takes
         assert f"another station's file (store id starts {first.store_uid()[:8]})" in held
         assert "give this station its own name in its station file" in held
         assert "--take-over-name" in held
+        # the refusal itself says the fact in the same words, the ways out left to the pass
+        with pytest.raises(NameTaken) as taken_name:
+            send_run(second, remote, pending_runs(second, None)[0][0], second.store_uid())
+        assert str(taken_name.value) == (
+            f"another station's file (store id starts {first.store_uid()[:8]}) sends under the "
+            f"station name 'qa-b1' to the results server {remote.where}: this station's runs "
+            "under that name wait in its own file"
+        )
         # the first bench's wear and runs as they were; the second's run waits in its file
         assert server_wear(pg_database, "qa-b1") == {1: 20, 2: 8}
         assert server_serials(pg_database, "qa-b1") == ["SN-1"]
