@@ -87,13 +87,18 @@ def test_verdicts_read_as_distinct_words() -> None:
 
 
 def test_reading_limits_and_uncertainty_share_one_prefix() -> None:
+    # as rig run and the report show them (GUM 7.2.6): U 5.3018 ohm to two significant digits,
+    # rounded up (5.4), the reading and its limits to the same decimal place
     cells = quantity_cells(2162.7, "ohm", Limits(2055.0, 2271.3), 5.3018)
     assert (cells.reading, cells.unit, cells.limits, cells.uncertainty) == (
         "2.1627",
         "kohm",
         "2.055 .. 2.2713",
-        "±0.0053",
+        "±0.0054",
     )
+    # the reviewer's ambient: 23.00 beside ±0.24, a stated 10 to 40 degC without trailing zeros
+    ambient = quantity_cells(23.00376, "degC", Limits(10.0, 40.0), 0.2347)
+    assert (ambient.reading, ambient.limits, ambient.uncertainty) == ("23.00", "10 .. 40", "±0.24")
     assert quantity_cells(math.inf, "V", Limits(None, 0.02), None).reading == "overload"
     assert quantity_cells(math.nan, "V", None, None).reading == "no reading"
 
