@@ -232,8 +232,8 @@ def serve_bench(out: Output, title: str, rows: Sequence[tuple[str, str]], statio
     for label, value in rows:
         out.line(f"  {label:<10} {value}")
     out.line(f"station file written to {station}")
-    out.line("Ctrl-C or SIGTERM stops the bench.")
-    try:
+    try:  # said inside: a SIGTERM sent the moment the line is read stops the bench as any other
+        out.line("Ctrl-C or SIGTERM stops the bench.")
         while True:
             time.sleep(0.2)
     except KeyboardInterrupt:
