@@ -17,7 +17,7 @@ import json
 from pathlib import Path
 
 import pytest
-from bench_helpers import SEQUENCES
+from pt1000_sender import pt1000_files, pt_r, pt_slope
 
 from rig.cli import EXIT_BAD_INPUT, main
 from rig.config.fixture import load_fixture
@@ -28,93 +28,9 @@ from rig.faults import parse_faults
 from rig.runner import load_plan, run_plan
 from rig.sim.bench import VirtualBench
 
-A, B = 3.9083e-3, -5.775e-7  # IEC 60751
-
-
-def pt_r(r0: float, t: float) -> float:
-    """R(t) by hand, t >= 0 degC (IEC 60751)."""
-    return r0 * (1 + A * t + B * t * t)
-
-
-def pt_slope(r0: float, t: float) -> float:
-    return r0 * (A + 2 * B * t)
-
-
-UNIT = """\
-# An oil-temperature sender with a Pt1000 element, invented for this test.
-[unit]
-name = "pt1000-sender"
-fixture = "{fixture}"
-
-[ambient]
-temperature = "23 degC"
-temperature_range = ["15 degC", "35 degC"]
-
-[sensors.element]
-kind = "rtd"
-between = ["T1x", "T2x"]
-r0 = "1000 ohm"
-tolerance_class = "B"
-
-[wires.lead_a]
-between = ["T1", "T1x"]
-gauge = "20 AWG"
-length = "0.25 m"
-
-[wires.lead_b]
-between = ["T2x", "T2"]
-gauge = "20 AWG"
-length = "0.25 m"
-
-[reference_probe]
-force_hi = "PT_FH"
-sense_hi = "PT_SH"
-force_lo = "PT_FL"
-sense_lo = "PT_SL"
-r0 = "100 ohm"
-lead_resistance = "0.15 ohm"
-tolerance_class = "A"
-"""
-
-SEQUENCE = """\
-# A screen for the invented Pt1000 sender; limits are the element's own class.
-[sequence]
-name = "pt1000-screen"
-decision_rule = "simple"
-
-[[steps]]
-id = "well"
-kind = "reference-temperature"
-force_hi = "PT_FH"
-sense_hi = "PT_SH"
-force_lo = "PT_FL"
-sense_lo = "PT_SL"
-low = "10 degC"
-high = "40 degC"
-
-[[steps]]
-id = "element"
-kind = "rtd"
-hi = "T1"
-lo = "T2"
-wires = 4
-r0 = "1000 ohm"
-temperature_from = "well"
-{tolerance}
-"""
-
-
-def _files(folder: Path, tolerance: str = 'tolerance_class = "B"') -> tuple[Path, Path]:
-    fixture = (SEQUENCES / "demo-fixture.toml").resolve()
-    unit = folder / "unit.toml"
-    unit.write_text(UNIT.format(fixture=fixture), encoding="utf-8")
-    sequence = folder / "sequence.toml"
-    sequence.write_text(SEQUENCE.format(tolerance=tolerance), encoding="utf-8")
-    return unit, sequence
-
 
 def _run(folder: Path, faults: tuple[str, ...] = ()) -> dict[str, object]:
-    unit_path, sequence = _files(folder)
+    unit_path, sequence = pt1000_files(folder)
     unit = load_unit(unit_path)
     fixture = load_fixture(unit.fixture_path)
     with VirtualBench(unit, fixture, faults=parse_faults(list(faults), unit)) as bench:
@@ -149,7 +65,7 @@ def test_a_drifted_element_fails(tmp_path: Path) -> None:
 
 
 def test_the_curve_at_100_degc_matches_the_standards_table(tmp_path: Path) -> None:
-    _, sequence = _files(tmp_path, 'tolerance = "0.1 %"')
+    _, sequence = pt1000_files(tmp_path, 'tolerance = "0.1 %"')
     text = sequence.read_text().replace('temperature_from = "well"', 'temperature = "100 degC"')
     sequence.write_text(text, encoding="utf-8")
     from rig.steps.rtd_step import rtd_limits
@@ -179,7 +95,7 @@ def test_the_curve_at_100_degc_matches_the_standards_table(tmp_path: Path) -> No
 def test_a_step_without_one_clear_tolerance_is_refused_naming_the_key(
     tmp_path: Path, tolerance: str, expected: str
 ) -> None:
-    _, sequence = _files(tmp_path, tolerance)
+    _, sequence = pt1000_files(tmp_path, tolerance)
     with pytest.raises(ConfigError) as caught:
         load_sequence(sequence)
     text = "\n".join(str(p) for p in caught.value.problems)
@@ -187,7 +103,7 @@ def test_a_step_without_one_clear_tolerance_is_refused_naming_the_key(
 
 
 def test_a_stated_temperature_off_the_curve_is_refused(tmp_path: Path) -> None:
-    _, sequence = _files(tmp_path)
+    _, sequence = pt1000_files(tmp_path)
     text = sequence.read_text().replace('temperature_from = "well"', 'temperature = "900 degC"')
     sequence.write_text(text, encoding="utf-8")
     with pytest.raises(ConfigError, match=r"-200 to 850 degC, found 900 degC"):
@@ -201,16 +117,22 @@ def test_limits_draws_the_element_class_and_proposes_a_tolerance_in_ohm(
     +- tolerance (at 100 ppm) must at least reach class B at the coldest ambient (15 degC), and
     not exceed it at the hottest (35 degC) by more than the reference probe's class A and the
     meter can add."""
-    unit, sequence = _files(tmp_path)
+    unit, sequence = pt1000_files(tmp_path)
     code = main(["limits", str(sequence), "--unit", str(unit), "--samples", "20000", "--json"])
     assert code == 0
     found = json.loads(capsys.readouterr().out)
     [step] = [s for s in found["steps"] if s["id"] == "element"]
-    assert (step["figure_unit"], step["form"], step["present"]) == ("ohm", "tolerance", None)
+    assert (step["figure_unit"], step["form"]) == ("ohm", "tolerance")
     proposed = step["proposed"]["high"]
     assert proposed == pytest.approx(-step["proposed"]["low"], rel=1e-6)
     class_b_cold = (0.30 + 0.005 * 15) * pt_slope(1000.0, 15.0)
     class_b_hot = (0.30 + 0.005 * 35) * pt_slope(1000.0, 35.0)
+    # the present class B at the well temperatures the drawn units read: 15 to 35 degC, give
+    # or take the probe's class A and the meter (0.2 degC, 0.02 ohm/degC of class B: 0.004 ohm)
+    present = step["present"]
+    assert present["tolerance_class"] == "B"
+    assert present["narrowest"] == pytest.approx(class_b_cold, abs=0.01)
+    assert present["widest"] == pytest.approx(class_b_hot, abs=0.01)
     probe_a_hot = (0.15 + 0.002 * 35) * pt_slope(1000.0, 35.0)  # the probe's error moves R(T)
     meter = 0.5  # well above the virtual bench's 4-wire error at 1 kohm (its accuracy table)
     assert class_b_cold < proposed < class_b_hot + probe_a_hot + meter
@@ -219,7 +141,7 @@ def test_limits_draws_the_element_class_and_proposes_a_tolerance_in_ohm(
 
 
 def test_a_unit_rtd_sensor_off_its_curve_is_refused(tmp_path: Path) -> None:
-    unit, _ = _files(tmp_path)
+    unit, _ = pt1000_files(tmp_path)
     unit.write_text(
         unit.read_text().replace('tolerance_class = "B"', 'temperature = "900 degC"'), "utf-8"
     )
@@ -233,7 +155,7 @@ def test_diagnosis_reads_an_element_inside_its_class_as_a_good_unit(tmp_path: Pa
     from rig.analysis.diagnose import diagnose_run
     from rig.store import ResultStore
 
-    unit_path, sequence = _files(tmp_path)
+    unit_path, sequence = pt1000_files(tmp_path)
     unit = load_unit(unit_path)
     faults = parse_faults(["drift:element=+0.12%"], unit)
     with VirtualBench(unit, load_fixture(unit.fixture_path), faults=faults) as bench:
@@ -273,7 +195,7 @@ def test_stats_sums_a_class_judged_step_in_percent_of_its_tolerance() -> None:
 def test_stats_of_runs_on_the_bench_give_one_row_for_the_class_judged_step(
     tmp_path: Path, capsys: pytest.CaptureFixture[str]
 ) -> None:
-    unit_path, sequence = _files(tmp_path)
+    unit_path, sequence = pt1000_files(tmp_path)
     unit = load_unit(unit_path)
     with VirtualBench(unit, load_fixture(unit.fixture_path)) as bench:
         station = bench.write_station(tmp_path / "station.toml", data_dir=str(tmp_path / "data"))
@@ -292,7 +214,7 @@ def test_check_warns_of_an_rtd_step_whose_r0_is_none_of_the_units_sensors(
 ) -> None:
     """A Pt1000 judged with a Pt100's r0 (the step's default): the range held for R(T) of a
     Pt100 overloads on the Pt1000, and a good unit fails.  rig check with the unit says so."""
-    unit_path, sequence = _files(tmp_path)
+    unit_path, sequence = pt1000_files(tmp_path)
     unit = load_unit(unit_path)
     with VirtualBench(unit, load_fixture(unit.fixture_path)) as bench:
         station = bench.write_station(tmp_path / "station.toml", data_dir=str(tmp_path / "data"))
@@ -315,7 +237,7 @@ def test_diagnosis_fits_an_rtd_drift_well_under_one_percent(tmp_path: Path, drif
     from rig.analysis.diagnose import diagnose_run
     from rig.store import ResultStore
 
-    unit_path, sequence = _files(tmp_path)
+    unit_path, sequence = pt1000_files(tmp_path)
     unit = load_unit(unit_path)
     faults = parse_faults([f"drift:element={drift}"], unit)
     with VirtualBench(unit, load_fixture(unit.fixture_path), faults=faults) as bench:
@@ -338,7 +260,7 @@ def test_check_gives_an_rtd_step_its_tur_before_any_run(
     10 kohm range the plan holds: the virtual station's 4-wire row is 0.010 % of reading + 0.001 %
     of range, a rectangular bound (GUM 4.3.7: u = a / sqrt(3)), k = 2; the window is class B
     through the slope (IEC 60751), and TUR = span / (2 U)."""
-    unit_path, sequence = _files(tmp_path)
+    unit_path, sequence = pt1000_files(tmp_path)
     text = sequence.read_text().replace('temperature_from = "well"', 'temperature = "23 degC"')
     sequence.write_text(text, encoding="utf-8")
     unit = load_unit(unit_path)
@@ -359,7 +281,7 @@ def test_check_gives_an_rtd_step_its_tur_before_any_run(
 
 def test_a_class_written_in_lower_case_is_refused_with_the_spelling_meant(tmp_path: Path) -> None:
     # IEC 60751 writes its classes in capitals (AA, A, B); 'b' is a slip of 'B'
-    _, sequence = _files(tmp_path, 'tolerance_class = "b"')
+    _, sequence = pt1000_files(tmp_path, 'tolerance_class = "b"')
     with pytest.raises(ConfigError) as caught:
         load_sequence(sequence)
     [problem] = caught.value.problems
@@ -384,7 +306,7 @@ def test_check_warns_of_a_class_applied_outside_its_span(
     """Class AA at a stated 400 degC, and the station's class AA probe in a well whose limits
     reach -60 degC: both outside what IEC 60751 gives class AA for; warned, not refused.  Class B
     at 400 degC is within its span: nothing said of it."""
-    unit_path, sequence = _files(tmp_path, 'tolerance_class = "AA"')
+    unit_path, sequence = pt1000_files(tmp_path, 'tolerance_class = "AA"')
     text = sequence.read_text().replace('temperature_from = "well"', 'temperature = "400 degC"')
     sequence.write_text(text.replace('low = "10 degC"', 'low = "-60 degC"'), encoding="utf-8")
     unit = load_unit(unit_path)
@@ -414,7 +336,7 @@ def test_a_run_notes_a_class_judged_outside_its_span_at_the_measured_temperature
     """The bench at -60 degC (the invented unit's ambient moved there): the well reads about
     -60 degC with the station's class AA probe, and the element is judged by class AA there.
     Both steps say so in their notes, with the temperature measured."""
-    unit_path, sequence = _files(tmp_path, 'tolerance_class = "AA"')
+    unit_path, sequence = pt1000_files(tmp_path, 'tolerance_class = "AA"')
     unit_text = unit_path.read_text().replace('"23 degC"', '"-60 degC"')
     unit_path.write_text(unit_text.replace('["15 degC", "35 degC"]', '["-70 degC", "-50 degC"]'))
     sequence.write_text(sequence.read_text().replace('low = "10 degC"', 'low = "-70 degC"'))

@@ -36,6 +36,7 @@ from rig.analysis.montecarlo import (
     SequenceMonteCarlo,
     StepDistribution,
     figure_of,
+    model_or_nan,
     prediction_centre,
 )
 from rig.analysis.predict import SequencePredictor, StepPrediction
@@ -45,6 +46,7 @@ from rig.config.unit_file import UnitModel
 from rig.faults import Fault
 from rig.judge.decision import TUR_MINIMUM, Limits, Verdict, tur_is_low, tur_text
 from rig.models._common import ModelInputError
+from rig.models.rtd import Rtd
 from rig.plan import Plan, held_range
 from rig.quantity import parse_quantity
 from rig.step_judging import uncertainty_at_limit
@@ -115,9 +117,46 @@ class FigureLimits:
         return np.asarray(~((figure >= low) & (figure <= high)), dtype=np.bool_)
 
 
-def present_limits(spec: StepSpec) -> FigureLimits | None:
-    """The sequence's own limits, on the step's figure."""
-    if spec.kind in ("ntc", "rtd"):  # an rtd step's class moves with T: no one figure
+@dataclass(frozen=True)
+class ClassLimits:
+    """An rtd step's IEC 60751 class on its figure (ohm off the prediction): ± the class's
+    tolerance through the curve's slope at the temperature each drawn unit is judged at, as a
+    run computes it for its one unit (``Rtd.class_tolerance_ohm``)."""
+
+    tolerance_class: str
+    half_width: FloatArray
+    """ohm, per drawn unit; NaN where a unit gives no temperature (it is rejected anyway)."""
+
+    def outside(self, figure: FloatArray) -> npt.NDArray[np.bool_]:
+        """True where a figure is rejected (NaN, no reading, is always rejected)."""
+        with np.errstate(invalid="ignore"):
+            return np.asarray(~(np.abs(figure) <= self.half_width), dtype=np.bool_)
+
+    @property
+    def span(self) -> tuple[float, float]:
+        """The narrowest and widest ± over the drawn units (NaN where none has one)."""
+        finite = self.half_width[np.isfinite(self.half_width)]
+        if not len(finite):
+            return math.nan, math.nan
+        return float(np.min(finite)), float(np.max(finite))
+
+
+def class_limits(spec: StepSpec, judged_at_c: FloatArray) -> ClassLimits:
+    """An rtd step's class limits at the temperatures its drawn units are judged at."""
+    cls = spec.params["tolerance_class"]
+    rtd = Rtd(r0_ohm=float(spec.params["r0_ohm"]))
+    half = model_or_nan(lambda t: rtd.class_tolerance_ohm(t, cls), judged_at_c, 25.0)
+    return ClassLimits(str(cls), half)
+
+
+def present_limits(
+    spec: StepSpec, judged_at_c: FloatArray | None = None
+) -> FigureLimits | ClassLimits | None:
+    """The sequence's own limits, on the step's figure; an rtd step's class at the temperatures
+    ``judged_at_c`` (None without them)."""
+    if spec.kind == "rtd" and spec.params.get("tolerance_class") is not None:
+        return None if judged_at_c is None else class_limits(spec, judged_at_c)
+    if spec.kind in ("ntc", "rtd"):
         tolerance = spec.params.get("tolerance")
         return None if tolerance is None else FigureLimits(-tolerance[1], tolerance[1])
     if spec.kind == "ratiometric":
@@ -163,7 +202,7 @@ class Proposal:
     reach: FigureLimits
     """The tightest limits any choice could have on each side alone while holding the target:
     a fault beyond them can be caught by some limit, one inside them by none."""
-    present: FigureLimits | None
+    present: FigureLimits | ClassLimits | None
     present_rejects: int
     proposed_rejects: int
     samples: int
@@ -215,7 +254,7 @@ def propose(dist: StepDistribution, false_reject_ppm: float) -> Proposal:
         toml = {"max" if dist.form == "magnitude" else "tolerance": tol_text}
         method = need.method
         reach = FigureLimits(-need.value, need.value)
-    present = present_limits(spec)
+    present = present_limits(spec, dist.judged_at_c)
     return Proposal(
         step_id=spec.id,
         kind=spec.kind,
@@ -463,11 +502,7 @@ def _warnings(study: LimitsStudy) -> list[str]:
         checks = study.checks[proposal.step_id]
         for check in checks:
             if check.present and not check.catchable:
-                found.append(
-                    f"step {proposal.step_id}: its present limits catch {check.fault.spec}, but "
-                    f"no limit that holds {target} can (the present limits reject "
-                    f"{_ppm(proposal.present_rejects, proposal.samples)} of good units)"
-                )
+                found.append(_uncatchable(proposal, check.fault, study.false_reject_ppm))
         if checks and not any(c.catchable for c in checks):
             found.append(
                 f"step {proposal.step_id}: no limit that holds {target} catches any fault of the "
@@ -480,6 +515,22 @@ def _warnings(study: LimitsStudy) -> list[str]:
                 f"fault {fault.spec}: caught now, but by {study.no_step} with the proposed limits"
             )
     return found
+
+
+def _uncatchable(proposal: Proposal, fault: Fault, target_ppm: float) -> str:
+    """A fault the present limits catch and no limit that holds the target can: they catch it
+    by rejecting more good units than the target allows (or, where they reject no more, the
+    fault lies at the edge of what the target allows and the tail estimate falls on its
+    other side)."""
+    rejected = f"{_ppm(proposal.present_rejects, proposal.samples)} of good units"
+    start = f"step {proposal.step_id}: its present limits catch {fault.spec}"
+    target = f"{target_ppm:g} ppm"
+    if proposal.present_ppm > target_ppm:
+        return f"{start} only by rejecting {rejected}; no limit that holds {target} can"
+    return (
+        f"{start} while rejecting {rejected}, yet by the tail estimate no limit that holds "
+        f"{target} can: the fault lies at the edge of what that rate allows"
+    )
 
 
 def _whose_u(spec: StepSpec) -> str:
@@ -517,7 +568,10 @@ def _at(proposal: Proposal) -> str:
 def _ppm(count: int, samples: int) -> str:
     if count == 0:
         return f"under {3e6 / samples:.3g} ppm (none of {samples}; 95 %, rule of three)"
-    return f"{count / samples * 1e6:.3g} ppm ({count} of {samples})"
+    ppm = count / samples * 1e6
+    if ppm < 1000:
+        return f"{ppm:.3g} ppm ({count} of {samples})"
+    return f"{ppm:.0f} ppm ({count} of {samples}, {ppm / 1e4:.3g} %)"
 
 
 def toml_text(study: LimitsStudy, sequence_name: str, unit_name: str) -> str:

@@ -91,6 +91,9 @@ class StepDistribution:
     form: str
     """"window" (low/high limits), "tolerance" (± around the prediction) or "magnitude" (a
     bound on the size alone, ``max``)."""
+    judged_at_c: FloatArray | None = None
+    """An ntc or rtd step's temperature per unit, as its run would take it (``judged_at``):
+    an rtd step's class limits move with it."""
 
 
 @dataclass
@@ -144,10 +147,9 @@ def prediction_centre(spec: StepSpec, earlier: Mapping[str, FloatArray]) -> Floa
         fraction = float(p["model"].fraction_at(float(p["pressure_pa"]))) * 100.0
         n = len(next(iter(earlier.values()))) if earlier else 1
         return np.full(n, fraction)
-    if spec.kind not in ("ntc", "rtd"):
+    temp = judged_at(spec, earlier)
+    if temp is None:
         return None
-    source = p.get("temperature_from")
-    temp = earlier[source] if source else np.array([float(p["temperature_c"])])
     if spec.kind == "rtd":
         return model_or_nan(Rtd(r0_ohm=float(p["r0_ohm"])).r_at, temp, 25.0)
     r_pred = model_or_nan(p["model"].r_at, temp, 25.0)
@@ -160,6 +162,15 @@ def prediction_centre(spec: StepSpec, earlier: Mapping[str, FloatArray]) -> Floa
     pullup = float(p["pullup_ohm"])
     v_pred = divider_voltage(np.where(ok, v_ref, 1.0), pullup, np.where(ok, r_pred, 1.0))
     return np.where(ok, np.asarray(v_pred, dtype=np.float64), math.nan)
+
+
+def judged_at(spec: StepSpec, earlier: Mapping[str, FloatArray]) -> FloatArray | None:
+    """The temperature an ``ntc`` or ``rtd`` step is judged at, per sample: the earlier step's
+    value it names, or its stated temperature (one value for all); None for other kinds."""
+    if spec.kind not in ("ntc", "rtd"):
+        return None
+    source = spec.params.get("temperature_from")
+    return earlier[source] if source else np.array([float(spec.params["temperature_c"])])
 
 
 def step_value(spec: StepSpec, readings: Mapping[str, FloatArray], station: Station) -> FloatArray:
@@ -355,7 +366,9 @@ class SequenceMonteCarlo:
     def run(self, samples: int, seed: int, *, block: int = 20_000) -> MonteCarloResult:
         """Draw ``samples`` good units (in blocks, to bound memory) and every step's figure."""
         rng = np.random.default_rng(seed)
-        parts: dict[str, list[tuple[FloatArray, FloatArray]]] = {s.id: [] for s in self._steps}
+        parts: dict[str, list[tuple[FloatArray, FloatArray, FloatArray | None]]] = {
+            s.id: [] for s in self._steps
+        }
         done = 0
         while done < samples:
             n = min(block, samples - done)
@@ -380,7 +393,9 @@ class SequenceMonteCarlo:
                 value = step_value(spec, readings, self.plan.station)
                 values[spec.id] = value
                 centre = prediction_centre(spec, values)
-                parts[spec.id].append((value, figure_of(spec, value, centre)))
+                temp = judged_at(spec, values)
+                temp = None if temp is None else np.broadcast_to(temp, value.shape)
+                parts[spec.id].append((value, figure_of(spec, value, centre), temp))
             done += n
         result = MonteCarloResult(
             samples,
@@ -396,10 +411,12 @@ class SequenceMonteCarlo:
             result.draws.append(self.supply.draw())
         result.draws += [s.draw() for s in self.stated_draws]
         for spec in self._steps:
-            value = np.concatenate([v for v, _ in parts[spec.id]])
-            figure = np.concatenate([f for _, f in parts[spec.id]])
+            value = np.concatenate([v for v, _, _ in parts[spec.id]])
+            figure = np.concatenate([f for _, f, _ in parts[spec.id]])
+            temps = [t for _, _, t in parts[spec.id] if t is not None]
+            judged = np.concatenate(temps) if temps else None
             unit, form = figure_form(spec)
-            result.steps.append(StepDistribution(spec, value, figure, unit, form))
+            result.steps.append(StepDistribution(spec, value, figure, unit, form, judged))
         for (step_id, role), rm in self.readings.items():
             result.elements_per_reading[f"{step_id}/{role}"] = len(rm.model.ports) + len(
                 rm.model.sources

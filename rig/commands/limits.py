@@ -15,7 +15,7 @@ from typing import TYPE_CHECKING, Any
 from rig.cli_output import Output, show
 
 if TYPE_CHECKING:
-    from rig.analysis.limits import FigureLimits, LimitsStudy
+    from rig.analysis.limits import ClassLimits, FigureLimits, LimitsStudy
     from rig.config.station import Station
     from rig.config.unit_file import UnitModel
 
@@ -136,9 +136,14 @@ def load_station_or_virtual(path: Path | None, unit: UnitModel) -> Station:
         return load_station(station_path)
 
 
-def _limits_text(limits: FigureLimits | None, unit: str, form: str) -> str:
+def _limits_text(limits: FigureLimits | ClassLimits | None, unit: str, form: str) -> str:
+    from rig.analysis.limits import ClassLimits
+
     if limits is None:
         return "(none)"
+    if isinstance(limits, ClassLimits):  # ± at the temperature each unit is judged at
+        widths = dict.fromkeys(f"±{show(value, unit)}" for value in limits.span)
+        return f"class {limits.tolerance_class}: {' .. '.join(widths)}"
     if form == "tolerance":
         return f"±{show(limits.high, unit)}"
     if form == "magnitude" and limits.low is not None and limits.low == -(limits.high or 0.0):
@@ -212,8 +217,8 @@ def _print(
         out.line("no limits proposed: no studied step takes limits from this study")
     out.line(
         "(tolerance steps show their deviation from the step's prediction; TUR is what rig check "
-        "shows once the proposed limits are pasted, for an ntc or ratiometric step at the worst "
-        "end of the unit's temperature range)"
+        "shows once the proposed limits are pasted, for an ntc, rtd or ratiometric step at the "
+        "worst end of the unit's temperature range)"
     )
     out.line()
     studied = " of the studied steps" if study.not_studied else ""
@@ -240,14 +245,24 @@ def _print(
 def study_dict(study: LimitsStudy, seconds: float) -> dict[str, Any]:
     """The study as plain data (``--json``)."""
     from rig.analysis.good_units import UNIFORM_METER
+    from rig.analysis.limits import ClassLimits
 
     r = study.result
 
     def finite(value: float | None) -> float | None:
         return None if value is None or not math.isfinite(value) else value
 
-    def limits(lim: FigureLimits | None) -> dict[str, float | None] | None:
-        return None if lim is None else {"low": finite(lim.low), "high": finite(lim.high)}
+    def limits(lim: FigureLimits | ClassLimits | None) -> dict[str, Any] | None:
+        if lim is None:
+            return None
+        if isinstance(lim, ClassLimits):
+            narrowest, widest = lim.span
+            return {
+                "tolerance_class": lim.tolerance_class,
+                "narrowest": finite(narrowest),
+                "widest": finite(widest),
+            }
+        return {"low": finite(lim.low), "high": finite(lim.high)}
 
     return {
         "samples": r.samples,

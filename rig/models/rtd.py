@@ -161,6 +161,14 @@ class Rtd:
         """Permitted deviation +-degC of a class AA, A or B element at ``temp_c`` (IEC 60751)."""
         return tolerance_c(temp_c, cls)
 
+    def class_tolerance_ohm(self, temp_c: F, cls: ToleranceClass) -> F:
+        """Permitted deviation +-ohm of a class AA, A or B element at ``temp_c``: the class's
+        tolerance in degC through the curve's slope there (IEC 60751).  One function for a run's
+        one temperature and for every unit ``rig limits`` draws, so both judge alike."""
+        t = as_array(temp_c, "temp_c")
+        allowed = np.asarray(tolerance_c(t, cls) * self.dr_dt(t), dtype=np.float64)
+        return like(allowed, temp_c)
+
 
 def tolerance_c(temp_c: F, cls: ToleranceClass) -> F:
     """Permitted deviation +-degC of a class AA, A or B element at ``temp_c`` (IEC 60751)."""

@@ -20,7 +20,6 @@ from rig.models.rtd import (
     TOLERANCE_CLASSES,
     Rtd,
     class_span_note,
-    tolerance_c,
 )
 from rig.routing import Route
 from rig.steps.base import EarlierSteps, Outcome, StepKind, StepSpec
@@ -60,7 +59,7 @@ def rtd_limits(spec: StepSpec, temp_c: float, predicted_ohm: float) -> Limits:
     if cls is None:
         return apply_tolerance(predicted_ohm, spec.params["tolerance"])
     rtd = Rtd(r0_ohm=float(spec.params["r0_ohm"]))
-    allowed = float(tolerance_c(temp_c, cls)) * float(rtd.dr_dt(temp_c))
+    allowed = rtd.class_tolerance_ohm(temp_c, cls)
     return Limits.nominal_tol(predicted_ohm, allowed)
 
 
