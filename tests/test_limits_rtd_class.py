@@ -15,6 +15,7 @@ fixture; they describe no real product.
 from __future__ import annotations
 
 import json
+import tomllib
 from pathlib import Path
 
 import numpy as np
@@ -28,6 +29,7 @@ from rig.cli import main
 from rig.commands.limits import load_station_or_virtual
 from rig.config.sequence import load_sequence
 from rig.config.unit_file import load_unit
+from rig.errors import ConfigError
 from rig.plan import build_plan
 
 
@@ -149,3 +151,38 @@ def test_text_shows_the_class_and_a_warning_that_agrees_with_its_rate(
     for line in warnings:
         assert "only by rejecting" in line and "of good units; no limit that holds 100 ppm" in line
         assert "none of" not in line
+
+
+def test_toml_says_the_tolerance_goes_in_place_of_the_class(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    """Pasted as the comments say (the class deleted, the tolerance in), the sequence loads;
+    pasted beside the class, it is refused.  A step with a fixed tolerance gets no such line."""
+    unit, sequence = _trial_files(tmp_path)
+    assert main(["limits", str(sequence), "--unit", str(unit), "--samples", "2000", "--toml"]) == 0
+    text = capsys.readouterr().out
+    block = text.split("[element]\n", 1)[1]
+    assert '# in place of tolerance_class = "B": delete that key' in block
+    assert "in place of tolerance_class where it has one" in text.split("[element]")[0]
+    [tolerance] = tomllib.loads(text)["element"].values()
+    original = sequence.read_text(encoding="utf-8")
+    sequence.write_text(
+        original.replace('tolerance_class = "B"', f'tolerance = "{tolerance}"'), encoding="utf-8"
+    )
+    [step] = [s for s in load_sequence(sequence).steps if s.id == "element"]
+    assert step.params["tolerance_class"] is None and step.params["tolerance"] is not None
+    sequence.write_text(
+        original.replace(
+            'tolerance_class = "B"', f'tolerance_class = "B"\ntolerance = "{tolerance}"'
+        ),
+        encoding="utf-8",
+    )
+    with pytest.raises(ConfigError, match="give either tolerance_class or tolerance"):
+        load_sequence(sequence)
+
+    unit, sequence = _trial_files(tmp_path)
+    sequence.write_text(
+        original.replace('tolerance_class = "B"', 'tolerance = "1.65 ohm"'), "utf-8"
+    )
+    assert main(["limits", str(sequence), "--unit", str(unit), "--samples", "2000", "--toml"]) == 0
+    assert "# in place of tolerance_class" not in capsys.readouterr().out

@@ -574,6 +574,12 @@ def _ppm(count: int, samples: int) -> str:
     return f"{ppm:.0f} ppm ({count} of {samples}, {ppm / 1e4:.3g} %)"
 
 
+def _class_of(proposal: Proposal) -> str | None:
+    """The IEC 60751 class the step is judged by now, which its proposed tolerance replaces."""
+    present = proposal.present
+    return present.tolerance_class if isinstance(present, ClassLimits) else None
+
+
 def toml_text(study: LimitsStudy, sequence_name: str, unit_name: str) -> str:
     """The proposed limits as TOML: one table per step id with the keys to paste."""
     r = study.result
@@ -582,8 +588,8 @@ def toml_text(study: LimitsStudy, sequence_name: str, unit_name: str) -> str:
         f"# {r.samples} good units drawn (seed {r.seed}), false-reject target "
         f"{study.false_reject_ppm:g} ppm per step.",
         "# Paste each table's keys into the [[steps]] table with that id, in place of its limit",
-        "# keys (low/high, nominal + tolerance, max; tolerance for ntc, rtd and ratiometric\n"
-        "# steps).",
+        "# keys (low/high, nominal + tolerance, max; tolerance for ntc, rtd and ratiometric",
+        "# steps; for an rtd step, in place of tolerance_class where it has one).",
     ]
     if study.not_studied:
         lines.append(f"# Not studied (--step leaves them out): {', '.join(study.not_studied)}.")
@@ -601,6 +607,12 @@ def toml_text(study: LimitsStudy, sequence_name: str, unit_name: str) -> str:
             lines.append(
                 f"# TUR {tur_text(proposal.tur)}{_at(proposal)} (under {TUR_MINIMUM:g}:1): "
                 "see the warnings"
+            )
+        cls = _class_of(proposal)
+        if cls is not None:
+            lines.append(
+                f'# in place of tolerance_class = "{cls}": delete that key (a step takes a class '
+                "or a tolerance, not both)"
             )
         lines.extend(f'{key} = "{text}"' for key, text in proposal.toml.items())
     return "\n".join(lines) + "\n"
