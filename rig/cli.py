@@ -464,7 +464,8 @@ def _show_probe(station: Station, out: Output, reads_probe: bool = True) -> None
 
 def _limits_text(spec: StepSpec) -> str:
     """A step's limits as the file sets them: fixed, or around the model's prediction, which is
-    made at run time (the ratiometric tolerance is in points of the supply, not of the value)."""
+    made at run time (the ratiometric tolerance is in points of the supply, not of the value; an
+    rtd step's class is in degC, turned into ohms at the temperature the run judges at)."""
     from rig.steps import KINDS
 
     unit = str(spec.params.get("unit", KINDS[spec.kind].unit))  # an NTC read as a voltage: V
@@ -479,6 +480,9 @@ def _limits_text(spec: StepSpec) -> str:
     points = spec.params.get("tolerance_pct")
     if isinstance(points, int | float):
         return f"model ± {points:g} % of supply"
+    cls = spec.params.get("tolerance_class")  # an rtd step's IEC 60751 class, in degC at T
+    if isinstance(cls, str):
+        return f"model ± class {cls}"
     return "-"
 
 

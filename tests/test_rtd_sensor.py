@@ -352,3 +352,21 @@ def test_a_run_notes_a_class_judged_outside_its_span_at_the_measured_temperature
     assert f"the station's reference probe: class AA is judged at {measured}" in well.note
     assert f"class AA is judged at {measured}" in element.note
     assert AA_WIRE_WOUND in element.note and AA_FILM in element.note
+
+
+def test_check_without_a_unit_names_the_class_as_the_limits(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    """Without a unit file the prediction is made at run time, as for an ntc step's % (shown
+    `model ± 5 %`): the cell names the class the step is judged by instead of `-`."""
+    from offline_station import offline_demo_station
+
+    _, sequence = pt1000_files(tmp_path)
+    offline_demo_station("bench", tmp_path)
+    assert main(["check", str(sequence), "--station", str(tmp_path / "station.toml")]) == 0
+    [row] = [line for line in capsys.readouterr().out.splitlines() if line.startswith("element ")]
+    assert "model ± class B" in row
+    sequence.write_text(sequence.read_text().replace('_class = "B"', ' = "0.1 %"'), "utf-8")
+    assert main(["check", str(sequence), "--station", str(tmp_path / "station.toml")]) == 0
+    [row] = [line for line in capsys.readouterr().out.splitlines() if line.startswith("element ")]
+    assert "model ± 0.1 %" in row and "class" not in row
