@@ -19,6 +19,8 @@ from rig.judge.decision import (
     judge,
     test_uncertainty_ratio,
 )
+from rig.judge.reference_probe import reading_u_c
+from rig.models.rtd import Rtd
 from rig.quantity import format_quantity
 from rig.steps import KINDS, Outcome, Reading, StepSpec
 
@@ -108,7 +110,8 @@ def uncertainty_at_limit(
     """The expanded uncertainty (k = COVERAGE_K) of a reading at the step's upper limit (its
     lower one where it has no upper) on ``range_``, and the test uncertainty ratio of its limits
     (None for one-sided limits): what ``rig check`` shows for a step and ``rig limits`` for a
-    proposal.  None where no range is held, or the limits are not in the meter's unit."""
+    proposal.  None where no range is held, or the limits are not in the meter's unit (but a
+    reference temperature's: its U is the run's, from the Pt100's ohms and the probe's own)."""
     kind = KINDS[spec.kind]
     function = kind.meter_function(spec)
     limits = spec.limits
@@ -119,7 +122,10 @@ def uncertainty_at_limit(
         if not math.isfinite(u):
             return None
         return COVERAGE_K * u, test_uncertainty_ratio(limits, COVERAGE_K * u)
-    if function is None or range_ is None or limits is None or not kind.limits_in_meter_units:
+    reference = spec.kind == REFERENCE_TEMPERATURE
+    if function is None or range_ is None or limits is None:
+        return None
+    if not (kind.limits_in_meter_units or reference):
         return None
     at = limits.high if limits.high is not None else limits.low
     assert at is not None  # Limits has at least one side
@@ -127,8 +133,18 @@ def uncertainty_at_limit(
         accuracy = station.dmm_accuracy.spec_for(function.value, range_)
     except ValueError:
         return None
-    expanded = COVERAGE_K * accuracy.standard_uncertainty(at, range_)
+    if reference:  # the Pt100's resistance there, through its slope, with the probe's own u
+        rtd = Rtd(r0_ohm=float(spec.params["r0_ohm"]))
+        u_ohm = accuracy.standard_uncertainty(float(rtd.r_at(at)), range_)
+        u = reading_u_c(rtd, u_ohm, station.reference_probe, at)[1]
+    else:
+        u = accuracy.standard_uncertainty(at, range_)
+    expanded = COVERAGE_K * u
     return expanded, test_uncertainty_ratio(limits, expanded)
+
+
+REFERENCE_TEMPERATURE = "reference-temperature"
+"""The step kind judged in degC off the meter's ohms: its U at a limit is the run's own."""
 
 
 SUPPLY_CURRENT = "supply-current"

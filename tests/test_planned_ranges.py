@@ -115,13 +115,23 @@ def test_ntc_at_a_stated_temperature(tmp_path: Path, station: Station) -> None:
     assert plan.steps[0].range_ == 10_000.0
 
 
-def test_rig_check_shows_the_held_range_without_a_meter_uncertainty_in_degc(
+def test_rig_check_shows_the_held_range_and_the_reference_temperatures_u_in_degc(
     tmp_path: Path, station: Station, capsys: pytest.CaptureFixture[str]
 ) -> None:
+    """The range in ohm, and the U a run takes at the upper limit, 40 degC: the meter's u of
+    the Pt100's 115.54 ohm (IEC 60751 table, from memory) on the 1 kohm range, 0.010 % of
+    reading + 0.001 % of range (the station's table) read as rectangular (GUM 4.3.7), through
+    the curve's slope 100 (A + 2 B t) ohm/degC (IEC 60751), with the station probe's class A,
+    +-(0.15 + 0.002 |t|) degC, rectangular too; combined root-sum-square (GUM 5.1.2), k = 2."""
     sequence = tmp_path / "seq.toml"
     sequence.write_text('[sequence]\nname = "ranges"\n' + pt100(), encoding="utf-8")
     assert main(["check", str(sequence), "--station", str(station.path)]) == 0
     row = next(line for line in capsys.readouterr().out.splitlines() if line.startswith("ambient"))
-    # the range in ohm, then "-" for U and TUR: the meter's uncertainty is not in degC
-    assert row.split()[-3:] == ["kohm", "-", "-"]
     assert "1 kohm" in row
+    u_meter = (0.010e-2 * 115.54 + 0.001e-2 * 1000.0) / math.sqrt(3.0)
+    slope = 100.0 * (3.9083e-3 + 2 * -5.775e-7 * 40.0)
+    u_probe = (0.15 + 0.002 * 40.0) / math.sqrt(3.0)
+    expanded = 2.0 * math.hypot(u_meter / slope, u_probe)  # 0.2733 degC
+    value, unit, tur = row.split()[-3:]
+    assert (unit, float(value)) == ("°C", pytest.approx(expanded, abs=5e-5))
+    assert tur == f"{30.0 / (2.0 * expanded):.0f}:1"  # the span over 2 U

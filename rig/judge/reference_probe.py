@@ -13,7 +13,7 @@ import datetime as dt
 import math
 from dataclasses import dataclass
 
-from rig.models.rtd import TOLERANCE_CLASSES, ToleranceClass, tolerance_c
+from rig.models.rtd import TOLERANCE_CLASSES, Rtd, ToleranceClass, tolerance_c
 
 PROBE_ROLE = "reference_probe"
 """The probe's name in a run's instruments, and its table in the station file."""
@@ -68,3 +68,14 @@ def combined_u_c(meter_u_c: float, probe: ReferenceProbe | None, temp_c: float) 
     if probe is None or not math.isfinite(temp_c):
         return meter_u_c
     return math.hypot(meter_u_c, probe.u_std_c(temp_c))
+
+
+def reading_u_c(
+    rtd: Rtd, u_ohm: float, probe: ReferenceProbe | None, temp_c: float
+) -> tuple[float, float]:
+    """The meter's part of a reference temperature read off ``rtd``'s curve at ``temp_c`` (its
+    standard uncertainty ``u_ohm`` in ohm through the curve's slope there, GUM 5.1.2) and the
+    combined standard uncertainty with the probe's own: one computation for a run's reading and
+    the U ``rig check`` states at a limit."""
+    u_meter = u_ohm / float(rtd.dr_dt(temp_c))
+    return u_meter, combined_u_c(u_meter, probe, temp_c)

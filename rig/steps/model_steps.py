@@ -17,7 +17,7 @@ from rig.config.reader import Section
 from rig.errors import SettingMismatch
 from rig.judge.decision import Limits
 from rig.judge.propagate import u_quotient
-from rig.judge.reference_probe import ReferenceProbe, combined_u_c
+from rig.judge.reference_probe import ReferenceProbe, reading_u_c
 from rig.models import ModelInputError
 from rig.models.divider import divider_voltage, dv_dr_sensor
 from rig.models.ntc import BetaNtc, NtcModel, SteinhartHart
@@ -101,12 +101,11 @@ class ReferenceTemperature(StepKind):
                 off_the_curve(spec, r.value, rtd)
             )
         temp = float(rtd.t_at(r.value))
-        u_meter = r.u_std / float(rtd.dr_dt(temp))
         probe = ctx.reference_probe
+        u_meter, u_temp = reading_u_c(rtd, r.u_std, probe, temp)
         extras = {"r_ohm": r.value}
         if probe is not None:  # each part kept, so the record shows what U is made of
             extras |= {"u_meter_c": u_meter, "u_probe_c": probe.u_std_c(temp)}
-        u_temp = combined_u_c(u_meter, probe, temp)
         note = _probe_class_note(probe, (temp,))
         return Outcome(temp, self.unit, u_temp, spec.limits, [r], extras=extras, note=note)
 
