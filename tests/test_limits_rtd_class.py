@@ -186,3 +186,18 @@ def test_toml_says_the_tolerance_goes_in_place_of_the_class(
     )
     assert main(["limits", str(sequence), "--unit", str(unit), "--samples", "2000", "--toml"]) == 0
     assert "# in place of tolerance_class" not in capsys.readouterr().out
+
+
+def test_the_proposals_tur_is_said_at_the_temperature_the_step_states(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    """A sender judged at a stated 100 degC in its well: its TUR is taken there, and said to be
+    there, not at the room's 23 degC (which a step reading its bench reference is judged at)."""
+    fixture = (SEQUENCES / "demo-fixture.toml").resolve()
+    unit = tmp_path / "unit.toml"
+    unit.write_text(HOT_UNIT.format(fixture=fixture), encoding="utf-8")
+    sequence = tmp_path / "sequence.toml"
+    sequence.write_text(HOT_SEQUENCE, encoding="utf-8")
+    assert main(["limits", str(sequence), "--unit", str(unit), "--seed", "5", "--json"]) == 0
+    [step] = json.loads(capsys.readouterr().out)["steps"]
+    assert step["tur"] is not None and step["tur_at_c"] == 100.0

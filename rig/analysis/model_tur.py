@@ -176,7 +176,15 @@ def _rtd_tur_at(
         return None
     window = rtd_window(spec, temperature)
     parts = () if spec.params.get("temperature_from") else (("temperature", window.u_limits),)
-    return _tur_of(window.limits, _expanded(plan, planned, spec, window), temp_c, parts)
+    at_c = _judged_at(spec, temperature, temp_c)
+    return _tur_of(window.limits, _expanded(plan, planned, spec, window), at_c, parts)
+
+
+def _judged_at(spec: StepSpec, temperature: tuple[float, float], ambient_c: float) -> float:
+    """The temperature a TUR is said to be at: the unit's ambient where the step reads its
+    temperature from the bench's reference (which reads the ambient), else the temperature the
+    step states (a sender judged at 100 degC in its well, whatever the room's)."""
+    return ambient_c if spec.params.get("temperature_from") else temperature[0]
 
 
 def _tur_at(
@@ -200,7 +208,8 @@ def _tur_at(
         return None
     window = ntc_window(spec, temperature, reference)
     expanded = _expanded(plan, planned, spec, window)
-    return _tur_of(window.limits, expanded, temp_c, _ntc_stated_parts(spec, temperature, reference))
+    at_c = _judged_at(spec, temperature, temp_c)
+    return _tur_of(window.limits, expanded, at_c, _ntc_stated_parts(spec, temperature, reference))
 
 
 def _spec_at(

@@ -49,7 +49,8 @@ CLASS_SPAN_WIRE_WOUND_C: dict[str, tuple[float, float]] = {
     "B": (-196.0, 600.0),
 }
 """The temperatures over which IEC 60751:2008 (Table 1) gives each class for a wire-wound
-element (from memory): the widest a class is valid for, whatever the construction."""
+element (checked against a published summary of the table, December 2026): the widest a class
+is valid for, whatever the construction."""
 
 CLASS_SPAN_FILM_C: dict[str, tuple[float, float]] = {
     "AA": (0.0, 150.0),
