@@ -67,14 +67,24 @@ def at_place(x: float, place: int, shift: int = 0) -> str:
     return _text(_rounded(x, place, ROUND_HALF_EVEN), place, shift)
 
 
+STATED_DIGITS = 6
+"""A limit with this many significant digits or fewer reads as a figure someone stated (4.125 V,
+a sequence's own limit); a computed one (a model's prediction, a copper limit) has a double's
+fifteen or so."""
+
+
 def limit_at_place(x: float, place: int, shift: int = 0) -> str:
-    """A limit beside a value shown to ``place`` decimals: rounded to nearest there, and a limit
-    that the place holds exactly (a stated figure such as 4.8 V beside 2.32741 V) without the
-    trailing zeros a reading would have, ``4.8`` not ``4.80000``; a computed limit that was
-    rounded keeps the value's digits (``2.270`` kohm beside ``2.163``)."""
-    text = at_place(x, place, shift)
-    exact = _rounded(x, place, ROUND_HALF_EVEN) == Decimal(repr(x))
-    return text.rstrip("0").rstrip(".") if exact and "." in text else text
+    """A limit beside a value shown to ``place`` decimals.  A stated figure (``STATED_DIGITS``)
+    is shown as stated, without the trailing zeros a reading would have (``4.8`` beside
+    ``2.32741``, ``4.125`` beside ``2.33``): it is a specification, not a measurement, and GUM
+    7.2.6's rounding is for the result.  A computed limit is rounded to nearest at the value's
+    place (``2.270`` kohm beside ``2.163``, ``0.0574`` beside ``0.0454``)."""
+    exact = Decimal(repr(x))
+    if len(exact.normalize().as_tuple().digits) <= STATED_DIGITS:
+        shown = max(place, -exact.normalize().as_tuple().exponent)  # type: ignore[operator]
+        text = _text(exact.quantize(Decimal(1).scaleb(-shown)), shown, shift)
+        return text.rstrip("0").rstrip(".") if "." in text else text
+    return at_place(x, place, shift)
 
 
 def value_and_u(

@@ -130,7 +130,9 @@ def test_the_box_opens_its_relays_when_the_controller_dies(bench_station: Statio
     finally:
         host.kill()
         host.wait()
-    time.sleep(bench_station.watchdog_s + 0.5)  # its timeout, and half a second to act on it
+    # its timeout, and half as long again to act on it: the box is not asked before then, since
+    # any frame feeds its watchdog (docs/relay-box-protocol.md), and asking early would stop it
+    time.sleep(1.5 * bench_station.watchdog_s + 0.5)
     box = open_instrument(config.driver, "relay_box", config.resource, config.settings)
     try:
         closed = box.closed_relays()

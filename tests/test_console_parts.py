@@ -99,6 +99,9 @@ def test_reading_limits_and_uncertainty_share_one_prefix() -> None:
     # the reviewer's ambient: 23.00 beside ±0.24, a stated 10 to 40 degC without trailing zeros
     ambient = quantity_cells(23.00376, "degC", Limits(10.0, 40.0), 0.2347)
     assert (ambient.reading, ambient.limits, ambient.uncertainty) == ("23.00", "10 .. 40", "±0.24")
+    # with no limits the same: U is never shown smaller than the U judged with
+    bare = quantity_cells(23.00376, "degC", None, 0.2347)
+    assert (bare.reading, bare.limits, bare.uncertainty) == ("23.00", "-", "±0.24")
     assert quantity_cells(math.inf, "V", Limits(None, 0.02), None).reading == "overload"
     assert quantity_cells(math.nan, "V", None, None).reading == "no reading"
 

@@ -119,3 +119,11 @@ def test_a_stated_limit_drops_trailing_zeros_and_a_computed_one_keeps_the_values
     # a limit computed from a model (2269.996 ohm), rounded to the ohm and written in kohm,
     # keeps the value's digits: its last zero is a rounded digit, not a stated one
     assert limit_at_place(2269.996, 0, 3) == "2.270" and limit_at_place(2270.0, 0, 3) == "2.27"
+
+
+def test_a_stated_limit_with_more_digits_than_the_value_is_shown_as_stated() -> None:
+    # a sequence's 4.125 V beside a reading whose U (0.24 V) gives two decimals: the limit is a
+    # specification, shown as written, not rounded to 4.12 (GUM 7.2.6 rounds the result)
+    assert limit_at_place(4.125, 2) == "4.125"
+    # a computed copper limit keeps only the reading's digits
+    assert limit_at_place(0.05735177, 4) == "0.0574"

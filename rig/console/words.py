@@ -145,9 +145,10 @@ def quantity_cells(
     u_text = ""
     if expanded_u is not None and math.isfinite(expanded_u) and expanded_u > 0:
         digits = _u_digits(value, expanded_u, limits, factor)
-        if digits is not None and limit_text not in ("-", NONE_ALLOWED):
-            return StepCells(digits[0], symbol, digits[1], digits[2])
-        u_text = f"±{expanded_u / factor:.2g}"
+        if digits is not None:  # no limits, or none allowed: the limits' words stay
+            stated = limit_text in ("-", NONE_ALLOWED)
+            return StepCells(digits[0], symbol, limit_text if stated else digits[1], digits[2])
+        u_text = f"±{digits_of_u(expanded_u, round(math.log10(factor)))}"
     return StepCells(_number(value, factor), symbol, limit_text, u_text)
 
 
