@@ -10,11 +10,11 @@ from typing import Any
 from reports.html_page import DECISION_CLASS, VERDICT_CLASS, esc, figure, page, table
 from reports.run_export import ambient_text
 from reports.svg_plots import margin_chart
-from reports.value_digits import limit_at_place, shown_place, value_and_u
 from rig import __version__
 from rig.events import CUT_SHORT, NOT_RUN, allows_none, prompt_answer
 from rig.judge.decision import COVERAGE_K, DecisionRule, Limits, judge, tur_text
 from rig.steps import KINDS
+from rig.value_digits import limit_at_place, shown_place, value_and_u
 
 
 def num(value: object, digits: int = 7) -> str:

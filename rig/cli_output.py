@@ -8,10 +8,9 @@ import os
 import sys
 import textwrap
 import time
-from collections.abc import Callable, Sequence
+from collections.abc import Sequence
 from typing import Any, TextIO
 
-from reports.value_digits import at_place, limit_at_place, shown_place, u_text
 from rig.events import (
     CUT_SHORT,
     NONE_ALLOWED,
@@ -28,6 +27,7 @@ from rig.events import (
 )
 from rig.judge.decision import Limits, Verdict, tur_text
 from rig.quantity import format_quantity, prefixed_unit
+from rig.value_digits import digits_shown
 
 TERMINAL_WIDTH = 80
 """The columns a table that may hold long text is wrapped to: the classic terminal's width
@@ -168,31 +168,24 @@ def _result_cells(r: StepResult) -> list[str]:
 
 def u_digits_cells(r: StepResult) -> tuple[str, str, str] | None:
     """Value, limits and ± U to the digits U supports, as the HTML report shows them
-    (``reports.value_digits``, GUM 7.2.6: U to two significant digits, rounded up; the value,
+    (``rig.value_digits``, GUM 7.2.6: U to two significant digits, rounded up; the value,
     and its limits beside it, to the same decimal place, finer where the value would read as a
     limit it is not equal to), all in the prefix of the largest of value and limits.  None
     where there is no finite value, positive U or finite limits to say digits of."""
-    bounds = () if r.limits is None else (r.limits.low, r.limits.high)
-    if any(x is not None and not math.isfinite(x) for x in bounds):
-        return None
-    place = shown_place(r.value, r.expanded_u, bounds)
-    if place is None:
-        return None
-    sizes = [abs(x) for x in (r.value, *bounds) if x is not None]
+    low, high = (None, None) if r.limits is None else (r.limits.low, r.limits.high)
+    sizes = [abs(x) for x in (r.value, low, high) if x is not None and math.isfinite(x)]
     shift, symbol = (0, r.unit) if r.unit in ("", "s") else prefixed_unit(max(sizes), r.unit)
+    shown = digits_shown(r.value, r.expanded_u, low, high, shift)
+    if shown is None:
+        return None
 
-    def text(x: float | None, missing: str, shown: Callable[[float, int, int], str]) -> str:
-        return missing if x is None else f"{shown(x, place, shift)} {symbol}".rstrip()
+    def text(x: str | None, missing: str) -> str:
+        return missing if x is None else f"{x} {symbol}".rstrip()
 
     limits = show_limits(r.limits, r.unit)  # "(none)", "none allowed"
     if r.limits is not None and not allows_none(r.limits, r.unit):
-        low = text(r.limits.low, "-inf", limit_at_place)
-        limits = f"{low} .. {text(r.limits.high, '+inf', limit_at_place)}"
-    return (
-        text(r.value, "", at_place),
-        limits,
-        "±" + f"{u_text(r.expanded_u, shift)} {symbol}".rstrip(),
-    )
+        limits = f"{text(shown.low, '-inf')} .. {text(shown.high, '+inf')}"
+    return text(shown.value, ""), limits, "±" + text(shown.u, "")
 
 
 MOST_DIGITS = 10

@@ -20,9 +20,9 @@ import pytest
 
 from reports.run_export import record_csv, run_record
 from reports.run_html import margin_scale, render_run
-from reports.value_digits import at_place, limit_at_place, shown_place, value_and_u
 from rig.demo import CASES, run_demo
 from rig.store import ResultStore
+from rig.value_digits import at_place, limit_at_place, shown_place, value_and_u
 
 
 @pytest.mark.parametrize(

@@ -11,10 +11,10 @@ import re
 
 import pytest
 
-from reports.value_digits import limit_at_place
 from rig.cli_output import Output, value_text
 from rig.events import StepResult
 from rig.judge.decision import COVERAGE_K, DecisionRule, Limits, Verdict, tur_text
+from rig.value_digits import limit_at_place
 
 WINDOW = Limits(0.6, 4.8)
 

@@ -11,10 +11,10 @@ import math
 from collections.abc import Iterable
 from dataclasses import dataclass
 
-from reports.value_digits import at_place, limit_at_place, shown_place
-from reports.value_digits import u_text as digits_of_u
 from rig.events import NONE_ALLOWED, StepResult, allows_none
 from rig.judge.decision import Limits, Verdict
+from rig.value_digits import digits_shown
+from rig.value_digits import u_text as digits_of_u
 
 VERDICT_WORDS = {
     Verdict.PASS: "PASS",
@@ -156,22 +156,14 @@ def _u_digits(
     value: float, u: float, limits: Limits | None, factor: float
 ) -> tuple[str, str, str] | None:
     """Value, limits and ± U to the digits U supports, as ``rig run`` and the report show them
-    (``reports.value_digits``, GUM 7.2.6), in the prefix of ``factor``; None where the value or
-    a stated limit is not a finite number (no reading, an overload)."""
+    (``rig.value_digits``, GUM 7.2.6), in the prefix of ``factor``; None where the value or a
+    stated limit is not a finite number (no reading, an overload)."""
     low, high = _limit_values(limits)
-    bounds = [b for b in (low, high) if b is not None]
-    if not math.isfinite(value) or not all(math.isfinite(b) for b in bounds):
+    shown = digits_shown(value, u, low, high, round(math.log10(factor)))
+    if shown is None:
         return None
-    place = shown_place(value, u, bounds)
-    if place is None:
-        return None
-    shift = round(math.log10(factor))
-
-    def limit(b: float | None, missing: str) -> str:
-        return missing if b is None else limit_at_place(b, place, shift)
-
-    limit_text = f"{limit(low, '-inf')} .. {limit(high, '+inf')}"
-    return at_place(value, place, shift), limit_text, f"±{digits_of_u(u, shift)}"
+    limit_text = f"{shown.low or '-inf'} .. {shown.high or '+inf'}"
+    return shown.value, limit_text, f"±{shown.u}"
 
 
 def _limit_values(limits: Limits | None) -> tuple[float | None, float | None]:

@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Iterable
+from dataclasses import dataclass
 from decimal import ROUND_CEILING, ROUND_HALF_EVEN, Decimal
 
 _SIGNIFICANT = 2
@@ -109,3 +110,33 @@ def u_text(u: float, shift: int = 0) -> str:
     smaller than the U judged with), in units of ``10 ** shift``: 0.2346872766 -> "0.24"."""
     place = _decimals(u)
     return _text(_rounded(u, place, ROUND_CEILING), place, shift)
+
+
+@dataclass(frozen=True)
+class ShownDigits:
+    """A reading, its limits (None: that side open) and its U, each as text in one prefix."""
+
+    value: str
+    low: str | None
+    high: str | None
+    u: str
+
+
+def digits_shown(
+    value: float, u: float, low: float | None, high: float | None, shift: int = 0
+) -> ShownDigits | None:
+    """A reading beside its limits and U, to the digits U supports, in units of ``10 ** shift``:
+    what ``rig run``'s table and the console show (the value ``shown_place``, a limit
+    ``limit_at_place``, U ``u_text``).  None where the value or a limit is not a finite number,
+    or U is not a positive finite one: nothing can be said of the digits."""
+    bounds = [b for b in (low, high) if b is not None]
+    if not math.isfinite(value) or not all(math.isfinite(b) for b in bounds):
+        return None
+    place = shown_place(value, u, bounds)
+    if place is None:
+        return None
+
+    def limit(b: float | None) -> str | None:
+        return None if b is None else limit_at_place(b, place, shift)
+
+    return ShownDigits(at_place(value, place, shift), limit(low), limit(high), u_text(u, shift))
