@@ -37,6 +37,8 @@ def fault_kind(spec: str) -> str:
 
 FOUND = "found "
 """A harness proof's extras key per finding kind (``found swap``), its value how many."""
+UNREADABLE = "record unreadable"
+"""A harness proof whose stored extras are not JSON (a damaged record): counted as such."""
 NO_FINDING = "no finding recorded"
 """A failed harness run whose record names no finding (a capture that found no nets, say)."""
 
@@ -48,9 +50,15 @@ def harness_findings(steps: Iterable[Mapping[str, Any]]) -> Counter[str]:
     found: Counter[str] = Counter()
     for step in steps:
         extras = step.get("extras") or {}
+        if step.get("kind") != "harness-proof":
+            continue
         if isinstance(extras, str):  # as the store keeps it
-            extras = json.loads(extras)
-        if step.get("kind") != "harness-proof" or not isinstance(extras, Mapping):
+            try:
+                extras = json.loads(extras)
+            except ValueError:  # a damaged record is counted, not a reason to stop
+                found[UNREADABLE] += 1
+                continue
+        if not isinstance(extras, Mapping):
             continue
         for key, count in extras.items():
             if key.startswith(FOUND) and isinstance(count, int | float) and count > 0:
