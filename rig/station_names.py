@@ -81,3 +81,22 @@ def take_over(remote: ResultStore, name: str, store_uid: str) -> str | None:
         )
     before = None if row is None else str(row[0])
     return None if before == store_uid else before
+
+
+def move_claim(remote: ResultStore, name: str, before: str, after: str) -> bool:
+    """Give ``name``'s claim on the server from the store ``before`` to the store ``after``, only
+    where ``before`` still holds it; whether it moved."""
+    with remote._tx() as db:
+        row = db.execute(
+            "UPDATE station_names SET store_uid=?, claimed_at=? WHERE station=? AND store_uid=?"
+            " RETURNING station",
+            (after, _now(), name, before),
+        ).fetchone()
+    return row is not None
+
+
+def name_holder(remote: ResultStore, name: str) -> str | None:
+    """The store id that holds ``name`` on the server; None: no one."""
+    with remote._tx() as db:
+        row = db.execute("SELECT store_uid FROM station_names WHERE station=?", (name,)).fetchone()
+    return None if row is None else str(row[0])

@@ -171,17 +171,22 @@ MIGRATIONS: list[str] = [
     """,
     # 7 -> 8: two copies of one station's file (benches cloned from one disk image share its
     # store_uid) cannot both send to a shared server unseen (rig.store_copies): the server keeps
-    # the token of each store's last send pass, a station's file its own last token and the
-    # token of a pass under way
+    # the token of each store's last send pass (store_senders), a station's file every token it
+    # issued, per server (send_tokens, target as sent_runs keys it); each engine holds the
+    # other's table empty
     """
-    ALTER TABLE store_identity ADD COLUMN send_token TEXT;
-    ALTER TABLE store_identity ADD COLUMN next_token TEXT;
     CREATE TABLE store_senders (
         store_uid TEXT PRIMARY KEY,
         send_token TEXT NOT NULL,
         station TEXT NOT NULL,
         host TEXT NOT NULL,
         sent_at TEXT NOT NULL
+    );
+    CREATE TABLE send_tokens (
+        target TEXT NOT NULL,
+        token TEXT NOT NULL,
+        issued_at TEXT NOT NULL,
+        PRIMARY KEY (target, token)
     );
     """,
 ]
@@ -482,6 +487,70 @@ class ResultStore:
         older = version < SCHEMA_VERSION
         if older and (allowed is Migrate.NEVER or (allowed is Migrate.IF_EMPTY and version)):
             raise OlderSchema(self.where, version)
+
+    # --- send passes: which copy of a file sends (rig.store_copies) ---------------------------
+
+    def issue_send_token(self, target: str) -> str:
+        """A new token for a send pass to the server ``target`` (its store id), kept in this file
+        before the server sees it, so a link lost after the server's commit leaves it ours.  An
+        insert alone in its own transaction: two passes of one file (a run's send, a cron sync)
+        each keep their own, and neither takes the other's for a copy's."""
+        token = uuid.uuid4().hex
+        with self._tx() as db:
+            db.execute(
+                "INSERT INTO send_tokens (target, token, issued_at) VALUES (?, ?, ?)",
+                (target, token, _now()),
+            )
+        return token
+
+    def issued_send_token(self, target: str, token: str) -> bool:
+        """Whether this file issued ``token`` for the server ``target``, at any time: a server
+        restored from a dump holds an older one of ours."""
+        sql = "SELECT 1 FROM send_tokens WHERE target=? AND token=?"
+        return bool(self._rows(sql, (target, token)))
+
+    def last_send_pass(self, store_uid: str) -> tuple[str, str, str, str] | None:
+        """On a server: (token, station, host, sent_at) of the store's last send pass; None where
+        it has none."""
+        sql = "SELECT send_token, station, host, sent_at FROM store_senders WHERE store_uid=?"
+        rows = self._rows(sql, (store_uid,))
+        return None if not rows else (str(rows[0][0]), str(rows[0][1]), str(rows[0][2]),
+                                      str(rows[0][3]))  # fmt: skip
+
+    def note_first_send_pass(self, store_uid: str, token: str, station: str, host: str) -> bool:
+        """On a server: note the store's first pass; False where another pass noted one first
+        (the caller reads it again)."""
+        with self._tx() as db:
+            row = db.execute(
+                "INSERT INTO store_senders (store_uid, send_token, station, host, sent_at)"
+                " VALUES (?, ?, ?, ?, ?) ON CONFLICT (store_uid) DO NOTHING RETURNING store_uid",
+                (store_uid, token, station, host, _now()),
+            ).fetchone()
+        return row is not None
+
+    def note_next_send_pass(
+        self, store_uid: str, before: str, token: str, station: str, host: str
+    ) -> bool:
+        """On a server: note the store's pass in place of the one whose token is ``before``, only
+        if that one is still the last (the check and the change in one statement, so two copies
+        of a file cannot both pass); False where no row changed."""
+        with self._tx() as db:
+            row = db.execute(
+                "UPDATE store_senders SET send_token=?, station=?, host=?, sent_at=?"
+                " WHERE store_uid=? AND send_token=? RETURNING store_uid",
+                (token, station, host, _now(), store_uid, before),
+            ).fetchone()
+        return row is not None
+
+    def renew_store_uid(self, before: str, after: str) -> bool:
+        """Give this file the store id ``after`` in place of ``before``; False where the file no
+        longer has ``before`` (renewed meanwhile).  Runs and what was sent where stay."""
+        with self._tx() as db:
+            row = db.execute(
+                "UPDATE store_identity SET store_uid=? WHERE store_uid=? RETURNING store_uid",
+                (after, before),
+            ).fetchone()
+        return row is not None
 
     # --- writing, one short transaction each -------------------------------------------------
 

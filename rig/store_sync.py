@@ -221,11 +221,7 @@ def sync(
     try:
         target = remote.store_uid()
         if renew_id:
-            shared = new_store_id(local, remote)
-            renewed = (
-                f"this station's file given the new store id {local.store_uid()[:8]} (it shared "
-                f"{shared[:8]} with another copy of it)"
-            )
+            renewed = new_store_id(local, remote, sender).describe()
         check_pass(local, remote, sender)
         ours = local.store_uid()
         if take_over_name is not None:
