@@ -58,13 +58,15 @@ class StoreCopied(StoreError):
         if theirs == ours:  # one bench, one name: an older copy of its own file, most likely
             super().__init__(
                 f"{start}, the same station on the same host as this one: this file was most "
-                "likely restored from a backup (or copied on this same computer), and sending it "
+                "likely restored from a backup (or copied on this same computer, or onto a bench "
+                "cloned from this one's disk image that kept its host name), and sending it "
                 "would mix its runs with the newer file's and overwrite the server's relay wear "
                 "with its older counts, so this station's runs wait in its own file: where this "
                 "file replaced the one that sent (a backup restored), give it a store id of its "
                 f"own and take its station name over with `{RESTORED_COMMAND}` (it keeps every "
-                "run); where another copy on this computer sends as well, give this one a new "
-                f"store id with `{NEW_ID_COMMAND}` and its own name in its station file"
+                "run); where another copy sends as well (on this computer, or on a cloned bench: "
+                "never take the name over there), give this one a new store id with "
+                f"`{NEW_ID_COMMAND}` and its own name in its station file"
             )
             return
         super().__init__(

@@ -77,11 +77,13 @@ def test_a_copied_file_is_refused_and_takes_a_new_id_keeping_every_run(
         # or a file restored from a backup, not as a disk image, with the commands for both
         assert (
             f"as station 'qa-b1' on host {host!r}, the same station on the same host as this one: "
-            "this file was most likely restored from a backup (or copied on this same computer)"
+            "this file was most likely restored from a backup (or copied on this same computer, "
+            "or onto a bench cloned from this one's disk image that kept its host name)"
         ) in refused.problem
-        assert "disk image" not in refused.problem
+        assert "most likely copied from one disk image" not in refused.problem
         assert f"store id (starts {second.store_uid()[:8]})" in refused.problem
         assert "`rig sync --station STATION --new-store-id --take-over-name`" in refused.problem
+        assert "never take the name over there" in refused.problem
         assert "`rig sync --station STATION --new-store-id` and its own name" in refused.problem
         assert server_wear(pg_database, "qa-b1") == {1: 25}
         assert server_serials(pg_database, "qa-b1") == ["SN-A", "SN-IMAGE"]
@@ -328,7 +330,7 @@ def test_a_station_file_restored_from_a_backup_is_told_so_and_sends_after_its_co
         refused = sync(store, remote, station="qa-b1")
         assert (refused.sent, refused.waiting) == (0, 1)
         assert "most likely restored from a backup" in refused.problem
-        assert "disk image" not in refused.problem
+        assert "most likely copied from one disk image" not in refused.problem
         command = "rig sync --station STATION --new-store-id --take-over-name"
         assert f"`{command}`" in refused.problem
         # the command it gives: a new id, the name taken over, the waiting run sent
