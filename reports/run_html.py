@@ -127,6 +127,17 @@ def _judged(s: Mapping[str, Any]) -> bool:
     return kind is None or kind.judged
 
 
+def _predicted_cell(s: Mapping[str, Any]) -> str:
+    """A model's prediction beside its reading: to the reading's decimal place, as the limits
+    computed from it are (``limit_at_place``), where the reading has digits U supports."""
+    predicted, value, u = s["predicted"], s["value"], s["expanded_u"]
+    if predicted is None or not math.isfinite(predicted) or value is None or u is None:
+        return num(predicted)
+    bounds = [x for x in (s["low"], s["high"]) if x is not None and math.isfinite(x)]
+    place = shown_place(value, u, bounds) if math.isfinite(value) else None
+    return num(predicted) if place is None else limit_at_place(predicted, place)
+
+
 def _step_row(s: Mapping[str, Any]) -> list[object]:
     value, u, low, high = _value_cells(s)
     judged = _judged(s)
@@ -138,7 +149,7 @@ def _step_row(s: Mapping[str, Any]) -> list[object]:
         s["unit"],
         low,
         high,
-        num(s["predicted"]),
+        _predicted_cell(s),
         u,
         num(s["coverage_k"], 3) if judged else "",
         s["decision_rule"] if judged else "",

@@ -168,6 +168,22 @@ def test_a_folder_for_a_file_to_write_with_no_name_of_its_own_is_refused_before_
     assert list(example["folder"].iterdir()) == []
 
 
+def test_a_capture_out_ending_with_a_slash_is_refused_before_anything_opens(
+    example: dict[str, Path], capsys: pytest.CaptureFixture[str]
+) -> None:
+    # `rig harness capture --out newdir/` wrote a FILE named newdir; a captured wire list has no
+    # name of its own to take in a folder (POSIX.1-2017, 4.13: a trailing slash names a
+    # directory), so it is refused, and nothing is made, before the bench is opened
+    folder = example["folder"] / "newdir"
+    args = ["harness", "capture", "--station", "{station.toml}", "--serial", "H", "--ambient",
+            "23 degC", "--out", f"{folder}/"]  # fmt: skip
+    assert printed_for(capsys, args, example) == [
+        f"rig: --out {folder}/: names a folder (it ends with /); expected a wire list (.csv) to "
+        "write"
+    ]
+    assert not folder.exists()
+
+
 @pytest.fixture(scope="module")
 def demo_store(tmp_path_factory: pytest.TempPathFactory) -> Path:
     """The demo's results store (its runs through the virtual bench), read by the tests here."""

@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import csv
 import io
+import math
 import re
 from decimal import Decimal
 from typing import Any
@@ -222,3 +223,22 @@ def test_steps_with_one_limit_are_drawn_in_the_margins_and_a_prompt_is_not(
     prompt_html = render_run(records["NTC-0003"])
     prompt_svg = prompt_html[prompt_html.index("<h2>Margins</h2>") :]
     assert "place" not in re.findall(r"<!-- (.*?) -->", prompt_svg[: prompt_svg.index("</figure>")])
+
+
+def test_a_prediction_is_shown_to_its_readings_digits(records: dict[str, dict[str, Any]]) -> None:
+    # a model's prediction beside its reading (GUM 7.2.6 gives the reading's place; the
+    # prediction, computed as its limits are, is rounded there, not left at seven digits)
+    shown = 0
+    for record in records.values():
+        rows = step_rows(render_run(record))
+        for step in record["steps"]:
+            value, u, predicted = step["value"], step["expanded_u"], step["predicted"]
+            if predicted is None or u is None or value is None or not math.isfinite(value):
+                continue
+            limits = [x for x in (step["low"], step["high"]) if x is not None]
+            place = shown_place(value, u, limits)
+            assert place is not None
+            assert rows[step["step_id"]]["predicted"] == limit_at_place(predicted, place)
+            assert len(rows[step["step_id"]]["predicted"]) < len(f"{predicted:.7g}")
+            shown += 1
+    assert shown  # the open signal wire's run has a curve step read against its prediction

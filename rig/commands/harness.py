@@ -38,7 +38,7 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     check.set_defaults(func=cmd_check)
 
     capture = verbs.add_parser("capture", help="write a wire list from a known-good harness")
-    capture.add_argument("--out", type=Path, required=True, help="the wire list to write")
+    capture.add_argument("--out", required=True, help="the wire list to write")  # text: a / kept
     capture.add_argument("--connectors", default="", help="comma-separated; default all pins")
     _common(capture)
     capture.set_defaults(func=cmd_capture)
@@ -257,8 +257,9 @@ def cmd_capture(args: argparse.Namespace, out: Output) -> int:
     from rig.errors import ConfigError
     from rig.harness.capture import connector_problems
 
-    file_to_write(args.out, "--out", kind="a wire list (.csv) to write")  # before anything opens
-    keys: dict[str, object] = {"capture_to": str(args.out.resolve())}
+    # before anything opens; a folder, or a name ending with /, is refused (no default name)
+    target = file_to_write(args.out, "--out", kind="a wire list (.csv) to write").resolve()
+    keys: dict[str, object] = {"capture_to": str(target)}
     connectors = [c.strip() for c in args.connectors.split(",") if c.strip()]
     if connectors:
         fixture = load_station(args.station).fixture
@@ -266,7 +267,7 @@ def cmd_capture(args: argparse.Namespace, out: Output) -> int:
         if problems:  # before anything is opened
             raise ConfigError(problems)
         keys["capture_connectors"] = connectors
-    return _run(args, out, keys, "capture", args.out.resolve())
+    return _run(args, out, keys, "capture", target)
 
 
 def virtual_station_name(wire_list: Path) -> str:
