@@ -173,8 +173,10 @@ MIGRATIONS: list[str] = [
     # store_uid) cannot both send to a shared server unseen (rig.store_copies): the server keeps
     # the token of each store's last send pass (store_senders), a station's file every token it
     # issued, per server (send_tokens, target as sent_runs keys it); each engine holds the
-    # other's table empty
+    # other's table empty.  The claims of a sequence are read before each run of it (a claim
+    # screened before, rig.tested_before): an index on the two keeps that to the sequence's own
     """
+    CREATE INDEX runs_by_sequence_claim ON runs (sequence_name, claim);
     CREATE TABLE store_senders (
         store_uid TEXT PRIMARY KEY,
         send_token TEXT NOT NULL,
