@@ -9,7 +9,6 @@ verified by read-back; the run is recorded as complete or aborted with its reaso
 from __future__ import annotations
 
 import contextlib
-import datetime as dt
 import logging
 import math
 import threading
@@ -73,7 +72,7 @@ from rig.step_judging import (
     supply_current_u,
 )
 from rig.steps import KINDS, Outcome, Reading, StepSpec, SupplyRequest
-from rig.store import ResultStore, RunHeader, StoreError
+from rig.store import ResultStore, RunHeader, StoreError, utc_now
 
 log = logging.getLogger(__name__)
 
@@ -625,7 +624,7 @@ class Engine:
         self._step_readings = 0
         self._ends_run = ""
         self._step_routes = planned.relay_sets if KINDS[spec.kind].routes_in_order else None
-        started = _now()
+        started = utc_now()
         kind = KINDS[spec.kind]
         unjudged = failed_input(spec, self._results)
         if unjudged:  # an input step failed: nothing to judge this one against
@@ -766,7 +765,7 @@ class Engine:
                 "verdict": result.verdict.value,
                 "tur": result.tur,
                 "started_at": started,
-                "ended_at": _now(),
+                "ended_at": utc_now(),
                 "settle_s": result.settle_s,
                 "note": result.note,
                 "extras": result.extras,
@@ -1289,7 +1288,3 @@ def _row_fields(reading: Reading, settled: bool) -> dict[str, Any]:
         "taken_at": reading.taken_at,
         "settled": settled,
     }
-
-
-def _now() -> str:
-    return dt.datetime.now(dt.UTC).isoformat(timespec="milliseconds")

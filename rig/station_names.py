@@ -11,9 +11,7 @@ whose file was replaced (a new disk, so a new ``store_uid``) takes its name over
 
 from __future__ import annotations
 
-import datetime as dt
-
-from rig.store import Connection, ResultStore, StoreError
+from rig.store import Connection, ResultStore, StoreError, utc_now
 
 TAKE_OVER_COMMAND = "rig sync --station STATION --take-over-name"
 
@@ -49,17 +47,13 @@ def _holder(owner: str) -> str:
     return f"another station's file (store id starts {owner[:8]})"
 
 
-def _now() -> str:
-    return dt.datetime.now(dt.UTC).isoformat(timespec="milliseconds")
-
-
 def check_name(db: Connection, name: str, store_uid: str, where: str) -> None:
     """Inside a send's transaction: claim ``name`` for the store ``store_uid`` where no one has;
     ``NameTaken`` where another store has (the transaction then sends nothing)."""
     db.execute(
         "INSERT INTO station_names (station, store_uid, claimed_at) VALUES (?, ?, ?)"
         " ON CONFLICT (station) DO NOTHING",
-        (name, store_uid, _now()),
+        (name, store_uid, utc_now()),
     )
     owner = str(
         db.execute("SELECT store_uid FROM station_names WHERE station=?", (name,)).fetchone()[0]
@@ -77,7 +71,7 @@ def take_over(remote: ResultStore, name: str, store_uid: str) -> str | None:
             "INSERT INTO station_names (station, store_uid, claimed_at) VALUES (?, ?, ?)"
             " ON CONFLICT (station) DO UPDATE SET store_uid = excluded.store_uid,"
             " claimed_at = excluded.claimed_at",
-            (name, store_uid, _now()),
+            (name, store_uid, utc_now()),
         )
     before = None if row is None else str(row[0])
     return None if before == store_uid else before
@@ -90,7 +84,7 @@ def move_claim(remote: ResultStore, name: str, before: str, after: str) -> bool:
         row = db.execute(
             "UPDATE station_names SET store_uid=?, claimed_at=? WHERE station=? AND store_uid=?"
             " RETURNING station",
-            (after, _now(), name, before),
+            (after, utc_now(), name, before),
         ).fetchone()
     return row is not None
 

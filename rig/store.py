@@ -361,7 +361,8 @@ class SqliteBackend:
         return [s for s in migration.split(";") if s.strip()]
 
 
-def _now() -> str:
+def utc_now() -> str:
+    """Now, in UTC, as every record of a store keeps a time (ISO 8601, to the millisecond)."""
     return dt.datetime.now(dt.UTC).isoformat(timespec="milliseconds")
 
 
@@ -501,7 +502,7 @@ class ResultStore:
         with self._tx() as db:
             db.execute(
                 "INSERT INTO send_tokens (target, token, issued_at) VALUES (?, ?, ?)",
-                (target, token, _now()),
+                (target, token, utc_now()),
             )
         return token
 
@@ -526,7 +527,7 @@ class ResultStore:
             row = db.execute(
                 "INSERT INTO store_senders (store_uid, send_token, station, host, sent_at)"
                 " VALUES (?, ?, ?, ?, ?) ON CONFLICT (store_uid) DO NOTHING RETURNING store_uid",
-                (store_uid, token, station, host, _now()),
+                (store_uid, token, station, host, utc_now()),
             ).fetchone()
         return row is not None
 
@@ -540,7 +541,7 @@ class ResultStore:
             row = db.execute(
                 "UPDATE store_senders SET send_token=?, station=?, host=?, sent_at=?"
                 " WHERE store_uid=? AND send_token=? RETURNING store_uid",
-                (token, station, host, _now(), store_uid, before),
+                (token, station, host, utc_now(), store_uid, before),
             ).fetchone()
         return row is not None
 
@@ -574,7 +575,7 @@ class ResultStore:
                     header.unit,
                     json.dumps(list(header.faults)),
                     json.dumps(list(header.instruments)),
-                    _now(),
+                    utc_now(),
                     header.study_part,
                     header.study_trial,
                     None if header.planned_steps is None else json.dumps(header.planned_steps),
@@ -669,7 +670,7 @@ class ResultStore:
                 "UPDATE runs SET ended_at=?, status=?, verdict=?, reason=?, notes=?,"
                 " cut_short_step=?, end_cause=? WHERE id=?",
                 (
-                    _now(),
+                    utc_now(),
                     status,
                     verdict,
                     reason,
@@ -723,7 +724,7 @@ class ResultStore:
                 db.execute(
                     "UPDATE runs SET status='incomplete', reason=?, ended_at=?, end_cause=?"
                     " WHERE id=?",
-                    (reason, _now(), EndCause.CONTROLLER_STOPPED.value, run_id),
+                    (reason, utc_now(), EndCause.CONTROLLER_STOPPED.value, run_id),
                 )
                 # a step cut short has no value, so none of its readings is the one its value
                 # came from (readings taken ahead go in flagged for the step they are for)

@@ -30,7 +30,7 @@ from typing import Any
 from rig.config.station import Station
 from rig.station_clock import skew
 from rig.station_names import NameTaken, check_name, held_text, take_over
-from rig.store import FILL_READING_UIDS, Migrate, ResultStore, StoreError
+from rig.store import FILL_READING_UIDS, Migrate, ResultStore, StoreError, utc_now
 from rig.store_copies import NotACopy, check_pass, new_store_id, this_sender
 from rig.store_open import open_local_store, open_server_store
 
@@ -184,7 +184,7 @@ def send_relay_wear(local: ResultStore, remote: ResultStore, store_uid: str) -> 
 
 
 def _mark_sent(local: ResultStore, target: str, run_uid: str, fingerprint: str) -> None:
-    now = dt.datetime.now(dt.UTC).isoformat(timespec="milliseconds")
+    now = utc_now()
     with local._tx() as db:
         db.execute(
             upsert_sql("sent_runs", ["target", "run_uid", "fingerprint", "sent_at"],
